@@ -1,0 +1,142 @@
+"""The command line: ``tolspread analyze``, and ``tolspread`` alone to open the window.
+
+Qt is imported only when the window is opened, so the command line works without the
+``gui`` extra. Bad input never shows a traceback: one line on stderr and exit status 2.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+from typing import Sequence
+
+from filters import __version__
+from filters.designfile import load, load_demo
+from filters.errors import InputError, ValidationError
+
+EXIT_BAD_INPUT = 2
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports a usage problem in one line and exits 2."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        sys.stderr.write(f"tolspread: {message} (see tolspread {self.prog.split()[-1]} --help)\n"
+                         if " " in self.prog else f"tolspread: {message} (see tolspread --help)\n")
+        raise SystemExit(EXIT_BAD_INPUT)
+
+
+def _positive_int(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if v < 1:
+        raise argparse.ArgumentTypeError(f"{text!r} must be at least 1")
+    return v
+
+
+def _seed(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if v < 0:
+        raise argparse.ArgumentTypeError(f"{text!r} must not be negative")
+    return v
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = _Parser(prog="tolspread", description="Tolerance spread and yield of analog filters. "
+                "'tolspread [DESIGN]' opens the window (the demo without DESIGN); "
+                "'tolspread --screenshot PNG [DESIGN]' renders it offscreen and exits.")
+    p.add_argument("--version", action="version", version=f"tolspread {__version__}")
+    sub = p.add_subparsers(dest="command", parser_class=_Parser)
+
+    a = sub.add_parser("analyze", help="Monte Carlo analysis of a design (the demo without DESIGN)")
+    a.add_argument("design", nargs="?", help="design file (JSON); omit for the built-in demo")
+    a.add_argument("--samples", type=_positive_int, help="number of sampled boards")
+    a.add_argument("--seed", type=_seed, help="random seed (same seed, same numbers)")
+    a.add_argument("--json", metavar="PATH", help="also write the results as JSON to PATH ('-' for stdout)")
+    return p
+
+
+def _load(path: str | None):
+    return load_demo() if path is None else load(path)
+
+
+def cmd_analyze(args: argparse.Namespace) -> int:
+    from .analyze_report import analyze, print_summary, to_json
+
+    design = _load(args.design)
+    result = analyze(design, samples=args.samples, seed=args.seed)
+    if args.json != "-":
+        print_summary(result, sys.stdout)
+    if args.json:
+        text = json.dumps(to_json(result), indent=2) + "\n"
+        if args.json == "-":
+            sys.stdout.write(text)
+        else:
+            from filters.designfile import write_text_atomic
+
+            write_text_atomic(Path(args.json), text, backup=False)
+    return 0
+
+
+SUBCOMMANDS = ("analyze",)
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the ``tolspread`` command; returns the exit status."""
+    argv = list(sys.argv[1:] if argv is None else argv)
+    parser = build_parser()
+    design_path: str | None = None
+    try:
+        if argv and argv[0] in SUBCOMMANDS:
+            args = parser.parse_args(argv)
+        else:  # the window: ``tolspread [--screenshot PNG] [DESIGN]``
+            window = _Parser(prog="tolspread", parents=[], add_help=False)
+            window.add_argument("--screenshot", metavar="PNG")
+            window.add_argument("design", nargs="?")
+            if any(a in ("-h", "--help", "--version") for a in argv):
+                args = parser.parse_args(argv)
+            else:
+                args = window.parse_args(argv)
+                args.command = None
+        design_path = getattr(args, "design", None)
+        if args.command == "analyze":
+            return cmd_analyze(args)
+        return open_window(design_path, args.screenshot)
+    except ValidationError as exc:
+        lines = exc.lines()
+        sys.stderr.write(f"tolspread: {_where(design_path)}{lines[0]}"
+                         f"{f' (and {len(lines) - 1} more)' if len(lines) > 1 else ''}\n")
+        for line in lines[1:]:
+            sys.stderr.write(f"  {line}\n")
+        return EXIT_BAD_INPUT
+    except InputError as exc:
+        where = "" if design_path and str(exc).startswith(design_path) else _where(design_path)
+        sys.stderr.write(f"tolspread: {where}{exc}\n")
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        sys.stderr.write("tolspread: stopped (Ctrl-C); nothing was written\n")
+        return 130
+
+
+def _where(path: str | None) -> str:
+    return f"{path}: " if path else ""
+
+
+def open_window(design_path: str | None, screenshot: str | None) -> int:
+    try:
+        from .qt_main import run_window
+    except ImportError as exc:
+        sys.stderr.write("tolspread: the window needs the gui extra: pip install 'tolspread[gui]' "
+                         f"({exc.name or exc})\n")
+        return EXIT_BAD_INPUT
+    return run_window(design_path, screenshot)
+
+
+if __name__ == "__main__":  # pragma: no cover
+    raise SystemExit(main())

@@ -1,0 +1,400 @@
+"""The design: parts with their grades, stages of topologies, analysis settings, spec mask.
+
+Plain frozen dataclasses, built from and written to the design file's dict form by
+:func:`design_from_dict` and :meth:`Design.to_dict` (see :mod:`filters.designfile` for the
+file itself). Loading checks the whole dict and reports every problem with its field path,
+not only the first.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+from typing import Any
+
+from .errors import InputError, ValidationError
+from .grades import Catalog, Grade, builtin_catalog
+from .mask import Span
+from .sampling import METHODS, Conditions
+from .topologies import TOPOLOGIES, Topology, build
+from .values import format_value, parse_value
+
+MAX_SAMPLES = 10_000_000
+MAX_POINTS = 5000
+INTERVALS = ("wilson", "exact")
+
+
+@dataclass(frozen=True)
+class Part:
+    """A part on the board: reference designator, marked value (SI units) and grade name.
+
+    ``kind`` is R, C, L or opamp (for an op-amp the value is its gain-bandwidth in Hz).
+    ``text`` keeps the value as the user wrote it (``4k7``), for display.
+    """
+
+    ref: str
+    kind: str
+    value: float
+    grade: str
+    text: str = ""
+
+    @property
+    def value_text(self) -> str:
+        return self.text or format_value(self.value)
+
+
+@dataclass(frozen=True)
+class Stage:
+    """One buffered stage: a topology with options, and which part fills each role."""
+
+    topology: str
+    roles: dict[str, str]
+    options: dict[str, Any] = field(default_factory=dict)
+    name: str = ""
+
+    def built(self) -> Topology:
+        return build(self.topology, self.options)
+
+
+@dataclass(frozen=True)
+class Analysis:
+    """Analysis settings. Frequencies in Hz, temperatures in deg C, cutoff_db in dB."""
+
+    samples: int = 5000
+    seed: int = 1
+    f_start: float = 10.0
+    f_stop: float = 1e6
+    points: int = 400
+    method: str = "random"
+    cutoff_db: float = 3.0
+    temp_low_c: float = 25.0
+    temp_high_c: float = 25.0
+    lot_share: float = 0.0
+    interval: str = "wilson"
+    confidence: float = 0.95
+
+    @property
+    def conditions(self) -> Conditions:
+        return Conditions(self.temp_low_c, self.temp_high_c, self.lot_share)
+
+
+@dataclass(frozen=True)
+class Design:
+    """Everything a design file holds. ``grades`` are the design's own grades, added to
+    (or replacing by name) the built-in catalog."""
+
+    parts: tuple[Part, ...]
+    stages: tuple[Stage, ...]
+    analysis: Analysis = Analysis()
+    mask: tuple[Span, ...] = ()
+    name: str = ""
+    description: str = ""
+    grades: tuple[Grade, ...] = ()
+
+    @property
+    def catalog(self) -> Catalog:
+        cat = builtin_catalog()
+        for g in self.grades:
+            cat = cat.with_grade(g)
+        return cat
+
+    def part_index(self, ref: str) -> int:
+        for i, p in enumerate(self.parts):
+            if p.ref == ref:
+                return i
+        raise InputError(f"no part {ref!r}", "parts")
+
+    def with_part(self, ref: str, **changes: Any) -> "Design":
+        """A copy with part ``ref`` changed (value, grade, text)."""
+        i = self.part_index(ref)
+        parts = list(self.parts)
+        parts[i] = replace(parts[i], **changes)
+        return replace(self, parts=tuple(parts))
+
+    def with_mask(self, mask: tuple[Span, ...]) -> "Design":
+        return replace(self, mask=tuple(mask))
+
+    def with_analysis(self, **changes: Any) -> "Design":
+        return replace(self, analysis=replace(self.analysis, **changes))
+
+    def to_dict(self) -> dict[str, Any]:
+        from .designfile import FORMAT_TAG, VERSION
+
+        a = self.analysis
+        out: dict[str, Any] = {"format": FORMAT_TAG, "version": VERSION}
+        if self.name:
+            out["name"] = self.name
+        if self.description:
+            out["description"] = self.description
+        out["parts"] = [{"ref": p.ref, "value": p.text or _exact_text(p.value), "grade": p.grade}
+                        for p in self.parts]
+        out["stages"] = []
+        for s in self.stages:
+            d: dict[str, Any] = {"topology": s.topology}
+            if s.name:
+                d["name"] = s.name
+            if s.options:
+                d["options"] = dict(s.options)
+            d["parts"] = dict(s.roles)
+            out["stages"].append(d)
+        out["analysis"] = {
+            "samples": a.samples, "seed": a.seed, "f_start": a.f_start, "f_stop": a.f_stop,
+            "points": a.points, "method": a.method, "cutoff_db": a.cutoff_db,
+            "temperature_c": [a.temp_low_c, a.temp_high_c], "lot_share": a.lot_share,
+            "interval": a.interval, "confidence": a.confidence,
+        }
+        out["mask"] = [s.to_dict() for s in self.mask]
+        if self.grades:
+            out["grades"] = [g.to_dict() for g in self.grades]
+        return out
+
+
+def _exact_text(x: float) -> str:
+    """A value text that parses back to exactly ``x``."""
+    text = format_value(x)
+    return text if parse_value(text) == x else repr(float(x))
+
+
+def _kind_of_role(topology: Topology, role: str) -> str | None:
+    return topology.roles.get(role) or topology.optional_roles.get(role)
+
+
+def _number(data: dict, key: str, path: str, problems: list[InputError], default: Any, *,
+            integer: bool = False, lo: float | None = None, hi: float | None = None,
+            lo_open: bool = False) -> Any:
+    if key not in data:
+        return default
+    v = data[key]
+    where = f"{path}.{key}"
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        problems.append(InputError(f"must be a number, not {v!r}", where))
+        return default
+    if not math.isfinite(v):
+        problems.append(InputError(f"must be finite, not {v!r}", where))
+        return default
+    if integer and v != int(v):
+        problems.append(InputError(f"must be a whole number, not {v!r}", where))
+        return default
+    if lo is not None and (v <= lo if lo_open else v < lo):
+        problems.append(InputError(f"must be {'above' if lo_open else 'at least'} {lo:g}, not {v:g}", where))
+        return default
+    if hi is not None and v > hi:
+        problems.append(InputError(f"must be at most {hi:g}, not {v:g}", where))
+        return default
+    return int(v) if integer else float(v)
+
+
+def analysis_from_dict(data: Any, problems: list[InputError], path: str = "analysis") -> Analysis:
+    if data is None:
+        return Analysis()
+    if not isinstance(data, dict):
+        problems.append(InputError("must be an object", path))
+        return Analysis()
+    known = {"samples", "seed", "f_start", "f_stop", "points", "method", "cutoff_db",
+             "temperature_c", "lot_share", "interval", "confidence"}
+    problems += [InputError(f"unknown setting {k!r}", f"{path}.{k}") for k in data if k not in known]
+    d = Analysis()
+    samples = _number(data, "samples", path, problems, d.samples, integer=True, lo=1, hi=MAX_SAMPLES)
+    seed = _number(data, "seed", path, problems, d.seed, integer=True, lo=0, hi=2**63 - 1)
+    f_start = _number(data, "f_start", path, problems, d.f_start, lo=0, lo_open=True)
+    f_stop = _number(data, "f_stop", path, problems, d.f_stop, lo=0, lo_open=True)
+    points = _number(data, "points", path, problems, d.points, integer=True, lo=20, hi=MAX_POINTS)
+    cutoff_db = _number(data, "cutoff_db", path, problems, d.cutoff_db, lo=0, hi=60, lo_open=True)
+    lot = _number(data, "lot_share", path, problems, d.lot_share, lo=0, hi=1)
+    conf = _number(data, "confidence", path, problems, d.confidence, lo=0.5, hi=0.9999)
+    if f_start >= f_stop:
+        problems.append(InputError(f"must be above f_start ({f_start:g} Hz)", f"{path}.f_stop"))
+    elif f_stop / f_start > 1e12:
+        problems.append(InputError("the range may span at most 12 decades", f"{path}.f_stop"))
+    method = data.get("method", d.method)
+    if method not in METHODS:
+        problems.append(InputError(f"must be one of {', '.join(METHODS)}, not {method!r}", f"{path}.method"))
+        method = d.method
+    interval = data.get("interval", d.interval)
+    if interval not in INTERVALS:
+        problems.append(InputError(f"must be one of {', '.join(INTERVALS)}, not {interval!r}", f"{path}.interval"))
+        interval = d.interval
+    t_lo, t_hi = d.temp_low_c, d.temp_high_c
+    if "temperature_c" in data:
+        t = data["temperature_c"]
+        if isinstance(t, (int, float)) and not isinstance(t, bool):
+            t = [t, t]
+        if (not isinstance(t, list) or len(t) != 2
+                or any(isinstance(x, bool) or not isinstance(x, (int, float)) or not math.isfinite(x) for x in t)):
+            problems.append(InputError("must be a temperature or [low, high] in deg C", f"{path}.temperature_c"))
+        elif not -273.15 < t[0] <= t[1] < 1000:
+            problems.append(InputError("must be [low, high] with low <= high, above -273.15 deg C",
+                                       f"{path}.temperature_c"))
+        else:
+            t_lo, t_hi = float(t[0]), float(t[1])
+    return Analysis(samples, seed, f_start, f_stop, points, method, cutoff_db, t_lo, t_hi, lot,
+                    interval, conf)
+
+
+def design_from_dict(data: Any) -> Design:
+    """Build a :class:`Design` from its dict form, checking everything.
+
+    Raises :class:`ValidationError` listing every problem with its field path.
+    """
+    problems: list[InputError] = []
+    if not isinstance(data, dict):
+        raise ValidationError([InputError("a design must be a JSON object", "")])
+    known = {"format", "version", "name", "description", "parts", "stages", "analysis", "mask", "grades"}
+    problems += [InputError(f"unknown field {k!r}", k) for k in data if k not in known]
+    for k in ("name", "description"):
+        if k in data and not isinstance(data[k], str):
+            problems.append(InputError("must be a text", k))
+
+    # Grades of the design's own, on top of the built-in catalog.
+    grades: list[Grade] = []
+    raw_grades = data.get("grades", [])
+    if not isinstance(raw_grades, list):
+        problems.append(InputError("must be a list of grades", "grades"))
+        raw_grades = []
+    for i, g in enumerate(raw_grades):
+        try:
+            grades.append(Grade.from_dict(g, f"grades[{i}]"))
+        except ValidationError as exc:
+            problems += exc.problems
+        except InputError as exc:
+            problems.append(exc)
+    catalog = builtin_catalog()
+    for g in grades:
+        catalog = catalog.with_grade(g)
+
+    # Stages first: they say which kind each part must be.
+    stages: list[Stage] = []
+    role_kind: dict[str, tuple[str, str]] = {}  # ref -> (kind, where)
+    raw_stages = data.get("stages")
+    if not isinstance(raw_stages, list) or not raw_stages:
+        problems.append(InputError("must be a non-empty list of stages", "stages"))
+        raw_stages = []
+    for i, s in enumerate(raw_stages):
+        path = f"stages[{i}]"
+        if not isinstance(s, dict):
+            problems.append(InputError("must be an object with topology and parts", path))
+            continue
+        problems += [InputError(f"unknown field {k!r}", f"{path}.{k}") for k in s
+                     if k not in ("topology", "options", "parts", "name")]
+        topo_name = s.get("topology")
+        if topo_name not in TOPOLOGIES:
+            problems.append(InputError(f"unknown topology {topo_name!r}; known: {', '.join(TOPOLOGIES)}",
+                                       f"{path}.topology"))
+            continue
+        options = s.get("options", {})
+        if not isinstance(options, dict):
+            problems.append(InputError("must be an object", f"{path}.options"))
+            continue
+        try:
+            topo = build(topo_name, options)
+        except InputError as exc:
+            problems.append(exc.at(path))
+            continue
+        roles = s.get("parts")
+        if not isinstance(roles, dict) or not all(isinstance(v, str) for v in roles.values()):
+            problems.append(InputError("must map each role to a reference designator, e.g. {\"R1\": \"R3\"}",
+                                       f"{path}.parts"))
+            continue
+        for role in topo.roles:
+            if role not in roles:
+                problems.append(InputError(f"role {role} needs a part", f"{path}.parts.{role}"))
+        for role, ref in roles.items():
+            kind = _kind_of_role(topo, role)
+            if kind is None:
+                problems.append(InputError(
+                    f"{topo_name} has no role {role!r}; its roles: "
+                    f"{', '.join(list(topo.roles) + list(topo.optional_roles))}", f"{path}.parts.{role}"))
+                continue
+            if ref in role_kind:
+                problems.append(InputError(f"part {ref} already fills {role_kind[ref][1]}; "
+                                           "each part fills one role", f"{path}.parts.{role}"))
+                continue
+            role_kind[ref] = (kind, f"{path}.parts.{role}")
+        name = s.get("name", "")
+        if not isinstance(name, str):
+            problems.append(InputError("must be a text", f"{path}.name"))
+            name = ""
+        stages.append(Stage(topo_name, dict(roles), dict(options), name))
+
+    parts: list[Part] = []
+    raw_parts = data.get("parts")
+    if not isinstance(raw_parts, list) or not raw_parts:
+        problems.append(InputError("must be a non-empty list of parts", "parts"))
+        raw_parts = []
+    seen: set[str] = set()
+    for i, p in enumerate(raw_parts):
+        path = f"parts[{i}]"
+        if not isinstance(p, dict):
+            problems.append(InputError("must be an object with ref, value and grade", path))
+            continue
+        problems += [InputError(f"unknown field {k!r}", f"{path}.{k}") for k in p
+                     if k not in ("ref", "value", "grade")]
+        ref = p.get("ref")
+        if not isinstance(ref, str) or not ref.strip():
+            problems.append(InputError("must be a reference designator such as R1", f"{path}.ref"))
+            continue
+        if ref in seen:
+            problems.append(InputError(f"reference designator {ref} is used twice", f"{path}.ref"))
+            continue
+        seen.add(ref)
+        if ref not in role_kind:
+            problems.append(InputError(f"part {ref} fills no role in any stage", f"{path}.ref"))
+            continue
+        kind = role_kind[ref][0]
+        raw = p.get("value")
+        text = ""
+        value = math.nan
+        if isinstance(raw, str):
+            try:
+                value = parse_value(raw, f"{path}.value")
+                text = raw.strip()
+            except InputError as exc:
+                problems.append(exc)
+                continue
+        elif isinstance(raw, (int, float)) and not isinstance(raw, bool):
+            value = float(raw)
+        else:
+            problems.append(InputError(f"must be a value such as 4.7k or 4k7, not {raw!r}", f"{path}.value"))
+            continue
+        if not math.isfinite(value) or value <= 0:
+            problems.append(InputError(f"must be a finite value above 0, not {raw!r}", f"{path}.value"))
+            continue
+        grade = p.get("grade")
+        if not isinstance(grade, str) or grade not in catalog:
+            problems.append(InputError(f"unknown grade {grade!r}; for a {kind} part use one of "
+                                       f"{', '.join(g.name for g in catalog.for_kind(kind))}", f"{path}.grade"))
+            continue
+        if not catalog[grade].fits(kind):
+            problems.append(InputError(f"grade {grade} is for {catalog[grade].kind} parts, but {ref} "
+                                       f"is a {kind} part", f"{path}.grade"))
+            continue
+        parts.append(Part(ref, kind, value, grade, text))
+    for ref, (kind, where) in role_kind.items():
+        if ref not in seen:
+            problems.append(InputError(f"part {ref} is not in the parts list", where))
+
+    analysis = analysis_from_dict(data.get("analysis"), problems)
+
+    mask: list[Span] = []
+    raw_mask = data.get("mask", [])
+    if not isinstance(raw_mask, list):
+        problems.append(InputError("must be a list of spans", "mask"))
+        raw_mask = []
+    for i, m in enumerate(raw_mask):
+        try:
+            span = Span.from_dict(m, f"mask[{i}]")
+        except ValidationError as exc:
+            problems += exc.problems
+            continue
+        except InputError as exc:
+            problems.append(exc)
+            continue
+        if span.f1 < analysis.f_start * (1 - 1e-12) or span.f2 > analysis.f_stop * (1 + 1e-12):
+            problems.append(InputError(
+                f"span {span.f1:g}-{span.f2:g} Hz lies outside the analysed range "
+                f"{analysis.f_start:g}-{analysis.f_stop:g} Hz", f"mask[{i}]"))
+            continue
+        mask.append(span)
+    if problems:
+        raise ValidationError(problems)
+    return Design(tuple(parts), tuple(stages), analysis, tuple(mask), data.get("name", ""),
+                  data.get("description", ""), tuple(grades))

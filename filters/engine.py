@@ -1,0 +1,304 @@
+"""The engine: a design's stages compiled to transfer functions, evaluated for every sample.
+
+Shapes: part values ``(samples, parts)`` in ohm, F, H (op-amps: gain-bandwidth in Hz);
+coefficients ``(samples, degree + 1)`` in ascending powers of s; responses
+``(samples, freqs)``. Stages are buffered, so the design's H(s) is the product of the
+stages' H(s); each stage is evaluated on its own with its frequency scaled to order 1,
+which keeps wide frequency ranges and extreme part values accurate.
+
+Frequency responses use real arithmetic only: p(jw) splits into an even part (real) and
+an odd part (imaginary), each a real polynomial in w^2. Gains are compared as linear
+power gains |H|^2; decibels are taken only for what is shown.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Literal
+
+import numpy as np
+
+from .design import Design
+from .errors import InputError
+from .netlist import TransferFunction, derive
+from .topologies import ResponseKind, Topology
+
+TWO_PI = 2 * math.pi
+
+
+@dataclass(frozen=True)
+class CompiledStage:
+    """A stage ready to evaluate: its transfer function and, per role, the part column."""
+
+    name: str
+    topology: Topology
+    tf: TransferFunction
+    columns: tuple[int, ...]  # part column of each of tf.roles
+
+    @property
+    def simple_phase(self) -> bool:
+        """True when the phase needs no unwrapping (degree <= 2, monomial numerator)."""
+        nz = [e for e in self.tf.num_expr if e != 0]
+        return self.tf.den_degree <= 2 and len(nz) == 1
+
+
+@dataclass(frozen=True)
+class Circuit:
+    """A compiled design: stages in signal order, and the response kind of the whole."""
+
+    stages: tuple[CompiledStage, ...]
+    kind: ResponseKind
+    refs: tuple[str, ...]
+
+
+_COMPILED: dict[tuple, Circuit] = {}
+
+
+def _structure_key(design: Design) -> tuple:
+    stages = tuple((s.topology, tuple(sorted(s.options.items())), tuple(sorted(s.roles.items())), s.name)
+                   for s in design.stages)
+    return stages, tuple(p.ref for p in design.parts)
+
+
+def compile_design(design: Design) -> Circuit:
+    """Compile (and cache by structure) the design's stages into a :class:`Circuit`."""
+    key = _structure_key(design)
+    hit = _COMPILED.get(key)
+    if hit is not None:
+        return hit
+    refs = tuple(p.ref for p in design.parts)
+    col = {r: i for i, r in enumerate(refs)}
+    stages = []
+    for i, st in enumerate(design.stages):
+        topo = st.built()
+        present = {r for r in topo.optional_roles if r in st.roles}
+        tf = derive(topo.with_opamps(present))
+        try:
+            cols = tuple(col[st.roles[r]] for r in tf.roles)
+        except KeyError as exc:
+            raise InputError(f"role {exc.args[0]} has no part", f"stages[{i}].parts") from None
+        stages.append(CompiledStage(st.name or f"stage {i + 1}", topo, tf, cols))
+    kinds = {s.topology.kind for s in stages}
+    kind: ResponseKind
+    if len(kinds) == 1:
+        kind = kinds.pop()
+    elif kinds == {"lowpass", "highpass"} or "bandpass" in kinds:
+        kind = "bandpass"
+    else:  # pragma: no cover - the three kinds above cover every mix
+        kind = "bandpass"
+    circuit = Circuit(tuple(stages), kind, refs)
+    if len(_COMPILED) > 64:
+        _COMPILED.clear()
+    _COMPILED[key] = circuit
+    return circuit
+
+
+@dataclass(frozen=True)
+class StageCoefficients:
+    """One stage's H(s) = N(s)/D(s) for every sample, scaled to s' = s / w_ref.
+
+    ``num`` and ``den``: (samples, degree + 1), ascending powers of s'; ``w_ref`` in rad/s
+    (one number for the whole batch). The scaled polynomials describe the same H.
+    """
+
+    num: np.ndarray
+    den: np.ndarray
+    w_ref: float
+
+    def unscaled(self) -> tuple[np.ndarray, np.ndarray]:
+        """(num, den) in ascending powers of s itself (rad/s)."""
+        k_n = self.w_ref ** -np.arange(self.num.shape[1])
+        k_d = self.w_ref ** -np.arange(self.den.shape[1])
+        return self.num * k_n, self.den * k_d
+
+
+def stage_coefficients(circuit: Circuit, values: np.ndarray) -> list[StageCoefficients]:
+    """Coefficients of every stage for part values ``values`` (samples, parts)."""
+    out = []
+    for st in circuit.stages:
+        args = {role: values[:, c] for role, c in zip(st.tf.roles, st.columns)}
+        num = st.tf.numerator(args)
+        den = st.tf.denominator(args)
+        n = den.shape[1] - 1
+        w_ref = 1.0
+        if n >= 1:
+            ratio = np.abs(den[:, 0] / den[:, n])
+            ratio = ratio[np.isfinite(ratio) & (ratio > 0)]
+            if ratio.size:
+                w_ref = float(np.median(ratio) ** (1.0 / n))
+        num = num * w_ref ** np.arange(num.shape[1])
+        den = den * w_ref ** np.arange(den.shape[1])
+        norm = np.max(np.abs(den), axis=1, keepdims=True)
+        norm[norm == 0] = 1.0
+        out.append(StageCoefficients(num / norm, den / norm, w_ref))
+    return out
+
+
+def _signed_parts(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Even and odd coefficient columns with the alternating signs of j^k folded in."""
+    even = c[:, 0::2].copy()
+    even[:, 1::2] *= -1
+    odd = c[:, 1::2].copy()
+    odd[:, 1::2] *= -1
+    return even, odd
+
+
+def _horner(coef: np.ndarray, xx: np.ndarray) -> np.ndarray:
+    """sum_m coef[:, m] * xx^m, with coef (S, M) and xx broadcasting against (S, 1)."""
+    acc = coef[:, -1:]
+    for m in range(coef.shape[1] - 2, -1, -1):
+        acc = acc * xx
+        acc += coef[:, m:m + 1]
+    return acc
+
+
+def poly_jw(c: np.ndarray, x: np.ndarray, xx: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Real and imaginary parts of p(jx) for coefficients ``c`` (S, K), ascending.
+
+    ``x`` and ``xx = x**2`` broadcast against (S, 1): a grid (F,) or per-sample (S, k).
+    """
+    even, odd = _signed_parts(c)
+    re = _horner(even, xx) if even.shape[1] else np.zeros((c.shape[0], 1))
+    im = _horner(odd, xx) * x if odd.shape[1] else np.zeros((c.shape[0], 1))
+    return re, im
+
+
+def _derivative(c: np.ndarray) -> np.ndarray:
+    if c.shape[1] == 1:
+        return np.zeros_like(c)
+    return c[:, 1:] * np.arange(1, c.shape[1])
+
+
+PhaseMode = Literal["none", "phase"]
+
+
+@dataclass(frozen=True)
+class Response:
+    """Responses on ``freqs_hz`` (F,): ``gain2`` = |H|^2 (S, F); ``phase_deg`` continuous
+    across frequency (S, F) or None; ``delay_s`` group delay (S, F) or None."""
+
+    freqs_hz: np.ndarray
+    gain2: np.ndarray
+    phase_deg: np.ndarray | None
+    delay_s: np.ndarray | None
+
+    @property
+    def gain_db(self) -> np.ndarray:
+        """Gain in dB (S, F)."""
+        return 10.0 * np.log10(np.maximum(self.gain2, 1e-300))
+
+
+def _unwrap(ph: np.ndarray) -> np.ndarray:
+    """Remove 2*pi jumps along the frequency axis (cheaper than numpy.unwrap)."""
+    if ph.shape[1] < 2:
+        return ph
+    jumps = np.rint(np.diff(ph, axis=1) * (1 / TWO_PI))
+    if not jumps.any():
+        return ph
+    ph[:, 1:] -= TWO_PI * np.cumsum(jumps, axis=1)
+    return ph
+
+
+def frequency_response(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz: np.ndarray,
+                       *, phase: bool = True, delay: bool = False) -> Response:
+    """|H|^2, phase and group delay of every sample on the frequency grid ``freqs_hz``."""
+    w = TWO_PI * np.asarray(freqs_hz, dtype=float)
+    gain2 = None
+    ph = None
+    tau = None
+    for st, sc in zip(circuit.stages, coeffs):
+        # In-place arithmetic throughout: temporaries dominate the cost at (S, F) sizes.
+        x = w / sc.w_ref
+        xx = x * x
+        nr, ni = poly_jw(sc.num, x, xx)
+        dr, di = poly_jw(sc.den, x, xx)
+        d2 = dr * dr
+        tmp = di * di
+        d2 += tmp
+        n2 = nr * nr
+        if sc.num.shape[1] > 1:
+            n2 = n2 + ni * ni
+        if delay:
+            dd = _derivative(sc.den)
+            ddr, ddi = poly_jw(dd, x, xx)
+            t = (ddr * dr + ddi * di) / d2
+            if np.count_nonzero(np.any(sc.num != 0, axis=0)) > 1:
+                nd = _derivative(sc.num)
+                ndr, ndi = poly_jw(nd, x, xx)
+                t = t - (ndr * nr + ndi * ni) / np.maximum(n2, 1e-300)
+            t /= sc.w_ref
+            tau = t if tau is None else _add_inplace(tau, t)
+        if phase:
+            if st.simple_phase:
+                k = int(np.flatnonzero(np.any(sc.num != 0, axis=0))[-1])
+                base = k * (math.pi / 2) + math.pi * (sc.num[:, k:k + 1] < 0)
+                p = np.arctan2(di, dr, out=tmp if tmp.shape == dr.shape else None)
+                np.subtract(base, p, out=p)
+            else:
+                p = np.arctan2(ni * dr - nr * di, nr * dr + ni * di)
+                p = _unwrap(p)
+            ph = p if ph is None else _add_inplace(ph, p)
+        g = np.divide(n2, d2, out=d2) if n2.shape[1] == 1 or n2.shape == d2.shape else n2 / d2
+        gain2 = g if gain2 is None else _mul_inplace(gain2, g)
+    assert gain2 is not None
+    s = coeffs[0].num.shape[0]
+    gain2 = np.broadcast_to(gain2, (s, w.size))
+    phase_deg = None
+    if ph is not None:
+        phase_deg = np.broadcast_to(np.multiply(ph, 180 / math.pi, out=ph if ph.flags.writeable else None),
+                                    (s, w.size))
+    return Response(np.asarray(freqs_hz, dtype=float), gain2, phase_deg,
+                    None if tau is None else np.broadcast_to(tau, (s, w.size)))
+
+
+def _mul_inplace(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    if a.shape == np.broadcast_shapes(a.shape, b.shape) and a.flags.writeable:
+        a *= b
+        return a
+    return a * b
+
+
+def _add_inplace(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    if a.shape == np.broadcast_shapes(a.shape, b.shape) and a.flags.writeable:
+        a += b
+        return a
+    return a + b
+
+
+def gain2_at(coeffs: list[StageCoefficients], f_hz: np.ndarray) -> np.ndarray:
+    """|H|^2 at per-sample frequencies ``f_hz`` shaped (S,) or (S, k) (exact, no grid)."""
+    f = np.asarray(f_hz, dtype=float)
+    col = f.ndim == 1
+    w = TWO_PI * (f[:, None] if col else f)
+    g = None
+    for sc in coeffs:
+        x = w / sc.w_ref
+        xx = x * x
+        nr, ni = poly_jw(sc.num, x, xx)
+        dr, di = poly_jw(sc.den, x, xx)
+        gs = (nr * nr + ni * ni) / (dr * dr + di * di)
+        g = gs if g is None else g * gs
+    assert g is not None
+    g = np.broadcast_to(g, w.shape)
+    return g[:, 0] if col else g
+
+
+def dc_gain2(coeffs: list[StageCoefficients]) -> np.ndarray:
+    """|H(0)|^2 per sample (S,); 0 where a stage blocks DC."""
+    g = None
+    for sc in coeffs:
+        gs = (sc.num[:, 0] / sc.den[:, 0]) ** 2
+        g = gs if g is None else g * gs
+    assert g is not None
+    return g
+
+
+def hf_gain2(coeffs: list[StageCoefficients]) -> np.ndarray:
+    """|H(s)|^2 as s -> infinity per sample (S,); 0 where a stage rolls off."""
+    g = None
+    for sc in coeffs:
+        n_deg, d_deg = sc.num.shape[1] - 1, sc.den.shape[1] - 1
+        gs = (sc.num[:, -1] / sc.den[:, -1]) ** 2 if n_deg == d_deg else np.zeros(sc.num.shape[0])
+        g = gs if g is None else g * gs
+    assert g is not None
+    return g

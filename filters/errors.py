@@ -1,0 +1,46 @@
+"""The project's one error family for bad input.
+
+Every problem carries the path of the offending field (for example ``parts[2].value``)
+and a plain reason. The command line prints one line per problem and exits 2; the window
+shows the message beside the field and keeps the last good value.
+"""
+from __future__ import annotations
+
+
+class TolspreadError(Exception):
+    """Base of every error this project raises on purpose."""
+
+
+class InputError(TolspreadError, ValueError):
+    """One bad input: ``path`` names the field, ``reason`` says what is wrong."""
+
+    def __init__(self, reason: str, path: str = "") -> None:
+        self.reason = reason
+        self.path = path
+        super().__init__(f"{path}: {reason}" if path else reason)
+
+    def at(self, prefix: str) -> "InputError":
+        """The same problem with ``prefix`` put in front of its path."""
+        if not prefix:
+            return self
+        sep = "" if not self.path or self.path.startswith("[") else "."
+        return InputError(self.reason, f"{prefix}{sep}{self.path}")
+
+
+class ValidationError(InputError):
+    """Several problems found at once (a design file is checked whole, not to the first error)."""
+
+    def __init__(self, problems: list[InputError]) -> None:
+        self.problems = list(problems)
+        first = self.problems[0] if self.problems else InputError("invalid input")
+        more = len(self.problems) - 1
+        reason = first.reason + (f" (and {more} more problem{'s' if more > 1 else ''})" if more > 0 else "")
+        super().__init__(reason, first.path)
+
+    def lines(self) -> list[str]:
+        """One readable line per problem."""
+        return [str(p) for p in self.problems]
+
+
+class Cancelled(TolspreadError):
+    """A long evaluation was stopped on request; partial results were discarded."""

@@ -1,0 +1,209 @@
+"""Per-sample metrics from coefficients and responses.
+
+All functions take arrays over samples and return arrays shaped (samples,) in Hz, dB or
+plain numbers (Q). Crossings found on the grid are refined by evaluating H exactly
+between the bracketing grid points, so a cutoff does not depend on the grid density.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .engine import Circuit, Response, StageCoefficients, dc_gain2, gain2_at, hf_gain2
+
+TWO_PI = 2 * math.pi
+
+
+def reference_gain2(circuit: Circuit, coeffs: list[StageCoefficients], resp: Response) -> np.ndarray:
+    """Passband reference |H|^2 per sample: DC gain (low-pass), high-frequency gain
+    (high-pass), or the peak on the grid (band-pass)."""
+    if circuit.kind == "lowpass":
+        return dc_gain2(coeffs)
+    if circuit.kind == "highpass":
+        return hf_gain2(coeffs)
+    return np.max(resp.gain2, axis=1)
+
+
+def _refine(coeffs: list[StageCoefficients], f_lo: np.ndarray, f_hi: np.ndarray, target2: np.ndarray,
+            iterations: int = 30) -> np.ndarray:
+    """The frequency in [f_lo, f_hi] where |H|^2 crosses ``target2`` (regula falsi in
+    log frequency against dB, Illinois variant), per sample."""
+    a, b = np.log(f_lo), np.log(f_hi)
+    t = 10 * np.log10(target2)
+    fa = 10 * np.log10(np.maximum(gain2_at(coeffs, f_lo), 1e-300)) - t
+    fb = 10 * np.log10(np.maximum(gain2_at(coeffs, f_hi), 1e-300)) - t
+    side = np.zeros(a.shape)
+    c = a.copy()
+    for _ in range(iterations):
+        denom = fb - fa
+        c = np.where(denom != 0, b - fb * (b - a) / np.where(denom != 0, denom, 1), 0.5 * (a + b))
+        fc = 10 * np.log10(np.maximum(gain2_at(coeffs, np.exp(c)), 1e-300)) - t
+        same_a = np.sign(fc) == np.sign(fa)
+        # move the end on the side of c; halve the value kept at the other end (Illinois)
+        a = np.where(same_a, c, a)
+        fa_new = np.where(same_a, fc, fa)
+        fb = np.where(same_a & (side == -1), fb / 2, fb)
+        b = np.where(~same_a, c, b)
+        fb = np.where(~same_a, fc, fb)
+        fa_new = np.where(~same_a & (side == 1), fa_new / 2, fa_new)
+        fa = fa_new
+        side = np.where(same_a, -1, 1)
+        if np.all(np.abs(fc) < 1e-10):
+            break
+    return np.exp(c)
+
+
+def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray,
+             direction: str) -> np.ndarray:
+    """Frequency (Hz) per sample where |H|^2 crosses ``level2`` (S,).
+
+    ``direction="falling"``: the highest frequency above which the gain stays below the
+    level (a low-pass edge); ``"rising"``: the lowest frequency below which it stays
+    below (a high-pass edge). NaN where there is no crossing inside the grid.
+    """
+    g2 = resp.gain2
+    f = resp.freqs_hz
+    above = g2 >= level2[:, None]
+    n = f.size
+    rows = np.arange(g2.shape[0])
+    if direction == "falling":
+        last = n - 1 - np.argmax(above[:, ::-1], axis=1)  # last index at or above the level
+        ok = above[rows, last] & (last < n - 1)
+        i = np.minimum(last, n - 2)
+        lo, hi = f[i], f[i + 1]
+    else:
+        first = np.argmax(above, axis=1)
+        ok = above[rows, first] & (first > 0)
+        i = np.maximum(first, 1)
+        lo, hi = f[i - 1], f[i]
+    out = np.full(g2.shape[0], np.nan)
+    if ok.any():
+        sub = [StageCoefficients(c.num[ok], c.den[ok], c.w_ref) for c in coeffs]
+        out[ok] = _refine(sub, lo[ok], hi[ok], level2[ok])
+    return out
+
+
+def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Response,
+                   cutoff_db: float) -> dict[str, np.ndarray]:
+    """Reference gain, cutoff(s) and peaking per sample.
+
+    Low-pass and high-pass: ``cutoff_hz``. Band-pass: ``centre_hz`` (peak), ``lower_hz``,
+    ``upper_hz`` and ``bandwidth_hz`` at ``cutoff_db`` below the peak; ``cutoff_hz`` is the
+    centre there. ``reference_db`` and ``peaking_db`` (peak above the reference) always.
+    """
+    ref2 = reference_gain2(circuit, coeffs, resp)
+    level2 = ref2 * 10 ** (-cutoff_db / 10)
+    out: dict[str, np.ndarray] = {"reference_db": 10 * np.log10(np.maximum(ref2, 1e-300))}
+    peak_i = np.argmax(resp.gain2, axis=1)
+    peak2 = resp.gain2[np.arange(resp.gain2.shape[0]), peak_i]
+    out["peaking_db"] = 10 * np.log10(np.maximum(peak2, 1e-300) / np.maximum(ref2, 1e-300))
+    if circuit.kind == "lowpass":
+        out["cutoff_hz"] = crossing(resp, coeffs, level2, "falling")
+    elif circuit.kind == "highpass":
+        out["cutoff_hz"] = crossing(resp, coeffs, level2, "rising")
+    else:
+        f = resp.freqs_hz
+        # the peak's frequency from a parabola through the top three grid points (log f, dB)
+        i = np.clip(peak_i, 1, f.size - 2)
+        rows = np.arange(f.size and resp.gain2.shape[0])
+        y0, y1, y2 = (10 * np.log10(np.maximum(resp.gain2[rows, i + d], 1e-300)) for d in (-1, 0, 1))
+        curv = y0 - 2 * y1 + y2
+        shift = np.where(curv < 0, 0.5 * (y0 - y2) / np.where(curv < 0, curv, -1), 0.0)
+        lf = np.log(f)
+        step = lf[i + 1] - lf[i]
+        centre = np.exp(lf[i] + np.clip(shift, -1, 1) * step)
+        lower = _half_crossing(resp, coeffs, level2, peak_i, below=True)
+        upper = _half_crossing(resp, coeffs, level2, peak_i, below=False)
+        out.update(centre_hz=centre, lower_hz=lower, upper_hz=upper, bandwidth_hz=upper - lower,
+                   cutoff_hz=centre)
+    return out
+
+
+def _half_crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray,
+                   peak_i: np.ndarray, below: bool) -> np.ndarray:
+    """Band edge on one side of the peak: the crossing nearest the peak."""
+    g2 = resp.gain2
+    n = g2.shape[1]
+    idx = np.arange(n)[None, :]
+    under = g2 < level2[:, None]
+    if below:
+        cand = under & (idx < peak_i[:, None])
+        j = n - 1 - np.argmax(cand[:, ::-1], axis=1)  # last index below the level left of the peak
+        ok = cand[np.arange(g2.shape[0]), j]
+        lo_i, hi_i = j, np.minimum(j + 1, n - 1)
+    else:
+        cand = under & (idx > peak_i[:, None])
+        j = np.argmax(cand, axis=1)
+        ok = cand[np.arange(g2.shape[0]), j]
+        lo_i, hi_i = np.maximum(j - 1, 0), j
+    f = resp.freqs_hz
+    out = np.full(g2.shape[0], np.nan)
+    if ok.any():
+        sub = [StageCoefficients(c.num[ok], c.den[ok], c.w_ref) for c in coeffs]
+        out[ok] = _refine(sub, f[lo_i[ok]], f[hi_i[ok]], level2[ok])
+    return out
+
+
+def attenuation_db(coeffs: list[StageCoefficients], ref2: np.ndarray, f_hz: float) -> np.ndarray:
+    """Attenuation (dB, positive = below the reference) at ``f_hz`` per sample."""
+    g2 = gain2_at(coeffs, np.full(ref2.shape, float(f_hz)))
+    return 10 * np.log10(np.maximum(ref2, 1e-300) / np.maximum(g2, 1e-300))
+
+
+def pole_pairs(den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
+    """f0 (Hz) and Q of the complex pole pairs of denominators ``den`` (S, n+1).
+
+    Returns arrays (S, pairs) sorted by ascending Q per sample; NaN where a sample has
+    fewer complex pairs. Degree 2 uses the closed form (any Q, also below 1/2).
+    """
+    s_count, k = den.shape
+    n = k - 1
+    if n == 2:
+        d0, d1, d2 = den[:, 0], den[:, 1], den[:, 2]
+        w0 = np.sqrt(d0 / d2) * w_ref
+        q = np.sqrt(d0 * d2) / d1
+        return (w0 / TWO_PI)[:, None], q[:, None]
+    if n < 2:
+        return np.empty((s_count, 0)), np.empty((s_count, 0))
+    comp = np.zeros((s_count, n, n))
+    comp[:, 1:, :-1] = np.eye(n - 1)
+    comp[:, :, -1] = -den[:, :-1] / den[:, -1:]
+    roots = np.linalg.eigvals(comp) * w_ref  # rad/s
+    upper = np.where(roots.imag > 1e-9 * np.abs(roots), roots, np.nan)
+    w0 = np.abs(upper)
+    q = w0 / (2 * np.abs(upper.real))
+    q = np.where(np.isfinite(w0), q, np.nan)
+    order = np.argsort(np.where(np.isnan(q), np.inf, q), axis=1)
+    pairs = n // 2
+    w0 = np.take_along_axis(w0, order, axis=1)[:, :pairs]
+    q = np.take_along_axis(q, order, axis=1)[:, :pairs]
+    return w0 / TWO_PI, q
+
+
+def stage_metrics(circuit: Circuit, coeffs: list[StageCoefficients]) -> dict[str, np.ndarray]:
+    """Each stage's f0 (Hz) and Q, named ``s<k>.f0_hz`` / ``s<k>.q`` (k from 1).
+
+    A first-order stage gives ``s<k>.fc_hz``. A stage of higher order gives its
+    highest-Q pair as ``s<k>.f0_hz``/``s<k>.q`` and every pair as ``s<k>.p<j>.f0_hz``...
+    """
+    out: dict[str, np.ndarray] = {}
+    for k, (st, sc) in enumerate(zip(circuit.stages, coeffs), 1):
+        n = sc.den.shape[1] - 1
+        if n == 1:
+            out[f"s{k}.fc_hz"] = sc.den[:, 0] / sc.den[:, 1] * sc.w_ref / TWO_PI
+            continue
+        f0, q = pole_pairs(sc.den, sc.w_ref)
+        if f0.shape[1] == 0:
+            continue
+        if np.all(np.isnan(q)):
+            continue  # only real poles (a passive RC ladder): no f0 and Q to report
+        best = np.argmax(np.where(np.isnan(q), -np.inf, q), axis=1)  # the highest-Q pair
+        rows = np.arange(q.shape[0])
+        out[f"s{k}.f0_hz"] = f0[rows, best]
+        out[f"s{k}.q"] = q[rows, best]
+        if f0.shape[1] > 1:
+            for j in range(f0.shape[1]):
+                out[f"s{k}.p{j + 1}.f0_hz"] = f0[:, j]
+                out[f"s{k}.p{j + 1}.q"] = q[:, j]
+    return out

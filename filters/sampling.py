@@ -1,0 +1,156 @@
+"""Sampling part values: standard scores drawn once, mapped through each part's grade.
+
+Common random numbers: :func:`draw_scores` depends only on the seed, the method, the
+number of parts and the sample range, never on the grades. A grade maps the same scores
+to values, so changing a tolerance rescales the same sampled boards, and two grade
+choices are compared on the same boards.
+
+Scores come in fixed blocks of :data:`BLOCK` samples, block ``k`` from its own child of
+``numpy.random.SeedSequence(seed)``. Samples ``[start, stop)`` are therefore the same
+whether drawn at once or in chunks, and a run of N samples is a prefix of a run of more.
+
+Columns of the score array, for P parts: ``[0, P)`` value, ``[P, 2P)`` lot, ``[2P, 3P)``
+temperature coefficient, ``[3P, 4P)`` drift, ``4P`` board temperature.
+"""
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass
+from typing import Literal, Sequence
+
+import numpy as np
+from scipy import special, stats
+
+from .errors import InputError
+from .grades import Grade
+
+Method = Literal["random", "sobol"]
+METHODS: tuple[str, ...] = ("random", "sobol")
+BLOCK = 4096
+REFERENCE_CELSIUS = 25.0
+_U_EPS = 1e-12
+
+
+def columns(n_parts: int) -> int:
+    """Number of score columns for ``n_parts`` parts."""
+    return 4 * n_parts + 1
+
+
+def draw_scores(seed: int, n_parts: int, start: int, stop: int, method: Method = "random") -> np.ndarray:
+    """Standard normal scores for samples ``[start, stop)``, shape (stop - start, 4P + 1).
+
+    ``method`` is ``random`` (numpy PCG64) or ``sobol`` (scrambled Sobol points from
+    scipy.stats.qmc, seeded by ``seed``, mapped through the normal inverse CDF).
+    """
+    if not 0 <= start <= stop:
+        raise InputError(f"bad sample range [{start}, {stop})", "samples")
+    ncol = columns(n_parts)
+    if method == "sobol":
+        engine = stats.qmc.Sobol(d=ncol, scramble=True, seed=np.random.default_rng(seed))
+        if start:
+            engine.fast_forward(start)
+        with warnings.catch_warnings():
+            # Balance is best at powers of two; other counts are still valid QMC points.
+            warnings.simplefilter("ignore", UserWarning)
+            u = engine.random(stop - start)
+        return special.ndtri(np.clip(u, _U_EPS, 1 - _U_EPS))
+    if method != "random":
+        raise InputError(f"unknown sampling method {method!r}; use random or sobol", "analysis.method")
+    out = np.empty((stop - start, ncol))
+    first, last = start // BLOCK, (stop - 1) // BLOCK if stop > start else start // BLOCK - 1
+    for k in range(first, last + 1):  # blocks, not samples: at most stop/BLOCK iterations
+        rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence(seed, spawn_key=(k,))))
+        block = rng.standard_normal((BLOCK, ncol))
+        lo, hi = max(start, k * BLOCK), min(stop, (k + 1) * BLOCK)
+        out[lo - start:hi - start] = block[lo - k * BLOCK:hi - k * BLOCK]
+    return out
+
+
+def relative_deviation(grade: Grade, z: np.ndarray) -> np.ndarray:
+    """Relative deviation (fraction) of parts of ``grade`` from standard normal scores ``z``."""
+    tol = grade.tolerance_pct / 100.0
+    if tol == 0:
+        return np.zeros_like(z)
+    if grade.distribution == "uniform":
+        return tol * (2 * special.ndtr(z) - 1)
+    c = grade.coverage  # the tolerance limit in standard deviations
+    sigma = tol / c
+    if grade.distribution == "binned":
+        b = grade.bin_inner_pct / 100.0 / sigma
+        lo_c, lo_b = special.ndtr(-c), special.ndtr(-b)
+        mass = lo_b - lo_c  # probability of one hump
+        u = special.ndtr(z)
+        low = special.ndtri(np.clip(lo_c + 2 * u * mass, _U_EPS, 1 - _U_EPS))
+        high = special.ndtri(np.clip(special.ndtr(b) + (2 * u - 1) * mass, _U_EPS, 1 - _U_EPS))
+        return sigma * np.where(u < 0.5, low, high)
+    if grade.truncate:
+        lo, hi = special.ndtr(-c), special.ndtr(c)
+        u = lo + special.ndtr(z) * (hi - lo)
+        return sigma * np.clip(special.ndtri(np.clip(u, _U_EPS, 1 - _U_EPS)), -c, c)
+    return sigma * z
+
+
+@dataclass(frozen=True)
+class Conditions:
+    """Board conditions: temperature range in deg C (equal ends: fixed), lot share 0..1.
+
+    ``lot_share`` is the fraction of a part's value variance shared by parts of the same
+    marked value and grade on one board (taken from one reel); 0 means independent parts.
+    """
+
+    temp_low_c: float = REFERENCE_CELSIUS
+    temp_high_c: float = REFERENCE_CELSIUS
+    lot_share: float = 0.0
+
+
+def part_values(nominal: Sequence[float], grades: Sequence[Grade], scores: np.ndarray,
+                conditions: Conditions = Conditions()) -> np.ndarray:
+    """Sampled part values, shape (samples, parts), in SI units (ohm, F, H, Hz).
+
+    ``scores`` comes from :func:`draw_scores` with the same number of parts.
+    """
+    nom = np.asarray(nominal, dtype=float)
+    p = nom.size
+    if scores.shape[1] != columns(p) or len(grades) != p:
+        raise ValueError("scores, nominal values and grades disagree on the number of parts")
+    rho = conditions.lot_share
+    z_value = scores[:, :p]
+    if rho > 0:
+        leader: dict[tuple[float, str], int] = {}
+        lot_cols = [leader.setdefault((float(nom[i]), grades[i].name), i) for i in range(p)]
+        z_value = np.sqrt(1 - rho) * z_value + np.sqrt(rho) * scores[:, p:2 * p][:, lot_cols]
+    u_tc = 2 * special.ndtr(scores[:, 2 * p:3 * p]) - 1
+    u_drift = 2 * special.ndtr(scores[:, 3 * p:4 * p]) - 1
+    t_span = conditions.temp_high_c - conditions.temp_low_c
+    temp = conditions.temp_low_c + t_span * special.ndtr(scores[:, 4 * p])
+    d_temp = (temp - REFERENCE_CELSIUS)[:, None]
+    out = np.empty((scores.shape[0], p))
+    for i, g in enumerate(grades):  # parts, not samples
+        factor = 1 + relative_deviation(g, z_value[:, i])
+        if g.tempco_ppm or g.tempco_spread_ppm:
+            tc = (g.tempco_ppm + g.tempco_spread_ppm * u_tc[:, i]) * 1e-6
+            factor = factor * (1 + tc * d_temp[:, 0])
+        if g.drift_pct:
+            factor = factor * (1 + g.drift_pct / 100.0 * u_drift[:, i])
+        out[:, i] = nom[i] * factor
+    return out
+
+
+def limits(nominal: Sequence[float], grades: Sequence[Grade], conditions: Conditions = Conditions()
+           ) -> tuple[np.ndarray, np.ndarray]:
+    """The lowest and highest value each part can take, shape (parts,) each.
+
+    Includes the tolerance, the temperature coefficient's extreme at either end of the
+    temperature range, and drift. Used for worst-case corners.
+    """
+    nom = np.asarray(nominal, dtype=float)
+    lo = np.empty_like(nom)
+    hi = np.empty_like(nom)
+    d_temps = (conditions.temp_low_c - REFERENCE_CELSIUS, conditions.temp_high_c - REFERENCE_CELSIUS)
+    for i, g in enumerate(grades):
+        tol = g.tolerance_pct / 100.0
+        tcs = [(g.tempco_ppm + s * g.tempco_spread_ppm) * 1e-6 * dt for s in (-1, 1) for dt in d_temps]
+        drift = g.drift_pct / 100.0
+        lo[i] = nom[i] * (1 - tol) * (1 + min(tcs)) * (1 - drift)
+        hi[i] = nom[i] * (1 + tol) * (1 + max(tcs)) * (1 + drift)
+    return lo, hi

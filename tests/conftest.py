@@ -1,0 +1,20 @@
+"""Test settings shared by every module.
+
+Qt runs offscreen (set before anything imports Qt), and settings, logs and recovery files
+go to a temporary folder so tests never touch a user's files.
+"""
+from __future__ import annotations
+
+import os
+
+os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+
+import pytest  # noqa: E402
+
+
+@pytest.fixture(autouse=True)
+def _isolated_user_files(tmp_path_factory, monkeypatch):
+    home = tmp_path_factory.mktemp("home")
+    monkeypatch.setenv("TOLSPREAD_CONFIG_DIR", str(home))
+    monkeypatch.setenv("XDG_CONFIG_HOME", str(home))
+    yield
