@@ -47,6 +47,16 @@ def _seed(text: str) -> int:
     return v
 
 
+def _fraction_points(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+    if not 0 < v < 50:
+        raise argparse.ArgumentTypeError(f"{text!r} must be above 0 and below 50 percentage points")
+    return v / 100.0
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="tolspread", description="Tolerance spread and yield of analog filters. "
                 "'tolspread [DESIGN]' opens the window (the demo without DESIGN); "
@@ -59,6 +69,12 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--samples", type=_positive_int, help="number of sampled boards")
     a.add_argument("--seed", type=_seed, help="random seed (same seed, same numbers)")
     a.add_argument("--json", metavar="PATH", help="also write the results as JSON to PATH ('-' for stdout)")
+    a.add_argument("--half-width", type=_fraction_points, metavar="POINTS",
+                   help="add boards until the yield interval's half-width is at most POINTS percentage points")
+    a.add_argument("--max-samples", type=_positive_int, default=1_000_000,
+                   help="upper limit for --half-width (default 1000000)")
+    a.add_argument("--qmc", action="store_true", help="quasi-Monte Carlo: scrambled Sobol points instead of random")
+    a.add_argument("--interval", choices=("wilson", "exact"), help="yield interval: Wilson score or exact (Clopper-Pearson)")
     return p
 
 
@@ -70,7 +86,8 @@ def cmd_analyze(args: argparse.Namespace) -> int:
     from .analyze_report import analyze, print_summary, to_json
 
     design = _load(args.design)
-    result = analyze(design, samples=args.samples, seed=args.seed)
+    result = analyze(design, samples=args.samples, seed=args.seed, method="sobol" if args.qmc else None,
+                     interval=args.interval, half_width=args.half_width, max_samples=args.max_samples)
     if args.json != "-":
         print_summary(result, sys.stdout)
     if args.json:
@@ -119,6 +136,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         where = "" if design_path and str(exc).startswith(design_path) else _where(design_path)
         sys.stderr.write(f"tolspread: {where}{exc}\n")
         return EXIT_BAD_INPUT
+    except BrokenPipeError:  # output piped into a program that stopped reading
+        return 0
     except KeyboardInterrupt:
         sys.stderr.write("tolspread: stopped (Ctrl-C); nothing was written\n")
         return 130

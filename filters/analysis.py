@@ -1,26 +1,40 @@
 """The main job in one call: evaluate a design's boards and gather every result.
 
-:func:`analyze` is what the command line, the window and the report share. It returns an
-:class:`Analysis` result object; nothing here formats or plots.
+:func:`analyze` is what the command line, the window and the report share: it samples
+the boards (a fixed count, or batches until the yield's interval is narrow enough),
+judges them against the mask, and computes the yield with its interval, the failure
+breakdown, the spread budget and the corners. It returns an :class:`AnalysisResult`;
+nothing here formats or plots.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
-from typing import Any, Callable
+from dataclasses import dataclass, replace
+from typing import Callable
 
+import numpy as np
+
+from .budget import Budget, spread_budget
+from .corners import Corners, corners
 from .design import Design
-from .evaluate import Ensemble, evaluate
+from .evaluate import Ensemble, Prepared, evaluate, prepare
+from .stats import SpanFailures, YieldEstimate, adaptive_yield, failure_breakdown, yield_estimate
 from .summary import MetricSummary, summarize
 
 
 @dataclass(frozen=True)
 class AnalysisResult:
-    """Everything one analysis found. ``summaries`` by metric name."""
+    """Everything one analysis found. ``summaries`` by metric name; ``budget`` by metric
+    name; ``history`` the yield after each batch of an adaptive run (else one entry)."""
 
     design: Design
     ensemble: Ensemble
+    prepared: Prepared
     summaries: dict[str, MetricSummary]
-    extra: dict[str, Any] = field(default_factory=dict)
+    yield_: YieldEstimate
+    spans: list[SpanFailures]
+    budget: dict[str, Budget]
+    corners: Corners
+    history: list[YieldEstimate]
 
     @property
     def samples(self) -> int:
@@ -31,12 +45,61 @@ class AnalysisResult:
         return self.ensemble.seed
 
 
+def concat(parts: list[Ensemble]) -> Ensemble:
+    """Join ensembles of consecutive sample ranges of one seed (curves are dropped)."""
+    if len(parts) == 1:
+        return parts[0]
+    first = parts[0]
+    metrics = {k: np.concatenate([p.metrics[k] for p in parts]) for k in first.metrics}
+    return replace(first, values=np.concatenate([p.values for p in parts]),
+                   margins=np.concatenate([p.margins for p in parts]), metrics=metrics,
+                   gain_db=None, phase_deg=None, delay_s=None)
+
+
+def yield_of(ens: Ensemble, confidence: float, method: str) -> tuple[YieldEstimate, list[SpanFailures]]:
+    """Yield with its interval, and the per-span failure breakdown."""
+    est = yield_estimate(ens.passed, None, confidence, method)  # type: ignore[arg-type]
+    names = [s.label for s in ens.design.mask]
+    spans = failure_breakdown(ens.margins >= 0, ens.margins, names) if names else []
+    return est, spans
+
+
 def analyze(design: Design, *, samples: int | None = None, seed: int | None = None,
-            method: str | None = None, curves: bool = False,
+            method: str | None = None, interval: str | None = None,
+            half_width: float | None = None, max_samples: int = 1_000_000,
             progress: Callable[[int, int], None] | None = None,
             should_stop: Callable[[], bool] | None = None) -> AnalysisResult:
-    """Sample ``design`` and summarise every metric."""
-    ens = evaluate(design, samples=samples, seed=seed, method=method, curves=curves, phase=curves,
-                   progress=progress, should_stop=should_stop)
+    """Sample ``design``, judge it against its mask and gather every result.
+
+    With ``half_width`` (a fraction, 0.01 = one percentage point) boards are added in
+    batches until the yield interval's half-width is at most that, or ``max_samples``.
+    """
+    a = design.analysis
+    interval = interval or a.interval
+    prep = prepare(design)
+    if half_width is None:
+        ens = evaluate(design, samples=samples, seed=seed, method=method, curves=False,
+                       prepared=prep, progress=progress, should_stop=should_stop)
+        est, spans = yield_of(ens, a.confidence, interval)
+        history = [est]
+    else:
+        batches: list[Ensemble] = []
+
+        def run_batch(start: int, stop: int) -> np.ndarray:
+            e = evaluate(design, samples=stop - start, start=start, seed=seed, method=method,
+                         curves=False, prepared=prep, should_stop=should_stop)
+            batches.append(e)
+            if progress is not None:
+                progress(stop, max_samples)
+            return e.passed
+
+        first = samples or min(2000, max_samples)
+        est, history = adaptive_yield(run_batch, half_width=half_width, batch=first,
+                                      max_samples=max_samples, confidence=a.confidence,
+                                      method=interval, should_stop=should_stop)  # type: ignore[arg-type]
+        ens = concat(batches)
+        _, spans = yield_of(ens, a.confidence, interval)
     summaries = {name: summarize(ens, name) for name in ens.metrics}
-    return AnalysisResult(design, ens, summaries)
+    budget = spread_budget(ens, prep)
+    corner_result = corners(ens, prep)
+    return AnalysisResult(design, ens, prep, summaries, est, spans, budget, corner_result, history)

@@ -37,9 +37,14 @@ class CompiledStage:
 
     @property
     def simple_phase(self) -> bool:
-        """True when the phase needs no unwrapping (degree <= 2, monomial numerator)."""
+        """True when the phase needs no unwrapping (degree 1 or 2, monomial numerator)."""
         nz = [e for e in self.tf.num_expr if e != 0]
-        return self.tf.den_degree <= 2 and len(nz) == 1
+        return 1 <= self.tf.den_degree <= 2 and len(nz) == 1
+
+    @property
+    def num_power(self) -> int:
+        """k of a monomial numerator c*s^k."""
+        return max(i for i, e in enumerate(self.tf.num_expr) if e != 0)
 
 
 @dataclass(frozen=True)
@@ -199,56 +204,117 @@ def _unwrap(ph: np.ndarray) -> np.ndarray:
     return ph
 
 
+BLOCK_ROWS = 128  # samples per block: a block's temporaries stay in the CPU cache
+
+
 def frequency_response(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz: np.ndarray,
                        *, phase: bool = True, delay: bool = False) -> Response:
-    """|H|^2, phase and group delay of every sample on the frequency grid ``freqs_hz``."""
+    """|H|^2, phase and group delay of every sample on the frequency grid ``freqs_hz``.
+
+    Works through the samples in blocks of :data:`BLOCK_ROWS` rows (not one sample at a
+    time): the arithmetic is memory-bound, and a block's temporaries fit in cache.
+    """
+    s = coeffs[0].num.shape[0]
+    if s <= BLOCK_ROWS:
+        return _response_block(circuit, coeffs, freqs_hz, phase=phase, delay=delay)
+    f = np.asarray(freqs_hz, dtype=float)
+    gain2 = np.empty((s, f.size))
+    ph = np.empty((s, f.size)) if phase else None
+    tau = np.empty((s, f.size)) if delay else None
+    for lo in range(0, s, BLOCK_ROWS):
+        hi = min(s, lo + BLOCK_ROWS)
+        sub = [StageCoefficients(c.num[lo:hi], c.den[lo:hi], c.w_ref) for c in coeffs]
+        r = _response_block(circuit, sub, f, phase=phase, delay=delay)
+        gain2[lo:hi] = r.gain2
+        if ph is not None:
+            ph[lo:hi] = r.phase_deg
+        if tau is not None:
+            tau[lo:hi] = r.delay_s
+    return Response(f, gain2, ph, tau)
+
+
+def _response_block(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz: np.ndarray,
+                    *, phase: bool = True, delay: bool = False) -> Response:
+    """:func:`frequency_response` for one block of samples.
+
+    Stages of degree <= 2 with a monomial numerator c*s^k (every Sallen-Key and
+    multiple-feedback section, first-order sections) take a lean path: |N|^2 = c^2 w^2k,
+    the phase is k*90 deg (+180 if c < 0) minus the denominator's angle, which lies in
+    (0, 180) deg, so nothing needs unwrapping. Other stages are evaluated in general.
+    """
     w = TWO_PI * np.asarray(freqs_hz, dtype=float)
-    gain2 = None
-    ph = None
-    tau = None
+    s = coeffs[0].num.shape[0]
+    shape = (s, w.size)
+    den_prod = None            # product of |D|^2 over lean stages, (S, F)
+    num_gain = np.ones((s, 1))  # product of c^2 over lean stages, (S, 1)
+    general = None             # product of |N/D|^2 over general stages
+    ph = np.zeros(shape) if phase else None
+    offset = np.zeros((s, 1))  # constant phase of lean numerators, rad
+    tau = np.zeros(shape) if delay else None
+    a_buf = np.empty(shape)
+    b_buf = np.empty(shape)
     for st, sc in zip(circuit.stages, coeffs):
-        # In-place arithmetic throughout: temporaries dominate the cost at (S, F) sizes.
         x = w / sc.w_ref
         xx = x * x
+        if st.simple_phase:
+            k = st.num_power
+            c = sc.num[:, k:k + 1]
+            d = sc.den
+            n = d.shape[1] - 1
+            # real and imaginary parts of D(jx) into a_buf, b_buf
+            if n == 2:
+                np.multiply(d[:, 2:3], xx, out=a_buf)
+                np.subtract(d[:, 0:1], a_buf, out=a_buf)
+            else:
+                a_buf[...] = d[:, 0:1]
+            np.multiply(d[:, 1:2], x, out=b_buf)
+            if delay:
+                # tau = Re(D'/D)/w_ref - Re(N'/N)/w_ref; Re(N'/N) = 0 for a monomial
+                dr1 = d[:, 1:2]
+                di1 = 2 * d[:, 2:3] * x if n == 2 else 0.0
+                t = (dr1 * a_buf + di1 * b_buf) / (a_buf * a_buf + b_buf * b_buf)
+                tau += t / sc.w_ref
+            if phase:
+                ang = np.arctan2(b_buf, a_buf)
+                ph -= ang
+                offset += k * (math.pi / 2) + math.pi * (c < 0)
+            np.multiply(a_buf, a_buf, out=a_buf)
+            np.multiply(b_buf, b_buf, out=b_buf)
+            a_buf += b_buf
+            if den_prod is None:
+                den_prod = a_buf.copy()
+            else:
+                den_prod *= a_buf
+            num_gain = num_gain * (c * c)
+            if k:
+                general_k = xx ** k
+                general = general_k if general is None else general * general_k
+            continue
         nr, ni = poly_jw(sc.num, x, xx)
         dr, di = poly_jw(sc.den, x, xx)
-        d2 = dr * dr
-        tmp = di * di
-        d2 += tmp
-        n2 = nr * nr
-        if sc.num.shape[1] > 1:
-            n2 = n2 + ni * ni
+        d2 = dr * dr + di * di
+        n2 = nr * nr + ni * ni
         if delay:
-            dd = _derivative(sc.den)
-            ddr, ddi = poly_jw(dd, x, xx)
+            ddr, ddi = poly_jw(_derivative(sc.den), x, xx)
             t = (ddr * dr + ddi * di) / d2
             if np.count_nonzero(np.any(sc.num != 0, axis=0)) > 1:
-                nd = _derivative(sc.num)
-                ndr, ndi = poly_jw(nd, x, xx)
+                ndr, ndi = poly_jw(_derivative(sc.num), x, xx)
                 t = t - (ndr * nr + ndi * ni) / np.maximum(n2, 1e-300)
-            t /= sc.w_ref
-            tau = t if tau is None else _add_inplace(tau, t)
+            tau += t / sc.w_ref
         if phase:
-            if st.simple_phase:
-                k = int(np.flatnonzero(np.any(sc.num != 0, axis=0))[-1])
-                base = k * (math.pi / 2) + math.pi * (sc.num[:, k:k + 1] < 0)
-                p = np.arctan2(di, dr, out=tmp if tmp.shape == dr.shape else None)
-                np.subtract(base, p, out=p)
-            else:
-                p = np.arctan2(ni * dr - nr * di, nr * dr + ni * di)
-                p = _unwrap(p)
-            ph = p if ph is None else _add_inplace(ph, p)
-        g = np.divide(n2, d2, out=d2) if n2.shape[1] == 1 or n2.shape == d2.shape else n2 / d2
-        gain2 = g if gain2 is None else _mul_inplace(gain2, g)
-    assert gain2 is not None
-    s = coeffs[0].num.shape[0]
-    gain2 = np.broadcast_to(gain2, (s, w.size))
-    phase_deg = None
+            ph += _unwrap(np.arctan2(ni * dr - nr * di, nr * dr + ni * di))
+        g = n2 / d2
+        general = g if general is None else general * g
+    if den_prod is not None:
+        gain2 = np.divide(num_gain, den_prod, out=den_prod)
+        if general is not None:
+            gain2 *= general
+    else:
+        gain2 = np.broadcast_to(general, shape).copy()
     if ph is not None:
-        phase_deg = np.broadcast_to(np.multiply(ph, 180 / math.pi, out=ph if ph.flags.writeable else None),
-                                    (s, w.size))
-    return Response(np.asarray(freqs_hz, dtype=float), gain2, phase_deg,
-                    None if tau is None else np.broadcast_to(tau, (s, w.size)))
+        ph += offset
+        ph *= 180 / math.pi
+    return Response(np.asarray(freqs_hz, dtype=float), gain2, ph, tau)
 
 
 def _mul_inplace(a: np.ndarray, b: np.ndarray) -> np.ndarray:

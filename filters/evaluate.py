@@ -1,24 +1,28 @@
-"""One evaluation of a design: sample part values, compute responses and metrics.
+"""One evaluation of a design: sample part values, compute responses, metrics, margins.
 
 :func:`evaluate` returns an :class:`Ensemble` (arrays shaped (samples, ...)) plus the
 nominal design's response and metrics. Work runs in chunks of samples on a small thread
 pool (numpy releases the GIL inside its loops), which keeps temporaries in cache and uses
 both cores; results do not depend on the chunking. With ``curves=False`` only per-sample
-metrics are kept, so memory stays bounded for very large sample counts.
+metrics and margins are kept, so memory stays bounded for very large sample counts.
+
+:func:`evaluate_values` runs the same pipeline on given part values (rows need not be
+random: the sensitivities and corners use it on perturbed and extreme designs).
 """
 from __future__ import annotations
 
 import os
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Callable, Sequence
 
 import numpy as np
 
 from .design import Design
 from .engine import Circuit, Response, compile_design, frequency_response, stage_coefficients
-from .errors import Cancelled
+from .errors import Cancelled, InputError
 from .grades import Grade
+from .judge import SpanPlan, margins, needs, plan
 from .mask import edge_frequencies
 from .metrics import cutoff_metrics, stage_metrics
 from .sampling import draw_scores, part_values
@@ -51,36 +55,90 @@ def scores_for(design: Design, samples: int, seed: int, method: str, start: int 
 
 
 @dataclass(frozen=True)
-class Nominal:
-    """The nominal design (every part at its marked value)."""
+class Evaluated:
+    """Results for a batch of part values: response (S, F), metrics name -> (S,),
+    margins (S, spans) in each span's unit."""
 
-    values: np.ndarray          # (parts,)
-    response: Response          # arrays shaped (1, F)
+    response: Response
+    metrics: dict[str, np.ndarray]
+    margins: np.ndarray
+
+
+@dataclass(frozen=True)
+class Nominal:
+    """The nominal design (every part at its marked value): response arrays (1, F)."""
+
+    values: np.ndarray
+    response: Response
     metrics: dict[str, float]
+    margins: np.ndarray  # (spans,)
 
 
 @dataclass(frozen=True)
 class Ensemble:
-    """Sampled boards. ``values`` (S, P) in SI units; ``gain_db``, ``phase_deg`` (continuous
-    across frequency) and ``delay_s`` (group delay) shaped (S, F), or None when curves
-    were not kept; ``metrics`` name -> (S,); ``extras`` what a chunk hook added."""
+    """Sampled boards.
+
+    ``values`` (S, P) in SI units; ``gain_db``, ``phase_deg`` (continuous across frequency)
+    and ``delay_s`` (group delay) shaped (S, F), or None when curves were not kept;
+    ``metrics`` name -> (S,); ``margins`` (S, spans) and ``passed`` (S,) against the mask
+    (every board passes an empty mask).
+    """
 
     design: Design
     grades: tuple[Grade, ...]
     seed: int
     method: str
+    start: int
     values: np.ndarray
     freqs_hz: np.ndarray
     gain_db: np.ndarray | None
     phase_deg: np.ndarray | None
     delay_s: np.ndarray | None
     metrics: dict[str, np.ndarray]
+    margins: np.ndarray
     nominal: Nominal
-    extras: dict[str, np.ndarray] = field(default_factory=dict)
 
     @property
     def samples(self) -> int:
         return int(self.values.shape[0])
+
+    @property
+    def passed(self) -> np.ndarray:
+        """True for every board that meets every span (S,)."""
+        return np.all(self.margins >= 0, axis=1)
+
+
+@dataclass(frozen=True)
+class Prepared:
+    """What every chunk of one evaluation shares: compiled circuit, grid, span plans."""
+
+    design: Design
+    circuit: Circuit
+    freqs_hz: np.ndarray
+    plans: list[SpanPlan]
+    nominal: Nominal
+
+
+def prepare(design: Design, extra_freqs: Sequence[float] = ()) -> Prepared:
+    """Compile the design, build the grid, evaluate the nominal design, plan the mask."""
+    circuit = compile_design(design)
+    freqs = frequency_grid(design, extra_freqs)
+    nominal_values = np.array([p.value for p in design.parts])
+    coeffs = stage_coefficients(circuit, nominal_values[None, :])
+    resp = frequency_response(circuit, coeffs, freqs, phase=True, delay=True)
+    m = _metrics_for(circuit, coeffs, resp, design.analysis.cutoff_db)
+    plans = plan(design.mask, freqs, float(m["reference_db"][0]))
+    marg = margins(plans, resp)[0]
+    _check_finite(m, marg)
+    nominal = Nominal(nominal_values, resp, {k: float(v[0]) for k, v in m.items()}, marg)
+    return Prepared(design, circuit, freqs, plans, nominal)
+
+
+def _check_finite(m: dict[str, np.ndarray], marg: np.ndarray) -> None:
+    if not np.isfinite(m["reference_db"][0]) or m["reference_db"][0] < -250:
+        raise InputError("the nominal design has no passband gain (check the part values)", "parts")
+    if not np.all(np.isfinite(marg)):
+        raise InputError("the nominal response cannot be judged against the mask", "mask")
 
 
 def _metrics_for(circuit: Circuit, coeffs, resp: Response, cutoff_db: float) -> dict[str, np.ndarray]:
@@ -89,22 +147,29 @@ def _metrics_for(circuit: Circuit, coeffs, resp: Response, cutoff_db: float) -> 
     return m
 
 
-ChunkHook = Callable[[Circuit, list, Response, dict[str, np.ndarray]], dict[str, np.ndarray]]
+def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
+                    delay: bool = False) -> Evaluated:
+    """Responses, metrics and margins for part values ``values`` (S, P), no sampling."""
+    need_phase, need_delay = needs(prep.design.mask)
+    coeffs = stage_coefficients(prep.circuit, values)
+    resp = frequency_response(prep.circuit, coeffs, prep.freqs_hz, phase=phase or need_phase,
+                              delay=delay or need_delay)
+    m = _metrics_for(prep.circuit, coeffs, resp, prep.design.analysis.cutoff_db)
+    return Evaluated(resp, m, margins(prep.plans, resp))
 
 
 def evaluate(design: Design, *, samples: int | None = None, seed: int | None = None,
              method: str | None = None, grades: Sequence[Grade] | None = None,
              curves: bool = True, phase: bool = True, delay: bool = False,
              extra_freqs: Sequence[float] = (), chunk: int = CHUNK, start: int = 0,
-             hook: ChunkHook | None = None,
+             prepared: Prepared | None = None,
              progress: Callable[[int, int], None] | None = None,
              should_stop: Callable[[], bool] | None = None) -> Ensemble:
     """Evaluate ``samples`` boards of ``design`` (defaults from its analysis settings).
 
     ``grades`` overrides each part's grade (same order as ``design.parts``), which is how a
     tolerance slider or a candidate recommendation is tried on the same boards.
-    ``hook(circuit, coeffs, response, metrics)`` runs per chunk and returns more per-sample
-    arrays (for example pass/fail against a mask), gathered into ``Ensemble.extras``.
+    ``start`` skips that many boards of the seed's sequence (for adding batches).
     ``progress(done, total)`` is called after each chunk; ``should_stop()`` returning True
     raises :class:`Cancelled` between chunks.
     """
@@ -114,59 +179,50 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
     method = a.method if method is None else method
     cat = design.catalog
     grade_list = tuple(grades) if grades is not None else tuple(cat[p.grade] for p in design.parts)
-    circuit = compile_design(design)
-    freqs = frequency_grid(design, extra_freqs)
-    nominal_values = np.array([p.value for p in design.parts])
+    prep = prepared if prepared is not None else prepare(design, extra_freqs)
+    freqs = prep.freqs_hz
+    nominal_values = prep.nominal.values
+    n_parts = len(design.parts)
 
-    nom_coeffs = stage_coefficients(circuit, nominal_values[None, :])
-    nom_resp = frequency_response(circuit, nom_coeffs, freqs, phase=True, delay=True)
-    nom_m = _metrics_for(circuit, nom_coeffs, nom_resp, a.cutoff_db)
-    if hook is not None:
-        nom_m.update(hook(circuit, nom_coeffs, nom_resp, nom_m))
-    nominal = Nominal(nominal_values, nom_resp, {k: float(v[0]) for k, v in nom_m.items()})
-
-    scores = scores_for(design, n, seed, method, start) if n * len(design.parts) <= 4_000_000 else None
-    values = np.empty((n, len(design.parts)))
+    scores = scores_for(design, n, seed, method, start) if n * n_parts <= 4_000_000 else None
+    values = np.empty((n, n_parts))
     f = freqs.size
     gain_db = np.empty((n, f)) if curves else None
     phase_deg = np.empty((n, f)) if curves and phase else None
     delay_s = np.empty((n, f)) if curves and delay else None
+    marg = np.empty((n, len(prep.plans)))
     metrics: dict[str, np.ndarray] = {}
-    extras: dict[str, np.ndarray] = {}
 
-    def work(lo: int, hi: int) -> tuple[int, int, dict, dict]:
-        sc = scores[lo:hi] if scores is not None else draw_scores(seed, len(design.parts), start + lo,
-                                                                   start + hi, method)  # type: ignore[arg-type]
+    def work(lo: int, hi: int) -> tuple[int, int, dict[str, np.ndarray]]:
+        sc = scores[lo:hi] if scores is not None else draw_scores(
+            seed, n_parts, start + lo, start + hi, method)  # type: ignore[arg-type]
         vals = part_values(nominal_values, grade_list, sc, a.conditions)
         values[lo:hi] = vals
-        coeffs = stage_coefficients(circuit, vals)
-        resp = frequency_response(circuit, coeffs, freqs, phase=curves and phase, delay=delay)
-        m = _metrics_for(circuit, coeffs, resp, a.cutoff_db)
-        ex = hook(circuit, coeffs, resp, m) if hook is not None else {}
+        ev = evaluate_values(prep, vals, phase=curves and phase, delay=curves and delay)
+        marg[lo:hi] = ev.margins
         if gain_db is not None:
-            np.log10(np.maximum(resp.gain2, 1e-300), out=gain_db[lo:hi])
+            np.log10(np.maximum(ev.response.gain2, 1e-300), out=gain_db[lo:hi])
             gain_db[lo:hi] *= 10.0
-        if phase_deg is not None and resp.phase_deg is not None:
-            phase_deg[lo:hi] = resp.phase_deg
-        if delay_s is not None and resp.delay_s is not None:
-            delay_s[lo:hi] = resp.delay_s
-        return lo, hi, m, ex
+        if phase_deg is not None and ev.response.phase_deg is not None:
+            phase_deg[lo:hi] = ev.response.phase_deg
+        if delay_s is not None and ev.response.delay_s is not None:
+            delay_s[lo:hi] = ev.response.delay_s
+        return lo, hi, ev.metrics
 
     bounds = [(lo, min(n, lo + chunk)) for lo in range(0, n, chunk)]
     done = 0
-    window = 2 * WORKERS  # chunks in flight at once (bounded memory)
-    pending = []
-    it = iter(bounds)
+    window = 2 * WORKERS  # chunks in flight at once: bounded memory
+    pending: list = []
     try:
-        for b in it:
+        for b in bounds:
             pending.append(_POOL.submit(work, *b))
             if len(pending) >= window:
-                done = _collect(pending.pop(0), metrics, extras, n, done, progress)
+                done = _collect(pending.pop(0), metrics, n, done, progress)
                 if should_stop is not None and should_stop():
                     raise Cancelled("evaluation cancelled")
         while pending:
-            done = _collect(pending.pop(0), metrics, extras, n, done, progress)
-            if should_stop is not None and should_stop() and pending:
+            done = _collect(pending.pop(0), metrics, n, done, progress)
+            if pending and should_stop is not None and should_stop():
                 raise Cancelled("evaluation cancelled")
     finally:
         for p in pending:
@@ -174,19 +230,17 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
         for p in pending:
             if not p.cancelled():
                 p.exception()
-    return Ensemble(design, grade_list, seed, method, values, freqs, gain_db, phase_deg, delay_s,
-                    metrics, nominal, extras)
+    return Ensemble(design, grade_list, seed, method, start, values, freqs, gain_db, phase_deg,
+                    delay_s, metrics, marg, prep.nominal)
 
 
-def _collect(fut, metrics: dict, extras: dict, n: int, done: int, progress) -> int:
-    lo, hi, m, ex = fut.result()
-    for target, src in ((metrics, m), (extras, ex)):
-        for k, v in src.items():
-            arr = target.get(k)
-            if arr is None:
-                arr = target[k] = np.full(n, np.nan) if np.asarray(v).dtype.kind == "f" else np.zeros(
-                    (n,) + np.shape(v)[1:], dtype=np.asarray(v).dtype)
-            arr[lo:hi] = v
+def _collect(fut, metrics: dict[str, np.ndarray], n: int, done: int, progress) -> int:
+    lo, hi, m = fut.result()
+    for k, v in m.items():
+        arr = metrics.get(k)
+        if arr is None:
+            arr = metrics[k] = np.full(n, np.nan)
+        arr[lo:hi] = v
     done += hi - lo
     if progress is not None:
         progress(done, n)

@@ -1,0 +1,132 @@
+"""Worst-case corners and the root-sum-square estimate, beside the Monte Carlo spread.
+
+Every part is put at one end of its range (tolerance, temperature coefficient at either
+end of the temperature range, drift; see :func:`filters.sampling.limits`). With up to
+:data:`MAX_EXHAUSTIVE` parts that vary, every combination of ends is evaluated (2^n
+boards in one batch). With more, each metric's two corners follow the signs of its
+sensitivities at the nominal design (every part moved in the direction that raises the
+metric, then the one that lowers it), which is exact for metrics monotone in each part.
+
+The RSS estimate combines the sensitivities with each part's spread:
+sigma(metric) ~ sqrt(sum (S_i sigma_i)^2) with sigma_i the sampled standard deviation of
+ln(value_i); the RSS limit uses the half-range of ln(value_i) instead of sigma_i.
+"""
+from __future__ import annotations
+
+import itertools
+from dataclasses import dataclass
+
+import numpy as np
+
+from .budget import is_log_metric, metric_columns, sensitivities
+from .evaluate import Ensemble, Prepared, evaluate_values
+from .sampling import limits
+
+MAX_EXHAUSTIVE = 12
+
+
+@dataclass(frozen=True)
+class CornerRange:
+    """One metric: corner extremes, Monte Carlo extremes, RSS estimates (metric units)."""
+
+    metric: str
+    nominal: float
+    corner_low: float
+    corner_high: float
+    mc_low: float
+    mc_high: float
+    rss_std: float
+    rss_limit: float
+
+    def to_dict(self) -> dict[str, float | str]:
+        return {"metric": self.metric, "nominal": self.nominal, "corner_low": self.corner_low,
+                "corner_high": self.corner_high, "mc_low": self.mc_low, "mc_high": self.mc_high,
+                "rss_std": self.rss_std, "rss_limit": self.rss_limit}
+
+
+@dataclass(frozen=True)
+class Corners:
+    """All corner results. ``exhaustive``: every combination was tried; ``boards``: how
+    many corner boards were evaluated; ``all_pass``: every corner board meets the mask."""
+
+    ranges: dict[str, CornerRange]
+    exhaustive: bool
+    boards: int
+    varying_parts: int
+    all_pass: bool
+    worst_margins: dict[str, float]
+
+    def to_dict(self) -> dict:
+        return {"exhaustive": self.exhaustive, "boards": self.boards, "varying_parts": self.varying_parts,
+                "all_pass": self.all_pass, "worst_margins": self.worst_margins,
+                "metrics": {k: v.to_dict() for k, v in self.ranges.items()}}
+
+
+def corner_values(prep: Prepared, ens: Ensemble, names: list[str]) -> tuple[np.ndarray, bool, int]:
+    """The corner boards' part values (boards, P), whether exhaustive, varying parts."""
+    nom = prep.nominal.values
+    lo, hi = limits(nom, ens.grades, ens.design.analysis.conditions)
+    varying = np.flatnonzero(hi > lo)
+    m = varying.size
+    if m == 0:
+        return nom[None, :].copy(), True, 0
+    if m <= MAX_EXHAUSTIVE:
+        rows = np.repeat(nom[None, :], 2 ** m, axis=0)
+        ends = np.array(list(itertools.product((0, 1), repeat=m)), dtype=bool)
+        rows[:, varying] = np.where(ends, hi[varying], lo[varying])
+        return rows, True, m
+    sens = sensitivities(prep, names)
+    rows = []
+    for name in names:
+        s = sens.get(name)
+        if s is None or not np.all(np.isfinite(s)):
+            continue
+        for sign in (1, -1):
+            r = nom.copy()
+            up = sign * s > 0
+            r[varying] = np.where(up[varying], hi[varying], lo[varying])
+            rows.append(r)
+    return np.array(rows) if rows else nom[None, :].copy(), False, m
+
+
+def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None) -> Corners:
+    """Corner extremes and RSS estimates of ``names`` (default: every metric and margin)."""
+    cols = metric_columns(ens)
+    names = list(cols) if names is None else names
+    rows, exhaustive, m = corner_values(prep, ens, names)
+    ev = evaluate_values(prep, rows)
+    ccols = dict(ev.metrics)
+    for j, s in enumerate(ens.design.mask):
+        ccols[f"margin.{s.label}"] = ev.margins[:, j]
+    nomcols = dict(prep.nominal.metrics)
+    for j, s in enumerate(ens.design.mask):
+        nomcols[f"margin.{s.label}"] = float(prep.nominal.margins[j])
+    sens = sensitivities(prep, names)
+    lnx = np.log(ens.values / prep.nominal.values)
+    sigma = lnx.std(axis=0)
+    lo, hi = limits(prep.nominal.values, ens.grades, ens.design.analysis.conditions)
+    half = 0.5 * (np.log(hi) - np.log(lo))
+    ranges = {}
+    for name in names:
+        c = ccols.get(name)
+        if c is None:
+            continue
+        y = cols[name]
+        nominal = float(nomcols.get(name, np.nan))
+        s = sens.get(name, np.full(sigma.size, np.nan))
+        if is_log_metric(name):
+            rss_std = nominal * float(np.sqrt(np.sum((s * sigma) ** 2)))
+            rss_lim = nominal * float(np.sqrt(np.sum((s * half) ** 2)))
+        else:  # s is per 1 %; back to per unit ln(value)
+            rss_std = float(np.sqrt(np.sum((100 * s * sigma) ** 2)))
+            rss_lim = float(np.sqrt(np.sum((100 * s * half) ** 2)))
+        finite = y[np.isfinite(y)]
+        cfin = c[np.isfinite(c)]
+        ranges[name] = CornerRange(
+            name, nominal,
+            float(cfin.min()) if cfin.size else np.nan, float(cfin.max()) if cfin.size else np.nan,
+            float(finite.min()) if finite.size else np.nan, float(finite.max()) if finite.size else np.nan,
+            rss_std, rss_lim)
+    worst = {s.label: float(ev.margins[:, j].min()) for j, s in enumerate(ens.design.mask)}
+    all_pass = bool(np.all(ev.margins >= 0)) if ev.margins.size else True
+    return Corners(ranges, exhaustive, int(rows.shape[0]), int(m), all_pass, worst)
