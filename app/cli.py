@@ -13,6 +13,7 @@ from typing import Sequence
 
 from filters import __version__
 from filters.designfile import load, load_demo
+from filters.design import MAX_SAMPLES
 from filters.errors import InputError, ValidationError
 
 EXIT_BAD_INPUT = 2
@@ -34,6 +35,8 @@ def _positive_int(text: str) -> int:
         raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
     if v < 1:
         raise argparse.ArgumentTypeError(f"{text!r} must be at least 1")
+    if v > MAX_SAMPLES:
+        raise argparse.ArgumentTypeError(f"{text!r} is more than the {MAX_SAMPLES} boards one run may sample")
     return v
 
 
@@ -136,6 +139,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         where = "" if design_path and str(exc).startswith(design_path) else _where(design_path)
         sys.stderr.write(f"tolspread: {where}{exc}\n")
         return EXIT_BAD_INPUT
+    except SystemExit as exc:  # argparse: --help, --version, usage errors
+        return int(exc.code or 0) if not isinstance(exc.code, str) else EXIT_BAD_INPUT
     except BrokenPipeError:  # output piped into a program that stopped reading
         return 0
     except KeyboardInterrupt:

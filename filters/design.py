@@ -12,7 +12,7 @@ from dataclasses import dataclass, field, replace
 from typing import Any
 
 from .errors import InputError, ValidationError
-from .grades import Catalog, Grade, builtin_catalog
+from .grades import Catalog, Grade, builtin_catalog, scaled
 from .mask import Span
 from .sampling import METHODS, Conditions
 from .topologies import TOPOLOGIES, Topology, build
@@ -35,7 +35,8 @@ class Part:
     kind: str
     value: float
     grade: str
-    text: str = ""
+    text: str = field(default="", compare=False)
+    tolerance_pct: float | None = None  # a what-if tolerance replacing the grade's
 
     @property
     def value_text(self) -> str:
@@ -97,6 +98,15 @@ class Design:
             cat = cat.with_grade(g)
         return cat
 
+    def part_grades(self) -> tuple[Grade, ...]:
+        """Each part's grade, with a part's what-if tolerance applied where it has one."""
+        cat = self.catalog
+        out = []
+        for p in self.parts:
+            g = cat[p.grade]
+            out.append(g if p.tolerance_pct is None else scaled(g, p.tolerance_pct))
+        return tuple(out)
+
     def part_index(self, ref: str) -> int:
         for i, p in enumerate(self.parts):
             if p.ref == ref:
@@ -125,8 +135,12 @@ class Design:
             out["name"] = self.name
         if self.description:
             out["description"] = self.description
-        out["parts"] = [{"ref": p.ref, "value": p.text or _exact_text(p.value), "grade": p.grade}
-                        for p in self.parts]
+        out["parts"] = []
+        for p in self.parts:
+            d_part: dict[str, Any] = {"ref": p.ref, "value": p.text or _exact_text(p.value), "grade": p.grade}
+            if p.tolerance_pct is not None:
+                d_part["tolerance_pct"] = p.tolerance_pct
+            out["parts"].append(d_part)
         out["stages"] = []
         for s in self.stages:
             d: dict[str, Any] = {"topology": s.topology}
@@ -327,7 +341,7 @@ def design_from_dict(data: Any) -> Design:
             problems.append(InputError("must be an object with ref, value and grade", path))
             continue
         problems += [InputError(f"unknown field {k!r}", f"{path}.{k}") for k in p
-                     if k not in ("ref", "value", "grade")]
+                     if k not in ("ref", "value", "grade", "tolerance_pct")]
         ref = p.get("ref")
         if not isinstance(ref, str) or not ref.strip():
             problems.append(InputError("must be a reference designator such as R1", f"{path}.ref"))
@@ -367,7 +381,15 @@ def design_from_dict(data: Any) -> Design:
             problems.append(InputError(f"grade {grade} is for {catalog[grade].kind} parts, but {ref} "
                                        f"is a {kind} part", f"{path}.grade"))
             continue
-        parts.append(Part(ref, kind, value, grade, text))
+        tol = None
+        if "tolerance_pct" in p and p["tolerance_pct"] is not None:
+            t = p["tolerance_pct"]
+            if isinstance(t, bool) or not isinstance(t, (int, float)) or not math.isfinite(t) or not 0 <= t < 100:
+                problems.append(InputError(f"must be a tolerance from 0 to below 100 %, not {t!r}",
+                                           f"{path}.tolerance_pct"))
+                continue
+            tol = float(t)
+        parts.append(Part(ref, kind, value, grade, text, tol))
     for ref, (kind, where) in role_kind.items():
         if ref not in seen:
             problems.append(InputError(f"part {ref} is not in the parts list", where))

@@ -47,7 +47,7 @@ def _depth(obj: Any, limit: int) -> int:
 
 def parse_text(text: str, source: str = "design") -> dict[str, Any]:
     """Parse design-file text into a current-version dict (migrated), not yet validated."""
-    if len(text) > MAX_BYTES:
+    if len(text) > MAX_BYTES or len(text.encode("utf-8", errors="replace")) > MAX_BYTES:
         raise InputError(f"file is larger than {MAX_BYTES // 1_000_000} MB; a design file is a few kB", source)
     try:
         data = json.loads(text)

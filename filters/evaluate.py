@@ -177,8 +177,7 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
     n = a.samples if samples is None else int(samples)
     seed = a.seed if seed is None else int(seed)
     method = a.method if method is None else method
-    cat = design.catalog
-    grade_list = tuple(grades) if grades is not None else tuple(cat[p.grade] for p in design.parts)
+    grade_list = tuple(grades) if grades is not None else design.part_grades()
     prep = prepared if prepared is not None else prepare(design, extra_freqs)
     freqs = prep.freqs_hz
     nominal_values = prep.nominal.values

@@ -74,7 +74,7 @@ class Grade:
         for k in ("name", "kind", "tolerance_pct"):
             if k not in data:
                 problems.append(InputError("is missing", f"{path}.{k}"))
-        if problems:
+        if any(p.path.endswith((".name", ".kind", ".tolerance_pct")) for p in problems):
             raise ValidationError(problems)
         args = {k: data[k] for k in data if k in known}
         if not isinstance(args["name"], str) or not args["name"].strip():
@@ -84,33 +84,40 @@ class Grade:
         if args.get("distribution", "normal") not in DISTRIBUTIONS:
             problems.append(InputError(f"must be one of {', '.join(DISTRIBUTIONS)}",
                                        f"{path}.distribution"))
-        for k in ("tolerance_pct", "coverage", "bin_inner_pct", "tempco_ppm",
-                  "tempco_spread_ppm", "drift_pct", "cost"):
+        numbers = ("tolerance_pct", "coverage", "bin_inner_pct", "tempco_ppm", "tempco_spread_ppm",
+                   "drift_pct", "cost")
+        for k in numbers:
             if k in args:
                 v = args[k]
                 if isinstance(v, bool) or not isinstance(v, (int, float)) or v != v or abs(v) == float("inf"):
                     problems.append(InputError(f"must be a finite number, not {v!r}", f"{path}.{k}"))
+                    del args[k]
                 else:
                     args[k] = float(v)
         if "truncate" in args and not isinstance(args["truncate"], bool):
             problems.append(InputError("must be true or false", f"{path}.truncate"))
+        # Range checks on every field that parsed, so one report lists every problem.
+        d = Grade("x", "any", 1.0)
+        get = {k: args.get(k, getattr(d, k)) for k in numbers}
+        tol = get["tolerance_pct"] if "tolerance_pct" in args else None
+        checks = [
+            ("tolerance_pct", tol is None or 0 <= tol < 100, "must be at least 0 and below 100 %"),
+            ("coverage", get["coverage"] > 0, "must be above 0"),
+            ("bin_inner_pct", get["bin_inner_pct"] >= 0 and (tol is None or get["bin_inner_pct"] == 0
+                                                             or get["bin_inner_pct"] < tol),
+             "must be at least 0 and below the tolerance"),
+            ("tempco_spread_ppm", get["tempco_spread_ppm"] >= 0, "must not be negative"),
+            ("drift_pct", 0 <= get["drift_pct"] < 100, "must be at least 0 and below 100 %"),
+            ("cost", get["cost"] >= 0, "must not be negative"),
+        ]
+        problems += [InputError(msg, f"{path}.{k}") for k, ok, msg in checks if k in args and not ok]
+        if (args.get("distribution") == "binned" and "bin_inner_pct" in args and get["bin_inner_pct"] <= 0) or (
+                args.get("distribution") == "binned" and "bin_inner_pct" not in args):
+            problems.append(InputError("a binned grade needs the removed centre's half-width above 0",
+                                       f"{path}.bin_inner_pct"))
         if problems:
             raise ValidationError(problems)
         g = Grade(**args)
-        checks = [
-            (0 <= g.tolerance_pct < 100, "tolerance_pct", "must be at least 0 and below 100 %"),
-            (g.coverage > 0, "coverage", "must be above 0"),
-            (0 <= g.bin_inner_pct < g.tolerance_pct or (g.bin_inner_pct == 0),
-             "bin_inner_pct", "must be at least 0 and below the tolerance"),
-            (g.tempco_spread_ppm >= 0, "tempco_spread_ppm", "must not be negative"),
-            (0 <= g.drift_pct < 100, "drift_pct", "must be at least 0 and below 100 %"),
-            (g.cost >= 0, "cost", "must not be negative"),
-            (g.distribution != "binned" or g.bin_inner_pct > 0, "bin_inner_pct",
-             "a binned grade needs the removed centre's half-width above 0"),
-        ]
-        problems = [InputError(msg, f"{path}.{k}") for ok, k, msg in checks if not ok]
-        if problems:
-            raise ValidationError(problems)
         return g
 
 
