@@ -15,14 +15,53 @@ from .engine import Circuit, Response, StageCoefficients, dc_gain2, gain2_at, hf
 TWO_PI = 2 * math.pi
 
 
-def reference_gain2(circuit: Circuit, coeffs: list[StageCoefficients], resp: Response) -> np.ndarray:
+def peak(coeffs: list[StageCoefficients], resp: Response) -> tuple[np.ndarray, np.ndarray]:
+    """Frequency (Hz) and |H|^2 of each sample's highest gain, refined off the grid.
+
+    The grid maximum is refined by a golden-section search between its two neighbours
+    (exact evaluations of H; assumes one maximum there).
+    """
+    g2 = resp.gain2
+    f = resp.freqs_hz
+    s = g2.shape[0]
+    rows = np.arange(s)
+    i = np.argmax(g2, axis=1)
+    best2 = g2[rows, i]
+    best_f = f[i]
+    inner = (i > 0) & (i < f.size - 1)
+    if f.size < 3 or not inner.any():
+        return best_f, best2
+    j = np.clip(i, 1, f.size - 2)
+    lf = np.log(f)
+    # golden-section search for the maximum between the grid neighbours of the top point
+    a, b = lf[j - 1], lf[j + 1]
+    ratio = (math.sqrt(5) - 1) / 2
+    c, d = b - ratio * (b - a), a + ratio * (b - a)
+    gc, gd = gain2_at(coeffs, np.exp(c)), gain2_at(coeffs, np.exp(d))
+    for _ in range(45):  # the bracket shrinks to 0.618^45 ~ 4e-10 of a grid step
+        left = gc > gd  # the maximum lies in [a, d], else in [c, b]
+        b = np.where(left, d, b)
+        a = np.where(left, a, c)
+        new_c = np.where(left, b - ratio * (b - a), d)
+        new_d = np.where(left, c, a + ratio * (b - a))
+        g_new = gain2_at(coeffs, np.exp(np.where(left, new_c, new_d)))
+        gc, gd = np.where(left, g_new, gd), np.where(left, gc, g_new)
+        c, d = new_c, new_d
+    xv = 0.5 * (a + b)
+    gv = gain2_at(coeffs, np.exp(xv))
+    better = inner & (gv > best2)
+    return np.where(better, np.exp(xv), best_f), np.where(better, gv, best2)
+
+
+def reference_gain2(circuit: Circuit, coeffs: list[StageCoefficients], resp: Response,
+                    peak2: np.ndarray | None = None) -> np.ndarray:
     """Passband reference |H|^2 per sample: DC gain (low-pass), high-frequency gain
-    (high-pass), or the peak on the grid (band-pass)."""
+    (high-pass), or the refined peak (band-pass)."""
     if circuit.kind == "lowpass":
         return dc_gain2(coeffs)
     if circuit.kind == "highpass":
         return hf_gain2(coeffs)
-    return np.max(resp.gain2, axis=1)
+    return peak(coeffs, resp)[1] if peak2 is None else peak2
 
 
 def _refine(coeffs: list[StageCoefficients], f_lo: np.ndarray, f_hi: np.ndarray, target2: np.ndarray,
@@ -92,56 +131,52 @@ def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Resp
     ``upper_hz`` and ``bandwidth_hz`` at ``cutoff_db`` below the peak; ``cutoff_hz`` is the
     centre there. ``reference_db`` and ``peaking_db`` (peak above the reference) always.
     """
-    ref2 = reference_gain2(circuit, coeffs, resp)
+    peak_f, peak2 = peak(coeffs, resp)
+    ref2 = reference_gain2(circuit, coeffs, resp, peak2)
     level2 = ref2 * 10 ** (-cutoff_db / 10)
     out: dict[str, np.ndarray] = {"reference_db": 10 * np.log10(np.maximum(ref2, 1e-300))}
-    peak_i = np.argmax(resp.gain2, axis=1)
-    peak2 = resp.gain2[np.arange(resp.gain2.shape[0]), peak_i]
-    out["peaking_db"] = 10 * np.log10(np.maximum(peak2, 1e-300) / np.maximum(ref2, 1e-300))
+    out["peaking_db"] = 10 * np.log10(np.maximum(peak2, ref2) / np.maximum(ref2, 1e-300))
     if circuit.kind == "lowpass":
         out["cutoff_hz"] = crossing(resp, coeffs, level2, "falling")
     elif circuit.kind == "highpass":
         out["cutoff_hz"] = crossing(resp, coeffs, level2, "rising")
     else:
-        f = resp.freqs_hz
-        # the peak's frequency from a parabola through the top three grid points (log f, dB)
-        i = np.clip(peak_i, 1, f.size - 2)
-        rows = np.arange(f.size and resp.gain2.shape[0])
-        y0, y1, y2 = (10 * np.log10(np.maximum(resp.gain2[rows, i + d], 1e-300)) for d in (-1, 0, 1))
-        curv = y0 - 2 * y1 + y2
-        shift = np.where(curv < 0, 0.5 * (y0 - y2) / np.where(curv < 0, curv, -1), 0.0)
-        lf = np.log(f)
-        step = lf[i + 1] - lf[i]
-        centre = np.exp(lf[i] + np.clip(shift, -1, 1) * step)
-        lower = _half_crossing(resp, coeffs, level2, peak_i, below=True)
-        upper = _half_crossing(resp, coeffs, level2, peak_i, below=False)
-        out.update(centre_hz=centre, lower_hz=lower, upper_hz=upper, bandwidth_hz=upper - lower,
-                   cutoff_hz=centre)
+        lower = _half_crossing(resp, coeffs, level2, peak_f, below=True)
+        upper = _half_crossing(resp, coeffs, level2, peak_f, below=False)
+        out.update(centre_hz=peak_f, lower_hz=lower, upper_hz=upper, bandwidth_hz=upper - lower,
+                   cutoff_hz=peak_f)
     return out
 
 
 def _half_crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray,
-                   peak_i: np.ndarray, below: bool) -> np.ndarray:
-    """Band edge on one side of the peak: the crossing nearest the peak."""
+                   peak_f: np.ndarray, below: bool) -> np.ndarray:
+    """Band edge on one side of the (refined) peak: the crossing nearest the peak.
+
+    The bracket runs from the last grid point under the level to the next grid point or
+    the peak itself, whichever is nearer, so a coarse grid whose points all miss the
+    peak's top still brackets the edge correctly.
+    """
     g2 = resp.gain2
+    f = resp.freqs_hz
     n = g2.shape[1]
-    idx = np.arange(n)[None, :]
+    rows = np.arange(g2.shape[0])
     under = g2 < level2[:, None]
     if below:
-        cand = under & (idx < peak_i[:, None])
-        j = n - 1 - np.argmax(cand[:, ::-1], axis=1)  # last index below the level left of the peak
-        ok = cand[np.arange(g2.shape[0]), j]
-        lo_i, hi_i = j, np.minimum(j + 1, n - 1)
+        cand = under & (f[None, :] < peak_f[:, None])
+        j = n - 1 - np.argmax(cand[:, ::-1], axis=1)  # last grid point under the level left of the peak
+        ok = cand[rows, j]
+        lo = f[j]
+        hi = np.minimum(f[np.minimum(j + 1, n - 1)], peak_f)
     else:
-        cand = under & (idx > peak_i[:, None])
+        cand = under & (f[None, :] > peak_f[:, None])
         j = np.argmax(cand, axis=1)
-        ok = cand[np.arange(g2.shape[0]), j]
-        lo_i, hi_i = np.maximum(j - 1, 0), j
-    f = resp.freqs_hz
+        ok = cand[rows, j]
+        lo = np.maximum(f[np.maximum(j - 1, 0)], peak_f)
+        hi = f[j]
     out = np.full(g2.shape[0], np.nan)
     if ok.any():
         sub = [StageCoefficients(c.num[ok], c.den[ok], c.w_ref) for c in coeffs]
-        out[ok] = _refine(sub, f[lo_i[ok]], f[hi_i[ok]], level2[ok])
+        out[ok] = _refine(sub, lo[ok], hi[ok], level2[ok])
     return out
 
 
@@ -172,7 +207,7 @@ def pole_pairs(den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
     roots = np.linalg.eigvals(comp) * w_ref  # rad/s
     upper = np.where(roots.imag > 1e-9 * np.abs(roots), roots, np.nan)
     w0 = np.abs(upper)
-    q = w0 / (2 * np.abs(upper.real))
+    q = w0 / (-2 * upper.real)  # negative for right-half-plane (unstable) poles, as at degree 2
     q = np.where(np.isfinite(w0), q, np.nan)
     order = np.argsort(np.where(np.isnan(q), np.inf, q), axis=1)
     pairs = n // 2

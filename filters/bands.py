@@ -1,0 +1,76 @@
+"""Spread bands for drawing: per-frequency quantiles of sampled curves.
+
+Everything here is plain numpy on arrays shaped (samples, freqs); the window turns the
+results into plot items. Quantiles use ``numpy.partition`` (linear time) rather than a
+full sort.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .evaluate import _POOL, WORKERS
+
+INNER = 0.98  # the central share of boards in the inner band
+
+
+@dataclass(frozen=True)
+class Bands:
+    """Per-frequency spread of one quantity, each (F,): the central ``share`` of boards
+    between ``inner_low`` and ``inner_high``, every board between ``low`` and ``high``."""
+
+    share: float
+    inner_low: np.ndarray
+    inner_high: np.ndarray
+    low: np.ndarray
+    high: np.ndarray
+
+
+def bands(curves: np.ndarray, share: float = INNER) -> Bands:
+    """Bands of ``curves`` (S, F). NaN entries are not expected (the engine keeps finite)."""
+    s = curves.shape[0]
+    if s == 1:
+        c = curves[0]
+        return Bands(share, c, c, c, c)
+    tail = (1 - share) / 2
+    k_lo = int(np.floor(tail * (s - 1)))
+    k_hi = int(np.ceil((1 - tail) * (s - 1)))
+    f = curves.shape[1]
+    out = np.empty((4, f))
+
+    def work(lo: int, hi: int) -> None:
+        part = np.partition(curves[:, lo:hi], [k_lo, k_hi], axis=0)
+        out[0, lo:hi] = part[k_lo]
+        out[1, lo:hi] = part[k_hi]
+        out[2, lo:hi] = curves[:, lo:hi].min(axis=0)
+        out[3, lo:hi] = curves[:, lo:hi].max(axis=0)
+
+    # frequency blocks on the shared thread pool (numpy releases the GIL while it works)
+    edges = np.linspace(0, f, WORKERS + 1).astype(int)
+    futures = [_POOL.submit(work, int(a), int(b)) for a, b in zip(edges[:-1], edges[1:]) if b > a]
+    for fut in futures:
+        fut.result()
+    return Bands(share, out[0], out[1], out[2], out[3])
+
+
+def traces(curves: np.ndarray, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Sample curves ``rows`` as one NaN-separated polyline: (x index, y) flat arrays.
+
+    Returns ``(x, y)`` where x repeats 0..F-1 per row followed by NaN; the window maps x
+    to frequencies. Drawing many curves as one item is much faster than one item each.
+    """
+    f = curves.shape[1]
+    k = len(rows)
+    y = np.full((k, f + 1), np.nan)
+    y[:, :f] = curves[rows]
+    x = np.tile(np.append(np.arange(f, dtype=float), np.nan), k)
+    return x, y.ravel()
+
+
+def pick_rows(passed: np.ndarray, count: int, failing: bool) -> np.ndarray:
+    """Up to ``count`` board indices, passing or failing ones, spread over the ensemble."""
+    idx = np.flatnonzero(~passed if failing else passed)
+    if idx.size <= count:
+        return idx
+    return idx[np.linspace(0, idx.size - 1, count).astype(int)]

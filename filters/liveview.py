@@ -1,0 +1,104 @@
+"""What the window shows after one evaluation, computed off the GUI thread.
+
+:func:`compute_view` turns a design (and optional what-if grades) into a
+:class:`ViewData`: nominal curves, spread bands, a few sample traces, yield with its
+interval, failure breakdown, per-sample metrics for histograms, and the spread budget.
+Plain numpy; the window only draws it.
+"""
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from typing import Callable, Literal, Sequence
+
+import numpy as np
+
+from .bands import Bands, bands, pick_rows
+from .budget import Budget, metric_columns, spread_budget
+from .design import Design
+from .evaluate import Ensemble, Prepared, evaluate, prepare
+from .grades import Grade
+from .stats import SpanFailures, YieldEstimate, failure_breakdown, yield_estimate
+
+SecondQuantity = Literal["phase", "delay"]
+
+
+@dataclass(frozen=True)
+class ViewRequest:
+    """An immutable request: the design, what-if grades, and what to draw."""
+
+    generation: int
+    design: Design
+    grades: tuple[Grade, ...] | None = None
+    second: SecondQuantity = "phase"
+    traces: int = 20
+    budget: bool = True
+
+
+@dataclass(frozen=True)
+class ViewData:
+    """Everything the window draws for one request. Curves are (F,) arrays; traces
+    (K, F); ``metrics`` name -> (S,) including span margins as ``margin.<label>``."""
+
+    generation: int
+    design: Design
+    freqs_hz: np.ndarray
+    second: SecondQuantity
+    nominal_gain_db: np.ndarray
+    nominal_second: np.ndarray
+    gain_bands: Bands
+    second_bands: Bands
+    pass_traces_gain: np.ndarray
+    pass_traces_second: np.ndarray
+    fail_traces_gain: np.ndarray
+    fail_traces_second: np.ndarray
+    yield_: YieldEstimate
+    spans: list[SpanFailures]
+    metrics: dict[str, np.ndarray]
+    nominal_metrics: dict[str, float]
+    budget: dict[str, Budget]
+    samples: int
+    seed: int
+    method: str
+    elapsed_s: float
+    ensemble: Ensemble = field(repr=False, compare=False)
+
+
+def compute_view(req: ViewRequest, prepared: Prepared | None = None,
+                 progress: Callable[[int, int], None] | None = None,
+                 should_stop: Callable[[], bool] | None = None) -> ViewData:
+    """Evaluate ``req`` and gather what the window draws (may raise Cancelled)."""
+    t0 = time.perf_counter()
+    d = req.design
+    prep = prepared if prepared is not None and prepared.design is d else prepare(d)
+    delay = req.second == "delay"
+    ens = evaluate(d, grades=req.grades, curves=True, phase=not delay, delay=delay, prepared=prep,
+                   progress=progress, should_stop=should_stop)
+    second = ens.delay_s if delay else ens.phase_deg
+    assert ens.gain_db is not None and second is not None
+    passed = ens.passed
+    pass_rows = pick_rows(passed, req.traces, failing=False)
+    fail_rows = pick_rows(passed, req.traces, failing=True)
+    nom = prep.nominal.response
+    nominal_second = (nom.delay_s if delay else nom.phase_deg)[0]  # type: ignore[index]
+    est = yield_estimate(passed, None, d.analysis.confidence, d.analysis.interval)  # type: ignore[arg-type]
+    names = [s.label for s in d.mask]
+    spans = failure_breakdown(ens.margins >= 0, ens.margins, names) if names else []
+    budget = spread_budget(ens, prep) if req.budget else {}
+    nominal_metrics = dict(prep.nominal.metrics)
+    for j, s in enumerate(d.mask):
+        nominal_metrics[f"margin.{s.label}"] = float(prep.nominal.margins[j])
+    return ViewData(
+        req.generation, d, ens.freqs_hz, req.second, 10 * np.log10(np.maximum(nom.gain2[0], 1e-300)),
+        np.asarray(nominal_second), bands(ens.gain_db), bands(second),
+        ens.gain_db[pass_rows], second[pass_rows], ens.gain_db[fail_rows], second[fail_rows],
+        est, spans, metric_columns(ens), nominal_metrics, budget, ens.samples, ens.seed, ens.method,
+        time.perf_counter() - t0, ens)
+
+
+def what_if_grades(design: Design, tolerances: Sequence[float | None]) -> tuple[Grade, ...]:
+    """The design's grades with per-part tolerance overrides (None keeps the part's own)."""
+    from .grades import scaled
+
+    base = design.part_grades()
+    return tuple(g if t is None else scaled(g, t) for g, t in zip(base, tolerances))

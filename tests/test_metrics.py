@@ -1,0 +1,338 @@
+"""Checks of filters.metrics (cutoff, band edges, peaking, stage f0/Q, pole pairs,
+attenuation), through filters.evaluate, against closed forms and reference libraries.
+
+References used below (tags as in /work/shared/REFERENCES.md):
+  [KARKI]  J. Karki, TI SLOA024, Sallen-Key closed forms (equation numbers from memory [M];
+           expressions re-derived by nodal analysis [D], REFERENCES.md section 6).
+  [SLOA049] TI SLOA049, multiple-feedback low-pass and band-pass closed forms (as above).
+  [CM]     Carter & Mancini, "Op Amps for Everyone", 5th ed., Table 16.7 (Butterworth) [C].
+  [BW]     Butterworth attenuation 10 log10(1 + Omega^(2n)) dB [D, REFERENCES.md section 5];
+           Butterworth Q_k = 1/(2 sin((2k - 1) pi/(2n))) - from memory, standard result.
+  [TEXT]   standard second-order results, from memory: first-order RC corner 1/(2 pi R C);
+           low-pass peaking 20 log10(Q^2 / sqrt(Q^2 - 1/4)) dB at w0 sqrt(1 - 1/(2 Q^2)) for
+           Q > 1/sqrt(2); a second-order band-pass has half-power bandwidth w0/Q exactly and
+           band edges geometrically symmetric about w0 (f_lo f_hi = f0^2); two equal
+           unbuffered RC sections give D(s) = 1 + 3 s R C + (s R C)^2 (Q = 1/3).
+  [SCIPY]  scipy.signal.butter (analog=True) - reference library.
+
+"Half power" below is 10 log10(2) = 3.0103 dB: the closed forms above hold there exactly;
+the design files' default cutoff_db of 3 dB is a slightly different level.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+import scipy.signal
+
+from filters.design import design_from_dict
+from filters.designfile import load_demo
+from filters.engine import StageCoefficients, compile_design, frequency_response, stage_coefficients
+from filters.evaluate import evaluate
+from filters.metrics import attenuation_db, cutoff_metrics, pole_pairs, reference_gain2, stage_metrics
+
+TWO_PI = 2 * math.pi
+HALF_POWER_DB = 10 * math.log10(2)
+
+
+def make(stages, analysis=None, grade="EXACT"):
+    """A design from [(topology, options, {role: value})], every part of ``grade``
+    (a dict role -> grade may be given per stage as a fourth item)."""
+    parts, st = [], []
+    for k, stage in enumerate(stages, 1):
+        topo, options, vals = stage[:3]
+        grades = stage[3] if len(stage) > 3 else {}
+        roles = {}
+        for role, v in vals.items():
+            ref = f"{role}_{k}"
+            parts.append({"ref": ref, "value": float(v), "grade": grades.get(role, grade)})
+            roles[role] = ref
+        st.append({"topology": topo, "options": options, "parts": roles})
+    data = {"format": "tolspread-design", "version": 1, "parts": parts, "stages": st}
+    if analysis:
+        data["analysis"] = analysis
+    return design_from_dict(data)
+
+
+def col(ens, ref):
+    return ens.values[:, ens.design.part_index(ref)]
+
+
+def butter_q(n):
+    # source: [BW] from memory; agrees with [CM] Table 16.7 to its four decimals
+    return [1 / (2 * math.sin((2 * k - 1) * math.pi / (2 * n))) for k in range(1, n // 2 + 1)]
+
+
+def sk_unity(f0, q, r=10e3):
+    # source: [KARKI] with R1 = R2 = R and K = 1: Q = sqrt(C1/C2)/2, w0 = 1/(R sqrt(C1 C2))
+    c2 = 1 / (TWO_PI * f0 * r * 2 * q)
+    return {"R1": r, "R2": r, "C1": 4 * q * q * c2, "C2": c2}
+
+
+def butter_cascade(n, fc, analysis):
+    stages = [("sallen_key_lowpass", {}, sk_unity(fc, q)) for q in butter_q(n)]
+    if n % 2:
+        stages.insert(0, ("rc_lowpass", {"sections": 1}, {"R1": 10e3, "C1": 1 / (TWO_PI * fc * 10e3)}))
+    return make(stages, analysis)
+
+
+# --- low-pass and high-pass cutoffs -------------------------------------------------------
+
+def test_first_order_rc_cutoff_every_sample():
+    # source: [TEXT] fc = 1/(2 pi R C) at half power, for each sampled board's own R and C
+    d = make([("rc_lowpass", {"sections": 1}, {"R1": 4.7e3, "C1": 33e-9},
+               {"R1": "R-thick-5", "C1": "C-X7R-20"})],
+             {"f_start": 10, "f_stop": 1e6, "points": 60, "cutoff_db": HALF_POWER_DB})
+    ens = evaluate(d, samples=400, seed=3, curves=False)
+    r, c = col(ens, "R1_1"), col(ens, "C1_1")
+    assert np.std(r * c) > 0.01 * np.mean(r * c)  # the boards really differ
+    np.testing.assert_allclose(ens.metrics["cutoff_hz"], 1 / (TWO_PI * r * c), rtol=1e-9)
+    np.testing.assert_allclose(ens.nominal.metrics["cutoff_hz"], 1 / (TWO_PI * 4.7e3 * 33e-9), rtol=1e-9)
+    np.testing.assert_allclose(ens.metrics["s1.fc_hz"], 1 / (TWO_PI * r * c), rtol=1e-12)
+    np.testing.assert_allclose(ens.metrics["reference_db"], 0.0, rtol=0, atol=1e-12)
+
+
+def test_first_order_rc_cutoff_at_3_db():
+    # source: [TEXT] |H|^2 = 1/(1 + (f/fc)^2) equals 10^(-0.3) at f = fc sqrt(10^0.3 - 1) [D]
+    r, c = 10e3, 10e-9
+    d = make([("rc_lowpass", {"sections": 1}, {"R1": r, "C1": c})],
+             {"f_start": 10, "f_stop": 1e6, "points": 50, "cutoff_db": 3})
+    m = evaluate(d, samples=1).nominal.metrics
+    np.testing.assert_allclose(m["cutoff_hz"], math.sqrt(10 ** 0.3 - 1) / (TWO_PI * r * c), rtol=1e-9)
+
+
+@pytest.mark.parametrize("n", [2, 3, 4, 5, 6])
+def test_butterworth_cutoff_is_exact_on_a_coarse_grid(n):
+    # source: [BW] |H|^2 = 1/(1 + (f/fc)^(2n)) is 1/2 exactly at fc. A 50-point grid over
+    # four decades does not hold fc = 1 kHz; the refined crossing must still hit it to 1e-8.
+    fc = 1e3
+    d = butter_cascade(n, fc, {"f_start": 10, "f_stop": 1e5, "points": 50, "cutoff_db": HALF_POWER_DB})
+    ens = evaluate(d, samples=1)
+    assert np.min(np.abs(ens.freqs_hz / fc - 1)) > 0.01  # fc is not a grid point
+    np.testing.assert_allclose(ens.nominal.metrics["cutoff_hz"], fc, rtol=1e-8)
+
+
+def test_first_order_rc_highpass_cutoff():
+    # source: [TEXT] fc = 1/(2 pi R C) at half power; reference = high-frequency gain 1
+    r, c = 2.2e3, 47e-9
+    d = make([("rc_highpass", {"sections": 1}, {"R1": r, "C1": c})],
+             {"f_start": 1, "f_stop": 1e6, "points": 40, "cutoff_db": HALF_POWER_DB})
+    m = evaluate(d, samples=1).nominal.metrics
+    np.testing.assert_allclose(m["cutoff_hz"], 1 / (TWO_PI * r * c), rtol=1e-9)
+    np.testing.assert_allclose(m["reference_db"], 0.0, rtol=0, atol=1e-12)
+
+
+def test_butterworth_sallen_key_highpass_cutoff():
+    # source: [KARKI] unity-gain high-pass with C1 = C2 = C: Q = sqrt(R2/R1)/2, so R2 = 2 R1
+    # gives Q = 1/sqrt(2) (Butterworth), whose half-power point is f0 = 1/(2 pi C sqrt(R1 R2))
+    r1, c = 5.6e3, 22e-9
+    d = make([("sallen_key_highpass", {}, {"C1": c, "C2": c, "R1": r1, "R2": 2 * r1})],
+             {"f_start": 1, "f_stop": 1e6, "points": 50, "cutoff_db": HALF_POWER_DB})
+    m = evaluate(d, samples=1).nominal.metrics
+    f0 = 1 / (TWO_PI * c * math.sqrt(2) * r1)
+    np.testing.assert_allclose(m["cutoff_hz"], f0, rtol=1e-8)
+    np.testing.assert_allclose(m["s1.q"], 1 / math.sqrt(2), rtol=1e-12)
+
+
+def test_demo_is_a_2khz_butterworth():
+    # source: README "The demo design": a 4th-order Butterworth low-pass at 2 kHz from
+    # standard-value parts; [CM] Table 16.7 Q values 0.5412 and 1.3066 [C]. Rounded part
+    # values allow about 1 %.
+    m = evaluate(load_demo(), samples=1).nominal.metrics
+    np.testing.assert_allclose(m["cutoff_hz"], 2000, rtol=1e-2)
+    np.testing.assert_allclose([m["s1.f0_hz"], m["s2.f0_hz"]], 2000, rtol=1e-2)
+    np.testing.assert_allclose([m["s1.q"], m["s2.q"]], [0.5412, 1.3066], rtol=1e-2)
+
+
+# --- band-pass ------------------------------------------------------------------------
+
+R1_BP, R2_BP, R3_BP, C_BP = 10e3, 1e3, 100e3, 10e-9
+# source: [SLOA049] C1 = C2 = C: f_m = (1/2 pi C) sqrt((R1 + R2)/(R1 R3 R2)), Q = pi f_m R3 C,
+# A_m = -R3/(2 R1), bandwidth 1/(pi R3 C) (= f_m / Q)
+FM = 1 / (TWO_PI * C_BP) * math.sqrt((R1_BP + R2_BP) / (R1_BP * R3_BP * R2_BP))
+BW = 1 / (math.pi * R3_BP * C_BP)
+AM_DB = 20 * math.log10(R3_BP / (2 * R1_BP))
+
+
+def bandpass_design(points=400, f_start=10.0, f_stop=1e5):
+    return make([("mfb_bandpass", {}, {"R1": R1_BP, "R2": R2_BP, "R3": R3_BP, "C1": C_BP, "C2": C_BP})],
+                {"f_start": f_start, "f_stop": f_stop, "points": points, "cutoff_db": HALF_POWER_DB})
+
+
+def test_bandpass_centre_uniform_grid():
+    # source: [SLOA049] f_m; the centre is a parabola through the top three grid points,
+    # so rtol 1e-3 on a 400-point log grid
+    m = evaluate(bandpass_design(), samples=1).nominal.metrics
+    np.testing.assert_allclose(m["centre_hz"], FM, rtol=1e-3)
+    np.testing.assert_allclose(m["s1.f0_hz"], FM, rtol=1e-9)
+    np.testing.assert_allclose(m["s1.q"], FM / BW, rtol=1e-9)
+
+
+def test_bandpass_centre_grid_with_extra_points():
+    # source: [SLOA049] f_m, rtol 1e-3 as above. Mask edges and extra frequencies are
+    # merged into the grid (filters.evaluate.frequency_grid), so the grid is no longer
+    # evenly spaced in log f; here the extra point is f_m itself, the best case.
+    m = evaluate(bandpass_design(), samples=1, extra_freqs=[FM]).nominal.metrics
+    np.testing.assert_allclose(m["centre_hz"], FM, rtol=1e-3)
+
+
+def test_bandpass_edges_exact_when_peak_is_on_the_grid():
+    # source: [SLOA049] bandwidth 1/(pi R3 C) and A_m; [TEXT] f_lo f_hi = f_m^2. With f_m on
+    # the grid the reference (peak) is exact, and the refined crossings give 1e-8.
+    m = evaluate(bandpass_design(points=50), samples=1, extra_freqs=[FM]).nominal.metrics
+    np.testing.assert_allclose(m["bandwidth_hz"], BW, rtol=1e-8)
+    np.testing.assert_allclose(m["upper_hz"] - m["lower_hz"], BW, rtol=1e-8)
+    np.testing.assert_allclose(m["lower_hz"] * m["upper_hz"], FM ** 2, rtol=1e-8)
+    np.testing.assert_allclose(m["reference_db"], AM_DB, rtol=0, atol=1e-9)
+
+
+@pytest.mark.parametrize("points", [50, 400])
+def test_bandpass_bandwidth_does_not_depend_on_the_grid(points):
+    # source: [SLOA049]/[TEXT] half-power bandwidth f_m/Q = 1/(pi R3 C) exactly, midband
+    # gain 20 log10(R3/(2 R1)); filters.metrics promises crossings that do not depend on
+    # the grid density. f_m is not a grid point here.
+    ens = evaluate(bandpass_design(points=points), samples=1)
+    assert np.min(np.abs(ens.freqs_hz / FM - 1)) > 1e-4
+    m = ens.nominal.metrics
+    np.testing.assert_allclose(m["lower_hz"] * m["upper_hz"], FM ** 2, rtol=1e-8)
+    np.testing.assert_allclose(m["bandwidth_hz"], BW, rtol=1e-6)
+    np.testing.assert_allclose(m["reference_db"], AM_DB, rtol=0, atol=1e-6)
+
+
+# --- peaking ----------------------------------------------------------------------------
+
+Q_PEAK = 2.0
+F0_PEAK = 1e3
+PEAK_DB = 20 * math.log10(Q_PEAK ** 2 / math.sqrt(Q_PEAK ** 2 - 0.25))  # source: [TEXT]
+F_PEAK = F0_PEAK * math.sqrt(1 - 1 / (2 * Q_PEAK ** 2))                 # source: [TEXT]
+
+
+def test_peaking_of_a_q2_sallen_key_exact_with_peak_on_grid():
+    # source: [TEXT] peaking 20 log10(Q^2/sqrt(Q^2 - 1/4)) = 6.0 dB for Q = 2, at
+    # f0 sqrt(1 - 1/(2 Q^2)); the peak frequency is put on the grid
+    d = make([("sallen_key_lowpass", {}, sk_unity(F0_PEAK, Q_PEAK))],
+             {"f_start": 10, "f_stop": 1e5, "points": 100})
+    ens = evaluate(d, samples=1, extra_freqs=[F_PEAK])
+    np.testing.assert_allclose(ens.nominal.metrics["peaking_db"], PEAK_DB, rtol=1e-9)
+    np.testing.assert_allclose(ens.nominal.metrics["s1.q"], Q_PEAK, rtol=1e-12)
+    np.testing.assert_allclose(ens.nominal.metrics["s1.f0_hz"], F0_PEAK, rtol=1e-12)
+
+
+def test_peaking_on_the_default_grid_is_close_and_never_above():
+    # source: [TEXT] as above. The peak on a 400-point grid over four decades (step 2.3 %
+    # in f) lies within 0.01 dB below the true peak of this Q = 2 section.
+    d = make([("sallen_key_lowpass", {}, sk_unity(F0_PEAK, Q_PEAK))],
+             {"f_start": 10, "f_stop": 1e5, "points": 400})
+    p = evaluate(d, samples=1).nominal.metrics["peaking_db"]
+    assert PEAK_DB - 0.01 < p <= PEAK_DB + 1e-12
+
+
+# --- stage f0 and Q -------------------------------------------------------------------
+
+def test_stage_metrics_every_sample_against_closed_forms():
+    # source: [KARKI] Sallen-Key with K = 1 + RF/RG: f0 = 1/(2 pi sqrt(R1R2C1C2)),
+    # Q = sqrt(R1R2C1C2)/[C2(R1+R2) + R1C1(1-K)]; [SLOA049] multiple-feedback low-pass
+    # Q = sqrt(R2R3C1C2)/[C2(R2 + R3 + R2R3/R1)]; [TEXT] first-order corner 1/(2 pi R C)
+    sk = {"R1": 10e3, "R2": 12e3, "C1": 10e-9, "C2": 10e-9, "RF": 5.6e3, "RG": 10e3}
+    mfb = {"R1": 10e3, "R2": 22e3, "R3": 6.8e3, "C1": 47e-9, "C2": 2.2e-9}
+    rc = {"R1": 3.3e3, "C1": 4.7e-9}
+    grades = {"R1": "R-thick-5", "R2": "R-thick-5", "R3": "R-thick-5", "RF": "R-thick-5",
+              "RG": "R-thick-5", "C1": "C-X7R-10", "C2": "C-X7R-10"}
+    d = make([("sallen_key_lowpass", {"gain": "resistors"}, sk, grades),
+              ("mfb_lowpass", {}, mfb, grades), ("rc_lowpass", {"sections": 1}, rc, grades)])
+    ens = evaluate(d, samples=300, seed=11, curves=False)
+    m = ens.metrics
+    v = {p.ref: col(ens, p.ref) for p in d.parts}
+    k = 1 + v["RF_1"] / v["RG_1"]
+    b2 = v["R1_1"] * v["R2_1"] * v["C1_1"] * v["C2_1"]
+    b1 = v["C2_1"] * (v["R1_1"] + v["R2_1"]) + v["R1_1"] * v["C1_1"] * (1 - k)
+    np.testing.assert_allclose(m["s1.f0_hz"], 1 / (TWO_PI * np.sqrt(b2)), rtol=1e-9)
+    np.testing.assert_allclose(m["s1.q"], np.sqrt(b2) / b1, rtol=1e-9)
+    b2 = v["R2_2"] * v["R3_2"] * v["C1_2"] * v["C2_2"]
+    b1 = v["C2_2"] * (v["R2_2"] + v["R3_2"] + v["R2_2"] * v["R3_2"] / v["R1_2"])
+    np.testing.assert_allclose(m["s2.f0_hz"], 1 / (TWO_PI * np.sqrt(b2)), rtol=1e-9)
+    np.testing.assert_allclose(m["s2.q"], np.sqrt(b2) / b1, rtol=1e-9)
+    np.testing.assert_allclose(m["s3.fc_hz"], 1 / (TWO_PI * v["R1_3"] * v["C1_3"]), rtol=1e-12)
+
+
+def test_two_section_rc_ladder_q_one_third():
+    # source: [TEXT] two equal unbuffered RC sections: D(s) = 1 + 3 sRC + (sRC)^2, so
+    # f0 = 1/(2 pi R C) and Q = 1/3 (real poles; the degree-2 closed form reports Q < 1/2)
+    r, c = 10e3, 10e-9
+    d = make([("rc_lowpass", {"sections": 2}, {"R1": r, "C1": c, "R2": r, "C2": c})])
+    m = evaluate(d, samples=1).nominal.metrics
+    np.testing.assert_allclose(m["s1.q"], 1 / 3, rtol=1e-12)
+    np.testing.assert_allclose(m["s1.f0_hz"], 1 / (TWO_PI * r * c), rtol=1e-12)
+
+
+def test_pole_pairs_butterworth_5():
+    # source: [SCIPY] scipy.signal.butter(5, 1, analog=True) denominator; [CM] Table 16.7:
+    # Q 0.6180 and 1.6180 [C]; exact values 1/(2 sin(3 pi/10)), 1/(2 sin(pi/10)) [BW];
+    # poles on the unit circle: f0 = 1/(2 pi) Hz
+    _, a = scipy.signal.butter(5, 1, analog=True)
+    den = a[::-1][None, :]
+    f0, q = pole_pairs(den, 1.0)
+    assert f0.shape == q.shape == (1, 2)
+    np.testing.assert_allclose(q[0], [0.6180, 1.6180], rtol=0, atol=1e-4)
+    np.testing.assert_allclose(q[0], sorted(butter_q(5)), rtol=1e-12)
+    np.testing.assert_allclose(f0[0], 1 / TWO_PI, rtol=1e-12)
+    # scaled to s' = s / w_ref the same pairs come back at w_ref / (2 pi) Hz
+    w_ref = TWO_PI * 2.5e3
+    f0s, qs = pole_pairs(den, w_ref)
+    np.testing.assert_allclose(f0s[0], 2.5e3, rtol=1e-12)
+    np.testing.assert_allclose(qs[0], q[0], rtol=1e-12)
+
+
+def test_pole_pairs_second_order_closed_form():
+    # source: [TEXT] D(s) = d0 + d1 s + d2 s^2: w0 = sqrt(d0/d2), Q = sqrt(d0 d2)/d1
+    den = np.array([[4.0, 1.0, 1.0], [1.0, 3.0, 1.0], [9.0, 0.3, 0.25]])
+    f0, q = pole_pairs(den, 1.0)
+    np.testing.assert_allclose(f0[:, 0] * TWO_PI, [2.0, 1.0, 6.0], rtol=1e-14)
+    np.testing.assert_allclose(q[:, 0], [2.0, 1 / 3, 5.0], rtol=1e-14)
+
+
+# --- attenuation ------------------------------------------------------------------------
+
+@pytest.mark.parametrize("n", [2, 4, 5])
+def test_butterworth_attenuation_at_twice_cutoff(n):
+    # source: [BW] 10 log10(1 + Omega^(2n)) dB [D]; n = 4 at Omega = 2: 10 log10(257)
+    fc = 1e3
+    d = butter_cascade(n, fc, {"f_start": 10, "f_stop": 1e5, "points": 50})
+    circuit = compile_design(d)
+    values = np.array([[p.value for p in d.parts]])
+    coeffs = stage_coefficients(circuit, values)
+    resp = frequency_response(circuit, coeffs, np.geomspace(10, 1e5, 50), phase=False)
+    ref2 = reference_gain2(circuit, coeffs, resp)
+    np.testing.assert_allclose(ref2, 1.0, rtol=1e-12)
+    for omega in (2.0, 3.7, 10.0):
+        att = attenuation_db(coeffs, ref2, omega * fc)
+        np.testing.assert_allclose(att, 10 * math.log10(1 + omega ** (2 * n)), rtol=1e-9)
+    m = cutoff_metrics(circuit, coeffs, resp, HALF_POWER_DB)
+    np.testing.assert_allclose(m["cutoff_hz"], fc, rtol=1e-8)
+    if n == 4:
+        np.testing.assert_allclose(attenuation_db(coeffs, ref2, 2 * fc), 10 * math.log10(257), rtol=1e-9)
+
+
+def test_attenuation_relative_to_highpass_reference():
+    # source: [TEXT] first-order high-pass |H|^2 = (f/fc)^2/(1 + (f/fc)^2): attenuation
+    # 10 log10(1 + (fc/f)^2) dB below the high-frequency gain
+    r, c = 10e3, 10e-9
+    fc = 1 / (TWO_PI * r * c)
+    d = make([("rc_highpass", {"sections": 1}, {"R1": r, "C1": c})])
+    circuit = compile_design(d)
+    coeffs = stage_coefficients(circuit, np.array([[p.value for p in d.parts]]))
+    resp = frequency_response(circuit, coeffs, np.geomspace(10, 1e6, 50), phase=False)
+    ref2 = reference_gain2(circuit, coeffs, resp)
+    for f in (fc / 10, fc / 3, fc):
+        np.testing.assert_allclose(attenuation_db(coeffs, ref2, f), 10 * math.log10(1 + (fc / f) ** 2),
+                                   rtol=1e-9)
+
+
+def test_stage_coefficients_container_roundtrip():
+    # source: [TEXT] H(s) = 1/(1 + s R C) written in s' = s / w_ref is 1/(1 + s' w_ref R C):
+    # unscaled() must give back (1, R C) up to a common factor
+    sc = StageCoefficients(np.array([[0.5]]), np.array([[0.5, 0.5 * 2.0]]), 1e4)
+    num, den = sc.unscaled()
+    np.testing.assert_allclose(den[0, 1] / den[0, 0], 2.0 / 1e4, rtol=1e-15)
+    np.testing.assert_allclose(num[0, 0] / den[0, 0], 1.0, rtol=1e-15)
