@@ -1,0 +1,94 @@
+"""``tolspread design``: synthesize a filter and write it as a design file.
+
+::
+
+    tolspread design --response butterworth --order 4 --cutoff 2k -o lowpass.json
+    tolspread design --response chebyshev --ripple 1 --order 5 --cutoff 10k --gbw 1M -o cheb.json
+    tolspread design --response bessel --order 2 --kind bandpass --cutoff 1k --bandwidth 200 -o bp.json
+
+Frequencies (``--cutoff``, ``--bandwidth``, ``--gbw``, in Hz) may be written with SI
+prefixes ("2k", "1.5MHz"). The command prints every stage's f0 and Q before and after
+snapping the resistors, and the cutoff error snapping introduced, then saves the design.
+Bad input raises :class:`filters.errors.InputError` whose path names the option.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+from typing import Any
+
+from filters.designfile import save
+from filters.errors import InputError
+from filters.synthesis import KINDS, RESPONSES, synthesize
+from filters.values import parse_value
+
+# synthesize() argument -> command-line option, for error messages
+_OPTION = {"response": "--response", "order": "--order", "cutoff_hz": "--cutoff", "kind": "--kind",
+           "bandwidth_hz": "--bandwidth", "topology": "--topology", "series": "--series",
+           "cap_series": "--cap-series", "gbw_hz": "--gbw", "ripple_db": "--ripple"}
+
+
+def add_parser(subparsers: Any) -> argparse.ArgumentParser:
+    """Register the ``design`` subcommand on ``subparsers`` (from ``add_subparsers``)."""
+    d = subparsers.add_parser(
+        "design", help="synthesize a Butterworth, Chebyshev, Bessel or Linkwitz-Riley filter into a design file",
+        description="Synthesize a filter: one section per pole pair (lowest Q first), capacitors from "
+                    "--cap-series, resistors solved and snapped to --series. Prints f0 and Q of every "
+                    "stage before and after snapping, and saves the design (with a starting mask to edit).")
+    d.add_argument("--response", required=True, metavar="NAME",
+                   help=f"{', '.join(RESPONSES)} (Linkwitz-Riley: even orders, cutoff = -6 dB crossover)")
+    d.add_argument("--order", required=True, metavar="N", help="filter order, 1 to 10")
+    d.add_argument("--cutoff", required=True, metavar="HZ",
+                   help="cutoff in Hz (-3 dB point; band-pass: centre frequency), e.g. 2k")
+    d.add_argument("--kind", default="lowpass", metavar="KIND", help=f"{' | '.join(KINDS)} (default lowpass)")
+    d.add_argument("--bandwidth", metavar="HZ", help="band-pass only: bandwidth between the -3 dB edges, Hz")
+    d.add_argument("--topology", metavar="NAME",
+                   help="second-order sections: sallen_key_lowpass (default), mfb_lowpass, "
+                        "sallen_key_highpass (default), mfb_highpass, mfb_bandpass")
+    d.add_argument("--series", default="E24", help="resistor series (default E24)")
+    d.add_argument("--cap-series", default="E12", dest="cap_series", help="capacitor series (default E12)")
+    d.add_argument("--gbw", metavar="HZ", help="add an op-amp part with this gain-bandwidth (Hz) to every active stage")
+    d.add_argument("--ripple", metavar="DB", help="Chebyshev passband ripple: 0.1, 0.5, 1, 2 or 3 dB")
+    d.add_argument("-o", "--output", required=True, metavar="DESIGN", help="design file to write (JSON)")
+    return d
+
+
+def _order(text: Any) -> int:
+    if isinstance(text, int) and not isinstance(text, bool):
+        return text
+    try:
+        return int(str(text).strip())
+    except ValueError:
+        raise InputError(f"must be a whole number from 1 to 10, not {text!r}", "--order") from None
+
+
+def _value(text: Any, option: str) -> float | None:
+    return None if text is None else parse_value(text, option)
+
+
+def run(args: argparse.Namespace) -> int:
+    """Synthesize from parsed ``args``, print the section report, save; returns 0."""
+    response = str(args.response).strip().lower().replace("-", "_")
+    order = _order(args.order)
+    cutoff = _value(args.cutoff, "--cutoff")
+    bandwidth = _value(getattr(args, "bandwidth", None), "--bandwidth")
+    gbw = _value(getattr(args, "gbw", None), "--gbw")
+    ripple = _value(getattr(args, "ripple", None), "--ripple")
+    kind = str(getattr(args, "kind", None) or "lowpass").strip().lower().replace("-", "")
+    try:
+        result = synthesize(response, order, cutoff, kind=kind, bandwidth_hz=bandwidth,
+                            topology=getattr(args, "topology", None), series=getattr(args, "series", "E24"),
+                            cap_series=getattr(args, "cap_series", "E12"), gbw_hz=gbw, ripple_db=ripple)
+    except InputError as exc:
+        if exc.path in _OPTION:
+            raise InputError(exc.reason, _OPTION[exc.path]) from None
+        raise
+    out = sys.stdout
+    out.write(result.text_report() + "\n")
+    slow = [w for w in result.gbw if w.too_low]
+    for w in slow:
+        out.write(f"warning: {w.stage}: op-amp gain-bandwidth {w.gbw_hz:.4g} Hz is below the "
+                  f"{w.required_gbw_hz:.4g} Hz the rule GBW >= 100 G Q f0 asks for\n")
+    save(result.design, args.output)
+    out.write(f"wrote {args.output}\n")
+    return 0

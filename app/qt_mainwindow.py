@@ -1,0 +1,501 @@
+"""The main window: parts on the left, spread plots in the middle, results on the right,
+the span table below. Menus and shortcuts for files, undo and redo, the mask and exports.
+
+The window observes the :class:`~app.qt_session.Session`; every edit goes through
+``session.apply`` so it can be undone.
+"""
+from __future__ import annotations
+
+import csv
+import logging
+import traceback
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+import pyqtgraph as pg
+import pyqtgraph.exporters  # noqa: F401  (registers the exporters)
+from PySide6.QtCore import QSettings, Qt, QTimer
+from PySide6.QtGui import QAction, QActionGroup, QKeySequence, QShortcut
+from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog, QLabel, QMainWindow, QMessageBox,
+                               QProgressBar, QPushButton, QSplitter, QToolBar)
+
+from filters import __version__
+from filters.design import Design
+from filters.designfile import demo_text, load_demo, loads, write_text_atomic
+from filters.errors import InputError, ValidationError
+from filters.liveview import ViewData, what_if_grades
+from filters.mask import Span
+from filters.summary import metric_label
+
+from . import userfiles
+from .qt_masktable import SpanTable
+from .qt_parts import PartsPanel
+from .qt_plots import SpreadPlots
+from .qt_results import ResultsPanel
+from .qt_session import Session
+
+log = logging.getLogger("tolspread")
+MAX_RECENT = 8
+AUTOSAVE_MS = 60_000
+
+
+class MainWindow(QMainWindow):
+    """The tolspread window."""
+
+    def __init__(self, session: Session, settings: QSettings | None = None) -> None:
+        super().__init__()
+        self.session = session
+        self.settings = settings or QSettings(str(userfiles.settings_path()), QSettings.Format.IniFormat)
+        self.setObjectName("tolspread_main")
+        self.plots = SpreadPlots()
+        self.span_table = SpanTable()
+        self.centre = QSplitter(Qt.Orientation.Vertical)
+        self.centre.setObjectName("centre_splitter")
+        self.centre.addWidget(self.plots)
+        self.centre.addWidget(self.span_table)
+        self.centre.setStretchFactor(0, 5)
+        self.centre.setStretchFactor(1, 1)
+        self.setCentralWidget(self.centre)
+        self.parts = PartsPanel()
+        self.parts.setMinimumWidth(440)
+        self.results = ResultsPanel()
+        self.results.setMinimumWidth(380)
+        self._dock(self.parts, "Parts and grades", "dock_parts", Qt.DockWidgetArea.LeftDockWidgetArea)
+        self._dock(self.results, "Yield and spread budget", "dock_results", Qt.DockWidgetArea.RightDockWidgetArea)
+        self._what_if: dict[str, float] = {}
+        self._build_actions()
+        self._build_status()
+        self._connect()
+        self._restore_layout()
+        self._on_design_changed(session.design)
+        self._update_title()
+        self.autosave = QTimer(self)
+        self.autosave.setInterval(AUTOSAVE_MS)
+        self.autosave.timeout.connect(self.write_recovery)
+        self.autosave.start()
+
+    # --- construction --------------------------------------------------------------------
+    def _dock(self, widget, title: str, name: str, area) -> QDockWidget:
+        d = QDockWidget(title, self)
+        d.setObjectName(name)
+        d.setWidget(widget)
+        d.setFeatures(QDockWidget.DockWidgetFeature.DockWidgetMovable | QDockWidget.DockWidgetFeature.DockWidgetFloatable)
+        self.addDockWidget(area, d)
+        return d
+
+    def _action(self, text: str, slot, shortcut=None, name: str = "", checkable: bool = False) -> QAction:
+        a = QAction(text, self)
+        if shortcut is not None:
+            a.setShortcut(QKeySequence(shortcut))
+        a.setCheckable(checkable)
+        a.setObjectName(name or text.lower().replace(" ", "_").replace("…", ""))
+        a.triggered.connect(slot)
+        return a
+
+    def _build_actions(self) -> None:
+        m = self.menuBar()
+        S = QKeySequence.StandardKey
+        self.act_new = self._action("New", self.file_new, S.New, "file_new")
+        self.act_open = self._action("Open…", self.file_open, S.Open, "file_open")
+        self.act_save = self._action("Save", self.file_save, S.Save, "file_save")
+        self.act_save_as = self._action("Save As…", self.file_save_as, S.SaveAs, "file_save_as")
+        self.act_png = self._action("Export plots as PNG…", lambda: self.export_plots("png"), "Ctrl+E", "export_png")
+        self.act_svg = self._action("Export plots as SVG…", lambda: self.export_plots("svg"), "Ctrl+Shift+E", "export_svg")
+        self.act_csv = self._action("Export board metrics as CSV…", self.export_csv, "Ctrl+Shift+M", "export_csv")
+        self.act_quit = self._action("Quit", self.close, S.Quit, "quit")
+        fm = m.addMenu("&File")
+        for a in (self.act_new, self.act_open):
+            fm.addAction(a)
+        self.recent_menu = fm.addMenu("Open recent")
+        fm.addSeparator()
+        for a in (self.act_save, self.act_save_as):
+            fm.addAction(a)
+        fm.addSeparator()
+        for a in (self.act_png, self.act_svg, self.act_csv):
+            fm.addAction(a)
+        fm.addSeparator()
+        fm.addAction(self.act_quit)
+        self.act_undo = self.session.undo_stack.createUndoAction(self, "Undo")
+        self.act_undo.setShortcut(QKeySequence(S.Undo))
+        self.act_undo.setObjectName("undo")
+        self.act_redo = self.session.undo_stack.createRedoAction(self, "Redo")
+        self.act_redo.setShortcut(QKeySequence(S.Redo))
+        self.act_redo.setObjectName("redo")
+        em = m.addMenu("&Edit")
+        em.addAction(self.act_undo)
+        em.addAction(self.act_redo)
+        em.addSeparator()
+        self.act_floor = self._action("Draw floor span", lambda on: self._set_draw("floor", on), "F", "draw_floor", True)
+        self.act_ceiling = self._action("Draw ceiling span", lambda on: self._set_draw("ceiling", on), "C",
+                                        "draw_ceiling", True)
+        self.act_delete = self._action("Delete selected span", self.delete_selected_span, S.Delete, "delete_span")
+        for a in (self.act_floor, self.act_ceiling, self.act_delete):
+            em.addAction(a)
+        vm = m.addMenu("&View")
+        group = QActionGroup(self)
+        self.act_phase = self._action("Phase", lambda: self.session.set_second("phase"), "Ctrl+1", "show_phase", True)
+        self.act_delay = self._action("Group delay", lambda: self.session.set_second("delay"), "Ctrl+2", "show_delay",
+                                      True)
+        self.act_phase.setChecked(True)
+        for a in (self.act_phase, self.act_delay):
+            group.addAction(a)
+            vm.addAction(a)
+        vm.addSeparator()
+        self.act_failing = self._action("Highlight failing boards", self._on_failing_toggled, "Ctrl+H",
+                                        "highlight_failing", True)
+        self.act_failing.setChecked(True)
+        self.act_fit = self._action("Fit plots", self.plots.fit, "Ctrl+0", "fit_plots")
+        vm.addAction(self.act_failing)
+        vm.addAction(self.act_fit)
+        tb = QToolBar("Main tools")
+        tb.setObjectName("toolbar_main")
+        for a in (self.act_open, self.act_save, None, self.act_undo, self.act_redo, None, self.act_floor,
+                  self.act_ceiling, self.act_delete, None, self.act_phase, self.act_delay, self.act_failing,
+                  self.act_fit):
+            tb.addSeparator() if a is None else tb.addAction(a)
+        self.addToolBar(tb)
+        self._refresh_recent()
+
+    def _build_status(self) -> None:
+        sb = self.statusBar()
+        self.status_text = QLabel("")
+        self.status_text.setObjectName("status_text")
+        self.progress = QProgressBar()
+        self.progress.setMaximumWidth(160)
+        self.progress.hide()
+        self.cancel_button = QPushButton("Cancel run")
+        self.cancel_button.setObjectName("cancel_run")
+        self.cancel_button.hide()
+        self.cancel_button.clicked.connect(self.session.cancel)
+        self.busy_label = QLabel("")
+        self.busy_label.setObjectName("busy_label")
+        sb.addWidget(self.status_text, 1)
+        sb.addPermanentWidget(self.busy_label)
+        sb.addPermanentWidget(self.progress)
+        sb.addPermanentWidget(self.cancel_button)
+
+    def _connect(self) -> None:
+        s = self.session
+        s.design_changed.connect(self._on_design_changed)
+        s.view_ready.connect(self._on_view_ready)
+        s.evaluation_failed.connect(self._on_evaluation_failed)
+        s.busy_changed.connect(self._on_busy_changed)
+        s.progress.connect(self._on_progress)
+        s.dirty_changed.connect(lambda _d: self._update_title())
+        s.path_changed.connect(lambda _p: self._update_title())
+        self.parts.value_committed.connect(self._on_value_committed)
+        self.parts.grade_chosen.connect(self._on_grade_chosen)
+        self.parts.tolerance_dragging.connect(self._on_tolerance_dragging)
+        self.parts.tolerance_released.connect(self._on_tolerance_released)
+        self.parts.sampling_changed.connect(self._on_sampling_changed)
+        self.parts.problem_shown.connect(self.show_status)
+        self.plots.span_added.connect(self._on_span_added)
+        self.plots.span_edited.connect(self._on_span_edited)
+        self.plots.span_changing.connect(self._on_span_changing)
+        self.plots.span_selected.connect(self.span_table.select)
+        self.span_table.span_selected.connect(self.plots.select)
+        self.span_table.span_edited.connect(self._on_span_edited)
+        self.span_table.span_added.connect(self._on_span_added)
+        self.span_table.span_deleted.connect(self._delete_span)
+        self.span_table.problem.connect(self.show_status)
+        # Delete works while the plot has focus too
+        for w in (self.plots.canvas,):
+            sc = QShortcut(QKeySequence(QKeySequence.StandardKey.Delete), w)
+            sc.setContext(Qt.ShortcutContext.WidgetWithChildrenShortcut)
+            sc.activated.connect(self.delete_selected_span)
+
+    # --- model to view -------------------------------------------------------------------
+    def _on_design_changed(self, design: Design) -> None:
+        self._what_if.clear()
+        self.parts.show_design(design)
+        a = design.analysis
+        self.span_table.show_mask(design.mask, (a.f_start, a.f_stop))
+        self._update_title()
+
+    def _on_view_ready(self, view: ViewData) -> None:
+        self.plots.show_view(view)
+        self.results.show_view(view)
+        self.show_status(f"{view.samples:,} boards evaluated in {1000 * view.elapsed_s:.0f} ms")
+
+    def _on_evaluation_failed(self, message: str, details: str) -> None:
+        self.results.show_message(message)
+        self.show_status(message)
+        if details:
+            log.error("evaluation failed: %s\n%s", message, details)
+
+    def _on_busy_changed(self, busy: bool) -> None:
+        self.busy_label.setText("evaluating…" if busy else "")
+        if not busy:
+            self.progress.hide()
+            self.cancel_button.hide()
+
+    def _on_progress(self, done: int, total: int) -> None:
+        self.progress.setRange(0, total)
+        self.progress.setValue(done)
+        self.progress.show()
+        self.cancel_button.show()
+
+    def show_status(self, text: str) -> None:
+        self.status_text.setText(text)
+
+    def _update_title(self) -> None:
+        name = self.session.path.name if self.session.path else (self.session.design.name or "untitled")
+        self.setWindowTitle(f"{'* ' if self.session.dirty else ''}{name} — tolspread {__version__}")
+
+    # --- view to model -------------------------------------------------------------------
+    def _on_value_committed(self, ref: str, value: float, text: str) -> None:
+        d = self.session.design
+        self.session.apply(d.with_part(ref, value=value, text=text), f"{ref} value {text}")
+
+    def _on_grade_chosen(self, ref: str, grade: str) -> None:
+        d = self.session.design
+        p = d.parts[d.part_index(ref)]
+        if p.grade == grade and p.tolerance_pct is None:
+            return
+        self.session.apply(d.with_part(ref, grade=grade, tolerance_pct=None), f"{ref} grade {grade}")
+
+    def _on_tolerance_dragging(self, ref: str, pct: float) -> None:
+        self._what_if[ref] = pct
+        d = self.session.design
+        tols = [self._what_if.get(p.ref) for p in d.parts]
+        self.session.preview(what_if_grades(d, tols))
+
+    def _on_tolerance_released(self, ref: str, pct: float) -> None:
+        self._what_if.pop(ref, None)
+        d = self.session.design
+        self.session.apply(d.with_part(ref, tolerance_pct=pct), f"{ref} tolerance ±{pct:g} %")
+
+    def _on_sampling_changed(self, samples: int, seed: int, method: str) -> None:
+        d = self.session.design
+        a = d.analysis
+        if (samples, seed, method) == (a.samples, a.seed, a.method):
+            return
+        self.session.apply(d.with_analysis(samples=samples, seed=seed, method=method),
+                           f"{samples} boards, seed {seed}")
+
+    def _set_draw(self, kind: str, on: bool) -> None:
+        other = self.act_ceiling if kind == "floor" else self.act_floor
+        if on:
+            other.setChecked(False)
+        self.plots.set_draw_kind(kind if on else None)  # type: ignore[arg-type]
+        if on:
+            self.show_status(f"drag on the gain plot over the zone the response must not enter ({kind} span)")
+
+    def _on_span_added(self, span: Span) -> None:
+        d = self.session.design
+        self.session.apply(d.with_mask(d.mask + (span,)), f"add {span.label}")
+        self.act_floor.setChecked(False)
+        self.act_ceiling.setChecked(False)
+        self.plots.set_draw_kind(None)
+        self.plots.select(len(d.mask))
+
+    def _on_span_edited(self, index: int, span: Span) -> None:
+        d = self.session.design
+        mask = list(d.mask)
+        mask[index] = span
+        self.session.apply(d.with_mask(tuple(mask)), f"edit {span.label}")
+
+    def _on_span_changing(self, index: int, span: Span) -> None:
+        self.show_status(f"{span.label}: {span.f1:g} Hz to {span.f2:g} Hz, limit {span.limit1:+.2f}"
+                         f"{'' if span.limit2 is None else f' to {span.limit2:+.2f}'} dB"
+                         f"{' relative' if span.relative else ''} (release to apply)")
+
+    def delete_selected_span(self) -> None:
+        i = self.plots.selected if self.plots.selected >= 0 else self.span_table.selected()
+        if i >= 0:
+            self._delete_span(i)
+
+    def _delete_span(self, index: int) -> None:
+        d = self.session.design
+        if not 0 <= index < len(d.mask):
+            return
+        span = d.mask[index]
+        self.session.apply(d.with_mask(d.mask[:index] + d.mask[index + 1:]), f"delete {span.label}")
+        self.plots.select(-1)
+
+    def _on_failing_toggled(self, on: bool) -> None:
+        self.plots.show_failing = on
+        if self.session.last_view is not None:
+            self.plots.show_view(self.session.last_view)
+
+    # --- files ---------------------------------------------------------------------------
+    def confirm_discard(self) -> bool:
+        """Ask before unsaved changes are thrown away; True to go on."""
+        if not self.session.dirty:
+            return True
+        answer = QMessageBox.question(
+            self, "Unsaved changes", "The design has unsaved changes. Save them first?",
+            QMessageBox.StandardButton.Save | QMessageBox.StandardButton.Discard | QMessageBox.StandardButton.Cancel)
+        if answer == QMessageBox.StandardButton.Save:
+            return self.file_save()
+        return answer == QMessageBox.StandardButton.Discard
+
+    def file_new(self) -> None:
+        if self.confirm_discard():
+            d = load_demo()
+            self.session.replace_design(replace(d, name="untitled (from the demo)", mask=()), None)
+
+    def file_open(self) -> None:
+        if not self.confirm_discard():
+            return
+        path, _ = QFileDialog.getOpenFileName(self, "Open design", str(self._last_dir()), "Designs (*.json);;All files (*)")
+        if path:
+            self.open_path(Path(path))
+
+    def open_path(self, path: Path) -> bool:
+        try:
+            self.session.open(path)
+        except ValidationError as exc:
+            self._show_problem(f"{path.name} could not be opened", "\n".join(exc.lines()))
+            return False
+        except InputError as exc:
+            self._show_problem(f"{path.name} could not be opened", str(exc))
+            return False
+        self._remember_recent(path)
+        self.show_status(f"opened {path}")
+        return True
+
+    def file_save(self) -> bool:
+        if self.session.path is None:
+            return self.file_save_as()
+        return self._save_to(self.session.path)
+
+    def file_save_as(self) -> bool:
+        path, _ = QFileDialog.getSaveFileName(self, "Save design", str(self._last_dir() / "design.json"),
+                                              "Designs (*.json)")
+        if not path:
+            return False
+        if not path.endswith(".json"):
+            path += ".json"
+        return self._save_to(Path(path))
+
+    def _save_to(self, path: Path) -> bool:
+        try:
+            self.session.save_as(path)
+        except InputError as exc:
+            self._show_problem("Saving failed; the previous file is unchanged", str(exc))
+            return False
+        self._remember_recent(path)
+        self.show_status(f"saved {path}")
+        userfiles.recovery_path().unlink(missing_ok=True)
+        return True
+
+    def _show_problem(self, title: str, text: str) -> None:
+        self.show_status(f"{title}: {text.splitlines()[0] if text else ''}")
+        box = QMessageBox(QMessageBox.Icon.Warning, title, text, QMessageBox.StandardButton.Ok, self)
+        box.setObjectName("problem_box")
+        if QApplication.platformName() == "offscreen":
+            box.setModal(False)
+            box.show()
+            QTimer.singleShot(0, box.close)
+            return
+        box.exec()
+
+    def _last_dir(self) -> Path:
+        return Path(self.settings.value("last_dir", str(Path.home())))
+
+    def _remember_recent(self, path: Path) -> None:
+        path = path.resolve()
+        recent = [p for p in self.recent_files() if Path(p) != path]
+        recent.insert(0, str(path))
+        self.settings.setValue("recent_files", recent[:MAX_RECENT])
+        self.settings.setValue("last_dir", str(path.parent))
+        self._refresh_recent()
+
+    def recent_files(self) -> list[str]:
+        v = self.settings.value("recent_files", [])
+        return [v] if isinstance(v, str) else list(v or [])
+
+    def _refresh_recent(self) -> None:
+        self.recent_menu.clear()
+        for p in self.recent_files():
+            a = self.recent_menu.addAction(p)
+            a.triggered.connect(lambda _c=False, p=p: self.confirm_discard() and self.open_path(Path(p)))
+        self.recent_menu.setEnabled(bool(self.recent_files()))
+
+    # --- exports -------------------------------------------------------------------------
+    def export_plots(self, kind: str, path: str | None = None) -> Path | None:
+        """Save the plots as PNG or SVG (asks for a file unless ``path`` is given)."""
+        if path is None:
+            path, _ = QFileDialog.getSaveFileName(self, f"Export plots as {kind.upper()}",
+                                                  str(self._last_dir() / f"spread.{kind}"), f"*.{kind}")
+            if not path:
+                return None
+        scene = self.plots.canvas.scene()
+        exporter = (pg.exporters.ImageExporter(scene) if kind == "png" else pg.exporters.SVGExporter(scene))
+        if kind == "png":
+            exporter.parameters()["width"] = max(1200, int(self.plots.canvas.width()))
+        exporter.export(str(path))
+        self.show_status(f"plots written to {path}")
+        return Path(path)
+
+    def export_csv(self, path: str | None = None) -> Path | None:
+        """Write every board's part values, metrics and margins as CSV."""
+        view = self.session.last_view
+        if view is None:
+            return None
+        if path is None:
+            path, _ = QFileDialog.getSaveFileName(self, "Export board metrics", str(self._last_dir() / "boards.csv"),
+                                                  "*.csv")
+            if not path:
+                return None
+        ens = view.ensemble
+        refs = [p.ref for p in view.design.parts]
+        names = list(view.metrics)
+        stage_names = [s.name for s in view.design.stages]
+        import io
+
+        buf = io.StringIO()
+        w = csv.writer(buf)
+        w.writerow(["board"] + [f"{r} (SI units)" for r in refs] + [metric_label(n, stage_names) for n in names]
+                   + ["passes mask"])
+        passed = ens.passed
+        cols = np.column_stack([ens.values] + [view.metrics[n] for n in names])
+        for i in range(cols.shape[0]):  # writing text: one row per board is the file's shape
+            w.writerow([i] + [f"{x:.9g}" for x in cols[i]] + [int(passed[i])])
+        write_text_atomic(Path(path), buf.getvalue(), backup=False)
+        self.show_status(f"{cols.shape[0]} boards written to {path}")
+        return Path(path)
+
+    # --- recovery, layout ----------------------------------------------------------------
+    def write_recovery(self) -> None:
+        """Write unsaved work to the recovery file (every minute while there is some)."""
+        if not self.session.dirty:
+            return
+        try:
+            text = self.session.text()
+            origin = str(self.session.path) if self.session.path else ""
+            write_text_atomic(userfiles.recovery_path(), text, backup=False)
+            write_text_atomic(userfiles.recovery_path().with_suffix(".origin"), origin, backup=False)
+        except InputError as exc:
+            log.warning("could not write the recovery file: %s", exc)
+
+    def _restore_layout(self) -> None:
+        geo = self.settings.value("geometry")
+        state = self.settings.value("window_state")
+        if geo is not None:
+            self.restoreGeometry(geo)
+        else:
+            self.resize(1500, 900)
+        if state is not None:
+            self.restoreState(state)
+
+        splitter = self.settings.value("centre_splitter")
+        if splitter is not None:
+            self.centre.restoreState(splitter)
+        else:
+            self.centre.setSizes([700, 190])
+
+    def closeEvent(self, event) -> None:  # noqa: N802 - Qt override
+        if not self.confirm_discard():
+            event.ignore()
+            return
+        self.settings.setValue("geometry", self.saveGeometry())
+        self.settings.setValue("window_state", self.saveState())
+        self.settings.setValue("centre_splitter", self.centre.saveState())
+        self.settings.sync()
+        userfiles.recovery_path().unlink(missing_ok=True)
+        self.autosave.stop()
+        self.session.shutdown()
+        event.accept()

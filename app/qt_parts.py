@@ -1,0 +1,244 @@
+"""The parts panel: each part's reference designator, value, grade and tolerance.
+
+Value text is parsed on Enter or when the field loses focus; invalid text is marked and
+explained beside the field and the design keeps its last good value. Dragging a
+tolerance slider previews the what-if tolerance live; releasing it makes one edit.
+"""
+from __future__ import annotations
+
+import math
+
+from PySide6.QtCore import Qt, Signal
+from PySide6.QtWidgets import (QComboBox, QGridLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton,
+                               QScrollArea, QSlider, QSpinBox, QVBoxLayout, QWidget, QComboBox as _Combo)
+
+from filters.design import MAX_SAMPLES, Design
+from filters.errors import InputError
+from filters.values import format_value, parse_value
+
+SLIDER_STEPS = 1000
+TOL_MIN, TOL_MAX = 0.05, 30.0  # percent, log scale
+UNITS = {"R": "Ω", "C": "F", "L": "H", "opamp": "Hz"}
+INVALID_STYLE = "QLineEdit { background: #fde2d6; border: 1px solid #D55E00; }"
+
+
+def slider_to_pct(pos: int) -> float:
+    """Slider position to tolerance (%), on a log scale from 0.05 % to 30 %."""
+    t = pos / SLIDER_STEPS
+    return round(10 ** (math.log10(TOL_MIN) + t * (math.log10(TOL_MAX) - math.log10(TOL_MIN))), 3)
+
+
+def pct_to_slider(pct: float) -> int:
+    if pct <= TOL_MIN:
+        return 0
+    t = (math.log10(pct) - math.log10(TOL_MIN)) / (math.log10(TOL_MAX) - math.log10(TOL_MIN))
+    return int(round(min(1.0, t) * SLIDER_STEPS))
+
+
+class PartRow:
+    """The widgets of one part."""
+
+    def __init__(self, panel: "PartsPanel", ref: str) -> None:
+        self.ref = ref
+        self.label = QLabel(ref)
+        self.label.setObjectName(f"ref_{ref}")
+        self.value = QLineEdit()
+        self.value.setObjectName(f"value_{ref}")
+        self.value.setMaximumWidth(90)
+        self.grade = QComboBox()
+        self.grade.setObjectName(f"grade_{ref}")
+        self.grade.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToContents)
+        self.slider = QSlider(Qt.Orientation.Horizontal)
+        self.slider.setObjectName(f"tolerance_{ref}")
+        self.slider.setRange(0, SLIDER_STEPS)
+        self.slider.setMinimumWidth(110)
+        self.readout = QLabel()
+        self.readout.setObjectName(f"tolerance_readout_{ref}")
+        self.readout.setMinimumWidth(70)
+        self.problem = QLabel()
+        self.problem.setObjectName(f"problem_{ref}")
+        self.problem.setStyleSheet("color: #D55E00;")
+        self.problem.setWordWrap(True)
+        self.problem.hide()
+        self.value.editingFinished.connect(lambda: panel._on_value_edited(self))
+        self.grade.activated.connect(lambda _i: panel._on_grade_chosen(self))
+        self.slider.valueChanged.connect(lambda pos: panel._on_slider_moved(self, pos))
+        self.slider.sliderReleased.connect(lambda: panel._on_slider_released(self))
+
+
+class PartsPanel(QWidget):
+    """Every part with its value, grade and tolerance, plus sample count and seed."""
+
+    value_committed = Signal(str, float, str)   # ref, value (SI), text
+    grade_chosen = Signal(str, str)             # ref, grade name
+    tolerance_dragging = Signal(str, float)     # ref, tolerance %
+    tolerance_released = Signal(str, float)     # ref, tolerance %
+    sampling_changed = Signal(int, int, str)    # samples, seed, method
+    problem_shown = Signal(str)                 # a message for the status bar
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.rows: dict[str, PartRow] = {}
+        self._design: Design | None = None
+        self._dragging: str | None = None
+        self._keyboard_slide = False
+        outer = QVBoxLayout(self)
+        outer.setContentsMargins(4, 4, 4, 4)
+        samp = QGridLayout()
+        self.samples = QSpinBox()
+        self.samples.setObjectName("samples")
+        self.samples.setRange(10, MAX_SAMPLES)
+        self.samples.setSingleStep(1000)
+        self.samples.setGroupSeparatorShown(True)
+        self.seed = QSpinBox()
+        self.seed.setObjectName("seed")
+        self.seed.setRange(0, 2_000_000_000)
+        self.method = _Combo()
+        self.method.setObjectName("method")
+        self.method.addItem("random", "random")
+        self.method.addItem("Sobol (QMC)", "sobol")
+        self.redraw = QPushButton("New boards")
+        self.redraw.setObjectName("redraw")
+        self.redraw.setToolTip("Draw a fresh set of boards (next seed)")
+        samp.addWidget(QLabel("boards"), 0, 0)
+        samp.addWidget(self.samples, 0, 1)
+        samp.addWidget(QLabel("seed"), 0, 2)
+        samp.addWidget(self.seed, 0, 3)
+        samp.addWidget(QLabel("sampling"), 1, 0)
+        samp.addWidget(self.method, 1, 1)
+        samp.addWidget(self.redraw, 1, 2, 1, 2)
+        outer.addLayout(samp)
+        self.samples.editingFinished.connect(self._emit_sampling)
+        self.seed.editingFinished.connect(self._emit_sampling)
+        self.method.activated.connect(lambda _i: self._emit_sampling())
+        self.redraw.clicked.connect(self._on_redraw)
+        self.grid_host = QWidget()
+        self.grid = QGridLayout(self.grid_host)
+        self.grid.setContentsMargins(0, 0, 0, 0)
+        self.grid.setVerticalSpacing(2)
+        for col, head in enumerate(("part", "value", "grade", "tolerance", "")):
+            h = QLabel(f"<b>{head}</b>")
+            self.grid.addWidget(h, 0, col)
+        scroll = QScrollArea()
+        scroll.setWidgetResizable(True)
+        scroll.setWidget(self.grid_host)
+        outer.addWidget(scroll, 1)
+
+    def sizeHint(self):  # noqa: N802 - Qt override
+        from PySide6.QtCore import QSize
+
+        return QSize(520, 600)
+
+    # --- model to view -------------------------------------------------------------------
+    def show_design(self, design: Design) -> None:
+        """Show ``design``'s parts (rebuilding rows only when the parts list changed)."""
+        self._design = design
+        refs = [p.ref for p in design.parts]
+        if refs != list(self.rows):
+            self._rebuild(refs)
+        cat = design.catalog
+        grades = design.part_grades()
+        for p, g in zip(design.parts, grades):
+            row = self.rows[p.ref]
+            if not row.value.hasFocus() or not row.problem.isVisible():
+                row.value.setText(p.value_text)
+                row.value.setStyleSheet("")
+                row.value.setToolTip(f"{format_value(p.value, UNITS.get(p.kind, ''), 6)}")
+                row.problem.hide()
+            row.grade.blockSignals(True)
+            row.grade.clear()
+            for cg in cat.for_kind(p.kind):
+                row.grade.addItem(f"{cg.name}  (±{cg.tolerance_pct:g} %)", cg.name)
+            row.grade.setCurrentIndex(max(0, row.grade.findData(p.grade)))
+            row.grade.setToolTip(cat[p.grade].technology)
+            row.grade.blockSignals(False)
+            if self._dragging != p.ref:
+                row.slider.blockSignals(True)
+                row.slider.setValue(pct_to_slider(g.tolerance_pct))
+                row.slider.blockSignals(False)
+                self._set_readout(row, g.tolerance_pct, p.tolerance_pct is not None)
+        a = design.analysis
+        for w, v in ((self.samples, a.samples), (self.seed, a.seed)):
+            w.blockSignals(True)
+            w.setValue(v)
+            w.blockSignals(False)
+        self.method.setCurrentIndex(max(0, self.method.findData(a.method)))
+
+    def _rebuild(self, refs: list[str]) -> None:
+        for row in self.rows.values():
+            for w in (row.label, row.value, row.grade, row.slider, row.readout, row.problem):
+                w.setParent(None)
+                w.deleteLater()
+        self.rows = {}
+        for i, ref in enumerate(refs):
+            row = PartRow(self, ref)
+            r = 1 + 2 * i
+            self.grid.addWidget(row.label, r, 0)
+            self.grid.addWidget(row.value, r, 1)
+            self.grid.addWidget(row.grade, r, 2)
+            self.grid.addWidget(row.slider, r, 3)
+            self.grid.addWidget(row.readout, r, 4)
+            self.grid.addWidget(row.problem, r + 1, 1, 1, 4)
+            self.rows[ref] = row
+        self.grid.setRowStretch(1 + 2 * len(refs), 1)
+
+    def _set_readout(self, row: PartRow, pct: float, what_if: bool) -> None:
+        row.readout.setText(f"±{pct:.3g} %" + (" *" if what_if else ""))
+        row.readout.setToolTip("what-if tolerance (not the grade's); choose a grade to reset" if what_if
+                               else "the grade's tolerance")
+
+    # --- view to model -------------------------------------------------------------------
+    def _on_value_edited(self, row: PartRow) -> None:
+        if self._design is None:
+            return
+        part = self._design.parts[self._design.part_index(row.ref)]
+        text = row.value.text().strip()
+        if text == part.value_text:
+            row.value.setStyleSheet("")
+            row.problem.hide()
+            return
+        try:
+            value = parse_value(text, f"{row.ref} value")
+            if not value > 0 or not math.isfinite(value):
+                raise InputError(f"must be above 0, not {text!r}", f"{row.ref} value")
+        except InputError as exc:
+            self.mark_invalid(row.ref, exc.reason)
+            return
+        row.value.setStyleSheet("")
+        row.problem.hide()
+        self.value_committed.emit(row.ref, value, text)
+
+    def mark_invalid(self, ref: str, reason: str) -> None:
+        """Mark ``ref``'s value field and explain; the design is not changed."""
+        row = self.rows[ref]
+        row.value.setStyleSheet(INVALID_STYLE)
+        row.value.setToolTip(reason)
+        row.problem.setText(f"{reason}; still using {self._design.parts[self._design.part_index(ref)].value_text}"
+                            if self._design else reason)
+        row.problem.show()
+        self.problem_shown.emit(f"{ref}: {reason}")
+
+    def _on_grade_chosen(self, row: PartRow) -> None:
+        name = row.grade.currentData()
+        if name:
+            self.grade_chosen.emit(row.ref, name)
+
+    def _on_slider_moved(self, row: PartRow, pos: int) -> None:
+        pct = slider_to_pct(pos)
+        self._set_readout(row, pct, True)
+        if row.slider.isSliderDown():
+            self._dragging = row.ref
+            self.tolerance_dragging.emit(row.ref, pct)
+        else:  # keyboard, wheel or a click on the groove: one edit per step
+            self.tolerance_released.emit(row.ref, pct)
+
+    def _on_slider_released(self, row: PartRow) -> None:
+        self._dragging = None
+        self.tolerance_released.emit(row.ref, slider_to_pct(row.slider.value()))
+
+    def _emit_sampling(self) -> None:
+        self.sampling_changed.emit(self.samples.value(), self.seed.value(), self.method.currentData())
+
+    def _on_redraw(self) -> None:
+        self.seed.setValue(self.seed.value() + 1)
+        self._emit_sampling()

@@ -1,0 +1,379 @@
+"""The spread plots: magnitude (dB) and phase or group delay over log frequency.
+
+Both plots share the frequency axis. Each shows the nominal response, the central 98 %
+of boards and the full range as bands, and a handful of sample traces drawn as one item
+each (NaN-separated). On the magnitude plot the user draws the spec mask: in a drawing
+mode a left-drag paints the forbidden zone of a new floor or ceiling span; each span's
+limit line has two end handles (drag to move an end, drag the line to move it whole);
+a click selects a span and the Delete key removes it.
+
+View coordinates on the x axis are log10(frequency / Hz): :func:`to_view_x` and
+:func:`from_view_x` are the only conversion.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+from typing import Literal
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6.QtCore import QPointF, QRectF, Qt, Signal
+from PySide6.QtGui import QPolygonF
+from PySide6.QtWidgets import QGraphicsPolygonItem, QGraphicsRectItem, QLabel, QVBoxLayout, QWidget
+
+from filters.liveview import ViewData
+from filters.mask import Span
+from filters.values import format_value
+
+from . import qt_style as st
+
+DrawKind = Literal["floor", "ceiling"]
+FILL_REACH_DB = 6.0  # depth (dB) of the hatched forbidden zone drawn beside the limit line
+
+
+def to_view_x(f_hz):
+    """Frequency (Hz) to the plots' x coordinate, log10(f)."""
+    return np.log10(f_hz)
+
+
+def from_view_x(x):
+    """The plots' x coordinate back to frequency (Hz)."""
+    return np.power(10.0, x)
+
+
+class MaskViewBox(pg.ViewBox):
+    """A ViewBox that, in drawing mode, turns a left-drag into a new mask span."""
+
+    span_drawn = Signal(str, float, float, float, float)  # kind, x0, x1, y0, y1 (view coords)
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.draw_kind: DrawKind | None = None
+        self._rubber = QGraphicsRectItem()
+        self._rubber.setPen(pg.mkPen(st.INK, width=1, style=Qt.PenStyle.DashLine))
+        self._rubber.setBrush(pg.mkBrush(st.rgba(st.ORANGE, 40)))
+        self._rubber.setZValue(50)
+        self._rubber.hide()
+        self.addItem(self._rubber, ignoreBounds=True)
+
+    def mouseDragEvent(self, ev, axis=None):  # noqa: N802 - Qt override
+        if self.draw_kind is None or ev.button() != Qt.MouseButton.LeftButton or axis is not None:
+            super().mouseDragEvent(ev, axis)
+            return
+        ev.accept()
+        a = self.mapSceneToView(ev.buttonDownScenePos())
+        b = self.mapSceneToView(ev.scenePos())
+        rect = QRectF(QPointF(a.x(), a.y()), QPointF(b.x(), b.y())).normalized()
+        self._rubber.setRect(rect)
+        self._rubber.show()
+        if ev.isFinish():
+            self._rubber.hide()
+            self.span_drawn.emit(self.draw_kind, a.x(), b.x(), a.y(), b.y())
+
+
+class SpanItem:
+    """One span on the magnitude plot: a limit line with end handles and a forbidden fill."""
+
+    def __init__(self, plot: pg.PlotItem, index: int, span: Span, reference_db: float,
+                 on_changing, on_finished, on_clicked) -> None:
+        self.plot = plot
+        self.index = index
+        self.span = span
+        self.reference_db = reference_db
+        colour = st.FLOOR_COLOUR if span.kind == "floor" else st.CEILING_COLOUR
+        self.colour = colour
+        off = reference_db if span.relative else 0.0
+        p1 = (float(to_view_x(span.f1)), span.limit1 + off)
+        p2 = (float(to_view_x(span.f2)), span.end_limit + off)
+        self.roi = pg.LineSegmentROI([p1, p2], pen=pg.mkPen(colour, width=2.5),
+                                     hoverPen=pg.mkPen(colour, width=st.SELECTED_WIDTH))
+        self.roi.setZValue(40)
+        self.roi.setAcceptedMouseButtons(Qt.MouseButton.LeftButton)
+        self.fill = QGraphicsPolygonItem()
+        self.fill.setPen(pg.mkPen(None))
+        brush = pg.mkBrush(st.rgba(colour, 150))
+        brush.setStyle(Qt.BrushStyle.BDiagPattern)  # hatched: "the response must not enter here"
+        self.fill.setBrush(brush)
+        self.tint = QGraphicsPolygonItem()
+        self.tint.setPen(pg.mkPen(None))
+        self.tint.setBrush(pg.mkBrush(st.rgba(colour, st.FORBIDDEN_ALPHA)))
+        self.tint.setZValue(4)
+        plot.addItem(self.tint, ignoreBounds=True)
+        self.fill.setZValue(5)
+        self.edge = pg.PlotCurveItem(pen=pg.mkPen(colour, width=1, style=st.DASH))
+        self.edge.setZValue(6)
+        plot.addItem(self.fill, ignoreBounds=True)
+        plot.addItem(self.edge, ignoreBounds=True)
+        plot.addItem(self.roi, ignoreBounds=True)
+        self.roi.sigRegionChanged.connect(lambda *_: (self._refill(), on_changing(self)))
+        self.roi.sigRegionChangeFinished.connect(lambda *_: on_finished(self))
+        self.roi.sigClicked.connect(lambda *_: on_clicked(self))
+        self._refill()
+
+    def points(self) -> tuple[tuple[float, float], tuple[float, float]]:
+        """The two ends in view coordinates (log10 f, dB), left end first."""
+        pts = [self.roi.mapToParent(h.pos()) for h in self.roi.getHandles()]
+        (x1, y1), (x2, y2) = [(p.x(), p.y()) for p in pts]
+        return ((x1, y1), (x2, y2)) if x1 <= x2 else ((x2, y2), (x1, y1))
+
+    def current_span(self) -> Span | None:
+        """The span as the handles now place it; None if it has collapsed to a point."""
+        (x1, y1), (x2, y2) = self.points()
+        f1, f2 = float(from_view_x(x1)), float(from_view_x(x2))
+        if not f2 > f1 * (1 + 1e-9):
+            return None
+        off = self.reference_db if self.span.relative else 0.0
+        l1, l2 = round(y1 - off, 4), round(y2 - off, 4)
+        return replace(self.span, f1=_round_f(f1), f2=_round_f(f2), limit1=l1,
+                       limit2=None if l1 == l2 else l2)
+
+    def _refill(self) -> None:
+        (x1, y1), (x2, y2) = self.points()
+        reach = FILL_REACH_DB if self.span.kind == "ceiling" else -FILL_REACH_DB
+        poly = QPolygonF([QPointF(x1, y1), QPointF(x2, y2), QPointF(x2, y2 + reach), QPointF(x1, y1 + reach)])
+        self.fill.setPolygon(poly)
+        self.tint.setPolygon(poly)
+        self.edge.setData([x1, x1, float("nan"), x2, x2], [y1, y1 + reach, float("nan"), y2, y2 + reach],
+                          connect="finite")
+
+    def set_selected(self, on: bool) -> None:
+        self.roi.setPen(pg.mkPen(self.colour, width=st.SELECTED_WIDTH if on else 2.5))
+
+    def remove(self) -> None:
+        for item in (self.roi, self.fill, self.tint, self.edge):
+            self.plot.removeItem(item)
+
+
+def _round_f(f: float) -> float:
+    """Round a dragged frequency to 4 significant figures (what a person would type)."""
+    if f <= 0:
+        return f
+    digits = 3 - int(math.floor(math.log10(f)))
+    return float(round(f, digits))
+
+
+class _FrequencyAxis(pg.AxisItem):
+    """x axis in log10(f) coordinates, labelled in Hz with SI prefixes."""
+
+    def tickStrings(self, values, scale, spacing):  # noqa: N802 - pyqtgraph override
+        return [format_value(10 ** v, digits=3) if abs(v - round(v)) < 1e-6 or spacing < 1 else ""
+                for v in values]
+
+    def tickValues(self, minVal, maxVal, size):  # noqa: N802,N803 - pyqtgraph override
+        lo, hi = math.floor(minVal), math.ceil(maxVal)
+        decades = [float(v) for v in range(lo, hi + 1) if minVal <= v <= maxVal]
+        minor = [math.log10(m) + d for d in range(lo - 1, hi + 1) for m in (2, 3, 5)
+                 if minVal <= math.log10(m) + d <= maxVal]
+        if hi - lo > 6:
+            return [(1.0, decades)]
+        return [(1.0, decades), (0.1, minor)]
+
+
+class SpreadPlots(QWidget):
+    """Magnitude and phase/delay plots with bands, traces, the mask and a cursor readout."""
+
+    span_added = Signal(object)          # Span
+    span_edited = Signal(int, object)    # index, Span
+    span_changing = Signal(int, object)  # index, Span (while dragging)
+    span_selected = Signal(int)          # index or -1
+    delete_requested = Signal(int)
+
+    def __init__(self) -> None:
+        super().__init__()
+        pg.setConfigOptions(antialias=True, background="w", foreground=st.INK)
+        self.canvas = pg.GraphicsLayoutWidget()
+        self.canvas.setObjectName("spread_plots")
+        self.vb_mag = MaskViewBox()
+        self.mag = self.canvas.addPlot(row=0, col=0, viewBox=self.vb_mag,
+                                       axisItems={"bottom": _FrequencyAxis("bottom")})
+        self.second = self.canvas.addPlot(row=1, col=0, axisItems={"bottom": _FrequencyAxis("bottom")})
+        self.second.setXLink(self.mag)
+        self.canvas.ci.layout.setRowStretchFactor(0, 3)
+        self.canvas.ci.layout.setRowStretchFactor(1, 2)
+        for p in (self.mag, self.second):
+            p.showGrid(x=True, y=True, alpha=st.GRID_ALPHA)
+            p.setMenuEnabled(False)
+        self.mag.setLabel("left", "gain", units="dB")
+        self.mag.setLabel("bottom", "frequency (Hz)")
+        self.second.setLabel("bottom", "frequency (Hz)")
+        self.legend = self.mag.addLegend(offset=(10, -10), labelTextSize="8pt")
+        self._items: dict[str, dict[str, pg.GraphicsObject]] = {}
+        for name, plot in (("mag", self.mag), ("second", self.second)):
+            outer_lo, outer_hi = pg.PlotDataItem(pen=None), pg.PlotDataItem(pen=None)
+            inner_lo, inner_hi = pg.PlotDataItem(pen=None), pg.PlotDataItem(pen=None)
+            outer = pg.FillBetweenItem(outer_lo, outer_hi, brush=st.OUTER_BRUSH)
+            inner = pg.FillBetweenItem(inner_lo, inner_hi, brush=st.INNER_BRUSH)
+            passing = pg.PlotDataItem(pen=pg.mkPen(**st.PASS_TRACE_PEN), connect="finite")
+            failing = pg.PlotDataItem(pen=pg.mkPen(**st.FAIL_TRACE_PEN), connect="finite")
+            nominal = pg.PlotDataItem(pen=pg.mkPen(**st.NOMINAL_PEN))
+            for it in (outer_lo, outer_hi, inner_lo, inner_hi, outer, inner, passing, failing, nominal):
+                plot.addItem(it)
+            outer.setZValue(1)
+            inner.setZValue(2)
+            passing.setZValue(3)
+            failing.setZValue(4)
+            nominal.setZValue(10)
+            self._items[name] = dict(outer_lo=outer_lo, outer_hi=outer_hi, inner_lo=inner_lo, inner_hi=inner_hi,
+                                     outer=outer, inner=inner, passing=passing, failing=failing, nominal=nominal)
+        it = self._items["mag"]
+        self.legend.addItem(it["nominal"], "nominal")
+        # the legend cannot draw a fill item; thick lines in the band colours stand in
+        self._legend_proxies = [pg.PlotDataItem([], [], pen=pg.mkPen(st.INNER_BRUSH, width=9)),
+                                pg.PlotDataItem([], [], pen=pg.mkPen(st.OUTER_BRUSH, width=9))]
+        self.legend.addItem(self._legend_proxies[0], "central 98 % of boards")
+        self.legend.addItem(self._legend_proxies[1], "all boards")
+        self.legend.addItem(it["passing"], "sample boards")
+        self.legend.addItem(it["failing"], "failing boards")
+        self.readout = QLabel(" ")
+        self.readout.setObjectName("cursor_readout")
+        self.readout.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        lay = QVBoxLayout(self)
+        lay.setContentsMargins(0, 0, 0, 0)
+        lay.addWidget(self.canvas, 1)
+        lay.addWidget(self.readout)
+        self.vb_mag.span_drawn.connect(self._on_span_drawn)
+        self.canvas.scene().sigMouseMoved.connect(self._on_mouse_moved)
+        self.spans: list[SpanItem] = []
+        self.selected = -1
+        self.view: ViewData | None = None
+        self.show_failing = True
+        self._ranged = False
+        self._reference_db = 0.0
+
+    # --- data ----------------------------------------------------------------------------
+    def show_view(self, view: ViewData) -> None:
+        """Draw one evaluation's curves and bands."""
+        self.view = view
+        x = to_view_x(view.freqs_hz)
+        for name, nominal, b, tp, tf in (
+                ("mag", view.nominal_gain_db, view.gain_bands, view.pass_traces_gain, view.fail_traces_gain),
+                ("second", view.nominal_second, view.second_bands, view.pass_traces_second,
+                 view.fail_traces_second)):
+            it = self._items[name]
+            it["nominal"].setData(x, nominal)
+            it["outer_lo"].setData(x, b.low)
+            it["outer_hi"].setData(x, b.high)
+            it["inner_lo"].setData(x, b.inner_low)
+            it["inner_hi"].setData(x, b.inner_high)
+            it["passing"].setData(*_flat(x, tp))
+            if self.show_failing and len(tf):
+                it["failing"].setData(*_flat(x, tf))
+            else:
+                it["failing"].setData([], [])
+        if view.second == "delay":
+            self.second.setLabel("left", "group delay", units="s")
+        else:
+            self.second.setLabel("left", "phase", units="deg")
+        self._reference_db = view.nominal_metrics.get("reference_db", 0.0)
+        self.set_mask(view.design.mask, self._reference_db)
+        if not self._ranged:
+            self.fit()
+            self._ranged = True
+
+    def fit(self) -> None:
+        """Frame the nominal response: the whole frequency range, a sensible dB window."""
+        if self.view is None:
+            return
+        x = to_view_x(self.view.freqs_hz)
+        top = float(np.max(self.view.gain_bands.high))
+        self.mag.setXRange(float(x[0]), float(x[-1]), padding=0)
+        self.mag.setYRange(max(top - 80.0, float(np.min(self.view.gain_bands.low))), top + 5.0, padding=0.02)
+        self.second.enableAutoRange(axis="y")
+
+    def set_mask(self, mask: tuple[Span, ...], reference_db: float) -> None:
+        """Rebuild the span items (after an edit, undo or load)."""
+        if (len(mask) == len(self.spans) and all(s.span == m for s, m in zip(self.spans, mask))
+                and reference_db == (self.spans[0].reference_db if self.spans else reference_db)):
+            return
+        for s in self.spans:
+            s.remove()
+        self.spans = []
+        for i, span in enumerate(mask):
+            if span.quantity != "gain":
+                continue  # phase and delay spans are edited in the span table
+            self.spans.append(SpanItem(self.mag, i, span, reference_db, self._on_span_changing,
+                                       self._on_span_finished, self._on_span_clicked))
+        if self.selected >= len(mask):
+            self.selected = -1
+        self._mark_selected()
+
+    def set_draw_kind(self, kind: DrawKind | None) -> None:
+        self.vb_mag.draw_kind = kind
+        self.canvas.setCursor(Qt.CursorShape.CrossCursor if kind else Qt.CursorShape.ArrowCursor)
+
+    def select(self, index: int) -> None:
+        self.selected = index
+        self._mark_selected()
+        self.span_selected.emit(index)
+
+    def _mark_selected(self) -> None:
+        for s in self.spans:
+            s.set_selected(s.index == self.selected)
+
+    # --- mouse ---------------------------------------------------------------------------
+    def _on_span_drawn(self, kind: str, x0: float, x1: float, y0: float, y1: float) -> None:
+        if self.view is None:
+            return
+        xa, xb = sorted((x0, x1))
+        fmin, fmax = self.view.freqs_hz[0], self.view.freqs_hz[-1]
+        f1 = _round_f(float(np.clip(from_view_x(xa), fmin, fmax)))
+        f2 = _round_f(float(np.clip(from_view_x(xb), fmin, fmax)))
+        if not f2 > f1 * 1.001:
+            return  # a click, not a drag
+        # the rectangle paints the forbidden zone: a ceiling's limit is its lower edge
+        level = min(y0, y1) if kind == "ceiling" else max(y0, y1)
+        limit = round(level - self._reference_db, 2)
+        n = sum(1 for s in self.view.design.mask if s.kind == kind) + 1
+        self.span_added.emit(Span(kind=kind, f1=f1, f2=f2, limit1=limit, relative=True,  # type: ignore[arg-type]
+                                  name=f"{kind} {n}"))
+
+    def _on_span_changing(self, item: SpanItem) -> None:
+        span = item.current_span()
+        if span is not None:
+            self.span_changing.emit(item.index, span)
+
+    def _on_span_finished(self, item: SpanItem) -> None:
+        span = item.current_span()
+        if span is not None and span != item.span:
+            self.span_edited.emit(item.index, span)
+
+    def _on_span_clicked(self, item: SpanItem) -> None:
+        self.select(item.index)
+
+    def _on_mouse_moved(self, pos) -> None:
+        if self.view is None:
+            return
+        for plot, name, unit in ((self.mag, "mag", "dB"), (self.second, "second", None)):
+            if plot.sceneBoundingRect().contains(pos):
+                p = plot.vb.mapSceneToView(pos)
+                self.readout.setText(self.readout_text(float(from_view_x(p.x())), name))
+                return
+
+    def readout_text(self, f_hz: float, which: str = "mag") -> str:
+        """The cursor readout at ``f_hz``: nominal and band values there."""
+        v = self.view
+        if v is None:
+            return ""
+        f = v.freqs_hz
+        i = int(np.clip(np.searchsorted(f, f_hz), 0, f.size - 1))
+        if which == "mag":
+            b, nom, unit = v.gain_bands, v.nominal_gain_db, "dB"
+        else:
+            b, nom = v.second_bands, v.nominal_second
+            unit = "s" if v.second == "delay" else "deg"
+
+        def fmt(y: float) -> str:
+            return format_value(y, "s", 4) if unit == "s" else f"{y:.2f} {unit}"
+
+        return (f"{format_value(f[i], 'Hz', 4)}:  nominal {fmt(nom[i])},  central {round(100 * b.share)} % "
+                f"{fmt(b.inner_low[i])} to {fmt(b.inner_high[i])},  all boards {fmt(b.low[i])} to {fmt(b.high[i])}")
+
+
+def _flat(x: np.ndarray, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    if len(rows) == 0:
+        return np.array([]), np.array([])
+    k, f = rows.shape
+    xs = np.tile(np.append(x, np.nan), k)
+    ys = np.concatenate([rows, np.full((k, 1), np.nan)], axis=1).ravel()
+    return xs, ys

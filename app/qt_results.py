@@ -1,0 +1,179 @@
+"""The results panel: yield with its interval, failures per span, a histogram of a chosen
+metric, and the spread budget of that metric as a ranked bar chart."""
+from __future__ import annotations
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6.QtCore import Qt, Signal
+from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QHeaderView, QLabel, QTableWidget, QTableWidgetItem,
+                               QVBoxLayout, QWidget)
+
+from filters.liveview import ViewData
+from filters.summary import metric_label
+
+from . import qt_style as st
+
+CAUTION = ("Estimate under the grades' stated distributions; confirm with measured parts "
+           "and qualified review.")
+
+
+def _pct(x: float) -> str:
+    return f"{100 * x:.2f} %"
+
+
+class ResultsPanel(QWidget):
+    """Yield, failure breakdown, histogram and spread budget of the latest evaluation."""
+
+    metric_chosen = Signal(str)
+
+    def __init__(self) -> None:
+        super().__init__()
+        lay = QVBoxLayout(self)
+        lay.setContentsMargins(4, 4, 4, 4)
+        self.yield_label = QLabel("yield: evaluating…")
+        self.yield_label.setObjectName("yield_label")
+        self.yield_label.setTextFormat(Qt.TextFormat.RichText)
+        self.yield_label.setWordWrap(True)
+        self.detail = QLabel("")
+        self.detail.setObjectName("yield_detail")
+        self.detail.setWordWrap(True)
+        self.detail.setStyleSheet("color: #555;")
+        lay.addWidget(self.yield_label)
+        lay.addWidget(self.detail)
+        self.table = QTableWidget(0, 4)
+        self.table.setObjectName("failure_table")
+        self.table.setHorizontalHeaderLabels(["span", "failing", "share of failures", "worst margin"])
+        self.table.verticalHeader().hide()
+        self.table.horizontalHeader().setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
+        self.table.setEditTriggers(QTableWidget.EditTrigger.NoEditTriggers)
+        self.table.setMaximumHeight(140)
+        lay.addWidget(self.table)
+        row = QHBoxLayout()
+        row.addWidget(QLabel("metric"))
+        self.chooser = QComboBox()
+        self.chooser.setObjectName("metric_chooser")
+        row.addWidget(self.chooser, 1)
+        lay.addLayout(row)
+        self.hist = pg.PlotWidget()
+        self.hist.setObjectName("histogram")
+        self.hist.setMenuEnabled(False)
+        self.hist.setMouseEnabled(x=False, y=False)
+        self.hist.setLabel("left", "boards")
+        self.hist.showGrid(y=True, alpha=st.GRID_ALPHA)
+        lay.addWidget(self.hist, 2)
+        self.budget_plot = pg.PlotWidget()
+        self.budget_plot.setObjectName("budget_chart")
+        self.budget_plot.setMenuEnabled(False)
+        self.budget_plot.setMouseEnabled(x=False, y=False)
+        self.budget_plot.setLabel("bottom", "share of the metric's variance", units="%")
+        lay.addWidget(QLabel("<b>spread budget</b> (which part explains how much of the spread)"))
+        lay.addWidget(self.budget_plot, 2)
+        self.caution = QLabel(CAUTION)
+        self.caution.setWordWrap(True)
+        self.caution.setStyleSheet("color: #555; font-size: 9pt;")
+        lay.addWidget(self.caution)
+        self.chooser.activated.connect(lambda _i: self._on_metric_chosen())
+        self.view: ViewData | None = None
+        self.metric_name = "cutoff_hz"
+
+    def sizeHint(self):  # noqa: N802 - Qt override
+        from PySide6.QtCore import QSize
+
+        return QSize(520, 700)
+
+    def show_view(self, view: ViewData) -> None:
+        self.view = view
+        y = view.yield_
+        stale = "" if not view.design.mask else ""
+        if view.design.mask:
+            self.yield_label.setText(
+                f"<span style='font-size:16pt'><b>yield {_pct(y.estimate)}</b></span><br>"
+                f"{round(100 * y.confidence)} % interval {_pct(y.low)} to {_pct(y.high)} "
+                f"({'Wilson' if y.method == 'wilson' else 'exact'}), {y.passed:,} of {y.samples:,} boards pass")
+        else:
+            self.yield_label.setText("<b>no spec mask yet</b>: draw floor or ceiling spans on the gain plot")
+        self.detail.setText(f"{view.samples:,} boards, seed {view.seed}, {view.method} sampling; "
+                            f"computed in {1000 * view.elapsed_s:.0f} ms{stale}")
+        self.table.setRowCount(len(view.spans))
+        for i, s in enumerate(view.spans):
+            unit = {"gain": "dB", "phase": "deg", "delay": "s"}[view.design.mask[i].quantity]
+            cells = [s.name, f"{s.failed:,} ({_pct(s.fraction)})", _pct(s.share_of_failures),
+                     f"{s.worst_margin_db:+.3g} {unit}"]
+            for j, text in enumerate(cells):
+                item = QTableWidgetItem(text)
+                if j and s.failed:
+                    item.setForeground(pg.mkColor(st.VERMILION))
+                self.table.setItem(i, j, item)
+        names = [s.name for s in view.design.stages]
+        wanted = [n for n in view.metrics if not _is_pair(n)]
+        current = [self.chooser.itemData(i) for i in range(self.chooser.count())]
+        if current != wanted:
+            self.chooser.blockSignals(True)
+            self.chooser.clear()
+            for n in wanted:
+                self.chooser.addItem(metric_label(n, names), n)
+            self.chooser.blockSignals(False)
+        if self.metric_name not in wanted:
+            self.metric_name = "cutoff_hz" if "cutoff_hz" in wanted else wanted[0]
+        self.chooser.setCurrentIndex(max(0, self.chooser.findData(self.metric_name)))
+        self._draw_metric()
+
+    def _on_metric_chosen(self) -> None:
+        self.metric_name = self.chooser.currentData()
+        self._draw_metric()
+        self.metric_chosen.emit(self.metric_name)
+
+    def _draw_metric(self) -> None:
+        v = self.view
+        if v is None or self.metric_name not in v.metrics:
+            return
+        names = [s.name for s in v.design.stages]
+        data = v.metrics[self.metric_name]
+        ok = np.isfinite(data)
+        self.hist.clear()
+        if ok.sum() >= 2:
+            lo, hi = float(np.min(data[ok])), float(np.max(data[ok]))
+            if hi <= lo:
+                hi = lo + 1e-12 * max(1.0, abs(lo))
+            edges = np.linspace(lo, hi, 41)
+            passed = v.ensemble.passed
+            all_counts, _ = np.histogram(data[ok], edges)
+            fail_counts, _ = np.histogram(data[ok & ~passed], edges)
+            width = edges[1] - edges[0]
+            centres = 0.5 * (edges[1:] + edges[:-1])
+            self.hist.addItem(pg.BarGraphItem(x=centres, height=all_counts, width=width * 0.95,
+                                              brush=st.rgba(st.BLUE, 160), pen=None, name="all boards"))
+            if fail_counts.any():
+                self.hist.addItem(pg.BarGraphItem(x=centres, height=fail_counts, width=width * 0.95,
+                                                  brush=st.rgba(st.VERMILION, 200), pen=None))
+            nom = v.nominal_metrics.get(self.metric_name)
+            if nom is not None and np.isfinite(nom):
+                self.hist.addItem(pg.InfiniteLine(nom, angle=90, pen=pg.mkPen(st.INK, width=2, style=st.DASH)))
+        self.hist.setLabel("bottom", metric_label(self.metric_name, names))
+        self.budget_plot.clear()
+        b = v.budget.get(self.metric_name)
+        if b is None:
+            self.budget_plot.setTitle("no budget for this metric")
+            return
+        self.budget_plot.setTitle("")
+        entries = [e for e in b.entries if e.share > 0][:10]
+        labels = [e.ref for e in entries] + (["unexplained"] if b.remainder > 0.005 else [])
+        shares = [100 * e.share for e in entries] + ([100 * b.remainder] if b.remainder > 0.005 else [])
+        ys = np.arange(len(shares))[::-1]
+        if shares:
+            brushes = [st.rgba(st.BLUE, 200)] * len(entries) + [st.rgba("#888888", 160)] * (len(shares) - len(entries))
+            self.budget_plot.addItem(pg.BarGraphItem(x0=0, y=ys, height=0.7, width=shares, brushes=brushes,
+                                                     pen=None))
+            ax = self.budget_plot.getAxis("left")
+            ax.setTicks([[(float(y), lab) for y, lab in zip(ys, labels)]])
+            self.budget_plot.setXRange(0, max(shares) * 1.1, padding=0)
+            self.budget_plot.setYRange(-0.6, len(shares) - 0.4, padding=0)
+
+    def show_message(self, text: str) -> None:
+        self.yield_label.setText(f"<span style='color:{st.VERMILION}'><b>{text}</b></span>")
+
+
+def _is_pair(name: str) -> bool:
+    from filters.budget import is_pair_metric
+
+    return is_pair_metric(name)

@@ -1,0 +1,263 @@
+"""The session model: the design being edited, its file, undo history, and evaluations.
+
+Widgets never change a design themselves: they call :meth:`Session.apply` (one undoable
+edit) or :meth:`Session.preview` (a what-if shown while a slider is dragged, not yet an
+edit). The session asks a worker thread for an evaluation after each change; results
+carry a generation number and stale ones are dropped, so a newer request always wins and
+the window never waits.
+"""
+from __future__ import annotations
+
+import threading
+import traceback
+from dataclasses import replace
+from pathlib import Path
+
+from PySide6.QtCore import QObject, QThread, Signal, Slot
+from PySide6.QtGui import QUndoCommand, QUndoStack
+
+from filters.design import Design
+from filters.designfile import dumps, load, save
+from filters.errors import Cancelled, InputError
+from filters.evaluate import Prepared, prepare
+from filters.grades import Grade
+from filters.liveview import SecondQuantity, ViewData, ViewRequest, compute_view
+
+
+class _Worker(QObject):
+    """Runs the newest pending request; older pending ones are skipped."""
+
+    finished = Signal(object)          # ViewData
+    failed = Signal(int, str, str)     # generation, message, details
+    progress = Signal(int, int, int)   # generation, done, total
+
+    def __init__(self) -> None:
+        super().__init__()
+        self._lock = threading.Lock()
+        self._pending: ViewRequest | None = None
+        self._latest = 0
+        self._prepared: Prepared | None = None
+
+    def submit(self, req: ViewRequest) -> None:
+        """Called from the GUI thread: replace whatever is pending."""
+        with self._lock:
+            self._pending = req
+            self._latest = req.generation
+
+    def cancel_through(self, generation: int) -> None:
+        with self._lock:
+            self._latest = max(self._latest, generation + 1)
+            if self._pending is not None and self._pending.generation <= generation:
+                self._pending = None
+
+    def _stale(self, generation: int) -> bool:
+        with self._lock:
+            return generation < self._latest
+
+    @Slot()
+    def run_pending(self) -> None:
+        while True:
+            with self._lock:
+                req, self._pending = self._pending, None
+            if req is None:
+                return
+            try:
+                if self._prepared is None or self._prepared.design is not req.design:
+                    self._prepared = prepare(req.design)
+                big = req.design.analysis.samples >= 50_000
+                view = compute_view(
+                    req, self._prepared,
+                    progress=(lambda d, t, g=req.generation: self.progress.emit(g, d, t)) if big else None,
+                    should_stop=lambda g=req.generation: self._stale(g))
+            except Cancelled:
+                continue
+            except InputError as exc:
+                self.failed.emit(req.generation, str(exc), "")
+                continue
+            except Exception as exc:  # noqa: BLE001 - shown to the user, never crashes the window
+                self.failed.emit(req.generation, f"evaluation failed: {exc}", traceback.format_exc())
+                continue
+            if not self._stale(req.generation):
+                self.finished.emit(view)
+
+
+class _EditCommand(QUndoCommand):
+    def __init__(self, session: "Session", before: Design, after: Design, text: str) -> None:
+        super().__init__(text)
+        self._session = session
+        self._before = before
+        self._after = after
+
+    def redo(self) -> None:
+        self._session._set_design(self._after)
+
+    def undo(self) -> None:
+        self._session._set_design(self._before)
+
+
+class Session(QObject):
+    """The open design and everything that follows from it."""
+
+    design_changed = Signal(object)       # Design
+    view_ready = Signal(object)           # ViewData
+    evaluation_failed = Signal(str, str)  # message, details
+    busy_changed = Signal(bool)
+    progress = Signal(int, int)           # done, total
+    path_changed = Signal(object)         # Path | None
+    dirty_changed = Signal(bool)
+    _wake = Signal()
+
+    def __init__(self, design: Design, path: Path | None = None) -> None:
+        super().__init__()
+        self._design = design
+        self._path = path
+        self._generation = 0
+        self._shown_generation = 0
+        self._second: SecondQuantity = "phase"
+        self._what_if: tuple[Grade, ...] | None = None
+        self.undo_stack = QUndoStack(self)
+        self.undo_stack.cleanChanged.connect(lambda clean: self.dirty_changed.emit(not clean))
+        self._thread = QThread()
+        self._thread.setObjectName("tolspread-evaluation")
+        self._worker = _Worker()
+        self._worker.moveToThread(self._thread)
+        self._wake.connect(self._worker.run_pending)
+        self._worker.finished.connect(self._on_view_finished)
+        self._worker.failed.connect(self._on_view_failed)
+        self._worker.progress.connect(self._on_progress)
+        self._thread.start()
+        self.last_view: ViewData | None = None
+
+    # --- reading -------------------------------------------------------------------------
+    @property
+    def design(self) -> Design:
+        return self._design
+
+    @property
+    def path(self) -> Path | None:
+        return self._path
+
+    @property
+    def dirty(self) -> bool:
+        return not self.undo_stack.isClean()
+
+    @property
+    def busy(self) -> bool:
+        return self._shown_generation < self._generation
+
+    @property
+    def second(self) -> SecondQuantity:
+        return self._second
+
+    # --- editing -------------------------------------------------------------------------
+    def apply(self, design: Design, text: str) -> None:
+        """Make ``design`` the current design as one undoable edit named ``text``."""
+        if design == self._design:
+            self._what_if = None
+            self.request()
+            return
+        self.undo_stack.push(_EditCommand(self, self._design, design, text))
+
+    def _set_design(self, design: Design) -> None:
+        self._design = design
+        self._what_if = None
+        self.design_changed.emit(design)
+        self.request()
+
+    def preview(self, grades: tuple[Grade, ...] | None) -> None:
+        """Show what-if grades (a slider being dragged) without editing the design."""
+        self._what_if = grades
+        self.request()
+
+    def set_second(self, second: SecondQuantity) -> None:
+        if second != self._second:
+            self._second = second
+            self.request()
+
+    def replace_design(self, design: Design, path: Path | None) -> None:
+        """Open a different design (New, Open, restore): clears the undo history."""
+        self.undo_stack.clear()
+        self._path = path
+        self.path_changed.emit(path)
+        self._set_design(design)
+        self.undo_stack.setClean()
+        self.dirty_changed.emit(False)
+
+    # --- files ---------------------------------------------------------------------------
+    def open(self, path: Path) -> None:
+        """Load ``path`` (raises InputError; the current design stays on failure)."""
+        design = load(path)
+        self.replace_design(design, Path(path))
+
+    def save_as(self, path: Path) -> None:
+        """Save atomically to ``path`` (raises InputError; the old file stays intact)."""
+        save(self._design, path)
+        self._path = Path(path)
+        self.path_changed.emit(self._path)
+        self.undo_stack.setClean()
+
+    def text(self) -> str:
+        return dumps(self._design)
+
+    # --- evaluation ----------------------------------------------------------------------
+    def request(self) -> int:
+        """Ask for an evaluation of the current state; returns its generation number."""
+        self._generation += 1
+        req = ViewRequest(self._generation, self._design, self._what_if, self._second)
+        self._worker.submit(req)
+        self.busy_changed.emit(True)
+        self._wake.emit()
+        return self._generation
+
+    def cancel(self) -> None:
+        """Stop the running evaluation; the last shown result stays."""
+        self._worker.cancel_through(self._generation)
+        self._shown_generation = self._generation
+        self.busy_changed.emit(False)
+
+    @Slot(object)
+    def _on_view_finished(self, view: ViewData) -> None:
+        if view.generation < self._generation:
+            return  # a newer request is on its way
+        self._shown_generation = view.generation
+        self.last_view = view
+        self.busy_changed.emit(False)
+        self.view_ready.emit(view)
+
+    @Slot(int, str, str)
+    def _on_view_failed(self, generation: int, message: str, details: str) -> None:
+        if generation < self._generation:
+            return
+        self._shown_generation = generation
+        self.busy_changed.emit(False)
+        self.evaluation_failed.emit(message, details)
+
+    @Slot(int, int, int)
+    def _on_progress(self, generation: int, done: int, total: int) -> None:
+        if generation == self._generation:
+            self.progress.emit(done, total)
+
+    def evaluate_now(self) -> ViewData:
+        """Evaluate synchronously on the calling thread (tests, screenshots)."""
+        self._generation += 1
+        req = ViewRequest(self._generation, self._design, self._what_if, self._second)
+        self._worker.cancel_through(self._generation - 1)
+        view = compute_view(req)
+        self._on_view_finished(view)
+        return view
+
+    def shutdown(self) -> None:
+        self._worker.cancel_through(self._generation)
+        self._thread.quit()
+        self._thread.wait(5000)
+
+
+def with_part(design: Design, ref: str, **changes) -> Design:
+    """``design`` with part ``ref`` changed (a helper for widgets)."""
+    return design.with_part(ref, **changes)
+
+
+def with_span(design: Design, index: int, span) -> Design:
+    mask = list(design.mask)
+    mask[index] = span
+    return replace(design, mask=tuple(mask))

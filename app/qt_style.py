@@ -1,0 +1,33 @@
+"""Colours and pens of the window, chosen to stay distinguishable with the common forms of
+colour blindness (the Okabe-Ito palette), plus line styles so nothing rests on hue alone."""
+from __future__ import annotations
+
+from PySide6.QtCore import Qt
+from PySide6.QtGui import QColor
+
+BLUE = "#0072B2"
+SKY = "#56B4E9"
+ORANGE = "#E69F00"
+VERMILION = "#D55E00"
+GREEN = "#009E73"
+PURPLE = "#CC79A7"
+INK = "#1a1a1a"
+GRID_ALPHA = 0.25
+
+
+def rgba(hex_colour: str, alpha: int) -> QColor:
+    c = QColor(hex_colour)
+    c.setAlpha(alpha)
+    return c
+
+
+NOMINAL_PEN = {"color": INK, "width": 2}
+INNER_BRUSH = rgba(BLUE, 110)
+OUTER_BRUSH = rgba(SKY, 60)
+PASS_TRACE_PEN = {"color": rgba(BLUE, 90), "width": 1}
+FAIL_TRACE_PEN = {"color": rgba(VERMILION, 170), "width": 1}
+FLOOR_COLOUR = ORANGE
+CEILING_COLOUR = PURPLE
+FORBIDDEN_ALPHA = 55
+SELECTED_WIDTH = 4
+DASH = Qt.PenStyle.DashLine
