@@ -91,7 +91,7 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
 
     c = result.corners
     kind = (f"all {c.boards} combinations of {c.varying_parts} parts at their limits" if c.exhaustive
-            else f"{c.boards} sensitivity-guided corners of {c.varying_parts} parts")
+            else f"{c.boards} sensitivity-guided corners of {c.varying_parts} parts: an estimate, not a guaranteed worst case")
     out.write(f"\nCORNERS ({kind})\n")
     out.write(f"  {'metric':<36} {'corner low':>11} {'corner high':>11} {'MC min':>11} {'MC max':>11}"
               f" {'RSS std':>11}\n")

@@ -110,27 +110,45 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None)
     sens = sensitivities(prep, names)
     refs = [p.ref for p in ens.design.parts]
     x = np.log(ens.values / prep.nominal.values)
-    out: dict[str, Budget] = {}
+    xc_all = x - x.mean(axis=0)
+    varying = xc_all.std(axis=0) > 0
+    ys = {}
     for name in names:
         y = cols[name]
         if is_log_metric(name):
             with np.errstate(invalid="ignore", divide="ignore"):
                 y = np.log(y)
+        ys[name] = y
+    # One least-squares solve for every metric that is finite on every board (the usual
+    # case): normal equations on the centred log deviations, X'X is parts x parts.
+    full = [n for n in names if np.all(np.isfinite(ys[n]))]
+    betas: dict[str, np.ndarray] = {}
+    if full and varying.any():
+        xv = xc_all[:, varying]
+        ymat = np.column_stack([ys[n] - ys[n].mean() for n in full])
+        sol = np.linalg.lstsq(xv.T @ xv, xv.T @ ymat, rcond=None)[0]
+        for k, n in enumerate(full):
+            b = np.zeros(len(refs))
+            b[varying] = sol[:, k]
+            betas[n] = b
+    out: dict[str, Budget] = {}
+    for name in names:
+        y = ys[name]
         ok = np.isfinite(y)
         s_vec = sens.get(name, np.full(len(refs), np.nan))
         unit = "ln/ln" if is_log_metric(name) else "dB per %"
         if ok.sum() < 3 or np.var(y[ok]) == 0:
-            entries = tuple(BudgetEntry(r, 0.0, float(s), unit) for r, s in zip(refs, s_vec))
+            entries = tuple(BudgetEntry(r, 0.0, float(v), unit) for r, v in zip(refs, s_vec))
             out[name] = Budget(name, entries, 0.0, int(ok.sum()))
             continue
-        xs = x[ok]
-        ys = y[ok]
-        xc = xs - xs.mean(axis=0)
-        yc = ys - ys.mean()
-        varying = xc.std(axis=0) > 0
-        beta = np.zeros(len(refs))
-        if varying.any():
-            beta[varying] = np.linalg.lstsq(xc[:, varying], yc, rcond=None)[0]
+        xc = x[ok] - x[ok].mean(axis=0)
+        yc = y[ok] - y[ok].mean()
+        beta = betas.get(name)
+        if beta is None:  # some boards lack this metric: fit on the boards that have it
+            beta = np.zeros(len(refs))
+            use = xc.std(axis=0) > 0
+            if use.any():
+                beta[use] = np.linalg.lstsq(xc[:, use], yc, rcond=None)[0]
         var_y = float(np.var(yc))
         shares = beta ** 2 * np.var(xc, axis=0) / var_y
         remainder = float(max(0.0, 1.0 - shares.sum()))
