@@ -16,6 +16,8 @@ from filters.designfile import load, load_demo
 from filters.design import MAX_SAMPLES
 from filters.errors import InputError, ValidationError
 
+from .cli_design import add_parser as add_design_parser, run as run_design
+
 EXIT_BAD_INPUT = 2
 
 
@@ -78,6 +80,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="upper limit for --half-width (default 1000000)")
     a.add_argument("--qmc", action="store_true", help="quasi-Monte Carlo: scrambled Sobol points instead of random")
     a.add_argument("--interval", choices=("wilson", "exact"), help="yield interval: Wilson score or exact (Clopper-Pearson)")
+    add_design_parser(sub)
     return p
 
 
@@ -104,7 +107,7 @@ def cmd_analyze(args: argparse.Namespace) -> int:
     return 0
 
 
-SUBCOMMANDS = ("analyze",)
+SUBCOMMANDS = ("analyze", "design")
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -127,6 +130,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         design_path = getattr(args, "design", None)
         if args.command == "analyze":
             return cmd_analyze(args)
+        if args.command == "design":
+            return run_design(args)
         return open_window(design_path, args.screenshot)
     except ValidationError as exc:
         lines = exc.lines()

@@ -20,7 +20,7 @@ from typing import Any
 from filters.designfile import save
 from filters.errors import InputError
 from filters.synthesis import KINDS, RESPONSES, synthesize
-from filters.values import parse_value
+from filters.values import format_value, parse_value
 
 # synthesize() argument -> command-line option, for error messages
 _OPTION = {"response": "--response", "order": "--order", "cutoff_hz": "--cutoff", "kind": "--kind",
@@ -87,8 +87,8 @@ def run(args: argparse.Namespace) -> int:
     out.write(result.text_report() + "\n")
     slow = [w for w in result.gbw if w.too_low]
     for w in slow:
-        out.write(f"warning: {w.stage}: op-amp gain-bandwidth {w.gbw_hz:.4g} Hz is below the "
-                  f"{w.required_gbw_hz:.4g} Hz the rule GBW >= 100 G Q f0 asks for\n")
+        out.write(f"warning: {w.stage}: op-amp gain-bandwidth {format_value(w.gbw_hz or 0.0, 'Hz')} is below "
+                  f"the {format_value(w.required_gbw_hz, 'Hz')} the rule GBW >= 100 G Q f0 asks for\n")
     save(result.design, args.output)
     out.write(f"wrote {args.output}\n")
     return 0

@@ -56,11 +56,18 @@ def peak(coeffs: list[StageCoefficients], resp: Response) -> tuple[np.ndarray, n
 def reference_gain2(circuit: Circuit, coeffs: list[StageCoefficients], resp: Response,
                     peak2: np.ndarray | None = None) -> np.ndarray:
     """Passband reference |H|^2 per sample: DC gain (low-pass), high-frequency gain
-    (high-pass), or the refined peak (band-pass)."""
+    (high-pass; the refined peak where a finite gain-bandwidth rolls it off), or the
+    refined peak (band-pass)."""
     if circuit.kind == "lowpass":
         return dc_gain2(coeffs)
     if circuit.kind == "highpass":
-        return hf_gain2(coeffs)
+        # a finite gain-bandwidth op-amp rolls a high-pass off at high frequency: there the
+        # passband reference is the peak instead
+        hf = hf_gain2(coeffs)
+        if np.any(hf == 0):
+            pk = peak(coeffs, resp)[1] if peak2 is None else peak2
+            hf = np.where(hf == 0, pk, hf)
+        return hf
     return peak(coeffs, resp)[1] if peak2 is None else peak2
 
 

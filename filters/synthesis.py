@@ -24,11 +24,12 @@ from typing import Any, Sequence
 import numpy as np
 from scipy import optimize, signal
 
-from .design import Design, Stage, design_from_dict
+from .design import Design, Part, Stage, design_from_dict
 from .engine import compile_design, dc_gain2, gain2_at, hf_gain2, stage_coefficients
 from .errors import InputError
 from .evaluate import prepare
 from .grades import builtin_catalog
+from .mask import Span
 from .metrics import pole_pairs, stage_metrics
 from .values import E_SERIES, format_value, series_values, snap as snap_value
 
@@ -528,10 +529,6 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     if gbw_hz is not None:
         gbw_hz = _positive(gbw_hz, "gbw_hz")
         _check_grade(opamp_grade, "opamp", "opamp_grade")
-        if kind == "highpass":
-            raise InputError("a high-pass with a finite gain-bandwidth op-amp loses its high-frequency "
-                             "passband, which the analysis takes as its reference; leave the GBW out "
-                             "and check the op-amps with gbw_warnings", "gbw_hz")
 
     # Target: poles moved to the cutoff, paired into sections (Hz).
     _, poles, _ = target_zpk(response, order, fc, kind, bw, ripple_db)
@@ -709,8 +706,6 @@ def _rel_db(design: Design, freqs: np.ndarray) -> np.ndarray:
 
 def _starting_mask(design: Design, kind: str, response: str, ripple_db: float | None,
                    fc: float, bw: float | None) -> tuple:
-    from .mask import Span
-
     a = design.analysis
     base = -(ripple_db + 0.5) if ripple_db is not None else -1.0
 
@@ -766,8 +761,6 @@ def _stage_design(design: Design, k: int, gbw_hz: float | None) -> tuple[Design,
                    (Stage(st.topology, ideal_roles, dict(st.options), st.name),), design.analysis)
     if gbw_hz is None:
         return ideal, None
-    from .design import Part
-
     amp = Part("U?", "opamp", gbw_hz, "EXACT")
     roles = dict(ideal_roles, U1=amp.ref)
     real = Design(ideal.parts + (amp,), (Stage(st.topology, roles, dict(st.options), st.name),),

@@ -20,9 +20,9 @@ from app.cli_design import add_parser, run
 from filters.analysis import analyze
 from filters.design import design_from_dict
 from filters.designfile import dumps, load, loads
-from filters.engine import compile_design, frequency_response, gain2_at, stage_coefficients
+from filters.engine import compile_design, frequency_response, stage_coefficients
 from filters.errors import InputError
-from filters.evaluate import prepare
+from filters.evaluate import evaluate, prepare
 from filters.synthesis import (GbwWarning, gbw_warnings, opamp_shift_table, prototype_sections,
                                section_values, synthesize)
 from filters.values import E_SERIES
@@ -280,6 +280,7 @@ def test_mfb_bandpass_sections_follow_the_closed_forms():
     # f_m = (1/2piC) sqrt((R1+R2)/(R1 R3 R2)), Q = pi f_m R3 C, A_m = -R3/(2 R1)
     res = synthesize("butterworth", 3, 2000.0, kind="bandpass", bandwidth_hz=800.0)
     rows = opamp_shift_table(res.design)
+    exact = synthesize("butterworth", 3, 2000.0, kind="bandpass", bandwidth_hz=800.0, snap=False)
     for k, s in enumerate(res.sections):
         v = values_by_role(res.design, k)
         c = v["C1"]
@@ -288,6 +289,40 @@ def test_mfb_bandpass_sections_follow_the_closed_forms():
         assert fm == pytest.approx(s.snapped_f0_hz, rel=1e-9)
         assert math.pi * fm * v["R3"] * c == pytest.approx(s.snapped_q, rel=1e-9)
         assert rows[k].gain == pytest.approx(v["R3"] / (2 * v["R1"]), rel=1e-9)
+        # the documented midband gain choice of each section: min(1, Q^2) (exact resistors)
+        ve = values_by_role(exact.design, k)
+        assert ve["R3"] / (2 * ve["R1"]) == pytest.approx(min(1.0, s.target_q ** 2), rel=1e-9)
+
+
+def test_snapped_bandpass_report_matches_independent_evaluation():
+    # Multiple-feedback band-pass, C1 = C2 = C (REFERENCES.md section 6):
+    # H = -(s/(R1 C)) / (s^2 + s 2/(R3 C) + (1/R1 + 1/R2)/(R3 C^2)), whose midband gain is
+    # -R3/(2 R1) and Q = pi f_m R3 C as listed there. Cascade evaluated here; band edges at
+    # cutoff_db below the peak (even-order Chebyshev: 3.01 + ripple dB, as documented).
+    res = synthesize("chebyshev", 4, 10e3, kind="bandpass", bandwidth_hz=1500.0, ripple_db=0.5)
+    assert res.cutoff_db == pytest.approx(HALF_POWER_DB + 0.5, rel=1e-12)
+    stages = [values_by_role(res.design, k) for k in range(len(res.sections))]
+
+    def g2(f: float) -> float:
+        s = 1j * TWO_PI * f
+        h = 1.0
+        for v in stages:
+            c = v["C1"]
+            h *= -(s / (v["R1"] * c)) / (s * s + s * 2 / (v["R3"] * c) + (1 / v["R1"] + 1 / v["R2"]) / (v["R3"] * c * c))
+        return abs(h) ** 2
+
+    f = np.geomspace(5e3, 20e3, 20001)
+    grid = np.array([g2(x) for x in f])
+    i = int(np.argmax(grid))
+    peak = -optimize.minimize_scalar(lambda x: -g2(x), bounds=(f[i - 1], f[i + 1]), method="bounded",
+                                     options={"xatol": 1e-9}).fun
+    level = peak * 10 ** (-res.cutoff_db / 10)
+    above = np.nonzero(grid >= level)[0]
+    lo = optimize.brentq(lambda x: g2(x) - level, f[above[0] - 1], f[above[0]], xtol=1e-10)
+    hi = optimize.brentq(lambda x: g2(x) - level, f[above[-1]], f[above[-1] + 1], xtol=1e-10)
+    assert res.cutoff_snapped_hz == pytest.approx(math.sqrt(lo * hi), rel=1e-8)
+    assert res.bandwidth_snapped_hz == pytest.approx(hi - lo, rel=1e-7)
+    assert res.bandwidth_error == pytest.approx((hi - lo) / 1500.0 - 1, rel=1e-5)
 
 
 def test_snapped_report_matches_independent_evaluation():
@@ -391,7 +426,6 @@ def test_starting_mask_passes_nominal_with_stopband_margin_near_6_db(case):
     (dict(cap_series="E5"), "cap_series"),
     (dict(resistor_grade="C-C0G-5"), "resistor_grade"),
     (dict(gbw_hz=-1.0), "gbw_hz"),
-    (dict(kind="highpass", gbw_hz=1e6), "gbw_hz"),
 ])
 def test_synthesize_bad_input(kwargs, path):
     args = dict(response="butterworth", order=4, cutoff_hz=1000.0)
@@ -427,7 +461,7 @@ def test_gbw_ideal_limit_and_q_enhancement():
     assert ideal.ideal_q == pytest.approx(2.0, rel=1e-9)
     qs = [opamp_shift_table(d, gbw_hz=g)[0].gbw_q for g in np.geomspace(1e9, 1e5, 9)]
     assert all(b > a for a, b in zip(qs, qs[1:]))
-    for topo in ("mfb_lowpass", "mfb_bandpass"):
+    for topo in ("mfb_lowpass", "mfb_bandpass", "sallen_key_highpass", "mfb_highpass"):
         dd = _one_stage(topo, 2000.0, 2.0, None)
         q_lo = [opamp_shift_table(dd, gbw_hz=g)[0].gbw_q for g in (1e9, 1e7, 1e6, 3e5)]
         assert all(b > a for a, b in zip(q_lo, q_lo[1:]))
@@ -531,3 +565,16 @@ def test_cli_design_bad_input_names_the_option(argv, path, tmp_path):
         run(_parse([*argv, "-o", str(out)]))
     assert exc.value.path == path
     assert not out.exists()
+
+
+def test_highpass_with_finite_gbw_keeps_a_passband_reference():
+    # A single-pole op-amp (A = wt/s) rolls every active high-pass off at high frequency,
+    # so the passband reference is the peak there (filters.metrics.reference_gain2); the
+    # nominal cutoff then stays near the ideal one when the GBW is ample (ideal limit,
+    # Budak & Petrela 1972, from memory).
+    fast = synthesize("butterworth", 4, 1000.0, kind="highpass", gbw_hz=1e9, snap=False)
+    ideal = synthesize("butterworth", 4, 1000.0, kind="highpass", snap=False)
+    m_fast = evaluate(fast.design, samples=1).nominal.metrics
+    m_ideal = evaluate(ideal.design, samples=1).nominal.metrics
+    assert m_fast["cutoff_hz"] == pytest.approx(m_ideal["cutoff_hz"], rel=1e-4)
+    assert m_fast["reference_db"] == pytest.approx(m_ideal["reference_db"], abs=1e-3)
