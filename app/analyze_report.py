@@ -105,6 +105,16 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
     if d.mask:
         out.write(f"  worst case: {'every corner board meets the mask' if c.all_pass else 'some corner boards fail the mask'}"
                   "\n")
+    if result.opamps:
+        from filters.synthesis import opamp_table_text
+
+        out.write("\nOP-AMP GAIN-BANDWIDTH (single-pole model; rule: GBW >= 100 G Q f0, open-loop gain at f0\n"
+                  "  40 dB above the stage's gain, after Op Amps for Everyone ch. 16)\n")
+        out.write(opamp_table_text(result.opamps) + "\n")
+        for r in result.opamps:
+            if r.too_low:
+                out.write(f"  WARNING: {r.stage}: gain-bandwidth {format_value(r.gbw_hz or 0, 'Hz')} is below the "
+                          f"{format_value(r.required_gbw_hz, 'Hz')} this stage needs\n")
     out.write(f"\n{CAUTION}\n")
 
 
@@ -135,4 +145,5 @@ def to_json(result: AnalysisResult) -> dict[str, Any]:
         "yield": y,
         "budget": {n: b.to_dict() for n, b in result.budget.items()},
         "corners": result.corners.to_dict(),
+        "opamps": [dict(vars(r)) for r in result.opamps],
     })

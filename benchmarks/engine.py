@@ -70,6 +70,7 @@ def loop_reference(design, samples: int, exact_cutoff: bool) -> float:
 def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__)
     ap.add_argument("--quick", action="store_true", help="skip the 1,000,000-sample run")
+    ap.add_argument("--no-gui", action="store_true", help="skip the window latency figure")
     args = ap.parse_args()
     design = load_demo()
     n = 10_000
@@ -83,6 +84,12 @@ def main() -> int:
     t_grid = loop_reference(design, n, exact_cutoff=False)
     print(f"per-sample loop with the cutoff only interpolated on the grid:          {t_grid * 1e3:.0f} ms"
           f"  -> engine {t_grid / t_vec:.0f} x faster")
+    t_y = yield_pipeline(design, n)
+    print(f"sampling + response + judging + yield, {n} samples x {freqs.size} freqs: {t_y * 1e3:.1f} ms")
+    if not args.no_gui:
+        med, worst = slider_latency()
+        print(f"window: tolerance slider move to redrawn plots and yield, 5000 boards: "
+              f"median {med * 1e3:.0f} ms, worst {worst * 1e3:.0f} ms")
     if not args.quick:
         big = 1_000_000
         tracemalloc.start()
@@ -95,6 +102,60 @@ def main() -> int:
         print(f"{big} samples in chunks, metrics only: {elapsed:.1f} s, "
               f"peak traced numpy/Python memory {peak / 2**20:.0f} MiB (process peak RSS {rss:.0f} MiB)")
     return 0
+
+
+
+def yield_pipeline(design, samples: int) -> float:
+    """Sampling + response + judging + yield for ``samples`` boards (curves kept)."""
+    from filters.evaluate import prepare
+    from filters.stats import yield_estimate
+
+    prep = prepare(design)
+
+    def run() -> None:
+        ens = evaluate(design, samples=samples, curves=True, phase=False, prepared=prep)
+        yield_estimate(ens.passed)
+
+    return best_of(run)
+
+
+def slider_latency(samples: int = 5000, moves: int = 15) -> tuple[float, float]:
+    """Median and worst time (s) from a tolerance-slider move to the redrawn window."""
+    import os
+
+    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+    from dataclasses import replace as dc_replace
+
+    from PySide6.QtCore import QEventLoop
+    from PySide6.QtWidgets import QApplication
+
+    from app.qt_main import make_window
+
+    app = QApplication.instance() or QApplication([])
+    window = make_window(None)
+    d = window.session.design
+    window.session.replace_design(dc_replace(d, analysis=dc_replace(d.analysis, samples=samples)), None)
+    window.resize(1600, 950)
+    window.show()
+    window.session.evaluate_now()
+    app.processEvents()
+    loop = QEventLoop()
+    window.session.view_ready.connect(lambda _v: loop.quit())  # runs after the window has drawn
+    row = window.parts.rows["C2"]
+    times = []
+    for k in range(moves):
+        t0 = time.perf_counter()
+        row.slider.setSliderDown(True)
+        row.slider.setValue(600 + 10 * (k % 20))
+        loop.exec()  # wait in the event loop, as the window does
+        window.plots.canvas.viewport().repaint()
+        window.results.repaint()
+        times.append(time.perf_counter() - t0)
+    row.slider.setSliderDown(False)
+    window.session.undo_stack.setClean()
+    window.close()
+    times.sort()
+    return times[len(times) // 2], times[-1]
 
 
 if __name__ == "__main__":

@@ -8,7 +8,7 @@ nothing here formats or plots.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import Callable
 
 import numpy as np
@@ -35,6 +35,7 @@ class AnalysisResult:
     budget: dict[str, Budget]
     corners: Corners
     history: list[YieldEstimate]
+    opamps: list = field(default_factory=list)  # synthesis.GbwWarning per stage with an op-amp part
 
     @property
     def samples(self) -> int:
@@ -102,4 +103,7 @@ def analyze(design: Design, *, samples: int | None = None, seed: int | None = No
     summaries = {name: summarize(ens, name) for name in ens.metrics}
     budget = spread_budget(ens, prep)
     corner_result = corners(ens, prep)
-    return AnalysisResult(design, ens, prep, summaries, est, spans, budget, corner_result, history)
+    from .synthesis import gbw_warnings
+
+    opamps = gbw_warnings(design)
+    return AnalysisResult(design, ens, prep, summaries, est, spans, budget, corner_result, history, opamps)

@@ -40,11 +40,12 @@ def bands(curves: np.ndarray, share: float = INNER) -> Bands:
     out = np.empty((4, f))
 
     def work(lo: int, hi: int) -> None:
-        part = np.partition(curves[:, lo:hi], [k_lo, k_hi], axis=0)
-        out[0, lo:hi] = part[k_lo]
-        out[1, lo:hi] = part[k_hi]
-        out[2, lo:hi] = curves[:, lo:hi].min(axis=0)
-        out[3, lo:hi] = curves[:, lo:hi].max(axis=0)
+        block = np.ascontiguousarray(curves[:, lo:hi].T)  # (freqs, samples): selection runs along memory
+        part = np.partition(block, [0, k_lo, k_hi, s - 1], axis=1)
+        out[0, lo:hi] = part[:, k_lo]
+        out[1, lo:hi] = part[:, k_hi]
+        out[2, lo:hi] = part[:, 0]
+        out[3, lo:hi] = part[:, s - 1]
 
     # frequency blocks on the shared thread pool (numpy releases the GIL while it works)
     edges = np.linspace(0, f, WORKERS + 1).astype(int)
