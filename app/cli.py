@@ -17,6 +17,7 @@ from filters.design import MAX_SAMPLES
 from filters.errors import InputError, ValidationError
 
 from .cli_design import add_parser as add_design_parser, run as run_design
+from .cli_recommend import add_parser as add_recommend_parser, run as run_recommend
 
 EXIT_BAD_INPUT = 2
 
@@ -80,7 +81,9 @@ def build_parser() -> argparse.ArgumentParser:
                    help="upper limit for --half-width (default 1000000)")
     a.add_argument("--qmc", action="store_true", help="quasi-Monte Carlo: scrambled Sobol points instead of random")
     a.add_argument("--interval", choices=("wilson", "exact"), help="yield interval: Wilson score or exact (Clopper-Pearson)")
+    a.add_argument("--report", metavar="PATH", help="also write the design-review report (HTML)")
     add_design_parser(sub)
+    add_recommend_parser(sub)
     return p
 
 
@@ -104,10 +107,16 @@ def cmd_analyze(args: argparse.Namespace) -> int:
             from filters.designfile import write_text_atomic
 
             write_text_atomic(Path(args.json), text, backup=False)
+    if args.report:
+        from filters.report import build_report, write_report
+
+        write_report(build_report(result), args.report)
+        if args.json != "-":
+            print(f"wrote the report to {args.report}")
     return 0
 
 
-SUBCOMMANDS = ("analyze", "design")
+SUBCOMMANDS = ("analyze", "design", "recommend")
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -132,6 +141,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             return cmd_analyze(args)
         if args.command == "design":
             return run_design(args)
+        if args.command == "recommend":
+            return run_recommend(args)
         return open_window(design_path, args.screenshot)
     except ValidationError as exc:
         lines = exc.lines()

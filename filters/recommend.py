@@ -44,6 +44,7 @@ from .designfile import write_text_atomic
 from .errors import Cancelled, InputError
 from .evaluate import Ensemble, Prepared, evaluate, prepare
 from .grades import Catalog, Grade
+from .sampling import REFERENCE_CELSIUS
 from .stats import INTERVAL_METHODS, lower_bound
 from .values import format_value, series_for_tolerance, snap, tolerance_letter
 
@@ -153,14 +154,36 @@ def candidate_grades(design: Design, catalog: Catalog | None = None) -> list[lis
     without ideal zero-tolerance grades. Raises :class:`InputError` (path ``catalog``)
     when a part has none."""
     cat = design.catalog if catalog is None else catalog
+    a = design.analysis
     out = []
     for p in design.parts:
         gs = [g for g in cat.for_kind(p.kind) if g.tolerance_pct > 0]
         if not gs:
             raise InputError(f"no grade in the catalog fits part {p.ref} ({p.kind}) other than an "
                              "ideal one", "catalog")
-        out.append(gs)
+        out.append([g for g in gs if not any(_dominates(h, g, a.temp_low_c, a.temp_high_c) for h in gs)])
     return out
+
+
+def _temperature_extent(g: Grade, t_low: float, t_high: float) -> float:
+    """Largest relative value change the temperature coefficient can cause over the range."""
+    dt = max(abs(t_low - REFERENCE_CELSIUS), abs(t_high - REFERENCE_CELSIUS))
+    return (abs(g.tempco_ppm) + g.tempco_spread_ppm) * 1e-6 * dt
+
+
+def _dominates(h: Grade, g: Grade, t_low: float, t_high: float) -> bool:
+    """True when grade ``h`` is never worse than ``g`` and strictly better somewhere: no
+    dearer, the same distribution shape, no wider tolerance, temperature effect or drift.
+    Such a ``g`` can never be the cheapest choice, so the search leaves it out."""
+    if h is g or h.name == g.name:
+        return False
+    same_shape = (h.distribution, h.coverage, h.truncate, h.bin_inner_pct) == \
+        (g.distribution, g.coverage, g.truncate, g.bin_inner_pct)
+    if not same_shape or h.tempco_ppm != g.tempco_ppm and _temperature_extent(g, t_low, t_high) > 0:
+        return False
+    keys_h = (h.cost, h.tolerance_pct, _temperature_extent(h, t_low, t_high), h.drift_pct)
+    keys_g = (g.cost, g.tolerance_pct, _temperature_extent(g, t_low, t_high), g.drift_pct)
+    return all(x <= y for x, y in zip(keys_h, keys_g)) and keys_h != keys_g
 
 
 def boards_needed(target_yield: float, confidence: float = 0.95, method: str = "wilson") -> int:
