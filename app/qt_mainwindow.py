@@ -132,6 +132,18 @@ class MainWindow(QMainWindow):
         self.act_delete = self._action("Delete selected span", self.delete_selected_span, S.Delete, "delete_span")
         for a in (self.act_floor, self.act_ceiling, self.act_delete):
             em.addAction(a)
+        dm = m.addMenu("&Design")
+        self.act_synth = self._action("New design from a response…", self.new_from_response, "Ctrl+Shift+N",
+                                      "new_from_response")
+        self.act_catalog = self._action("Grades and costs…", self.edit_catalog, "Ctrl+G", "edit_catalog")
+        self.act_recommend = self._action("Find cheapest grades…", self.open_recommend, "Ctrl+R", "recommend")
+        self.act_report_html = self._action("Export report (HTML)…", lambda: self.export_report("html"),
+                                            "Ctrl+P", "report_html")
+        self.act_report_pdf = self._action("Export report (PDF)…", lambda: self.export_report("pdf"),
+                                           "Ctrl+Shift+P", "report_pdf")
+        for a in (self.act_synth, self.act_catalog, self.act_recommend, None, self.act_report_html,
+                  self.act_report_pdf):
+            dm.addSeparator() if a is None else dm.addAction(a)
         vm = m.addMenu("&View")
         group = QActionGroup(self)
         self.act_phase = self._action("Phase", lambda: self.session.set_second("phase"), "Ctrl+1", "show_phase", True)
@@ -152,7 +164,7 @@ class MainWindow(QMainWindow):
         tb.setObjectName("toolbar_main")
         for a in (self.act_open, self.act_save, None, self.act_undo, self.act_redo, None, self.act_floor,
                   self.act_ceiling, self.act_delete, None, self.act_phase, self.act_delay, self.act_failing,
-                  self.act_fit):
+                  self.act_fit, None, self.act_recommend):
             tb.addSeparator() if a is None else tb.addAction(a)
         self.addToolBar(tb)
         self._refresh_recent()
@@ -208,6 +220,12 @@ class MainWindow(QMainWindow):
     # --- model to view -------------------------------------------------------------------
     def _on_design_changed(self, design: Design) -> None:
         self._what_if.clear()
+        try:
+            from filters.synthesis import gbw_warnings
+
+            self.results.show_opamps(gbw_warnings(design))
+        except InputError as exc:
+            self.show_status(str(exc))
         self.parts.show_design(design)
         a = design.analysis
         self.span_table.show_mask(design.mask, (a.f_start, a.f_stop))
@@ -457,6 +475,79 @@ class MainWindow(QMainWindow):
         write_text_atomic(Path(path), buf.getvalue(), backup=False)
         self.show_status(f"{cols.shape[0]} boards written to {path}")
         return Path(path)
+
+    # --- design tools --------------------------------------------------------------------
+    def new_from_response(self) -> None:
+        """Synthesize a design from a response (a dialog), replacing the open design."""
+        from .qt_dialogs import SynthesisDialog
+
+        if not self.confirm_discard():
+            return
+        dlg = SynthesisDialog(self)
+        if dlg.exec() and dlg.result() is not None:
+            self.session.replace_design(dlg.result().design, None)
+            self.session.undo_stack.resetClean()
+            self._update_title()
+            self.show_status("new design from a response: review the mask before trusting the yield")
+
+    def edit_catalog(self) -> None:
+        """Edit grade costs and tolerances; changes become the design's own grades."""
+        from .qt_dialogs import CatalogDialog
+
+        d = self.session.design
+        dlg = CatalogDialog(d.catalog, d.grades, self)
+        if dlg.exec():
+            grades = tuple(dlg.changed_grades())
+            if grades != d.grades:
+                self.session.apply(replace(d, grades=grades), "edit grades and costs")
+
+    def open_recommend(self) -> None:
+        from .qt_recommend import RecommendDialog
+
+        if not self.session.design.mask:
+            self.show_status("draw a spec mask first: the recommendation needs a yield to meet")
+            return
+        dlg = RecommendDialog(self.session.design, self)
+        dlg.apply_requested.connect(lambda design: self.session.apply(design, "use the recommended grades"))
+        self._recommend_dialog = dlg
+        dlg.show()
+
+    def export_report(self, kind: str, path: str | None = None) -> None:
+        """Write the design-review report of the current design (HTML or PDF)."""
+        from filters.analysis import analyze
+        from filters.report import build_report, write_report
+
+        from .qt_reportexport import write_pdf
+        from .qt_tasks import BackgroundTask
+
+        if path is None:
+            path, _ = QFileDialog.getSaveFileName(self, f"Export report ({kind.upper()})",
+                                                  str(self._last_dir() / f"report.{kind}"), f"*.{kind}")
+            if not path:
+                return
+        design = self.session.design
+        self.show_status("building the report…")
+
+        def job(progress, should_stop):
+            result = analyze(design, progress=progress, should_stop=should_stop)
+            return build_report(result)
+
+        def done(report) -> None:
+            try:
+                if kind == "pdf":
+                    write_pdf(report, Path(path))
+                else:
+                    write_report(report, path)
+            except (OSError, InputError) as exc:
+                self._show_problem("Could not write the report", str(exc))
+                return
+            self.show_status(f"report written to {path}")
+
+        task = BackgroundTask(job, self)
+        task.finished.connect(done)
+        task.failed.connect(lambda msg, _d: self._show_problem("Could not build the report", msg))
+        self._report_task = task
+        task.start()
 
     # --- recovery, layout ----------------------------------------------------------------
     def write_recovery(self) -> None:

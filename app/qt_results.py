@@ -68,6 +68,11 @@ class ResultsPanel(QWidget):
         self.budget_plot.setLabel("bottom", "share of the metric's variance", units="%")
         lay.addWidget(QLabel("<b>spread budget</b> (which part explains how much of the spread)"))
         lay.addWidget(self.budget_plot, 2)
+        self.opamp_note = QLabel("")
+        self.opamp_note.setObjectName("opamp_note")
+        self.opamp_note.setWordWrap(True)
+        self.opamp_note.hide()
+        lay.addWidget(self.opamp_note)
         self.caution = QLabel(CAUTION)
         self.caution.setWordWrap(True)
         self.caution.setStyleSheet("color: #555; font-size: 9pt;")
@@ -117,6 +122,20 @@ class ResultsPanel(QWidget):
             self.metric_name = "cutoff_hz" if "cutoff_hz" in wanted else wanted[0]
         self.chooser.setCurrentIndex(max(0, self.chooser.findData(self.metric_name)))
         self._draw_metric()
+
+    def show_opamps(self, rows) -> None:
+        """Op-amp gain-bandwidth effects (filters.synthesis.GbwWarning rows)."""
+        if not rows:
+            self.opamp_note.hide()
+            return
+        lines = []
+        for r in rows:
+            shift = f"f0 {100 * (r.f0_shift or 0):+.2f} %, Q {100 * (r.q_shift or 0):+.2f} %"
+            warn = (f" <span style='color:{st.VERMILION}'><b>GBW too low</b> (needs ≥ "
+                    f"{r.required_gbw_hz / 1e6:.3g} MHz)</span>" if r.too_low else "")
+            lines.append(f"{r.stage}: {shift}{warn}")
+        self.opamp_note.setText("<b>op-amp gain-bandwidth moves</b> (rule GBW ≥ 100·G·Q·f0):<br>" + "<br>".join(lines))
+        self.opamp_note.show()
 
     def _on_metric_chosen(self) -> None:
         self.metric_name = self.chooser.currentData()

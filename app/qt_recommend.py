@@ -1,0 +1,209 @@
+"""The recommendation dialog: find the cheapest grades that meet a yield target, see the
+cost-yield trade-off, apply the grades to the design, export the parts list."""
+from __future__ import annotations
+
+import pyqtgraph as pg
+from PySide6.QtCore import Qt, Signal
+from PySide6.QtWidgets import (QCheckBox, QDialog, QDoubleSpinBox, QFileDialog, QFormLayout, QHBoxLayout,
+                               QHeaderView, QLabel, QProgressBar, QPushButton, QSpinBox, QTableWidget,
+                               QTableWidgetItem, QVBoxLayout)
+
+from filters.design import Design
+from filters.recommend import Recommendation, cost_yield_curve, parts_list_rows, recommend, write_parts_csv
+
+from . import qt_style as st
+from .qt_tasks import BackgroundTask
+
+
+class RecommendDialog(QDialog):
+    """Target yield and confidence in; the cheapest grade set (and trade-off curve) out."""
+
+    apply_requested = Signal(object)  # Design with the recommended grades
+
+    def __init__(self, design: Design, parent=None) -> None:
+        super().__init__(parent)
+        self.setWindowTitle("Cheapest grades for a yield target")
+        self.setObjectName("recommend_dialog")
+        self.design = design
+        self.recommendation: Recommendation | None = None
+        self.curve: list | None = None
+        self.task: BackgroundTask | None = None
+        lay = QVBoxLayout(self)
+        form = QFormLayout()
+        self.target = QDoubleSpinBox()
+        self.target.setObjectName("target_yield")
+        self.target.setRange(50.0, 99.99)
+        self.target.setDecimals(2)
+        self.target.setSuffix(" %")
+        self.target.setValue(95.0)
+        self.confidence = QDoubleSpinBox()
+        self.confidence.setObjectName("confidence")
+        self.confidence.setRange(50.0, 99.9)
+        self.confidence.setDecimals(1)
+        self.confidence.setSuffix(" %")
+        self.confidence.setValue(95.0)
+        self.samples = QSpinBox()
+        self.samples.setObjectName("recommend_samples")
+        self.samples.setRange(200, 200_000)
+        self.samples.setSingleStep(1000)
+        self.samples.setValue(min(design.analysis.samples, 5000))
+        self.with_curve = QCheckBox("also find the cheapest set for a range of targets (trade-off curve)")
+        form.addRow("yield target (lower confidence bound)", self.target)
+        form.addRow("confidence of the bound", self.confidence)
+        form.addRow("boards per candidate", self.samples)
+        form.addRow("", self.with_curve)
+        lay.addLayout(form)
+        row = QHBoxLayout()
+        self.run_button = QPushButton("Find cheapest grades")
+        self.run_button.setObjectName("run_recommend")
+        self.cancel_button = QPushButton("Cancel")
+        self.cancel_button.setEnabled(False)
+        self.progress = QProgressBar()
+        self.progress.setRange(0, 0)
+        self.progress.hide()
+        row.addWidget(self.run_button)
+        row.addWidget(self.cancel_button)
+        row.addWidget(self.progress, 1)
+        lay.addLayout(row)
+        self.summary = QLabel("Grades are compared on the same sampled boards; the choice is then checked "
+                              "on fresh boards.")
+        self.summary.setObjectName("recommend_summary")
+        self.summary.setWordWrap(True)
+        lay.addWidget(self.summary)
+        self.table = QTableWidget(0, 5)
+        self.table.setObjectName("recommend_table")
+        self.table.setHorizontalHeaderLabels(["part", "value", "current grade", "recommended", "relative cost"])
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Stretch)
+        self.table.verticalHeader().hide()
+        self.table.setEditTriggers(QTableWidget.EditTrigger.NoEditTriggers)
+        lay.addWidget(self.table, 2)
+        self.curve_plot = pg.PlotWidget()
+        self.curve_plot.setObjectName("cost_yield_plot")
+        self.curve_plot.setBackground("w")
+        self.curve_plot.setLabel("bottom", "yield target", units="%")
+        self.curve_plot.setLabel("left", "total relative cost")
+        self.curve_plot.showGrid(x=True, y=True, alpha=st.GRID_ALPHA)
+        self.curve_plot.hide()
+        lay.addWidget(self.curve_plot, 2)
+        buttons = QHBoxLayout()
+        self.apply_button = QPushButton("Use these grades in the design")
+        self.apply_button.setObjectName("apply_recommendation")
+        self.apply_button.setEnabled(False)
+        self.csv_button = QPushButton("Save parts list (CSV)…")
+        self.csv_button.setEnabled(False)
+        close = QPushButton("Close")
+        buttons.addWidget(self.apply_button)
+        buttons.addWidget(self.csv_button)
+        buttons.addStretch(1)
+        buttons.addWidget(close)
+        lay.addLayout(buttons)
+        caution = QLabel("Relative costs come from the catalog (built-in costs are invented demo figures). The "
+                         "yield is an estimate under the grades' stated distributions; confirm with measured "
+                         "parts and qualified review.")
+        caution.setWordWrap(True)
+        caution.setStyleSheet("color: #555;")
+        lay.addWidget(caution)
+        self.run_button.clicked.connect(self.start)
+        self.cancel_button.clicked.connect(self.cancel)
+        self.apply_button.clicked.connect(self._on_apply)
+        self.csv_button.clicked.connect(self._on_csv)
+        close.clicked.connect(self.reject)
+        self.resize(760, 720)
+
+    def start(self) -> None:
+        design = self.design
+        target = self.target.value() / 100
+        confidence = self.confidence.value() / 100
+        samples = self.samples.value()
+        want_curve = self.with_curve.isChecked()
+
+        def job(progress, should_stop):
+            rec = recommend(design, target, confidence=confidence, samples=samples, progress=progress,
+                            should_stop=should_stop)
+            curve = cost_yield_curve(design, confidence=confidence, samples=samples,
+                                     should_stop=should_stop) if want_curve else None
+            return rec, curve
+
+        self.task = BackgroundTask(job, self)
+        self.task.finished.connect(self._on_finished)
+        self.task.failed.connect(lambda msg, _d: self._done(f"could not recommend: {msg}"))
+        self.task.cancelled.connect(lambda: self._done("cancelled; nothing was changed"))
+        self.task.progress.connect(lambda d, t: self.summary.setText(f"tried {d} grade sets…"))
+        self.run_button.setEnabled(False)
+        self.cancel_button.setEnabled(True)
+        self.progress.show()
+        self.task.start()
+
+    def cancel(self) -> None:
+        if self.task is not None:
+            self.task.cancel()
+
+    def _done(self, text: str) -> None:
+        self.summary.setText(text)
+        self.run_button.setEnabled(True)
+        self.cancel_button.setEnabled(False)
+        self.progress.hide()
+
+    def _on_finished(self, out) -> None:
+        rec, curve = out
+        self.recommendation, self.curve = rec, curve
+        self.run_button.setEnabled(True)
+        self.cancel_button.setEnabled(False)
+        self.progress.hide()
+        self.show_recommendation(rec, curve)
+
+    def show_recommendation(self, rec: Recommendation, curve=None) -> None:
+        pct = lambda x: f"{100 * x:.2f} %"  # noqa: E731
+        d = self.design
+        if rec.chosen is None:
+            self.summary.setText(f"No set of grades in the catalog meets the target. {getattr(rec, 'note', '')}")
+            self.table.setRowCount(0)
+            self.apply_button.setEnabled(False)
+            self.csv_button.setEnabled(False)
+        else:
+            c = rec.chosen
+            cat = d.catalog
+            check = ""
+            if rec.verified is not None:
+                check = (f" On {rec.verified.samples:,} fresh boards: yield {pct(rec.verified.estimate)}, lower bound "
+                         f"{pct(rec.verified.lower)} — the target {'holds' if rec.meets_on_fresh_seed else 'does NOT hold'}.")
+            self.summary.setText(f"<b>total relative cost {c.cost:.2f}</b>; yield {pct(c.estimate)}, lower bound "
+                                 f"{pct(c.lower)} ({c.passed:,} of {c.samples:,} boards; {rec.evaluations} grade "
+                                 f"sets tried).{check}")
+            self.table.setRowCount(len(d.parts))
+            for i, (p, g) in enumerate(zip(d.parts, c.grades)):
+                cells = [p.ref, p.value_text, p.grade, g, f"{cat[g].cost:.2f}"]
+                for j, text in enumerate(cells):
+                    item = QTableWidgetItem(text)
+                    if j == 3 and g != p.grade:
+                        item.setForeground(pg.mkColor(st.BLUE))
+                        font = item.font()
+                        font.setBold(True)
+                        item.setFont(font)
+                    self.table.setItem(i, j, item)
+            self.apply_button.setEnabled(True)
+            self.csv_button.setEnabled(True)
+        if curve:
+            self.curve_plot.show()
+            self.curve_plot.clear()
+            xs = [100 * t for t, r in curve if r.chosen is not None]
+            ys = [r.chosen.cost for t, r in curve if r.chosen is not None]
+            self.curve_plot.plot(xs, ys, pen=pg.mkPen(st.BLUE, width=2), symbol="o", symbolBrush=st.BLUE)
+            missed = [100 * t for t, r in curve if r.chosen is None]
+            if missed and ys:
+                self.curve_plot.plot(missed, [max(ys)] * len(missed), pen=None, symbol="x",
+                                     symbolPen=pg.mkPen(st.VERMILION, width=2))
+
+    def _on_apply(self) -> None:
+        if self.recommendation is not None and self.recommendation.chosen is not None:
+            self.apply_requested.emit(self.recommendation.design)
+            self.summary.setText(self.summary.text() + "<br>Applied to the design (Undo takes it back).")
+
+    def _on_csv(self, path: str | None = None) -> None:
+        if self.recommendation is None:
+            return
+        if not path:
+            path, _ = QFileDialog.getSaveFileName(self, "Save parts list", "parts.csv", "*.csv")
+        if path:
+            write_parts_csv(parts_list_rows(self.design, self.recommendation), path)
+            self.summary.setText(self.summary.text() + f"<br>Parts list written to {path}.")
