@@ -230,11 +230,10 @@ def analysis_from_dict(data: Any, problems: list[InputError], path: str = "analy
     t_lo, t_hi = d.temp_low_c, d.temp_high_c
     if "temperature_c" in data:
         t = data["temperature_c"]
-        if isinstance(t, (int, float)) and not isinstance(t, bool):
-            t = [t, t]
         if (not isinstance(t, list) or len(t) != 2
                 or any(isinstance(x, bool) or not isinstance(x, (int, float)) or not math.isfinite(x) for x in t)):
-            problems.append(InputError("must be a temperature or [low, high] in deg C", f"{path}.temperature_c"))
+            problems.append(InputError("must be [low, high] in deg C (equal ends for a fixed temperature)",
+                                       f"{path}.temperature_c"))
         elif not -273.15 < t[0] <= t[1] < 1000:
             problems.append(InputError("must be [low, high] with low <= high, above -273.15 deg C",
                                        f"{path}.temperature_c"))

@@ -21,12 +21,29 @@ from .design import Design, design_from_dict
 from .errors import InputError, ValidationError
 
 FORMAT_TAG = "tolspread-design"
-VERSION = 1
+VERSION = 2
 MAX_BYTES = 2_000_000
 MAX_DEPTH = 20
 
+
+def _v1_to_v2(data: dict[str, Any]) -> dict[str, Any]:
+    """Version 1 allowed ``analysis.temperature_c`` as one number and spans without a
+    ``quantity``; version 2 always writes ``[low, high]`` and the quantity."""
+    out = dict(data)
+    a = out.get("analysis")
+    if isinstance(a, dict) and "temperature_c" in a:
+        t = a["temperature_c"]
+        if isinstance(t, (int, float)) and not isinstance(t, bool):
+            out["analysis"] = {**a, "temperature_c": [t, t]}
+    mask = out.get("mask")
+    if isinstance(mask, list):
+        out["mask"] = [({"quantity": "gain", **m} if isinstance(m, dict) and "quantity" not in m else m)
+                       for m in mask]
+    return out
+
+
 # version n -> function turning a version-n dict into a version n+1 dict
-MIGRATIONS: dict[int, Callable[[dict[str, Any]], dict[str, Any]]] = {}
+MIGRATIONS: dict[int, Callable[[dict[str, Any]], dict[str, Any]]] = {1: _v1_to_v2}
 
 
 def _depth(obj: Any, limit: int) -> int:

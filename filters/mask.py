@@ -54,7 +54,7 @@ class Span:
         return replace(self, **changes)
 
     def to_dict(self) -> dict[str, Any]:
-        d = asdict(self)
+        d = asdict(self)  # "quantity" is always written (design-file version 2)
         if d["limit2"] is None:
             del d["limit2"]
         if not d["name"]:

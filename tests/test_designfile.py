@@ -375,3 +375,37 @@ def test_grade_objects_in_designs_round_trip():
     assert d.grades == (Grade("R-mine", "R", 3.0, distribution="uniform", tempco_ppm=20.0, cost=2.5),)
     assert d.mask[1] == Span("ceiling", 5e4, 2e5, -10.0, -20.0)
     assert replace(d, name="x") != d
+
+
+# --- version migration (filters.designfile.MIGRATIONS) ---------------------------------
+
+V1_TEXT = """{"format": "tolspread-design", "version": 1, "name": "old file",
+ "parts": [{"ref": "R1", "value": "10k", "grade": "R-thick-1"}, {"ref": "C1", "value": "10n", "grade": "C-C0G-5"}],
+ "stages": [{"topology": "rc_lowpass", "parts": {"R1": "R1", "C1": "C1"}}],
+ "analysis": {"samples": 100, "f_start": 10, "f_stop": 1e6, "temperature_c": 40},
+ "mask": [{"kind": "floor", "f1": 10, "f2": 100, "limit1": -1, "relative": true}]}"""
+
+
+def test_version_1_file_is_migrated():
+    # A version-1 file (temperature as one number, spans without quantity) loads as the
+    # current version, with the same meaning: a fixed 40 deg C and a gain floor.
+    from filters.designfile import VERSION, loads, parse_text
+
+    data = parse_text(V1_TEXT)
+    assert data["version"] == VERSION
+    assert data["analysis"]["temperature_c"] == [40, 40]
+    assert data["mask"][0]["quantity"] == "gain"
+    d = loads(V1_TEXT)
+    assert (d.analysis.temp_low_c, d.analysis.temp_high_c) == (40.0, 40.0)
+    assert d.mask[0].quantity == "gain" and d.mask[0].kind == "floor"
+    # written back, it is a current-version file that reads to the same design
+    assert loads(dumps(d)) == d and f'"version": {VERSION}' in dumps(d)
+
+
+def test_current_version_rejects_a_bare_temperature():
+    from filters.designfile import VERSION, loads
+
+    text = V1_TEXT.replace('"version": 1', f'"version": {VERSION}')
+    with pytest.raises(InputError) as info:
+        loads(text)
+    assert "analysis.temperature_c" in str(info.value)
