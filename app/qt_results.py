@@ -97,8 +97,10 @@ class ResultsPanel(QWidget):
                 f"({'Wilson' if y.method == 'wilson' else 'exact'}), {y.passed:,} of {y.samples:,} boards pass")
         else:
             self.yield_label.setText("<b>no spec mask yet</b>: draw floor or ceiling spans on the gain plot")
+        bands_note = (f"; bands drawn from the first {view.curve_boards:,} boards"
+                      if view.curve_boards and view.curve_boards < view.samples else "")
         self.detail.setText(f"{view.samples:,} boards, seed {view.seed}, {view.method} sampling; "
-                            f"computed in {1000 * view.elapsed_s:.0f} ms{stale}")
+                            f"computed in {1000 * view.elapsed_s:.0f} ms{bands_note}")
         self.table.setRowCount(len(view.spans))
         for i, s in enumerate(view.spans):
             unit = {"gain": "dB", "phase": "deg", "delay": "s"}[view.design.mask[i].quantity]

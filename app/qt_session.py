@@ -29,6 +29,7 @@ class _Worker(QObject):
 
     finished = Signal(object)          # ViewData
     failed = Signal(int, str, str)     # generation, message, details
+    stopped = Signal(int)              # generation cancelled or superseded mid-run
     progress = Signal(int, int, int)   # generation, done, total
 
     def __init__(self) -> None:
@@ -70,6 +71,7 @@ class _Worker(QObject):
                     progress=(lambda d, t, g=req.generation: self.progress.emit(g, d, t)) if big else None,
                     should_stop=lambda g=req.generation: self._stale(g))
             except Cancelled:
+                self.stopped.emit(req.generation)
                 continue
             except InputError as exc:
                 self.failed.emit(req.generation, str(exc), "")
@@ -105,6 +107,7 @@ class Session(QObject):
     progress = Signal(int, int)           # done, total
     path_changed = Signal(object)         # Path | None
     dirty_changed = Signal(bool)
+    evaluation_stopped = Signal(int)      # generation
     _wake = Signal()
 
     def __init__(self, design: Design, path: Path | None = None) -> None:
@@ -125,6 +128,7 @@ class Session(QObject):
         self._worker.finished.connect(self._on_view_finished)
         self._worker.failed.connect(self._on_view_failed)
         self._worker.progress.connect(self._on_progress)
+        self._worker.stopped.connect(self.evaluation_stopped)
         self._thread.start()
         self.last_view: ViewData | None = None
 

@@ -117,16 +117,24 @@ class StageCoefficients:
         return self.num * k_n, self.den * k_d
 
 
-def stage_coefficients(circuit: Circuit, values: np.ndarray) -> list[StageCoefficients]:
-    """Coefficients of every stage for part values ``values`` (samples, parts)."""
+def stage_coefficients(circuit: Circuit, values: np.ndarray,
+                       w_refs: tuple[float, ...] | None = None) -> list[StageCoefficients]:
+    """Coefficients of every stage for part values ``values`` (samples, parts).
+
+    ``w_refs`` fixes each stage's frequency scale (rad/s); by default it is the median
+    natural frequency of the batch. Fixing it (to the nominal design's, as evaluations do)
+    makes every sample's numbers independent of the batch it is computed in.
+    """
     out = []
-    for st in circuit.stages:
+    for k, st in enumerate(circuit.stages):
         args = {role: values[:, c] for role, c in zip(st.tf.roles, st.columns)}
         num = st.tf.numerator(args)
         den = st.tf.denominator(args)
         n = den.shape[1] - 1
         w_ref = 1.0
-        if n >= 1:
+        if w_refs is not None:
+            w_ref = w_refs[k]
+        elif n >= 1:
             ratio = np.abs(den[:, 0] / den[:, n])
             ratio = ratio[np.isfinite(ratio) & (ratio > 0)]
             if ratio.size:

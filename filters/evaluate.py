@@ -117,6 +117,7 @@ class Prepared:
     freqs_hz: np.ndarray
     plans: list[SpanPlan]
     nominal: Nominal
+    w_refs: tuple[float, ...]  # each stage's frequency scale (rad/s), from the nominal design
 
 
 def prepare(design: Design, extra_freqs: Sequence[float] = ()) -> Prepared:
@@ -131,7 +132,7 @@ def prepare(design: Design, extra_freqs: Sequence[float] = ()) -> Prepared:
     marg = margins(plans, resp)[0]
     _check_finite(m, marg)
     nominal = Nominal(nominal_values, resp, {k: float(v[0]) for k, v in m.items()}, marg)
-    return Prepared(design, circuit, freqs, plans, nominal)
+    return Prepared(design, circuit, freqs, plans, nominal, tuple(c.w_ref for c in coeffs))
 
 
 def _check_finite(m: dict[str, np.ndarray], marg: np.ndarray) -> None:
@@ -151,7 +152,7 @@ def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
                     delay: bool = False) -> Evaluated:
     """Responses, metrics and margins for part values ``values`` (S, P), no sampling."""
     need_phase, need_delay = needs(prep.design.mask)
-    coeffs = stage_coefficients(prep.circuit, values)
+    coeffs = stage_coefficients(prep.circuit, values, prep.w_refs)
     resp = frequency_response(prep.circuit, coeffs, prep.freqs_hz, phase=phase or need_phase,
                               delay=delay or need_delay)
     m = _metrics_for(prep.circuit, coeffs, resp, prep.design.analysis.cutoff_db)

@@ -21,6 +21,7 @@ from .grades import Grade
 from .stats import SpanFailures, YieldEstimate, failure_breakdown, yield_estimate
 
 SecondQuantity = Literal["phase", "delay"]
+CURVE_LIMIT = 20_000  # boards whose curves are kept for the bands: bounded memory for big runs
 
 
 @dataclass(frozen=True)
@@ -62,6 +63,7 @@ class ViewData:
     method: str
     elapsed_s: float
     ensemble: Ensemble = field(repr=False, compare=False)
+    curve_boards: int = 0  # boards behind the bands and traces (all, or the first CURVE_LIMIT)
 
 
 def compute_view(req: ViewRequest, prepared: Prepared | None = None,
@@ -72,16 +74,23 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
     d = req.design
     prep = prepared if prepared is not None and prepared.design is d else prepare(d)
     delay = req.second == "delay"
-    ens = evaluate(d, grades=req.grades, curves=True, phase=not delay, delay=delay, prepared=prep,
-                   progress=progress, should_stop=should_stop)
-    second = ens.delay_s if delay else ens.phase_deg
-    assert ens.gain_db is not None and second is not None
-    passed = ens.passed
+    if d.analysis.samples <= CURVE_LIMIT:
+        ens = evaluate(d, grades=req.grades, curves=True, phase=not delay, delay=delay, prepared=prep,
+                       progress=progress, should_stop=should_stop)
+        drawn = ens
+    else:  # every board for the numbers; the first CURVE_LIMIT boards (the same ones) for the curves
+        ens = evaluate(d, grades=req.grades, curves=False, prepared=prep, progress=progress,
+                       should_stop=should_stop)
+        drawn = evaluate(d, samples=CURVE_LIMIT, grades=req.grades, curves=True, phase=not delay,
+                         delay=delay, prepared=prep, should_stop=should_stop)
+    second = drawn.delay_s if delay else drawn.phase_deg
+    assert drawn.gain_db is not None and second is not None
+    passed = drawn.passed
     pass_rows = pick_rows(passed, req.traces, failing=False)
     fail_rows = pick_rows(passed, req.traces, failing=True)
     nom = prep.nominal.response
     nominal_second = (nom.delay_s if delay else nom.phase_deg)[0]  # type: ignore[index]
-    est = yield_estimate(passed, None, d.analysis.confidence, d.analysis.interval)  # type: ignore[arg-type]
+    est = yield_estimate(ens.passed, None, d.analysis.confidence, d.analysis.interval)  # type: ignore[arg-type]
     names = [s.label for s in d.mask]
     spans = failure_breakdown(ens.margins >= 0, ens.margins, names) if names else []
     budget = spread_budget(ens, prep) if req.budget else {}
@@ -90,10 +99,10 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
         nominal_metrics[f"margin.{s.label}"] = float(prep.nominal.margins[j])
     return ViewData(
         req.generation, d, ens.freqs_hz, req.second, 10 * np.log10(np.maximum(nom.gain2[0], 1e-300)),
-        np.asarray(nominal_second), bands(ens.gain_db), bands(second),
-        ens.gain_db[pass_rows], second[pass_rows], ens.gain_db[fail_rows], second[fail_rows],
+        np.asarray(nominal_second), bands(drawn.gain_db), bands(second),
+        drawn.gain_db[pass_rows], second[pass_rows], drawn.gain_db[fail_rows], second[fail_rows],
         est, spans, metric_columns(ens), nominal_metrics, budget, ens.samples, ens.seed, ens.method,
-        time.perf_counter() - t0, ens)
+        time.perf_counter() - t0, ens, drawn.samples)
 
 
 def what_if_grades(design: Design, tolerances: Sequence[float | None]) -> tuple[Grade, ...]:

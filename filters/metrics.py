@@ -81,6 +81,8 @@ def _refine(coeffs: list[StageCoefficients], f_lo: np.ndarray, f_hi: np.ndarray,
     fb = 10 * np.log10(np.maximum(gain2_at(coeffs, f_hi), 1e-300)) - t
     side = np.zeros(a.shape)
     c = a.copy()
+    result = np.full(a.shape, np.nan)
+    done = np.zeros(a.shape, dtype=bool)
     for _ in range(iterations):
         denom = fb - fa
         c = np.where(denom != 0, b - fb * (b - a) / np.where(denom != 0, denom, 1), 0.5 * (a + b))
@@ -95,9 +97,15 @@ def _refine(coeffs: list[StageCoefficients], f_lo: np.ndarray, f_hi: np.ndarray,
         fa_new = np.where(~same_a & (side == 1), fa_new / 2, fa_new)
         fa = fa_new
         side = np.where(same_a, -1, 1)
-        if np.all(np.abs(fc) < 1e-10):
+        # freeze each sample once it has converged, so its answer does not depend on which
+        # other samples share the batch (chunking never changes a number)
+        new = ~done & (np.abs(fc) < 1e-10)
+        result[new] = c[new]
+        done |= new
+        if done.all():
             break
-    return np.exp(c)
+    result[~done] = c[~done]
+    return np.exp(result)
 
 
 def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray,
