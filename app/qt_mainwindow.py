@@ -7,6 +7,7 @@ The window observes the :class:`~app.qt_session.Session`; every edit goes throug
 from __future__ import annotations
 
 import csv
+import os
 import logging
 import traceback
 from dataclasses import replace
@@ -71,7 +72,7 @@ class MainWindow(QMainWindow):
         self._on_design_changed(session.design)
         self._update_title()
         self.autosave = QTimer(self)
-        self.autosave.setInterval(AUTOSAVE_MS)
+        self.autosave.setInterval(int(os.environ.get("TOLSPREAD_AUTOSAVE_MS", AUTOSAVE_MS)))
         self.autosave.timeout.connect(self.write_recovery)
         self.autosave.start()
 

@@ -507,12 +507,17 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     if kind not in KINDS:
         raise InputError(f"must be one of {', '.join(KINDS)}, not {kind!r}", "kind")
     fc = _positive(cutoff_hz, "cutoff_hz")
+    if not 1e-3 <= fc <= 1e10:
+        raise InputError(f"must be from 1 mHz to 10 GHz, not {fc:g} Hz", "cutoff_hz")
     if kind == "bandpass":
         if response == "linkwitz_riley":
             raise InputError("a Linkwitz-Riley response is a low-pass or high-pass crossover", "kind")
         if bandwidth_hz is None:
             raise InputError("a band-pass needs its bandwidth in Hz", "bandwidth_hz")
         bw = _positive(bandwidth_hz, "bandwidth_hz")
+        if not 1e-3 * fc <= bw <= 10 * fc:
+            raise InputError(f"must be from 1/1000 of the centre frequency to 10 times it, not {bw:g} Hz",
+                             "bandwidth_hz")
     else:
         if bandwidth_hz is not None:
             raise InputError("a bandwidth applies to a band-pass only", "bandwidth_hz")
@@ -528,6 +533,8 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     _check_grade(capacitor_grade, "C", "capacitor_grade")
     if gbw_hz is not None:
         gbw_hz = _positive(gbw_hz, "gbw_hz")
+        if not 1e3 <= gbw_hz <= 1e12:
+            raise InputError(f"must be from 1 kHz to 1 THz, not {gbw_hz:g} Hz", "gbw_hz")
         _check_grade(opamp_grade, "opamp", "opamp_grade")
 
     # Target: poles moved to the cutoff, paired into sections (Hz).
