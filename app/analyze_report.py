@@ -53,6 +53,11 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
     if d.mask:
         out.write(f"YIELD  {_pct(y.estimate)}  ({round(100 * y.confidence)} % interval {_pct(y.low)} to "
                   f"{_pct(y.high)}, {y.method}; {y.passed} of {y.samples} boards pass)\n")
+        from filters.stats import samples_for_half_width
+
+        need = [(h, samples_for_half_width(h / 100, y.estimate, y.confidence, y.method)) for h in (1.0, 0.5, 0.1)]
+        out.write("  boards needed at this yield for an interval of " +
+                  ", ".join(f"+-{h:g} points: {n:,}" for h, n in need) + "\n")
         if len(result.history) > 1:
             out.write(f"  adaptive run: {len(result.history)} batches, interval half-width "
                       f"{100 * y.half_width:.2f} points\n")
