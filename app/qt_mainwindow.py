@@ -17,7 +17,7 @@ import numpy as np
 import pyqtgraph as pg
 import pyqtgraph.exporters  # noqa: F401  (registers the exporters)
 from PySide6.QtCore import QSettings, Qt, QTimer
-from PySide6.QtGui import QAction, QActionGroup, QKeySequence, QShortcut
+from PySide6.QtGui import QAction, QActionGroup, QKeySequence
 from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog, QLabel, QMainWindow, QMessageBox,
                                QProgressBar, QPushButton, QSplitter, QToolBar)
 
@@ -212,11 +212,8 @@ class MainWindow(QMainWindow):
         self.span_table.span_added.connect(self._on_span_added)
         self.span_table.span_deleted.connect(self._delete_span)
         self.span_table.problem.connect(self.show_status)
-        # Delete works while the plot has focus too
-        for w in (self.plots.canvas,):
-            sc = QShortcut(QKeySequence(QKeySequence.StandardKey.Delete), w)
-            sc.setContext(Qt.ShortcutContext.WidgetWithChildrenShortcut)
-            sc.activated.connect(self.delete_selected_span)
+        # Delete works while the plot has focus through act_delete's window-wide shortcut; a
+        # second Delete shortcut on the canvas would make the key ambiguous and do nothing.
 
     # --- model to view -------------------------------------------------------------------
     def _on_design_changed(self, design: Design) -> None:
@@ -435,17 +432,31 @@ class MainWindow(QMainWindow):
 
     # --- exports -------------------------------------------------------------------------
     def export_plots(self, kind: str, path: str | None = None) -> Path | None:
-        """Save the plots as PNG or SVG (asks for a file unless ``path`` is given)."""
+        """Save the plots as PNG (both plots, as shown) or SVG (the gain plot with its bands
+        and mask, over the shown range); asks for a file unless ``path`` is given."""
         if path is None:
             path, _ = QFileDialog.getSaveFileName(self, f"Export plots as {kind.upper()}",
                                                   str(self._last_dir() / f"spread.{kind}"), f"*.{kind}")
             if not path:
                 return None
-        scene = self.plots.canvas.scene()
-        exporter = (pg.exporters.ImageExporter(scene) if kind == "png" else pg.exporters.SVGExporter(scene))
-        if kind == "png":
+        if kind == "svg":
+            # tolspread's own SVG writer (the one the report uses), over the plot's current range
+            from filters.report import svg_spread_plot
+
+            view = self.session.last_view
+            if view is None:
+                return None
+            (x0, x1), (y0, y1) = self.plots.mag.vb.viewRange()
+            svg = svg_spread_plot(view.freqs_hz, view.nominal_gain_db, view.gain_bands, view.design.mask,
+                                  view.nominal_metrics.get("reference_db", 0.0), width=1100, height=480,
+                                  x_range=(10 ** x0, 10 ** x1), y_range=(y0, y1),
+                                  boards=view.curve_boards or view.samples,
+                                  title=f"{view.design.name or 'design'}: gain spread")
+            write_text_atomic(Path(path), '<?xml version="1.0" encoding="UTF-8"?>\n' + svg, backup=False)
+        else:
+            exporter = pg.exporters.ImageExporter(self.plots.canvas.scene())
             exporter.parameters()["width"] = max(1200, int(self.plots.canvas.width()))
-        exporter.export(str(path))
+            exporter.export(str(path))
         self.show_status(f"plots written to {path}")
         return Path(path)
 

@@ -356,7 +356,8 @@ class SpreadPlots(QWidget):
         if v is None:
             return ""
         f = v.freqs_hz
-        i = int(np.clip(np.searchsorted(f, f_hz), 0, f.size - 1))
+        # the grid point nearest the cursor on the log axis (not the next one above it)
+        i = int(np.argmin(np.abs(np.log10(f) - math.log10(f_hz)))) if f_hz > 0 else 0
         if which == "mag":
             b, nom, unit = v.gain_bands, v.nominal_gain_db, "dB"
         else:
