@@ -76,8 +76,12 @@ def main() -> int:
     n = 10_000
     freqs = frequency_grid(design)
     print(f"demo design: {len(design.parts)} parts, {len(design.stages)} stages, {freqs.size} frequencies")
-    t_vec = best_of(lambda: evaluate(design, samples=n, curves=True, phase=True))
-    print(f"engine: magnitude + phase + cutoff, {n} samples x {freqs.size} freqs: {t_vec * 1e3:.1f} ms")
+    from dataclasses import replace as dc_replace
+
+    bare = dc_replace(design, mask=())  # the loop below does no judging either
+    t_vec = best_of(lambda: evaluate(bare, samples=n, curves=True, phase=True))
+    print(f"engine: sampling + magnitude (dB) + phase + cutoff + stage f0/Q, {n} samples x "
+          f"{freqs.size} freqs: {t_vec * 1e3:.1f} ms")
     t_loop = loop_reference(design, n, exact_cutoff=True)
     print(f"per-sample scipy.signal.freqs loop, same work (cutoff by root finding): {t_loop * 1e3:.0f} ms"
           f"  -> engine {t_loop / t_vec:.0f} x faster")

@@ -19,6 +19,9 @@ from .topologies import TOPOLOGIES, Topology, build
 from .values import format_value, parse_value
 
 MAX_SAMPLES = 10_000_000
+VALUE_RANGE = (1e-15, 1e15)  # SI units: beyond this no real part exists and the numbers overflow
+GAIN_LIMIT_DB = 1000.0       # mask limits beyond +-1000 dB are certainly typing errors
+MAX_TEMPERATURE_SHIFT = 0.5  # a temperature coefficient may move a value by at most 50 % over the range
 MAX_POINTS = 5000
 INTERVALS = ("wilson", "exact")
 
@@ -165,7 +168,22 @@ class Design:
 def _exact_text(x: float) -> str:
     """A value text that parses back to exactly ``x``."""
     text = format_value(x)
-    return text if parse_value(text) == x else repr(float(x))
+    try:
+        same = parse_value(text) == x
+    except InputError:  # rounding to 4 figures overflowed (x near the largest float)
+        same = False
+    return text if same else repr(float(x))
+
+
+def _finite_number(v: Any) -> bool:
+    """A JSON number (not a bool) that converts to a finite float; integers too large
+    for a float (JSON allows any number of digits) are not."""
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        return False
+    try:
+        return math.isfinite(float(v))
+    except OverflowError:
+        return False
 
 
 def _kind_of_role(topology: Topology, role: str) -> str | None:
@@ -182,7 +200,7 @@ def _number(data: dict, key: str, path: str, problems: list[InputError], default
     if isinstance(v, bool) or not isinstance(v, (int, float)):
         problems.append(InputError(f"must be a number, not {v!r}", where))
         return default
-    if not math.isfinite(v):
+    if not _finite_number(v):
         problems.append(InputError(f"must be finite, not {v!r}", where))
         return default
     if integer and v != int(v):
@@ -231,7 +249,7 @@ def analysis_from_dict(data: Any, problems: list[InputError], path: str = "analy
     if "temperature_c" in data:
         t = data["temperature_c"]
         if (not isinstance(t, list) or len(t) != 2
-                or any(isinstance(x, bool) or not isinstance(x, (int, float)) or not math.isfinite(x) for x in t)):
+                or not all(_finite_number(x) for x in t)):
             problems.append(InputError("must be [low, high] in deg C (equal ends for a fixed temperature)",
                                        f"{path}.temperature_c"))
         elif not -273.15 < t[0] <= t[1] < 1000:
@@ -289,7 +307,7 @@ def design_from_dict(data: Any) -> Design:
         problems += [InputError(f"unknown field {k!r}", f"{path}.{k}") for k in s
                      if k not in ("topology", "options", "parts", "name")]
         topo_name = s.get("topology")
-        if topo_name not in TOPOLOGIES:
+        if not isinstance(topo_name, str) or topo_name not in TOPOLOGIES:
             problems.append(InputError(f"unknown topology {topo_name!r}; known: {', '.join(TOPOLOGIES)}",
                                        f"{path}.topology"))
             continue
@@ -364,12 +382,16 @@ def design_from_dict(data: Any) -> Design:
                 problems.append(exc)
                 continue
         elif isinstance(raw, (int, float)) and not isinstance(raw, bool):
-            value = float(raw)
+            value = float(raw) if _finite_number(raw) else math.nan
         else:
             problems.append(InputError(f"must be a value such as 4.7k or 4k7, not {raw!r}", f"{path}.value"))
             continue
         if not math.isfinite(value) or value <= 0:
             problems.append(InputError(f"must be a finite value above 0, not {raw!r}", f"{path}.value"))
+            continue
+        if not VALUE_RANGE[0] <= value <= VALUE_RANGE[1]:
+            problems.append(InputError(f"{raw!r} is outside the {VALUE_RANGE[0]:g} to {VALUE_RANGE[1]:g} "
+                                       "(SI units) a part may have", f"{path}.value"))
             continue
         grade = p.get("grade")
         if not isinstance(grade, str) or grade not in catalog:
@@ -383,7 +405,7 @@ def design_from_dict(data: Any) -> Design:
         tol = None
         if "tolerance_pct" in p and p["tolerance_pct"] is not None:
             t = p["tolerance_pct"]
-            if isinstance(t, bool) or not isinstance(t, (int, float)) or not math.isfinite(t) or not 0 <= t < 100:
+            if not _finite_number(t) or not 0 <= t < 100:
                 problems.append(InputError(f"must be a tolerance from 0 to below 100 %, not {t!r}",
                                            f"{path}.tolerance_pct"))
                 continue
@@ -394,6 +416,15 @@ def design_from_dict(data: Any) -> Design:
             problems.append(InputError(f"part {ref} is not in the parts list", where))
 
     analysis = analysis_from_dict(data.get("analysis"), problems)
+    dt = max(abs(analysis.temp_low_c - 25.0), abs(analysis.temp_high_c - 25.0))
+    for i, part in enumerate(parts):
+        g = catalog[part.grade]
+        shift = (abs(g.tempco_ppm) + g.tempco_spread_ppm) * 1e-6 * dt
+        if shift > MAX_TEMPERATURE_SHIFT:
+            problems.append(InputError(
+                f"grade {g.name}'s temperature coefficient would move {part.ref} by up to {100 * shift:.0f} % "
+                f"over {analysis.temp_low_c:g} to {analysis.temp_high_c:g} deg C; no part behaves so",
+                "analysis.temperature_c"))
 
     mask: list[Span] = []
     raw_mask = data.get("mask", [])
@@ -413,6 +444,11 @@ def design_from_dict(data: Any) -> Design:
             problems.append(InputError(
                 f"span {span.f1:g}-{span.f2:g} Hz lies outside the analysed range "
                 f"{analysis.f_start:g}-{analysis.f_stop:g} Hz", f"mask[{i}]"))
+            continue
+        lim = max(abs(span.limit1), abs(span.end_limit))
+        if span.quantity == "gain" and lim > GAIN_LIMIT_DB:
+            problems.append(InputError(f"a gain limit of {lim:g} dB is beyond +-{GAIN_LIMIT_DB:g} dB",
+                                       f"mask[{i}].limit1"))
             continue
         mask.append(span)
     if problems:

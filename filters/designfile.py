@@ -62,6 +62,25 @@ def _depth(obj: Any, limit: int) -> int:
     return worst
 
 
+def _has_lone_surrogate(obj: Any) -> bool:
+    """Whether any text (key or value) holds an unpaired surrogate, which JSON escapes
+    (\\ud800) allow but UTF-8 cannot store, so such a design could never be saved."""
+    stack = [obj]
+    while stack:
+        item = stack.pop()
+        if isinstance(item, str):
+            try:
+                item.encode("utf-8")
+            except UnicodeEncodeError:
+                return True
+        elif isinstance(item, dict):
+            stack.extend(item.keys())
+            stack.extend(item.values())
+        elif isinstance(item, list):
+            stack.extend(item)
+    return False
+
+
 def parse_text(text: str, source: str = "design") -> dict[str, Any]:
     """Parse design-file text into a current-version dict (migrated), not yet validated."""
     if len(text) > MAX_BYTES or len(text.encode("utf-8", errors="replace")) > MAX_BYTES:
@@ -72,8 +91,13 @@ def parse_text(text: str, source: str = "design") -> dict[str, Any]:
         raise InputError("file is nested too deeply to be a design", source) from None
     except json.JSONDecodeError as exc:
         raise InputError(f"not valid JSON (line {exc.lineno}, column {exc.colno}: {exc.msg})", source) from None
+    except ValueError:  # an integer of more digits than Python converts (over 4300)
+        raise InputError("holds a number with too many digits to be a design value", source) from None
     if _depth(data, MAX_DEPTH) > MAX_DEPTH:
         raise InputError("file is nested too deeply to be a design", source)
+    if _has_lone_surrogate(data):
+        raise InputError("holds text that is not valid Unicode (an unpaired surrogate such as \\ud800)",
+                         source)
     if not isinstance(data, dict):
         raise InputError("a design file holds one JSON object", source)
     if data.get("format") != FORMAT_TAG:
@@ -147,6 +171,9 @@ def write_text_atomic(target: Path, text: str, *, backup: bool = True) -> None:
     except OSError as exc:
         raise InputError(f"could not save ({exc.strerror or exc}); the previous file is unchanged",
                          str(target)) from None
+    except UnicodeEncodeError:
+        raise InputError("could not save: the text holds characters UTF-8 cannot store (unpaired "
+                         "surrogates); the previous file is unchanged", str(target)) from None
     finally:
         if tmp_name and os.path.exists(tmp_name):
             os.unlink(tmp_name)

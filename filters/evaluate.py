@@ -125,11 +125,12 @@ def prepare(design: Design, extra_freqs: Sequence[float] = ()) -> Prepared:
     circuit = compile_design(design)
     freqs = frequency_grid(design, extra_freqs)
     nominal_values = np.array([p.value for p in design.parts])
-    coeffs = stage_coefficients(circuit, nominal_values[None, :])
-    resp = frequency_response(circuit, coeffs, freqs, phase=True, delay=True)
-    m = _metrics_for(circuit, coeffs, resp, design.analysis.cutoff_db)
-    plans = plan(design.mask, freqs, float(m["reference_db"][0]))
-    marg = margins(plans, resp)[0]
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore", under="ignore"):
+        coeffs = stage_coefficients(circuit, nominal_values[None, :])
+        resp = frequency_response(circuit, coeffs, freqs, phase=True, delay=True)
+        m = _metrics_for(circuit, coeffs, resp, design.analysis.cutoff_db)
+        plans = plan(design.mask, freqs, float(m["reference_db"][0]))
+        marg = margins(plans, resp)[0]
     _check_finite(m, marg)
     nominal = Nominal(nominal_values, resp, {k: float(v[0]) for k, v in m.items()}, marg)
     return Prepared(design, circuit, freqs, plans, nominal, tuple(c.w_ref for c in coeffs))
@@ -152,11 +153,14 @@ def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
                     delay: bool = False) -> Evaluated:
     """Responses, metrics and margins for part values ``values`` (S, P), no sampling."""
     need_phase, need_delay = needs(prep.design.mask)
-    coeffs = stage_coefficients(prep.circuit, values, prep.w_refs)
-    resp = frequency_response(prep.circuit, coeffs, prep.freqs_hz, phase=phase or need_phase,
-                              delay=delay or need_delay)
-    m = _metrics_for(prep.circuit, coeffs, resp, prep.design.analysis.cutoff_db)
-    return Evaluated(resp, m, margins(prep.plans, resp))
+    # Extreme but valid designs may overflow or underflow in places (a gain of 1e-320);
+    # such numbers become inf or 0 and are reported as missing, never as warnings mid-run.
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore", under="ignore"):
+        coeffs = stage_coefficients(prep.circuit, values, prep.w_refs)
+        resp = frequency_response(prep.circuit, coeffs, prep.freqs_hz, phase=phase or need_phase,
+                                  delay=delay or need_delay)
+        m = _metrics_for(prep.circuit, coeffs, resp, prep.design.analysis.cutoff_db)
+        return Evaluated(resp, m, margins(prep.plans, resp))
 
 
 def evaluate(design: Design, *, samples: int | None = None, seed: int | None = None,

@@ -19,6 +19,7 @@ two standard deviations, common practice) truncated at the limits.
 from __future__ import annotations
 
 import json
+import math
 from dataclasses import asdict, dataclass, fields, replace
 from importlib import resources
 from pathlib import Path
@@ -30,6 +31,14 @@ Distribution = Literal["normal", "uniform", "binned"]
 PartKind = Literal["R", "C", "L", "opamp", "any"]
 DISTRIBUTIONS: tuple[str, ...] = ("normal", "uniform", "binned")
 KINDS: tuple[str, ...] = ("R", "C", "L", "opamp", "any")
+
+
+def _finite(v: int | float) -> bool:
+    """Whether a number converts to a finite float (JSON integers may be too large to)."""
+    try:
+        return math.isfinite(float(v))
+    except OverflowError:
+        return False
 
 
 @dataclass(frozen=True)
@@ -89,7 +98,7 @@ class Grade:
         for k in numbers:
             if k in args:
                 v = args[k]
-                if isinstance(v, bool) or not isinstance(v, (int, float)) or v != v or abs(v) == float("inf"):
+                if isinstance(v, bool) or not isinstance(v, (int, float)) or not _finite(v):
                     problems.append(InputError(f"must be a finite number, not {v!r}", f"{path}.{k}"))
                     del args[k]
                 else:
@@ -109,6 +118,10 @@ class Grade:
             ("tempco_spread_ppm", get["tempco_spread_ppm"] >= 0, "must not be negative"),
             ("drift_pct", 0 <= get["drift_pct"] < 100, "must be at least 0 and below 100 %"),
             ("cost", get["cost"] >= 0, "must not be negative"),
+            ("coverage", tol is None or args.get("truncate", True) or args.get("distribution", "normal") != "normal"
+             or tol / get["coverage"] * 8 < 100,
+             "with truncate false, tolerance / coverage must stay below 12.5 % (8 standard deviations "
+             "must not reach a negative value); truncate the grade or raise the coverage factor"),
         ]
         problems += [InputError(msg, f"{path}.{k}") for k, ok, msg in checks if k in args and not ok]
         if (args.get("distribution") == "binned" and "bin_inner_pct" in args and get["bin_inner_pct"] <= 0) or (

@@ -87,7 +87,7 @@ def relative_deviation(grade: Grade, z: np.ndarray) -> np.ndarray:
         lo, hi = special.ndtr(-c), special.ndtr(c)
         u = lo + special.ndtr(z) * (hi - lo)
         return sigma * np.clip(special.ndtri(np.clip(u, _U_EPS, 1 - _U_EPS)), -c, c)
-    return sigma * z
+    return sigma * np.clip(z, -8.0, 8.0)  # 8 standard deviations: ~1e-15 of boards lie beyond
 
 
 @dataclass(frozen=True)
@@ -132,7 +132,7 @@ def part_values(nominal: Sequence[float], grades: Sequence[Grade], scores: np.nd
             factor = factor * (1 + tc * d_temp[:, 0])
         if g.drift_pct:
             factor = factor * (1 + g.drift_pct / 100.0 * u_drift[:, i])
-        out[:, i] = nom[i] * factor
+        out[:, i] = nom[i] * np.maximum(factor, 1e-6)  # guard: a value never reaches zero or below
     return out
 
 
