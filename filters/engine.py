@@ -216,51 +216,51 @@ BLOCK_ROWS = 128  # samples per block: a block's temporaries stay in the CPU cac
 
 
 def frequency_response(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz: np.ndarray,
-                       *, phase: bool = True, delay: bool = False) -> Response:
+                       *, phase: bool = True, delay: bool = False, out_gain2: np.ndarray | None = None,
+                       out_phase: np.ndarray | None = None, out_delay: np.ndarray | None = None) -> Response:
     """|H|^2, phase and group delay of every sample on the frequency grid ``freqs_hz``.
 
     Works through the samples in blocks of :data:`BLOCK_ROWS` rows (not one sample at a
-    time): the arithmetic is memory-bound, and a block's temporaries fit in cache.
+    time), writing each block's results straight into the output arrays; a block's
+    temporaries stay in the CPU cache. ``out_*`` are optional arrays (S, F) to write into.
     """
     s = coeffs[0].num.shape[0]
-    if s <= BLOCK_ROWS:
-        return _response_block(circuit, coeffs, freqs_hz, phase=phase, delay=delay)
     f = np.asarray(freqs_hz, dtype=float)
-    gain2 = np.empty((s, f.size))
-    ph = np.empty((s, f.size)) if phase else None
-    tau = np.empty((s, f.size)) if delay else None
+    gain2 = np.empty((s, f.size)) if out_gain2 is None else out_gain2
+    ph = (np.empty((s, f.size)) if out_phase is None else out_phase) if phase else None
+    tau = (np.empty((s, f.size)) if out_delay is None else out_delay) if delay else None
     for lo in range(0, s, BLOCK_ROWS):
         hi = min(s, lo + BLOCK_ROWS)
-        sub = [StageCoefficients(c.num[lo:hi], c.den[lo:hi], c.w_ref) for c in coeffs]
-        r = _response_block(circuit, sub, f, phase=phase, delay=delay)
-        gain2[lo:hi] = r.gain2
-        if ph is not None:
-            ph[lo:hi] = r.phase_deg
-        if tau is not None:
-            tau[lo:hi] = r.delay_s
+        sub = coeffs if (lo == 0 and hi == s) else [
+            StageCoefficients(c.num[lo:hi], c.den[lo:hi], c.w_ref) for c in coeffs]
+        _response_block(circuit, sub, f, gain2[lo:hi], None if ph is None else ph[lo:hi],
+                        None if tau is None else tau[lo:hi])
     return Response(f, gain2, ph, tau)
 
 
 def _response_block(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz: np.ndarray,
-                    *, phase: bool = True, delay: bool = False) -> Response:
-    """:func:`frequency_response` for one block of samples.
+                    gain2: np.ndarray, ph: np.ndarray | None, tau: np.ndarray | None) -> None:
+    """:func:`frequency_response` for one block of samples, into ``gain2``, ``ph`` (deg)
+    and ``tau`` (s), each shaped (block samples, F).
 
     Stages of degree <= 2 with a monomial numerator c*s^k (every Sallen-Key and
     multiple-feedback section, first-order sections) take a lean path: |N|^2 = c^2 w^2k,
     the phase is k*90 deg (+180 if c < 0) minus the denominator's angle, which lies in
     (0, 180) deg, so nothing needs unwrapping. Other stages are evaluated in general.
     """
-    w = TWO_PI * np.asarray(freqs_hz, dtype=float)
+    w = TWO_PI * freqs_hz
     s = coeffs[0].num.shape[0]
     shape = (s, w.size)
-    den_prod = None            # product of |D|^2 over lean stages, (S, F)
+    den_prod = None             # product of |D|^2 over lean stages, (S, F)
     num_gain = np.ones((s, 1))  # product of c^2 over lean stages, (S, 1)
-    general = None             # product of |N/D|^2 over general stages
-    ph = np.zeros(shape) if phase else None
-    offset = np.zeros((s, 1))  # constant phase of lean numerators, rad
-    tau = np.zeros(shape) if delay else None
+    general = None              # product of |N/D|^2 over general stages
+    offset = np.zeros((s, 1))   # constant phase of lean numerators, rad
+    phase_started = False
+    if tau is not None:
+        tau[...] = 0.0
     a_buf = np.empty(shape)
     b_buf = np.empty(shape)
+    c_buf = np.empty(shape) if ph is not None else None
     for st, sc in zip(circuit.stages, coeffs):
         x = w / sc.w_ref
         xx = x * x
@@ -276,21 +276,26 @@ def _response_block(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz:
             else:
                 a_buf[...] = d[:, 0:1]
             np.multiply(d[:, 1:2], x, out=b_buf)
-            if delay:
+            if tau is not None:
                 # tau = Re(D'/D)/w_ref - Re(N'/N)/w_ref; Re(N'/N) = 0 for a monomial
                 dr1 = d[:, 1:2]
                 di1 = 2 * d[:, 2:3] * x if n == 2 else 0.0
                 t = (dr1 * a_buf + di1 * b_buf) / (a_buf * a_buf + b_buf * b_buf)
                 tau += t / sc.w_ref
-            if phase:
-                ang = np.arctan2(b_buf, a_buf)
-                ph -= ang
+            if ph is not None:
+                if not phase_started:  # the first stage writes the phase directly
+                    np.arctan2(b_buf, a_buf, out=ph)
+                    np.negative(ph, out=ph)
+                    phase_started = True
+                else:
+                    np.arctan2(b_buf, a_buf, out=c_buf)
+                    ph -= c_buf
                 offset += k * (math.pi / 2) + math.pi * (c < 0)
             np.multiply(a_buf, a_buf, out=a_buf)
             np.multiply(b_buf, b_buf, out=b_buf)
             a_buf += b_buf
-            if den_prod is None:
-                den_prod = a_buf.copy()
+            if den_prod is None:  # keep this buffer as the product; take a fresh one
+                den_prod, a_buf = a_buf, np.empty(shape)
             else:
                 den_prod *= a_buf
             num_gain = num_gain * (c * c)
@@ -302,27 +307,31 @@ def _response_block(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz:
         dr, di = poly_jw(sc.den, x, xx)
         d2 = dr * dr + di * di
         n2 = nr * nr + ni * ni
-        if delay:
+        if tau is not None:
             ddr, ddi = poly_jw(_derivative(sc.den), x, xx)
             t = (ddr * dr + ddi * di) / d2
             if np.count_nonzero(np.any(sc.num != 0, axis=0)) > 1:
                 ndr, ndi = poly_jw(_derivative(sc.num), x, xx)
                 t = t - (ndr * nr + ndi * ni) / np.maximum(n2, 1e-300)
             tau += t / sc.w_ref
-        if phase:
-            ph += _unwrap(np.arctan2(ni * dr - nr * di, nr * dr + ni * di))
+        if ph is not None:
+            p = _unwrap(np.arctan2(ni * dr - nr * di, nr * dr + ni * di))
+            if phase_started:
+                ph += p
+            else:
+                ph[...] = p
+                phase_started = True
         g = n2 / d2
         general = g if general is None else general * g
     if den_prod is not None:
-        gain2 = np.divide(num_gain, den_prod, out=den_prod)
+        np.divide(num_gain, den_prod, out=gain2)
         if general is not None:
             gain2 *= general
     else:
-        gain2 = np.broadcast_to(general, shape).copy()
+        gain2[...] = np.broadcast_to(general, shape)
     if ph is not None:
         ph += offset
         ph *= 180 / math.pi
-    return Response(np.asarray(freqs_hz, dtype=float), gain2, ph, tau)
 
 
 def _mul_inplace(a: np.ndarray, b: np.ndarray) -> np.ndarray:

@@ -27,7 +27,7 @@ from .mask import edge_frequencies
 from .metrics import cutoff_metrics, stage_metrics
 from .sampling import draw_scores, part_values
 
-CHUNK = 1024
+CHUNK = 2048
 WORKERS = max(1, min(4, os.cpu_count() or 1))
 _POOL = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="tolspread")
 _SCORES: dict[tuple, np.ndarray] = {}
@@ -150,15 +150,19 @@ def _metrics_for(circuit: Circuit, coeffs, resp: Response, cutoff_db: float) -> 
 
 
 def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
-                    delay: bool = False) -> Evaluated:
-    """Responses, metrics and margins for part values ``values`` (S, P), no sampling."""
+                    delay: bool = False, out: tuple | None = None) -> Evaluated:
+    """Responses, metrics and margins for part values ``values`` (S, P), no sampling.
+
+    ``out`` = (gain2, phase, delay) arrays (S, F) (or None each) to write the curves into.
+    """
     need_phase, need_delay = needs(prep.design.mask)
     # Extreme but valid designs may overflow or underflow in places (a gain of 1e-320);
     # such numbers become inf or 0 and are reported as missing, never as warnings mid-run.
     with np.errstate(divide="ignore", over="ignore", invalid="ignore", under="ignore"):
         coeffs = stage_coefficients(prep.circuit, values, prep.w_refs)
+        o = out or (None, None, None)
         resp = frequency_response(prep.circuit, coeffs, prep.freqs_hz, phase=phase or need_phase,
-                                  delay=delay or need_delay)
+                                  delay=delay or need_delay, out_gain2=o[0], out_phase=o[1], out_delay=o[2])
         m = _metrics_for(prep.circuit, coeffs, resp, prep.design.analysis.cutoff_db)
         return Evaluated(resp, m, margins(prep.plans, resp))
 
@@ -202,15 +206,18 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
             seed, n_parts, start + lo, start + hi, method)  # type: ignore[arg-type]
         vals = part_values(nominal_values, grade_list, sc, a.conditions)
         values[lo:hi] = vals
-        ev = evaluate_values(prep, vals, phase=curves and phase, delay=curves and delay)
+        # curves go straight into the result arrays: |H|^2 first (metrics and margins are
+        # taken from it), then turned into dB in place
+        out = (None if gain_db is None else gain_db[lo:hi],
+               None if phase_deg is None else phase_deg[lo:hi],
+               None if delay_s is None else delay_s[lo:hi])
+        ev = evaluate_values(prep, vals, phase=curves and phase, delay=curves and delay, out=out)
         marg[lo:hi] = ev.margins
         if gain_db is not None:
-            np.log10(np.maximum(ev.response.gain2, 1e-300), out=gain_db[lo:hi])
-            gain_db[lo:hi] *= 10.0
-        if phase_deg is not None and ev.response.phase_deg is not None:
-            phase_deg[lo:hi] = ev.response.phase_deg
-        if delay_s is not None and ev.response.delay_s is not None:
-            delay_s[lo:hi] = ev.response.delay_s
+            g = gain_db[lo:hi]
+            np.maximum(g, 1e-300, out=g)
+            np.log10(g, out=g)
+            g *= 10.0
         return lo, hi, ev.metrics
 
     bounds = [(lo, min(n, lo + chunk)) for lo in range(0, n, chunk)]
