@@ -59,7 +59,7 @@ class ResultsPanel(QWidget):
         self.hist.setMenuEnabled(False)
         self.hist.setMouseEnabled(x=False, y=False)
         self.hist.setLabel("left", "boards")
-        self.hist.showGrid(y=True, alpha=st.GRID_ALPHA)
+
         lay.addWidget(self.hist, 2)
         self.budget_plot = pg.PlotWidget()
         self.budget_plot.setObjectName("budget_chart")
@@ -99,8 +99,12 @@ class ResultsPanel(QWidget):
             self.yield_label.setText("<b>no spec mask yet</b>: draw floor or ceiling spans on the gain plot")
         bands_note = (f"; bands drawn from the first {view.curve_boards:,} boards"
                       if view.curve_boards and view.curve_boards < view.samples else "")
-        self.detail.setText(f"{view.samples:,} boards, seed {view.seed}, {view.method} sampling; "
-                            f"computed in {1000 * view.elapsed_s:.0f} ms{bands_note}")
+        if view.preview:
+            self.detail.setText(f"preview while dragging: the first {view.samples:,} of "
+                                f"{view.design.analysis.samples:,} boards (release to evaluate all)")
+        else:
+            self.detail.setText(f"{view.samples:,} boards, seed {view.seed}, {view.method} sampling; "
+                                f"computed in {1000 * view.elapsed_s:.0f} ms{bands_note}")
         self.table.setRowCount(len(view.spans))
         for i, s in enumerate(view.spans):
             unit = {"gain": "dB", "phase": "deg", "delay": "s"}[view.design.mask[i].quantity]
@@ -171,8 +175,10 @@ class ResultsPanel(QWidget):
             if nom is not None and np.isfinite(nom):
                 self.hist.addItem(pg.InfiniteLine(nom, angle=90, pen=pg.mkPen(st.INK, width=2, style=st.DASH)))
         self.hist.setLabel("bottom", metric_label(self.metric_name, names))
-        self.budget_plot.clear()
         b = v.budget.get(self.metric_name)
+        if b is None and v.preview:
+            return  # a drag preview has no budget: keep the last one shown
+        self.budget_plot.clear()
         if b is None:
             self.budget_plot.setTitle("no budget for this metric")
             return

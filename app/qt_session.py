@@ -24,6 +24,9 @@ from filters.grades import Grade
 from filters.liveview import SecondQuantity, ViewData, ViewRequest, compute_view
 
 
+PREVIEW_BOARDS = 1000  # boards evaluated while a slider is being dragged
+
+
 class _Worker(QObject):
     """Runs the newest pending request; older pending ones are skipped."""
 
@@ -169,9 +172,13 @@ class Session(QObject):
         self.request()
 
     def preview(self, grades: tuple[Grade, ...] | None) -> None:
-        """Show what-if grades (a slider being dragged) without editing the design."""
+        """Show what-if grades (a slider being dragged) without editing the design.
+
+        While dragging, the first :data:`PREVIEW_BOARDS` boards (the same boards the full
+        run starts with) are evaluated, so the curves follow the hand; the release makes the
+        edit and evaluates every board."""
         self._what_if = grades
-        self.request()
+        self.request(boards=PREVIEW_BOARDS)
 
     def set_second(self, second: SecondQuantity) -> None:
         if second != self._second:
@@ -204,10 +211,13 @@ class Session(QObject):
         return dumps(self._design)
 
     # --- evaluation ----------------------------------------------------------------------
-    def request(self) -> int:
-        """Ask for an evaluation of the current state; returns its generation number."""
+    def request(self, boards: int | None = None) -> int:
+        """Ask for an evaluation of the current state; returns its generation number.
+
+        ``boards`` limits it to the first that many boards (a preview)."""
         self._generation += 1
-        req = ViewRequest(self._generation, self._design, self._what_if, self._second)
+        req = ViewRequest(self._generation, self._design, self._what_if, self._second,
+                          budget=boards is None, boards=boards)
         self._worker.submit(req)
         self.busy_changed.emit(True)
         self._wake.emit()

@@ -13,6 +13,7 @@ GREEN = "#009E73"
 PURPLE = "#CC79A7"
 INK = "#1a1a1a"
 GRID_ALPHA = 0.25
+GRID_COLOUR = "#cfcfcf"
 
 
 def rgba(hex_colour: str, alpha: int) -> QColor:

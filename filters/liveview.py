@@ -34,6 +34,7 @@ class ViewRequest:
     second: SecondQuantity = "phase"
     traces: int = 20
     budget: bool = True
+    boards: int | None = None  # evaluate only the first this many boards (a quick preview)
 
 
 @dataclass(frozen=True)
@@ -64,6 +65,7 @@ class ViewData:
     elapsed_s: float
     ensemble: Ensemble = field(repr=False, compare=False)
     curve_boards: int = 0  # boards behind the bands and traces (all, or the first CURVE_LIMIT)
+    preview: bool = False  # only the first ViewRequest.boards boards (while a slider is dragged)
 
 
 def compute_view(req: ViewRequest, prepared: Prepared | None = None,
@@ -74,12 +76,13 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
     d = req.design
     prep = prepared if prepared is not None and prepared.design is d else prepare(d)
     delay = req.second == "delay"
-    if d.analysis.samples <= CURVE_LIMIT:
-        ens = evaluate(d, grades=req.grades, curves=True, phase=not delay, delay=delay, prepared=prep,
-                       progress=progress, should_stop=should_stop)
+    n = d.analysis.samples if req.boards is None else min(req.boards, d.analysis.samples)
+    if n <= CURVE_LIMIT:
+        ens = evaluate(d, samples=n, grades=req.grades, curves=True, phase=not delay, delay=delay,
+                       prepared=prep, progress=progress, should_stop=should_stop)
         drawn = ens
     else:  # every board for the numbers; the first CURVE_LIMIT boards (the same ones) for the curves
-        ens = evaluate(d, grades=req.grades, curves=False, prepared=prep, progress=progress,
+        ens = evaluate(d, samples=n, grades=req.grades, curves=False, prepared=prep, progress=progress,
                        should_stop=should_stop)
         drawn = evaluate(d, samples=CURVE_LIMIT, grades=req.grades, curves=True, phase=not delay,
                          delay=delay, prepared=prep, should_stop=should_stop)
@@ -102,7 +105,7 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
         np.asarray(nominal_second), bands(drawn.gain_db), bands(second),
         drawn.gain_db[pass_rows], second[pass_rows], drawn.gain_db[fail_rows], second[fail_rows],
         est, spans, metric_columns(ens), nominal_metrics, budget, ens.samples, ens.seed, ens.method,
-        time.perf_counter() - t0, ens, drawn.samples)
+        time.perf_counter() - t0, ens, drawn.samples, n < d.analysis.samples)
 
 
 def what_if_grades(design: Design, tolerances: Sequence[float | None]) -> tuple[Grade, ...]:

@@ -41,10 +41,11 @@ MOVE_GAP_MS = 12  # pyqtgraph drops move events closer than 10 ms apart (its mou
 
 
 # --- helpers -------------------------------------------------------------------------------
-def library_yield(design, grades=None):
-    """The yield the library computes for ``design`` (optionally with what-if grades)."""
+def library_yield(design, grades=None, samples=None):
+    """The yield the library computes for ``design`` (optionally with what-if grades, and
+    on the first ``samples`` boards only)."""
     a = design.analysis
-    ens = evaluate(design, grades=grades)
+    ens = evaluate(design, grades=grades, samples=samples)
     return yield_estimate(ens.passed, None, a.confidence, a.interval)
 
 
@@ -198,13 +199,17 @@ def test_slider_drag_previews_then_release_makes_one_undoable_edit(window, qtbot
     pct = slider_to_pct(pos)
     assert pct != pytest.approx(before.part_grades()[i].tolerance_pct)
 
-    # while the handle is held: a what-if preview, the design is not edited
+    # while the handle is held: a what-if preview on the first boards (the same boards the
+    # full run starts with); the design is not edited
+    from app.qt_session import PREVIEW_BOARDS
+
     row.slider.setSliderDown(True)
     with qtbot.waitSignal(s.view_ready, timeout=WAIT_MS) as preview:
         row.slider.setValue(pos)
     assert s.design is before and s.undo_stack.count() == 0
+    assert preview.args[0].preview and preview.args[0].samples == PREVIEW_BOARDS
     tols = [pct if p.ref == "C2" else None for p in before.parts]
-    expected_preview = library_yield(before, what_if_grades(before, tols))
+    expected_preview = library_yield(before, what_if_grades(before, tols), samples=PREVIEW_BOARDS)
     assert preview.args[0].yield_.estimate == pytest.approx(expected_preview.estimate, abs=1e-12)
     assert yield_text(expected_preview.estimate) in window.results.yield_label.text()
     assert row.readout.text().startswith(f"±{pct:.3g} %")
