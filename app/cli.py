@@ -169,12 +169,16 @@ def _where(path: str | None) -> str:
 
 
 def open_window(design_path: str | None, screenshot: str | None) -> int:
-    try:
-        from .qt_main import run_window
-    except ImportError as exc:
-        sys.stderr.write("tolspread: the window needs the gui extra: pip install 'tolspread[gui]' "
-                         f"({exc.name or exc})\n")
+    import importlib.util
+
+    missing = [m for m in ("PySide6", "pyqtgraph") if importlib.util.find_spec(m) is None]
+    if missing:
+        sys.stderr.write("tolspread: the window needs the gui extra (missing "
+                         f"{', '.join(missing)}): pip install 'tolspread[gui]'; "
+                         "'tolspread analyze' works without it\n")
         return EXIT_BAD_INPUT
+    from .qt_main import run_window
+
     return run_window(design_path, screenshot)
 
 
