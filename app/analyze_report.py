@@ -26,7 +26,9 @@ def _fmt(x: float, unit: str) -> str:
 
 
 def _unit(name: str) -> str:
-    return "Hz" if name.endswith("_hz") else "dB" if name.endswith("_db") or name.startswith("margin.") else ""
+    if name.endswith("_hz"):
+        return "Hz"
+    return "dB" if name.endswith("_db") or name.startswith(("margin.", "attenuation_db@")) else ""
 
 
 def summary_row(s: MetricSummary, label: str) -> str:
@@ -77,6 +79,7 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
     out.write(head)
     order = [n for n in ("cutoff_hz", "centre_hz", "bandwidth_hz", "reference_db", "peaking_db")
              if n in result.summaries]
+    order += [n for n in result.summaries if n.startswith("attenuation_db@")]
     order += [n for n in result.summaries if n.startswith("s") and n not in order and not is_pair_metric(n)]
     for n in order:
         out.write(summary_row(result.summaries[n], metric_label(n, names)) + "\n")

@@ -79,6 +79,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="add boards until the yield interval's half-width is at most POINTS percentage points")
     a.add_argument("--max-samples", type=_positive_int, default=1_000_000,
                    help="upper limit for --half-width (default 1000000)")
+    a.add_argument("--attenuation-at", metavar="HZ", action="append", default=[],
+                   help="also report the attenuation at this frequency (repeatable; SI text such as 6k)")
     a.add_argument("--qmc", action="store_true", help="quasi-Monte Carlo: scrambled Sobol points instead of random")
     a.add_argument("--interval", choices=("wilson", "exact"), help="yield interval: Wilson score or exact (Clopper-Pearson)")
     a.add_argument("--report", metavar="PATH", help="also write the design-review report (HTML)")
@@ -95,8 +97,30 @@ def cmd_analyze(args: argparse.Namespace) -> int:
     from .analyze_report import analyze, print_summary, to_json
 
     design = _load(args.design)
+    if args.attenuation_at:
+        from dataclasses import replace
+
+        from filters.values import parse_value
+
+        freqs = []
+        for text in args.attenuation_at:
+            f = parse_value(text, "--attenuation-at")
+            if not f > 0:
+                raise InputError(f"must be a frequency above 0 Hz, not {text!r}", "--attenuation-at")
+            freqs.append(f)
+        design = replace(design, analysis=replace(design.analysis,
+                                                  attenuation_hz=design.analysis.attenuation_hz + tuple(freqs)))
+    progress = None
+    if sys.stderr.isatty():
+        def progress(done: int, total: int) -> None:
+            if total >= 50_000:
+                sys.stderr.write(f"\r  {done:,} of {total:,} boards")
+                sys.stderr.flush()
     result = analyze(design, samples=args.samples, seed=args.seed, method="sobol" if args.qmc else None,
-                     interval=args.interval, half_width=args.half_width, max_samples=args.max_samples)
+                     interval=args.interval, half_width=args.half_width, max_samples=args.max_samples,
+                     progress=progress)
+    if progress is not None and result.samples >= 50_000:
+        sys.stderr.write("\n")
     if args.json != "-":
         print_summary(result, sys.stdout)
     if args.json:

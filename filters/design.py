@@ -75,6 +75,7 @@ class Analysis:
     lot_share: float = 0.0
     interval: str = "wilson"
     confidence: float = 0.95
+    attenuation_hz: tuple[float, ...] = ()  # report the attenuation at these frequencies (Hz)
 
     @property
     def conditions(self) -> Conditions:
@@ -159,6 +160,8 @@ class Design:
             "temperature_c": [a.temp_low_c, a.temp_high_c], "lot_share": a.lot_share,
             "interval": a.interval, "confidence": a.confidence,
         }
+        if a.attenuation_hz:
+            out["analysis"]["attenuation_at_hz"] = list(a.attenuation_hz)
         out["mask"] = [s.to_dict() for s in self.mask]
         if self.grades:
             out["grades"] = [g.to_dict() for g in self.grades]
@@ -222,7 +225,7 @@ def analysis_from_dict(data: Any, problems: list[InputError], path: str = "analy
         problems.append(InputError("must be an object", path))
         return Analysis()
     known = {"samples", "seed", "f_start", "f_stop", "points", "method", "cutoff_db",
-             "temperature_c", "lot_share", "interval", "confidence"}
+             "temperature_c", "lot_share", "interval", "confidence", "attenuation_at_hz"}
     problems += [InputError(f"unknown setting {k!r}", f"{path}.{k}") for k in data if k not in known]
     d = Analysis()
     samples = _number(data, "samples", path, problems, d.samples, integer=True, lo=1, hi=MAX_SAMPLES)
@@ -257,8 +260,17 @@ def analysis_from_dict(data: Any, problems: list[InputError], path: str = "analy
                                        f"{path}.temperature_c"))
         else:
             t_lo, t_hi = float(t[0]), float(t[1])
+    att: tuple[float, ...] = ()
+    if "attenuation_at_hz" in data:
+        raw = data["attenuation_at_hz"]
+        if (not isinstance(raw, list) or len(raw) > 20
+                or not all(_finite_number(v) and v > 0 for v in raw)):
+            problems.append(InputError("must be a list of up to 20 frequencies above 0 Hz",
+                                       f"{path}.attenuation_at_hz"))
+        else:
+            att = tuple(float(v) for v in raw)
     return Analysis(samples, seed, f_start, f_stop, points, method, cutoff_db, t_lo, t_hi, lot,
-                    interval, conf)
+                    interval, conf, att)
 
 
 def design_from_dict(data: Any) -> Design:

@@ -24,7 +24,7 @@ from .errors import Cancelled, InputError
 from .grades import Grade
 from .judge import SpanPlan, margins, needs, plan
 from .mask import edge_frequencies
-from .metrics import cutoff_metrics, stage_metrics
+from .metrics import attenuation_db, cutoff_metrics, stage_metrics
 from .sampling import draw_scores, part_values
 
 CHUNK = 2048
@@ -128,7 +128,7 @@ def prepare(design: Design, extra_freqs: Sequence[float] = ()) -> Prepared:
     with np.errstate(divide="ignore", over="ignore", invalid="ignore", under="ignore"):
         coeffs = stage_coefficients(circuit, nominal_values[None, :])
         resp = frequency_response(circuit, coeffs, freqs, phase=True, delay=True)
-        m = _metrics_for(circuit, coeffs, resp, design.analysis.cutoff_db)
+        m = _metrics_for(circuit, coeffs, resp, design.analysis.cutoff_db, design.analysis.attenuation_hz)
         plans = plan(design.mask, freqs, float(m["reference_db"][0]))
         marg = margins(plans, resp)[0]
     _check_finite(m, marg)
@@ -143,10 +143,20 @@ def _check_finite(m: dict[str, np.ndarray], marg: np.ndarray) -> None:
         raise InputError("the nominal response cannot be judged against the mask", "mask")
 
 
-def _metrics_for(circuit: Circuit, coeffs, resp: Response, cutoff_db: float) -> dict[str, np.ndarray]:
+def _metrics_for(circuit: Circuit, coeffs, resp: Response, cutoff_db: float,
+                 attenuation_hz: Sequence[float] = ()) -> dict[str, np.ndarray]:
     m = cutoff_metrics(circuit, coeffs, resp, cutoff_db)
     m.update(stage_metrics(circuit, coeffs))
+    if attenuation_hz:
+        ref2 = 10 ** (m["reference_db"] / 10)
+        for f in attenuation_hz:
+            m[attenuation_name(f)] = attenuation_db(coeffs, ref2, f)
     return m
+
+
+def attenuation_name(f_hz: float) -> str:
+    """Metric name of the attenuation (dB below the passband reference) at ``f_hz``."""
+    return f"attenuation_db@{f_hz:g}"
 
 
 def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
@@ -163,7 +173,8 @@ def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
         o = out or (None, None, None)
         resp = frequency_response(prep.circuit, coeffs, prep.freqs_hz, phase=phase or need_phase,
                                   delay=delay or need_delay, out_gain2=o[0], out_phase=o[1], out_delay=o[2])
-        m = _metrics_for(prep.circuit, coeffs, resp, prep.design.analysis.cutoff_db)
+        a = prep.design.analysis
+        m = _metrics_for(prep.circuit, coeffs, resp, a.cutoff_db, a.attenuation_hz)
         return Evaluated(resp, m, margins(prep.plans, resp))
 
 

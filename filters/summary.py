@@ -73,6 +73,10 @@ def metric_label(name: str, stage_names: list[str] | None = None) -> str:
         tail = parts[-1]
         pair = f" pair {parts[1][1:]}" if len(parts) == 3 else ""
         return f"{stage}{pair} {rest.get(tail, tail)}"
+    if name.startswith("attenuation_db@"):
+        from .values import format_value
+
+        return f"attenuation at {format_value(float(name.split('@')[1]), 'Hz')} (dB)"
     if name.startswith("margin."):
         return f"margin of '{name[7:]}' (dB)"
     return name
