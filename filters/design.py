@@ -11,7 +11,7 @@ import math
 from dataclasses import dataclass, field, replace
 from typing import Any
 
-from .errors import InputError, ValidationError
+from .errors import InputError, ValidationError, is_finite_number
 from .grades import Catalog, Grade, builtin_catalog, scaled
 from .mask import Span
 from .sampling import METHODS, Conditions
@@ -178,17 +178,6 @@ def _exact_text(x: float) -> str:
     return text if same else repr(float(x))
 
 
-def _finite_number(v: Any) -> bool:
-    """A JSON number (not a bool) that converts to a finite float; integers too large
-    for a float (JSON allows any number of digits) are not."""
-    if isinstance(v, bool) or not isinstance(v, (int, float)):
-        return False
-    try:
-        return math.isfinite(float(v))
-    except OverflowError:
-        return False
-
-
 def _kind_of_role(topology: Topology, role: str) -> str | None:
     return topology.roles.get(role) or topology.optional_roles.get(role)
 
@@ -203,7 +192,7 @@ def _number(data: dict, key: str, path: str, problems: list[InputError], default
     if isinstance(v, bool) or not isinstance(v, (int, float)):
         problems.append(InputError(f"must be a number, not {v!r}", where))
         return default
-    if not _finite_number(v):
+    if not is_finite_number(v):
         problems.append(InputError(f"must be finite, not {v!r}", where))
         return default
     if integer and v != int(v):
@@ -252,7 +241,7 @@ def analysis_from_dict(data: Any, problems: list[InputError], path: str = "analy
     if "temperature_c" in data:
         t = data["temperature_c"]
         if (not isinstance(t, list) or len(t) != 2
-                or not all(_finite_number(x) for x in t)):
+                or not all(is_finite_number(x) for x in t)):
             problems.append(InputError("must be [low, high] in deg C (equal ends for a fixed temperature)",
                                        f"{path}.temperature_c"))
         elif not -273.15 < t[0] <= t[1] < 1000:
@@ -264,7 +253,7 @@ def analysis_from_dict(data: Any, problems: list[InputError], path: str = "analy
     if "attenuation_at_hz" in data:
         raw = data["attenuation_at_hz"]
         if (not isinstance(raw, list) or len(raw) > 20
-                or not all(_finite_number(v) and v > 0 for v in raw)):
+                or not all(is_finite_number(v) and v > 0 for v in raw)):
             problems.append(InputError("must be a list of up to 20 frequencies above 0 Hz",
                                        f"{path}.attenuation_at_hz"))
         else:
@@ -394,7 +383,7 @@ def design_from_dict(data: Any) -> Design:
                 problems.append(exc)
                 continue
         elif isinstance(raw, (int, float)) and not isinstance(raw, bool):
-            value = float(raw) if _finite_number(raw) else math.nan
+            value = float(raw) if is_finite_number(raw) else math.nan
         else:
             problems.append(InputError(f"must be a value such as 4.7k or 4k7, not {raw!r}", f"{path}.value"))
             continue
@@ -417,7 +406,7 @@ def design_from_dict(data: Any) -> Design:
         tol = None
         if "tolerance_pct" in p and p["tolerance_pct"] is not None:
             t = p["tolerance_pct"]
-            if not _finite_number(t) or not 0 <= t < 100:
+            if not is_finite_number(t) or not 0 <= t < 100:
                 problems.append(InputError(f"must be a tolerance from 0 to below 100 %, not {t!r}",
                                            f"{path}.tolerance_pct"))
                 continue

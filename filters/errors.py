@@ -6,6 +6,8 @@ shows the message beside the field and keeps the last good value.
 """
 from __future__ import annotations
 
+import math
+
 
 class TolspreadError(Exception):
     """Base of every error this project raises on purpose."""
@@ -44,3 +46,14 @@ class ValidationError(InputError):
 
 class Cancelled(TolspreadError):
     """A long evaluation was stopped on request; partial results were discarded."""
+
+
+def is_finite_number(v: object) -> bool:
+    """A JSON number (not a bool) that converts to a finite float; integers too large for
+    a float (JSON allows any number of digits) are not."""
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        return False
+    try:
+        return math.isfinite(float(v))
+    except OverflowError:
+        return False

@@ -25,20 +25,12 @@ from importlib import resources
 from pathlib import Path
 from typing import Any, Literal
 
-from .errors import InputError, ValidationError
+from .errors import InputError, ValidationError, is_finite_number
 
 Distribution = Literal["normal", "uniform", "binned"]
 PartKind = Literal["R", "C", "L", "opamp", "any"]
 DISTRIBUTIONS: tuple[str, ...] = ("normal", "uniform", "binned")
 KINDS: tuple[str, ...] = ("R", "C", "L", "opamp", "any")
-
-
-def _finite(v: int | float) -> bool:
-    """Whether a number converts to a finite float (JSON integers may be too large to)."""
-    try:
-        return math.isfinite(float(v))
-    except OverflowError:
-        return False
 
 
 @dataclass(frozen=True)
@@ -98,7 +90,7 @@ class Grade:
         for k in numbers:
             if k in args:
                 v = args[k]
-                if isinstance(v, bool) or not isinstance(v, (int, float)) or not _finite(v):
+                if isinstance(v, bool) or not isinstance(v, (int, float)) or not is_finite_number(v):
                     problems.append(InputError(f"must be a finite number, not {v!r}", f"{path}.{k}"))
                     del args[k]
                 else:

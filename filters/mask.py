@@ -14,7 +14,7 @@ from typing import Any, Literal
 
 import numpy as np
 
-from .errors import InputError, ValidationError
+from .errors import InputError, ValidationError, is_finite_number
 
 Quantity = Literal["gain", "phase", "delay"]
 SpanKind = Literal["floor", "ceiling", "variation"]
@@ -83,7 +83,7 @@ class Span:
             if k not in data or (k == "limit2" and data[k] is None):
                 continue
             v = data[k]
-            if isinstance(v, bool) or not isinstance(v, (int, float)) or not _finite(v):
+            if isinstance(v, bool) or not isinstance(v, (int, float)) or not is_finite_number(v):
                 problems.append(InputError(f"must be a finite number, not {v!r}", f"{path}.{k}"))
             else:
                 nums[k] = float(v)
@@ -104,14 +104,6 @@ class Span:
         return Span(kind=data["kind"], f1=nums["f1"], f2=nums["f2"], limit1=nums["limit1"],
                     limit2=nums.get("limit2"), quantity=quantity,
                     relative=bool(data.get("relative", False)), name=data.get("name", ""))
-
-
-def _finite(v: int | float) -> bool:
-    """Whether a number converts to a finite float (JSON integers may be too large to)."""
-    try:
-        return math.isfinite(float(v))
-    except OverflowError:
-        return False
 
 
 def edge_frequencies(spans: tuple[Span, ...] | list[Span]) -> np.ndarray:

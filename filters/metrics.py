@@ -216,7 +216,9 @@ def pole_pairs(den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
     if n == 2:
         d0, d1, d2 = den[:, 0], den[:, 1], den[:, 2]
         w0 = np.sqrt(d0 / d2) * w_ref
-        q = np.sqrt(d0 * d2) / d1
+        root = np.sqrt(d0 * d2)
+        tiny = np.abs(d1) < 1e-12 * root  # lossless: Q reported as +-1e12, not infinity
+        q = np.where(tiny, np.copysign(1e12, np.where(d1 == 0, 1.0, d1)), root / np.where(tiny, 1.0, d1))
         return (w0 / TWO_PI)[:, None], q[:, None]
     if n < 2:
         return np.empty((s_count, 0)), np.empty((s_count, 0))
@@ -226,7 +228,11 @@ def pole_pairs(den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
     roots = np.linalg.eigvals(comp) * w_ref  # rad/s
     upper = np.where(roots.imag > 1e-9 * np.abs(roots), roots, np.nan)
     w0 = np.abs(upper)
-    q = w0 / (-2 * upper.real)  # negative for right-half-plane (unstable) poles, as at degree 2
+    # negative for right-half-plane (unstable) poles, as at degree 2; a pair on (or within
+    # rounding of) the imaginary axis is lossless: its Q is reported as +-1e12, not infinity
+    re = -2 * upper.real
+    tiny = np.abs(re) < 1e-12 * w0
+    q = np.where(tiny, np.copysign(1e12, np.where(re == 0, 1.0, re)), w0 / np.where(tiny, 1.0, re))
     q = np.where(np.isfinite(w0), q, np.nan)
     order = np.argsort(np.where(np.isnan(q), np.inf, q), axis=1)
     pairs = n // 2
