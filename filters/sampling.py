@@ -119,15 +119,20 @@ def part_values(nominal: Sequence[float], grades: Sequence[Grade], scores: np.nd
         leader: dict[tuple[float, str], int] = {}
         lot_cols = [leader.setdefault((float(nom[i]), grades[i].name), i) for i in range(p)]
         z_value = np.sqrt(1 - rho) * z_value + np.sqrt(rho) * scores[:, p:2 * p][:, lot_cols]
-    u_tc = 2 * special.ndtr(scores[:, 2 * p:3 * p]) - 1
-    u_drift = 2 * special.ndtr(scores[:, 3 * p:4 * p]) - 1
+    # columns only drawn into values when some grade or the temperature range uses them
+    uses_tc = any(g.tempco_ppm or g.tempco_spread_ppm for g in grades)
+    uses_drift = any(g.drift_pct for g in grades)
+    u_tc = 2 * special.ndtr(scores[:, 2 * p:3 * p]) - 1 if uses_tc else None
+    u_drift = 2 * special.ndtr(scores[:, 3 * p:4 * p]) - 1 if uses_drift else None
     t_span = conditions.temp_high_c - conditions.temp_low_c
-    temp = conditions.temp_low_c + t_span * special.ndtr(scores[:, 4 * p])
+    temp = conditions.temp_low_c + t_span * special.ndtr(scores[:, 4 * p]) if t_span else \
+        np.full(scores.shape[0], conditions.temp_low_c)
     d_temp = (temp - REFERENCE_CELSIUS)[:, None]
+    fixed_at_reference = t_span == 0 and conditions.temp_low_c == REFERENCE_CELSIUS
     out = np.empty((scores.shape[0], p))
     for i, g in enumerate(grades):  # parts, not samples
         factor = 1 + relative_deviation(g, z_value[:, i])
-        if g.tempco_ppm or g.tempco_spread_ppm:
+        if (g.tempco_ppm or g.tempco_spread_ppm) and not fixed_at_reference:
             tc = (g.tempco_ppm + g.tempco_spread_ppm * u_tc[:, i]) * 1e-6
             factor = factor * (1 + tc * d_temp[:, 0])
         if g.drift_pct:
