@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import argparse
 import sys
-from pathlib import Path
 
 from filters.errors import InputError
 
@@ -43,7 +42,6 @@ def run(args: argparse.Namespace) -> int:
     from filters.grades import load_catalog
     from filters.recommend import cost_yield_curve, parts_list_rows, recommend, worst_margin_metric, write_parts_csv
     from filters.report import build_report, write_report
-    from filters.values import format_value
 
     design = load_demo() if args.design is None else load(args.design)
     if not design.mask:

@@ -55,7 +55,6 @@ def offer_recovery(window) -> None:
     """After a crash: offer to restore the unsaved work found in the recovery file."""
     from PySide6.QtWidgets import QMessageBox
 
-    from filters.designfile import load
 
     rec = userfiles.recovery_path()
     if not rec.exists():

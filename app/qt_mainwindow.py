@@ -9,7 +9,6 @@ from __future__ import annotations
 import csv
 import os
 import logging
-import traceback
 from dataclasses import replace
 from pathlib import Path
 
@@ -23,7 +22,7 @@ from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog, QLabel, Q
 
 from filters import __version__
 from filters.design import Design
-from filters.designfile import demo_text, load_demo, loads, write_text_atomic
+from filters.designfile import load_demo, write_text_atomic
 from filters.errors import InputError, ValidationError
 from filters.liveview import ViewData, what_if_grades
 from filters.mask import Span

@@ -9,7 +9,7 @@ from __future__ import annotations
 import math
 
 from PySide6.QtCore import Qt, Signal
-from PySide6.QtWidgets import (QComboBox, QGridLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton,
+from PySide6.QtWidgets import (QComboBox, QGridLayout, QLabel, QLineEdit, QPushButton,
                                QScrollArea, QSlider, QSpinBox, QVBoxLayout, QWidget, QComboBox as _Combo)
 
 from filters.design import MAX_SAMPLES, Design

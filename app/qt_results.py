@@ -89,7 +89,6 @@ class ResultsPanel(QWidget):
     def show_view(self, view: ViewData) -> None:
         self.view = view
         y = view.yield_
-        stale = "" if not view.design.mask else ""
         if view.design.mask:
             self.yield_label.setText(
                 f"<span style='font-size:16pt'><b>yield {_pct(y.estimate)}</b></span><br>"

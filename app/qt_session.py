@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import threading
 import traceback
-from dataclasses import replace
 from pathlib import Path
 
 from PySide6.QtCore import QObject, QThread, Signal, Slot
@@ -265,13 +264,3 @@ class Session(QObject):
         self._thread.quit()
         self._thread.wait(5000)
 
-
-def with_part(design: Design, ref: str, **changes) -> Design:
-    """``design`` with part ``ref`` changed (a helper for widgets)."""
-    return design.with_part(ref, **changes)
-
-
-def with_span(design: Design, index: int, span) -> Design:
-    mask = list(design.mask)
-    mask[index] = span
-    return replace(design, mask=tuple(mask))

@@ -334,20 +334,6 @@ def _response_block(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz:
         ph *= 180 / math.pi
 
 
-def _mul_inplace(a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    if a.shape == np.broadcast_shapes(a.shape, b.shape) and a.flags.writeable:
-        a *= b
-        return a
-    return a * b
-
-
-def _add_inplace(a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    if a.shape == np.broadcast_shapes(a.shape, b.shape) and a.flags.writeable:
-        a += b
-        return a
-    return a + b
-
-
 def gain2_at(coeffs: list[StageCoefficients], f_hz: np.ndarray) -> np.ndarray:
     """|H|^2 at per-sample frequencies ``f_hz`` shaped (S,) or (S, k) (exact, no grid)."""
     f = np.asarray(f_hz, dtype=float)

@@ -19,7 +19,6 @@ two standard deviations, common practice) truncated at the limits.
 from __future__ import annotations
 
 import json
-import math
 from dataclasses import asdict, dataclass, fields, replace
 from importlib import resources
 from pathlib import Path

@@ -774,13 +774,11 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     time stamp shown (default now).
     """
     d = result.design
-    a = d.analysis
     ens = result.ensemble
     prep = result.prepared
     y = result.yield_
     stage_names = [s.name for s in d.stages]
     grades = ens.grades
-    catalog = d.catalog
     figures: dict[str, str] = {}
     when = (generated or datetime.now()).strftime("%Y-%m-%d %H:%M")
     head_title = title or d.name or "Tolerance analysis"

@@ -120,7 +120,6 @@ def lc_ladder(options: dict[str, Any]) -> Topology:
     node = "n0"
     for k in range(1, n + 1):
         shunt = (k % 2 == 1) == (first == "shunt")
-        last = k == n
         if shunt:
             els.append(Element("C", f"C{k}", node, "0"))
         else:

@@ -15,7 +15,7 @@ from scipy import stats
 
 from filters.errors import InputError, ValidationError
 from filters.grades import Catalog, Grade, builtin_catalog, load_catalog, scaled
-from filters.sampling import Conditions, draw_scores, part_values, relative_deviation
+from filters.sampling import draw_scores, part_values, relative_deviation
 
 N_BIG = 200_000
 NOMINAL = 1000.0

@@ -30,7 +30,7 @@ from filters.design import design_from_dict
 from filters.designfile import load_demo
 from filters.engine import StageCoefficients, compile_design, frequency_response, stage_coefficients
 from filters.evaluate import evaluate
-from filters.metrics import attenuation_db, cutoff_metrics, pole_pairs, reference_gain2, stage_metrics
+from filters.metrics import attenuation_db, cutoff_metrics, pole_pairs, reference_gain2
 
 TWO_PI = 2 * math.pi
 HALF_POWER_DB = 10 * math.log10(2)
