@@ -27,7 +27,7 @@ from .mask import edge_frequencies
 from .metrics import attenuation_db, cutoff_metrics, stage_metrics
 from .sampling import draw_scores, part_values
 
-CHUNK = 2048
+CHUNK_MAX = 4096  # boards per chunk at most: bounds the temporaries of one chunk
 WORKERS = max(1, min(4, os.cpu_count() or 1))
 _POOL = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="tolspread")
 _SCORES: dict[tuple, np.ndarray] = {}
@@ -181,7 +181,7 @@ def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
 def evaluate(design: Design, *, samples: int | None = None, seed: int | None = None,
              method: str | None = None, grades: Sequence[Grade] | None = None,
              curves: bool = True, phase: bool = True, delay: bool = False,
-             extra_freqs: Sequence[float] = (), chunk: int = CHUNK, start: int = 0,
+             extra_freqs: Sequence[float] = (), chunk: int | None = None, start: int = 0,
              prepared: Prepared | None = None,
              progress: Callable[[int, int], None] | None = None,
              should_stop: Callable[[], bool] | None = None) -> Ensemble:
@@ -231,6 +231,8 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
             g *= 10.0
         return lo, hi, ev.metrics
 
+    if chunk is None:  # whole rounds of work for every thread, within [512, CHUNK_MAX] boards
+        chunk = int(min(CHUNK_MAX, max(512, -(-n // (2 * WORKERS)))))
     bounds = [(lo, min(n, lo + chunk)) for lo in range(0, n, chunk)]
     done = 0
     window = 2 * WORKERS  # chunks in flight at once: bounded memory
