@@ -27,7 +27,7 @@ from .mask import edge_frequencies
 from .metrics import attenuation_db, cutoff_metrics, stage_metrics
 from .sampling import draw_scores, part_values
 
-CHUNK_MAX = 4096  # boards per chunk at most: bounds the temporaries of one chunk
+CHUNK_MAX = 2048  # boards per chunk at most: bounds the temporaries of one chunk
 WORKERS = max(1, min(4, os.cpu_count() or 1))
 _POOL = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="tolspread")
 _SCORES: dict[tuple, np.ndarray] = {}
