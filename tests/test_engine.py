@@ -31,7 +31,6 @@ import scipy.linalg
 import scipy.optimize
 import scipy.signal
 
-from filters.design import design_from_dict
 from filters.designfile import load_demo
 from filters.engine import (
     StageCoefficients,
@@ -42,35 +41,13 @@ from filters.engine import (
 )
 from filters.metrics import pole_pairs, stage_metrics
 
+from designs import make  # shared builder: tests/designs.py
+
 TWO_PI = 2 * math.pi
 SEED = 7311
 
 
 # --- helpers -------------------------------------------------------------------------
-
-def make(stages, analysis=None):
-    """A design of EXACT parts from [(topology, options, {role: value or array})].
-
-    Returns (design, circuit, values) with ``values`` (S, P) built from the arrays given.
-    """
-    parts, st, cols = [], [], []
-    for k, (topo, options, vals) in enumerate(stages, 1):
-        roles = {}
-        for role, v in vals.items():
-            arr = np.atleast_1d(np.asarray(v, dtype=float))
-            ref = f"{role}_{k}"
-            parts.append({"ref": ref, "value": float(arr[0]), "grade": "EXACT"})
-            roles[role] = ref
-            cols.append(arr)
-        st.append({"topology": topo, "options": options, "parts": roles})
-    data = {"format": "tolspread-design", "version": 1, "parts": parts, "stages": st}
-    if analysis:
-        data["analysis"] = analysis
-    design = design_from_dict(data)
-    n = max(c.size for c in cols)
-    values = np.column_stack([np.broadcast_to(c, (n,)) for c in cols])
-    return design, compile_design(design), values
-
 
 def scipy_ba(coeffs, i):
     """Sample i's overall (b, a) in scipy's descending order: stage polynomials multiplied."""
