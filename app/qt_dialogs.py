@@ -65,6 +65,16 @@ def _reason(exc: InputError) -> str:
 
 # --- new design from a response ----------------------------------------------------------
 
+
+def _ok_cancel(dialog: QDialog) -> tuple[QDialogButtonBox, QPushButton]:
+    """OK and Cancel buttons wired to the dialog's accept and reject."""
+    buttons = QDialogButtonBox(QDialogButtonBox.StandardButton.Ok | QDialogButtonBox.StandardButton.Cancel)
+    ok = buttons.button(QDialogButtonBox.StandardButton.Ok)
+    ok.setObjectName("ok")
+    buttons.accepted.connect(dialog.accept)
+    buttons.rejected.connect(dialog.reject)
+    return buttons, ok
+
 class SynthesisDialog(QDialog):
     """"New design from a response": response, order, kind, cutoff ... and a live preview.
 
@@ -157,12 +167,7 @@ class SynthesisDialog(QDialog):
         self.preview.setFont(font)
         self.preview.setMinimumSize(640, 220)
 
-        self.buttons = QDialogButtonBox(QDialogButtonBox.StandardButton.Ok
-                                        | QDialogButtonBox.StandardButton.Cancel)
-        self.ok_button = self.buttons.button(QDialogButtonBox.StandardButton.Ok)
-        self.ok_button.setObjectName("ok")
-        self.buttons.accepted.connect(self.accept)
-        self.buttons.rejected.connect(self.reject)
+        self.buttons, self.ok_button = _ok_cancel(self)
 
         layout = QVBoxLayout(self)
         layout.addLayout(grid)
@@ -394,12 +399,7 @@ class CatalogDialog(QDialog):
         self.save_button.setObjectName("save_catalog")
         self.load_button.clicked.connect(self._choose_load)
         self.save_button.clicked.connect(self._choose_save)
-        self.buttons = QDialogButtonBox(QDialogButtonBox.StandardButton.Ok
-                                        | QDialogButtonBox.StandardButton.Cancel)
-        self.ok_button = self.buttons.button(QDialogButtonBox.StandardButton.Ok)
-        self.ok_button.setObjectName("ok")
-        self.buttons.accepted.connect(self.accept)
-        self.buttons.rejected.connect(self.reject)
+        self.buttons, self.ok_button = _ok_cancel(self)
 
         files = QHBoxLayout()
         files.addWidget(self.load_button)

@@ -45,7 +45,7 @@ from .errors import Cancelled, InputError
 from .evaluate import Ensemble, Prepared, evaluate, prepare
 from .grades import Catalog, Grade
 from .sampling import REFERENCE_CELSIUS
-from .stats import INTERVAL_METHODS, lower_bound
+from .stats import INTERVAL_METHODS, lower_bound, smallest_meeting
 from .values import format_value, series_for_tolerance, snap, tolerance_letter
 
 #: The verification run uses this seed offset from the search's seed.
@@ -196,14 +196,7 @@ def boards_needed(target_yield: float, confidence: float = 0.95, method: str = "
         hi *= 2
         if hi > 10**15:
             return hi
-    lo = hi // 2  # not ok(lo) unless lo == 0
-    while hi - lo > 1:
-        mid = (lo + hi) // 2
-        if ok(mid):
-            hi = mid
-        else:
-            lo = mid
-    return hi
+    return smallest_meeting(ok, hi // 2, hi)  # not ok(hi // 2) unless it is 0
 
 
 # --- the evaluator shared by the searches ------------------------------------------------

@@ -298,9 +298,15 @@ def samples_for_half_width(half_width: float, expected_yield: float = 0.5, confi
             if hi > MAX_PLANNED_SAMPLES:
                 raise InputError(f"would need more than {MAX_PLANNED_SAMPLES:.0e} samples", "half_width")
             lo, hi = hi, 2 * hi
+    return smallest_meeting(meets, lo, hi)
+
+
+def smallest_meeting(ok: Callable[[int], bool], lo: int, hi: int) -> int:
+    """The smallest n in (lo, hi] with ``ok(n)`` true, by bisection; ``ok`` must be
+    monotone (false up to some n, true from there) and ``ok(hi)`` true."""
     while hi - lo > 1:
         mid = (lo + hi) // 2
-        if meets(mid):
+        if ok(mid):
             hi = mid
         else:
             lo = mid
