@@ -215,105 +215,232 @@ def _unwrap(ph: np.ndarray) -> np.ndarray:
 BLOCK_ROWS = 512  # samples per block: measured best here with two threads (fewer calls holding the GIL)
 
 
+@dataclass(frozen=True)
+class _JwPoly:
+    """p(jx) / x^shift on a fixed grid x, for every sample, as two matrix products.
+
+    ``even`` (S, ne) and ``odd`` (S, no): p's even and odd coefficients with the signs of
+    j^m folded in; ``p_even`` (ne, F) and ``p_odd`` (no, F): the matching powers of x.
+    Then Re = even @ p_even and Im = odd @ p_odd, one BLAS call each for a block of rows.
+    """
+
+    even: np.ndarray
+    odd: np.ndarray
+    p_even: np.ndarray
+    p_odd: np.ndarray
+
+    @classmethod
+    def build(cls, c: np.ndarray, x: np.ndarray, shift: int = 0, negate: str = "") -> _JwPoly:
+        """From coefficients ``c`` (S, M), ascending; ``negate`` ("re" or "im") flips the
+        sign of that part at no cost."""
+        m = np.arange(c.shape[1])
+        sign = np.where((m // 2) % 2 == 0, 1.0, -1.0)  # j^m = 1, j, -1, -j, ...
+        if negate == "re":
+            sign = np.where(m % 2 == 0, -sign, sign)
+        elif negate == "im":
+            sign = np.where(m % 2 == 1, -sign, sign)
+        powers = np.power(x[None, :], (m - shift)[:, None].astype(float))  # (M, F)
+        signed = c * sign
+        # contiguous operands, so numpy hands the products to BLAS
+        return cls(np.ascontiguousarray(signed[:, 0::2]), np.ascontiguousarray(signed[:, 1::2]),
+                   np.ascontiguousarray(powers[0::2]), np.ascontiguousarray(powers[1::2]))
+
+    def parts(self, lo: int, hi: int, re: np.ndarray | None = None,
+              im: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """Re and Im for sample rows [lo, hi), each (hi - lo, F), into ``re`` and ``im``."""
+        out = []
+        for coef, powers, buf in ((self.even, self.p_even, re), (self.odd, self.p_odd, im)):
+            if buf is None:
+                buf = np.empty((hi - lo, powers.shape[1]))
+            if coef.shape[1]:
+                np.matmul(coef[lo:hi], powers, out=buf)
+            else:
+                buf[...] = 0.0
+            out.append(buf)
+        return out[0], out[1]
+
+
+@dataclass(frozen=True)
+class _LeanGroup:
+    """One or two lean stages (see :func:`frequency_response`) as H = C (s/w_g)^K / P(s/w_g).
+
+    ``den``: P(jx) / (|C| x^K); ``dden``: the same for P' (for the group delay) or None;
+    ``offset`` (S,): the group's constant phase in rad; ``zero`` (S,): rows where C = 0.
+    """
+
+    den: _JwPoly
+    dden: _JwPoly | None
+    w_g: float
+    offset: np.ndarray
+    zero: np.ndarray
+
+
+def _lean_groups(circuit: Circuit, coeffs: list[StageCoefficients], w: np.ndarray,
+                 delay: bool) -> list[_LeanGroup]:
+    """The lean stages taken two at a time, each pair multiplied into one group.
+
+    Each stage is first multiplied through by the sign of its s^1 coefficient, which leaves
+    H unchanged and puts the denominator's angle in (0, 180) deg; a pair's product then has
+    its angle in (0, 360) deg, which one arctan2 gives without unwrapping:
+    -angle(P) = atan2(Im, -Re) - pi for a pair and atan2(-Im, Re) for a single stage.
+    The pair's frequency scale w_g is the geometric mean of its stages' (rad/s).
+    """
+    lean = [i for i, st in enumerate(circuit.stages) if st.simple_phase]
+    groups = []
+    for g in range(0, len(lean), 2):
+        members = lean[g:g + 2]
+        w_g = math.exp(sum(math.log(coeffs[i].w_ref) for i in members) / len(members))
+        p: np.ndarray | None = None
+        k_total = 0
+        const = np.ones(coeffs[members[0]].num.shape[0])
+        for i in members:
+            sc, k = coeffs[i], circuit.stages[i].num_power
+            r = w_g / sc.w_ref
+            d = sc.den * r ** np.arange(sc.den.shape[1])
+            flip = np.where(d[:, 1] < 0, -1.0, 1.0)
+            d = d * flip[:, None]
+            const = const * (sc.num[:, k] * r ** k * flip)
+            k_total += k
+            if p is None:
+                p = d
+            else:
+                prod = np.zeros((d.shape[0], p.shape[1] + d.shape[1] - 1))
+                for j in range(d.shape[1]):
+                    prod[:, j:j + p.shape[1]] += p * d[:, j:j + 1]
+                p = prod
+        assert p is not None
+        pair = len(members) == 2
+        zero = const == 0
+        pt = p / np.where(zero, 1.0, np.abs(const))[:, None]
+        x = w / w_g
+        negate = "re" if pair else "im"
+        dden = None
+        if delay:
+            dden = _JwPoly.build(pt[:, 1:] * np.arange(1, pt.shape[1]), x, k_total, negate)
+        offset = k_total * (math.pi / 2) + math.pi * (const < 0) - (math.pi if pair else 0.0)
+        groups.append(_LeanGroup(_JwPoly.build(pt, x, k_total, negate), dden, w_g, offset, zero))
+    return groups
+
+
+@dataclass(frozen=True)
+class _GeneralStage:
+    """A stage evaluated in general: N(jx), D(jx) and, for the delay, their derivatives."""
+
+    num: _JwPoly
+    den: _JwPoly
+    dnum: _JwPoly | None  # None when N is a monomial (no delay term) or no delay is asked
+    dden: _JwPoly | None
+    w_ref: float
+
+
+def _general_stages(circuit: Circuit, coeffs: list[StageCoefficients], w: np.ndarray,
+                    delay: bool) -> list[_GeneralStage]:
+    out = []
+    for st, sc in zip(circuit.stages, coeffs):
+        if st.simple_phase:
+            continue
+        x = w / sc.w_ref
+        monomial = np.count_nonzero(np.any(sc.num != 0, axis=0)) <= 1
+        dnum = _JwPoly.build(_derivative(sc.num), x) if delay and not monomial else None
+        dden = _JwPoly.build(_derivative(sc.den), x) if delay else None
+        out.append(_GeneralStage(_JwPoly.build(sc.num, x), _JwPoly.build(sc.den, x), dnum, dden, sc.w_ref))
+    return out
+
+
 def frequency_response(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz: np.ndarray,
                        *, phase: bool = True, delay: bool = False, out_gain2: np.ndarray | None = None,
                        out_phase: np.ndarray | None = None, out_delay: np.ndarray | None = None) -> Response:
     """|H|^2, phase and group delay of every sample on the frequency grid ``freqs_hz``.
 
-    Works through the samples in blocks of :data:`BLOCK_ROWS` rows (not one sample at a
-    time), writing each block's results straight into the output arrays; a block's
-    temporaries stay in the CPU cache. ``out_*`` are optional arrays (S, F) to write into.
+    Stages of degree <= 2 with a monomial numerator c*s^k (every Sallen-Key and
+    multiple-feedback section, first-order sections) take a lean path, two at a time:
+    the pair is H = C s^K / P(s) with P the product of the two denominators, so
+    |H|^2 = 1 / |P(jx) / (C x^K)|^2 and the phase is K*90 deg (+180 if C < 0) minus P's
+    angle, from one arctan2 (see :func:`_lean_groups`). Other stages are evaluated in
+    general. Polynomials are evaluated as matrix products of their coefficients with
+    powers of the frequency.
+
+    Works through the samples in blocks of :data:`BLOCK_ROWS` rows, writing each block's
+    results straight into the output arrays; a block's temporaries are reused and stay in
+    the CPU cache. ``out_*`` are optional arrays (S, F) to write into.
     """
     s = coeffs[0].num.shape[0]
     f = np.asarray(freqs_hz, dtype=float)
+    w = TWO_PI * f
     gain2 = np.empty((s, f.size)) if out_gain2 is None else out_gain2
     ph = (np.empty((s, f.size)) if out_phase is None else out_phase) if phase else None
     tau = (np.empty((s, f.size)) if out_delay is None else out_delay) if delay else None
+    groups = _lean_groups(circuit, coeffs, w, delay)
+    general = _general_stages(circuit, coeffs, w, delay)
+    offset = sum((g.offset for g in groups), np.zeros(s)) * (180 / math.pi)
+    zero = np.zeros(s, dtype=bool)
+    for g in groups:
+        zero |= g.zero
+    rows = min(s, BLOCK_ROWS)
+    bufs = [np.empty((rows, f.size)) for _ in range(3)]
     for lo in range(0, s, BLOCK_ROWS):
         hi = min(s, lo + BLOCK_ROWS)
-        sub = coeffs if (lo == 0 and hi == s) else [
-            StageCoefficients(c.num[lo:hi], c.den[lo:hi], c.w_ref) for c in coeffs]
-        _response_block(circuit, sub, f, gain2[lo:hi], None if ph is None else ph[lo:hi],
-                        None if tau is None else tau[lo:hi])
+        _response_block(groups, general, lo, hi, [b[:hi - lo] for b in bufs], gain2[lo:hi],
+                        None if ph is None else ph[lo:hi], None if tau is None else tau[lo:hi])
+    if ph is not None:
+        if np.all(offset == offset[0]):
+            ph += float(offset[0])
+        else:
+            ph += offset[:, None]
+    if zero.any():
+        gain2[zero] = 0.0
     return Response(f, gain2, ph, tau)
 
 
-def _response_block(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz: np.ndarray,
-                    gain2: np.ndarray, ph: np.ndarray | None, tau: np.ndarray | None) -> None:
-    """:func:`frequency_response` for one block of samples, into ``gain2``, ``ph`` (deg)
-    and ``tau`` (s), each shaped (block samples, F).
-
-    Stages of degree <= 2 with a monomial numerator c*s^k (every Sallen-Key and
-    multiple-feedback section, first-order sections) take a lean path: |N|^2 = c^2 w^2k,
-    the phase is k*90 deg (+180 if c < 0) minus the denominator's angle, which lies in
-    (0, 180) deg, so nothing needs unwrapping. Other stages are evaluated in general.
-    """
-    w = TWO_PI * freqs_hz
-    s = coeffs[0].num.shape[0]
-    shape = (s, w.size)
-    den_prod = None             # product of |D|^2 over lean stages, (S, F)
-    num_gain = np.ones((s, 1))  # product of c^2 over lean stages, (S, 1)
-    general = None              # product of |N/D|^2 over general stages
-    offset = np.zeros((s, 1))   # constant phase of lean numerators, rad
+def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: int, hi: int,
+                    bufs: list[np.ndarray], gain2: np.ndarray, ph: np.ndarray | None,
+                    tau: np.ndarray | None) -> None:
+    """:func:`frequency_response` for sample rows [lo, hi), into ``gain2``, ``ph`` (deg,
+    without the groups' constant offsets) and ``tau`` (s), each (hi - lo, F).
+    ``bufs``: three scratch arrays of the same shape."""
+    re, im, tmp = bufs
+    have_gain = False   # gain2 holds the product of the groups' |P/(C x^K)|^2 so far
     phase_started = False
     if tau is not None:
         tau[...] = 0.0
-    a_buf = np.empty(shape)
-    b_buf = np.empty(shape)
-    c_buf = np.empty(shape) if ph is not None else None
-    for st, sc in zip(circuit.stages, coeffs):
-        x = w / sc.w_ref
-        xx = x * x
-        if st.simple_phase:
-            k = st.num_power
-            c = sc.num[:, k:k + 1]
-            d = sc.den
-            n = d.shape[1] - 1
-            # real and imaginary parts of D(jx) into a_buf, b_buf
-            if n == 2:
-                np.multiply(d[:, 2:3], xx, out=a_buf)
-                np.subtract(d[:, 0:1], a_buf, out=a_buf)
+    for grp in groups:
+        grp.den.parts(lo, hi, re, im)
+        if ph is not None:
+            if not phase_started:
+                np.arctan2(im, re, out=ph)
+                phase_started = True
             else:
-                a_buf[...] = d[:, 0:1]
-            np.multiply(d[:, 1:2], x, out=b_buf)
-            if tau is not None:
-                # tau = Re(D'/D)/w_ref - Re(N'/N)/w_ref; Re(N'/N) = 0 for a monomial
-                dr1 = d[:, 1:2]
-                di1 = 2 * d[:, 2:3] * x if n == 2 else 0.0
-                t = (dr1 * a_buf + di1 * b_buf) / (a_buf * a_buf + b_buf * b_buf)
-                tau += t / sc.w_ref
-            if ph is not None:
-                if not phase_started:  # the first stage writes the phase directly
-                    np.arctan2(b_buf, a_buf, out=ph)
-                    np.negative(ph, out=ph)
-                    phase_started = True
-                else:
-                    np.arctan2(b_buf, a_buf, out=c_buf)
-                    ph -= c_buf
-                offset += k * (math.pi / 2) + math.pi * (c < 0)
-            np.multiply(a_buf, a_buf, out=a_buf)
-            np.multiply(b_buf, b_buf, out=b_buf)
-            a_buf += b_buf
-            if den_prod is None:  # keep this buffer as the product; take a fresh one
-                den_prod, a_buf = a_buf, np.empty(shape)
-            else:
-                den_prod *= a_buf
-            num_gain = num_gain * (c * c)
-            if k:
-                general_k = xx ** k
-                general = general_k if general is None else general * general_k
-            continue
-        nr, ni = poly_jw(sc.num, x, xx)
-        dr, di = poly_jw(sc.den, x, xx)
+                np.arctan2(im, re, out=tmp)
+                ph += tmp
+        target = gain2 if not have_gain else np.empty_like(tmp)
+        np.multiply(re, re, out=target)
+        np.multiply(im, im, out=tmp)
+        target += tmp
+        if tau is not None and grp.dden is not None:
+            dre, dim = grp.dden.parts(lo, hi)
+            dre *= re
+            dim *= im
+            dre += dim
+            dre /= target
+            dre *= 1.0 / grp.w_g
+            tau += dre
+        if have_gain:
+            gain2 *= target
+        have_gain = True
+    if have_gain:
+        np.reciprocal(gain2, out=gain2)
+    for st in general:
+        nr, ni = st.num.parts(lo, hi)
+        dr, di = st.den.parts(lo, hi)
         d2 = dr * dr + di * di
         n2 = nr * nr + ni * ni
-        if tau is not None:
-            ddr, ddi = poly_jw(_derivative(sc.den), x, xx)
+        if tau is not None and st.dden is not None:
+            ddr, ddi = st.dden.parts(lo, hi)
             t = (ddr * dr + ddi * di) / d2
-            if np.count_nonzero(np.any(sc.num != 0, axis=0)) > 1:
-                ndr, ndi = poly_jw(_derivative(sc.num), x, xx)
+            if st.dnum is not None:
+                ndr, ndi = st.dnum.parts(lo, hi)
                 t = t - (ndr * nr + ndi * ni) / np.maximum(n2, 1e-300)
-            tau += t / sc.w_ref
+            tau += t / st.w_ref
         if ph is not None:
             p = _unwrap(np.arctan2(ni * dr - nr * di, nr * dr + ni * di))
             if phase_started:
@@ -322,15 +449,12 @@ def _response_block(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz:
                 ph[...] = p
                 phase_started = True
         g = n2 / d2
-        general = g if general is None else general * g
-    if den_prod is not None:
-        np.divide(num_gain, den_prod, out=gain2)
-        if general is not None:
-            gain2 *= general
-    else:
-        gain2[...] = np.broadcast_to(general, shape)
+        if have_gain:
+            gain2 *= g
+        else:
+            gain2[...] = g
+            have_gain = True
     if ph is not None:
-        ph += offset
         ph *= 180 / math.pi
 
 
