@@ -1,8 +1,9 @@
 """Speed and memory figures quoted in README.md; run ``python benchmarks/engine.py``.
 
-Not run by CI (timings are not tests). Each figure is the best of several repeats on
-this machine; the per-sample loop is the same work done one board at a time with
-``scipy.signal.freqs``, for comparison.
+Not run by CI (timings are not tests). Timings are repeated after a warm-up and printed
+as best and median, because a shared machine's timings scatter; the per-sample loop is
+the same work done one board at a time with ``scipy.signal.freqs``, for comparison, and
+the ratio is taken median to median.
 """
 from __future__ import annotations
 
@@ -20,22 +21,30 @@ from filters.engine import compile_design, stage_coefficients
 from filters.evaluate import evaluate, frequency_grid
 
 
-def best_of(fn, repeats: int = 5) -> float:
-    fn()
+def timings(fn, repeats: int = 15, warmup: int = 2) -> tuple[float, float]:
+    """(best, median) wall time in s of ``fn()`` over ``repeats`` runs after ``warmup``."""
+    for _ in range(warmup):
+        fn()
     times = []
     for _ in range(repeats):
         t = time.perf_counter()
         fn()
         times.append(time.perf_counter() - t)
-    return min(times)
+    times.sort()
+    return times[0], times[len(times) // 2]
 
 
-def loop_reference(design, samples: int, exact_cutoff: bool) -> float:
+def ms(pair: tuple[float, float]) -> str:
+    return f"best {pair[0] * 1e3:.1f} ms, median {pair[1] * 1e3:.1f} ms"
+
+
+def loop_reference(design, samples: int, exact_cutoff: bool, repeats: int = 3) -> tuple[float, float]:
     """Magnitude (dB), continuous phase and the -3 dB cutoff per sample with
     scipy.signal.freqs in a loop over samples.
 
     ``exact_cutoff`` refines the cutoff by root finding on |H(jw)| (scipy.optimize.brentq),
     which is what the vectorized engine does; otherwise it is interpolated on the grid.
+    Returns (best, median) in s over ``repeats`` runs.
     """
     ens = evaluate(design, samples=samples, curves=False)
     circuit = compile_design(design)
@@ -48,23 +57,25 @@ def loop_reference(design, samples: int, exact_cutoff: bool) -> float:
     freqs = frequency_grid(design)
     w = 2 * np.pi * freqs
 
-    t = time.perf_counter()
-    for k in range(samples):
-        b, a = num[k][::-1], den[k][::-1]
-        _, h = signal.freqs(b, a, worN=w)
-        mag = 20 * np.log10(np.abs(h))
-        np.unwrap(np.angle(h))
-        level = mag[0] - 3.0
-        below = np.flatnonzero(mag < level)
-        if below.size:
-            i = below[0]
-            if exact_cutoff:
-                def gap(lw: float) -> float:
-                    return 20 * np.log10(abs(np.polyval(b, 1j * np.exp(lw)) / np.polyval(a, 1j * np.exp(lw)))) - level
-                optimize.brentq(gap, np.log(w[i - 1]), np.log(w[i]), xtol=1e-12)
-            else:
-                np.interp(level, [mag[i], mag[i - 1]], [np.log(freqs[i]), np.log(freqs[i - 1])])
-    return time.perf_counter() - t
+    def run() -> None:
+        for k in range(samples):
+            b, a = num[k][::-1], den[k][::-1]
+            _, h = signal.freqs(b, a, worN=w)
+            mag = 20 * np.log10(np.abs(h))
+            np.unwrap(np.angle(h))
+            level = mag[0] - 3.0
+            below = np.flatnonzero(mag < level)
+            if below.size:
+                i = below[0]
+                if exact_cutoff:
+                    def gap(lw: float, b=b, a=a, level=level) -> float:
+                        s = 1j * np.exp(lw)
+                        return 20 * np.log10(abs(np.polyval(b, s) / np.polyval(a, s))) - level
+                    optimize.brentq(gap, np.log(w[i - 1]), np.log(w[i]), xtol=1e-12)
+                else:
+                    np.interp(level, [mag[i], mag[i - 1]], [np.log(freqs[i]), np.log(freqs[i - 1])])
+
+    return timings(run, repeats, warmup=0)
 
 
 def main() -> int:
@@ -79,17 +90,17 @@ def main() -> int:
     from dataclasses import replace as dc_replace
 
     bare = dc_replace(design, mask=())  # the loop below does no judging either
-    t_vec = best_of(lambda: evaluate(bare, samples=n, curves=True, phase=True))
+    t_vec = timings(lambda: evaluate(bare, samples=n, curves=True, phase=True))
     print(f"engine: sampling + magnitude (dB) + phase + cutoff + stage f0/Q, {n} samples x "
-          f"{freqs.size} freqs: {t_vec * 1e3:.1f} ms")
+          f"{freqs.size} freqs: {ms(t_vec)}")
     t_loop = loop_reference(design, n, exact_cutoff=True)
-    print(f"per-sample scipy.signal.freqs loop, same work (cutoff by root finding): {t_loop * 1e3:.0f} ms"
-          f"  -> engine {t_loop / t_vec:.0f} x faster")
+    print(f"per-sample scipy.signal.freqs loop, same work (cutoff by root finding): {ms(t_loop)}"
+          f"  -> engine {t_loop[1] / t_vec[1]:.0f} x faster (medians)")
     t_grid = loop_reference(design, n, exact_cutoff=False)
-    print(f"per-sample loop with the cutoff only interpolated on the grid:          {t_grid * 1e3:.0f} ms"
-          f"  -> engine {t_grid / t_vec:.0f} x faster")
+    print(f"per-sample loop with the cutoff only interpolated on the grid: {ms(t_grid)}"
+          f"  -> engine {t_grid[1] / t_vec[1]:.0f} x faster (medians)")
     t_y = yield_pipeline(design, n)
-    print(f"sampling + response + judging + yield, {n} samples x {freqs.size} freqs: {t_y * 1e3:.1f} ms")
+    print(f"sampling + response + judging + yield, {n} samples x {freqs.size} freqs: {ms(t_y)}")
     if not args.no_gui:
         drag, release = slider_latency()
         for name, ts in (("while dragging (preview on the first 1000 boards)", drag),
@@ -111,7 +122,7 @@ def main() -> int:
 
 
 
-def yield_pipeline(design, samples: int) -> float:
+def yield_pipeline(design, samples: int) -> tuple[float, float]:
     """Sampling + response + judging + yield for ``samples`` boards (curves kept)."""
     from filters.evaluate import prepare
     from filters.stats import yield_estimate
@@ -122,7 +133,7 @@ def yield_pipeline(design, samples: int) -> float:
         ens = evaluate(design, samples=samples, curves=True, phase=False, prepared=prep)
         yield_estimate(ens.passed)
 
-    return best_of(run)
+    return timings(run)
 
 
 def slider_latency(samples: int = 5000, moves: int = 15) -> tuple[list[float], list[float]]:

@@ -187,18 +187,22 @@ PhaseMode = Literal["none", "phase"]
 
 @dataclass(frozen=True)
 class Response:
-    """Responses on ``freqs_hz`` (F,): ``gain2`` = |H|^2 (S, F); ``phase_deg`` continuous
-    across frequency (S, F) or None; ``delay_s`` group delay (S, F) or None."""
+    """Responses on ``freqs_hz`` (F,): ``gain_db`` (S, F), held within +-:data:`GAIN_DB_LIMIT`;
+    ``phase_deg`` continuous across frequency (S, F) or None; ``delay_s`` group delay (S, F)
+    or None."""
 
     freqs_hz: np.ndarray
-    gain2: np.ndarray
+    gain_db: np.ndarray
     phase_deg: np.ndarray | None
     delay_s: np.ndarray | None
 
     @property
-    def gain_db(self) -> np.ndarray:
-        """Gain in dB (S, F)."""
-        return 10.0 * np.log10(np.maximum(self.gain2, 1e-300))
+    def gain2(self) -> np.ndarray:
+        """|H|^2 (S, F), computed from the gain in dB."""
+        return 10.0 ** (self.gain_db / 10.0)
+
+
+GAIN_DB_LIMIT = 3000.0  # |H|^2 between 1e-300 and 1e300: beyond, a gain is shown as this many dB
 
 
 def _unwrap(ph: np.ndarray) -> np.ndarray:
@@ -348,9 +352,9 @@ def _general_stages(circuit: Circuit, coeffs: list[StageCoefficients], w: np.nda
 
 
 def frequency_response(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz: np.ndarray,
-                       *, phase: bool = True, delay: bool = False, out_gain2: np.ndarray | None = None,
+                       *, phase: bool = True, delay: bool = False, out_gain_db: np.ndarray | None = None,
                        out_phase: np.ndarray | None = None, out_delay: np.ndarray | None = None) -> Response:
-    """|H|^2, phase and group delay of every sample on the frequency grid ``freqs_hz``.
+    """Gain (dB), phase and group delay of every sample on the frequency grid ``freqs_hz``.
 
     Stages of degree <= 2 with a monomial numerator c*s^k (every Sallen-Key and
     multiple-feedback section, first-order sections) take a lean path, two at a time:
@@ -361,13 +365,13 @@ def frequency_response(circuit: Circuit, coeffs: list[StageCoefficients], freqs_
     powers of the frequency.
 
     Works through the samples in blocks of :data:`BLOCK_ROWS` rows, writing each block's
-    results straight into the output arrays; a block's temporaries are reused and stay in
-    the CPU cache. ``out_*`` are optional arrays (S, F) to write into.
+    results straight into the output arrays (decibels included); a block's temporaries are
+    reused and stay in the CPU cache. ``out_*`` are optional arrays (S, F) to write into.
     """
     s = coeffs[0].num.shape[0]
     f = np.asarray(freqs_hz, dtype=float)
     w = TWO_PI * f
-    gain2 = np.empty((s, f.size)) if out_gain2 is None else out_gain2
+    gain_db = np.empty((s, f.size)) if out_gain_db is None else out_gain_db
     ph = (np.empty((s, f.size)) if out_phase is None else out_phase) if phase else None
     tau = (np.empty((s, f.size)) if out_delay is None else out_delay) if delay else None
     groups = _lean_groups(circuit, coeffs, w, delay)
@@ -376,28 +380,29 @@ def frequency_response(circuit: Circuit, coeffs: list[StageCoefficients], freqs_
     zero = np.zeros(s, dtype=bool)
     for g in groups:
         zero |= g.zero
+    uniform = bool(np.all(offset == offset[0]))
     rows = min(s, BLOCK_ROWS)
     bufs = [np.empty((rows, f.size)) for _ in range(3)]
-    for lo in range(0, s, BLOCK_ROWS):
-        hi = min(s, lo + BLOCK_ROWS)
-        _response_block(groups, general, lo, hi, [b[:hi - lo] for b in bufs], gain2[lo:hi],
-                        None if ph is None else ph[lo:hi], None if tau is None else tau[lo:hi])
-    if ph is not None:
-        if np.all(offset == offset[0]):
-            ph += float(offset[0])
-        else:
-            ph += offset[:, None]
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore", under="ignore"):
+        for lo in range(0, s, BLOCK_ROWS):
+            hi = min(s, lo + BLOCK_ROWS)
+            _response_block(groups, general, lo, hi, [b[:hi - lo] for b in bufs], gain_db[lo:hi],
+                            None if ph is None else ph[lo:hi], None if tau is None else tau[lo:hi])
+            if ph is not None:  # the groups' constant phases, while the block is in cache
+                ph[lo:hi] += float(offset[0]) if uniform else offset[lo:hi, None]
     if zero.any():
-        gain2[zero] = 0.0
-    return Response(f, gain2, ph, tau)
+        gain_db[zero] = -GAIN_DB_LIMIT
+    return Response(f, gain_db, ph, tau)
 
 
 def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: int, hi: int,
-                    bufs: list[np.ndarray], gain2: np.ndarray, ph: np.ndarray | None,
+                    bufs: list[np.ndarray], gain_db: np.ndarray, ph: np.ndarray | None,
                     tau: np.ndarray | None) -> None:
-    """:func:`frequency_response` for sample rows [lo, hi), into ``gain2``, ``ph`` (deg,
+    """:func:`frequency_response` for sample rows [lo, hi), into ``gain_db``, ``ph`` (deg,
     without the groups' constant offsets) and ``tau`` (s), each (hi - lo, F).
-    ``bufs``: three scratch arrays of the same shape."""
+    ``bufs``: three scratch arrays of the same shape. ``gain_db`` first accumulates the
+    product of the lean groups' |P / (C x^K)|^2, then becomes the gain in dB."""
+    gain2 = gain_db
     re, im, tmp = bufs
     have_gain = False   # gain2 holds the product of the groups' |P/(C x^K)|^2 so far
     phase_started = False
@@ -427,8 +432,8 @@ def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: 
         if have_gain:
             gain2 *= target
         have_gain = True
-    if have_gain:
-        np.reciprocal(gain2, out=gain2)
+    lean = have_gain
+    general_gain: np.ndarray | None = None
     for st in general:
         nr, ni = st.num.parts(lo, hi)
         dr, di = st.den.parts(lo, hi)
@@ -449,11 +454,19 @@ def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: 
                 ph[...] = p
                 phase_started = True
         g = n2 / d2
-        if have_gain:
-            gain2 *= g
-        else:
-            gain2[...] = g
-            have_gain = True
+        general_gain = g if general_gain is None else general_gain * g
+    if lean and general_gain is not None:
+        np.divide(general_gain, gain2, out=gain2)
+        np.log10(gain2, out=gain2)
+        gain2 *= 10.0
+    elif lean:  # 1 / product: the sign of the decibels flips
+        np.log10(gain2, out=gain2)
+        gain2 *= -10.0
+    else:
+        assert general_gain is not None
+        np.log10(general_gain, out=gain2)
+        gain2 *= 10.0
+    np.clip(gain_db, -GAIN_DB_LIMIT, GAIN_DB_LIMIT, out=gain_db)
     if ph is not None:
         ph *= 180 / math.pi
 

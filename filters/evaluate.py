@@ -27,10 +27,17 @@ from .mask import edge_frequencies
 from .metrics import attenuation_db, cutoff_metrics, stage_metrics
 from .sampling import draw_scores, part_values
 
-CHUNK_MAX = 2048  # boards per chunk at most: bounds the temporaries of one chunk
+CHUNK_MAX = 8192  # boards per chunk at most: bounds the per-chunk arrays (a few x 8192 x F floats)
 WORKERS = max(1, min(4, os.cpu_count() or 1))
 _POOL = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="tolspread")
 _SCORES: dict[tuple, np.ndarray] = {}
+
+
+def chunk_size(samples: int) -> int:
+    """Boards per chunk: the fewest rounds of equal chunks, one per thread in each round,
+    with no chunk above :data:`CHUNK_MAX` (an unequal last round leaves a thread idle)."""
+    rounds = -(-samples // (WORKERS * CHUNK_MAX))
+    return max(256, -(-samples // (max(rounds, 1) * WORKERS)))
 
 
 def frequency_grid(design: Design, extra: Sequence[float] = ()) -> np.ndarray:
@@ -163,7 +170,7 @@ def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
                     delay: bool = False, out: tuple | None = None) -> Evaluated:
     """Responses, metrics and margins for part values ``values`` (S, P), no sampling.
 
-    ``out`` = (gain2, phase, delay) arrays (S, F) (or None each) to write the curves into.
+    ``out`` = (gain_db, phase, delay) arrays (S, F) (or None each) to write the curves into.
     """
     need_phase, need_delay = needs(prep.design.mask)
     # Extreme but valid designs may overflow or underflow in places (a gain of 1e-320);
@@ -172,7 +179,7 @@ def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
         coeffs = stage_coefficients(prep.circuit, values, prep.w_refs)
         o = out or (None, None, None)
         resp = frequency_response(prep.circuit, coeffs, prep.freqs_hz, phase=phase or need_phase,
-                                  delay=delay or need_delay, out_gain2=o[0], out_phase=o[1], out_delay=o[2])
+                                  delay=delay or need_delay, out_gain_db=o[0], out_phase=o[1], out_delay=o[2])
         a = prep.design.analysis
         m = _metrics_for(prep.circuit, coeffs, resp, a.cutoff_db, a.attenuation_hz)
         return Evaluated(resp, m, margins(prep.plans, resp))
@@ -217,25 +224,19 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
             seed, n_parts, start + lo, start + hi, method)  # type: ignore[arg-type]
         vals = part_values(nominal_values, grade_list, sc, a.conditions)
         values[lo:hi] = vals
-        # curves go straight into the result arrays: |H|^2 first (metrics and margins are
-        # taken from it), then turned into dB in place
+        # curves go straight into the result arrays
         out = (None if gain_db is None else gain_db[lo:hi],
                None if phase_deg is None else phase_deg[lo:hi],
                None if delay_s is None else delay_s[lo:hi])
         ev = evaluate_values(prep, vals, phase=curves and phase, delay=curves and delay, out=out)
         marg[lo:hi] = ev.margins
-        if gain_db is not None:
-            g = gain_db[lo:hi]
-            np.maximum(g, 1e-300, out=g)
-            np.log10(g, out=g)
-            g *= 10.0
         return lo, hi, ev.metrics
 
-    if chunk is None:  # whole rounds of work for every thread, within [512, CHUNK_MAX] boards
-        chunk = int(min(CHUNK_MAX, max(512, -(-n // (2 * WORKERS)))))
+    if chunk is None:
+        chunk = chunk_size(n)
     bounds = [(lo, min(n, lo + chunk)) for lo in range(0, n, chunk)]
     done = 0
-    window = 2 * WORKERS  # chunks in flight at once: bounded memory
+    window = WORKERS + 1  # chunks in flight at once (bounded memory): one queued keeps every thread busy
     pending: list = []
     try:
         for b in bounds:

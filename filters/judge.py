@@ -25,7 +25,6 @@ class SpanPlan:
     span: Span
     index: np.ndarray      # grid indices inside [f1, f2]
     limit: np.ndarray      # limit at those points (dB, deg or s)
-    limit_lin: np.ndarray  # gain spans: 10^(limit/10) * reference, as |H|^2
 
 
 def plan(mask: tuple[Span, ...], freqs_hz: np.ndarray, nominal_reference_db: float) -> list[SpanPlan]:
@@ -38,7 +37,7 @@ def plan(mask: tuple[Span, ...], freqs_hz: np.ndarray, nominal_reference_db: flo
         lim = s.limit_at(freqs_hz[idx])
         if s.quantity == "gain" and s.relative:
             lim = lim + nominal_reference_db
-        out.append(SpanPlan(s, idx, lim, 10 ** (lim / 10) if s.quantity == "gain" else lim))
+        out.append(SpanPlan(s, idx, lim))
     return out
 
 
@@ -48,14 +47,13 @@ def margins(plans: list[SpanPlan], resp: Response) -> np.ndarray:
     Gain spans: dB; phase spans: degrees; delay spans: seconds (limit minus the delay's
     variation over the band). Positive = passes.
     """
-    s = resp.gain2.shape[0]
+    s = resp.gain_db.shape[0]
     out = np.empty((s, len(plans)))
     for j, p in enumerate(plans):
         q = p.span.quantity
         if q == "gain":
-            ratio = resp.gain2[:, p.index] / p.limit_lin
-            worst = ratio.min(axis=1) if p.span.kind == "floor" else 1.0 / ratio.max(axis=1)
-            out[:, j] = 10 * np.log10(np.maximum(worst, 1e-300))
+            d = resp.gain_db[:, p.index] - p.limit
+            out[:, j] = d.min(axis=1) if p.span.kind == "floor" else (-d).min(axis=1)
         elif q == "phase":
             assert resp.phase_deg is not None, "phase spans need the phase"
             d = resp.phase_deg[:, p.index] - p.limit

@@ -101,7 +101,7 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
     for j, s in enumerate(d.mask):
         nominal_metrics[f"margin.{s.label}"] = float(prep.nominal.margins[j])
     return ViewData(
-        req.generation, d, ens.freqs_hz, req.second, 10 * np.log10(np.maximum(nom.gain2[0], 1e-300)),
+        req.generation, d, ens.freqs_hz, req.second, nom.gain_db[0],
         np.asarray(nominal_second), bands(drawn.gain_db), bands(second),
         drawn.gain_db[pass_rows], second[pass_rows], drawn.gain_db[fail_rows], second[fail_rows],
         est, spans, metric_columns(ens), nominal_metrics, budget, ens.samples, ens.seed, ens.method,

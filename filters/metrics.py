@@ -10,7 +10,15 @@ import math
 
 import numpy as np
 
-from .engine import Circuit, Response, StageCoefficients, dc_gain2, gain2_at, hf_gain2
+from .engine import (
+    GAIN_DB_LIMIT,
+    Circuit,
+    Response,
+    StageCoefficients,
+    dc_gain2,
+    gain2_at,
+    hf_gain2,
+)
 
 TWO_PI = 2 * math.pi
 
@@ -21,12 +29,12 @@ def peak(coeffs: list[StageCoefficients], resp: Response) -> tuple[np.ndarray, n
     The grid maximum is refined by a golden-section search between its two neighbours
     (exact evaluations of H; assumes one maximum there).
     """
-    g2 = resp.gain2
+    gdb = resp.gain_db
     f = resp.freqs_hz
-    s = g2.shape[0]
+    s = gdb.shape[0]
     rows = np.arange(s)
-    i = np.argmax(g2, axis=1)
-    best2 = g2[rows, i]
+    i = np.argmax(gdb, axis=1)
+    best2 = 10 ** (gdb[rows, i] / 10)
     best_f = f[i]
     inner = (i > 0) & (i < f.size - 1)
     if f.size < 3 or not inner.any():
@@ -116,11 +124,11 @@ def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray
     level (a low-pass edge); ``"rising"``: the lowest frequency below which it stays
     below (a high-pass edge). NaN where there is no crossing inside the grid.
     """
-    g2 = resp.gain2
+    gdb = resp.gain_db
     f = resp.freqs_hz
-    above = g2 >= level2[:, None]
+    above = gdb >= _db(level2)[:, None]
     n = f.size
-    rows = np.arange(g2.shape[0])
+    rows = np.arange(gdb.shape[0])
     if direction == "falling":
         last = n - 1 - np.argmax(above[:, ::-1], axis=1)  # last index at or above the level
         ok = above[rows, last] & (last < n - 1)
@@ -131,11 +139,16 @@ def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray
         ok = above[rows, first] & (first > 0)
         i = np.maximum(first, 1)
         lo, hi = f[i - 1], f[i]
-    out = np.full(g2.shape[0], np.nan)
+    out = np.full(gdb.shape[0], np.nan)
     if ok.any():
         sub = [StageCoefficients(c.num[ok], c.den[ok], c.w_ref) for c in coeffs]
         out[ok] = _refine(sub, lo[ok], hi[ok], level2[ok])
     return out
+
+
+def _db(gain2: np.ndarray) -> np.ndarray:
+    """10 log10 of a power gain, held within the engine's decibel range."""
+    return np.clip(10 * np.log10(np.maximum(gain2, 1e-300)), -GAIN_DB_LIMIT, GAIN_DB_LIMIT)
 
 
 def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Response,
@@ -149,8 +162,8 @@ def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Resp
     if circuit.kind == "bandpass":
         peak_f, peak2 = peak(coeffs, resp)  # the reference: refined off the grid
     else:  # peaking is informational here: the grid's maximum (within ~0.01 dB at Q = 2, 400 points)
-        i = np.argmax(resp.gain2, axis=1)
-        peak_f, peak2 = resp.freqs_hz[i], resp.gain2[np.arange(i.size), i]
+        i = np.argmax(resp.gain_db, axis=1)
+        peak_f, peak2 = resp.freqs_hz[i], 10 ** (resp.gain_db[np.arange(i.size), i] / 10)
     ref2 = reference_gain2(circuit, coeffs, resp, peak2)
     level2 = ref2 * 10 ** (-cutoff_db / 10)
     out: dict[str, np.ndarray] = {"reference_db": 10 * np.log10(np.maximum(ref2, 1e-300))}
@@ -175,11 +188,11 @@ def _half_crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.n
     the peak itself, whichever is nearer, so a coarse grid whose points all miss the
     peak's top still brackets the edge correctly.
     """
-    g2 = resp.gain2
+    gdb = resp.gain_db
     f = resp.freqs_hz
-    n = g2.shape[1]
-    rows = np.arange(g2.shape[0])
-    under = g2 < level2[:, None]
+    n = gdb.shape[1]
+    rows = np.arange(gdb.shape[0])
+    under = gdb < _db(level2)[:, None]
     if below:
         cand = under & (f[None, :] < peak_f[:, None])
         j = n - 1 - np.argmax(cand[:, ::-1], axis=1)  # last grid point under the level left of the peak
@@ -192,7 +205,7 @@ def _half_crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.n
         ok = cand[rows, j]
         lo = np.maximum(f[np.maximum(j - 1, 0)], peak_f)
         hi = f[j]
-    out = np.full(g2.shape[0], np.nan)
+    out = np.full(gdb.shape[0], np.nan)
     if ok.any():
         sub = [StageCoefficients(c.num[ok], c.den[ok], c.w_ref) for c in coeffs]
         out[ok] = _refine(sub, lo[ok], hi[ok], level2[ok])

@@ -858,7 +858,7 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     sp = _spread_ensemble(result, spread)
     assert sp.gain_db is not None
     bd = bands(sp.gain_db)
-    nominal_db = 10 * np.log10(np.maximum(sp.nominal.response.gain2[0], 1e-300))
+    nominal_db = sp.nominal.response.gain_db[0]
     if sp is ens or (sp.seed == ens.seed and sp.start == ens.start and sp.samples == result.samples):
         subset = f"all {format_count(sp.samples)} analysed boards"
     elif sp.seed == ens.seed and sp.start == ens.start and sp.samples <= result.samples:

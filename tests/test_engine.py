@@ -326,6 +326,35 @@ def design_cases():
                          ("mfb_lowpass", {}, perturbed(MFB_LP, 3, 0.1, rng)),
                          ("rc_lowpass", {"sections": 2, "load": True}, perturbed(rc_values(2, False, True), 3, 0.1, rng))])
     cases.append(("cascade_hp_lp_rc", c, values))
+    # The engine multiplies lean stages (degree <= 2, monomial numerator) two at a time and
+    # takes one arctan2 per pair; these cascades stress that pairing.
+    # five lean stages: two pairs (one with a first-order section) and one left over
+    _, c, values = make([("sallen_key_lowpass", {}, perturbed(SK_LP, 3, 0.1, rng)),
+                         ("rc_lowpass", {"sections": 1}, perturbed(rc_values(1, False, False), 3, 0.1, rng)),
+                         ("mfb_bandpass", {}, perturbed(MFB_BP, 3, 0.1, rng)),
+                         ("sallen_key_highpass", {"gain": "resistors"}, perturbed(SK_HP_K, 3, 0.1, rng)),
+                         ("mfb_highpass", {}, perturbed(MFB_HP, 3, 0.1, rng))])
+    cases.append(("five_lean_stages", c, values))
+    # a pair whose stages sit four decades apart (high-pass near 15 Hz, low-pass near 150 kHz)
+    hp_low = {k: (v * 1000 if k.startswith("C") else v) for k, v in SK_HP.items()}
+    lp_high = {k: (v / 10 if k.startswith("C") else v) for k, v in SK_LP.items()}
+    _, c, values = make([("sallen_key_highpass", {}, perturbed(hp_low, 3, 0.1, rng)),
+                         ("sallen_key_lowpass", {}, perturbed(lp_high, 3, 0.1, rng))])
+    cases.append(("pair_four_decades_apart", c, values))
+    # two band-pass sections of Q about 21 tuned 2 % apart (stagger tuning)
+    bp_sharp = dict(MFB_BP, R3=1.6e6)
+    bp_sharp2 = dict(bp_sharp, C1=bp_sharp["C1"] / 1.02, C2=bp_sharp["C2"] / 1.02)
+    _, c, values = make([("mfb_bandpass", {}, perturbed(bp_sharp, 3, 0.01, rng)),
+                         ("mfb_bandpass", {}, perturbed(bp_sharp2, 3, 0.01, rng))])
+    cases.append(("pair_high_q_stagger", c, values))
+    # boards where the gain-setting resistors make a Sallen-Key stage unstable (gain 3.5 > 3
+    # with equal parts: negative damping) next to stable ones, paired with a stable stage
+    unstable = {k: np.full(3, v) for k, v in SK_LP_K.items()}
+    unstable["R2"] = np.full(3, 10e3)
+    unstable["RF"] = np.array([6.8e3, 25e3, 22e3])
+    _, c, values = make([("sallen_key_lowpass", {"gain": "resistors"}, unstable),
+                         ("mfb_lowpass", {}, {k: np.full(3, v) for k, v in MFB_LP.items()})])
+    cases.append(("pair_with_unstable_boards", c, values))
     return cases
 
 
