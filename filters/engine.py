@@ -3,12 +3,14 @@
 Shapes: part values ``(samples, parts)`` in ohm, F, H (op-amps: gain-bandwidth in Hz);
 coefficients ``(samples, degree + 1)`` in ascending powers of s; responses
 ``(samples, freqs)``. Stages are buffered, so the design's H(s) is the product of the
-stages' H(s); each stage is evaluated on its own with its frequency scaled to order 1,
-which keeps wide frequency ranges and extreme part values accurate.
+stages' H(s); each stage's coefficients are scaled to a frequency of order 1 (lean
+sections are multiplied in pairs at the pair's mean scale), which keeps wide frequency
+ranges and extreme part values accurate.
 
 Frequency responses use real arithmetic only: p(jw) splits into an even part (real) and
-an odd part (imaginary), each a real polynomial in w^2. Gains are compared as linear
-power gains |H|^2; decibels are taken only for what is shown.
+an odd part (imaginary), each evaluated as a matrix product of coefficients and powers
+of the frequency. Responses carry the gain in dB; exact |H|^2 off the grid comes from
+:func:`gain2_at`.
 """
 from __future__ import annotations
 

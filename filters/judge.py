@@ -5,8 +5,7 @@ the span's worst grid point (dB for gain spans, degrees for phase spans, seconds
 delay spans); positive margin = the span passes. The grid holds every span edge, so a
 span is checked at its ends and at every grid point between them.
 
-Gains are compared in the linear domain, |H|^2 against 10^(limit/10); logarithms are
-taken only of each span's worst ratio, a (samples,) array.
+Gains are compared in dB: the response's gain in dB (from the engine) minus the limit.
 """
 from __future__ import annotations
 
