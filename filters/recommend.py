@@ -46,7 +46,7 @@ from .evaluate import Ensemble, Prepared, evaluate, prepare
 from .grades import Catalog, Grade
 from .sampling import REFERENCE_CELSIUS
 from .stats import INTERVAL_METHODS, lower_bound, smallest_meeting
-from .values import format_value, series_for_tolerance, snap, tolerance_letter
+from .values import E_SERIES, format_value, series_for_tolerance, snap, tolerance_letter
 
 #: The verification run uses this seed offset from the search's seed.
 FRESH_SEED_OFFSET = 1_000_003
@@ -663,6 +663,13 @@ def worst_margin_metric(ens: Ensemble) -> str | None:
     return names[j]
 
 
+def _series_search_order(usual: str) -> list[str]:
+    """IEC 60063 series to look for a value in: ``usual``, then finer, then coarser ones."""
+    names = list(E_SERIES)
+    i = names.index(usual)
+    return names[i:] + names[:i][::-1]
+
+
 def parts_list_rows(design: Design, recommendation: Recommendation | None,
                     budget: Mapping[str, Budget] | None = None, *,
                     metric: str | None = None) -> list[dict[str, Any]]:
@@ -672,7 +679,10 @@ def parts_list_rows(design: Design, recommendation: Recommendation | None,
     design's own (what-if tolerances applied). ``nominal value`` is the marked value in
     SI units with its unit (``2.67 kΩ``); ``preferred value`` the value snapped to the
     IEC 60063 series that suits the grade's tolerance (``series``), marked
-    ``(is preferred)`` when the value already is one (blank for op-amps and ideal grades);
+    ``(is preferred)`` when the value already belongs to that series or, failing that, to
+    another (then ``series`` names it, finer series first: an E96 value bought at 2 % or an
+    E24 capacitor bought at 2 % is kept, not moved to E48); a suggested value that differs
+    changes the design and needs a new analysis (blank for op-amps and ideal grades);
     ``tolerance_pct`` in plus/minus percent with its IEC 60062 letter (blank if it has
     none); ``tempco (ppm/K)`` as ``nominal ± spread``; ``relative cost`` the catalog's.
     ``share of spread budget (%)`` is the part's share of ``metric``'s variance in
@@ -696,10 +706,13 @@ def parts_list_rows(design: Design, recommendation: Recommendation | None,
         preferred, series = "", ""
         if p.kind in ("R", "C", "L") and g.tolerance_pct > 0:
             series = series_for_tolerance(g.tolerance_pct)
-            pv = float(snap(p.value, series))
-            preferred = format_value(pv, unit)
-            if math.isclose(pv, p.value, rel_tol=1e-9):
-                preferred += " (is preferred)"
+            member = next((s for s in _series_search_order(series)
+                           if math.isclose(float(snap(p.value, s)), p.value, rel_tol=1e-9)), None)
+            if member is not None:
+                series = member
+                preferred = format_value(p.value, unit) + " (is preferred)"
+            else:
+                preferred = format_value(float(snap(p.value, series)), unit)
         share = shares.get(p.ref)
         rows.append({
             "ref": p.ref,

@@ -297,9 +297,11 @@ def test_what_if_tolerances_are_cleared(table):
 
 
 def test_parts_list_letters_and_preferred_values(tmp_path):
-    # [IEC63] 2.67k at 1 % (E96) is preferred; 2.7k at 1 % is not (nearest E96: 2.67k, as
-    # ln(270/267) < ln(274/270)); 22n at 5 % is in E24; 10n at 2 % is in E48.
-    d = make(values=("2.67k", "2.7k", "22n", "10n"), grades=("RC", "RC", "CB", "CC"))
+    # [IEC63] 2.67k at 1 % (E96) is preferred; 2.65k belongs to no series (E192 has 2.64 and
+    # 2.67) and moves to the nearest E96 value 2.67k (ln(267/265) < ln(265/261)); 22n at 5 % is
+    # in E24; 10n at 2 % is in E48. Values of another series are kept (common practice: E24
+    # values are sold in 1 % and 2 % grades too): 2.7k at 1 % and 22n at 2 % stay E24.
+    d = make(values=("2.67k", "2.65k", "22n", "10n"), grades=("RC", "RC", "CB", "CC"))
     rows = parts_list_rows(d, None)
     assert [r["ref"] for r in rows] == ["R1", "R2", "C1", "C2"]
     assert all(list(r) == list(PARTS_COLUMNS) for r in rows)
@@ -309,6 +311,9 @@ def test_parts_list_letters_and_preferred_values(tmp_path):
     assert r2["preferred value"] == "2.67 k\u03a9" and r2["series"] == "E96"
     assert c1["preferred value"] == "22 nF (is preferred)" and c1["series"] == "E24"
     assert c2["preferred value"] == "10 nF (is preferred)" and c2["series"] == "E48"
+    kept = parts_list_rows(make(values=("2.7k", "2.7k", "22n", "22n"), grades=("RC", "RC", "CB", "CC")), None)
+    assert kept[0]["preferred value"] == "2.7 k\u03a9 (is preferred)" and kept[0]["series"] == "E24"
+    assert kept[3]["preferred value"] == "22 nF (is preferred)" and kept[3]["series"] == "E24"
     # [IEC62] letters
     assert (r1["IEC 60062 letter"], c1["IEC 60062 letter"], c2["IEC 60062 letter"]) == ("F", "J", "G")
     assert r1["tolerance_pct"] == 1.0 and r1["relative cost"] == 1.8
