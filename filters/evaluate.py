@@ -12,7 +12,9 @@ random: the sensitivities and corners use it on perturbed and extreme designs).
 from __future__ import annotations
 
 import os
+import threading
 from concurrent.futures import ThreadPoolExecutor
+from concurrent.futures import TimeoutError as FuturesTimeout
 from dataclasses import dataclass
 from typing import Callable, Sequence
 
@@ -29,6 +31,7 @@ from .sampling import draw_scores, part_values
 
 CHUNK_MAX = 8192  # boards per chunk at most: bounds the per-chunk arrays (a few x 8192 x F floats)
 WORKERS = max(1, min(4, os.cpu_count() or 1))
+STOP_POLL_S = 0.01  # how often a waiting evaluation asks should_stop (s)
 _POOL = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="tolspread")
 _SCORES: dict[tuple, np.ndarray] = {}
 
@@ -198,7 +201,8 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
     tolerance slider or a candidate recommendation is tried on the same boards.
     ``start`` skips that many boards of the seed's sequence (for adding batches).
     ``progress(done, total)`` is called after each chunk; ``should_stop()`` returning True
-    raises :class:`Cancelled` between chunks.
+    raises :class:`Cancelled`: it is asked after each chunk and every :data:`STOP_POLL_S`
+    while a chunk is awaited; chunks still running then skip the rest of their work.
     """
     a = design.analysis
     n = a.samples if samples is None else int(samples)
@@ -219,11 +223,17 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
     marg = np.empty((n, len(prep.plans)))
     metrics: dict[str, np.ndarray] = {}
 
+    stopped = threading.Event()  # set when the caller stops: chunks not yet done skip their work
+
     def work(lo: int, hi: int) -> tuple[int, int, dict[str, np.ndarray]]:
+        if stopped.is_set():
+            return lo, hi, {}
         sc = scores[lo:hi] if scores is not None else draw_scores(
             seed, n_parts, start + lo, start + hi, method)  # type: ignore[arg-type]
         vals = part_values(nominal_values, grade_list, sc, a.conditions)
         values[lo:hi] = vals
+        if stopped.is_set():
+            return lo, hi, {}
         # curves go straight into the result arrays
         out = (None if gain_db is None else gain_db[lo:hi],
                None if phase_deg is None else phase_deg[lo:hi],
@@ -238,29 +248,41 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
     done = 0
     window = WORKERS + 1  # chunks in flight at once (bounded memory): one queued keeps every thread busy
     pending: list = []
+
+    def result_of(fut):
+        """The chunk's result; while waiting, ``should_stop`` is asked every STOP_POLL_S."""
+        if should_stop is None:
+            return fut.result()
+        while True:
+            try:
+                return fut.result(timeout=STOP_POLL_S)
+            except FuturesTimeout:
+                if should_stop():
+                    raise Cancelled("evaluation cancelled") from None
+
     try:
         for b in bounds:
             pending.append(_POOL.submit(work, *b))
             if len(pending) >= window:
-                done = _collect(pending.pop(0), metrics, n, done, progress)
+                done = _collect(result_of(pending.pop(0)), metrics, n, done, progress)
                 if should_stop is not None and should_stop():
                     raise Cancelled("evaluation cancelled")
         while pending:
-            done = _collect(pending.pop(0), metrics, n, done, progress)
+            done = _collect(result_of(pending.pop(0)), metrics, n, done, progress)
             if pending and should_stop is not None and should_stop():
                 raise Cancelled("evaluation cancelled")
     finally:
+        # On a stop or an error: queued chunks are dropped and running ones return early;
+        # their arrays belong to this call alone, so nothing waits for them.
+        stopped.set()
         for p in pending:
             p.cancel()
-        for p in pending:
-            if not p.cancelled():
-                p.exception()
     return Ensemble(design, grade_list, seed, method, start, values, freqs, gain_db, phase_deg,
                     delay_s, metrics, marg, prep.nominal)
 
 
-def _collect(fut, metrics: dict[str, np.ndarray], n: int, done: int, progress) -> int:
-    lo, hi, m = fut.result()
+def _collect(result: tuple, metrics: dict[str, np.ndarray], n: int, done: int, progress) -> int:
+    lo, hi, m = result
     for k, v in m.items():
         arr = metrics.get(k)
         if arr is None:
