@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Literal
 
 import numpy as np
 
@@ -184,9 +183,6 @@ def _derivative(c: np.ndarray) -> np.ndarray:
     return c[:, 1:] * np.arange(1, c.shape[1])
 
 
-PhaseMode = Literal["none", "phase"]
-
-
 @dataclass(frozen=True)
 class Response:
     """Responses on ``freqs_hz`` (F,): ``gain_db`` (S, F), held within +-:data:`GAIN_DB_LIMIT`;
@@ -240,16 +236,15 @@ class _JwPoly:
     def build(cls, c: np.ndarray, x: np.ndarray, shift: int = 0, negate: str = "") -> _JwPoly:
         """From coefficients ``c`` (S, M), ascending; ``negate`` ("re" or "im") flips the
         sign of that part at no cost."""
-        m = np.arange(c.shape[1])
-        sign = np.where((m // 2) % 2 == 0, 1.0, -1.0)  # j^m = 1, j, -1, -j, ...
+        even, odd = _signed_parts(c)
         if negate == "re":
-            sign = np.where(m % 2 == 0, -sign, sign)
+            even = -even
         elif negate == "im":
-            sign = np.where(m % 2 == 1, -sign, sign)
+            odd = -odd
+        m = np.arange(c.shape[1])
         powers = np.power(x[None, :], (m - shift)[:, None].astype(float))  # (M, F)
-        signed = c * sign
         # contiguous operands, so numpy hands the products to BLAS
-        return cls(np.ascontiguousarray(signed[:, 0::2]), np.ascontiguousarray(signed[:, 1::2]),
+        return cls(np.ascontiguousarray(even), np.ascontiguousarray(odd),
                    np.ascontiguousarray(powers[0::2]), np.ascontiguousarray(powers[1::2]))
 
     def parts(self, lo: int, hi: int, re: np.ndarray | None = None,
