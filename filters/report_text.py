@@ -1,0 +1,133 @@
+"""The report's words and numbers for people: percentages, counts, metric values with
+their units, grades and distributions described in words, and the list of assumptions.
+Everything here is generated from the design and the result (no fixed claims about a
+particular design)."""
+from __future__ import annotations
+
+import html
+import math
+from typing import Sequence
+
+from .grades import Grade
+from .mask import Span
+from .values import format_value
+
+esc = html.escape
+
+# --- number formatting for people ------------------------------------------------------
+
+def format_pct(x: float, digits: int = 2) -> str:
+    """A fraction as a percentage with ``digits`` decimals: 0.915 -> "91.50 %".
+
+    A fraction that is not exactly 0 or 1 never prints as "0.00 %" or "100.00 %": more
+    decimals are added (up to 6) until it differs.
+    """
+    if not math.isfinite(x):
+        return "n/a"
+    p = 100.0 * x
+    d = digits
+    while d < 6 and 0.0 < x < 1.0 and (f"{p:.{d}f}" in (f"{100:.{d}f}", f"{0:.{d}f}")):
+        d += 1
+    return f"{p:.{d}f} %"
+
+
+def format_count(n: int) -> str:
+    """A count with thousands separators: 12000 -> "12,000"."""
+    return f"{int(n):,}"
+
+
+def _num(x: float, unit: str, signed: bool = True) -> str:
+    """A metric value for people in ``unit`` (Hz, dB, deg, s or "" for plain numbers);
+    dB and degrees carry their sign unless ``signed`` is False (spreads)."""
+    if x is None or not math.isfinite(x):
+        return "n/a"
+    sign = "+" if signed else ""
+    if unit == "Hz":
+        return format_value(x, "Hz", digits=4)
+    if unit == "dB":
+        return f"{x:{sign}.3f} dB"
+    if unit == "deg":
+        return f"{x:{sign}.2f} deg"
+    if unit == "s":
+        return format_value(x, "s", digits=3)
+    return f"{x:.4g}"
+
+
+def _cost(x: float | None) -> str:
+    return "n/a" if x is None or not math.isfinite(x) else f"{x:.2f}"
+
+
+_SPAN_UNIT = {"gain": "dB", "phase": "deg", "delay": "s"}
+
+
+def _metric_unit(name: str, mask: Sequence[Span]) -> str:
+    if name.startswith("margin."):
+        label = name[len("margin."):]
+        for s in mask:
+            if s.label == label:
+                return _SPAN_UNIT[s.quantity]
+        return "dB"
+    if name.endswith("_hz"):
+        return "Hz"
+    if name.endswith("_db"):
+        return "dB"
+    return ""
+
+
+def describe_distribution(g: Grade, short: bool = False) -> str:
+    """How a grade's values are distributed, in words (``short``: for a table cell)."""
+    tol = g.tolerance_pct
+    if tol == 0:
+        return "none (exact)" if short else "no spread (exact value)"
+    if g.distribution == "uniform":
+        return "uniform" if short else f"uniform within \u00b1{tol:g} %"
+    if short:
+        if g.distribution == "binned":
+            return f"binned, k = {g.coverage:g}, centre \u00b1{g.bin_inner_pct:g} % removed"
+        return f"normal, k = {g.coverage:g}, {'truncated' if g.truncate else 'not truncated'}"
+    if g.distribution == "binned":
+        return (f"binned: normal with coverage factor k = {g.coverage:g} (\u03c3 = {tol / g.coverage:.3g} %), "
+                f"the centre within \u00b1{g.bin_inner_pct:g} % removed (sold as a tighter grade), "
+                f"limited to \u00b1{tol:g} %")
+    cut = f"truncated at \u00b1{tol:g} %" if g.truncate else "not truncated"
+    return f"normal with coverage factor k = {g.coverage:g} (\u03c3 = {tol / g.coverage:.3g} %), {cut}"
+
+
+def _tempco(g: Grade) -> str:
+    if not g.tempco_ppm and not g.tempco_spread_ppm:
+        return "0"
+    if not g.tempco_ppm:
+        return f"\u00b1{g.tempco_spread_ppm:g} ppm/K"
+    return f"{g.tempco_ppm:+g} \u00b1 {g.tempco_spread_ppm:g} ppm/K"
+
+
+def _drift(g: Grade) -> str:
+    return f"\u00b1{g.drift_pct:g} %" if g.drift_pct else "none"
+
+
+_INTERVAL_NAMES = {"wilson": "Wilson score interval (without continuity correction)",
+                   "exact": "Clopper-Pearson exact interval"}
+_METHOD_NAMES = {"random": "random (numpy PCG64 generator seeded through SeedSequence)",
+                 "sobol": "scrambled Sobol points (quasi-Monte Carlo)"}
+
+
+def _sensitivity(value: float, unit: str) -> str:
+    if not math.isfinite(value):
+        return "n/a"
+    return f"{value:+.3g}" if unit == "ln/ln" else f"{value:+.3g} {esc(unit)}"
+
+
+def _opamp_text(d, stage, topo) -> str:
+    amps = [o.role for o in topo.netlist.opamps]
+    if not amps:
+        return "passive"
+    out = []
+    for role in amps:
+        ref = stage.roles.get(role)
+        if ref is None:
+            out.append(f"{role} ideal (infinite gain and bandwidth)")
+        else:
+            part = d.parts[d.part_index(ref)]
+            out.append(f"{role} = {ref}, single-pole with gain-bandwidth {format_value(part.value, 'Hz', digits=4)}")
+    return "; ".join(out)
+
