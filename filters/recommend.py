@@ -646,9 +646,11 @@ def cost_yield_curve(design: Design, targets: Sequence[float] = DEFAULT_TARGETS,
 
 UNITS = {"R": "\u03a9", "C": "F", "L": "H", "opamp": "Hz"}
 PARTS_COLUMNS: tuple[str, ...] = (
-    "ref", "nominal value", "preferred value", "series", "grade", "tolerance_pct",
+    "ref", "nominal value", "series", "nearest preferred value", "grade", "tolerance (\u00b1 %)",
     "IEC 60062 letter", "tempco (ppm/K)", "technology", "relative cost",
     "share of spread budget (%)", "budget metric")
+#: First characters that make a spreadsheet program read a cell as a formula.
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 
 
 def worst_margin_metric(ens: Ensemble) -> str | None:
@@ -663,11 +665,12 @@ def worst_margin_metric(ens: Ensemble) -> str | None:
     return names[j]
 
 
-def _series_search_order(usual: str) -> list[str]:
-    """IEC 60063 series to look for a value in: ``usual``, then finer, then coarser ones."""
-    names = list(E_SERIES)
-    i = names.index(usual)
-    return names[i:] + names[:i][::-1]
+def smallest_series(value: float) -> str | None:
+    """The smallest IEC 60063 series (E3, E6, E12, E24, E48, E96, E192, in that order) that
+    holds ``value`` (SI units, any decade), or None when no series does: 4.7 nF -> "E3",
+    15 nF -> "E6", 2.67 kohm -> "E96"."""
+    return next((name for name in E_SERIES
+                 if math.isclose(float(snap(value, name)), value, rel_tol=1e-9)), None)
 
 
 def parts_list_rows(design: Design, recommendation: Recommendation | None,
@@ -677,19 +680,22 @@ def parts_list_rows(design: Design, recommendation: Recommendation | None,
 
     With a recommendation that chose a set, its design's grades are listed; else the
     design's own (what-if tolerances applied). ``nominal value`` is the marked value in
-    SI units with its unit (``2.67 kΩ``); ``preferred value`` the value snapped to the
-    IEC 60063 series that suits the grade's tolerance (``series``), marked
-    ``(is preferred)`` when the value already belongs to that series or, failing that, to
-    another (then ``series`` names it, finer series first: an E96 value bought at 2 % or an
-    E24 capacitor bought at 2 % is kept, not moved to E48); a suggested value that differs
-    changes the design and needs a new analysis (blank for op-amps and ideal grades);
-    ``tolerance_pct`` in plus/minus percent with its IEC 60062 letter (blank if it has
-    none); ``tempco (ppm/K)`` as ``nominal ± spread``; ``relative cost`` the catalog's.
+    SI units with its unit (``2.67 kΩ``); ``series`` the smallest IEC 60063 series that
+    holds it (:func:`smallest_series`; "none" when no series does; blank for op-amps and
+    ideal grades). A value of any series counts as a preferred value (common practice: E24
+    values are sold at 1 % and 2 % too); only a value in no series gets a ``nearest
+    preferred value``: the nearest value of the series usual for the grade's tolerance,
+    named with that series (a different value changes the design and needs a new
+    analysis). ``tolerance (± %)`` with its IEC 60062 letter (blank if it has none);
+    ``tempco (ppm/K)`` as ``nominal ± spread``; ``relative cost`` the catalog's.
     ``share of spread budget (%)`` is the part's share of ``metric``'s variance in
     ``budget`` (from :func:`filters.budget.spread_budget`), by default ``cutoff_hz`` (else
     the first span margin); pass ``metric=worst_margin_metric(ens)`` for the worst span.
+    ``budget metric`` names that metric in words (``margin of 'corner floor' (dB)``).
     Blank without a budget.
     """
+    from .summary import metric_label
+
     shown = recommendation.design if recommendation is not None and recommendation.chosen else design
     grades = shown.part_grades()
     if budget and metric is None:
@@ -700,46 +706,54 @@ def parts_list_rows(design: Design, recommendation: Recommendation | None,
         if metric not in budget:
             raise InputError(f"no spread budget for {metric!r}; have {', '.join(budget)}", "metric")
         shares = {e.ref: e.share for e in budget[metric].entries}
+    metric_words = metric_label(metric, [s.name for s in shown.stages]) if shares and metric else ""
     rows = []
     for p, g in zip(shown.parts, grades):
         unit = UNITS.get(p.kind, "")
-        preferred, series = "", ""
+        nearest, series = "", ""
         if p.kind in ("R", "C", "L") and g.tolerance_pct > 0:
-            series = series_for_tolerance(g.tolerance_pct)
-            member = next((s for s in _series_search_order(series)
-                           if math.isclose(float(snap(p.value, s)), p.value, rel_tol=1e-9)), None)
-            if member is not None:
-                series = member
-                preferred = format_value(p.value, unit) + " (is preferred)"
-            else:
-                preferred = format_value(float(snap(p.value, series)), unit)
+            series = smallest_series(p.value) or "none"
+            if series == "none":
+                usual = series_for_tolerance(g.tolerance_pct)
+                nearest = (f"{format_value(float(snap(p.value, usual)), unit)} "
+                           f"({usual}, the series usual for \u00b1{g.tolerance_pct:g} %)")
         share = shares.get(p.ref)
         rows.append({
             "ref": p.ref,
             "nominal value": format_value(p.value, unit),
-            "preferred value": preferred,
             "series": series,
+            "nearest preferred value": nearest,
             "grade": p.grade,
-            "tolerance_pct": g.tolerance_pct,
+            "tolerance (\u00b1 %)": g.tolerance_pct,
             "IEC 60062 letter": tolerance_letter(g.tolerance_pct) or "",
             "tempco (ppm/K)": f"{g.tempco_ppm:g} \u00b1 {g.tempco_spread_ppm:g}",
             "technology": g.technology,
             "relative cost": g.cost,
             "share of spread budget (%)": "" if share is None else round(100.0 * share, 1),
-            "budget metric": metric if shares else "",
+            "budget metric": metric_words,
         })
     return rows
 
 
+def _as_text_cell(value: Any) -> Any:
+    """A cell a spreadsheet program would run as a formula (text starting with = + - @,
+    tab or carriage return) gets a leading apostrophe, so it is shown as text."""
+    if isinstance(value, str) and value.startswith(FORMULA_STARTS):
+        return "'" + value
+    return value
+
+
 def write_parts_csv(rows: Sequence[Mapping[str, Any]], path: str | Path) -> None:
-    """Write parts-list rows (from :func:`parts_list_rows`) as a UTF-8 CSV file with a header,
-    atomically (:func:`filters.designfile.write_text_atomic`)."""
+    """Write parts-list rows (from :func:`parts_list_rows`) as a CSV file with a header,
+    atomically (:func:`filters.designfile.write_text_atomic`). The file is UTF-8 with a
+    byte-order mark (``utf-8-sig``), so spreadsheet programs show ohm and ± signs; text
+    cells that a spreadsheet would run as a formula are written with a leading apostrophe."""
     columns = list(PARTS_COLUMNS)
     for r in rows:
         columns += [k for k in r if k not in columns]
     buf = io.StringIO()
     writer = csv.DictWriter(buf, fieldnames=columns, lineterminator="\n")
-    writer.writeheader()
+    writer.writerow({k: _as_text_cell(k) for k in columns})
     for r in rows:
-        writer.writerow(dict(r))
-    write_text_atomic(Path(path), buf.getvalue(), backup=False)
+        writer.writerow({k: _as_text_cell(v) for k, v in r.items()})
+    write_text_atomic(Path(path), "\ufeff" + buf.getvalue(), backup=False)

@@ -297,26 +297,27 @@ def test_what_if_tolerances_are_cleared(table):
 
 
 def test_parts_list_letters_and_preferred_values(tmp_path):
-    # [IEC63] 2.67k at 1 % (E96) is preferred; 2.65k belongs to no series (E192 has 2.64 and
-    # 2.67) and moves to the nearest E96 value 2.67k (ln(267/265) < ln(265/261)); 22n at 5 % is
-    # in E24; 10n at 2 % is in E48. Values of another series are kept (common practice: E24
-    # values are sold in 1 % and 2 % grades too): 2.7k at 1 % and 22n at 2 % stay E24.
+    # [IEC63] "series" is the smallest series holding the value: 2.67k is in E96 (not E48:
+    # 2.61, 2.74); 2.65k belongs to no series (E192 has 2.64 and 2.67) and gets the nearest
+    # value of the series usual for 1 %, E96 2.67k (ln(267/265) < ln(265/261)); 22n and 10n
+    # are in E3 (1.0, 2.2, 4.7). Values of any series are kept (common practice: E24 values
+    # are sold in 1 % and 2 % grades too): 2.7k (E12) at 1 % gets no other value.
     d = make(values=("2.67k", "2.65k", "22n", "10n"), grades=("RC", "RC", "CB", "CC"))
     rows = parts_list_rows(d, None)
     assert [r["ref"] for r in rows] == ["R1", "R2", "C1", "C2"]
     assert all(list(r) == list(PARTS_COLUMNS) for r in rows)
     r1, r2, c1, c2 = rows
     assert r1["nominal value"] == "2.67 k\u03a9"
-    assert r1["preferred value"] == "2.67 k\u03a9 (is preferred)" and r1["series"] == "E96"
-    assert r2["preferred value"] == "2.67 k\u03a9" and r2["series"] == "E96"
-    assert c1["preferred value"] == "22 nF (is preferred)" and c1["series"] == "E24"
-    assert c2["preferred value"] == "10 nF (is preferred)" and c2["series"] == "E48"
+    assert r1["nearest preferred value"] == "" and r1["series"] == "E96"
+    assert r2["nearest preferred value"].startswith("2.67 k\u03a9 (E96") and r2["series"] == "none"
+    assert c1["nearest preferred value"] == "" and c1["series"] == "E3"
+    assert c2["nearest preferred value"] == "" and c2["series"] == "E3"
     kept = parts_list_rows(make(values=("2.7k", "2.7k", "22n", "22n"), grades=("RC", "RC", "CB", "CC")), None)
-    assert kept[0]["preferred value"] == "2.7 k\u03a9 (is preferred)" and kept[0]["series"] == "E24"
-    assert kept[3]["preferred value"] == "22 nF (is preferred)" and kept[3]["series"] == "E24"
+    assert kept[0]["nearest preferred value"] == "" and kept[0]["series"] == "E12"
+    assert kept[3]["nearest preferred value"] == "" and kept[3]["series"] == "E3"
     # [IEC62] letters
     assert (r1["IEC 60062 letter"], c1["IEC 60062 letter"], c2["IEC 60062 letter"]) == ("F", "J", "G")
-    assert r1["tolerance_pct"] == 1.0 and r1["relative cost"] == 1.8
+    assert r1["tolerance (\u00b1 %)"] == 1.0 and r1["relative cost"] == 1.8
     assert c1["tempco (ppm/K)"] == "0 \u00b1 30" and r1["tempco (ppm/K)"] == "0 \u00b1 100"
     assert all(r["share of spread budget (%)"] == "" for r in rows)
 
@@ -328,9 +329,9 @@ def test_parts_list_letters_and_preferred_values(tmp_path):
     rows = parts_list_rows(DESIGN, rec, budget)
     letters = {0.5: "D", 1.0: "F", 2.0: "G", 5.0: "J", 10.0: "K"}      # [IEC62]
     for r, name in zip(rows, rec.chosen.grades):
-        assert r["grade"] == name and r["tolerance_pct"] == TOL[name]
+        assert r["grade"] == name and r["tolerance (\u00b1 %)"] == TOL[name]
         assert r["IEC 60062 letter"] == letters[TOL[name]]
-        assert r["budget metric"] == "cutoff_hz"
+        assert r["budget metric"] == "cutoff (Hz)"  # plain words, not the internal key
     want = {e.ref: 100 * e.share for e in budget["cutoff_hz"].entries}
     for r in rows:
         assert r["share of spread budget (%)"] == pytest.approx(want[r["ref"]], abs=0.051)
@@ -344,14 +345,14 @@ def test_parts_list_letters_and_preferred_values(tmp_path):
     worst = f"margin.{DESIGN.mask[int(np.argmax(fails))].label}"
     assert worst_margin_metric(cheap) == worst
     by_span = parts_list_rows(DESIGN, rec, budget, metric=worst)
-    assert all(r["budget metric"] == worst for r in by_span)
+    assert all(r["budget metric"] == f"margin of '{worst[len('margin.'):]}' (dB)" for r in by_span)
     want = {e.ref: 100 * e.share for e in budget[worst].entries}
     assert all(r["share of spread budget (%)"] == pytest.approx(want[r["ref"]], abs=0.051)
                for r in by_span)
 
     path = tmp_path / "parts.csv"
     write_parts_csv(rows, path)
-    with open(path, newline="", encoding="utf-8") as fh:
+    with open(path, newline="", encoding="utf-8-sig") as fh:
         back = list(csv.DictReader(fh))
     assert [list(b) for b in back] == [list(PARTS_COLUMNS)] * 4
     assert [b["grade"] for b in back] == list(rec.chosen.grades)

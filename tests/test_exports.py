@@ -1,0 +1,86 @@
+"""Files the program writes for people and other programs: the parts-list CSV, the report
+(HTML and PDF), the plots as SVG. Each is read back with tools outside the project: the
+csv module, html.parser, xml.etree, pdftotext and pdftoppm (poppler), headless chromium and
+ImageMagick where installed.
+"""
+from __future__ import annotations
+
+import csv
+import os
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from filters.designfile import load_demo
+from filters.recommend import PARTS_COLUMNS, parts_list_rows, smallest_series, write_parts_csv
+from filters.values import parse_value
+
+# IEC 60063 series as printed in the standard (from memory): the E3..E24 mantissas.
+E3 = (1.0, 2.2, 4.7)
+E6 = (1.0, 1.5, 2.2, 3.3, 4.7, 6.8)
+E12 = (1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2)
+E24 = (1.0, 1.1, 1.2, 1.3, 1.5, 1.6, 1.8, 2.0, 2.2, 2.4, 2.7, 3.0, 3.3, 3.6, 3.9, 4.3, 4.7, 5.1, 5.6,
+       6.2, 6.8, 7.5, 8.2, 9.1)
+
+
+def read_csv(path: Path) -> list[dict[str, str]]:
+    with open(path, newline="", encoding="utf-8-sig") as fh:
+        return list(csv.DictReader(fh))
+
+
+# --- parts list ---------------------------------------------------------------------------
+
+@pytest.mark.parametrize("text, want", [
+    ("4n7", "E3"), ("47n", "E3"), ("22n", "E3"), ("15n", "E6"), ("68k", "E6"), ("3k9", "E12"),
+    ("820", "E12"), ("9k1", "E24"), ("2u0", "E24"),
+    # E48 and E96 (from memory): E48 has 7.15 and 2.61, 2.74; E96 adds 2.67, 2.80, 1.02
+    ("7k15", "E48"), ("2k67", "E96"), ("2k8", "E96"), ("10k2", "E96"),
+    # E192 (from memory): 2.64 lies between E96's 2.61 and 2.67; 2.65 is in no series
+    ("2k64", "E192"), ("2k65", None),
+])
+def test_smallest_series_holding_a_value(text, want):
+    assert smallest_series(parse_value(text)) == want
+
+
+def test_smallest_series_of_every_e24_value_in_three_decades():
+    for mant in E24:
+        want = next(name for name, table in (("E3", E3), ("E6", E6), ("E12", E12), ("E24", E24))
+                    if mant in table)
+        for scale in (1e-9, 1e3, 1e5):
+            assert smallest_series(mant * scale) == want, (mant, scale)
+
+
+def test_parts_csv_series_bom_formulas_and_plain_metric(tmp_path):
+    design = load_demo()
+    # a user-made grade whose technology text would run as a spreadsheet formula
+    from dataclasses import replace
+
+    from filters.grades import Grade
+
+    bad = Grade.from_dict({"name": "R-odd", "kind": "R", "tolerance_pct": 1, "cost": 1,
+                           "technology": "=HYPERLINK(\"http://x\")"}, "grades[0]")
+    design = replace(design, grades=(bad,)).with_part("R1", grade="R-odd")
+    from filters.analysis import analyze
+    from filters.recommend import worst_margin_metric
+
+    result = analyze(design, samples=300)
+    rows = parts_list_rows(design, None, result.budget, metric=worst_margin_metric(result.ensemble))
+    path = tmp_path / "parts.csv"
+    write_parts_csv(rows, path)
+    raw = path.read_bytes()
+    assert raw.startswith(b"\xef\xbb\xbf")  # UTF-8 byte-order mark (Unicode standard, from memory)
+    back = read_csv(path)
+    assert list(back[0]) == list(PARTS_COLUMNS)
+    by_ref = {r["ref"]: r for r in back}
+    # demo values: C4 4.7 nF and C3 47 nF are E3 values, C2 15 nF E6 (IEC 60063, from memory)
+    assert (by_ref["C4"]["series"], by_ref["C3"]["series"], by_ref["C2"]["series"]) == ("E3", "E3", "E6")
+    assert by_ref["R1"]["series"] == "E96" and by_ref["R1"]["nearest preferred value"] == ""
+    assert not any("is preferred" in v for r in back for v in r.values())
+    assert by_ref["R1"]["nominal value"] == "2.67 k\u03a9"  # the ohm sign survives the round trip
+    assert by_ref["R1"]["technology"] == "'=HYPERLINK(\"http://x\")"  # shown as text, never run
+    metric = by_ref["R1"]["budget metric"]
+    assert metric and not metric.startswith("margin.") and "_" not in metric
+    assert all(r["share of spread budget (%)"] != "" for r in back)
