@@ -13,44 +13,12 @@ from typing import Sequence
 
 from filters import __version__
 from filters.designfile import load, load_demo
-from filters.design import MAX_SAMPLES
 from filters.errors import InputError, ValidationError
 
+from .cli_args import EXIT_BAD_INPUT, Parser, positive_int, seed
 from .cli_design import add_parser as add_design_parser, run as run_design
 from .cli_recommend import add_parser as add_recommend_parser, run as run_recommend
 
-EXIT_BAD_INPUT = 2
-
-
-class _Parser(argparse.ArgumentParser):
-    """argparse that reports a usage problem in one line and exits 2."""
-
-    def error(self, message: str) -> None:  # type: ignore[override]
-        sys.stderr.write(f"tolspread: {message} (see tolspread {self.prog.split()[-1]} --help)\n"
-                         if " " in self.prog else f"tolspread: {message} (see tolspread --help)\n")
-        raise SystemExit(EXIT_BAD_INPUT)
-
-
-def _positive_int(text: str) -> int:
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if v < 1:
-        raise argparse.ArgumentTypeError(f"{text!r} must be at least 1")
-    if v > MAX_SAMPLES:
-        raise argparse.ArgumentTypeError(f"{text!r} is more than the {MAX_SAMPLES} boards one run may sample")
-    return v
-
-
-def _seed(text: str) -> int:
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if v < 0:
-        raise argparse.ArgumentTypeError(f"{text!r} must not be negative")
-    return v
 
 
 def _fraction_points(text: str) -> float:
@@ -64,20 +32,20 @@ def _fraction_points(text: str) -> float:
 
 
 def build_parser() -> argparse.ArgumentParser:
-    p = _Parser(prog="tolspread", description="Tolerance spread and yield of analog filters. "
+    p = Parser(prog="tolspread", description="Tolerance spread and yield of analog filters. "
                 "'tolspread [DESIGN]' opens the window (the demo without DESIGN); "
                 "'tolspread --screenshot PNG [DESIGN]' renders it offscreen and exits.")
     p.add_argument("--version", action="version", version=f"tolspread {__version__}")
-    sub = p.add_subparsers(dest="command", parser_class=_Parser)
+    sub = p.add_subparsers(dest="command", parser_class=Parser)
 
     a = sub.add_parser("analyze", help="Monte Carlo analysis of a design (the demo without DESIGN)")
     a.add_argument("design", nargs="?", help="design file (JSON); omit for the built-in demo")
-    a.add_argument("--samples", type=_positive_int, help="number of sampled boards")
-    a.add_argument("--seed", type=_seed, help="random seed (same seed, same numbers)")
+    a.add_argument("--samples", type=positive_int, help="number of sampled boards")
+    a.add_argument("--seed", type=seed, help="random seed (same seed, same numbers)")
     a.add_argument("--json", metavar="PATH", help="also write the results as JSON to PATH ('-' for stdout)")
     a.add_argument("--half-width", type=_fraction_points, metavar="POINTS",
                    help="add boards until the yield interval's half-width is at most POINTS percentage points")
-    a.add_argument("--max-samples", type=_positive_int, default=1_000_000,
+    a.add_argument("--max-samples", type=positive_int, default=1_000_000,
                    help="upper limit for --half-width (default 1000000)")
     a.add_argument("--attenuation-at", metavar="HZ", action="append", default=[],
                    help="also report the attenuation at this frequency (repeatable; SI text such as 6k)")
@@ -152,7 +120,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         if argv and argv[0] in SUBCOMMANDS:
             args = parser.parse_args(argv)
         else:  # the window: ``tolspread [--screenshot PNG] [DESIGN]``
-            window = _Parser(prog="tolspread", parents=[], add_help=False)
+            window = Parser(prog="tolspread", parents=[], add_help=False)
             window.add_argument("--screenshot", metavar="PNG")
             window.add_argument("design", nargs="?")
             if any(a in ("-h", "--help", "--version") for a in argv):

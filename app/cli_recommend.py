@@ -7,28 +7,24 @@ import sys
 
 from filters.errors import InputError
 
+from .cli_args import EXIT_NO_SET, confidence, fraction_or_percent, positive_int, seed
+from .texttable import table
 
-def _fraction(text: str) -> float:
-    try:
-        v = float(text.rstrip("%")) / (100.0 if text.endswith("%") else 1.0)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
-    if v >= 1 and not text.endswith("%"):
-        v = v / 100.0  # "99" means 99 %
-    if not 0 < v < 1:
-        raise argparse.ArgumentTypeError(f"{text!r} must be a fraction between 0 and 1 (or a percentage)")
-    return v
+
+def _pct(x: float) -> str:
+    return f"{100 * x:.2f} %"
 
 
 def add_parser(sub) -> None:
     r = sub.add_parser("recommend", help="cheapest set of grades meeting a yield target")
     r.add_argument("design", nargs="?", help="design file (JSON); omit for the built-in demo")
-    r.add_argument("--target-yield", type=_fraction, required=True, metavar="P",
-                   help="yield target, e.g. 0.95 or 95%%")
-    r.add_argument("--confidence", type=_fraction, default=0.95, metavar="C",
-                   help="confidence of the lower bound that must meet the target (default 0.95)")
-    r.add_argument("--samples", type=int, help="boards per candidate (default: the design's)")
-    r.add_argument("--seed", type=int, help="seed of the boards (default: the design's)")
+    r.add_argument("--target-yield", type=fraction_or_percent, required=True, metavar="P",
+                   help="yield target as a fraction or a percentage, e.g. 0.95 or 95%%")
+    r.add_argument("--confidence", type=confidence, default=0.95, metavar="C",
+                   help="confidence of the lower bound that must meet the target, 0.5 to below 1 "
+                        "(0.95 or 95%%; default 0.95)")
+    r.add_argument("--samples", type=positive_int, help="boards per candidate (default: the design's)")
+    r.add_argument("--seed", type=seed, help="seed of the boards (default: the design's)")
     r.add_argument("--catalog", metavar="PATH", help="a catalog file with your grades and costs")
     r.add_argument("--csv", metavar="PATH", help="write the parts list as CSV")
     r.add_argument("--report", metavar="PATH", help="write the design-review report (HTML)")
@@ -47,11 +43,9 @@ def run(args: argparse.Namespace) -> int:
     if not design.mask:
         raise InputError("the design has no spec mask, so there is no yield to meet; add spans first", "mask")
     catalog = load_catalog(args.catalog) if args.catalog else None
-    if args.samples is not None and args.samples < 1:
-        raise InputError("must be at least 1", "--samples")
 
     def progress(done: int, total: int) -> None:
-        sys.stderr.write(f"\r  {done} grade sets tried")
+        sys.stderr.write(f"\r  {done:,} grade sets tried")
         sys.stderr.flush()
 
     rec = recommend(design, args.target_yield, confidence=args.confidence, samples=args.samples,
@@ -59,28 +53,28 @@ def run(args: argparse.Namespace) -> int:
     if sys.stderr.isatty():
         sys.stderr.write("\n")
     out = sys.stdout
-    pct = lambda x: f"{100 * x:.2f} %"  # noqa: E731
+    pct = _pct
     out.write(f"{design.name or 'design'}\n")
-    out.write(f"target: yield lower bound >= {pct(args.target_yield)} at {round(100 * args.confidence)} % "
-              f"confidence ({rec.search} search, {rec.evaluations} grade sets tried on the same boards)\n\n")
+    out.write(f"target: yield lower bound >= {pct(args.target_yield)} at {100 * args.confidence:g} % "
+              f"confidence ({rec.search} search, {rec.evaluations:,} grade sets tried on the same boards)\n\n")
     cat = catalog or design.catalog
-    current_cost = sum(cat[g.name].cost if g.name in cat else g.cost for g in design.part_grades())
     if rec.chosen is None:
-        out.write(f"No set of grades in the catalog meets the target. {getattr(rec, 'note', '')}\n")
+        _explain_nothing(rec, args, out)
     else:
         c = rec.chosen
-        out.write(f"  {'part':<6} {'value':>9}  {'current grade':<16} {'recommended':<16} {'cost':>6}\n")
-        for p, g in zip(design.parts, c.grades):
-            mark = "" if g == p.grade else "  <- changed"
-            out.write(f"  {p.ref:<6} {p.value_text:>9}  {p.grade:<16} {g:<16} {cat[g].cost:>6.2f}{mark}\n")
-        out.write(f"\n  total relative cost {c.cost:.2f} (current grades {current_cost:.2f})\n")
+        rows = []
+        for p, now, g in zip(design.parts, rec.current_grades, c.grades):
+            rows.append([p.ref, p.value_text, now, g, f"{cat[g].cost:.2f}", "changed" if g != now else ""])
+        for line in table(["part", "value", "current grade", "recommended", "cost", ""], rows, "<><<><"):
+            out.write(line + "\n")
+        out.write(f"\n  total relative cost {c.cost:.2f} (current grades {rec.current_cost:.2f})\n")
         out.write(f"  yield on the search boards {pct(c.estimate)}, lower bound {pct(c.lower)} "
-                  f"({c.passed} of {c.samples})\n")
+                  f"({c.passed:,} of {c.samples:,})\n")
         if rec.verified is not None:
             v = rec.verified
             verdict = "holds" if rec.meets_on_fresh_seed else "does NOT hold"
             out.write(f"  check on fresh boards: yield {pct(v.estimate)}, lower bound {pct(v.lower)} "
-                      f"({v.passed} of {v.samples}): the target {verdict}\n")
+                      f"({v.passed:,} of {v.samples:,}): the target {verdict}\n")
     curve = None
     if args.curve:
         curve = cost_yield_curve(design, confidence=args.confidence, samples=args.samples, seed=args.seed,
@@ -105,4 +99,32 @@ def run(args: argparse.Namespace) -> int:
     out.write("\nRelative costs come from the catalog (the built-in costs are invented demo figures). "
               "The yield is an estimate under the grades' stated distributions; confirm it with measured "
               "parts and qualified review.\n")
-    return 0
+    return 0 if rec.chosen is not None else EXIT_NO_SET
+
+
+def _explain_nothing(rec, args: argparse.Namespace, out) -> None:
+    """Why no set was found, in words: too few boards (and how many would do), the
+    catalog, or the search's limit."""
+    pct = _pct
+    best = rec.best
+    if rec.reason == "boards":
+        out.write("No set found: too few boards to show the target, not a fault of the catalog.\n")
+        if best is None:
+            out.write(f"  With {args.samples or rec.design.analysis.samples:,} boards the lower bound cannot reach "
+                      f"{pct(rec.target_yield)} even if every board passes.\n")
+        else:
+            out.write(f"  The best set found passes {best.passed:,} of {best.samples:,} boards "
+                      f"(yield {pct(best.estimate)}), but its lower bound is {pct(best.lower)}.\n")
+        out.write(f"  About {rec.boards_needed:,} boards would show it ({'every board passing' if best is None else 'if the yield holds'}; "
+                  f"{rec.method} interval at {100 * rec.confidence:g} % confidence): "
+                  f"run again with --samples {rec.boards_needed}.\n")
+    elif rec.reason == "catalog":
+        out.write("No set found: the catalog cannot reach the target.\n")
+        if best is not None:
+            out.write(f"  The best set of catalog grades passes {best.passed:,} of {best.samples:,} boards "
+                      f"(yield {pct(best.estimate)}, lower bound {pct(best.lower)}), below the target "
+                      f"{pct(rec.target_yield)}; more boards would not change that. Tighter grades "
+                      "(--catalog) or a design with more margin are needed.\n")
+    else:
+        out.write(f"No set found: {rec.note}.\n")
+    out.write(f"  (exit status {EXIT_NO_SET}: no set of grades found)\n")

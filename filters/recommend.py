@@ -45,7 +45,7 @@ from .errors import Cancelled, InputError
 from .evaluate import Ensemble, Prepared, evaluate, prepare
 from .grades import Catalog, Grade
 from .sampling import REFERENCE_CELSIUS
-from .stats import INTERVAL_METHODS, lower_bound, smallest_meeting
+from .stats import INTERVAL_METHODS, lower_bound, samples_to_show
 from .values import E_SERIES, format_value, series_for_tolerance, snap, tolerance_letter
 
 #: The verification run uses this seed offset from the search's seed.
@@ -92,6 +92,18 @@ class Recommendation:
     candidate the search looked at, in order. ``search`` is ``"exhaustive"`` or
     ``"guided"``; ``capped`` is True when the search stopped at ``max_evaluations``
     (then the chosen set meets the target but may not be the cheapest or locally minimal).
+
+    ``current_grades`` are the input design's grade names per part (design order) and
+    ``current_cost`` their total relative cost in the catalog searched (a grade the catalog
+    lacks counts at the design's own cost); compare them with ``chosen``.
+
+    When nothing is chosen, ``reason`` says why: ``"boards"`` - too few boards to show
+    the target (the best set's estimated yield exceeds it, or nothing could be shown even
+    with every board passing; ``boards_needed`` boards would show it at the yield
+    measured, or with every board passing), ``"catalog"`` - even the best set of catalog
+    grades (``best``: the highest lower bound seen) has an estimated yield at or below the
+    target, ``"capped"`` - the search stopped at ``max_evaluations`` first. Empty when a
+    set is chosen.
     """
 
     target_yield: float
@@ -107,10 +119,20 @@ class Recommendation:
     note: str = ""
     method: str = "wilson"
     seed: int = 0
+    current_grades: tuple[str, ...] = ()
+    current_cost: float = float("nan")
+    reason: str = ""
+    boards_needed: int | None = None
+    best: Candidate | None = None
 
     def to_dict(self) -> dict[str, Any]:
         refs = [p.ref for p in self.design.parts]
         return {
+            "current_grades": dict(zip(refs, self.current_grades)),
+            "current_cost": float(self.current_cost),
+            "reason": self.reason,
+            "boards_needed": self.boards_needed,
+            "best": self.best.to_dict() if self.best else None,
             "target_yield": float(self.target_yield),
             "confidence": float(self.confidence),
             "method": self.method,
@@ -188,15 +210,14 @@ def _dominates(h: Grade, g: Grade, t_low: float, t_high: float) -> bool:
 
 def boards_needed(target_yield: float, confidence: float = 0.95, method: str = "wilson") -> int:
     """The fewest boards n whose lower bound can reach ``target_yield`` at all (all n pass)."""
-    def ok(n: int) -> bool:
-        return lower_bound(n, n, confidence, method) >= target_yield  # type: ignore[arg-type]
+    return samples_to_show(target_yield, 1.0, confidence, method)  # type: ignore[arg-type]
 
-    hi = 1
-    while not ok(hi):
-        hi *= 2
-        if hi > 10**15:
-            return hi
-    return smallest_meeting(ok, hi // 2, hi)  # not ok(hi // 2) unless it is 0
+
+def current_cost(design: Design, catalog: Catalog | None = None) -> float:
+    """Total relative cost of the design's own grades, priced from ``catalog`` (default the
+    design's); a grade the catalog lacks counts at the design's own figure."""
+    cat = design.catalog if catalog is None else catalog
+    return math.fsum(cat[g.name].cost if g.name in cat else g.cost for g in design.part_grades())
 
 
 # --- the evaluator shared by the searches ------------------------------------------------
@@ -573,16 +594,19 @@ def _recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
     exhaustive = combos <= limit
     search = "exhaustive" if exhaustive else "guided"
 
-    def empty(note: str, evaluations: int = 0, history: list[Candidate] | None = None,
-              capped: bool = False) -> Recommendation:
+    now = (tuple(p.grade for p in design.parts), current_cost(design, catalog))
+
+    def empty(note: str, reason: str, evaluations: int = 0, history: list[Candidate] | None = None,
+              capped: bool = False, need: int | None = None, best: Candidate | None = None) -> Recommendation:
         return Recommendation(target, conf, None, None, False, design, evaluations, history or [],
-                              search, capped, note, method, seed_)
+                              search, capped, note, method, seed_, *now, reason, need, best)
 
     if lower_bound(n, n, conf, method) < target:  # type: ignore[arg-type]
         need = boards_needed(target, conf, method)
-        return empty(f"the target {target:g} cannot be shown with {n} boards: even if every board "
+        return empty(f"the target {target:.4g} cannot be shown with {n:,} boards: even if every board "
                      f"passes, the lower bound at {conf:g} confidence is "
-                     f"{lower_bound(n, n, conf, method):.4f}; it needs at least {need} boards")  # type: ignore[arg-type]
+                     f"{lower_bound(n, n, conf, method):.4f}; it needs at least {need:,} boards",  # type: ignore[arg-type]
+                     "boards", need=need)
 
     prep = _prep if _prep is not None else prepare(design)
     ev = _Evaluator(design, prep, cands, n, seed_, conf, method, cache, cap,
@@ -597,12 +621,29 @@ def _recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
                 + ("the cheapest set seen that meets the target is shown, not necessarily the cheapest"
                    if idx is not None else "no set seen so far meets the target"))
     if idx is None:
-        return empty(note, ev.evaluations, ev.history, capped)
+        return _nothing_chosen(empty, note, ev, target, conf, method, capped)
     chosen = cache.found[ev.names(idx)]
     verified = ev.verify(idx, factor)
     return Recommendation(target, conf, chosen, verified, verified.lower >= target,
                           design_with_grades(design, ev.grades(idx)), ev.evaluations, ev.history,
-                          search, capped, note, method, seed_)
+                          search, capped, note, method, seed_, *now)
+
+
+def _nothing_chosen(empty: Callable[..., Recommendation], note: str, ev: _Evaluator, target: float,
+                    conf: float, method: str, capped: bool) -> Recommendation:
+    """Why no set was chosen: the search was capped, the boards are too few to show a set
+    whose estimated yield exceeds the target, or the catalog cannot reach it."""
+    best = max(ev.history, key=lambda c: (c.lower, c.estimate, -c.cost), default=None)
+    if capped or best is None:
+        return empty(note, "capped", ev.evaluations, ev.history, capped, best=best)
+    if best.estimate > target:
+        need = samples_to_show(target, best.estimate, conf, method)  # type: ignore[arg-type]
+        note = (f"the best set found has an estimated yield of {best.estimate:.4f} ({best.passed:,} of "
+                f"{best.samples:,} boards pass), above the target {target:.4g}, but its lower bound at "
+                f"{conf:g} confidence is {best.lower:.4f}: too few boards to show it; about {need:,} "
+                "boards would, if the yield holds")
+        return empty(note, "boards", ev.evaluations, ev.history, capped, need, best)
+    return empty(note, "catalog", ev.evaluations, ev.history, capped, best=best)
 
 
 def design_with_grades(design: Design, grades: Sequence[Grade]) -> Design:

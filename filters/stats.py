@@ -301,6 +301,37 @@ def samples_for_half_width(half_width: float, expected_yield: float = 0.5, confi
     return smallest_meeting(meets, lo, hi)
 
 
+def samples_to_show(target: float, expected_yield: float = 1.0, confidence: float = 0.95,
+                    method: IntervalMethod = "wilson") -> int:
+    """Fewest boards n whose one-sided lower bound at ``confidence`` reaches ``target``
+    when a fraction ``expected_yield`` of them passes (fractions in (0, 1]).
+
+    The lower bound is that of :func:`lower_bound` (the low end of the two-sided interval
+    at 2 * confidence - 1), with ``passed = expected_yield * n`` allowed to be fractional
+    so it rises smoothly with n. ``expected_yield`` 1 (every board passes) gives the least
+    any run can do with. Raises :class:`InputError` (path ``target``) when the expected
+    yield does not exceed the target (no number of boards shows it) or when more than
+    :data:`MAX_PLANNED_SAMPLES` would be needed.
+    """
+    t = _check_fraction(target, "target", lo_open=True, hi_open=True)
+    p = _check_fraction(expected_yield, "expected_yield", lo_open=True, hi_open=False)
+    c = _check_confidence(confidence)
+    m = _check_method(method)
+    if p <= t:
+        raise InputError(f"an expected yield of {p:g} never shows a target of {t:g}", "target")
+    two_sided = 2.0 * c - 1.0
+
+    def meets(n: int) -> bool:
+        return float(binomial_interval(p * n, n, two_sided, m)[0]) >= t  # type: ignore[arg-type]
+
+    hi = 1
+    while not meets(hi):
+        if hi > MAX_PLANNED_SAMPLES:
+            raise InputError(f"would need more than {MAX_PLANNED_SAMPLES:.0e} boards", "target")
+        hi *= 2
+    return 1 if hi == 1 else smallest_meeting(meets, hi // 2, hi)
+
+
 def smallest_meeting(ok: Callable[[int], bool], lo: int, hi: int) -> int:
     """The smallest n in (lo, hi] with ``ok(n)`` true, by bisection; ``ok`` must be
     monotone (false up to some n, true from there) and ``ok(hi)`` true."""

@@ -308,3 +308,83 @@ def test_every_exit_status_is_0_or_2_for_a_sweep_of_bad_inputs(tmp_path, capsys)
         p.write_text(good[:cut], encoding="utf-8")
         code, _, err = run(["analyze", str(p), "--samples", "20"], capsys)
         assert code == EXIT_BAD_INPUT, (cut, err)
+
+
+# --- the installed command, as a user runs it (issue 10) -------------------------------------
+
+TOLSPREAD = str(Path(sys.executable).with_name("tolspread"))  # the console script pip installed
+EXIT_NO_SET = 3  # README: "recommend" exits 3 when no set of grades meets the target
+
+
+def cli(*args: str, cwd: Path | None = None) -> subprocess.CompletedProcess:
+    """``tolspread ARGS`` in a subprocess; never a traceback, whatever the outcome."""
+    proc = subprocess.run([TOLSPREAD, *args], capture_output=True, text=True, timeout=300, cwd=cwd)
+    assert "Traceback" not in proc.stderr + proc.stdout
+    return proc
+
+
+def test_recommend_with_too_few_boards_says_so_and_exits_3():
+    # 200 boards cannot show 99.5 % at 95 % confidence even if all pass; the boards needed
+    # come from the one-sided Wilson bound, recomputed here with scipy.stats.binomtest.
+    proc = cli("recommend", "--target-yield", "99.5%", "--samples", "200")
+    assert proc.returncode == EXIT_NO_SET, proc.stderr
+    assert "too few boards" in proc.stdout and "catalog cannot" not in proc.stdout
+    need = next(n for n in range(200, 5000)
+                if stats.binomtest(n, n, alternative="greater").proportion_ci(0.95, "wilson").low >= 0.995)
+    assert f"--samples {need}" in proc.stdout
+    assert stats.binomtest(need - 1, need - 1, alternative="greater").proportion_ci(0.95, "wilson").low < 0.995
+
+
+def test_recommend_when_the_catalog_cannot_reach_the_target_says_so_and_exits_3(tmp_path):
+    cat = json.loads((Path(__file__).parents[1] / "filters" / "data" / "catalog.json").read_text())
+    cat["grades"] = [g for g in cat["grades"] if g["name"] in ("R-thick-5", "C-X7R-20")]
+    path = tmp_path / "loose.json"
+    path.write_text(json.dumps(cat))
+    proc = cli("recommend", "--target-yield", "0.95", "--samples", "1000", "--catalog", str(path))
+    assert proc.returncode == EXIT_NO_SET, proc.stderr
+    assert "the catalog cannot reach the target" in proc.stdout
+    assert "too few boards" not in proc.stdout
+    # the best set's figures are printed: k of n boards and a yield below 95 %
+    m = __import__("re").search(r"passes ([\d,]+) of ([\d,]+) boards \(yield ([\d.]+) %", proc.stdout)
+    k, n, y = int(m[1].replace(",", "")), int(m[2].replace(",", "")), float(m[3])
+    assert n == 1000 and math.isclose(100 * k / n, y, abs_tol=0.005) and y < 95
+
+
+@pytest.mark.parametrize("text, understood", [("1", "1 = 100 %"), ("1.5", "1.5 = 150 %"),
+                                              ("100", "100 = 10000 %"), ("95", "write 0.95 or 95%"),
+                                              ("100%", "read as 100 %"), ("0%", "above 0"),
+                                              ("abc", "not a number")])
+def test_ambiguous_or_impossible_target_is_refused_saying_what_was_understood(text, understood):
+    proc = cli("recommend", "--target-yield", text)
+    assert proc.returncode == EXIT_BAD_INPUT
+    lines = proc.stderr.strip().splitlines()
+    assert len(lines) == 1 and "--target-yield" in lines[0] and understood in lines[0], lines
+
+
+@pytest.mark.parametrize("text", ["1", "99", "0.3", "30%", "100%"])
+def test_bad_confidence_is_refused_naming_the_option(text):
+    proc = cli("recommend", "--target-yield", "0.9", "--confidence", text)
+    assert proc.returncode == EXIT_BAD_INPUT and "--confidence" in proc.stderr
+    assert len(proc.stderr.strip().splitlines()) == 1
+
+
+def test_target_written_as_fraction_or_percent_is_the_same(tmp_path):
+    a = cli("recommend", "--target-yield", "0.9", "--confidence", "90%", "--samples", "300")
+    b = cli("recommend", "--target-yield", "90%", "--confidence", "0.9", "--samples", "300")
+    assert a.returncode == b.returncode == 0, a.stderr + b.stderr
+    assert "yield lower bound >= 90.00 % at 90 % confidence" in a.stdout
+    assert a.stdout == b.stdout
+
+
+@pytest.mark.parametrize("args, field", [
+    (["design", "--response", "butterworth", "--order", "2", "--cutoff", "-1k", "-o", "x.json"], "--cutoff"),
+    (["analyze", "--samples", "50", "--attenuation-at", "-6k"], "--attenuation-at"),
+    (["analyze", "--seed", "-3"], "--seed"),
+])
+def test_negative_values_get_the_fields_own_message(args, field, tmp_path):
+    proc = cli(*args, cwd=tmp_path)
+    assert proc.returncode == EXIT_BAD_INPUT
+    line = proc.stderr.strip()
+    assert "\n" not in line and field in line and "expected one argument" not in line
+    assert ("above 0" in line) or ("negative" in line)
+    assert not (tmp_path / "x.json").exists()

@@ -214,7 +214,8 @@ def test_impossible_target_with_few_boards():
     z = stats.norm.ppf(CONF)
     need = math.ceil(0.9999 * z * z / (1 - 0.9999))
     assert scipy_lower(need, need) >= 0.9999 > scipy_lower(need - 1, need - 1)
-    assert "50 boards" in rec.note and f"at least {need} boards" in rec.note
+    assert "50 boards" in rec.note and f"at least {need:,} boards" in rec.note
+    assert rec.reason == "boards" and rec.boards_needed == need
 
 
 @pytest.mark.parametrize("limit", [256, 1])
@@ -226,10 +227,24 @@ def test_impossible_mask_gives_no_set(limit):
     assert prep.nominal.margins[0] < 0
     rec = recommend(bad, 0.5, samples=400, seed=SEED, catalog=CATALOG, exhaustive_limit=limit)
     assert rec.chosen is None and rec.verified is None
+    # the best set's estimated yield is below the target: the catalog, not the boards
+    assert rec.reason == "catalog" and rec.best is not None and rec.best.estimate < 0.5
+    assert rec.best.lower == max(c.lower for c in rec.history)
     if limit == 256:
         assert rec.evaluations == 256 and "256 combinations" in rec.note
     else:
         assert rec.evaluations == 1 and "tightest" in rec.note
+
+
+def test_recommendation_carries_the_current_grades_and_their_cost():
+    # the input design's own grades and their cost, priced from the catalog searched (a sum
+    # of the catalog's figures, recomputed here)
+    rec = recommend(DESIGN, 0.5, samples=400, seed=SEED, catalog=CATALOG)
+    assert rec.current_grades == tuple(p.grade for p in DESIGN.parts)
+    assert math.isclose(rec.current_cost, sum(CATALOG[p.grade].cost for p in DESIGN.parts))
+    assert rec.chosen is not None and rec.design.parts[0].grade == rec.chosen.grades[0]
+    d = rec.to_dict()
+    assert d["current_grades"] == {p.ref: p.grade for p in DESIGN.parts} and d["reason"] == ""
 
 
 def test_cost_yield_curve_rises_with_target_and_shares_evaluations(table):

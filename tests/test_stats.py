@@ -410,3 +410,30 @@ def test_wilson_fast_path_matches_scipy_everywhere(n, frac, conf):
     lo, hi = scipy_ci(k, n, conf, "wilson")
     assert float(low) == pytest.approx(lo, rel=1e-9, abs=1e-13)
     assert float(high) == pytest.approx(hi, rel=1e-9, abs=1e-13)
+
+
+@pytest.mark.parametrize("target, p, method", [(0.995, 1.0, "wilson"), (0.99, 1.0, "exact"),
+                                               (0.95, 0.97, "wilson"), (0.9, 0.93, "exact")])
+def test_samples_to_show_is_the_fewest_boards_whose_lower_bound_reaches_the_target(target, p, method):
+    from filters.stats import samples_to_show
+
+    n = samples_to_show(target, p, 0.95, method)
+
+    # independent: scipy.stats.binomtest's one-sided bound with whole counts; p*n is
+    # fractional in samples_to_show, so compare at p = 1 exactly and bracket otherwise
+    def low(k: int, m: int) -> float:
+        return sps.binomtest(k, m, alternative="greater").proportion_ci(0.95, method).low
+
+    if p == 1.0:
+        assert low(n, n) >= target > low(n - 1, n - 1)
+    else:
+        assert low(math.ceil(p * n), n) >= target
+        assert low(math.floor(p * (n - 1)), n - 1) < target
+
+
+def test_samples_to_show_refuses_a_yield_not_above_the_target():
+    from filters.stats import samples_to_show
+
+    with pytest.raises(InputError) as e:
+        samples_to_show(0.95, 0.95)
+    assert e.value.path == "target"
