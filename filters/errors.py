@@ -57,3 +57,14 @@ def is_finite_number(v: object) -> bool:
         return math.isfinite(float(v))
     except OverflowError:
         return False
+
+
+def quoted(v: object, limit: int = 40) -> str:
+    """``repr(v)`` for a message, at most ``limit`` characters (the middle of a longer one
+    replaced by "..."), so a message about a huge input stays one readable line."""
+    try:
+        text = repr(v)
+    except ValueError:  # an int of more digits than Python converts to text
+        return "<a number of thousands of digits>"
+    text = " ".join(text.split())
+    return text if len(text) <= limit else f"{text[:limit - 12]}...{text[-9:]}"

@@ -19,12 +19,14 @@ two standard deviations, common practice) truncated at the limits.
 from __future__ import annotations
 
 import json
+import os
 from dataclasses import asdict, dataclass, fields, replace
 from importlib import resources
 from pathlib import Path
 from typing import Any, Literal
 
 from .errors import InputError, ValidationError, is_finite_number
+from .safeio import parse_json, read_text
 
 Distribution = Literal["normal", "uniform", "binned"]
 PartKind = Literal["R", "C", "L", "opamp", "any"]
@@ -63,7 +65,11 @@ class Grade:
 
     @staticmethod
     def from_dict(data: Any, path: str = "") -> "Grade":
-        """Build and validate a grade; every problem is reported with its field path."""
+        """Build and validate a grade; every problem is reported with its field path.
+
+        Every rule runs on the grade as it will be (a missing field has its default), so
+        a grade that loads also saves and reloads: see :data:`GRADE_LIMITS`.
+        """
         if not isinstance(data, dict):
             raise InputError("must be an object with name, kind and tolerance_pct", path)
         known = {f.name for f in fields(Grade)}
@@ -76,53 +82,72 @@ class Grade:
                 problems.append(InputError("is missing", f"{path}.{k}"))
         if any(p.path.endswith((".name", ".kind", ".tolerance_pct")) for p in problems):
             raise ValidationError(problems)
-        args = {k: data[k] for k in data if k in known}
-        if not isinstance(args["name"], str) or not args["name"].strip():
-            problems.append(InputError("must be a non-empty text", f"{path}.name"))
-        if args["kind"] not in KINDS:
-            problems.append(InputError(f"must be one of {', '.join(KINDS)}", f"{path}.kind"))
-        if args.get("distribution", "normal") not in DISTRIBUTIONS:
-            problems.append(InputError(f"must be one of {', '.join(DISTRIBUTIONS)}",
-                                       f"{path}.distribution"))
-        numbers = ("tolerance_pct", "coverage", "bin_inner_pct", "tempco_ppm", "tempco_spread_ppm",
-                   "drift_pct", "cost")
-        for k in numbers:
-            if k in args:
-                v = args[k]
-                if isinstance(v, bool) or not isinstance(v, (int, float)) or not is_finite_number(v):
-                    problems.append(InputError(f"must be a finite number, not {v!r}", f"{path}.{k}"))
-                    del args[k]
-                else:
-                    args[k] = float(v)
-        if "truncate" in args and not isinstance(args["truncate"], bool):
-            problems.append(InputError("must be true or false", f"{path}.truncate"))
-        # Range checks on every field that parsed, so one report lists every problem.
-        d = Grade("x", "any", 1.0)
-        get = {k: args.get(k, getattr(d, k)) for k in numbers}
-        tol = get["tolerance_pct"] if "tolerance_pct" in args else None
-        checks = [
-            ("tolerance_pct", tol is None or 0 <= tol < 100, "must be at least 0 and below 100 %"),
-            ("coverage", get["coverage"] > 0, "must be above 0"),
-            ("bin_inner_pct", get["bin_inner_pct"] >= 0 and (tol is None or get["bin_inner_pct"] == 0
-                                                             or get["bin_inner_pct"] < tol),
-             "must be at least 0 and below the tolerance"),
-            ("tempco_spread_ppm", get["tempco_spread_ppm"] >= 0, "must not be negative"),
-            ("drift_pct", 0 <= get["drift_pct"] < 100, "must be at least 0 and below 100 %"),
-            ("cost", get["cost"] >= 0, "must not be negative"),
-            ("coverage", tol is None or args.get("truncate", True) or args.get("distribution", "normal") != "normal"
-             or tol / get["coverage"] * 8 < 100,
-             "with truncate false, tolerance / coverage must stay below 12.5 % (8 standard deviations "
-             "must not reach a negative value); truncate the grade or raise the coverage factor"),
-        ]
-        problems += [InputError(msg, f"{path}.{k}") for k, ok, msg in checks if k in args and not ok]
-        if (args.get("distribution") == "binned" and "bin_inner_pct" in args and get["bin_inner_pct"] <= 0) or (
-                args.get("distribution") == "binned" and "bin_inner_pct" not in args):
-            problems.append(InputError("a binned grade needs the removed centre's half-width above 0",
-                                       f"{path}.bin_inner_pct"))
+        defaults = Grade("x", "any", 1.0)
+        args = {f.name: data.get(f.name, getattr(defaults, f.name)) for f in fields(Grade)}
+        problems += _grade_problems(args, path)
         if problems:
             raise ValidationError(problems)
-        g = Grade(**args)
-        return g
+        return Grade(**args)
+
+
+# Ranges of a grade's numbers: (lowest, highest, whether the highest itself is allowed).
+# Beyond them no purchasable part exists and the arithmetic would overflow or divide by ~0.
+GRADE_LIMITS: dict[str, tuple[float, float, bool]] = {
+    "tolerance_pct": (0.0, 100.0, False),        # percent
+    "coverage": (0.1, 10.0, True),               # the tolerance in standard deviations
+    "bin_inner_pct": (0.0, 100.0, False),        # percent
+    "tempco_ppm": (-100_000.0, 100_000.0, True),  # ppm/K (10 %/K)
+    "tempco_spread_ppm": (0.0, 100_000.0, True),  # ppm/K
+    "drift_pct": (0.0, 100.0, False),            # percent
+    "cost": (0.0, 1e9, True),                    # relative cost
+}
+_UNITS = {"tolerance_pct": " %", "bin_inner_pct": " %", "drift_pct": " %", "tempco_ppm": " ppm/K",
+          "tempco_spread_ppm": " ppm/K"}
+
+
+def _grade_problems(args: dict[str, Any], path: str) -> list[InputError]:
+    """Every problem of a grade's complete field set ``args`` (numbers become floats in
+    place); the one rule set used by loading, the catalog editor and saving."""
+    problems: list[InputError] = []
+
+    def bad(field: str, reason: str) -> None:
+        problems.append(InputError(reason, f"{path}.{field}"))
+
+    if not isinstance(args["name"], str) or not args["name"].strip():
+        bad("name", "must be a non-empty text")
+    if not isinstance(args["kind"], str) or args["kind"] not in KINDS:
+        bad("kind", f"must be one of {', '.join(KINDS)}")
+    if not isinstance(args["distribution"], str) or args["distribution"] not in DISTRIBUTIONS:
+        bad("distribution", f"must be one of {', '.join(DISTRIBUTIONS)}")
+    if not isinstance(args["truncate"], bool):
+        bad("truncate", "must be true or false")
+    if not isinstance(args["technology"], str):
+        bad("technology", f"must be a text, not {args['technology']!r}")
+    ok: dict[str, float] = {}
+    for k, (lo, hi, hi_ok) in GRADE_LIMITS.items():
+        v = args[k]
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not is_finite_number(v):
+            bad(k, f"must be a finite number, not {v!r}")
+            continue
+        v = args[k] = float(v)
+        if not (lo <= v and (v <= hi if hi_ok else v < hi)):
+            unit = _UNITS.get(k, "")
+            bad(k, f"must be from {lo:g}{unit} to {'' if hi_ok else 'below '}{hi:g}{unit}, not {v:g}")
+            continue
+        ok[k] = v
+    tol, cov, inner = ok.get("tolerance_pct"), ok.get("coverage"), ok.get("bin_inner_pct")
+    if tol is not None and inner is not None:
+        if args["distribution"] == "binned" and not 0 < inner < tol:
+            bad("bin_inner_pct", "a binned grade needs the removed centre's half-width above 0 and "
+                                 "below the tolerance")
+        elif inner != 0 and inner >= tol:
+            bad("bin_inner_pct", "must be at least 0 and below the tolerance")
+    if (tol is not None and cov is not None and args["distribution"] == "normal"
+            and args["truncate"] is False and not tol / cov * 8 < 100):
+        bad("coverage", "with truncate false, tolerance / coverage must stay below 12.5 % (8 standard "
+                        "deviations must not reach a negative value); truncate the grade or raise the "
+                        "coverage factor")
+    return problems
 
 
 @dataclass(frozen=True)
@@ -187,15 +212,16 @@ def builtin_catalog() -> Catalog:
     return Catalog.from_dict(json.loads(text))
 
 
+CATALOG_MAX_BYTES = 2_000_000
+CATALOG_MAX_DEPTH = 20
+
+
 def load_catalog(path: str | Path) -> Catalog:
-    """Read a catalog file (JSON, same shape as the built-in one)."""
-    p = Path(path)
-    try:
-        data = json.loads(p.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise InputError(f"cannot read catalog file: {exc.strerror}", str(p)) from None
-    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
-        raise InputError(f"not a valid JSON catalog file: {exc}", str(p)) from None
+    """Read a catalog file (JSON, same shape as the built-in one): a regular file of at
+    most 2 MB, parsed with the design files' guards (:func:`filters.safeio.parse_json`)."""
+    p = os.fspath(path)
+    text = read_text(p, CATALOG_MAX_BYTES, what="catalog file")
+    data = parse_json(text, p, limit=CATALOG_MAX_BYTES, max_depth=CATALOG_MAX_DEPTH, what="catalog file")
     return Catalog.from_dict(data)
 
 

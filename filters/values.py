@@ -17,7 +17,7 @@ from decimal import Decimal
 
 import numpy as np
 
-from filters.errors import InputError
+from filters.errors import InputError, quoted
 
 # --- parsing ---------------------------------------------------------------------------
 
@@ -44,10 +44,22 @@ def _decimal_to_float(digits: str, exp10: int, text: str, field: str) -> float:
     """``float(digits × 10**exp10)`` correctly rounded; rejects overflow and underflow."""
     value = float(f"{digits}e{exp10}")
     if not math.isfinite(value):
-        raise InputError(f"'{text}' is too large to be a value; {_HINT}", path=field)
+        raise InputError(f"{quoted(text)} is too large to be a value; {_HINT}", path=field)
     if value == 0.0 and any(c in "123456789" for c in digits):
-        raise InputError(f"'{text}' is too small to be a value; {_HINT}", path=field)
+        raise InputError(f"{quoted(text)} is too small to be a value; {_HINT}", path=field)
     return value
+
+
+_EXP_CAP = 10**8  # beyond any exponent a value text of at most a few MB can bring back into range
+
+
+def _exponent(digits: str) -> int:
+    """The exponent written after "e" ("+5", "-0012"), without converting thousands of
+    digits to an int (Python refuses over 4300): a longer one is capped at +-1e8, which
+    still overflows or underflows just as the exact exponent would."""
+    sign = -1 if digits[:1] == "-" else 1
+    body = digits.lstrip("+-").lstrip("0") or "0"
+    return sign * (_EXP_CAP if len(body) > 8 else int(body))
 
 
 def parse_value(text: str | float, field: str = "") -> float:
@@ -60,9 +72,12 @@ def parse_value(text: str | float, field: str = "") -> float:
     bool) is accepted as is if finite. Raises ``InputError`` with ``path=field``.
     """
     if isinstance(text, numbers.Real) and not isinstance(text, bool):
-        value = float(text)
+        try:
+            value = float(text)
+        except OverflowError:  # an int beyond the largest float
+            value = math.inf
         if not math.isfinite(value):
-            raise InputError(f"'{text}' is not a finite value; {_HINT}", path=field)
+            raise InputError(f"{quoted(text)} is not a finite value; {_HINT}", path=field)
         return value
     if not isinstance(text, str):
         raise InputError(f"expected a value as text or number, got {type(text).__name__}", path=field)
@@ -70,11 +85,11 @@ def parse_value(text: str | float, field: str = "") -> float:
     if not s:
         raise InputError(f"no value given; {_HINT}", path=field)
     if _NONFINITE_RE.fullmatch(s):
-        raise InputError(f"'{s}' is not a finite value; {_HINT}", path=field)
+        raise InputError(f"{quoted(s)} is not a finite value; {_HINT}", path=field)
     m = _SI_RE.fullmatch(s)
     if m and not (m["exp"] and m["pre"]):
         num, pre = m["num"], m["pre"]
-        exp10 = int(m["exp"][1:]) if m["exp"] else 0
+        exp10 = _exponent(m["exp"][1:]) if m["exp"] else 0
         if pre:
             exp10 += _SI_EXP["meg" if pre.lower() == "meg" else pre]
         return _decimal_to_float(num, exp10, s, field)
@@ -82,7 +97,7 @@ def parse_value(text: str | float, field: str = "") -> float:
     if m and (m["left"] or m["right"]):
         digits = f"{m['left'] or '0'}.{m['right'] or '0'}"
         return _decimal_to_float(digits, _RKM_EXP[m["letter"]], s, field)
-    raise InputError(f"'{s}' is not a value; {_HINT}", path=field)
+    raise InputError(f"{quoted(s)} is not a value; {_HINT}", path=field)
 
 
 def parse_value_with_tolerance(text: str, field: str = "") -> tuple[float, str | None]:
@@ -246,6 +261,22 @@ def snap(value: float | np.ndarray, series: str = "E24") -> float | np.ndarray:
     pick = np.where(frac - logc[hi - 1] <= logc[hi] - frac, hi - 1, hi)
     out = _scaled(cand[pick], decade + shift[pick] - scale)
     return float(out) if out.ndim == 0 else out
+
+
+def series_neighbours(value: float, series: str = "E24", count: int = 2) -> np.ndarray:
+    """Preferred values of ``series`` around ``value`` (SI units): up to ``count`` at or
+    below it and ``count`` above it, ascending (a value on the series counts as below).
+
+    Used to try both sides of a value instead of rounding it alone.
+    """
+    v = float(value)
+    if not (math.isfinite(v) and v > 0):
+        raise InputError(f"cannot find neighbours of {value!r}: values must be positive and finite")
+    mant, _ = _series(series)
+    span = 10.0 ** (math.ceil(count / mant.size) + 1)   # enough decades for ``count`` steps
+    vals = series_values(series, v / span, v * span)
+    i = int(np.searchsorted(vals, v * (1 + 1e-12), side="right"))
+    return vals[max(i - count, 0):i + count]
 
 
 def series_for_tolerance(tol_pct: float) -> str:

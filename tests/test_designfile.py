@@ -409,3 +409,106 @@ def test_current_version_rejects_a_bare_temperature():
     with pytest.raises(InputError) as info:
         loads(text)
     assert "analysis.temperature_c" in str(info.value)
+
+
+# --- issue 11: no traceback, and every design that loads reopens after saving -----------------
+
+def _demo_dict() -> dict:
+    return json.loads(designfile.demo_text())
+
+
+def test_a_value_with_an_exponent_of_5000_digits_is_one_problem():
+    # issue 11 #1: int() refuses over 4300 digits (ValueError traceback before).
+    d = _demo_dict()
+    d["parts"][0]["value"] = "1e" + "5" * 5000
+    with pytest.raises(ValidationError) as e:
+        loads(json.dumps(d))
+    assert _paths(e.value) == {"parts[0].value"}
+    assert "too large" in e.value.problems[0].reason
+
+
+def test_a_wide_untruncated_grade_without_coverage_is_refused_at_load(tmp_path):
+    # issue 11 #2: this grade loaded (its coverage rule ran only when coverage was
+    # written), save() wrote "coverage": 2.0, and the saved file did not open.
+    d = _demo_dict()
+    d["grades"] = [{"name": "R-wide", "kind": "R", "tolerance_pct": 30, "truncate": False}]
+    d["parts"][0]["grade"] = "R-wide"
+    with pytest.raises(ValidationError) as e:
+        loads(json.dumps(d))
+    assert _paths(e.value) == {"grades[0].coverage"}  # the part's grade is not reported twice
+
+
+@pytest.mark.parametrize("quantity, kind, limit, ok", [
+    ("phase", "floor", -1e300, False),     # issue 11 #10: overflow warnings in the budget
+    ("phase", "floor", -100_001, False),
+    ("phase", "floor", -3600, True),       # ten turns: a long cascade's unwrapped phase
+    ("gain", "ceiling", 1001, False),
+    ("gain", "ceiling", -1000, True),
+    ("delay", "variation", 1e300, False),
+    ("delay", "variation", 1e-3, True),
+])
+def test_mask_limits_are_checked_against_their_quantitys_range(quantity, kind, limit, ok):
+    d = _demo_dict()
+    d["mask"].append({"quantity": quantity, "kind": kind, "f1": 10, "f2": 1000, "limit1": limit})
+    if ok:
+        assert loads(json.dumps(d)).mask[-1].limit1 == limit
+        return
+    with pytest.raises(ValidationError) as e:
+        loads(json.dumps(d))
+    assert _paths(e.value) == {"mask[4].limit1"}
+
+
+def test_the_window_validators_apply_the_loaders_rules():
+    # issue 11 #3: one function for the window and the loader.
+    from filters.design import SPAN_LIMITS, check_design, check_part_value, check_span_limit
+
+    assert check_part_value("4k7") == (4700.0, "4k7")  # IEC 60062 RKM: 4k7 = 4.7 kohm (from memory)
+    assert check_part_value(1e-9) == (1e-9, "")
+    for bad in ("1e16", "1e308", 1e16, "0", -1.0, float("nan"), "1e" + "9" * 5000, True, None, "abc"):
+        with pytest.raises(InputError) as e:
+            check_part_value(bad, "R1 value")
+        assert e.value.path == "R1 value"
+        d = _demo_dict()
+        d["parts"][0]["value"] = bad
+        with pytest.raises(ValidationError):  # the loader refuses the same values
+            design_from_dict(d)
+    assert check_span_limit("gain", -40) == -40.0
+    with pytest.raises(InputError) as e:
+        check_span_limit("gain", 5000, "mask[0].limit1")
+    assert e.value.path == "mask[0].limit1" and str(SPAN_LIMITS["gain"]).rstrip("0").rstrip(".") in e.value.reason
+    demo = load_demo()
+    assert check_design(demo) == demo
+    bad_design = demo.with_part("R1", value=1e16, text="")
+    with pytest.raises(ValidationError) as e:
+        check_design(bad_design)
+    assert _paths(e.value) == {"parts[0].value"}
+    bad_mask = demo.with_mask(demo.mask + (Span("ceiling", 10.0, 100.0, 5000.0),))
+    with pytest.raises(ValidationError) as e:
+        check_design(bad_mask)
+    assert _paths(e.value) == {"mask[4].limit1"}
+
+
+# --- issue 11 #5: only regular files are read, with a byte limit ------------------------------
+
+def test_special_files_as_a_design_are_refused_without_reading_them(tmp_path):
+    # /dev/zero and /dev/urandom report size 0, passed the 2 MB check and exhausted
+    # memory; a FIFO hung. A thread bounds the test in case one would hang.
+    import threading
+
+    fifo = tmp_path / "pipe.json"
+    os.mkfifo(fifo)
+    for path in ("/dev/zero", "/dev/urandom", str(fifo)):
+        got: list = []
+
+        def run(path=path):
+            try:
+                got.append(load(path))
+            except Exception as exc:  # noqa: BLE001 - inspected below
+                got.append(exc)
+
+        t = threading.Thread(target=run, daemon=True)
+        t.start()
+        t.join(10)
+        assert got, f"load({path}) did not return within 10 s"
+        assert isinstance(got[0], InputError) and "regular file" in got[0].reason, got[0]
+        assert got[0].path == path

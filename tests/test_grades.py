@@ -257,6 +257,17 @@ def _paths(exc: InputError) -> set[str]:
     ("truncate", "yes"),
     ("drift_pct", 100),
     ("tempco_spread_ppm", -10),
+    # issue 11 #1: a technology that is not text broke recommend (unhashable) and the report
+    ("technology", ["thick film"]),
+    ("technology", 5),
+    ("technology", None),
+    # issue 11 #1: a coverage factor of 1e-320 made sigma infinite (LinAlgError, NaN margins)
+    ("coverage", 1e-320),
+    ("coverage", 1e300),
+    # issue 11 #1: a cost of 1e308 overflowed the sum of a set's costs
+    ("cost", 1e308),
+    ("tempco_ppm", 1e300),
+    ("tempco_spread_ppm", 1e300),
 ])
 def test_grade_from_dict_rejects_bad_field_with_its_path(field, bad):
     with pytest.raises(InputError) as e:
@@ -293,3 +304,75 @@ def test_grade_from_dict_accepts_a_full_grade():
     assert g == Grade("F", "C", 2.0, distribution="uniform", truncate=False, tempco_ppm=-200.0,
                       tempco_spread_ppm=50.0, cost=7.0)
     assert Grade.from_dict(g.to_dict()) == g
+
+
+# --- issue 11: every rule runs whether or not the field is written ----------------------------
+
+def test_a_grade_without_coverage_is_checked_with_the_default_coverage():
+    # issue 11 #2: tolerance 30 %, truncate false and no coverage loaded (the rule ran only
+    # when coverage was written); save() then wrote "coverage": 2.0 and reloading refused
+    # it. 30 % / 2 * 8 = 120 % would reach negative values (filters/grades.py's own rule).
+    raw = {"name": "R-wide", "kind": "R", "tolerance_pct": 30, "truncate": False}
+    with pytest.raises(ValidationError) as e:
+        Grade.from_dict(raw, "g")
+    assert "g.coverage" in _paths(e.value)
+    with pytest.raises(ValidationError):
+        Grade.from_dict(dict(raw, coverage=2.0), "g")  # what save() would have written
+
+
+def test_every_valid_grade_reloads_from_what_it_saves():
+    # issue 11 #2: for each rule, a grade that loads writes a dict that loads to itself.
+    for raw in ({"name": "a", "kind": "R", "tolerance_pct": 10, "truncate": False},
+                {"name": "b", "kind": "C", "tolerance_pct": 5, "distribution": "binned", "bin_inner_pct": 2},
+                {"name": "c", "kind": "any", "tolerance_pct": 0},
+                {"name": "d", "kind": "L", "tolerance_pct": 99, "distribution": "uniform", "coverage": 0.1}):
+        g = Grade.from_dict(raw, "g")
+        assert Grade.from_dict(g.to_dict(), "g") == g
+
+
+# --- issue 11 #5: catalog files get the design files' guards -----------------------------------
+
+@pytest.mark.parametrize("case", ["deep", "deep_moderate", "huge_int", "surrogate", "binary", "folder"])
+def test_hostile_catalog_files_are_input_errors(case, tmp_path):
+    p = tmp_path / "cat.json"
+    if case == "deep":  # RecursionError before
+        p.write_text("[" * 100000 + "]" * 100000, encoding="utf-8")
+    elif case == "deep_moderate":
+        p.write_text('{"grades": ' + "[" * 50 + "]" * 50 + "}", encoding="utf-8")
+    elif case == "huge_int":  # ValueError (int digit limit) before
+        p.write_text('{"grades": [{"name": "G", "kind": "R", "tolerance_pct": ' + "9" * 5000 + "}]}",
+                     encoding="utf-8")
+    elif case == "surrogate":
+        p.write_text('{"grades": [{"name": "\\ud800", "kind": "R", "tolerance_pct": 1}]}', encoding="utf-8")
+    elif case == "binary":
+        p.write_bytes(b"\xff\xfe{")
+    else:
+        p.mkdir()
+    with pytest.raises(InputError) as e:
+        load_catalog(p)
+    assert e.value.path == str(p)
+
+
+def test_special_files_as_a_catalog_are_refused_without_reading_them(tmp_path):
+    # issue 11 #5: /dev/zero ran out of memory (MemoryError) and a FIFO hung. A special
+    # file is refused before a byte is read (a thread bounds the test if it would hang).
+    import os
+    import threading
+
+    fifo = tmp_path / "pipe.json"
+    os.mkfifo(fifo)
+    for path in ("/dev/zero", str(fifo)):
+        got: list = []
+        t = threading.Thread(target=lambda: got.append(_catch(load_catalog, path)), daemon=True)
+        t.start()
+        t.join(10)
+        assert got, f"load_catalog({path}) did not return within 10 s"
+        assert isinstance(got[0], InputError) and "regular file" in got[0].reason, got[0]
+        assert got[0].path == path
+
+
+def _catch(fn, *args):
+    try:
+        return fn(*args)
+    except Exception as exc:  # noqa: BLE001 - the test inspects what was raised
+        return exc

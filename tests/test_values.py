@@ -325,3 +325,36 @@ def test_round_trip_full_precision(x: float) -> None:
 @settings(database=None)
 def test_round_trip_four_figures(x: float) -> None:
     assert parse_value(format_value(x)) == float(f"{x:.3e}")
+
+
+# --- issue 11 #1: exponents of thousands of digits ------------------------------------------
+
+@pytest.mark.parametrize("text, expect", [
+    ("1e" + "5" * 5000, "too large"),
+    ("1e+" + "5" * 5000, "too large"),
+    ("1e-" + "5" * 5000, "too small"),
+    ("4.7e" + "9" * 4400 + "k", "not a value"),  # an exponent and a prefix are never both allowed
+])
+def test_exponents_of_thousands_of_digits_are_input_errors(text, expect):
+    # Python's int() refuses strings of over 4300 digits (ValueError); the parser must
+    # answer with its own one-line message naming the field, not a ValueError. The text is
+    # quoted shortened, so the message stays short.
+    with pytest.raises(InputError) as e:
+        parse_value(text, "parts[0].value")
+    assert e.value.path == "parts[0].value" and expect in e.value.reason
+    assert len(str(e.value)) < 200
+
+
+@pytest.mark.parametrize("text, value", [
+    ("0e" + "9" * 5000, 0.0),              # zero times any power of ten is zero (from memory)
+    ("1e+000000000000000000003", 1e3),     # leading zeros of an exponent do not count
+    ("25e-0000000000000000000001", 2.5),
+])
+def test_long_exponents_that_fit_are_read_exactly(text, value):
+    assert parse_value(text) == value  # float() reads the same text: Python's reference parser
+    assert float(text) == value
+
+
+def test_an_integer_beyond_the_largest_float_is_an_input_error():
+    with pytest.raises(InputError):
+        parse_value(10**400, "x")
