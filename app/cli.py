@@ -14,6 +14,7 @@ from typing import Sequence
 from filters import __version__
 from filters.designfile import load, load_demo
 from filters.errors import InputError, ValidationError
+from filters.safeio import check_output_path
 
 from .cli_args import EXIT_BAD_INPUT, Parser, positive_int, seed
 from .cli_design import add_parser as add_design_parser, run as run_design
@@ -54,6 +55,9 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--report", metavar="PATH", help="also write the design-review report (HTML)")
     add_design_parser(sub)
     add_recommend_parser(sub)
+    for sp in sub.choices.values():
+        sp.add_argument("--verbose", action="store_true",
+                        help="list every problem of a bad input file, one per line")
     return p
 
 
@@ -64,6 +68,10 @@ def _load(path: str | None):
 def cmd_analyze(args: argparse.Namespace) -> int:
     from .analyze_report import analyze, print_summary, to_json
 
+    for option in ("--json", "--report"):  # issue 11: refuse '' or a device before the run
+        target = getattr(args, option[2:])
+        if target is not None and not (option == "--json" and target == "-"):
+            check_output_path(target, option)
     design = _load(args.design)
     if args.attenuation_at:
         from dataclasses import replace
@@ -116,6 +124,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
     parser = build_parser()
     design_path: str | None = None
+    args = None
     try:
         if argv and argv[0] in SUBCOMMANDS:
             args = parser.parse_args(argv)
@@ -137,11 +146,13 @@ def main(argv: Sequence[str] | None = None) -> int:
             return run_recommend(args)
         return open_window(design_path, args.screenshot)
     except ValidationError as exc:
-        lines = exc.lines()
-        sys.stderr.write(f"tolspread: {_where(design_path)}{lines[0]}"
-                         f"{f' (and {len(lines) - 1} more)' if len(lines) > 1 else ''}\n")
-        for line in lines[1:]:
-            sys.stderr.write(f"  {line}\n")
+        lines, more = exc.lines(), len(exc.lines()) - 1
+        if more and getattr(args, "verbose", False):
+            sys.stderr.write(f"tolspread: {_where(design_path)}{len(lines)} problems:\n")
+            sys.stderr.writelines(f"  {line}\n" for line in lines)
+        else:
+            rest = f"; and {more} more problem{'s' if more > 1 else ''} (use --verbose)" if more else ""
+            sys.stderr.write(f"tolspread: {_where(design_path)}{lines[0]}{rest}\n")
         return EXIT_BAD_INPUT
     except InputError as exc:
         where = "" if design_path and str(exc).startswith(design_path) else _where(design_path)

@@ -38,7 +38,11 @@ def run(args: argparse.Namespace) -> int:
     from filters.grades import load_catalog
     from filters.recommend import cost_yield_curve, parts_list_rows, recommend, worst_margin_metric, write_parts_csv
     from filters.report import build_report, write_report
+    from filters.safeio import check_output_path
 
+    for option in ("--output", "--csv", "--report"):  # issue 11: '' or a device refused before the search
+        if getattr(args, option[2:]) is not None:
+            check_output_path(getattr(args, option[2:]), option)
     design = load_demo() if args.design is None else load(args.design)
     if not design.mask:
         raise InputError("the design has no spec mask, so there is no yield to meet; add spans first", "mask")

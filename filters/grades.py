@@ -196,7 +196,7 @@ class Catalog:
         grades = []
         for i, item in enumerate(data["grades"]):
             try:
-                grades.append(Grade.from_dict(item, f"{path}.grades[{i}]"))
+                grades.append(Grade.from_dict(item, f"{path}.grades[{i}]" if path else f"grades[{i}]"))
             except ValidationError as exc:
                 problems += exc.problems
             except InputError as exc:
@@ -222,7 +222,13 @@ def load_catalog(path: str | Path) -> Catalog:
     p = os.fspath(path)
     text = read_text(p, CATALOG_MAX_BYTES, what="catalog file")
     data = parse_json(text, p, limit=CATALOG_MAX_BYTES, max_depth=CATALOG_MAX_DEPTH, what="catalog file")
-    return Catalog.from_dict(data)
+    try:
+        return Catalog.from_dict(data, "")
+    except ValidationError as exc:  # name the file in front of each field
+        raise ValidationError([InputError(q.reason, f"{p}: {q.path}" if q.path else p)
+                               for q in exc.problems]) from None
+    except InputError as exc:
+        raise InputError(exc.reason, f"{p}: {exc.path}" if exc.path else p) from None
 
 
 def scaled(grade: Grade, tolerance_pct: float) -> Grade:
