@@ -3,9 +3,13 @@
 Both plots share the frequency axis. Each shows the nominal response, the central 98 %
 of boards and the full range as bands, and a handful of sample traces drawn as one item
 each (NaN-separated). On the magnitude plot the user draws the spec mask: in a drawing
-mode a left-drag paints the forbidden zone of a new floor or ceiling span; each span's
-limit line has two end handles (drag to move an end, drag the line to move it whole);
-a click selects a span and the Delete key removes it.
+mode a left-drag always paints the forbidden zone of a new floor or ceiling span (existing
+spans take no mouse input then). Outside a drawing mode each span's limit line has two end
+handles (drag to move an end, drag the line to move it whole); a click selects a span (drawn
+thicker, in the selection colour, with filled handles) and the Delete key removes it. Phase
+spans are drawn the same way on the phase plot; delay-variation spans as boxes on the
+group-delay plot. No axis is SI-scaled automatically: dB and degrees stay as they are, the
+delay axis gets one prefix chosen from the nominal delay (µs for a few hundred µs).
 
 View coordinates on the x axis are log10(frequency / Hz): :func:`to_view_x` and
 :func:`from_view_x` are the only conversion.
@@ -27,9 +31,11 @@ from filters.mask import Span
 from filters.values import format_value
 
 from . import qt_style as st
+from .qt_units import eng, prefix_for
 
 DrawKind = Literal["floor", "ceiling"]
 FILL_REACH_DB = 6.0  # depth (dB) of the hatched forbidden zone drawn beside the limit line
+FILL_REACH_DEG = 30.0  # the same on the phase plot (degrees)
 
 
 def to_view_x(f_hz):
@@ -72,22 +78,80 @@ class MaskViewBox(pg.ViewBox):
             self.span_drawn.emit(self.draw_kind, a.x(), b.x(), a.y(), b.y())
 
 
+class _Freezable:
+    """Mouse handling of a span's line or handle that can be switched off: while ``frozen``
+    (a drawing mode is on) it takes no hover, click or drag, so a drag that starts on it
+    reaches the view box and draws a new span instead of moving this one."""
+
+    frozen = False
+
+    def hoverEvent(self, ev):  # noqa: N802 - pyqtgraph override
+        if not self.frozen:
+            super().hoverEvent(ev)
+
+    def mouseDragEvent(self, ev):  # noqa: N802 - pyqtgraph override
+        if self.frozen:
+            ev.ignore()
+        else:
+            super().mouseDragEvent(ev)
+
+    def mouseClickEvent(self, ev):  # noqa: N802 - pyqtgraph override
+        if self.frozen:
+            ev.ignore()
+        else:
+            super().mouseClickEvent(ev)
+
+
+class _SpanHandle(_Freezable, pg.graphicsItems.ROI.Handle):
+    """An end handle of a span's limit line, filled (``brush``) when its span is selected."""
+
+    def __init__(self, colour: str) -> None:
+        super().__init__(st.HANDLE_RADIUS, typ="f", pen=pg.mkPen(colour, width=1.5),
+                         hoverPen=pg.mkPen(st.SELECTED_COLOUR, width=2))
+        self.brush = None
+
+    def paint(self, p, opt, widget):
+        if self.brush is not None:
+            p.setBrush(self.brush)
+        super().paint(p, opt, widget)
+
+
+class _SpanLine(_Freezable, pg.LineSegmentROI):
+    """A span's limit line between two :class:`_SpanHandle` ends."""
+
+    def __init__(self, points, colour: str) -> None:
+        super().__init__(points, pen=pg.mkPen(colour, width=st.SPAN_WIDTH),
+                         hoverPen=pg.mkPen(colour, width=st.SELECTED_WIDTH),
+                         handles=(_SpanHandle(colour), _SpanHandle(colour)))
+        for h in self.getHandles():
+            h.setParentItem(self)  # handles passed in are not parented by pyqtgraph
+
+    def set_frozen(self, on: bool) -> None:
+        self.frozen = on
+        for h in self.getHandles():
+            h.frozen = on
+        if on:
+            self.setMouseHover(False)
+
+
 class SpanItem:
-    """One span on the magnitude plot: a limit line with end handles and a forbidden fill."""
+    """One gain or phase span on its plot: a limit line with end handles and a forbidden
+    fill. ``reach`` is the depth of the fill in the plot's unit (dB or degrees)."""
 
     def __init__(self, plot: pg.PlotItem, index: int, span: Span, reference_db: float,
-                 on_changing, on_finished, on_clicked) -> None:
+                 on_changing, on_finished, on_clicked, reach: float = FILL_REACH_DB) -> None:
         self.plot = plot
         self.index = index
         self.span = span
         self.reference_db = reference_db
+        self.reach = reach
         colour = st.FLOOR_COLOUR if span.kind == "floor" else st.CEILING_COLOUR
         self.colour = colour
-        off = reference_db if span.relative else 0.0
+        off = reference_db if span.relative and span.quantity == "gain" else 0.0
+        self._offset = off
         p1 = (float(to_view_x(span.f1)), span.limit1 + off)
         p2 = (float(to_view_x(span.f2)), span.end_limit + off)
-        self.roi = pg.LineSegmentROI([p1, p2], pen=pg.mkPen(colour, width=2.5),
-                                     hoverPen=pg.mkPen(colour, width=st.SELECTED_WIDTH))
+        self.roi = _SpanLine([p1, p2], colour)
         self.roi.setZValue(40)
         self.roi.setAcceptedMouseButtons(Qt.MouseButton.LeftButton)
         self.fill = QGraphicsPolygonItem()
@@ -109,10 +173,11 @@ class SpanItem:
         self.roi.sigRegionChanged.connect(lambda *_: (self._refill(), on_changing(self)))
         self.roi.sigRegionChangeFinished.connect(lambda *_: on_finished(self))
         self.roi.sigClicked.connect(lambda *_: on_clicked(self))
+        self.selected = False
         self._refill()
 
     def points(self) -> tuple[tuple[float, float], tuple[float, float]]:
-        """The two ends in view coordinates (log10 f, dB), left end first."""
+        """The two ends in view coordinates (log10 f, dB or deg), left end first."""
         pts = [self.roi.mapToParent(h.pos()) for h in self.roi.getHandles()]
         (x1, y1), (x2, y2) = [(p.x(), p.y()) for p in pts]
         return ((x1, y1), (x2, y2)) if x1 <= x2 else ((x2, y2), (x1, y1))
@@ -123,14 +188,13 @@ class SpanItem:
         f1, f2 = float(from_view_x(x1)), float(from_view_x(x2))
         if not f2 > f1 * (1 + 1e-9):
             return None
-        off = self.reference_db if self.span.relative else 0.0
-        l1, l2 = round(y1 - off, 4), round(y2 - off, 4)
+        l1, l2 = round(y1 - self._offset, 4), round(y2 - self._offset, 4)
         return replace(self.span, f1=_round_f(f1), f2=_round_f(f2), limit1=l1,
                        limit2=None if l1 == l2 else l2)
 
     def _refill(self) -> None:
         (x1, y1), (x2, y2) = self.points()
-        reach = FILL_REACH_DB if self.span.kind == "ceiling" else -FILL_REACH_DB
+        reach = self.reach if self.span.kind == "ceiling" else -self.reach
         poly = QPolygonF([QPointF(x1, y1), QPointF(x2, y2), QPointF(x2, y2 + reach), QPointF(x1, y1 + reach)])
         self.fill.setPolygon(poly)
         self.tint.setPolygon(poly)
@@ -138,10 +202,85 @@ class SpanItem:
                           connect="finite")
 
     def set_selected(self, on: bool) -> None:
-        self.roi.setPen(pg.mkPen(self.colour, width=st.SELECTED_WIDTH if on else 2.5))
+        """The selected span: a thicker line in the selection colour and filled handles."""
+        self.selected = on
+        pen = (pg.mkPen(st.SELECTED_COLOUR, width=st.SELECTED_WIDTH) if on
+               else pg.mkPen(self.colour, width=st.SPAN_WIDTH))
+        self.roi.setPen(pen)
+        for h in self.roi.getHandles():
+            h.pen = pg.mkPen(st.SELECTED_COLOUR if on else self.colour, width=2 if on else 1.5)
+            h.currentPen = h.pen
+            h.brush = pg.mkBrush(st.SELECTED_COLOUR) if on else None
+            h.update()
+
+    def set_frozen(self, on: bool) -> None:
+        self.roi.set_frozen(on)
 
     def remove(self) -> None:
         for item in (self.roi, self.fill, self.tint, self.edge):
+            self.plot.removeItem(item)
+
+
+class _ClickableRect(QGraphicsRectItem):
+    """A rectangle the plot's scene reports clicks on (pyqtgraph calls ``mouseClickEvent``)."""
+
+    def __init__(self, on_clicked) -> None:
+        super().__init__()
+        self._on_clicked = on_clicked
+        self.frozen = False
+
+    def mouseClickEvent(self, ev):  # noqa: N802 - pyqtgraph override
+        if self.frozen or ev.button() != Qt.MouseButton.LeftButton:
+            ev.ignore()
+            return
+        ev.accept()
+        self._on_clicked()
+
+
+class DelaySpanItem:
+    """A delay-variation span on the group-delay plot: a box ``limit1`` seconds tall over
+    f1..f2, centred on the nominal delay's middle in that band (any board's delay must fit
+    in a box this tall, wherever it sits), labelled with its limit. Edited in the span table."""
+
+    def __init__(self, plot: pg.PlotItem, index: int, span: Span, freqs_hz: np.ndarray,
+                 nominal_delay_s: np.ndarray, on_clicked) -> None:
+        self.plot = plot
+        self.index = index
+        self.span = span
+        self.colour = st.DELAY_COLOUR
+        inside = (freqs_hz >= span.f1 * (1 - 1e-9)) & (freqs_hz <= span.f2 * (1 + 1e-9))
+        band = nominal_delay_s[inside] if inside.any() else nominal_delay_s
+        centre = 0.5 * (float(np.nanmax(band)) + float(np.nanmin(band)))
+        x1, x2 = float(to_view_x(span.f1)), float(to_view_x(span.f2))
+        self.rect = QRectF(QPointF(x1, centre - span.limit1 / 2), QPointF(x2, centre + span.limit1 / 2)).normalized()
+        self.box = _ClickableRect(lambda: on_clicked(self))
+        self.box.setRect(self.rect)
+        self.box.setBrush(pg.mkBrush(st.rgba(self.colour, st.FORBIDDEN_ALPHA)))
+        self.box.setZValue(40)
+        self.label = pg.TextItem(f"{span.label}: variation ≤ {eng(span.limit1, 's')}", color=self.colour,
+                                 anchor=(0, 1))
+        self.label.setPos(x1, self.rect.bottom())
+        self.label.setZValue(41)
+        plot.addItem(self.box, ignoreBounds=True)
+        plot.addItem(self.label, ignoreBounds=True)
+        self.selected = False
+        self.set_selected(False)
+
+    def points(self) -> tuple[tuple[float, float], tuple[float, float]]:
+        """Lower-left and upper-right corners in view coordinates (log10 f, s)."""
+        r = self.rect
+        return (r.left(), r.top()), (r.right(), r.bottom())
+
+    def set_selected(self, on: bool) -> None:
+        self.selected = on
+        self.box.setPen(pg.mkPen(st.SELECTED_COLOUR if on else self.colour,
+                                 width=st.SELECTED_WIDTH if on else st.SPAN_WIDTH, style=st.DASH))
+
+    def set_frozen(self, on: bool) -> None:
+        self.box.frozen = on
+
+    def remove(self) -> None:
+        for item in (self.box, self.label):
             self.plot.removeItem(item)
 
 
@@ -201,9 +340,16 @@ class SpreadPlots(QWidget):
             g.setZValue(-10)
             plot.addItem(g, ignoreBounds=True)
             self._grids[name] = g
-        self.mag.setLabel("left", "gain", units="dB")
+        # Every axis is labelled with its unit in the text and no automatic SI scaling:
+        # pyqtgraph would otherwise write "gain (mdB)" or "frequency (Hz) (x0.001)" (the x
+        # axis is log10 f). The delay axis gets a fixed prefix of our own (show_view).
+        for plot in (self.mag, self.second):
+            for side in ("left", "bottom"):
+                plot.getAxis(side).enableAutoSIPrefix(False)
+        self.mag.setLabel("left", "gain (dB)")
         self.mag.setLabel("bottom", "frequency (Hz)")
         self.second.setLabel("bottom", "frequency (Hz)")
+        self.second.setLabel("left", "phase (deg)")
         self.legend = self.mag.addLegend(offset=(10, -10), labelTextSize="8pt")
         self._items: dict[str, dict[str, pg.GraphicsObject]] = {}
         for name, plot in (("mag", self.mag), ("second", self.second)):
@@ -241,8 +387,10 @@ class SpreadPlots(QWidget):
         lay.addWidget(self.readout)
         self.vb_mag.span_drawn.connect(self._on_span_drawn)
         self.canvas.scene().sigMouseMoved.connect(self._on_mouse_moved)
-        self.spans: list[SpanItem] = []
+        self.spans: list[SpanItem | DelaySpanItem] = []
+        self._mask_key: tuple | None = None
         self.selected = -1
+        self.delay_prefix: tuple[str, float] = ("", 1.0)  # the delay axis' SI prefix and its factor
         self.view: ViewData | None = None
         self.show_failing = True
         self._ranged = False
@@ -251,6 +399,8 @@ class SpreadPlots(QWidget):
     # --- data ----------------------------------------------------------------------------
     def show_view(self, view: ViewData) -> None:
         """Draw one evaluation's curves and bands."""
+        if self.view is not None and self.view.second != view.second:
+            self.clear_readout()  # the readout spoke of the other quantity
         self.view = view
         x = to_view_x(view.freqs_hz)
         for name, nominal, b, tp, tf in (
@@ -268,10 +418,16 @@ class SpreadPlots(QWidget):
                 it["failing"].setData(*_flat(x, tf))
             else:
                 it["failing"].setData([], [])
+        axis = self.second.getAxis("left")
         if view.second == "delay":
-            self.second.setLabel("left", "group delay", units="s")
+            finite = np.abs(view.nominal_second[np.isfinite(view.nominal_second)])
+            self.delay_prefix = prefix_for(float(np.max(finite)) if finite.size else 0.0)
+            prefix, factor = self.delay_prefix
+            axis.setScale(1.0 / factor)
+            self.second.setLabel("left", f"group delay ({prefix}s)")
         else:
-            self.second.setLabel("left", "phase", units="deg")
+            axis.setScale(1.0)
+            self.second.setLabel("left", "phase (deg)")
         self._reference_db = view.nominal_metrics.get("reference_db", 0.0)
         self._draw_grids(view)
         self.set_mask(view.design.mask, self._reference_db)
@@ -319,25 +475,51 @@ class SpreadPlots(QWidget):
         self.second.enableAutoRange(axis="y")
 
     def set_mask(self, mask: tuple[Span, ...], reference_db: float) -> None:
-        """Rebuild the span items (after an edit, undo or load)."""
-        if (len(mask) == len(self.spans) and all(s.span == m for s, m in zip(self.spans, mask))
-                and reference_db == (self.spans[0].reference_db if self.spans else reference_db)):
+        """Rebuild the span items (after an edit, undo or load): gain spans on the gain
+        plot, phase spans on the phase plot and delay-variation spans on the group-delay
+        plot (whichever the second plot shows)."""
+        second = self.view.second if self.view is not None else "phase"
+        delay = self.view.nominal_second if self.view is not None and second == "delay" else None
+        key = (tuple(mask), reference_db, second, None if delay is None else id(self.view))
+        if key == self._mask_key:
             return
+        self._mask_key = key
         for s in self.spans:
             s.remove()
         self.spans = []
         for i, span in enumerate(mask):
-            if span.quantity != "gain":
-                continue  # phase and delay spans are edited in the span table
-            self.spans.append(SpanItem(self.mag, i, span, reference_db, self._on_span_changing,
-                                       self._on_span_finished, self._on_span_clicked))
+            if span.quantity == "gain":
+                self.spans.append(SpanItem(self.mag, i, span, reference_db, self._on_span_changing,
+                                           self._on_span_finished, self._on_span_clicked))
+            elif span.quantity == "phase" and second == "phase":
+                self.spans.append(SpanItem(self.second, i, span, 0.0, self._on_span_changing,
+                                           self._on_span_finished, self._on_span_clicked, FILL_REACH_DEG))
+            elif span.quantity == "delay" and delay is not None:
+                self.spans.append(DelaySpanItem(self.second, i, span, self.view.freqs_hz, delay,
+                                                self._on_span_clicked))
         if self.selected >= len(mask):
             self.selected = -1
         self._mark_selected()
+        self._freeze_spans()
+
+    def item_for(self, index: int) -> SpanItem | DelaySpanItem | None:
+        """The drawn item of mask span ``index`` (None if its plot is not shown)."""
+        return next((s for s in self.spans if s.index == index), None)
 
     def set_draw_kind(self, kind: DrawKind | None) -> None:
+        """Turn a drawing mode on ("floor", "ceiling") or off (None). While it is on, a drag
+        on the gain plot always draws a new span: existing spans take no mouse input."""
         self.vb_mag.draw_kind = kind
         self.canvas.setCursor(Qt.CursorShape.CrossCursor if kind else Qt.CursorShape.ArrowCursor)
+        self._freeze_spans()
+
+    def _freeze_spans(self) -> None:
+        for s in self.spans:
+            s.set_frozen(self.vb_mag.draw_kind is not None)
+
+    def clear_readout(self) -> None:
+        """Empty the cursor readout (after Open, or when the second plot changes quantity)."""
+        self.readout.setText(" ")
 
     def select(self, index: int) -> None:
         self.selected = index
@@ -402,7 +584,7 @@ class SpreadPlots(QWidget):
             unit = "s" if v.second == "delay" else "deg"
 
         def fmt(y: float) -> str:
-            return format_value(y, "s", 4) if unit == "s" else f"{y:.2f} {unit}"
+            return eng(y, "s", 4) if unit == "s" else f"{y:.2f} {unit}"
 
         return (f"{format_value(f[i], 'Hz', 4)}:  nominal {fmt(nom[i])},  central {round(100 * b.share)} % "
                 f"{fmt(b.inner_low[i])} to {fmt(b.inner_high[i])},  all boards {fmt(b.low[i])} to {fmt(b.high[i])}")

@@ -2,6 +2,8 @@
 metric, and the spread budget of that metric as a ranked bar chart."""
 from __future__ import annotations
 
+import re
+
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, Signal
@@ -12,7 +14,9 @@ from filters.liveview import ViewData
 from filters.summary import metric_label
 
 from . import qt_style as st
+from .qt_units import QUANTITY_UNIT, eng, prefix_for
 
+MAX_TABLE_ROWS = 8  # the failure table grows to this many rows, then scrolls
 CAUTION = ("Estimate under the grades' stated distributions; confirm with measured parts "
            "and qualified review.")
 
@@ -42,11 +46,16 @@ class ResultsPanel(QWidget):
         lay.addWidget(self.detail)
         self.table = QTableWidget(0, 4)
         self.table.setObjectName("failure_table")
-        self.table.setHorizontalHeaderLabels(["span", "failing", "share of failures", "worst margin"])
+        # two-line headers keep the columns narrow; every column is as wide as its longest
+        # text (nothing elided), and the table is as tall as its rows up to MAX_TABLE_ROWS
+        self.table.setHorizontalHeaderLabels(["span", "failing\nboards", "share of\nfailures", "worst\nmargin"])
         self.table.verticalHeader().hide()
-        self.table.horizontalHeader().setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        self.table.horizontalHeader().setStretchLastSection(False)
+        self.table.setTextElideMode(Qt.TextElideMode.ElideNone)
+        self.table.setWordWrap(False)
         self.table.setEditTriggers(QTableWidget.EditTrigger.NoEditTriggers)
-        self.table.setMaximumHeight(140)
+        self.table.setSizeAdjustPolicy(QTableWidget.SizeAdjustPolicy.AdjustToContents)
         lay.addWidget(self.table)
         row = QHBoxLayout()
         row.addWidget(QLabel("metric"))
@@ -59,14 +68,21 @@ class ResultsPanel(QWidget):
         self.hist.setMenuEnabled(False)
         self.hist.setMouseEnabled(x=False, y=False)
         self.hist.setLabel("left", "boards")
+        for side in ("left", "bottom"):
+            self.hist.getAxis(side).enableAutoSIPrefix(False)  # never "(x0.001)" on dB
 
         lay.addWidget(self.hist, 2)
         self.budget_plot = pg.PlotWidget()
         self.budget_plot.setObjectName("budget_chart")
         self.budget_plot.setMenuEnabled(False)
         self.budget_plot.setMouseEnabled(x=False, y=False)
-        self.budget_plot.setLabel("bottom", "share of the metric's variance", units="%")
-        lay.addWidget(QLabel("<b>spread budget</b> (which part explains how much of the spread)"))
+        self.budget_plot.setLabel("bottom", "share of the metric's variance (%)")
+        for side in ("left", "bottom"):
+            self.budget_plot.getAxis(side).enableAutoSIPrefix(False)
+        self.budget_heading = QLabel("<b>spread budget</b> (which part explains how much of the spread)")
+        self.budget_heading.setObjectName("budget_heading")
+        self.budget_heading.setWordWrap(True)
+        lay.addWidget(self.budget_heading)
         lay.addWidget(self.budget_plot, 2)
         self.opamp_note = QLabel("")
         self.opamp_note.setObjectName("opamp_note")
@@ -106,14 +122,15 @@ class ResultsPanel(QWidget):
                                 f"computed in {1000 * view.elapsed_s:.0f} ms{bands_note}")
         self.table.setRowCount(len(view.spans))
         for i, s in enumerate(view.spans):
-            unit = {"gain": "dB", "phase": "deg", "delay": "s"}[view.design.mask[i].quantity]
+            unit = QUANTITY_UNIT[view.design.mask[i].quantity]
             cells = [s.name, f"{s.failed:,} ({_pct(s.fraction)})", _pct(s.share_of_failures),
-                     f"{s.worst_margin_db:+.3g} {unit}"]
+                     eng(s.worst_margin_db, unit, 3, signed=True)]
             for j, text in enumerate(cells):
                 item = QTableWidgetItem(text)
                 if j and s.failed:
                     item.setForeground(pg.mkColor(st.VERMILION))
                 self.table.setItem(i, j, item)
+        self._fit_table_height()
         names = [s.name for s in view.design.stages]
         wanted = [n for n in view.metrics if not _is_pair(n)]
         current = [self.chooser.itemData(i) for i in range(self.chooser.count())]
@@ -127,6 +144,17 @@ class ResultsPanel(QWidget):
             self.metric_name = "cutoff_hz" if "cutoff_hz" in wanted else wanted[0]
         self.chooser.setCurrentIndex(max(0, self.chooser.findData(self.metric_name)))
         self._draw_metric()
+
+    def _fit_table_height(self) -> None:
+        """As tall as the header and the rows, up to MAX_TABLE_ROWS rows (then it scrolls)."""
+        t = self.table
+        t.resizeColumnsToContents()
+        t.resizeRowsToContents()
+        rows = min(t.rowCount(), MAX_TABLE_ROWS)
+        h = t.horizontalHeader().height() + sum(t.rowHeight(r) for r in range(rows)) + 2 * t.frameWidth()
+        if t.horizontalScrollBar().isVisible() or t.horizontalHeader().length() > t.viewport().width():
+            h += t.horizontalScrollBar().sizeHint().height()
+        t.setFixedHeight(h)
 
     def show_opamps(self, rows) -> None:
         """Op-amp gain-bandwidth effects (filters.synthesis.GbwWarning rows)."""
@@ -173,7 +201,7 @@ class ResultsPanel(QWidget):
             nom = v.nominal_metrics.get(self.metric_name)
             if nom is not None and np.isfinite(nom):
                 self.hist.addItem(pg.InfiniteLine(nom, angle=90, pen=pg.mkPen(st.INK, width=2, style=st.DASH)))
-        self.hist.setLabel("bottom", metric_label(self.metric_name, names))
+        self._label_metric_axis(self.hist.getAxis("bottom"), self.metric_name, names, data[ok])
         b = v.budget.get(self.metric_name)
         if b is None and v.preview:
             return  # a drag preview has no budget: keep the last one shown
@@ -194,6 +222,24 @@ class ResultsPanel(QWidget):
             ax.setTicks([[(float(y), lab) for y, lab in zip(ys, labels)]])
             self.budget_plot.setXRange(0, max(shares) * 1.1, padding=0)
             self.budget_plot.setYRange(-0.6, len(shares) - 0.4, padding=0)
+
+    def _label_metric_axis(self, axis, name: str, stage_names: list[str], values: np.ndarray) -> None:
+        """Label ``axis`` with the metric and its unit. dB, degrees, Q and % are never
+        SI-scaled; Hz and seconds get one fixed prefix chosen from the data (kHz, µs)."""
+        label = metric_label(name, stage_names)
+        m = re.fullmatch(r"(.*) \(([^()]*)\)", label)
+        base, unit = (m.group(1), m.group(2)) if m else (label, "")
+        if name.startswith("margin.") and self.view is not None:
+            span = next((sp for sp in self.view.design.mask if sp.label == name[len("margin."):]), None)
+            if span is not None:
+                unit = QUANTITY_UNIT[span.quantity]  # a phase or delay margin is not in dB
+        if unit in ("Hz", "s") and values.size:
+            prefix, factor = prefix_for(float(np.max(np.abs(values))))
+            axis.setScale(1.0 / factor)
+            axis.setLabel(f"{base} ({prefix}{unit})")
+        else:
+            axis.setScale(1.0)
+            axis.setLabel(f"{base} ({unit})" if unit else base)
 
     def show_message(self, text: str) -> None:
         self.yield_label.setText(f"<span style='color:{st.VERMILION}'><b>{text}</b></span>")

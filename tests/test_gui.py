@@ -509,12 +509,12 @@ def test_mouse_move_updates_the_readout(window, demo_view, qtbot):
 # --- 9. phase / delay ----------------------------------------------------------------------
 def test_delay_switch(window, qtbot):
     s = window.session
-    assert window.plots.second.getAxis("left").labelText == "phase"
+    assert window.plots.second.getAxis("left").labelText == "phase (deg)"
     with qtbot.waitSignal(s.view_ready, timeout=WAIT_MS) as blocker:
         window.act_delay.trigger()
     view = blocker.args[0]
     assert view.second == "delay" and s.second == "delay"
-    assert window.plots.second.getAxis("left").labelText == "group delay"
+    assert window.plots.second.getAxis("left").labelText == "group delay (µs)"  # 0.1-1 ms: µs
     ref = compute_view(ViewRequest(0, s.design, second="delay"))
     _x, y = window.plots._items["second"]["nominal"].getData()
     np.testing.assert_allclose(y, ref.nominal_second, rtol=1e-9)
@@ -524,7 +524,7 @@ def test_delay_switch(window, qtbot):
     with qtbot.waitSignal(s.view_ready, timeout=WAIT_MS) as blocker:
         window.act_phase.trigger()
     assert blocker.args[0].second == "phase"
-    assert window.plots.second.getAxis("left").labelText == "phase"
+    assert window.plots.second.getAxis("left").labelText == "phase (deg)"
 
 
 # --- 10. stale results ---------------------------------------------------------------------
