@@ -524,11 +524,11 @@ class MainWindow(QMainWindow):
         dlg.show()
 
     def export_report(self, kind: str, path: str | None = None) -> None:
-        """Write the design-review report of the current design (HTML or PDF)."""
-        from filters.analysis import analyze
-        from filters.report import build_report, write_report
+        """Write the design-review report of the current design (HTML or PDF), with the
+        recommendation and parts list when Find cheapest grades ran for this design."""
+        from filters.report import write_report
 
-        from .qt_reportexport import write_pdf
+        from .qt_reportexport import recommendation_for, window_report, write_pdf
         from .qt_tasks import BackgroundTask
 
         if path is None:
@@ -539,9 +539,10 @@ class MainWindow(QMainWindow):
         design = self.session.design
         self.show_status("building the report…")
 
+        rec, curve, searched = recommendation_for(design, getattr(self, "_recommend_dialog", None))
+
         def job(progress, should_stop):
-            result = analyze(design, progress=progress, should_stop=should_stop)
-            return build_report(result)
+            return window_report(design, rec, curve, searched, progress=progress, should_stop=should_stop)
 
         def done(report) -> None:
             try:

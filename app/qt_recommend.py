@@ -9,7 +9,9 @@ from PySide6.QtWidgets import (QCheckBox, QDialog, QDoubleSpinBox, QFileDialog, 
                                QTableWidgetItem, QVBoxLayout)
 
 from filters.design import Design
-from filters.recommend import Recommendation, cost_yield_curve, parts_list_rows, recommend, write_parts_csv
+from filters.errors import InputError
+from filters.recommend import (Recommendation, cost_yield_curve, parts_list_rows, recommend,
+                               worst_margin_metric, write_parts_csv)
 
 from . import qt_style as st
 from .qt_tasks import BackgroundTask
@@ -106,7 +108,7 @@ class RecommendDialog(QDialog):
         self.run_button.clicked.connect(self.start)
         self.cancel_button.clicked.connect(self.cancel)
         self.apply_button.clicked.connect(self._on_apply)
-        self.csv_button.clicked.connect(self._on_csv)
+        self.csv_button.clicked.connect(lambda *_checked: self._on_csv())  # not `checked` as the path
         close.clicked.connect(self.reject)
         self.resize(760, 720)
 
@@ -200,10 +202,35 @@ class RecommendDialog(QDialog):
             self.summary.setText(self.summary.text() + "<br>Applied to the design (Undo takes it back).")
 
     def _on_csv(self, path: str | None = None) -> None:
-        if self.recommendation is None:
+        """Save the parts list of the recommended grades, with each part's share of the spread
+        budget of the worst span (an analysis of the recommended design on the search's boards,
+        as ``tolspread recommend --csv`` does)."""
+        rec = self.recommendation
+        if rec is None or rec.chosen is None:
             return
         if not path:
             path, _ = QFileDialog.getSaveFileName(self, "Save parts list", "parts.csv", "*.csv")
-        if path:
-            write_parts_csv(parts_list_rows(self.design, self.recommendation), path)
+        if not path:
+            return
+        design = self.design
+
+        def job(progress, should_stop):
+            from filters.analysis import analyze
+
+            result = analyze(rec.design, samples=rec.chosen.samples, seed=rec.seed, progress=progress,
+                             should_stop=should_stop)
+            return parts_list_rows(design, rec, result.budget, metric=worst_margin_metric(result.ensemble))
+
+        def done(rows) -> None:
+            try:
+                write_parts_csv(rows, path)
+            except InputError as exc:
+                self.summary.setText(self.summary.text() + f"<br>Could not save the parts list: {exc}")
+                return
             self.summary.setText(self.summary.text() + f"<br>Parts list written to {path}.")
+
+        self.csv_task = BackgroundTask(job, self)
+        self.csv_task.finished.connect(done)
+        self.csv_task.failed.connect(lambda msg, _d: self.summary.setText(
+            self.summary.text() + f"<br>Could not save the parts list: {msg}"))
+        self.csv_task.start()

@@ -1,14 +1,43 @@
-"""Writing the design-review report from the window: HTML as it is, PDF through Qt's PDF
-writer (each SVG figure rendered to an image first)."""
+"""Writing the design-review report from the window.
+
+:func:`window_report` builds the report of the window's design, with the recommendation,
+its cost-yield curve and the parts list when "Find cheapest grades" was run for this
+design (the same objects the window holds). :func:`write_pdf` prints the HTML through Qt's
+rich-text layout and PDF writer, page by page:
+
+* each SVG figure is rendered to an image and drawn at the text width (labels of at
+  least 12 px in a 760 px figure print at 8 pt or more on A4);
+* headings stay with what follows them and a figure with its caption (a block that would
+  end a page without its successor starts the next page instead);
+* tables repeat their header row on every page (``<thead>``, which Qt's HTML import turns
+  into :meth:`QTextTableFormat.setHeaderRowCount`);
+* every page has a footer with the report's title and "page N of M".
+"""
 from __future__ import annotations
 
 from pathlib import Path
+from typing import Any, Callable
 
-from PySide6.QtCore import QByteArray, QMarginsF, QSizeF, QUrl
-from PySide6.QtGui import QImage, QPageLayout, QPageSize, QPainter, QPdfWriter, QTextDocument
+from PySide6.QtCore import QByteArray, QMarginsF, QRectF, QSizeF, Qt, QUrl
+from PySide6.QtGui import (QFont, QImage, QPageLayout, QPageSize, QPainter, QPdfWriter, QTextBlockFormat,
+                           QTextCursor, QTextDocument, QTextFormat)
 from PySide6.QtSvg import QSvgRenderer
 
+from filters.design import Design
 from filters.report import Report
+
+#: Device pixels per inch of the PDF page (CSS pixels: 1 px = 1/96 in, so the report's
+#: style sheet keeps its sizes; text and lines stay vector, figures keep their resolution).
+PDF_DPI = 96
+#: Page margins in mm, and the height of the footer line in device pixels.
+PDF_MARGIN_MM = 15.0
+FOOTER_PX = 24
+#: Rendered width of a figure image in pixels (drawn scaled to the text width).
+FIGURE_RENDER_PX = 1600
+#: A table at most this fraction of a page high is not split (it starts a new page with
+#: its heading instead).
+SMALL_TABLE = 0.3
+_OBJECT = "\ufffc"  # Qt's placeholder character for an inline image
 
 
 def render_svg(svg: str, width_px: int) -> QImage:
@@ -25,17 +54,130 @@ def render_svg(svg: str, width_px: int) -> QImage:
     return img
 
 
-def write_pdf(report: Report, path: Path) -> None:
-    """The report as a PDF (A4 portrait) written by Qt's PDF writer."""
+# --- the report of the window's design -------------------------------------------------------
+
+def recommendation_for(design: Design, dialog: Any) -> tuple[Any, Any, Design | None]:
+    """(recommendation, curve, design searched) from the window's recommendation dialog
+    when its result belongs to ``design``: the design it searched, or that design with the
+    recommended grades applied. Otherwise (no dialog, no result, or the design changed
+    since) (None, None, None)."""
+    rec = getattr(dialog, "recommendation", None)
+    if rec is None:
+        return None, None, None
+    searched = dialog.design
+    if design == searched or (rec.chosen is not None and design == rec.design):
+        return rec, getattr(dialog, "curve", None), searched
+    return None, None, None
+
+
+def window_report(design: Design, rec: Any = None, curve: Any = None, searched: Design | None = None, *,
+                  progress: Callable[[int, int], None] | None = None,
+                  should_stop: Callable[[], bool] | None = None) -> Report:
+    """The report of ``design`` (analysed as the command line does), with the parts list of
+    its own grades and, when given, the recommendation ``rec`` found from ``searched`` and
+    its cost-yield ``curve``."""
+    from filters.analysis import analyze
+    from filters.recommend import parts_list_rows, worst_margin_metric
+    from filters.report import build_report
+
+    result = analyze(design, progress=progress, should_stop=should_stop)
+    rows = parts_list_rows(design, None, result.budget, metric=worst_margin_metric(result.ensemble))
+    return build_report(result, recommendation=rec, curve=curve or None, parts_rows=rows,
+                        current=searched)
+
+
+# --- PDF -------------------------------------------------------------------------------------------
+
+def _page_of(y: float, page_h: float) -> int:
+    return int(y // page_h)
+
+
+def _keeps_with_next(block) -> bool:
+    """Headings and figure images must not end a page without the block after them."""
+    return block.blockFormat().headingLevel() > 0 or _OBJECT in block.text()
+
+
+def keep_with_next(doc: QTextDocument) -> int:
+    """Move every heading or figure that would end a page apart from its next block (the
+    text under a heading, a figure's caption; a short table under a heading as a whole) to
+    the next page; returns how many moved.
+    Blocks are visited in order, so a break only moves what follows it."""
+    layout = doc.documentLayout()
+    page_h = doc.pageSize().height()
+    moved = 0
+    layout.documentSize()  # lays the whole document out (Qt lays out lazily)
+    block = doc.begin()
+    while block.isValid():
+        nxt = block.next()
+        if nxt.isValid() and _keeps_with_next(block):
+            top = layout.blockBoundingRect(block).top()
+            end = layout.blockBoundingRect(nxt).bottom()
+            table = QTextCursor(nxt).currentTable()
+            if table is not None and block.blockFormat().headingLevel() > 0:
+                whole = layout.frameBoundingRect(table)
+                if whole.height() <= SMALL_TABLE * page_h:  # a short table stays whole under its heading
+                    end = max(end, whole.bottom())
+            at_page_top = top - _page_of(top, page_h) * page_h < 2 * FOOTER_PX
+            if _page_of(top, page_h) != _page_of(end - 1, page_h) and not at_page_top:
+                fmt = QTextBlockFormat()
+                fmt.setPageBreakPolicy(QTextFormat.PageBreakFlag.PageBreak_AlwaysBefore)
+                QTextCursor(block).mergeBlockFormat(fmt)
+                layout.documentSize()  # lay out again before the next block is measured
+                moved += 1
+        block = nxt
+    return moved
+
+
+def print_document(report: Report, writer: QPdfWriter) -> QTextDocument:
+    """The report as a QTextDocument laid out in pages of ``writer`` (device pixels), the
+    space of the footer kept free, figures at the text width, nothing split apart that
+    belongs together."""
+    rect = writer.pageLayout().paintRectPixels(writer.resolution())
+    width, height = rect.width(), rect.height() - FOOTER_PX
     doc = QTextDocument()
+    doc.documentLayout().setPaintDevice(writer)
+    doc.setDocumentMargin(0)
+    font = QFont("DejaVu Sans")
+    font.setPointSizeF(9)
+    doc.setDefaultFont(font)
     for name, svg in report.figures.items():
-        doc.addResource(QTextDocument.ResourceType.ImageResource, QUrl(f"fig:{name}"), render_svg(svg, 1400))
-    doc.setHtml(report.html_with_images(lambda n: f"fig:{n}"))
+        doc.addResource(QTextDocument.ResourceType.ImageResource, QUrl(f"fig:{name}"),
+                        render_svg(svg, FIGURE_RENDER_PX))
+    doc.setHtml(report.html_with_images(lambda n: f"fig:{n}", width=width, printed=True))
+    doc.setPageSize(QSizeF(width, height))
+    keep_with_next(doc)
+    return doc
+
+
+def write_pdf(report: Report, path: Path) -> None:
+    """The report as a PDF (A4 portrait, numbered pages) written by Qt's PDF writer."""
     writer = QPdfWriter(str(path))
     writer.setPageLayout(QPageLayout(QPageSize(QPageSize.PageSizeId.A4), QPageLayout.Orientation.Portrait,
-                                     QMarginsF(15, 15, 15, 15)))
-    writer.setResolution(150)
+                                     QMarginsF(PDF_MARGIN_MM, PDF_MARGIN_MM, PDF_MARGIN_MM, PDF_MARGIN_MM),
+                                     QPageLayout.Unit.Millimeter))
+    writer.setResolution(PDF_DPI)
     writer.setTitle(report.title)
     writer.setCreator("tolspread")
-    doc.setPageSize(QSizeF(writer.width(), writer.height()))
-    doc.print_(writer)
+    doc = print_document(report, writer)
+    size = doc.pageSize()
+    pages = doc.pageCount()
+    foot = QFont("DejaVu Sans")
+    foot.setPointSizeF(8)
+    painter = QPainter(writer)
+    try:
+        for i in range(pages):
+            if i:
+                writer.newPage()
+            painter.save()
+            painter.translate(0, -i * size.height())
+            doc.drawContents(painter, QRectF(0, i * size.height(), size.width(), size.height()))
+            painter.restore()
+            painter.setFont(foot)
+            painter.setPen(Qt.GlobalColor.darkGray)
+            line = QRectF(0, size.height(), size.width(), FOOTER_PX)
+            painter.drawText(line, int(Qt.AlignmentFlag.AlignLeft | Qt.AlignmentFlag.AlignBottom),
+                             report.title[:90])
+            painter.drawText(line, int(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignBottom),
+                             f"page {i + 1} of {pages}")
+    finally:
+        painter.end()

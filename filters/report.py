@@ -32,9 +32,9 @@ from .evaluate import Ensemble, evaluate
 from .mask import Span
 from .grades import Grade
 from .report_figures import (SVG_NS, esc, svg_bar_chart, svg_cost_yield, svg_histogram, svg_spread_plot)
-from .report_text import (_INTERVAL_NAMES, _METHOD_NAMES, _SPAN_UNIT, _cost, _drift, _metric_unit,  # noqa: F401
-                          _num, _opamp_text, _sensitivity, _tempco, describe_distribution, format_count,
-                          format_pct)
+from .report_text import (_INTERVAL_NAMES, _METHOD_NAMES, _SPAN_UNIT, _cost, _drift, _metric_unit, _num,
+                          _opamp_text, _sensitivity, _tempco, describe_design, describe_distribution,
+                          format_count, format_pct)
 from .sampling import REFERENCE_CELSIUS
 from .summary import metric_label
 from .values import format_value
@@ -62,10 +62,10 @@ class Report:
     figures: dict[str, str]
     sizes: dict[str, tuple[int, int]] = field(default_factory=dict)
 
-    def _document(self, figure: Callable[[str], str]) -> str:
+    def _document(self, figure: Callable[[str], str], css: str = "") -> str:
         body = _FIGURE_RE.sub(lambda m: figure(m.group(1)), self.body)
         return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
-                f"<title>{esc(self.title)}</title>\n<style>\n{_CSS}</style>\n</head>\n<body>\n"
+                f"<title>{esc(self.title)}</title>\n<style>\n{css or _CSS}</style>\n</head>\n<body>\n"
                 f"{body}\n</body>\n</html>\n")
 
     def html(self) -> str:
@@ -75,13 +75,18 @@ class Report:
             return svg.replace(f' xmlns="{SVG_NS}"', "", 1)  # implied for SVG inside HTML
         return self._document(inline)
 
-    def html_with_images(self, src_for: Callable[[str], str]) -> str:
-        """The same document with each figure as ``<img src="src_for(name)">``."""
+    def html_with_images(self, src_for: Callable[[str], str], width: float | None = None,
+                         printed: bool = False) -> str:
+        """The same document with each figure as ``<img src="src_for(name)">``, drawn
+        ``width`` wide (default: its own size; the height keeps the aspect ratio).
+        ``printed``: the style sheet for paper (:data:`PRINT_CSS`, sizes in points)."""
         def image(name: str) -> str:
             w, h = self.sizes.get(name, (760, 340))
-            return (f'<img src="{esc(src_for(name), quote=True)}" width="{w}" height="{h}" '
+            if width is not None:
+                w, h = width, h * width / w
+            return (f'<img src="{esc(src_for(name), quote=True)}" width="{int(w)}" height="{int(round(h))}" '
                     f'alt="{esc(name, quote=True)}">')
-        return self._document(image)
+        return self._document(image, PRINT_CSS if printed else "")
 
 
 _CSS = """\
@@ -102,17 +107,41 @@ p.caption { color: #444444; font-size: 12.5px; margin-top: 2px; }
 table.caution { border: 2px solid #b36b00; background: #fff4e0; margin-top: 24px; }
 table.caution td { border: none; padding: 10px 14px; }
 ul.assumptions li { margin-bottom: 3px; }
-@media print { div.figure { page-break-inside: avoid; } }
+@media print { div.figure { page-break-inside: avoid; } thead { display: table-header-group; } }
+"""
+
+
+#: The style sheet of the printed report (Qt's rich-text layout; sizes in points, nothing
+#: smaller than 8 pt).
+PRINT_CSS = """\
+body { font-family: sans-serif; color: #1a1a1a; font-size: 9pt; }
+h1 { font-size: 15pt; margin-bottom: 2pt; }
+h2 { font-size: 12pt; margin-top: 14pt; margin-bottom: 4pt; }
+h3 { font-size: 10pt; margin-top: 8pt; margin-bottom: 3pt; }
+p { margin-top: 2pt; margin-bottom: 4pt; }
+p.meta { color: #555555; font-size: 8pt; }
+table { border-collapse: collapse; margin-top: 3pt; margin-bottom: 6pt; font-size: 8pt; }
+th, td { border: 1px solid #c8c8c8; padding: 1px 3px; text-align: left; vertical-align: top; }
+th { background: #f0f0f0; font-weight: bold; }
+td.num { text-align: right; white-space: nowrap; }
+p.key { font-size: 10pt; }
+p.caption { color: #444444; font-size: 8pt; margin-top: 1pt; }
+.bad { color: #b00000; }
+table.caution { border: 2px solid #b36b00; background: #fff4e0; margin-top: 10pt; font-size: 9pt; }
+table.caution td { border: none; padding: 6px 8px; }
+li { margin-bottom: 2pt; }
 """
 
 
 def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], numeric: Sequence[int] = ()) -> str:
-    """An HTML table; ``headers`` plain text (escaped here), cells are HTML fragments."""
+    """An HTML table; ``headers`` plain text (escaped here, every one named), cells are HTML
+    fragments. The header row is in ``<thead>``, so a printed table repeats it on each page."""
     num = set(numeric)
-    out = ["<table>", "<tr>" + "".join(f"<th>{esc(h)}</th>" for h in headers) + "</tr>"]
+    out = ["<table>", "<thead><tr>" + "".join(f"<th>{esc(h)}</th>" for h in headers) + "</tr></thead>", "<tbody>"]
     for r in rows:
         out.append("<tr>" + "".join(f'<td class="num">{c}</td>' if i in num else f"<td>{c}</td>"
                                     for i, c in enumerate(r)) + "</tr>")
+    out.append("</tbody>")
     out.append("</table>")
     return "\n".join(out)
 
@@ -174,7 +203,8 @@ def _cell(x: Any) -> str:
 
 def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: Any = None,
                  parts_rows: Sequence[dict] | None = None, title: str | None = None,
-                 spread: Ensemble | None = None, generated: datetime | None = None) -> Report:
+                 spread: Ensemble | None = None, generated: datetime | None = None,
+                 current: Any = None) -> Report:
     """Build the report of ``result``.
 
     ``recommendation``: a :class:`filters.recommend.Recommendation` (or None);
@@ -182,7 +212,9 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     the parts list rows (dicts, columns in key order); ``spread``: an ensemble with gain
     curves for the spread figure (default: the result's own curves, or the first
     :data:`FIGURE_BOARDS` boards of the same seed evaluated again); ``generated``: the
-    time stamp shown (default now).
+    time stamp shown (default now); ``current``: the design the recommendation started
+    from, when ``result`` analyses another (by default the recommendation's own record of
+    the current grades, else ``result.design``).
     """
     d = result.design
     ens = result.ensemble
@@ -202,8 +234,10 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
         "</p>")
     if title and d.name and title != d.name:
         add(f"<p>Design: <b>{esc(d.name)}</b></p>")
+    add('<p class="summary">' + " ".join(esc(t) for t in describe_design(d, grades)) + "</p>")
     if d.description:
-        add(f"<p>{esc(d.description)}</p>")
+        add(f'<p class="note"><i>Note from the design file (the designer\'s own words, not checked against '
+            f"the design):</i> {esc(d.description)}</p>")
     conf_pct = f"{y.confidence * 100:g} %"
     if d.mask:
         add(f'<p class="key">Estimated yield <b>{format_pct(y.estimate)}</b> '
@@ -413,11 +447,12 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     if recommendation is not None or curve:
         add('<h2 id="recommendation">Recommended grades</h2>')
         if recommendation is not None:
-            add(_recommendation_html(d, recommendation))
+            add(_recommendation_html(d, recommendation, current))
         if curve:
             pts = [(float(t), (r.chosen.cost if r.chosen is not None else None)) for t, r in curve]
-            current = sum(d.catalog[p.grade].cost for p in d.parts)
-            figures["cost-yield"] = svg_cost_yield(pts, current_cost=current, ident="cost-yield")
+            ref_rec = recommendation if recommendation is not None else curve[0][1]
+            figures["cost-yield"] = svg_cost_yield(pts, current_cost=_current_grades(d, ref_rec, current)[1],
+                                                   ident="cost-yield")
             add("<h3>Cost against yield target</h3>")
             add(_figure("cost-yield", "Total cost of the cheapest grade choice whose lower confidence bound meets "
                                       "each target (costs relative, from the catalog)."))
@@ -433,9 +468,16 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     # --- parts list -------------------------------------------------------------------------------
     if parts_rows:
         add('<h2 id="parts">Parts list</h2>')
-        cols = list(parts_rows[0].keys())
+        cols = [k for k in parts_rows[0] if any(_cell(r.get(k)) for r in parts_rows)]  # no empty column
+        same = {k: _cell(parts_rows[0].get(k)) for k in ("budget metric",) if k in cols
+                and len({_cell(r.get(k)) for r in parts_rows}) == 1}
+        cols = [k for k in cols if k not in same]
         add(_table([str(k).replace("_", " ") for k in cols],
                    [[_cell(r.get(k)) for k in cols] for r in parts_rows]))
+        if same:
+            add(f"<p>The share of the spread budget is that of the {same['budget metric']}.</p>")
+        add("<p>Series: the smallest IEC 60063 series that holds the value (E3 to E192; none: a value of no "
+            "series).</p>")
 
     # --- assumptions and caution -------------------------------------------------------------------
     add('<h2 id="assumptions">Assumptions</h2>')
@@ -469,13 +511,29 @@ def _metrics_table(result: AnalysisResult, stage_names: list[str]) -> str:
     return html_out
 
 
-def _recommendation_html(d, rec) -> str:
+def _current_grades(d, rec, current) -> tuple[list[str], float]:
+    """The grade names per part the search started from, and their total relative cost:
+    ``rec.current_grades``/``rec.current_cost`` when the recommendation carries them (the
+    costs of the catalog searched, as the command line prints them), else the grades of
+    ``current`` (the design before the recommendation), else of ``d``."""
+    names = list(getattr(rec, "current_grades", ()) or ())
+    cost = getattr(rec, "current_cost", float("nan"))
+    base = current if current is not None else d
+    if len(names) != len(d.parts):
+        names = [p.grade for p in base.parts]
+    if not (isinstance(cost, (int, float)) and math.isfinite(cost)):
+        cats = [rec.design.catalog if getattr(rec, "design", None) is not None else d.catalog, base.catalog]
+        cost = sum(next(c[g].cost for c in cats if g in c) for g in names)
+    return names, float(cost)
+
+
+def _recommendation_html(d, rec, current=None) -> str:
     """The recommendation's section body (``rec`` has the fields of
-    :class:`filters.recommend.Recommendation`; ``search``, ``capped`` and ``note`` optional)."""
+    :class:`filters.recommend.Recommendation`; ``search``, ``capped`` and ``note`` optional).
+    ``d`` is the analysed design; ``current`` the design the search started from (default:
+    what ``rec`` records, else ``d``)."""
     cat = d.catalog
     out: list[str] = []
-    current = [p.grade for p in d.parts]
-    current_cost = sum(cat[g].cost for g in current)
     conf = f"{rec.confidence * 100:g} %"
     search = getattr(rec, "search", "")
     how = {"exhaustive": " (every combination in order of cost: the cheapest)",
@@ -491,16 +549,23 @@ def _recommendation_html(d, rec) -> str:
         out.append('<p class="bad">No combination of grades in the catalog meets this target.</p>')
         return "\n".join(out)
     new_cat = rec.design.catalog if getattr(rec, "design", None) is not None else cat
+    base = current if current is not None else d
+    old_names, current_cost = _current_grades(d, rec, current)
+    old_cat = [base.catalog, new_cat, cat]
+    analysed = [p.grade for p in d.parts]
     rows = []
-    for p, g_new in zip(d.parts, ch.grades):
-        tol_old = f"\u00b1{cat[p.grade].tolerance_pct:g} %"
+    for p, g_old, g_new in zip(d.parts, old_names, ch.grades):
+        g_old_obj = next((c[g_old] for c in old_cat if g_old in c), None)
+        tol_old = f"\u00b1{g_old_obj.tolerance_pct:g} %" if g_old_obj is not None else ""
         tol_new = f"\u00b1{new_cat[g_new].tolerance_pct:g} %" if g_new in new_cat else ""
-        changed = "changed" if g_new != p.grade else ""
-        rows.append([esc(p.ref), esc(p.grade), tol_old, esc(g_new), tol_new, changed])
-    out.append(_table(["Part", "Current grade", "Tolerance", "Recommended grade", "Tolerance", ""], rows,
+        rows.append([esc(p.ref), esc(g_old), tol_old, esc(g_new), tol_new, "yes" if g_new != g_old else "no"])
+    out.append(_table(["Part", "Current grade", "Tolerance", "Recommended grade", "Tolerance", "Changed"], rows,
                       numeric=[2, 4]))
-    out.append(f"<p>Total cost: <b>{_cost(ch.cost)}</b> (current grades: {_cost(current_cost)}; relative "
-               "units from the catalog).</p>")
+    out.append(f"<p>Total cost: recommended grades <b>{_cost(ch.cost)}</b>, current grades "
+               f"{_cost(current_cost)} (relative units from the catalog).</p>")
+    used = ("recommended" if analysed == list(ch.grades) else "current" if analysed == old_names
+            else "listed in the Design section")
+    out.append(f"<p>The analysis in the other sections of this report uses the <b>{used}</b> grades.</p>")
     seed = getattr(rec, "seed", None)
     on = f"seed {seed}" if seed is not None else "the search's seed"
     out.append(f"<p>On the {format_count(ch.samples)} boards the search used ({on}): yield {format_pct(ch.estimate)}, "
@@ -568,7 +633,7 @@ def _assumptions(result: AnalysisResult, sp: Ensemble) -> list[str]:
     for k, s in enumerate(d.stages, start=1):
         text = _opamp_text(d, s, s.built())
         items.append(esc(f"{s.name or f'stage {k}'}: " + ("passive, no op-amp." if text == "passive"
-                                                          else f"op-amp {text}.")))
+                                                          else f"{text}.")))
     items.append("Stages are buffered (each stage's output is an ideal source for the next); parts are ideal "
                  "apart from their value (no parasitics, no op-amp offset, slew rate or output limits).")
     items.append(f"Spread figures drawn from {format_count(sp.samples)} boards of seed {sp.seed}; the central band "

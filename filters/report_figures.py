@@ -40,6 +40,9 @@ SVG_NS = "http://www.w3.org/2000/svg"
 
 esc = html.escape
 
+#: The smallest font size of any text in a figure, in px (SVG user units).
+MIN_FONT = 12
+
 
 def _g(x: float) -> str:
     return f"{x:g}"
@@ -73,7 +76,7 @@ class _Svg:
     def add(self, item: str) -> None:
         self.items.append(item)
 
-    def label(self, x: float, y: float, text: str, *, anchor: str = "start", size: int = 11,
+    def label(self, x: float, y: float, text: str, *, anchor: str = "start", size: float = MIN_FONT,
               fill: str = "#222222", rotate: bool = False, weight: str = "normal") -> None:
         tr = f' transform="rotate(-90 {_c(x)} {_c(y)})"' if rotate else ""
         wt = f' font-weight="{weight}"' if weight != "normal" else ""
@@ -234,23 +237,23 @@ def _axes(svg: _Svg, fr: _Frame, xticks: list[float], xlabels: list[str], yticks
     for v, t in zip(xticks, xlabels):
         x = float(fr.x(v))
         svg.line(x, fr.y1, x, fr.y1 + 4, AXIS)
-        svg.label(x, fr.y1 + 16, t, anchor="middle", size=10)
+        svg.label(x, fr.y1 + 17, t, anchor="middle")
     for v, t in zip(yticks, ylabels):
         y = float(fr.y(v))
         svg.line(fr.x0 - 4, y, fr.x0, y, AXIS)
-        svg.label(fr.x0 - 6, y + 3.5, t, anchor="end", size=10)
-    svg.label((fr.x0 + fr.x1) / 2, fr.y1 + 32, xtitle, anchor="middle", size=11)
-    svg.label(13, (fr.y0 + fr.y1) / 2, ytitle, anchor="middle", size=11, rotate=True)
+        svg.label(fr.x0 - 6, y + 4, t, anchor="end")
+    svg.label((fr.x0 + fr.x1) / 2, fr.y1 + 34, xtitle, anchor="middle", size=MIN_FONT + 1)
+    svg.label(14, (fr.y0 + fr.y1) / 2, ytitle, anchor="middle", size=MIN_FONT + 1, rotate=True)
 
 
 def _legend(svg: _Svg, x: float, y: float, items: list[tuple[str, str]], right: float) -> None:
     """One row of legend entries from ``x``: (swatch svg at (0,0)-(18,10), text)."""
     for swatch, text in items:
-        width = 24 + 5.9 * len(text) + 16
+        width = 24 + 0.6 * MIN_FONT * len(text) + 16
         if x + width > right:
             break
         svg.add(f'<g transform="translate({_c(x)} {_c(y - 9)})">{swatch}</g>')
-        svg.label(x + 24, y, text, size=10.5)
+        svg.label(x + 24, y, text)
         x += width
 
 
@@ -440,26 +443,26 @@ def svg_bar_chart(labels: Sequence[str], values_pct: Sequence[float], title: str
     vals = [float(v) for v in values_pct]
     if len(vals) != len(labels):
         raise ValueError("one value per label")
-    row = 20
-    label_w = min(260.0, 24.0 + 6.4 * max([len(str(t)) for t in labels] + [4]))
+    row = 22
+    label_w = min(260.0, 24.0 + 0.6 * MIN_FONT * max([len(str(t)) for t in labels] + [4]))
     top = 30.0
     height = int(top + row * max(len(vals), 1) + 34)
     svg = _Svg(width, height, title)
-    svg.label(8, 18, title, size=12, weight="bold")
+    svg.label(8, 18, title, size=MIN_FONT + 1, weight="bold")
     x0, x1 = label_w, width - 70.0
     fr = _Frame(x0, top, x1, top + row * max(len(vals), 1), 0.0, 100.0, 0.0, 1.0)
     for t in (0, 25, 50, 75, 100):
         x = float(fr.x(t))
         svg.line(x, fr.y0, x, fr.y1, GRID)
-        svg.label(x, fr.y1 + 14, f"{t} %", anchor="middle", size=10)
+        svg.label(x, fr.y1 + 15, f"{t} %", anchor="middle")
     for i, (lab, v) in enumerate(zip(labels, vals)):
         y = top + i * row
-        svg.label(x0 - 8, y + 14, str(lab), anchor="end", size=11)
+        svg.label(x0 - 8, y + 15, str(lab), anchor="end")
         vv = v if math.isfinite(v) else 0.0
         xe = float(fr.x(min(max(vv, 0.0), 100.0)))
         colour = SKY if i in set(muted) else BLUE
         svg.rect(x0, y + 4, xe - x0, row - 8, colour)
-        svg.label(xe + 5, y + 14, f"{v:.1f} %" if math.isfinite(v) else "n/a", size=10.5)
+        svg.label(xe + 5, y + 15, f"{v:.1f} %" if math.isfinite(v) else "n/a")
     svg.line(x0, fr.y0, x0, fr.y1, AXIS)
     return svg.text()
 

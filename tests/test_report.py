@@ -181,7 +181,7 @@ def test_samples_seed_and_grid_in_assumptions(demo, demo_html):
     assert f"{result.prepared.freqs_hz.size} points from 10 Hz to 100 kHz" in s
     assert "PCG64" in s and "coverage factor k = 2" in s and "truncated" in s
     assert "25 \u00b0C" in s and "Lot share 0" in s
-    assert "ideal (infinite gain and bandwidth)" in s
+    assert "ideal op-amp (infinite gain and bandwidth" in s
     assert "tolspread 0.1.0" in s
 
 
@@ -432,3 +432,134 @@ def test_figures_render_with_qt(demo, qapp):
         blue = QColor("#0072B2").rgb()
         found = any(img.pixel(x, y) == blue for x in range(0, img.width(), 2) for y in range(0, img.height(), 2))
         assert found, f"{name}: no blue drawn"
+
+
+# --- issue 10: the recommendation table, generated descriptions, op-amps ---------------------------
+
+class Tables(HTMLParser):
+    """Every table as (header cells, body rows of cell texts), and the text of <p class=summary>."""
+
+    def __init__(self) -> None:
+        super().__init__(convert_charrefs=True)
+        self.tables: list[tuple[list[str], list[list[str]]]] = []
+        self.thead: list[bool] = []
+        self._cell: list[str] | None = None
+        self._row: list[str] | None = None
+        self._in_head = False
+        self._p_class: str | None = None
+        self.paragraphs: dict[str, list[str]] = {}
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if tag == "table":
+            self.tables.append(([], []))
+            self.thead.append(False)
+        elif tag == "thead":
+            self._in_head = True
+            self.thead[-1] = True
+        elif tag == "tr":
+            self._row = []
+        elif tag in ("td", "th"):
+            self._cell = []
+        elif tag == "p":
+            self._p_class = a.get("class")
+            self.paragraphs.setdefault(self._p_class or "", []).append("")
+
+    def handle_endtag(self, tag):
+        if tag in ("td", "th") and self._cell is not None and self._row is not None:
+            self._row.append("".join(self._cell).strip())
+            self._cell = None
+        elif tag == "tr" and self._row is not None and self.tables:
+            (self.tables[-1][0].extend(self._row) if self._in_head else self.tables[-1][1].append(self._row))
+            self._row = None
+        elif tag == "thead":
+            self._in_head = False
+        elif tag == "p":
+            self._p_class = None
+
+    def handle_data(self, data):
+        if self._cell is not None:
+            self._cell.append(data)
+        if self._p_class is not None:
+            self.paragraphs[self._p_class or ""][-1] += data
+
+
+def tables_of(doc: str) -> Tables:
+    t = Tables()
+    t.feed(doc)
+    t.close()
+    return t
+
+
+def table_with(doc: str, first_header: str, *more: str) -> tuple[list[str], list[list[str]]]:
+    for head, rows in tables_of(doc).tables:
+        if head[:1] == [first_header] and all(m in head for m in more):
+            return head, rows
+    raise AssertionError(f"no table headed {first_header!r} {more}")
+
+
+def test_every_table_header_is_named_and_in_thead(demo_html):
+    t = tables_of(demo_html)
+    for (head, rows), has_head in zip(t.tables, t.thead):
+        if head or rows and "Caution" not in rows[0][0]:
+            assert has_head and head and all(h for h in head), head  # no blank, unlabelled column
+            assert all(len(r) == len(head) for r in rows), head
+
+
+@pytest.fixture(scope="module")
+def recommended():
+    """The command line's way: recommend, then analyse the design with the chosen grades."""
+    rec_mod = pytest.importorskip("filters.recommend")
+    design = load_demo()
+    rec = rec_mod.recommend(design, 0.9, samples=400, max_evaluations=40, verify_factor=1)
+    assert rec.chosen is not None and tuple(p.grade for p in design.parts) != rec.chosen.grades
+    result = analyze(rec.design, samples=400)
+    return design, rec, result
+
+
+@pytest.mark.parametrize("with_current", [False, True])
+def test_recommendation_table_shows_the_current_grades_and_both_costs(recommended, with_current):
+    # issue 10 #15: the current grades are the design's own (the file's), not the recommended
+    design, rec, result = recommended
+    doc = build_report(result, recommendation=rec, generated=WHEN,
+                       current=design if with_current else None).html()
+    head, rows = table_with(section(doc, "recommendation"), "Part", "Current grade", "Recommended grade")
+    col = head.index("Current grade")
+    assert [r[col] for r in rows] == [p.grade for p in design.parts]
+    assert [r[head.index("Recommended grade")] for r in rows] == list(rec.chosen.grades)
+    changed = [r[head.index("Changed")] for r in rows]
+    assert changed == ["yes" if a != b else "no" for a, b in zip((p.grade for p in design.parts), rec.chosen.grades)]
+    # costs summed here from the design's catalog (the reference), as the terminal prints them
+    current_cost = sum(design.catalog[p.grade].cost for p in design.parts)
+    text = html.unescape(re.sub(r"<[^>]+>", "", section(doc, "recommendation")))
+    assert f"recommended grades {rec.chosen.cost:.2f}, current grades {current_cost:.2f}" in text
+    assert current_cost != pytest.approx(rec.chosen.cost)
+    assert "uses the recommended grades" in text
+
+
+def test_description_is_generated_from_the_design():
+    # issue 10 #22: C1 on an X7R grade; the summary must say so and never claim C0G for it
+    design = load_demo().with_part("C1", grade="C-X7R-10")
+    result = analyze(design, samples=300)
+    doc = build_report(result, generated=WHEN).html()
+    summary = tables_of(doc).paragraphs["summary"][0]
+    groups = {}
+    for p in design.parts:
+        groups.setdefault(p.grade, []).append(p.ref)
+    for grade, refs in groups.items():  # every grade with exactly its parts, from the design
+        assert f"{', '.join(refs)}: grade {grade} (\u00b1{design.catalog[grade].tolerance_pct:g} %" in summary
+    for s in design.mask:  # every span's limit, from the mask
+        assert s.label in summary and f"{s.limit1:+g} dB" in summary
+    assert "at least 37 dB of rejection" in summary  # the demo's -37 dB ceiling
+    assert "40 dB" not in doc  # no fixed claim that disagrees with the mask
+    assert "thick film, capacitors 5 % C0G" not in doc
+    # the designer's own words, when shown, are marked as such
+    notes = tables_of(doc).paragraphs.get("note", [])
+    assert all(n.startswith("Note from the design file") for n in notes)
+
+
+def test_opamp_of_a_stage_is_not_named_by_the_topology_role(demo_html):
+    # issue 10 #22: "U2 high-Q stage: op-amp U1 ideal" named the other stage's op-amp
+    text = html.unescape(re.sub(r"<[^>]+>", "", demo_html))
+    assert "op-amp U1" not in text and "U1 ideal" not in text
+    assert "U2 high-Q stage: an ideal op-amp (infinite gain and bandwidth" in text
