@@ -8,20 +8,25 @@ from typing import Any, TextIO
 from filters import __version__
 from filters.analysis import AnalysisResult, analyze  # noqa: F401  (re-exported for the CLI)
 from filters.budget import is_pair_metric
+from filters.metrics import ATTENUATION_FLOOR_DB
 from filters.summary import MetricSummary, metric_label
 from filters.values import format_value
+
+from .texttable import table
 
 CAUTION = ("The yield is an estimate under the grades' stated distributions (see README); "
            "confirm it by measuring real parts, follow the standards that apply, and have the design reviewed.")
 
 
-def _fmt(x: float, unit: str) -> str:
+def _fmt(x: float, unit: str, signed: bool = True) -> str:
+    """A figure with its unit; dB figures carry a sign unless ``signed`` is False (a
+    standard deviation is a size, never negative)."""
     if not math.isfinite(x):
         return "n/a"
     if unit == "Hz":
         return format_value(x, "Hz", digits=4)
     if unit == "dB":
-        return f"{x:+.3f} dB"
+        return f"{x:+.3f} dB" if signed else f"{x:.3f} dB"
     return f"{x:.4g}"
 
 
@@ -31,15 +36,43 @@ def _unit(name: str) -> str:
     return "dB" if name.endswith("_db") or name.startswith(("margin.", "attenuation_db@")) else ""
 
 
-def summary_row(s: MetricSummary, label: str) -> str:
+def _beyond_floor(s: MetricSummary) -> bool:
+    """An attenuation some board has beyond :data:`ATTENUATION_FLOOR_DB`."""
+    return s.name.startswith("attenuation_db@") and math.isfinite(s.maximum) and s.maximum > ATTENUATION_FLOOR_DB
+
+
+def summary_cells(s: MetricSummary, label: str) -> list[str]:
+    """One row of the metric table: label, nominal, mean, std, std/mean, 1st and 99th
+    percentile, min, max. Attenuations beyond the floor of trust read "> 200 dB"."""
     u = _unit(s.name)
-    rel = f"{100 * s.rel_std:6.2f} %" if u == "Hz" or s.name.endswith(".q") else "        "
-    return (f"  {label:<28} {_fmt(s.nominal, u):>11} {_fmt(s.mean, u):>11} {_fmt(s.std, u):>11} {rel}"
-            f" {_fmt(s.p01, u):>11} {_fmt(s.p99, u):>11} {_fmt(s.minimum, u):>11} {_fmt(s.maximum, u):>11}")
+    rel = f"{100 * s.rel_std:.2f} %" if (u == "Hz" or s.name.endswith(".q")) and math.isfinite(s.rel_std) else ""
+
+    def fig(x: float, signed: bool = True) -> str:
+        if s.name.startswith("attenuation_db@") and math.isfinite(x) and x > ATTENUATION_FLOOR_DB:
+            return f"> {ATTENUATION_FLOOR_DB:g} dB"
+        return _fmt(x, u, signed)
+
+    std = "n/a" if _beyond_floor(s) else fig(s.std, signed=False)
+    return [label, fig(s.nominal), fig(s.mean), std, rel, fig(s.p01), fig(s.p99), fig(s.minimum), fig(s.maximum)]
 
 
 def _pct(x: float) -> str:
     return f"{100 * x:.2f} %"
+
+
+def _write(out: TextIO, lines: list[str]) -> None:
+    for line in lines:
+        out.write(line + "\n")
+
+
+def metric_order(result: AnalysisResult) -> list[str]:
+    """The metrics the summary lists, in order: cutoff or band (centre, edges, width),
+    gains, attenuations, then each stage's f0 and Q."""
+    order = [n for n in ("cutoff_hz", "centre_hz", "lower_hz", "upper_hz", "bandwidth_hz", "reference_db",
+                         "peaking_db") if n in result.summaries]
+    order += [n for n in result.summaries if n.startswith("attenuation_db@")]
+    order += [n for n in result.summaries if n.startswith("s") and n not in order and not is_pair_metric(n)]
+    return order
 
 
 def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
@@ -48,68 +81,80 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
     ens = result.ensemble
     names = [s.name for s in d.stages]
     out.write(f"{d.name or 'design'}\n")
-    out.write(f"{result.samples} sampled boards, seed {result.seed}, {ens.method} sampling; "
+    out.write(f"{result.samples:,} sampled boards, seed {result.seed}, {ens.method} sampling; "
               f"grades: {', '.join(sorted({p.grade for p in d.parts}))}\n\n")
 
     y = result.yield_
     if d.mask:
-        out.write(f"YIELD  {_pct(y.estimate)}  ({round(100 * y.confidence)} % interval {_pct(y.low)} to "
-                  f"{_pct(y.high)}, {y.method}; {y.passed} of {y.samples} boards pass)\n")
+        out.write(f"YIELD  {_pct(y.estimate)}  ({100 * y.confidence:g} % interval {_pct(y.low)} to "
+                  f"{_pct(y.high)}, {y.method}; {y.passed:,} of {y.samples:,} boards pass)\n")
         from filters.stats import samples_for_half_width
 
         need = [(h, samples_for_half_width(h / 100, y.estimate, y.confidence, y.method)) for h in (1.0, 0.5, 0.1)]
         out.write("  boards needed at this yield for an interval of " +
                   ", ".join(f"+-{h:g} points: {n:,}" for h, n in need) + "\n")
         if len(result.history) > 1:
-            out.write(f"  adaptive run: {len(result.history)} batches, interval half-width "
+            out.write(f"  adaptive run: {len(result.history):,} batches, interval half-width "
                       f"{100 * y.half_width:.2f} points\n")
-        out.write(f"  {'span':<24} {'failing boards':>15} {'share of failures':>18} {'worst margin':>13}"
-                  f" {'nominal margin':>15}\n")
+        rows = []
         for j, s in enumerate(result.spans):
-            unit = d.mask[j].quantity
-            u = {"gain": "dB", "phase": "deg", "delay": "s"}[unit]
-            out.write(f"  {s.name:<24} {s.failed:>8} ({_pct(s.fraction):>7}) {_pct(s.share_of_failures):>16}"
-                      f" {s.worst_margin_db:>+10.3f} {u:<3} {result.prepared.nominal.margins[j]:>+11.3f} {u}\n")
+            u = {"gain": "dB", "phase": "deg", "delay": "s"}[d.mask[j].quantity]
+            margin = (lambda x: _fmt(x, "dB")) if u == "dB" else (lambda x, u=u: format_value(x, u, digits=4)
+                                                                    if u == "s" else f"{x:+.3f} {u}")
+            rows.append([s.name, f"{s.failed:,}", _pct(s.fraction), _pct(s.share_of_failures),
+                         margin(s.worst_margin_db), margin(float(result.prepared.nominal.margins[j]))])
+        _write(out, table(["span", "failing boards", "of all", "share of failures", "worst margin",
+                           "nominal margin"], rows, "<>>>>>"))
         out.write("\n")
     else:
         out.write("No spec mask in this design: add floor and ceiling spans to get a yield.\n\n")
 
-    head = (f"  {'metric':<28} {'nominal':>11} {'mean':>11} {'std':>11} {'std/mean':>8}"
-            f" {'1st pct':>11} {'99th pct':>11} {'min':>11} {'max':>11}\n")
-    out.write(head)
-    order = [n for n in ("cutoff_hz", "centre_hz", "bandwidth_hz", "reference_db", "peaking_db")
-             if n in result.summaries]
-    order += [n for n in result.summaries if n.startswith("attenuation_db@")]
-    order += [n for n in result.summaries if n.startswith("s") and n not in order and not is_pair_metric(n)]
-    for n in order:
-        out.write(summary_row(result.summaries[n], metric_label(n, names)) + "\n")
+    order = metric_order(result)
+    rows = [summary_cells(result.summaries[n], metric_label(n, names)) for n in order]
+    _write(out, table(["metric", "nominal", "mean", "std", "std/mean", "1st pct", "99th pct", "min", "max"],
+                      rows, "<>>>>>>>>"))
     for n in order:
         s = result.summaries[n]
         if s.valid < result.samples:
             out.write(f"  note: {metric_label(n, names)} is outside the analysed range for "
-                      f"{result.samples - s.valid} board(s); they are left out of its statistics\n")
+                      f"{result.samples - s.valid:,} board(s); they are left out of its statistics\n")
+    if any(_beyond_floor(result.summaries[n]) for n in order):
+        out.write(f"  note: attenuations beyond {ATTENUATION_FLOOR_DB:g} dB are not figures to trust: float64 "
+                  "rounding in the response leaves them unresolved, and a real board's leakage stops far "
+                  "short of them (measure)\n")
 
-    out.write("\nSPREAD BUDGET (share of variance explained by each part; top entries)\n")
+    out.write("\nSPREAD BUDGET (share of variance explained by each part, top entries; one decimal, "
+              "rounded so each line adds to 100 %)\n")
+    rows = []
     for name, b in result.budget.items():
-        if name not in ("cutoff_hz",) and not name.startswith("margin."):
+        if name not in ("cutoff_hz", "centre_hz") and not name.startswith("margin."):
             continue
-        tops = ", ".join(f"{e.ref} {_pct(e.share)}" for e in b.entries[:top] if e.share > 0)
-        out.write(f"  {metric_label(name, names):<36} {tops or 'no spread'}"
-                  f"{f'; unexplained {_pct(b.remainder)}' if b.remainder >= 0.005 else ''}\n")
+        shares = b.rounded_percent(top)
+        rows.append([metric_label(name, names), ", ".join(f"{ref} {v:.1f} %" for ref, v in shares) or "no spread"])
+    if rows:
+        _write(out, table(["metric", "shares"], rows, "<<")[1:])
 
     c = result.corners
-    kind = (f"all {c.boards} combinations of {c.varying_parts} parts at their limits" if c.exhaustive
-            else f"{c.boards} sensitivity-guided corners of {c.varying_parts} parts: an estimate, not a guaranteed worst case")
+    kind = (f"all {c.boards:,} combinations of {c.varying_parts} parts at their limits" if c.exhaustive
+            else f"{c.boards:,} sensitivity-guided corners of {c.varying_parts} parts: an estimate, not a "
+                 "guaranteed worst case")
     out.write(f"\nCORNERS ({kind})\n")
-    out.write(f"  {'metric':<36} {'corner low':>11} {'corner high':>11} {'MC min':>11} {'MC max':>11}"
-              f" {'RSS std':>11}\n")
-    for name in ["cutoff_hz"] + [n for n in c.ranges if n.startswith("margin.")]:
+    rows, nonlinear = [], []
+    for name in ["cutoff_hz", "centre_hz"] + [n for n in c.ranges if n.startswith("margin.")]:
         r = c.ranges.get(name)
         if r is None:
             continue
         u = _unit(name)
-        out.write(f"  {metric_label(name, names):<36} {_fmt(r.corner_low, u):>11} {_fmt(r.corner_high, u):>11}"
-                  f" {_fmt(r.mc_low, u):>11} {_fmt(r.mc_high, u):>11} {_fmt(r.rss_std, u):>11}\n")
+        rss = _fmt(r.rss_std, u, signed=False) if r.linear else "not linear"
+        if not r.linear:
+            nonlinear.append(metric_label(name, names))
+        rows.append([metric_label(name, names), _fmt(r.corner_low, u), _fmt(r.corner_high, u),
+                     _fmt(r.mc_low, u), _fmt(r.mc_high, u), rss])
+    _write(out, table(["metric", "corner low", "corner high", "MC min", "MC max", "RSS std"], rows, "<>>>>>"))
+    for label in nonlinear:
+        out.write(f"  note: {label} is not linear at the nominal: a one-sided limit (a minimum or maximum over "
+                  "frequencies) has zero first-order sensitivity there, so RSS cannot estimate it; see the "
+                  "sampled spread (MC min and max)\n")
     if d.mask:
         out.write(f"  worst case: {'every corner board meets the mask' if c.all_pass else 'some corner boards fail the mask'}"
                   "\n")
@@ -150,6 +195,7 @@ def to_json(result: AnalysisResult) -> dict[str, Any]:
         "seed": result.seed,
         "method": result.ensemble.method,
         "metrics": {n: s.to_dict() for n, s in result.summaries.items()},
+        "attenuation_floor_db": ATTENUATION_FLOOR_DB,
         "yield": y,
         "budget": {n: b.to_dict() for n, b in result.budget.items()},
         "corners": result.corners.to_dict(),

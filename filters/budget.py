@@ -73,6 +73,38 @@ class Budget:
         return {"metric": self.metric, "samples": self.samples, "remainder": self.remainder,
                 "parts": [e.to_dict() for e in self.entries]}
 
+    def rounded_percent(self, top: int | None = None, decimals: int = 1) -> list[tuple[str, float]]:
+        """The shares as percentages rounded to ``decimals`` that add to exactly 100:
+        ``[(ref, pct), ..., ("others", pct), ("unexplained", pct)]`` (largest-remainder
+        rounding, Hare's method, over the ``top`` largest parts, the rest of the parts
+        together, and the remainder). Entries that round to 0 are left out; empty when the
+        metric does not vary."""
+        shares = [max(0.0, e.share) if np.isfinite(e.share) else 0.0 for e in self.entries]
+        if sum(shares) + self.remainder <= 0:
+            return []
+        k = len(shares) if top is None else min(top, len(shares))
+        names = [e.ref for e in self.entries[:k]] + ["others", "unexplained"]
+        values = shares[:k] + [sum(shares[k:]), self.remainder]
+        pct = largest_remainder(values, 100.0, decimals)
+        return [(n, v) for n, v in zip(names, pct) if v > 0]
+
+
+def largest_remainder(values: list[float], total: float = 100.0, decimals: int = 1) -> list[float]:
+    """``values`` (non-negative) scaled to add to ``total`` and rounded to ``decimals``
+    places so that the rounded figures still add to exactly ``total`` (largest-remainder
+    method: round down, then give the leftover units to the largest fractional parts)."""
+    unit = 10.0 ** -decimals
+    whole = sum(values)
+    if whole <= 0:
+        return [0.0 for _ in values]
+    exact = [v / whole * total / unit for v in values]
+    floors = [int(np.floor(x)) for x in exact]
+    left = int(round(total / unit)) - sum(floors)
+    order = sorted(range(len(values)), key=lambda i: exact[i] - floors[i], reverse=True)
+    for i in order[:left]:
+        floors[i] += 1
+    return [round(f * unit, decimals) for f in floors]
+
 
 def sensitivities(prep: Prepared, names: list[str]) -> dict[str, np.ndarray]:
     """Normalized sensitivity of each metric to each part at the nominal design, (P,)."""
@@ -151,6 +183,8 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None)
                 beta[use] = np.linalg.lstsq(xc[:, use], yc, rcond=None)[0]
         var_y = float(np.var(yc))
         shares = beta ** 2 * np.var(xc, axis=0) / var_y
+        if shares.sum() > 1.0:  # parts correlated against each other: scale to the whole variance
+            shares = shares / shares.sum()
         remainder = float(max(0.0, 1.0 - shares.sum()))
         order = np.argsort(-shares)
         entries = tuple(BudgetEntry(refs[i], float(shares[i]), float(s_vec[i]), unit) for i in order)

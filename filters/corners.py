@@ -26,11 +26,22 @@ from .evaluate import Ensemble, Prepared, evaluate_values
 from .sampling import limits
 
 MAX_EXHAUSTIVE = 12
+#: An RSS standard deviation below this share of the sampled one marks a metric as not
+#: linear at the nominal (its first-order sensitivities miss the spread).
+LINEAR_SHARE = 0.1
 
 
 @dataclass(frozen=True)
 class CornerRange:
-    """One metric: corner extremes, Monte Carlo extremes, RSS estimates (metric units)."""
+    """One metric: corner extremes, Monte Carlo extremes, RSS estimates (metric units).
+
+    ``linear`` is False when the metric is not linear at the nominal design: its RSS
+    standard deviation (first-order sensitivities) is below :data:`LINEAR_SHARE` of the
+    sampled one. A one-sided limit - a margin that is a minimum or maximum over
+    frequencies, such as a ceiling over a flat passband - has zero first-order sensitivity
+    there while boards still spread and fail. Then ``rss_std`` and ``rss_limit`` are NaN
+    (null in JSON): read the sampled spread instead.
+    """
 
     metric: str
     nominal: float
@@ -40,11 +51,12 @@ class CornerRange:
     mc_high: float
     rss_std: float
     rss_limit: float
+    linear: bool = True
 
-    def to_dict(self) -> dict[str, float | str]:
+    def to_dict(self) -> dict[str, float | str | bool]:
         return {"metric": self.metric, "nominal": self.nominal, "corner_low": self.corner_low,
                 "corner_high": self.corner_high, "mc_low": self.mc_low, "mc_high": self.mc_high,
-                "rss_std": self.rss_std, "rss_limit": self.rss_limit}
+                "rss_std": self.rss_std, "rss_limit": self.rss_limit, "linear": self.linear}
 
 
 @dataclass(frozen=True)
@@ -163,11 +175,15 @@ def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None) -> Co
             rss_lim = float(np.sqrt(np.sum((100 * s * half) ** 2)))
         finite = y[np.isfinite(y)]
         cfin = c[np.isfinite(c)]
+        sampled_std = float(finite.std(ddof=1)) if finite.size > 1 else 0.0
+        linear = not (sampled_std > 0 and np.isfinite(rss_std) and rss_std < LINEAR_SHARE * sampled_std)
+        if not linear:
+            rss_std = rss_lim = float("nan")
         ranges[name] = CornerRange(
             name, nominal,
             float(cfin.min()) if cfin.size else np.nan, float(cfin.max()) if cfin.size else np.nan,
             float(finite.min()) if finite.size else np.nan, float(finite.max()) if finite.size else np.nan,
-            rss_std, rss_lim)
+            rss_std, rss_lim, linear)
     worst = {s.label: float(ev.margins[:, j].min()) for j, s in enumerate(ens.design.mask)}
     all_pass = bool(np.all(ev.margins >= 0)) if ev.margins.size else True
     return Corners(ranges, exhaustive, int(rows.shape[0]), int(m), all_pass, worst)

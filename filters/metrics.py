@@ -22,6 +22,15 @@ from .engine import (
 
 TWO_PI = 2 * math.pi
 
+#: Attenuations beyond this (dB below the reference) are reported as "> 200 dB", not as
+#: figures. The response is computed in float64 (about 16 significant digits, 2.2e-16
+#: relative: 313 dB of amplitude range); a polynomial evaluated near its zeros, or built
+#: by multiplying several sections, loses digits to cancellation and rounding that grow
+#: with the degree, so below about 1e-10 of the reference (200 dB) a figure is not
+#: resolved in general. No real board comes near it either: leakage around and through
+#: the parts sets the floor of a measured response far higher; measure it.
+ATTENUATION_FLOOR_DB = 200.0
+
 
 def peak(coeffs: list[StageCoefficients], resp: Response) -> tuple[np.ndarray, np.ndarray]:
     """Frequency (Hz) and |H|^2 of each sample's highest gain, refined off the grid.

@@ -319,3 +319,31 @@ def test_active_cascade_of_the_same_response_is_sensitive_at_the_peaks():
         # every part of the cascade moves the gain at the peaks by more than 1e-3 dB per %
         # (measured when written: 0.068 to 0.16 at the upper peak, 0.009 to 0.063 at the lower)
         assert sv.min() > 1e-3, (name, by_ref(d, s[name]))
+
+
+def test_largest_remainder_rounding_adds_to_exactly_100():
+    from filters.budget import largest_remainder
+
+    # Hare's largest-remainder method (common practice in seat apportionment): three equal
+    # thirds round to 33.4 + 33.3 + 33.3; plain rounding would give 99.9
+    assert largest_remainder([1, 1, 1], 100.0, 1) == [33.4, 33.3, 33.3]
+    rng = np.random.default_rng(5)
+    for _ in range(200):
+        v = list(rng.random(rng.integers(2, 9)) ** 3)
+        got = largest_remainder(v, 100.0, 1)
+        exact = [100 * x / sum(v) for x in v]
+        assert math.fsum(got) == pytest.approx(100.0, abs=1e-9)
+        assert all(abs(g - e) < 0.1 + 1e-9 for g, e in zip(got, exact))
+
+
+def test_budget_shares_and_remainder_add_to_one_and_round_to_100():
+    from filters.designfile import load_demo
+
+    demo = load_demo()
+    prep = prepare(demo)
+    ens = evaluate(demo, samples=3000, seed=3, curves=False, prepared=prep)
+    for b in spread_budget(ens, prep).values():
+        total = math.fsum(e.share for e in b.entries) + b.remainder
+        if total:
+            assert total == pytest.approx(1.0, abs=1e-12), b.metric
+            assert math.fsum(v for _, v in b.rounded_percent(3)) == pytest.approx(100.0, abs=1e-9)

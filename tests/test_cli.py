@@ -230,7 +230,10 @@ def test_invalid_design_names_the_field_in_the_first_line(tmp_path, capsys):
     lines = err.strip().splitlines()
     assert "parts[0].value" in lines[0]
     assert str(p) in lines[0]
-    assert any("parts[1].grade" in line for line in lines)
+    assert len(lines) == 1 and "1 more problem (use --verbose)" in lines[0]
+    code, _, err = run(["analyze", str(p), "--verbose"], capsys)
+    assert code == EXIT_BAD_INPUT
+    assert any("parts[1].grade" in line for line in err.strip().splitlines())
 
 
 def test_newer_version_file_exit_2(tmp_path, capsys):
@@ -388,3 +391,104 @@ def test_negative_values_get_the_fields_own_message(args, field, tmp_path):
     assert "\n" not in line and field in line and "expected one argument" not in line
     assert ("above 0" in line) or ("negative" in line)
     assert not (tmp_path / "x.json").exists()
+
+
+def _block(text: str, first: str) -> list[str]:
+    """The lines of the table whose header line starts with ``first`` (up to a blank line
+    or a note)."""
+    lines = text.splitlines()
+    i = next(k for k, line in enumerate(lines) if line.strip().startswith(first))
+    out = []
+    for line in lines[i:]:
+        if not line.strip() or line.strip().startswith("note:"):
+            break
+        out.append(line)
+    return out
+
+
+def _long_names_design(tmp_path: Path) -> Path:
+    data = json.loads(demo_text())
+    for k, st in enumerate(data["stages"]):
+        st["name"] = f"stage {k + 1}: a very long descriptive name of this Sallen-Key section"
+    p = tmp_path / "long.json"
+    p.write_text(json.dumps(data))
+    return p
+
+
+def test_analyze_tables_align_with_long_names_and_agree_with_json(tmp_path):
+    path = _long_names_design(tmp_path)
+    js = tmp_path / "r.json"
+    proc = cli("analyze", str(path), "--samples", "3000", "--attenuation-at", "1M", "--json", str(js))
+    assert proc.returncode == 0, proc.stderr
+    doc = json.loads(js.read_text())
+    out = proc.stdout
+    # counts with thousands separators (common practice), the same count as the JSON
+    assert f"{doc['samples']:,} sampled boards" in out and "3,000 sampled boards" in out
+    y = doc["yield"]
+    assert f"{y['passed']:,} of {y['samples']:,} boards pass" in out
+    for first in ("metric ", "span "):
+        block = _block(out, first)
+        header = block[0]
+        # right-aligned columns: every row ends where the header ends, and each header
+        # word's right edge is a column edge that every row respects (a space or the end)
+        assert all(len(r) == len(header) for r in block), block
+        edges = [m.end() for m in __import__("re").finditer(r"\S+(?= {2}|$)", header)][1:]
+        for r in block[1:]:
+            for e in edges:
+                assert e == len(r) or r[e] == " ", (r, e)
+    metrics = _block(out, "metric ")
+    # standard deviations carry no sign: the std column ends where its header word ends
+    h = metrics[0]
+    for r in metrics[1:]:
+        cell = r[h.index(" mean ") + 5:h.index(" std/mean")].strip()
+        assert cell and cell[0] not in "+-", r
+    # the nominal cutoff as printed agrees with the JSON to its 4 digits
+    row = next(r for r in metrics if r.strip().startswith("cutoff"))
+    assert f"{doc['metrics']['cutoff_hz']['nominal'] / 1e3:.4g} kHz" in row
+
+
+def test_attenuation_beyond_the_floor_is_not_printed_as_a_figure(tmp_path):
+    js = tmp_path / "r.json"
+    proc = cli("analyze", "--samples", "300", "--attenuation-at", "1M", "--attenuation-at", "6k", "--json", str(js))
+    doc = json.loads(js.read_text())
+    far = doc["metrics"]["attenuation_db@1e+06"]
+    near = doc["metrics"]["attenuation_db@6000"]
+    # a 4th-order low-pass near 2 kHz: about 80 dB/decade x 2.7 decades, far beyond 200 dB
+    # (common practice: 20 dB per decade per order)
+    assert far["nominal"] > 200 and doc["attenuation_floor_db"] == 200
+    row = next(r for r in proc.stdout.splitlines() if "attenuation at 1 MHz" in r)
+    assert "> 200 dB" in row and f"{far['nominal']:.1f}" not in row
+    row6 = next(r for r in proc.stdout.splitlines() if "attenuation at 6 kHz" in r)
+    assert f"{near['nominal']:+.3f} dB" in row6  # below the floor: the figure, as in the JSON
+
+
+def test_rss_of_a_one_sided_margin_is_not_printed_as_zero(tmp_path):
+    js = tmp_path / "r.json"
+    proc = cli("analyze", "--samples", "5000", "--json", str(js))
+    doc = json.loads(js.read_text())
+    ceiling = doc["corners"]["metrics"]["margin.passband ceiling"]
+    fails = next(s for s in doc["yield"]["spans"] if s["name"] == "passband ceiling")["failed"]
+    assert fails > 0  # boards fail this span, so its spread is not zero
+    assert ceiling["linear"] is False and ceiling["rss_std"] is None
+    corners = proc.stdout[proc.stdout.index("CORNERS"):]
+    line = next(r for r in corners.splitlines() if "passband ceiling" in r and "dB" in r)
+    assert "not linear" in line and "0.000" not in line.split("dB")[-1]
+    assert "not linear at the nominal" in corners and "sampled spread" in corners
+
+
+def test_budget_lines_add_to_100_percent_and_match_json(tmp_path):
+    js = tmp_path / "r.json"
+    proc = cli("analyze", "--samples", "2000", "--json", str(js))
+    doc = json.loads(js.read_text())
+    text = proc.stdout[proc.stdout.index("SPREAD BUDGET"):proc.stdout.index("CORNERS")]
+    lines = [r for r in text.splitlines()[1:] if "%" in r]
+    assert lines
+    import re
+    for line in lines:
+        pcts = [float(x) for x in re.findall(r"([\d.]+) %", line)]
+        assert math.fsum(pcts) == pytest.approx(100.0, abs=1e-9), line
+    # the largest share as printed is the JSON's, rounded to one decimal
+    cutoff = next(r for r in lines if r.strip().startswith("cutoff"))
+    top = doc["budget"]["cutoff_hz"]["parts"][0]
+    assert f"{top['ref']} {100 * top['share']:.1f} %" in cutoff or \
+        abs(float(re.search(rf"{top['ref']} ([\d.]+) %", cutoff)[1]) - 100 * top["share"]) <= 0.1

@@ -188,3 +188,21 @@ def test_rc_corners_are_the_tolerance_vertices():
     # fc beyond the corner extremes needs |ln R + ln C| beyond ~0.059, 2.6 sigma [GUM]:
     # ~1 % of boards, some 50 of 5000
     assert np.count_nonzero((y < r2.corner_low) | (y > r2.corner_high)) > 0
+
+
+def test_one_sided_margin_is_marked_not_linear_instead_of_an_rss_of_zero():
+    # The demo's passband ceiling sits over a flat passband (0 dB at DC whatever the parts:
+    # unity-gain Sallen-Key, common practice): at the nominal its margin has zero first-order
+    # sensitivity, yet sampled boards with peaking fail it.
+    demo = load_demo()
+    prep = prepare(demo)
+    ens = evaluate(demo, samples=4000, seed=11, curves=False, prepared=prep)
+    c = corners(ens, prep)
+    ceiling = c.ranges["margin.passband ceiling"]
+    j = [s.label for s in demo.mask].index("passband ceiling")
+    assert np.count_nonzero(ens.margins[:, j] < 0) > 0
+    assert ceiling.linear is False and math.isnan(ceiling.rss_std) and math.isnan(ceiling.rss_limit)
+    assert ceiling.to_dict()["linear"] is False
+    cutoff = c.ranges["cutoff_hz"]  # smooth in every part: first order holds
+    assert cutoff.linear is True
+    assert cutoff.rss_std == pytest.approx(np.std(ens.metrics["cutoff_hz"], ddof=1), rel=0.1)
