@@ -8,25 +8,37 @@
 
 Frequencies (``--cutoff``, ``--bandwidth``, ``--gbw``, in Hz) may be written with SI
 prefixes ("2k", "1.5MHz"). The command prints every stage's f0 and Q before and after
-snapping the resistors, and the cutoff error snapping introduced, then saves the design.
-Bad input raises :class:`filters.errors.InputError` whose path names the option.
+snapping the resistors, and the errors of the built design against the ideal response
+(cutoff or centre, bandwidth, every section's f0 and Q, passband gain, shape and ripple),
+then saves the design. When an error exceeds its limit (``--max-cutoff-error`` 2 %,
+``--max-bandwidth-error`` 5 %, ``--max-q-error`` 5 %, ``--max-gain-error`` 0.5 dB) it
+warns in words, writes nothing and exits with :data:`EXIT_OUT_OF_LIMITS` (4), unless
+``--accept-error`` is given. Bad input (also a cutoff or bandwidth no impedance level can
+build from the practical part ranges) raises :class:`filters.errors.InputError` whose
+path names the option (exit 2).
 """
 from __future__ import annotations
 
 import argparse
+import math
 import sys
+from dataclasses import replace
 from typing import Any
 
 from filters.designfile import save
 from filters.errors import InputError
 from filters.safeio import check_output_path
-from filters.synthesis import KINDS, RESPONSES, synthesize
+from filters.synthesis import KINDS, RESPONSES, ErrorLimits, synthesize
 from filters.values import format_value, parse_value
 
 # synthesize() argument -> command-line option, for error messages
 _OPTION = {"response": "--response", "order": "--order", "cutoff_hz": "--cutoff", "kind": "--kind",
            "bandwidth_hz": "--bandwidth", "topology": "--topology", "series": "--series",
-           "cap_series": "--cap-series", "gbw_hz": "--gbw", "ripple_db": "--ripple"}
+           "cap_series": "--cap-series", "gbw_hz": "--gbw", "ripple_db": "--ripple",
+           "limits.cutoff": "--max-cutoff-error", "limits.bandwidth": "--max-bandwidth-error",
+           "limits.q": "--max-q-error", "limits.gain_db": "--max-gain-error"}
+EXIT_OUT_OF_LIMITS = 4  # the built design strays from the ideal response beyond a limit
+_DEFAULTS = ErrorLimits()
 
 
 def add_parser(subparsers: Any) -> argparse.ArgumentParser:
@@ -51,6 +63,17 @@ def add_parser(subparsers: Any) -> argparse.ArgumentParser:
     d.add_argument("--gbw", metavar="HZ", help="add an op-amp part with this gain-bandwidth (Hz) to every active stage")
     d.add_argument("--ripple", metavar="DB", help="Chebyshev passband ripple: 0.1, 0.5, 1, 2 or 3 dB")
     d.add_argument("-o", "--output", required=True, metavar="DESIGN", help="design file to write (JSON)")
+    d.add_argument("--max-cutoff-error", metavar="PCT", dest="max_cutoff_error",
+                   help=f"limit for the cutoff (centre) and each section's f0, percent "
+                        f"(default {100 * _DEFAULTS.cutoff:g})")
+    d.add_argument("--max-bandwidth-error", metavar="PCT", dest="max_bandwidth_error",
+                   help=f"limit for a band-pass bandwidth, percent (default {100 * _DEFAULTS.bandwidth:g})")
+    d.add_argument("--max-q-error", metavar="PCT", dest="max_q_error",
+                   help=f"limit for each section's Q, percent (default {100 * _DEFAULTS.q:g})")
+    d.add_argument("--max-gain-error", metavar="DB", dest="max_gain_error",
+                   help=f"limit for the passband gain, shape and ripple, dB (default {_DEFAULTS.gain_db:g})")
+    d.add_argument("--accept-error", action="store_true", dest="accept_error",
+                   help="write the design and exit 0 even when an error exceeds its limit (still warns)")
     return d
 
 
@@ -67,8 +90,35 @@ def _value(text: Any, option: str) -> float | None:
     return None if text is None else parse_value(text, option)
 
 
+def _limit(text: Any, option: str, percent: bool) -> float | None:
+    """A limit option: a number above 0 (percent options may end in "%"), as a fraction or dB."""
+    if text is None:
+        return None
+    s = str(text).strip()
+    if percent:
+        s = s.removesuffix("%").strip()
+    try:
+        v = float(s)
+    except ValueError:
+        v = math.nan
+    if not (math.isfinite(v) and v > 0):
+        unit = "a percentage such as 2 or 2%" if percent else "a number of dB such as 0.5"
+        raise InputError(f"must be {unit}, above 0; not {text!r}", option)
+    return v / 100 if percent else v
+
+
+def _limits(args: argparse.Namespace) -> ErrorLimits:
+    got = {"cutoff": _limit(getattr(args, "max_cutoff_error", None), "--max-cutoff-error", True),
+           "bandwidth": _limit(getattr(args, "max_bandwidth_error", None), "--max-bandwidth-error", True),
+           "q": _limit(getattr(args, "max_q_error", None), "--max-q-error", True),
+           "gain_db": _limit(getattr(args, "max_gain_error", None), "--max-gain-error", False)}
+    return replace(_DEFAULTS, **{k: v for k, v in got.items() if v is not None})
+
+
 def run(args: argparse.Namespace) -> int:
-    """Synthesize from parsed ``args``, print the section report, save; returns 0."""
+    """Synthesize from parsed ``args``, print the report, save; returns 0, or
+    :data:`EXIT_OUT_OF_LIMITS` (nothing written) when an error exceeds its limit and
+    ``--accept-error`` was not given."""
     check_output_path(args.output, "--output")  # issue 11: '' or a device refused before any work
     response = str(args.response).strip().lower().replace("-", "_")
     order = _order(args.order)
@@ -77,10 +127,12 @@ def run(args: argparse.Namespace) -> int:
     gbw = _value(getattr(args, "gbw", None), "--gbw")
     ripple = _value(getattr(args, "ripple", None), "--ripple")
     kind = str(getattr(args, "kind", None) or "lowpass").strip().lower().replace("-", "")
+    limits = _limits(args)
     try:
         result = synthesize(response, order, cutoff, kind=kind, bandwidth_hz=bandwidth,
                             topology=getattr(args, "topology", None), series=getattr(args, "series", "E24"),
-                            cap_series=getattr(args, "cap_series", "E12"), gbw_hz=gbw, ripple_db=ripple)
+                            cap_series=getattr(args, "cap_series", "E12"), gbw_hz=gbw, ripple_db=ripple,
+                            limits=limits)
     except InputError as exc:
         if exc.path in _OPTION:
             raise InputError(exc.reason, _OPTION[exc.path]) from None
@@ -91,6 +143,11 @@ def run(args: argparse.Namespace) -> int:
     for w in slow:
         out.write(f"warning: {w.stage}: op-amp gain-bandwidth {format_value(w.gbw_hz or 0.0, 'Hz')} is below "
                   f"the {format_value(w.required_gbw_hz, 'Hz')} the rule GBW >= 100 G Q f0 asks for\n")
+    warning = result.warning_text()
+    if warning and not getattr(args, "accept_error", False):
+        sys.stderr.write(f"tolspread: {warning}\ntolspread: nothing written; give --accept-error to write "
+                         f"{args.output} anyway, or widen the limits (--max-...-error)\n")
+        return EXIT_OUT_OF_LIMITS
     save(result.design, args.output)
-    out.write(f"wrote {args.output}\n")
+    out.write(f"wrote {args.output}" + (" (with errors beyond the limits, accepted)" if warning else "") + "\n")
     return 0

@@ -1,8 +1,10 @@
 """Two dialogs of the window: a new design from a response, and the grades with their costs.
 
 :class:`SynthesisDialog` collects what :func:`filters.synthesis.synthesize` needs, runs it
-on every valid change and shows its report as a preview; bad input is explained beside
-the field that holds it and the OK button stays disabled until it is fixed.
+on every valid change and shows its report as a preview, with the errors of the built
+design against the ideal response; bad input is explained beside the field that holds it
+and the OK button stays disabled until it is fixed. When an error exceeds its limit the
+warning is shown in words and OK waits until the user ticks that they accept it.
 
 :class:`CatalogDialog` lists every grade; tolerance and cost can be edited in place, and a
 catalog can be read from or written to a file. :meth:`CatalogDialog.changed_grades` gives
@@ -168,11 +170,21 @@ class SynthesisDialog(QDialog):
         self.preview.setMinimumSize(640, 220)
 
         self.buttons, self.ok_button = _ok_cancel(self)
+        self.warning = QLabel()
+        self.warning.setObjectName("warning")
+        self.warning.setStyleSheet(PROBLEM_STYLE)
+        self.warning.setWordWrap(True)
+        self.warning.hide()
+        self.accept_errors = QCheckBox("use this design although it strays beyond the error limits")
+        self.accept_errors.setObjectName("accept_errors")
+        self.accept_errors.hide()
 
         layout = QVBoxLayout(self)
         layout.addLayout(grid)
         layout.addWidget(QLabel("Preview"))
         layout.addWidget(self.preview, 1)
+        layout.addWidget(self.warning)
+        layout.addWidget(self.accept_errors)
         layout.addWidget(self.buttons)
 
         self._fill_topologies()
@@ -184,6 +196,7 @@ class SynthesisDialog(QDialog):
         for edit in (self.cutoff, self.bandwidth, self.gbw):
             edit.textChanged.connect(self._changed)
         self.snap.toggled.connect(self._changed)
+        self.accept_errors.toggled.connect(self._update_ok)
         self.refresh()
 
     # --- public ---------------------------------------------------------------------------
@@ -268,11 +281,23 @@ class SynthesisDialog(QDialog):
         self._show_problem("", "")
         self.preview.setStyleSheet("")
         self.preview.setPlainText(result.text_report())
+        warning = result.warning_text()
+        self.warning.setText(warning)
+        self.warning.setVisible(bool(warning))
+        self.accept_errors.setVisible(bool(warning))
+        if not warning:
+            self.accept_errors.setChecked(False)
+        self._update_ok()
         self.result_changed.emit(result)
 
+    def needs_acceptance(self) -> bool:
+        """True while the shown design strays beyond the error limits and that is not accepted."""
+        return bool(self._result is not None and not self._problem and self._result.exceeded
+                    and not self.accept_errors.isChecked())
+
     def accept(self) -> None:
-        """Close with OK, only while the input is valid."""
-        if self._problem or self._result is None:
+        """Close with OK, only while the input is valid and any error beyond the limits is accepted."""
+        if self._problem or self._result is None or self.needs_acceptance():
             return
         super().accept()
 
@@ -301,6 +326,9 @@ class SynthesisDialog(QDialog):
         self.topology.setCurrentIndex(max(0, self.topology.findData(previous)))
         self.topology.blockSignals(blocked)
 
+    def _update_ok(self, *_args: Any) -> None:
+        self.ok_button.setEnabled(not self._problem and self._result is not None and not self.needs_acceptance())
+
     def _update_enabled(self) -> None:
         self.ripple.setEnabled(self.response.currentData() == "chebyshev")
         bandpass = self.kind.currentData() == "bandpass"
@@ -322,8 +350,10 @@ class SynthesisDialog(QDialog):
         words = self._field_words(path)
         message = f"{words}: {reason}" if reason and words else reason
         self._problem, self._problem_path = message, path if reason else ""
-        self.ok_button.setEnabled(not message and self._result is not None)
+        self._update_ok()
         if message:
+            self.warning.hide()
+            self.accept_errors.hide()
             self.preview.setStyleSheet(f"QPlainTextEdit {{ color: {VERMILION}; }}")
             self.preview.setPlainText(message + "\n\nFix the marked field to see the new design; "
                                       "OK is available again once the input is valid.")

@@ -18,8 +18,8 @@ capacitors in F, op-amp gain-bandwidth in Hz.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
-from typing import Any, Sequence
+from dataclasses import dataclass, field, replace
+from typing import Any, Callable, Sequence
 
 import numpy as np
 from scipy import optimize, signal
@@ -31,11 +31,12 @@ from .evaluate import prepare
 from .grades import builtin_catalog
 from .mask import Span
 from .metrics import pole_pairs, stage_metrics
-from .values import E_SERIES, format_value, series_values, snap as snap_value
+from .values import E_SERIES, format_value, series_neighbours, series_values, snap as snap_value
 
 TWO_PI = 2 * math.pi
 HALF_POWER_DB = 10 * math.log10(2)   # 3.0103 dB: |H|^2 halves
 LR_CROSSOVER_DB = 20 * math.log10(2)  # 6.0206 dB: |H| halves (Linkwitz-Riley crossover)
+CEILING_ALLOWANCE_DB = 0.5            # dB above the ideal passband peak for the starting passband ceiling
 
 RESPONSES = ("butterworth", "chebyshev", "bessel", "linkwitz_riley")
 KINDS = ("lowpass", "highpass", "bandpass")
@@ -46,8 +47,6 @@ TOPOLOGY_CHOICES = {
     "highpass": ("sallen_key_highpass", "mfb_highpass"),
     "bandpass": ("mfb_bandpass",),
 }
-C_MIN, C_MAX = 100e-12, 1e-6  # F: range for the chosen impedance-level capacitor
-C_LEVEL_1KHZ = 10e-9          # F: impedance level, 10 nF at 1 kHz, scaled as 1/f0
 _LABEL = {"butterworth": "Butterworth", "chebyshev": "Chebyshev", "bessel": "Bessel",
           "linkwitz_riley": "Linkwitz-Riley"}
 _KIND_LABEL = {"lowpass": "low-pass", "highpass": "high-pass", "bandpass": "band-pass"}
@@ -125,10 +124,7 @@ def prototype_zpk(response: str, order: int, ripple_db: float | None = None
     elif response == "chebyshev":
         assert ripple_db is not None
         z, p, k = signal.cheby1(order, ripple_db, 1.0, analog=True, output="zpk")
-        eps = math.sqrt(10 ** (ripple_db / 10) - 1)
-        t0 = 1.0 if order % 2 == 0 else 0.0
-        omega_c = math.cosh(math.acosh(math.sqrt(1 + 2 * eps ** 2 * t0) / eps) / order)
-        z, p, k = signal.lp2lp_zpk(z, p, k, wo=1.0 / omega_c)
+        z, p, k = signal.lp2lp_zpk(z, p, k, wo=1.0 / _cheby_omega_c(order, ripple_db))
     else:
         z1, p1, k1 = signal.butter(order // 2, 1.0, analog=True, output="zpk")
         z, p, k = np.concatenate([z1, z1]), np.concatenate([p1, p1]), k1 * k1
@@ -188,17 +184,60 @@ def prototype_sections(response: str, order: int, ripple_db: float | None = None
 
 # --- component values ------------------------------------------------------------------
 
-def _at_least(x: float, series: str) -> float:
-    """The smallest value of ``series`` that is not below ``x`` (within 1e-9)."""
-    vals = series_values(series, x * (1 - 1e-9), x * 10.5)
-    return float(vals[0])
+R_MIN, R_MAX = 1e3, 1e6        # ohm: the practical resistor range every synthesized part keeps
+C_MIN, C_MAX = 100e-12, 1e-6   # F: the practical C0G capacitor range
+C_LEVEL_1KHZ = 10e-9           # F: preferred impedance level, 10 nF at 1 kHz, scaled as 1/f0
+LEVELS_TRIED = 6               # impedance levels (capacitor values) tried per section when snapping
+NEIGHBOURS = 2                 # series values tried on each side of every exact resistor
+F0_WEIGHT = 2.0                # cost weight of f0 against Q: w = max(2.5, F0_WEIGHT Q)
+R_SHUNT_MIN = 100.0            # ohm: the multiple-feedback band-pass's shunt resistor R2 may go this low
+_RANGE_WORDS = "resistors of 1 kohm to 1 Mohm and capacitors of 100 pF to 1 uF"
+_ROLES = {
+    "sallen_key_lowpass": ("R1", "R2", "C1", "C2"),
+    "mfb_lowpass": ("R1", "R2", "R3", "C1", "C2"),
+    "sallen_key_highpass": ("C1", "C2", "R1", "R2"),
+    "mfb_highpass": ("C1", "C2", "C3", "R1", "R2"),
+    "mfb_bandpass": ("R1", "R2", "R3", "C1", "C2"),
+    "rc_lowpass": ("R1", "C1"),
+    "rc_highpass": ("R1", "C1"),
+}
 
 
-def _level_cap(f0_hz: float, cap_series: str, scale: float = 1.0) -> float:
-    """The impedance-level capacitor: 10 nF x (1 kHz / f0) x scale in [100 pF, 1 uF],
-    snapped to ``cap_series`` (F)."""
-    c = C_LEVEL_1KHZ * (1e3 / f0_hz) * scale
-    return float(snap_value(min(max(c, C_MIN), C_MAX), cap_series))
+def _at_least(x: float, series: str, step: int = 0) -> float:
+    """The smallest value of ``series`` that is not below ``x`` (within 1e-9), or the
+    ``step``-th value above that one."""
+    vals = series_values(series, x * (1 - 1e-9), x * 1e3)
+    return float(vals[step])
+
+
+def _level_scale(topology: str, q: float | None) -> float:
+    """The level capacitor's share of the impedance level (see :func:`section_values`)."""
+    if topology == "sallen_key_lowpass":
+        return 1.0 / (2 * q)  # type: ignore[operator]
+    if topology == "mfb_lowpass":
+        return 1.0 / (2 * math.sqrt(2) * q)  # type: ignore[operator]
+    return 1.0
+
+
+def _preferred_level(topology: str, f0_hz: float, q: float | None) -> float:
+    """The preferred level capacitor (F): 10 nF x (1 kHz / f0) x its share, unsnapped."""
+    return C_LEVEL_1KHZ * (1e3 / f0_hz) * _level_scale(topology, q)
+
+
+def _cap_sets(topology: str, q: float | None, level: float, cap_series: str,
+              choices: int = 1) -> list[dict[str, float]]:
+    """Capacitor values (F) by role for one level capacitor ``level`` (a series value).
+
+    Sallen-Key and multiple-feedback low-pass: C2 = level, C1 the first (``choices`` > 1:
+    also the next) series value at or above 4 Q^2 C2 (8 Q^2 C2), the condition for real
+    resistors. Every other topology uses ``level`` for all its capacitors.
+    """
+    if topology in ("sallen_key_lowpass", "mfb_lowpass"):
+        k = 4.0 if topology == "sallen_key_lowpass" else 8.0
+        return [{"C1": _at_least(k * q * q * level, cap_series, j), "C2": level}  # type: ignore[operator]
+                for j in range(choices)]
+    caps = [r for r in _ROLES[topology] if r.startswith("C")]
+    return [{r: level for r in caps}]
 
 
 def _sqrt_disc(d: float, scale: float) -> float:
@@ -206,13 +245,46 @@ def _sqrt_disc(d: float, scale: float) -> float:
     return math.sqrt(d) if d > 0 else 0.0 if d > -1e-9 * scale else math.nan
 
 
+def _resistors(topology: str, f0_hz: float, q: float | None, caps: dict[str, float],
+               gain: float) -> dict[str, float]:
+    """The exact resistors (ohm) for capacitors ``caps`` (F): see :func:`section_values`."""
+    w0 = TWO_PI * f0_hz
+    if topology in ("rc_lowpass", "rc_highpass"):
+        return {"R1": 1.0 / (w0 * caps["C1"])}
+    assert q is not None
+    if topology == "sallen_key_lowpass":
+        c1, c2 = caps["C1"], caps["C2"]
+        prod = 1.0 / (w0 * w0 * c1 * c2)      # R1 R2
+        total = 1.0 / (w0 * q * c2)            # R1 + R2
+        r2 = 0.5 * (total + _sqrt_disc(total * total - 4 * prod, total * total))
+        return {"R1": prod / r2, "R2": r2}
+    if topology == "mfb_lowpass":
+        c1, c2 = caps["C1"], caps["C2"]
+        prod = 1.0 / (w0 * w0 * c1 * c2)      # R R3
+        total = 1.0 / (w0 * q * c2)            # R + 2 R3
+        r = 0.5 * (total + _sqrt_disc(total * total - 8 * prod, total * total))
+        return {"R1": r, "R2": r, "R3": prod / r}
+    c = caps["C1"]
+    if topology == "sallen_key_highpass":
+        return {"R1": 1.0 / (2 * q * w0 * c), "R2": 2 * q / (w0 * c)}
+    if topology == "mfb_highpass":
+        return {"R1": 1.0 / (3 * q * w0 * c), "R2": 3 * q / (w0 * c)}
+    r3 = 2 * q / (w0 * c)
+    return {"R1": r3 / (2 * gain), "R2": 1.0 / (w0 * c * (2 * q - gain / q)), "R3": r3}
+
+
+def _ordered(topology: str, vals: dict[str, float]) -> dict[str, float]:
+    return {r: vals[r] for r in _ROLES[topology]}
+
+
 def section_values(topology: str, f0_hz: float, q: float | None, cap_series: str = "E12",
-                   gain: float = 1.0) -> dict[str, float]:
+                   gain: float = 1.0, level: float | None = None) -> dict[str, float]:
     """Exact part values (ohm, F) for one section, by role, before resistor snapping.
 
-    Capacitors are chosen from ``cap_series`` around an impedance level of 10 nF at 1 kHz
-    (scaled as 1/f0, kept in 100 pF..1 uF); the resistors are then solved exactly, so the
-    section has f0 (Hz) and Q exactly with these values:
+    Capacitors are chosen from ``cap_series`` around an impedance level (``level``, the
+    level capacitor in F; default 10 nF at 1 kHz scaled as 1/f0, kept in 100 pF..1 uF and
+    snapped to the series); the resistors are then solved exactly, so the section has f0
+    (Hz) and Q exactly with these values:
 
     - ``sallen_key_lowpass`` (unity gain; REFERENCES.md section 6: w0^2 = 1/(R1R2C1C2),
       Q = sqrt(R1R2C1C2)/(C2(R1+R2))): C2 = level/(2Q), C1 = the next series value at or
@@ -230,40 +302,136 @@ def section_values(topology: str, f0_hz: float, q: float | None, cap_series: str
     - ``rc_lowpass`` / ``rc_highpass`` one section (first order, ``q`` None):
       R = 1/(w C).
     """
-    w0 = TWO_PI * f0_hz
-    if topology in ("rc_lowpass", "rc_highpass"):
-        c = _level_cap(f0_hz, cap_series)
-        return {"R1": 1.0 / (w0 * c), "C1": c}
-    if q is None or not q > 0:
+    if topology not in _ROLES:
+        raise InputError(f"no synthesis rule for topology {topology!r}", "topology")
+    if not topology.startswith("rc_") and (q is None or not q > 0):
         raise InputError(f"{topology} needs a Q above 0", "q")
-    if topology == "sallen_key_lowpass":
-        c2 = _level_cap(f0_hz, cap_series, 1.0 / (2 * q))
-        c1 = _at_least(4 * q * q * c2, cap_series)
-        prod = 1.0 / (w0 * w0 * c1 * c2)      # R1 R2
-        total = 1.0 / (w0 * q * c2)            # R1 + R2
-        r2 = 0.5 * (total + _sqrt_disc(total * total - 4 * prod, total * total))
-        return {"R1": prod / r2, "R2": r2, "C1": c1, "C2": c2}
-    if topology == "mfb_lowpass":
-        c2 = _level_cap(f0_hz, cap_series, 1.0 / (2 * math.sqrt(2) * q))
-        c1 = _at_least(8 * q * q * c2, cap_series)
-        prod = 1.0 / (w0 * w0 * c1 * c2)      # R R3
-        total = 1.0 / (w0 * q * c2)            # R + 2 R3
-        r = 0.5 * (total + _sqrt_disc(total * total - 8 * prod, total * total))
-        return {"R1": r, "R2": r, "R3": prod / r, "C1": c1, "C2": c2}
-    if topology == "sallen_key_highpass":
-        c = _level_cap(f0_hz, cap_series)
-        return {"C1": c, "C2": c, "R1": 1.0 / (2 * q * w0 * c), "R2": 2 * q / (w0 * c)}
-    if topology == "mfb_highpass":
-        c = _level_cap(f0_hz, cap_series)
-        return {"C1": c, "C2": c, "C3": c, "R1": 1.0 / (3 * q * w0 * c), "R2": 3 * q / (w0 * c)}
-    if topology == "mfb_bandpass":
-        if not 0 < gain < 2 * q * q:
-            raise InputError(f"the midband gain must lie between 0 and 2 Q^2 = {2 * q * q:.4g}", "gain")
-        c = _level_cap(f0_hz, cap_series)
-        r3 = 2 * q / (w0 * c)
-        return {"R1": r3 / (2 * gain), "R2": 1.0 / (w0 * c * (2 * q - gain / q)), "R3": r3,
-                "C1": c, "C2": c}
-    raise InputError(f"no synthesis rule for topology {topology!r}", "topology")
+    if topology == "mfb_bandpass" and not 0 < gain < 2 * q * q:  # type: ignore[operator]
+        raise InputError(f"the midband gain must lie between 0 and 2 Q^2 = {2 * q * q:.4g}", "gain")  # type: ignore[operator]
+    if level is None:
+        c = _preferred_level(topology, f0_hz, q)
+        level = float(snap_value(min(max(c, C_MIN), C_MAX), cap_series))
+    caps = _cap_sets(topology, q, level, cap_series)[0]
+    return _ordered(topology, {**caps, **_resistors(topology, f0_hz, q, caps, gain)})
+
+
+def _in_range(vals: np.ndarray, topology: str) -> np.ndarray:
+    """Rows of ``vals`` (rows, roles of ``topology``) whose every part lies in the practical
+    range: resistors 1 kohm..1 Mohm (the shunt resistor R2 of a multiple-feedback band-pass
+    down to 100 ohm: it sets Q and spreads 4 Q^2 : 1 from R3), capacitors 100 pF..1 uF."""
+    roles = _ROLES[topology]
+    lo = np.array([(R_SHUNT_MIN if (topology, r) == ("mfb_bandpass", "R2") else R_MIN)
+                   if r.startswith("R") else C_MIN for r in roles]) * (1 - 1e-9)
+    hi = np.array([R_MAX if r.startswith("R") else C_MAX for r in roles]) * (1 + 1e-9)
+    return np.all(np.isfinite(vals) & (vals >= lo) & (vals <= hi), axis=1)
+
+
+def _refusal(index: int, topology: str, f0_hz: float, q: float | None, kind: str,
+             cap_series: str, gain: float) -> InputError:
+    """Why no impedance level keeps section ``index``'s values in the practical range."""
+    exact = section_values(topology, f0_hz, q, cap_series, gain)
+    rs = [v for r, v in exact.items() if r.startswith("R")]
+    cs = [v for r, v in exact.items() if r.startswith("C")]
+    r_spread, c_spread = max(rs) / min(rs), max(cs) / min(cs)
+    where = f"section {index} (f0 {_hz(f0_hz)}" + (f", Q {q:.3g})" if q is not None else ")")
+    if topology == "mfb_bandpass" and r_spread > R_MAX / R_SHUNT_MIN:
+        return InputError(
+            f"{where} would spread its resistors {r_spread:,.0f} : 1 (a multiple-feedback band-pass "
+            "section spreads them 4 Q^2 : 1), more than 100 ohm to 1 Mohm hold (Q at most about 50): "
+            "widen the bandwidth or lower the order", "bandwidth_hz")
+    if topology != "mfb_bandpass" and (r_spread > R_MAX / R_MIN or c_spread > C_MAX / C_MIN):
+        spread = max(r_spread, c_spread)
+        return InputError(
+            f"{where} would spread its values {spread:,.0f} : 1, more than {_RANGE_WORDS} hold: "
+            "lower the order (or the ripple), or use the other topology", "order")
+    return InputError(
+        f"{where} cannot be built from {_RANGE_WORDS} at any impedance level; these ranges hold "
+        f"sections from about {_hz(1 / (TWO_PI * R_MAX * C_MAX))} to {_hz(1 / (TWO_PI * R_MIN * C_MIN))}",
+        "cutoff_hz")
+
+
+def _stage_options(topology: str) -> dict[str, Any]:
+    return ({"sections": 1} if topology.startswith("rc_")
+            else {"gain": "unity"} if topology.startswith("sallen_key") else {})
+
+
+def _section_fq(topology: str, roles: Sequence[str], vals: np.ndarray
+                ) -> tuple[np.ndarray, np.ndarray | None, np.ndarray]:
+    """f0 (Hz), Q (None for first order) and passband |H|^2 of one section for every row
+    of ``vals`` (rows, roles), from the project's engine (one batch, no loop over rows)."""
+    d = Design(tuple(Part(r, r[0], float(vals[0, j]), "EXACT") for j, r in enumerate(roles)),
+               (Stage(topology, {r: r for r in roles}, _stage_options(topology), "section"),))
+    circuit = compile_design(d)
+    coeffs = stage_coefficients(circuit, vals)
+    m = stage_metrics(circuit, coeffs)
+    if "s1.fc_hz" in m:
+        return m["s1.fc_hz"], None, np.ones(vals.shape[0])
+    g2 = dc_gain2(coeffs) if circuit.kind == "lowpass" else np.ones(vals.shape[0])
+    return m["s1.f0_hz"], m["s1.q"], g2
+
+
+def choose_values(index: int, topology: str, f0_hz: float, q: float | None, kind: str,
+                  series: str = "E24", cap_series: str = "E12", gain: float = 1.0,
+                  snap: bool = True) -> tuple[dict[str, float], dict[str, float]]:
+    """(exact, chosen) part values (ohm, F) by role for section ``index`` (from 1).
+
+    Impedance level: every capacitor value of ``cap_series`` within 100 pF..1 uF is tried
+    as the level capacitor; the levels whose exact values (resistors solved, see
+    :func:`section_values`) all lie in the practical range (resistors 1 kohm..1 Mohm,
+    capacitors 100 pF..1 uF) are kept, nearest the preferred level first. None left:
+    :class:`InputError` naming the cutoff (the range cannot reach f0) or the bandwidth /
+    order (the section's Q spreads its values wider than the range).
+
+    Snapping (``snap``): for the :data:`LEVELS_TRIED` nearest levels (and, for low-pass
+    sections, the next C1 as well), every combination of the :data:`NEIGHBOURS` series
+    values on each side of every exact resistor is evaluated with the engine in one batch;
+    the combination in range with the smallest cost
+    (w ln(f0/f0t))^2 + (ln(Q/Qt))^2 + (ln |gain/gain_t|)^2, w = max(2.5, 2 Q), is chosen
+    (the weight: a 1 % f0 error moves the response Q times as far as a 1 % Q error, in
+    units of the section's bandwidth). ``exact`` has the chosen capacitors with exact
+    resistors. Without ``snap`` both are the exact values at the nearest level.
+    """
+    pref = _preferred_level(topology, f0_hz, q)
+    feasible: list[tuple[float, dict[str, float]]] = []
+    for level in series_values(cap_series, C_MIN, C_MAX):
+        for caps in _cap_sets(topology, q, float(level), cap_series, 2 if snap else 1):
+            vals = _ordered(topology, {**caps, **_resistors(topology, f0_hz, q, caps, gain)})
+            row = np.array([[vals[r] for r in _ROLES[topology]]])
+            if _in_range(row, topology)[0]:
+                feasible.append((abs(math.log(level / pref)) + 1e-3 * len(feasible), vals))
+    if not feasible:
+        raise _refusal(index, topology, f0_hz, q, kind, cap_series, gain)
+    feasible.sort(key=lambda t: t[0])
+    if not snap:
+        return feasible[0][1], feasible[0][1]
+    roles = _ROLES[topology]
+    r_roles = [r for r in roles if r.startswith("R")]
+    blocks, exacts, dist = [], [], []
+    for b, (d_level, vals) in enumerate(feasible[:2 * LEVELS_TRIED]):
+        grids = np.meshgrid(*[series_neighbours(vals[r], series, NEIGHBOURS) for r in r_roles], indexing="ij")
+        combos = np.stack([g.ravel() for g in grids], axis=1)
+        block = np.empty((combos.shape[0], len(roles)))
+        for j, r in enumerate(roles):
+            block[:, j] = combos[:, r_roles.index(r)] if r in r_roles else vals[r]
+        blocks.append(block)
+        exacts += [b] * block.shape[0]
+        dist.append(np.full(block.shape[0], d_level))
+    cand = np.concatenate(blocks)
+    which = np.array(exacts)
+    level_d = np.concatenate(dist)
+    keep = _in_range(cand, topology)
+    if not keep.any():
+        raise _refusal(index, topology, f0_hz, q, kind, cap_series, gain)
+    cand, which, level_d = cand[keep], which[keep], level_d[keep]
+    f0, qq, g2 = _section_fq(topology, roles, cand)
+    w = 1.0 if q is None else max(2.5, F0_WEIGHT * q)
+    cost = (w * np.log(f0 / f0_hz)) ** 2 + 0.25 * np.log(g2) ** 2 + 1e-7 * level_d ** 2
+    if qq is not None:
+        cost = cost + np.log(np.abs(qq) / q) ** 2
+    cost = np.where(np.isfinite(cost), cost, np.inf)
+    best = int(np.argmin(cost))
+    exact = feasible[:2 * LEVELS_TRIED][int(which[best])][1]
+    return exact, {r: float(cand[best, j]) for j, r in enumerate(roles)}
 
 
 # --- results ---------------------------------------------------------------------------
@@ -327,6 +495,51 @@ class GbwWarning:
 
 
 @dataclass(frozen=True)
+class ErrorLimits:
+    """How far the snapped design may stray from the ideal response before a warning.
+
+    ``cutoff``: relative error of the cutoff (band-pass: centre) and of every section's
+    f0 (0.02 = 2 %); ``bandwidth``: relative error of a band-pass bandwidth; ``q``:
+    relative error of every section's Q; ``gain_db``: dB, the passband gain (low-pass and
+    high-pass), the passband's shape and its ripple.
+    """
+
+    cutoff: float = 0.02
+    bandwidth: float = 0.05
+    q: float = 0.05
+    gain_db: float = 0.5
+
+    def checked(self) -> "ErrorLimits":
+        for name in ("cutoff", "bandwidth", "q", "gain_db"):
+            v = getattr(self, name)
+            if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) or v <= 0:
+                raise InputError(f"must be a number above 0, not {v!r}", f"limits.{name}")
+        return self
+
+
+@dataclass(frozen=True)
+class ErrorCheck:
+    """One figure of the snapped design against the ideal response.
+
+    ``unit`` "%": ``ideal``/``actual`` in ``quantity_unit`` (Hz or none), ``error`` the
+    relative error (0.01 = 1 %), ``limit`` relative. ``unit`` "dB": ``ideal``/``actual``
+    in dB, ``error`` the difference in dB (magnitude), ``limit`` in dB.
+    """
+
+    what: str
+    ideal: float
+    actual: float
+    error: float
+    limit: float
+    unit: str
+    quantity_unit: str = ""
+
+    @property
+    def exceeded(self) -> bool:
+        return not abs(self.error) <= self.limit
+
+
+@dataclass(frozen=True)
 class SynthesisResult:
     """A synthesized design and what snapping did to it.
 
@@ -356,6 +569,24 @@ class SynthesisResult:
     series: str = "E24"
     cap_series: str = "E12"
     snapped: bool = True
+    checks: tuple[ErrorCheck, ...] = ()
+    limits: ErrorLimits = ErrorLimits()
+
+    @property
+    def exceeded(self) -> tuple[ErrorCheck, ...]:
+        """The checks whose error is beyond its limit (empty: the design is as asked)."""
+        return tuple(c for c in self.checks if c.exceeded)
+
+    def warning_text(self) -> str:
+        """A warning in words when a check exceeds its limit, else ""."""
+        bad = self.exceeded
+        if not bad:
+            return ""
+        items = "; ".join(f"{c.what} {_err(c)} (limit {_lim(c)})" for c in bad)
+        hint = ("a finer resistor series (E96, E192) or capacitor series usually brings them down"
+                if self.snapped else "the exact values should not stray: please report this design")
+        return (f"WARNING: the built design strays from the ideal {_KIND_LABEL[self.kind]} response beyond "
+                f"the limits: {items}. It will not filter as asked; {hint}.")
 
     @property
     def cutoff_error(self) -> float:
@@ -400,9 +631,41 @@ class SynthesisResult:
                 lines.append(f"{what} with the op-amps' gain-bandwidth: {_hz(self.cutoff_gbw_hz)} "
                              f"({_pct(self.cutoff_gbw_hz / self.cutoff_target_hz - 1)} from target)")
         lines.append("")
-        lines.append("The mask is a starting point (passband floor, stopband ceiling 6 dB above the "
-                     "nominal response); edit it to your specification.")
+        lines.append(self.errors_text())
+        warning = self.warning_text()
+        if warning:
+            lines.append("")
+            lines.append(warning)
+        lines.append("")
+        lines.append("The mask is a starting point (passband floor, passband ceiling "
+                     f"{CEILING_ALLOWANCE_DB:g} dB above the ideal response, stopband ceiling 6 dB above "
+                     "it); edit it to your specification.")
         return "\n".join(lines)
+
+
+    def errors_text(self) -> str:
+        """The error table: every check's ideal and built value, error, limit and verdict."""
+        lines = ["Errors of the built design (nominal values, ideal op-amps, this program's engine) "
+                 "against the ideal response (scipy.signal):",
+                 f"  {'figure':<18} {'ideal':>12} {'built':>12} {'error':>10} {'limit':>9}"]
+        for c in self.checks:
+            if c.unit == "dB":
+                ideal, built = f"{c.ideal:+.3f} dB", f"{c.actual:+.3f} dB"
+            elif c.quantity_unit == "Hz":
+                ideal, built = _hz(c.ideal), _hz(c.actual)
+            else:
+                ideal, built = f"{c.ideal:.4f}", f"{c.actual:.4f}"
+            lines.append(f"  {c.what:<18} {ideal:>12} {built:>12} {_err(c):>10} {_lim(c):>9}"
+                         + ("  EXCEEDS" if c.exceeded else ""))
+        return "\n".join(lines)
+
+
+def _err(c: ErrorCheck) -> str:
+    return f"{c.error:+.2f} dB" if c.unit == "dB" else _pct(c.error)
+
+
+def _lim(c: ErrorCheck) -> str:
+    return f"{c.limit:g} dB" if c.unit == "dB" else f"{100 * c.limit:g}%"
 
 
 def _hz(x: float | None) -> str:
@@ -466,7 +729,7 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
                series: str = "E24", cap_series: str = "E12", gbw_hz: float | None = None,
                ripple_db: float | None = None, snap: bool = True,
                resistor_grade: str = "R-thick-1", capacitor_grade: str = "C-C0G-5",
-               opamp_grade: str = "OPAMP-GBW-50") -> SynthesisResult:
+               opamp_grade: str = "OPAMP-GBW-50", limits: ErrorLimits | None = None) -> SynthesisResult:
     """Build a design realising ``response`` of ``order`` at ``cutoff_hz`` (Hz).
 
     ``kind``: "lowpass", "highpass" or "bandpass". A low-pass or high-pass cutoff is the
@@ -504,6 +767,7 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     response there + 6 dB, rounded to 1 dB.
     """
     _check_family(response, order, ripple_db)
+    limits = (limits or ErrorLimits()).checked()
     if kind not in KINDS:
         raise InputError(f"must be one of {', '.join(KINDS)}, not {kind!r}", "kind")
     fc = _positive(cutoff_hz, "cutoff_hz")
@@ -559,21 +823,26 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     if f_stop / f_start > 1e12:
         raise InputError("the band is too wide for the analysed range (at most 12 decades)", "bandwidth_hz")
 
-    # Stages and exact values.
+    # Stages: values in the practical range, snapped to keep f0 and Q (choose_values).
     stages: list[dict[str, Any]] = []
+    refusals: list[tuple[float, InputError]] = []
     for i, (f0, q) in enumerate(targets, 1):
         if q is None:
             t = "rc_lowpass" if kind == "lowpass" else "rc_highpass"
-            vals = section_values(t, f0, None, cap_series)
+            gain = 1.0
             name = f"S{i} first order, fc {_hz(f0)}"
         else:
             t = topo
             gain = min(1.0, q * q) if t == "mfb_bandpass" else 1.0
-            vals = section_values(t, f0, q, cap_series, gain)
             name = f"S{i} f0 {_hz(f0)}, Q {q:.3f}"
-        if not all(math.isfinite(v) and v > 0 for v in vals.values()):
-            raise InputError(f"no real part values for section {i} (f0 {f0:g} Hz, Q {q})", "order")
-        stages.append({"topology": t, "name": name, "values": vals, "target": (f0, q)})
+        try:
+            exact_vals, chosen = choose_values(i, t, f0, q, kind, series, cap_series, gain, snap)
+        except InputError as exc:  # name the hardest section (highest Q), not the first
+            refusals.append((q or 0.0, exc))
+            continue
+        stages.append({"topology": t, "name": name, "exact": exact_vals, "values": chosen, "target": (f0, q)})
+    if refusals:
+        raise max(refusals, key=lambda r: r[0])[1]
 
     label = _LABEL[response] + (f" {ripple_db:g} dB" if ripple_db is not None else "")
     title = (f"{label} {_KIND_LABEL[kind]}, order {order}, "
@@ -583,8 +852,8 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
                 "cutoff_db": cutoff_db}
     grades = {"R": resistor_grade, "C": capacitor_grade, "opamp": opamp_grade}
 
-    exact = _build(stages, False, series, grades, None, analysis, title, "")
-    snapped = _build(stages, snap, series, grades, None, analysis, title, "")
+    exact = _build(stages, "exact", grades, None, analysis, title, "")
+    snapped = _build(stages, "values", grades, None, analysis, title, "")
     exact_m = _stage_fq(exact)
     snapped_m = _stage_fq(snapped)
     reports = tuple(
@@ -594,15 +863,17 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
 
     c_exact, b_exact = measure_cutoff(exact)
     c_snap, b_snap = measure_cutoff(snapped)
+    ideal = IdealResponse.of(response, order, fc, kind, bw, ripple_db, cutoff_db, snapped.analysis)
+    checks = error_checks(snapped, ideal, reports, limits, exact)
 
     description = (
         f"Synthesized: {label} {_KIND_LABEL[kind]} prototype (scipy.signal poles), one section per "
         "pole pair, lowest Q first. Capacitors from " + cap_series + ", resistors "
-        + (f"snapped to {series}" if snap else "exact") + ". Stages are taken as buffered; a first-order "
+        + (f"chosen from {series}" if snap else "exact") + ". Stages are taken as buffered; a first-order "
         "RC section needs a high-impedance load (a follower) on the board. The mask is a starting "
         "point: edit it to your specification.")
-    final = _build(stages, snap, series, grades, gbw_hz, analysis, title, description)
-    final = final.with_mask(_starting_mask(final, kind, response, ripple_db, fc, bw))
+    final = _build(stages, "values", grades, gbw_hz, analysis, title, description)
+    final = final.with_mask(_starting_mask(ideal, kind, ripple_db, fc, bw))
     final = design_from_dict(final.to_dict())  # checked like a loaded file
     c_gbw = None
     rows: tuple[GbwWarning, ...] = ()
@@ -610,30 +881,30 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
         c_gbw = measure_cutoff(final)[0]
         rows = tuple(gbw_warnings(final))
     return SynthesisResult(final, response, kind, order, ripple_db, cutoff_db, reports, fc, c_exact,
-                           c_snap, bw, b_exact, b_snap, c_gbw, rows, series, cap_series, snap)
+                           c_snap, bw, b_exact, b_snap, c_gbw, rows, series, cap_series, snap,
+                           checks, limits)
 
 
-def _build(stages: list[dict[str, Any]], snap: bool, series: str, grades: dict[str, str],
+def _build(stages: list[dict[str, Any]], key: str, grades: dict[str, str],
            gbw_hz: float | None, analysis: dict[str, Any], name: str, description: str) -> Design:
+    """The design with every stage's values ``stages[i][key]`` (ohm, F)."""
     counters = {"R": 0, "C": 0, "U": 0}
     parts: list[dict[str, Any]] = []
     out_stages: list[dict[str, Any]] = []
     for st in stages:
         roles: dict[str, str] = {}
-        for role, v in st["values"].items():
+        for role, v in st[key].items():
             kind = role[0]
             counters[kind] += 1
             ref = f"{kind}{counters[kind]}"
-            value = float(snap_value(v, series)) if snap and kind == "R" else float(v)
-            parts.append({"ref": ref, "value": value, "grade": grades[kind]})
+            parts.append({"ref": ref, "value": float(v), "grade": grades[kind]})
             roles[role] = ref
         if gbw_hz is not None and not st["topology"].startswith("rc_"):
             counters["U"] += 1
             ref = f"U{counters['U']}"
             parts.append({"ref": ref, "value": gbw_hz, "grade": grades["opamp"]})
             roles["U1"] = ref
-        options = ({"sections": 1} if st["topology"].startswith("rc_")
-                   else {"gain": "unity"} if st["topology"].startswith("sallen_key") else {})
+        options = _stage_options(st["topology"])
         d: dict[str, Any] = {"topology": st["topology"], "name": st["name"], "parts": roles}
         if options:
             d["options"] = options
@@ -664,6 +935,45 @@ def _stage_fq(design: Design) -> list[tuple[float, float | None]]:
     return out
 
 
+def _peak2(g2: Callable[[np.ndarray], np.ndarray], f: np.ndarray, grid: np.ndarray) -> float:
+    """The largest |H|^2 near the grid's maximum, refined between its neighbours."""
+    i = int(np.argmax(grid))
+    lo_i, hi_i = max(i - 1, 0), min(i + 1, f.size - 1)
+    res = optimize.minimize_scalar(lambda lf: -math.log(g2(np.array([math.exp(lf)]))[0]),
+                                   bounds=(math.log(f[lo_i]), math.log(f[hi_i])), method="bounded",
+                                   options={"xatol": 1e-12})
+    return max(float(grid[i]), float(g2(np.array([math.exp(res.x)]))[0]))
+
+
+def _edges(g2: Callable[[np.ndarray], np.ndarray], f: np.ndarray, grid: np.ndarray,
+           level: float) -> tuple[float, float]:
+    """The outermost frequencies (Hz) where |H|^2 crosses ``level`` (refined by brentq)."""
+    above = np.nonzero(grid >= level)[0]
+    if above.size == 0:
+        raise InputError("the response never reaches its cutoff level in the analysed range", "analysis")
+    first, last = int(above[0]), int(above[-1])
+
+    def h(lf: float) -> float:
+        return math.log(g2(np.array([math.exp(lf)]))[0] / level)
+
+    def root(a: float, b: float) -> float:
+        la, lb = math.log(a), math.log(b)
+        ha, hb = h(la), h(lb)
+        if ha * hb > 0:  # a crossing on a grid point, within rounding
+            return a if abs(ha) < abs(hb) else b
+        return math.exp(optimize.brentq(h, la, lb, xtol=1e-14))
+
+    lower = root(f[first - 1], f[first]) if first > 0 else math.nan
+    upper = root(f[last], f[last + 1]) if last < f.size - 1 else math.nan
+    return lower, upper
+
+
+def _design_g2(design: Design) -> Callable[[np.ndarray], np.ndarray]:
+    """|H(j 2 pi f)|^2 of the nominal design at frequencies f (Hz, 1-D), from the engine."""
+    _, coeffs = _nominal_coeffs(design)
+    return lambda x: gain2_at(coeffs, np.atleast_1d(np.asarray(x, dtype=float))[None, :])[0]
+
+
 def measure_cutoff(design: Design) -> tuple[float, float | None]:
     """The nominal design's cutoff (Hz) at ``analysis.cutoff_db`` below its reference.
 
@@ -672,75 +982,182 @@ def measure_cutoff(design: Design) -> tuple[float, float | None]:
     outermost crossings of the level ``cutoff_db`` below the exact peak (found on a dense
     grid and refined), centre = sqrt(lower x upper), bandwidth = upper - lower.
     """
-    circuit, coeffs = _nominal_coeffs(design)
+    circuit = compile_design(design)
     if circuit.kind != "bandpass":
         return float(prepare(design.with_mask(())).nominal.metrics["cutoff_hz"]), None
     a = design.analysis
     f = np.geomspace(a.f_start, a.f_stop, 8001)
-
-    def g2(x: np.ndarray) -> np.ndarray:
-        return gain2_at(coeffs, np.atleast_1d(np.asarray(x, dtype=float))[None, :])[0]
-
+    g2 = _design_g2(design)
     grid = g2(f)
-    i = int(np.argmax(grid))
-    lo_i, hi_i = max(i - 1, 0), min(i + 1, f.size - 1)
-    res = optimize.minimize_scalar(lambda lf: -math.log(g2(math.exp(lf))[0]),
-                                   bounds=(math.log(f[lo_i]), math.log(f[hi_i])), method="bounded",
-                                   options={"xatol": 1e-12})
-    peak2 = max(float(grid[i]), float(g2(math.exp(res.x))[0]))
-    level = peak2 * 10 ** (-a.cutoff_db / 10)
-    above = np.nonzero(grid >= level)[0]
-    first, last = int(above[0]), int(above[-1])
-    if first == 0 or last == f.size - 1:
+    level = _peak2(g2, f, grid) * 10 ** (-a.cutoff_db / 10)
+    lower, upper = _edges(g2, f, grid, level)
+    if not (math.isfinite(lower) and math.isfinite(upper)):
         raise InputError("the band edges lie outside the analysed range", "analysis")
-
-    def h(lf: float) -> float:
-        return math.log(g2(math.exp(lf))[0] / level)
-
-    lower = math.exp(optimize.brentq(h, math.log(f[first - 1]), math.log(f[first]), xtol=1e-14))
-    upper = math.exp(optimize.brentq(h, math.log(f[last]), math.log(f[last + 1]), xtol=1e-14))
     return math.sqrt(lower * upper), upper - lower
 
 
-def _rel_db(design: Design, freqs: np.ndarray) -> np.ndarray:
-    """Nominal gain (dB) at ``freqs`` relative to the analysis' passband reference."""
-    prep = prepare(design.with_mask(()))
-    ref = prep.nominal.metrics["reference_db"]
-    _, coeffs = _nominal_coeffs(design)
-    g2 = gain2_at(coeffs, np.asarray(freqs, dtype=float)[None, :])[0]
-    return 10 * np.log10(np.maximum(g2, 1e-300)) - ref
+# --- errors of the built design against the ideal response ------------------------------
+
+def _cheby_omega_c(order: int, ripple_db: float) -> float:
+    """Omega of the -3 dB point of a Chebyshev prototype whose ripple edge is at 1 rad/s."""
+    eps = math.sqrt(10 ** (ripple_db / 10) - 1)
+    t0 = 1.0 if order % 2 == 0 else 0.0
+    return math.cosh(math.acosh(math.sqrt(1 + 2 * eps ** 2 * t0) / eps) / order)
 
 
-def _starting_mask(design: Design, kind: str, response: str, ripple_db: float | None,
+@dataclass(frozen=True)
+class IdealResponse:
+    """The ideal target from ``scipy.signal`` (zeros, poles in rad/s, gain) and its figures.
+
+    ``ref2``: the passband reference |H|^2 (DC for a low-pass, high frequency for a
+    high-pass, the peak for a band-pass). ``passband``: frequencies (Hz) of the passband
+    the gain checks use: up to Omega_p = 1/2 of the cutoff (Chebyshev: the ripple edge),
+    mapped to high-pass and band-pass like the poles.
+    """
+
+    z: np.ndarray
+    p: np.ndarray
+    k: float
+    kind: str
+    cutoff_db: float
+    f: np.ndarray
+    passband: np.ndarray
+    ref2: float
+    pass_edges: tuple[float, float]
+
+    @classmethod
+    def of(cls, response: str, order: int, fc: float, kind: str, bw: float | None,
+           ripple_db: float | None, cutoff_db: float, analysis: Any) -> "IdealResponse":
+        z, p, k = target_zpk(response, order, fc, kind, bw, ripple_db)
+        omega_p = 1 / _cheby_omega_c(order, ripple_db) if ripple_db is not None else 0.5
+        f = np.geomspace(analysis.f_start, analysis.f_stop, 8001)
+        if kind == "lowpass":
+            edges = (analysis.f_start, omega_p * fc)
+        elif kind == "highpass":
+            edges = (fc / omega_p, analysis.f_stop)
+        else:
+            assert bw is not None
+            edges = omega_edges(fc, bw, omega_p)
+        self = cls(np.asarray(z), np.asarray(p), float(k), kind, cutoff_db, f,
+                   np.geomspace(edges[0], edges[1], 400), 1.0, edges)
+        if kind == "lowpass":
+            ref2 = float(self.g2(np.array([0.0]))[0])
+        elif kind == "highpass":
+            ref2 = float(k) ** 2
+        else:
+            ref2 = _peak2(self.g2, f, self.g2(f))
+        return replace(self, ref2=ref2)
+
+    def g2(self, f_hz: np.ndarray) -> np.ndarray:
+        """|H|^2 at ``f_hz`` (Hz) by ``scipy.signal.freqs_zpk``."""
+        _, h = signal.freqs_zpk(self.z, self.p, self.k, worN=TWO_PI * np.atleast_1d(f_hz))
+        return np.abs(h) ** 2
+
+    def cutoff(self) -> tuple[float, float | None]:
+        """(cutoff, None) or band-pass (centre, bandwidth) in Hz at ``cutoff_db``."""
+        grid = self.g2(self.f)
+        lower, upper = _edges(self.g2, self.f, grid, self.ref2 * 10 ** (-self.cutoff_db / 10))
+        if self.kind == "lowpass":
+            return upper, None
+        if self.kind == "highpass":
+            return lower, None
+        return math.sqrt(lower * upper), upper - lower
+
+
+def omega_edges(fc: float, bw: float, omega: float) -> tuple[float, float]:
+    """The band-pass frequencies (Hz) where the low-pass prototype is at +-``omega``."""
+    hi = 0.5 * omega * bw + math.sqrt((0.5 * omega * bw) ** 2 + fc * fc)
+    return fc * fc / hi, hi
+
+
+def _ref2(design: Design, kind: str, g2: Callable[[np.ndarray], np.ndarray]) -> float:
+    if kind == "bandpass":
+        f = np.geomspace(design.analysis.f_start, design.analysis.f_stop, 8001)
+        return _peak2(g2, f, g2(f))
+    return 10 ** (float(prepare(design.with_mask(())).nominal.metrics["reference_db"]) / 10)
+
+
+def error_checks(design: Design, ideal: IdealResponse, sections: Sequence[SectionReport],
+                 limits: ErrorLimits, exact: Design | None = None) -> tuple[ErrorCheck, ...]:
+    """Every figure of ``design`` (nominal, ideal op-amps, the project's engine) against
+    ``ideal`` (``scipy.signal``): cutoff or centre and bandwidth, each section's f0 and Q
+    (against the scipy poles), the largest passband difference after both are referred
+    to their own reference ("passband shape"), and the ripple (largest minus smallest gain
+    over the passband). Low-pass and high-pass with ``exact`` (the same sections with exact
+    resistors): also the passband reference gain against the sections' designed gain
+    (scipy's prototype gain is a normalization: an even-order Chebyshev starts at -ripple).
+    A band-pass's level is set by its sections' gains and is not checked."""
+    out: list[ErrorCheck] = []
+    c_ideal, b_ideal = ideal.cutoff()
+    c_act, b_act = measure_cutoff(design)
+    what = "centre" if ideal.kind == "bandpass" else "cutoff"
+    out.append(ErrorCheck(what, c_ideal, c_act, c_act / c_ideal - 1, limits.cutoff, "%", "Hz"))
+    if b_ideal is not None and b_act is not None:
+        out.append(ErrorCheck("bandwidth", b_ideal, b_act, b_act / b_ideal - 1, limits.bandwidth, "%", "Hz"))
+    for s in sections:
+        short = s.stage.split(" ")[0]
+        out.append(ErrorCheck(f"{short} f0", s.target_f0_hz, s.snapped_f0_hz, s.f0_error, limits.cutoff,
+                              "%", "Hz"))
+        if s.target_q is not None and s.snapped_q is not None:
+            out.append(ErrorCheck(f"{short} Q", s.target_q, s.snapped_q, s.snapped_q / s.target_q - 1,
+                                  limits.q, "%"))
+    g2 = _design_g2(design)
+    ref2 = _ref2(design, ideal.kind, g2)
+    ours = 10 * np.log10(np.maximum(g2(ideal.passband), 1e-300) / ref2)
+    theirs = 10 * np.log10(np.maximum(ideal.g2(ideal.passband), 1e-300) / ideal.ref2)
+    if exact is not None and ideal.kind != "bandpass":  # the sections' designed gain, not scipy's
+        a_db = 10 * math.log10(ref2)
+        e_db = 10 * math.log10(_ref2(exact, ideal.kind, _design_g2(exact)))
+        out.append(ErrorCheck("passband gain", e_db, a_db, a_db - e_db, limits.gain_db, "dB"))
+    worst = int(np.argmax(np.abs(ours - theirs)))
+    out.append(ErrorCheck("passband shape", float(theirs[worst]), float(ours[worst]),
+                          float(ours[worst] - theirs[worst]), limits.gain_db, "dB"))
+    r_ours, r_ideal = float(np.ptp(ours)), float(np.ptp(theirs))
+    out.append(ErrorCheck("passband ripple", r_ideal, r_ours, r_ours - r_ideal, limits.gain_db, "dB"))
+    return tuple(out)
+
+
+def _starting_mask(ideal: IdealResponse, kind: str, ripple_db: float | None,
                    fc: float, bw: float | None) -> tuple:
-    a = design.analysis
+    """Spans implied by the ideal response (relative to the passband reference, dB):
+
+    - passband floor over Omega <= 1/2: -1 dB (Chebyshev -(ripple + 0.5)), lower if the
+      ideal response dips below (its minimum - 0.5, rounded down to 0.5 dB);
+    - passband ceiling up to the cutoff (band-pass: between the band edges): the ideal
+      response's maximum there + :data:`CEILING_ALLOWANCE_DB`, rounded up to 0.1 dB
+      (a Chebyshev ripple peak above the reference shows here);
+    - stopband ceiling from Omega >= 4 to the range's end: the ideal response there +
+      6 dB, rounded to 1 dB.
+    """
+    f_start, f_stop = float(ideal.f[0]), float(ideal.f[-1])
     base = -(ripple_db + 0.5) if ripple_db is not None else -1.0
-
-    def omega_edges(omega: float) -> tuple[float, float]:
-        # the band-pass frequencies where the low-pass prototype is at +-omega
-        assert bw is not None
-        hi = 0.5 * omega * bw + math.sqrt((0.5 * omega * bw) ** 2 + fc * fc)
-        return fc * fc / hi, hi
-
     if kind == "lowpass":
-        passband = [(a.f_start, 0.5 * fc)]
-        stops = [(4 * fc, a.f_stop)]
+        passband, top = [(f_start, 0.5 * fc)], (f_start, fc)
+        stops = [(4 * fc, f_stop)]
     elif kind == "highpass":
-        passband = [(2 * fc, a.f_stop)]
-        stops = [(a.f_start, fc / 4)]
+        passband, top = [(2 * fc, f_stop)], (fc, f_stop)
+        stops = [(f_start, fc / 4)]
     else:
-        passband = [omega_edges(0.5)]
-        lo4, hi4 = omega_edges(4.0)
-        stops = [(a.f_start, lo4), (hi4, a.f_stop)]
+        assert bw is not None
+        passband, top = [omega_edges(fc, bw, 0.5)], omega_edges(fc, bw, 1.0)
+        lo4, hi4 = omega_edges(fc, bw, 4.0)
+        stops = [(f_start, lo4), (hi4, f_stop)]
+
+    def rel_db(f1: float, f2: float) -> np.ndarray:
+        return 10 * np.log10(np.maximum(ideal.g2(np.geomspace(f1, f2, 400)), 1e-300) / ideal.ref2)
+
     spans = []
     for f1, f2 in passband:
-        worst = float(np.min(_rel_db(design, np.geomspace(f1, f2, 200))))
+        worst = float(np.min(rel_db(f1, f2)))
         limit = min(base, math.floor(2 * (worst - 0.5)) / 2)
         spans.append(Span("floor", f1, f2, limit, relative=True, name="passband floor"))
+    peak = float(np.max(rel_db(*top)))
+    spans.append(Span("ceiling", top[0], top[1], math.ceil(10 * (peak + CEILING_ALLOWANCE_DB) - 1e-6) / 10,
+                      relative=True, name="passband ceiling"))
     for j, (f1, f2) in enumerate(stops):
         if not f1 < f2:
             continue
-        worst = float(np.max(_rel_db(design, np.geomspace(f1, f2, 200))))
+        worst = float(np.max(rel_db(f1, f2)))
         spans.append(Span("ceiling", f1, f2, float(round(worst + 6)), relative=True,
                           name="stopband ceiling" + ("" if len(stops) == 1 else (" low", " high")[j])))
     return tuple(spans)

@@ -137,14 +137,14 @@ def test_band_pass_needs_a_bandwidth(synth):
     assert not synth.ok_button.isEnabled()
     assert "bandwidth" in synth.problem()
     assert synth.problems["bandwidth"].isVisibleTo(synth)
-    synth.bandwidth.setText("200")
+    synth.bandwidth.setText("300")  # within the error limits with E24 (200 Hz is not: its own test)
     assert synth.ok_button.isEnabled()
-    expected = synthesize("butterworth", 4, 1000.0, kind="bandpass", bandwidth_hz=200.0, topology="mfb_bandpass")
+    expected = synthesize("butterworth", 4, 1000.0, kind="bandpass", bandwidth_hz=300.0, topology="mfb_bandpass")
     assert synth.result().design == expected.design
     # back to low-pass: the bandwidth is kept in its field but not used
     choose(synth.kind, "lowpass")
     assert not synth.bandwidth.isEnabled()
-    assert synth.bandwidth.text() == "200"
+    assert synth.bandwidth.text() == "300"
     assert synth.result().design == synthesize("butterworth", 4, 1000.0).design
 
 
@@ -321,5 +321,5 @@ def test_extreme_values_give_a_message_not_a_traceback(synth):
     assert not synth.ok_button.isEnabled()
     assert synth.problem()
     assert synth.result() is good
-    synth.bandwidth.setText("200")
+    synth.bandwidth.setText("5k")  # narrower bands need Q above 50: refused (filters.synthesis ranges)
     assert synth.is_valid()
