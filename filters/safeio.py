@@ -296,9 +296,11 @@ def _make_backup(real: Path, folder: Path) -> None:
                 os.fsync(out.fileno())
                 _keep_mode(out.fileno(), os.stat(real))
         os.replace(tmp, bak)
-        tmp = ""
     finally:
-        if tmp and os.path.lexists(tmp):
+        # Also after a successful replace: when the backup already was a hard link of the
+        # same file (a save killed between its two renames), rename() does nothing and
+        # leaves the temporary name in place (POSIX rename(2)).
+        if os.path.lexists(tmp):
             os.unlink(tmp)
 
 
