@@ -431,27 +431,19 @@ class MainWindow(QMainWindow):
 
     # --- exports -------------------------------------------------------------------------
     def export_plots(self, kind: str, path: str | None = None) -> Path | None:
-        """Save the plots as PNG (both plots, as shown) or SVG (the gain plot with its bands
-        and mask, over the shown range); asks for a file unless ``path`` is given."""
+        """Save the plots as PNG (both plots, as shown) or SVG (every plot shown: gain,
+        phase or delay, and the histogram, over the shown ranges); asks for a file unless
+        ``path`` is given."""
         if path is None:
             path, _ = QFileDialog.getSaveFileName(self, f"Export plots as {kind.upper()}",
                                                   str(self._last_dir() / f"spread.{kind}"), f"*.{kind}")
             if not path:
                 return None
         if kind == "svg":
-            # tolspread's own SVG writer (the one the report uses), over the plot's current range
-            from filters.report import svg_spread_plot
+            from .qt_svgexport import export_window_plots
 
-            view = self.session.last_view
-            if view is None:
+            if not export_window_plots(self, path):  # gain, phase/delay and histogram, as shown
                 return None
-            (x0, x1), (y0, y1) = self.plots.mag.vb.viewRange()
-            svg = svg_spread_plot(view.freqs_hz, view.nominal_gain_db, view.gain_bands, view.design.mask,
-                                  view.nominal_metrics.get("reference_db", 0.0), width=1100, height=480,
-                                  x_range=(10 ** x0, 10 ** x1), y_range=(y0, y1),
-                                  boards=view.curve_boards or view.samples,
-                                  title=f"{view.design.name or 'design'}: gain spread")
-            write_text_atomic(Path(path), '<?xml version="1.0" encoding="UTF-8"?>\n' + svg, backup=False)
         else:
             exporter = pg.exporters.ImageExporter(self.plots.canvas.scene())
             exporter.parameters()["width"] = max(1200, int(self.plots.canvas.width()))

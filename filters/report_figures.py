@@ -42,6 +42,8 @@ esc = html.escape
 
 #: The smallest font size of any text in a figure, in px (SVG user units).
 MIN_FONT = 12
+#: Top edge of a plot area in px: the legend row and the y-axis title sit above it.
+PLOT_TOP = 46.0
 
 
 def _g(x: float) -> str:
@@ -78,7 +80,10 @@ class _Svg:
 
     def label(self, x: float, y: float, text: str, *, anchor: str = "start", size: float = MIN_FONT,
               fill: str = "#222222", rotate: bool = False, weight: str = "normal") -> None:
-        tr = f' transform="rotate(-90 {_c(x)} {_c(y)})"' if rotate else ""
+        tr = ""
+        if rotate:  # translate, then rotate about the origin: drawn alike by every SVG renderer
+            tr = f' transform="translate({_c(x)} {_c(y)}) rotate(-90)"'
+            x = y = 0.0
         wt = f' font-weight="{weight}"' if weight != "normal" else ""
         self.add(f'<text x="{_c(x)}" y="{_c(y)}" text-anchor="{anchor}" font-size="{size}" '
                  f'fill="{fill}"{wt}{tr}>{esc(text)}</text>')
@@ -94,7 +99,7 @@ class _Svg:
 
     def text(self) -> str:
         head = (f'<svg xmlns="{SVG_NS}" width="{self.width}" height="{self.height}" '
-                f'viewBox="0 0 {self.width} {self.height}" font-family="sans-serif">')
+                f'viewBox="0 0 {self.width} {self.height}" font-family="sans-serif" stroke="none">')
         return "\n".join([head, f'<rect x="0" y="0" width="{self.width}" height="{self.height}" fill="#ffffff"/>',
                           *self.items, "</svg>"])
 
@@ -179,9 +184,6 @@ class _Frame:
         return [f'<polyline points="{_pts(rx, ry)}" {attrs}/>'
                 for rx, ry in _clip_runs(np.asarray(xs, dtype=float), self.y_raw(v), self.y0, self.y1)]
 
-    def clip_def(self, ident: str) -> str:
-        return (f'<defs><clipPath id="{ident}-clip"><rect x="{_c(self.x0)}" y="{_c(self.y0)}" '
-                f'width="{_c(self.x1 - self.x0)}" height="{_c(self.y1 - self.y0)}"/></clipPath></defs>')
 
 
 def _clip_runs(xs: np.ndarray, ys: np.ndarray, top: float, bottom: float
@@ -243,7 +245,8 @@ def _axes(svg: _Svg, fr: _Frame, xticks: list[float], xlabels: list[str], yticks
         svg.line(fr.x0 - 4, y, fr.x0, y, AXIS)
         svg.label(fr.x0 - 6, y + 4, t, anchor="end")
     svg.label((fr.x0 + fr.x1) / 2, fr.y1 + 34, xtitle, anchor="middle", size=MIN_FONT + 1)
-    svg.label(14, (fr.y0 + fr.y1) / 2, ytitle, anchor="middle", size=MIN_FONT + 1, rotate=True)
+    # the y title over the axis, unrotated (renderers differ on rotated text)
+    svg.label(4, fr.y0 - 8, ytitle, anchor="start", size=MIN_FONT + 1)
 
 
 def _legend(svg: _Svg, x: float, y: float, items: list[tuple[str, str]], right: float) -> None:
@@ -274,12 +277,34 @@ def _span_segment(span: Span, reference_db: float, xlo: float, xhi: float
     return fa, float(la) + shift, fb, float(lb) + shift
 
 
+def _hatch(xa: float, ya: float, xb: float, yb: float, side: float, colour: str, top: float,
+           bottom: float, step: float = 6.0) -> str:
+    """Hatching below (``side`` > 0, px) or above (``side`` < 0) the line (xa, ya)-(xb, yb):
+    short diagonal strokes every ``step`` px, kept between ``top`` and ``bottom`` and within
+    xa..xb (plain lines, which every SVG renderer draws; no patterns)."""
+    out = []
+    n = max(int((xb - xa) // step), 1)
+    d = abs(side)
+    for k in range(n + 1):
+        x = xa + k * step
+        if x > xb:
+            break
+        y = ya + (yb - ya) * (x - xa) / (xb - xa) if xb > xa else ya
+        x2 = min(x + d, xb)
+        y2 = min(max(y + math.copysign(x2 - x, side), top), bottom)
+        if x2 > x:
+            out.append(f'<line x1="{_c(x)}" y1="{_c(y)}" x2="{_c(x2)}" y2="{_c(y2)}"/>')
+    return f'<g stroke="{colour}" stroke-width="1.5">' + "".join(out) + "</g>"
+
+
 def svg_spread_plot(freqs_hz: np.ndarray, nominal_db: np.ndarray, bands: Bands | None,
                     mask_spans: Sequence[Span], reference_db: float, width: int = 760, height: int = 340,
                     *, ident: str = "spread", title: str = "Gain spread of the sampled boards",
                     y_range: tuple[float, float] | None = None,
-                    x_range: tuple[float, float] | None = None, boards: int | None = None) -> str:
-    """Gain (dB) against log frequency: the full range of every board (sky blue) and the
+                    x_range: tuple[float, float] | None = None, boards: int | None = None,
+                    ylabel: str = "gain (dB)") -> str:
+    """Gain (dB) against log frequency (or another quantity, named by ``ylabel``, with
+    ``mask_spans`` empty): the full range of every board (sky blue) and the
     central band (``bands.share`` of boards, blue) as filled areas, the nominal curve
     (black), and each gain span of the mask as a line with its forbidden side hatched
     (floor orange, below; ceiling purple, above). Relative spans are drawn against
@@ -319,18 +344,11 @@ def svg_spread_plot(freqs_hz: np.ndarray, nominal_db: np.ndarray, bands: Bands |
         ylo, yhi, yticks = _nice_range(float(y_range[0]), float(y_range[1]), 8)
 
     svg = _Svg(width, height, title)
-    fr = _Frame(60.0, 30.0, width - 30.0, height - 44.0, xlo, xhi, ylo, yhi, xlog=True)
+    fr = _Frame(60.0, PLOT_TOP, width - 30.0, height - 44.0, xlo, xhi, ylo, yhi, xlog=True)
     major, minor = _log_ticks(xlo, xhi)
     _axes(svg, fr, major, [format_value(v, "Hz", digits=3) for v in major], yticks,
-          [_fmt_tick(v) for v in yticks], "frequency", "gain (dB)", minor)
+          [_fmt_tick(v) for v in yticks], "frequency", ylabel, minor)
 
-    svg.add(fr.clip_def(ident))
-    svg.add('<defs>'
-            f'<pattern id="{ident}-hatch-floor" patternUnits="userSpaceOnUse" width="6" height="6" '
-            f'patternTransform="rotate(45)"><rect x="0" y="0" width="2" height="6" fill="{ORANGE}"/></pattern>'
-            f'<pattern id="{ident}-hatch-ceiling" patternUnits="userSpaceOnUse" width="6" height="6" '
-            f'patternTransform="rotate(-45)"><rect x="0" y="0" width="2" height="6" fill="{PURPLE}"/></pattern>'
-            '</defs>')
     body: list[str] = []
     xs = fr.x(fk)
     if bands is not None:
@@ -347,14 +365,10 @@ def svg_spread_plot(freqs_hz: np.ndarray, nominal_db: np.ndarray, bands: Bands |
             continue  # the limit lies outside the shown dB range
         (xa, xb), (ya, yb) = runs[0]
         side = depth if s.kind == "floor" else -depth
-        ya2 = min(max(ya + side, fr.y0), fr.y1)
-        yb2 = min(max(yb + side, fr.y0), fr.y1)
-        hatch = f"url(#{ident}-hatch-{s.kind})"
-        body.append(f'<polygon points="{_pts([xa, xb, xb, xa], [ya, yb, yb2, ya2])}" fill="{hatch}" '
-                    f'stroke="none"/>')
+        body.append(_hatch(xa, ya, xb, yb, side, colour, fr.y0, fr.y1))
         body.append(f'<line x1="{_c(xa)}" y1="{_c(ya)}" x2="{_c(xb)}" y2="{_c(yb)}" stroke="{colour}" '
                     f'stroke-width="2.2"/>')
-    svg.add(f'<g clip-path="url(#{ident}-clip)">' + "\n".join(body) + "</g>")
+    svg.add(f'<g id="{ident}-data">' + "\n".join(body) + "</g>")
 
     items: list[tuple[str, str]] = []
     if bands is not None:
@@ -364,11 +378,11 @@ def svg_spread_plot(freqs_hz: np.ndarray, nominal_db: np.ndarray, bands: Bands |
                       f"central {bands.share * 100:g} %"))
     items.append((f'<line x1="0" y1="5" x2="18" y2="5" stroke="{BLACK}" stroke-width="1.6"/>', "nominal"))
     if any(s.kind == "floor" for s, _ in segs):
-        items.append((f'<rect x="0" y="0" width="18" height="10" fill="url(#{ident}-hatch-floor)"/>'
+        items.append((_hatch(0, 0, 18, 0, 10, ORANGE, 0, 10) +
                       f'<line x1="0" y1="0" x2="18" y2="0" stroke="{ORANGE}" stroke-width="2"/>',
                       "floor span"))
     if any(s.kind == "ceiling" for s, _ in segs):
-        items.append((f'<rect x="0" y="0" width="18" height="10" fill="url(#{ident}-hatch-ceiling)"/>'
+        items.append((_hatch(0, 10, 18, 10, -10, PURPLE, 0, 10) +
                       f'<line x1="0" y1="10" x2="18" y2="10" stroke="{PURPLE}" stroke-width="2"/>',
                       "ceiling span"))
     _legend(svg, fr.x0, 18, items, width - 4)
@@ -407,11 +421,10 @@ def svg_histogram(values: np.ndarray, bins: int | Sequence[float] = 40, fail_mas
     svg = _Svg(width, height, title or f"Histogram of {label}")
     xlo, xhi, xticks = _nice_range(float(edges[0]), float(edges[-1]), 7)
     _, yhi, yticks = _nice_range(0.0, float(max(total.max(), 1)), 5)
-    fr = _Frame(60.0, 30.0, width - 30.0, height - 44.0, xlo, xhi, 0.0, yhi)
+    fr = _Frame(60.0, PLOT_TOP, width - 30.0, height - 44.0, xlo, xhi, 0.0, yhi)
     xlabels = [format_value(t, unit, digits=4) if unit == "Hz" else _fmt_tick(t) for t in xticks]
     _axes(svg, fr, xticks, xlabels, yticks, [f"{t:.0f}" for t in yticks], label, "boards")
     ident = _slug(ident)
-    svg.add(fr.clip_def(ident))
     body: list[str] = []
     xa, xb = fr.x(edges[:-1]), fr.x(edges[1:])
     y0 = float(fr.y(0.0))
@@ -424,7 +437,7 @@ def svg_histogram(values: np.ndarray, bins: int | Sequence[float] = 40, fail_mas
         if n_fail[i]:
             body.append(f'<rect x="{_c(xa[i] + 0.5)}" y="{_c(yt[i])}" width="{_c(w)}" '
                         f'height="{_c(yp[i] - yt[i])}" fill="{VERMILLION}"/>')
-    svg.add(f'<g clip-path="url(#{ident}-clip)">' + "\n".join(body) + "</g>")
+    svg.add(f'<g id="{ident}-data">' + "\n".join(body) + "</g>")
     items = [(f'<rect x="0" y="0" width="18" height="10" fill="{BLUE}"/>',
               f"passing boards ({format_count(int(n_pass.sum()))})" if fail_mask is not None
               else f"boards ({format_count(int(n_pass.sum()))})")]
@@ -487,11 +500,10 @@ def svg_cost_yield(points: Sequence[tuple[float, float | None]], *, current_cost
     ylo, yhi, yticks = _nice_range(min(costs_all + [0.0]), max(costs_all) * 1.1 if costs_all else 1.0, 6)
     inset = 0.03 * (xhi - xlo)  # keeps markers at the first and last target off the frame
     svg = _Svg(width, height, title)
-    fr = _Frame(60.0, 30.0, width - 30.0, height - 44.0, xlo - inset, xhi + inset, ylo, yhi)
+    fr = _Frame(60.0, PLOT_TOP, width - 30.0, height - 44.0, xlo - inset, xhi + inset, ylo, yhi)
     _axes(svg, fr, xticks, [f"{t:g} %" for t in xticks], yticks, [_fmt_tick(t) for t in yticks],
           "yield target (lower confidence bound)", "total cost")
     ident = _slug(ident)
-    svg.add(fr.clip_def(ident))
     body: list[str] = []
     have = [(100 * t, c) for t, c in pts if c is not None and math.isfinite(c)]
     if len(have) >= 2:
@@ -511,7 +523,7 @@ def svg_cost_yield(points: Sequence[tuple[float, float | None]], *, current_cost
                     f'stroke="{VERMILLION}" stroke-width="2"/>')
         body.append(f'<line x1="{_c(x - 5)}" y1="{_c(y + 5)}" x2="{_c(x + 5)}" y2="{_c(y - 5)}" '
                     f'stroke="{VERMILLION}" stroke-width="2"/>')
-    svg.add(f'<g clip-path="url(#{ident}-clip)">' + "\n".join(body) + "</g>")
+    svg.add(f'<g id="{ident}-data">' + "\n".join(body) + "</g>")
     items = [(f'<rect x="5" y="1" width="7" height="7" fill="{BLUE}"/>', "cheapest grades meeting the target")]
     if missing:
         items.append((f'<line x1="4" y1="0" x2="14" y2="10" stroke="{VERMILLION}" stroke-width="2"/>'
