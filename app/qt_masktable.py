@@ -1,18 +1,30 @@
 """The span table: every mask span with its numbers, editable, for what the mouse does
-roughly (sloped limits, exact edges, phase and delay spans)."""
+roughly (sloped limits, exact edges, phase and delay spans).
+
+Each limit cell carries its unit: dB (gain), deg (phase) or seconds with an SI prefix
+(delay, e.g. "100 µs"). A number typed without a unit is in the unit the cell shows; an SI
+suffix or the unit may be typed ("150", "0.15m", "150 µs"). A bad entry marks the cell
+(red, with the reason as its tooltip and under the table), names the field typed and keeps
+the last good value.
+"""
 from __future__ import annotations
 
-import math
-
 from PySide6.QtCore import Qt, Signal
+from PySide6.QtGui import QBrush, QColor
 from PySide6.QtWidgets import (QHBoxLayout, QHeaderView, QLabel, QPushButton, QTableWidget,
                                QTableWidgetItem, QVBoxLayout, QWidget)
 
 from filters.errors import InputError, ValidationError
 from filters.mask import Span
-from filters.values import format_value, parse_value
+from filters.values import format_value
+
+from . import qt_style as st
+from .qt_units import QUANTITY_UNIT, eng, parse_in_unit, prefix_for
 
 COLUMNS = ["name", "quantity", "kind", "f1 (Hz)", "f2 (Hz)", "limit at f1", "limit at f2", "relative"]
+NAME_COLUMN, F1_COLUMN, F2_COLUMN, LIMIT1_COLUMN, LIMIT2_COLUMN, RELATIVE_COLUMN = 0, 3, 4, 5, 6, 7
+INVALID_BRUSH = QBrush(QColor("#fde2d6"))  # the parts panel's colour for a refused entry
+FIELD_WORDS = {F1_COLUMN: "f1", F2_COLUMN: "f2", LIMIT1_COLUMN: "the limit at f1", LIMIT2_COLUMN: "the limit at f2"}
 
 
 class SpanTable(QWidget):
@@ -24,6 +36,9 @@ class SpanTable(QWidget):
     span_selected = Signal(int)
     problem = Signal(str)
 
+    NAME_COLUMN, F1_COLUMN, F2_COLUMN = NAME_COLUMN, F1_COLUMN, F2_COLUMN
+    LIMIT1_COLUMN, LIMIT2_COLUMN = LIMIT1_COLUMN, LIMIT2_COLUMN
+
     def __init__(self) -> None:
         super().__init__()
         lay = QVBoxLayout(self)
@@ -32,24 +47,38 @@ class SpanTable(QWidget):
         self.table.setObjectName("span_table")
         self.table.setHorizontalHeaderLabels(COLUMNS)
         self.table.verticalHeader().hide()
-        self.table.horizontalHeader().setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Interactive)
+        self.table.horizontalHeader().setStretchLastSection(True)
+        self.table.setTextElideMode(Qt.TextElideMode.ElideNone)
+        self.table.setWordWrap(False)
         self.table.setSelectionBehavior(QTableWidget.SelectionBehavior.SelectRows)
         self.table.setSelectionMode(QTableWidget.SelectionMode.SingleSelection)
-        lay.addWidget(self.table)
+        lay.addWidget(self.table, 1)
+        self.problem_label = QLabel("")
+        self.problem_label.setObjectName("span_problem")
+        self.problem_label.setWordWrap(True)
+        self.problem_label.setStyleSheet(f"color: {st.VERMILION};")
+        self.problem_label.hide()
+        lay.addWidget(self.problem_label)
         row = QHBoxLayout()
         self.add_phase = QPushButton("Add phase span")
         self.add_delay = QPushButton("Add delay-variation span")
         self.delete = QPushButton("Delete span")
         self.delete.setObjectName("delete_span")
-        self.hint = QLabel("Draw gain spans on the gain plot; edit any number here (Enter applies).")
+        self.hint = QLabel("Draw gain spans on the gain plot; edit any number here (Enter applies). "
+                           "Limits are in the unit shown (dB, deg, µs); an SI suffix may be typed.")
+        self.hint.setObjectName("span_hint")
+        self.hint.setWordWrap(True)
         self.hint.setStyleSheet("color: #555;")
         for w in (self.add_phase, self.add_delay, self.delete):
             row.addWidget(w)
-        row.addWidget(self.hint, 1)
+        row.addStretch(1)
         lay.addLayout(row)
+        lay.addWidget(self.hint)  # a line of its own: beside the buttons it set the window's minimum width
         self._spans: tuple[Span, ...] = ()
         self._f_range = (1.0, 1e6)
         self._loading = False
+        self._bad: tuple[int, int, str, Span] | None = None  # row, column, reason, span it was for
         self.table.itemChanged.connect(self._on_item_changed)
         self.table.itemSelectionChanged.connect(self._on_selection)
         self.delete.clicked.connect(self._on_delete)
@@ -68,14 +97,25 @@ class SpanTable(QWidget):
         sel = self.selected()
         self.table.setRowCount(len(spans))
         for i, s in enumerate(spans):
+            unit = QUANTITY_UNIT[s.quantity]
+            gain = s.quantity == "gain"
+            limit2 = "" if s.limit2 is None or s.quantity == "delay" else eng(s.limit2, unit, 6)
             cells = [s.label, s.quantity, s.kind, format_value(s.f1, digits=5), format_value(s.f2, digits=5),
-                     f"{s.limit1:g}", "" if s.limit2 is None else f"{s.limit2:g}",
-                     "yes" if s.relative else "no"]
+                     eng(s.limit1, unit, 6), limit2, ("yes" if s.relative else "no") if gain else ""]
             for j, text in enumerate(cells):
                 item = QTableWidgetItem(text)
-                if j in (1, 2):
+                fixed = j in (1, 2) or (j == LIMIT2_COLUMN and s.quantity == "delay") or (
+                    j == RELATIVE_COLUMN and not gain)
+                if fixed:
                     item.setFlags(item.flags() & ~Qt.ItemFlag.ItemIsEditable)
                 self.table.setItem(i, j, item)
+        if self._bad is not None:
+            row, col, reason, span = self._bad
+            if row < len(spans) and spans[row] == span:
+                self._mark(row, col, reason)
+            else:
+                self._clear_problem()
+        self.table.resizeColumnsToContents()
         if 0 <= sel < len(spans):
             self.table.selectRow(sel)
         self._loading = False
@@ -96,39 +136,70 @@ class SpanTable(QWidget):
         if not self._loading:
             self.span_selected.emit(self.selected())
 
+    def _mark(self, row: int, col: int, reason: str) -> None:
+        item = self.table.item(row, col)
+        if item is not None:
+            item.setBackground(INVALID_BRUSH)
+            item.setToolTip(reason)
+        self.problem_label.setText(reason)
+        self.problem_label.show()
+
+    def _clear_problem(self) -> None:
+        self._bad = None
+        self.problem_label.hide()
+        self.problem_label.setText("")
+
+    def _read(self, i: int, j: int, text: str) -> Span:
+        """The span of row ``i`` with column ``j`` set to ``text``; raises InputError whose
+        reason names the field typed and the span ("f1 of 'passband floor' must be ...")."""
+        old = self._spans[i]
+        field = f"{FIELD_WORDS.get(j, COLUMNS[j])} of '{old.label}'"
+        d = old.to_dict()
+        if j == NAME_COLUMN:
+            d["name"] = text
+        elif j in (F1_COLUMN, F2_COLUMN):
+            f = parse_in_unit(text, "Hz", 1.0, field)
+            lo, hi = self._f_range
+            if not f > 0:
+                raise InputError(f"{field} must be above 0 Hz", field)
+            if j == F1_COLUMN and not f < old.f2:
+                raise InputError(f"{field} must be below f2 ({eng(old.f2, 'Hz', 4)})", field)
+            if j == F2_COLUMN and not f > old.f1:
+                raise InputError(f"{field} must be above f1 ({eng(old.f1, 'Hz', 4)})", field)
+            if f < lo * (1 - 1e-9) or f > hi * (1 + 1e-9):
+                raise InputError(f"{field} must lie inside the analysed range {eng(lo, 'Hz', 4)} to "
+                                 f"{eng(hi, 'Hz', 4)}", field)
+            d["f1" if j == F1_COLUMN else "f2"] = f
+        elif j in (LIMIT1_COLUMN, LIMIT2_COLUMN):
+            unit = QUANTITY_UNIT[old.quantity]
+            if j == LIMIT2_COLUMN and text == "":
+                d.pop("limit2", None)
+            else:
+                shown = old.limit1 if j == LIMIT1_COLUMN or old.limit2 is None else old.limit2
+                v = parse_in_unit(text, unit, prefix_for(shown)[1], field)
+                if old.quantity == "delay" and not v > 0:
+                    raise InputError(f"{field} must be above 0 s", field)
+                d["limit1" if j == LIMIT1_COLUMN else "limit2"] = v
+        elif j == RELATIVE_COLUMN:
+            d["relative"] = text.lower() in ("yes", "y", "true", "1", "relative")
+        try:
+            return Span.from_dict(d, f"mask[{i}]")
+        except ValidationError as exc:
+            raise InputError(f"{field}: {exc.lines()[0]}", field) from None
+
     def _on_item_changed(self, item: QTableWidgetItem) -> None:
         if self._loading:
             return
         i, j = item.row(), item.column()
-        old = self._spans[i]
-        text = item.text().strip()
         try:
-            d = old.to_dict()
-            if j == 0:
-                d["name"] = text
-            elif j in (3, 4):
-                d["f1" if j == 3 else "f2"] = parse_value(text, COLUMNS[j])
-            elif j in (5, 6):
-                key = "limit1" if j == 5 else "limit2"
-                if j == 6 and text == "":
-                    d.pop("limit2", None)
-                else:
-                    v = float(text)
-                    if not math.isfinite(v):
-                        raise InputError("must be a finite number", COLUMNS[j])
-                    d[key] = v
-            elif j == 7:
-                d["relative"] = text.lower() in ("yes", "y", "true", "1", "relative")
-            span = Span.from_dict(d, f"mask[{i}]")
-            lo, hi = self._f_range
-            if span.f1 < lo * (1 - 1e-9) or span.f2 > hi * (1 + 1e-9):
-                raise InputError(f"must lie inside the analysed range {format_value(lo)}Hz to "
-                                 f"{format_value(hi)}Hz", f"mask[{i}]")
-        except ValueError as exc:
-            msg = exc.lines()[0] if isinstance(exc, ValidationError) else str(exc)
-            self.problem.emit(f"{msg} (kept the previous value)")
-            self.show_mask(self._spans, self._f_range)
+            span = self._read(i, j, item.text().strip())
+        except InputError as exc:
+            reason = exc.reason
+            self._bad = (i, j, reason, self._spans[i])
+            self.show_mask(self._spans, self._f_range)  # back to the last good value, marked
+            self.problem.emit(f"{reason} (kept the previous value)")
             return
+        self._clear_problem()
         self.span_edited.emit(i, span)
 
     def _on_delete(self) -> None:
