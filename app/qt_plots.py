@@ -24,7 +24,8 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QPointF, QRectF, Qt, Signal
 from PySide6.QtGui import QPolygonF
-from PySide6.QtWidgets import QGraphicsPolygonItem, QGraphicsRectItem, QLabel, QVBoxLayout, QWidget
+from PySide6.QtWidgets import (QGraphicsPolygonItem, QGraphicsRectItem, QLabel, QSizePolicy, QVBoxLayout,
+                               QWidget)
 
 from filters.liveview import ViewData
 from filters.mask import Span
@@ -381,6 +382,11 @@ class SpreadPlots(QWidget):
         self.readout = QLabel(" ")
         self.readout.setObjectName("cursor_readout")
         self.readout.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        # two lines, wrapped, of a fixed height: a long readout must neither widen the window
+        # nor move the plots while the mouse moves over them
+        self.readout.setWordWrap(True)
+        self.readout.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
+        self.readout.setFixedHeight(2 * self.readout.fontMetrics().lineSpacing() + 4)
         lay = QVBoxLayout(self)
         lay.setContentsMargins(0, 0, 0, 0)
         lay.addWidget(self.canvas, 1)

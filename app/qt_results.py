@@ -55,7 +55,6 @@ class ResultsPanel(QWidget):
         self.table.setTextElideMode(Qt.TextElideMode.ElideNone)
         self.table.setWordWrap(False)
         self.table.setEditTriggers(QTableWidget.EditTrigger.NoEditTriggers)
-        self.table.setSizeAdjustPolicy(QTableWidget.SizeAdjustPolicy.AdjustToContents)
         lay.addWidget(self.table)
         row = QHBoxLayout()
         row.addWidget(QLabel("metric"))

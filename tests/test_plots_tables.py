@@ -61,10 +61,10 @@ def settle(qtbot, w) -> None:
     vb = w.plots.vb_mag
     seen: list = []
 
-    def still() -> bool:
+    def still() -> bool:  # unchanged over six looks, 12 ms apart
         seen.append((vb.sceneBoundingRect(), tuple(map(tuple, vb.viewRange()))))
         qtbot.wait(MOVE_GAP_MS)
-        return len(seen) > 1 and seen[-1] == seen[-2]
+        return len(seen) > 5 and all(x == seen[-1] for x in seen[-6:])
 
     qtbot.waitUntil(still, timeout=3000)
 
@@ -193,11 +193,12 @@ def test_drag_in_draw_mode_draws_a_new_span_and_moves_no_other(qtbot, kind):
     (xa, ya), (xb, yb) = from_pixel(w, vb, pa), from_pixel(w, vb, pb)
     x_px = abs(from_pixel(w, vb, pa + QPoint(1, 0))[0] - xa)
     y_px = abs(from_pixel(w, vb, pa + QPoint(0, 1))[1] - ya)
-    assert math.log10(new.f1) == pytest.approx(math.log10(200.0), abs=1.5 * x_px + 1e-3)
-    assert math.log10(new.f2) == pytest.approx(math.log10(800.0), abs=1.5 * x_px + 1e-3)
+    assert math.log10(new.f1) == pytest.approx(xa, abs=x_px + 1e-3)  # 4 significant figures kept
+    assert math.log10(new.f2) == pytest.approx(xb, abs=x_px + 1e-3)
+    assert 10 ** xa == pytest.approx(200.0, rel=0.05) and 10 ** xb == pytest.approx(800.0, rel=0.05)
     # the drag paints the forbidden zone: a floor's limit is its top edge, a ceiling's its bottom
     edge = max(ya, yb) if kind == "floor" else min(ya, yb)
-    assert new.limit1 + (reference if new.relative else 0.0) == pytest.approx(edge, abs=1.5 * y_px + 0.01)
+    assert new.limit1 + (reference if new.relative else 0.0) == pytest.approx(edge, abs=y_px + 0.01)
 
 
 def test_outside_draw_mode_a_drag_on_a_handle_still_moves_its_span(qtbot):
@@ -276,7 +277,7 @@ def test_span_table_limits_carry_units_and_take_si_input(qtbot, tmp_path):
     ig = next(k for k, sp in enumerate(mask) if sp.quantity == "gain")
     ip = next(k for k, sp in enumerate(mask) if sp.quantity == "phase")
     idl = next(k for k, sp in enumerate(mask) if sp.quantity == "delay")
-    col = w.span_table.LIMIT1_COLUMN
+    col = column(table, "limit at f1")
     assert table.item(ig, col).text() == f"{mask[ig].limit1:g} dB"
     assert table.item(ip, col).text() == "-200 deg"
     assert table.item(idl, col).text() == "100 µs"  # 1e-4 s: SI prefix micro
@@ -314,6 +315,12 @@ def test_readout_is_cleared_when_the_second_plot_changes_quantity(qtbot):
 
 
 # --- 11. span table errors ---------------------------------------------------------------------
+def column(table, heading: str) -> int:
+    """The column under ``heading``, as a user finds it."""
+    heads = [table.horizontalHeaderItem(j).text() for j in range(table.columnCount())]
+    return heads.index(heading)
+
+
 def cell_centre(table, row: int, col: int) -> QPoint:
     return table.visualRect(table.model().index(row, col)).center()
 
@@ -337,7 +344,7 @@ def test_f1_above_f2_marks_the_typed_cell_and_keeps_the_last_good_value(qtbot):
     table = w.span_table.table
     before = w.session.design
     i = next(k for k, sp in enumerate(before.mask) if sp.name == "passband floor")
-    col = w.span_table.F1_COLUMN
+    col = column(table, "f1 (Hz)")
     old_text = table.item(i, col).text()
     edit_cell(qtbot, table, i, col, "5k")
     qtbot.wait(100)
@@ -349,7 +356,7 @@ def test_f1_above_f2_marks_the_typed_cell_and_keeps_the_last_good_value(qtbot):
     # the message names the field that was typed, the span, and the other edge in Hz
     tip = item.toolTip()
     assert tip.startswith("f1 of 'passband floor' must be below f2 (1.2 kHz)"), tip
-    assert tip in w.status_text.text() or tip in w.span_table.problem_label.text()
+    assert tip in w.status_text.text() or tip in w.span_table.findChild(QLabel, "span_problem").text()
     # a good value clears the mark
     with qtbot.waitSignal(w.session.view_ready, timeout=WAIT_MS):
         edit_cell(qtbot, table, i, col, "20")
@@ -359,35 +366,37 @@ def test_f1_above_f2_marks_the_typed_cell_and_keeps_the_last_good_value(qtbot):
 
 
 def test_double_click_on_a_partly_visible_row_edits_that_row(qtbot):
+    """Issue 10 #11 reported a double-click on a partly visible row renaming another span.
+    Not reproduced here (Qt does not scroll on a press); this guards the behaviour."""
     w = start(qtbot)
     table = w.span_table.table
     before = w.session.design.mask
-    # make the table so short that its last row shows only its top few pixels
+    # make the table so short that a row shows only its top part, with another row below it
     w.centre.setSizes([w.centre.height() - 10, 10])
-    last = len(before) - 1
-    for h in range(40, 400, 2):
+    k = len(before) - 2
+    for h in range(40, 400, 1):
         table.setFixedHeight(h)
         qtbot.wait(5)
-        top = table.rowViewportPosition(last)
-        if 0 < top < table.viewport().height() - 4 and top + table.rowHeight(last) > table.viewport().height():
+        top, vp_h = table.rowViewportPosition(k), table.viewport().height()
+        if 0 < top and top + 8 <= vp_h < top + table.rowHeight(k) - 2:
             break
     else:
-        pytest.fail("could not show the last row partly")
+        pytest.fail("could not show a row partly")
     assert table.verticalScrollBar().value() == 0
     vp = table.viewport()
-    p = QPoint(table.columnViewportPosition(0) + 10, table.rowViewportPosition(last) + 2)
-    assert table.rowAt(p.y()) == last
+    p = QPoint(table.columnViewportPosition(0) + 10, (top + vp_h) // 2)
+    assert table.rowAt(p.y()) == k
     QTest.mouseClick(vp, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, p)
     QTest.mouseDClick(vp, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, p)
     editor = QApplication.focusWidget()
-    assert editor is not None and editor is not table
+    assert editor is not None and editor is not table, "no editor opened"
     QTest.keyClick(editor, Qt.Key.Key_A, Qt.KeyboardModifier.ControlModifier)
     QTest.keyClicks(editor, "renamed by a double-click")
     with qtbot.waitSignal(w.session.view_ready, timeout=WAIT_MS):
         QTest.keyClick(editor, Qt.Key.Key_Return)
     after = w.session.design.mask
-    assert after[last].name == "renamed by a double-click"
-    assert after[:last] == before[:last], "another span was renamed"
+    assert after[k].name == "renamed by a double-click", [sp.name for sp in after]
+    assert after[:k] + after[k + 1:] == before[:k] + before[k + 1:], "another span was renamed"
 
 
 # --- 9. nothing a user must read is clipped ----------------------------------------------------
@@ -409,7 +418,9 @@ def _label_problems(panel) -> list[str]:
 def _table_problems(table, all_rows_visible: bool) -> list[str]:
     out = []
     fm = table.fontMetrics()
-    pad = 2 * table.style().pixelMetric(table.style().PixelMetric.PM_FocusFrameHMargin, None, table) + 6
+    # Qt's item views draw text inside a margin of PM_FocusFrameHMargin + 1 px on each side
+    # (QCommonStyle, from memory)
+    pad = 2 * (table.style().pixelMetric(table.style().PixelMetric.PM_FocusFrameHMargin, None, table) + 1)
     for c in range(table.columnCount()):
         head = table.horizontalHeaderItem(c).text() if table.horizontalHeaderItem(c) else ""
         hfm = table.horizontalHeader().fontMetrics()
@@ -440,7 +451,12 @@ def test_nothing_is_clipped(qtbot, size):
     for panel in (w.parts, w.results, w.span_table, w.plots):
         tl = panel.mapTo(w, QPoint(0, 0))
         assert tl.x() >= 0 and tl.x() + panel.width() <= w.width(), f"{type(panel).__name__} runs off the window"
-    problems = _label_problems(w.results) + _label_problems(w.span_table)
+    # the longest cursor readout, over the plot, as a user's mouse makes it
+    settle(qtbot, w)
+    QTest.mouseMove(w.plots.canvas.viewport(), to_pixel(w, w.plots.vb_mag, math.log10(1234.5), -40.0))
+    qtbot.waitUntil(lambda: "all boards" in w.plots.readout.text(), timeout=2000)
+    assert w.width() <= size[0], "the readout widened the window"
+    problems = _label_problems(w.results) + _label_problems(w.span_table) + _label_problems(w.plots)
     problems += _table_problems(w.results.table, all_rows_visible=size == DEFAULT_SIZE)
     problems += _table_problems(w.span_table.table, all_rows_visible=False)
     assert not problems, "\n".join(problems)
