@@ -133,10 +133,11 @@ def sensitivities(prep: Prepared, names: list[str]) -> dict[str, np.ndarray]:
 
 
 def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None) -> dict[str, Budget]:
-    """Spread budgets of ``names`` (default: cutoff, stage f0/Q, every span margin)."""
+    """Spread budgets of ``names`` (default: cutoff or band-pass centre and bandwidth,
+    stage f0/Q, every span margin)."""
     cols = metric_columns(ens)
     if names is None:
-        names = [n for n in cols if n == "cutoff_hz" or n.endswith(".f0_hz") or n.endswith(".q")
+        names = [n for n in cols if n in ("cutoff_hz", "centre_hz") or n.endswith(".f0_hz") or n.endswith(".q")
                  or n.startswith("margin.") or n == "bandwidth_hz"]
         names = [n for n in names if not is_pair_metric(n)]
     sens = sensitivities(prep, names)

@@ -164,9 +164,14 @@ def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Resp
                    cutoff_db: float) -> dict[str, np.ndarray]:
     """Reference gain, cutoff(s) and peaking per sample.
 
-    Low-pass and high-pass: ``cutoff_hz``. Band-pass: ``centre_hz`` (peak), ``lower_hz``,
-    ``upper_hz`` and ``bandwidth_hz`` at ``cutoff_db`` below the peak; ``cutoff_hz`` is the
-    centre there. ``reference_db`` and ``peaking_db`` (peak above the reference) always.
+    Low-pass and high-pass: ``cutoff_hz``. Band-pass: ``lower_hz`` and ``upper_hz``, the
+    band edges at ``cutoff_db`` below the (refined) peak, nearest the peak on either side;
+    ``centre_hz`` = sqrt(lower_hz x upper_hz), the geometric mean of the edges (the centre
+    a band-pass is designed for: ``scipy.signal.lp2bp`` puts the edges symmetric about it
+    on a log scale; stable even when a wide flat band has no clear peak);
+    ``bandwidth_hz`` = upper_hz - lower_hz. No ``cutoff_hz`` for a band-pass (it would
+    repeat the centre). ``reference_db`` and ``peaking_db`` (peak above the reference)
+    always.
     """
     if circuit.kind == "bandpass":
         peak_f, peak2 = peak(coeffs, resp)  # the reference: refined off the grid
@@ -184,8 +189,7 @@ def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Resp
     else:
         lower = _half_crossing(resp, coeffs, level2, peak_f, below=True)
         upper = _half_crossing(resp, coeffs, level2, peak_f, below=False)
-        out.update(centre_hz=peak_f, lower_hz=lower, upper_hz=upper, bandwidth_hz=upper - lower,
-                   cutoff_hz=peak_f)
+        out.update(centre_hz=np.sqrt(lower * upper), lower_hz=lower, upper_hz=upper, bandwidth_hz=upper - lower)
     return out
 
 

@@ -308,8 +308,8 @@ class _Evaluator:
         if names:
             failing = [n for j, n in enumerate(names) if np.any(ens.margins[:, j] < 0)]
             names = failing or names
-        elif "cutoff_hz" in ens.metrics:
-            names = ["cutoff_hz"]
+        else:
+            names = [n for n in ("cutoff_hz", "centre_hz") if n in ens.metrics][:1]
         refs = [p.ref for p in self.design.parts]
         total = np.zeros(len(refs))
         if names:

@@ -54,8 +54,8 @@ METRIC_LABELS = {
     "cutoff_hz": "cutoff (Hz)",
     "centre_hz": "centre (Hz)",
     "bandwidth_hz": "bandwidth (Hz)",
-    "lower_hz": "lower edge (Hz)",
-    "upper_hz": "upper edge (Hz)",
+    "lower_hz": "lower band edge (Hz)",
+    "upper_hz": "upper band edge (Hz)",
     "reference_db": "passband gain (dB)",
     "peaking_db": "peaking (dB)",
 }

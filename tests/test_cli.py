@@ -492,3 +492,31 @@ def test_budget_lines_add_to_100_percent_and_match_json(tmp_path):
     top = doc["budget"]["cutoff_hz"]["parts"][0]
     assert f"{top['ref']} {100 * top['share']:.1f} %" in cutoff or \
         abs(float(re.search(rf"{top['ref']} ([\d.]+) %", cutoff)[1]) - 100 * top["share"]) <= 0.1
+
+
+def test_wide_bandpass_has_a_stable_centre_from_its_band_edges(tmp_path):
+    # issue 10: a Butterworth band-pass, centre 10 kHz, 30 kHz wide. The centre is the
+    # geometric mean of the band edges (scipy.signal.lp2bp places the edges symmetric about
+    # it on a log scale: f_lo f_hi = f0^2, from memory), so its spread follows the edges'.
+    d = tmp_path / "wide.json"
+    made = cli("design", "--response", "butterworth", "--order", "4", "--kind", "bandpass", "--cutoff", "10k",
+               "--bandwidth", "30k", "--accept-error", "-o", str(d))
+    assert made.returncode == 0, made.stderr
+    js = tmp_path / "r.json"
+    proc = cli("analyze", str(d), "--samples", "2000", "--json", str(js))
+    assert proc.returncode == 0, proc.stderr
+    m = json.loads(js.read_text())["metrics"]
+    assert "cutoff_hz" not in m
+    c, lo, hi = m["centre_hz"], m["lower_hz"], m["upper_hz"]
+    assert c["nominal"] == pytest.approx(math.sqrt(lo["nominal"] * hi["nominal"]), rel=1e-12)
+    assert c["nominal"] == pytest.approx(10e3, rel=0.03)  # design target, within snapping
+    rel = lambda s: s["std"] / s["mean"]  # noqa: E731
+    assert rel(c) <= max(rel(lo), rel(hi))  # no longer 53.7 % from a flat top's wandering peak
+    assert c["min"] > lo["max"] and c["max"] < hi["min"]
+    text = proc.stdout
+    for label, key in (("centre (Hz)", "centre_hz"), ("lower band edge (Hz)", "lower_hz"),
+                       ("upper band edge (Hz)", "upper_hz")):
+        row = next(r for r in text.splitlines() if r.strip().startswith(label))
+        from filters.values import format_value
+        assert format_value(m[key]["nominal"], "Hz", digits=4) in row
+    assert "cutoff (Hz)" not in text

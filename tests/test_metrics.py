@@ -336,3 +336,13 @@ def test_stage_coefficients_container_roundtrip():
     num, den = sc.unscaled()
     np.testing.assert_allclose(den[0, 1] / den[0, 0], 2.0 / 1e4, rtol=1e-15)
     np.testing.assert_allclose(num[0, 0] / den[0, 0], 1.0, rtol=1e-15)
+
+
+def test_bandpass_centre_is_the_geometric_mean_of_the_edges_and_no_cutoff():
+    # [TEXT] a second-order band-pass has f_lo f_hi = f_m^2, so the geometric mean of the
+    # refined -3 dB edges is [SLOA049]'s f_m to the crossings' precision, on any grid
+    for points in (37, 50, 400):
+        m = evaluate(bandpass_design(points=points), samples=1).nominal.metrics
+        assert "cutoff_hz" not in m  # one centre, no duplicate under another name
+        np.testing.assert_allclose(m["centre_hz"], math.sqrt(m["lower_hz"] * m["upper_hz"]), rtol=1e-12)
+        np.testing.assert_allclose(m["centre_hz"], FM, rtol=1e-8)
