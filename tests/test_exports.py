@@ -6,10 +6,8 @@ ImageMagick where installed.
 from __future__ import annotations
 
 import csv
-import os
 import shutil
 import subprocess
-import sys
 from pathlib import Path
 
 import pytest
@@ -84,3 +82,35 @@ def test_parts_csv_series_bom_formulas_and_plain_metric(tmp_path):
     metric = by_ref["R1"]["budget metric"]
     assert metric and not metric.startswith("margin.") and "_" not in metric
     assert all(r["share of spread budget (%)"] != "" for r in back)
+
+
+# --- README names the system libraries the window needs (issue 10 #27) -------------------------
+
+def _debian_package(soname: str) -> str:
+    """Debian's package name of a shared library (Debian policy 8.1, from memory): the
+    library name, then the soname version, with a dash when the name ends in a digit;
+    libxcb-cursor.so.0 -> libxcb-cursor0, libxkbcommon-x11.so.0 -> libxkbcommon-x11-0."""
+    name, _, version = soname.partition(".so.")
+    version = version.split(".")[0]
+    name = name.lower()
+    return f"{name}-{version}" if name[-1].isdigit() else f"{name}{version}"
+
+
+def test_readme_names_every_xcb_library_qt_links():
+    pyside = pytest.importorskip("PySide6")
+    if not shutil.which("ldd"):
+        pytest.skip("ldd not available")
+    plugin = Path(pyside.__file__).parent / "Qt" / "plugins" / "platforms" / "libqxcb.so"
+    if not plugin.exists():
+        pytest.skip("this PySide6 has no xcb plugin")
+    libs = Path(pyside.__file__).parent / "Qt" / "lib"
+    out = subprocess.run(["ldd", str(plugin), str(libs / "libQt6XcbQpa.so.6"), str(libs / "libQt6Gui.so.6")],
+                         capture_output=True, text=True).stdout
+    sonames = {line.split()[0] for line in out.splitlines() if "=>" in line}
+    wanted = {_debian_package(s) for s in sonames
+              if s.startswith(("libxcb-", "libxkbcommon-x11", "libEGL", "libGL.", "libfontconfig", "libdbus"))}
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    block = readme[readme.index("apt-get install"):]
+    block = block[:block.index("```")]
+    listed = set(block.replace("\\", " ").split())
+    assert wanted and wanted <= listed, sorted(wanted - listed)
