@@ -6,8 +6,10 @@ ImageMagick where installed.
 from __future__ import annotations
 
 import csv
+import os
 import shutil
 import subprocess
+import sys
 from pathlib import Path
 
 import pytest
@@ -114,3 +116,36 @@ def test_readme_names_every_xcb_library_qt_links():
     block = block[:block.index("```")]
     listed = set(block.replace("\\", " ").split())
     assert wanted and wanted <= listed, sorted(wanted - listed)
+
+
+# --- the command line's files: report agrees with the terminal, files get the user's mode ----------
+
+def _tolspread() -> list[str]:
+    beside = Path(sys.executable).with_name("tolspread")
+    return [str(beside)] if beside.exists() else [shutil.which("tolspread") or "tolspread"]
+
+
+def test_recommend_report_agrees_with_the_terminal_and_files_are_not_private(tmp_path):
+    # issue 10 #15 (current grades, both costs, no unlabelled column) and #25 (file modes)
+    import html as html_mod
+    import re
+
+    csv_path, rep_path, json_path, rep2 = (tmp_path / n for n in ("p.csv", "r.html", "a.json", "a.html"))
+    umask = lambda: os.umask(0o022)  # noqa: E731 - the common default (from memory)
+    run = subprocess.run(_tolspread() + ["recommend", "--target-yield", "0.9", "--samples", "400",
+                                         "--csv", str(csv_path), "--report", str(rep_path)],
+                         capture_output=True, text=True, timeout=600, preexec_fn=umask, cwd=tmp_path)
+    assert run.returncode == 0, run.stderr
+    subprocess.run(_tolspread() + ["analyze", "--samples", "300", "--json", str(json_path), "--report", str(rep2)],
+                   capture_output=True, text=True, timeout=600, preexec_fn=umask, cwd=tmp_path, check=True)
+    for p in (csv_path, rep_path, json_path, rep2):  # the mode the umask gives, as PNG and PDF get
+        assert (p.stat().st_mode & 0o777) == 0o644, (p.name, oct(p.stat().st_mode))
+    m = re.search(r"total relative cost ([\d.]+) \(current grades ([\d.]+)\)", run.stdout)
+    assert m, run.stdout
+    doc = rep_path.read_text(encoding="utf-8")
+    text = html_mod.unescape(re.sub(r"<[^>]+>", "", doc))
+    assert f"recommended grades {m.group(1)}, current grades {m.group(2)}" in text
+    rows = re.findall(r"<tr><td>(R\d|C\d)</td><td>([^<]+)</td>", doc[doc.index('id="recommendation"'):])
+    design = load_demo()
+    assert [g for _, g in rows[:len(design.parts)]] == [p.grade for p in design.parts]
+    assert "<th></th>" not in doc
