@@ -344,10 +344,32 @@ def _refusal(index: int, topology: str, f0_hz: float, q: float | None, kind: str
         return InputError(
             f"{where} would spread its values {spread:,.0f} : 1, more than {_RANGE_WORDS} hold: "
             "lower the order (or the ripple), or use the other topology", "order")
+    lo, hi = _f0_window(topology, q, cap_series, gain)
+    span = (f"such a section from about {_hz(lo)} to {_hz(hi)}" if lo <= hi
+            else f"sections from about {_hz(1 / (TWO_PI * R_MAX * C_MAX))} to {_hz(1 / (TWO_PI * R_MIN * C_MIN))}")
     return InputError(
-        f"{where} cannot be built from {_RANGE_WORDS} at any impedance level; these ranges hold "
-        f"sections from about {_hz(1 / (TWO_PI * R_MAX * C_MAX))} to {_hz(1 / (TWO_PI * R_MIN * C_MIN))}",
+        f"{where} cannot be built from {_RANGE_WORDS} at any impedance level; these ranges hold {span}",
         "cutoff_hz")
+
+
+def _f0_window(topology: str, q: float | None, cap_series: str, gain: float) -> tuple[float, float]:
+    """The f0 range (Hz) over which some level keeps a section of this Q in range.
+
+    Resistors scale as 1/f0 at a fixed level (the capacitors do not change), so each
+    level allows f0 from max(R at 1 Hz)/R_MAX to min(R at 1 Hz)/R_MIN; the union over
+    levels is returned (lo > hi: none)."""
+    lo, hi = math.inf, 0.0
+    for level in series_values(cap_series, C_MIN, C_MAX):
+        caps = _cap_sets(topology, q, float(level), cap_series)[0]
+        if max(caps.values()) > C_MAX * (1 + 1e-9):
+            continue
+        rs = _resistors(topology, 1.0, q, caps, gain)
+        r_low = {r: (R_SHUNT_MIN if (topology, r) == ("mfb_bandpass", "R2") else R_MIN) for r in rs}
+        f_lo = max(v / R_MAX for v in rs.values())
+        f_hi = min(v / r_low[r] for r, v in rs.items())
+        if f_lo <= f_hi:
+            lo, hi = min(lo, f_lo), max(hi, f_hi)
+    return lo, hi
 
 
 def _stage_options(topology: str) -> dict[str, Any]:
