@@ -9,6 +9,16 @@ from __future__ import annotations
 import math
 
 
+def one_line(text: str, limit: int) -> str:
+    """``text`` as part of a one-line message: line breaks and other control characters
+    written as escapes (a name holding "\\n" from a file), at most ``limit`` characters
+    (the middle of a longer text replaced by "...")."""
+    text = str(text)
+    if not text.isprintable():
+        text = "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii") for c in text)
+    return text if len(text) <= limit else f"{text[:limit - 40]}...{text[-37:]}"
+
+
 class TolspreadError(Exception):
     """Base of every error this project raises on purpose."""
 
@@ -17,9 +27,9 @@ class InputError(TolspreadError, ValueError):
     """One bad input: ``path`` names the field, ``reason`` says what is wrong."""
 
     def __init__(self, reason: str, path: str = "") -> None:
-        self.reason = reason
-        self.path = path
-        super().__init__(f"{path}: {reason}" if path else reason)
+        self.reason = one_line(reason, 1000)
+        self.path = one_line(path, 200)
+        super().__init__(f"{self.path}: {self.reason}" if self.path else self.reason)
 
     def at(self, prefix: str) -> "InputError":
         """The same problem with ``prefix`` put in front of its path."""
