@@ -25,7 +25,6 @@ import os
 import stat
 import subprocess
 import sys
-import tempfile
 import traceback
 from collections import Counter
 from pathlib import Path
@@ -40,6 +39,7 @@ from filters.designfile import demo_text, dumps, load, loads, save
 from filters.errors import InputError, ValidationError
 from filters.evaluate import evaluate
 from filters.grades import Catalog, builtin_catalog, load_catalog
+from test_properties import _get, _paths  # JSON paths of a document (shared helpers)
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = {
@@ -92,23 +92,6 @@ def grade_dicts(draw, name: str, kind: str | None = None):
     return g
 
 
-def _leaves(doc, path=()):
-    """Every (path, value) in a JSON document, containers included."""
-    yield path, doc
-    if isinstance(doc, dict):
-        for k, v in doc.items():
-            yield from _leaves(v, path + (k,))
-    elif isinstance(doc, list):
-        for i, v in enumerate(doc):
-            yield from _leaves(v, path + (i,))
-
-
-def _get(doc, path):
-    for k in path:
-        doc = doc[k]
-    return doc
-
-
 @st.composite
 def nearly_valid_designs(draw):
     """The demo or the ultrasonic example after 1-3 edits: a field set to a nasty or random
@@ -117,9 +100,9 @@ def nearly_valid_designs(draw):
     doc = copy.deepcopy(draw(st.sampled_from([DEMO, EXAMPLE])))
     for _ in range(draw(st.integers(1, 2))):
         op = draw(st.sampled_from(["scale", "scale", "set", "delete", "grade", "grade", "span", "span"]))
-        paths = [p for p, _ in _leaves(doc) if p]
+        paths = [p for p, _ in _tree(doc) if p]
         if op == "scale":  # a number moved by a factor: mostly still valid, sometimes at a limit
-            numbers = [p for p, v in _leaves(doc)
+            numbers = [p for p, v in _tree(doc)
                        if p and p != ("version",) and isinstance(v, (int, float)) and not isinstance(v, bool)]
             if numbers:
                 path = draw(st.sampled_from(numbers))
@@ -161,6 +144,11 @@ def nearly_valid_designs(draw):
     return json.dumps(doc)  # NaN and Infinity appear as JSON allows them in Python
 
 
+def _tree(doc):
+    """Every (path, value) pair of a JSON document, containers included."""
+    return ((p, _get(doc, p)) for p in _paths(doc))
+
+
 def _check_error(exc: InputError) -> None:
     """[ERR] every problem has a one-line reason and a text path."""
     problems = exc.problems if isinstance(exc, ValidationError) else [exc]
@@ -182,12 +170,12 @@ def _library(fn, *args, **kwargs):
                     f"{traceback.format_exc()}")
 
 
-def test_nearly_valid_design_files_load_or_say_why_and_reload_identical():
+def test_nearly_valid_design_files_load_or_say_why_and_reload_identical(tmp_path):
     """[ERR] [RT] the fuzzed files load or raise InputError; a design that loads saves,
     reloads identical (value and text), and analyses or evaluates (50 boards) without an
     error or a warning."""
     seen: Counter = Counter()
-    folder = Path(tempfile.mkdtemp(prefix="tolspread-fuzz-"))
+    folder = tmp_path
     target = folder / "d.json"
 
     @_settings("design_files")
@@ -212,12 +200,7 @@ def test_nearly_valid_design_files_load_or_say_why_and_reload_identical():
         if not isinstance(result, InputError):
             seen["analysed"] += 1
 
-    try:
-        run()
-    finally:
-        for p in folder.iterdir():
-            p.unlink()
-        folder.rmdir()
+    run()
     assert seen["refused"] > 50 and seen["analysed"] > 100, seen  # both outcomes are exercised
 
 
@@ -242,7 +225,7 @@ def nearly_valid_catalogs(draw):
         elif op == "duplicate":
             grades.append(copy.deepcopy(grades[i]))
         else:
-            path = draw(st.sampled_from([p for p, _ in _leaves(doc)]))
+            path = draw(st.sampled_from([p for p, _ in _tree(doc)]))
             if path:
                 _get(doc, path[:-1])[path[-1]] = draw(nasty)
             else:
@@ -250,7 +233,7 @@ def nearly_valid_catalogs(draw):
     return json.dumps(doc)
 
 
-def test_nearly_valid_catalog_files_load_or_say_why_and_reload_identical():
+def test_nearly_valid_catalog_files_load_or_say_why_and_reload_identical(tmp_path):
     """[ERR] [RT] fuzzed catalog files load or raise InputError; a catalog that loads is
     written and reloads identical, and its cost sums and sampled values are finite."""
     import numpy as np
@@ -258,7 +241,7 @@ def test_nearly_valid_catalog_files_load_or_say_why_and_reload_identical():
     from filters.sampling import draw_scores, part_values
 
     seen: Counter = Counter()
-    folder = Path(tempfile.mkdtemp(prefix="tolspread-fuzzcat-"))
+    folder = tmp_path
     src, out = folder / "in.json", folder / "out.json"
     scores = draw_scores(1, 1, 0, 512)
 
@@ -279,12 +262,7 @@ def test_nearly_valid_catalog_files_load_or_say_why_and_reload_identical():
             values = part_values([1000.0], [g], scores)
             assert np.all(np.isfinite(values)) and np.all(values > 0), g
 
-    try:
-        run()
-    finally:
-        for p in folder.iterdir():
-            p.unlink()
-        folder.rmdir()
+    run()
     assert seen["refused"] > 30 and seen["loaded"] > 30, seen
 
 
@@ -365,11 +343,11 @@ def cli_argvs(draw, folder: Path):
     return argv
 
 
-def test_fuzzed_command_lines_end_in_success_or_one_line():
+def test_fuzzed_command_lines_end_in_success_or_one_line(tmp_path):
     """[ONE] analyze and design with fuzzed options, files and outputs: success or one line
     and exit 2; special files stay what they were."""
     seen: Counter = Counter()
-    folder = Path(tempfile.mkdtemp(prefix="tolspread-fuzzcli-"))
+    folder = tmp_path
     os.mkfifo(folder / "fifo")
     bad = json.loads(demo_text())
     bad["parts"][0]["value"] = "1e" + "5" * 5000
@@ -388,19 +366,14 @@ def test_fuzzed_command_lines_end_in_success_or_one_line():
         (folder / "out.json").unlink(missing_ok=True)
         (folder / "out.json.bak").unlink(missing_ok=True)
 
-    try:
-        run()
-    finally:
-        for p in sorted(folder.iterdir()):
-            p.unlink()
-        folder.rmdir()
+    run()
     assert seen[0] > 30 and seen[2] > 30, seen
 
 
-def test_fuzzed_files_through_the_installed_command():
+def test_fuzzed_files_through_the_installed_command(tmp_path):
     """[ONE] a few fuzzed design files through the real ``tolspread`` program (separate
     processes, run side by side): success or one line and exit 2, never a traceback."""
-    folder = Path(tempfile.mkdtemp(prefix="tolspread-fuzzproc-"))
+    folder = tmp_path
     texts: list[str] = []
 
     @settings(max_examples=SUBPROCESS_RUNS, deadline=None, database=None, derandomize=True)
@@ -410,20 +383,15 @@ def test_fuzzed_files_through_the_installed_command():
 
     collect()
     procs = []
-    try:
-        for i, text in enumerate(texts):
-            p = folder / f"f{i}.json"
-            p.write_text(text, encoding="utf-8")
-            procs.append(subprocess.Popen(
-                [sys.executable, "-W", "error", "-m", "app.cli", "analyze", str(p), "--samples", "50"],
-                stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT))
-        for proc in procs:
-            _, err = proc.communicate(timeout=300)
-            check_outcome(proc.args, proc.returncode, err)
-    finally:
-        for p in folder.iterdir():
-            p.unlink()
-        folder.rmdir()
+    for i, text in enumerate(texts):
+        p = folder / f"f{i}.json"
+        p.write_text(text, encoding="utf-8")
+        procs.append(subprocess.Popen(
+            [sys.executable, "-W", "error", "-m", "app.cli", "analyze", str(p), "--samples", "50"],
+            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT))
+    for proc in procs:
+        _, err = proc.communicate(timeout=300)
+        check_outcome(proc.args, proc.returncode, err)
 
 
 # --- issue 11 regressions, each through the command line ---------------------------------------
