@@ -7,6 +7,7 @@ between the bracketing grid points, so a cutoff does not depend on the grid dens
 from __future__ import annotations
 
 import math
+from typing import Callable
 
 import numpy as np
 
@@ -32,6 +33,28 @@ TWO_PI = 2 * math.pi
 ATTENUATION_FLOOR_DB = 200.0
 
 
+def _golden_max(coeffs: list[StageCoefficients], a: np.ndarray, b: np.ndarray, iterations: int,
+                to_hz: Callable[[np.ndarray], np.ndarray] | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Golden-section search for the maximum of |H|^2 in [a, b] per element (arrays (S,)
+    or (S, k)); ``to_hz`` maps the search variable to Hz (e.g. ``np.exp`` to search in log
+    frequency; default: a and b are in Hz). Returns (x, |H|^2 at x); assumes one maximum."""
+    hz = (lambda x: x) if to_hz is None else to_hz
+    ratio = (math.sqrt(5) - 1) / 2
+    c, d = b - ratio * (b - a), a + ratio * (b - a)
+    gc, gd = gain2_at(coeffs, hz(c)), gain2_at(coeffs, hz(d))
+    for _ in range(iterations):
+        left = gc > gd  # the maximum lies in [a, d], else in [c, b]
+        b = np.where(left, d, b)
+        a = np.where(left, a, c)
+        new_c = np.where(left, b - ratio * (b - a), d)
+        new_d = np.where(left, c, a + ratio * (b - a))
+        g_new = gain2_at(coeffs, hz(np.where(left, new_c, new_d)))
+        gc, gd = np.where(left, g_new, gd), np.where(left, gc, g_new)
+        c, d = new_c, new_d
+    x = 0.5 * (a + b)
+    return x, gain2_at(coeffs, hz(x))
+
+
 def peak(coeffs: list[StageCoefficients], resp: Response) -> tuple[np.ndarray, np.ndarray]:
     """Frequency (Hz) and |H|^2 of each sample's highest gain, refined off the grid.
 
@@ -51,21 +74,8 @@ def peak(coeffs: list[StageCoefficients], resp: Response) -> tuple[np.ndarray, n
     j = np.clip(i, 1, f.size - 2)
     lf = np.log(f)
     # golden-section search for the maximum between the grid neighbours of the top point
-    a, b = lf[j - 1], lf[j + 1]
-    ratio = (math.sqrt(5) - 1) / 2
-    c, d = b - ratio * (b - a), a + ratio * (b - a)
-    gc, gd = gain2_at(coeffs, np.exp(c)), gain2_at(coeffs, np.exp(d))
-    for _ in range(45):  # the bracket shrinks to 0.618^45 ~ 4e-10 of a grid step
-        left = gc > gd  # the maximum lies in [a, d], else in [c, b]
-        b = np.where(left, d, b)
-        a = np.where(left, a, c)
-        new_c = np.where(left, b - ratio * (b - a), d)
-        new_d = np.where(left, c, a + ratio * (b - a))
-        g_new = gain2_at(coeffs, np.exp(np.where(left, new_c, new_d)))
-        gc, gd = np.where(left, g_new, gd), np.where(left, gc, g_new)
-        c, d = new_c, new_d
-    xv = 0.5 * (a + b)
-    gv = gain2_at(coeffs, np.exp(xv))
+    # the bracket shrinks to 0.618^45 ~ 4e-10 of a grid step
+    xv, gv = _golden_max(coeffs, lf[j - 1], lf[j + 1], 45, np.exp)
     better = inner & (gv > best2)
     return np.where(better, np.exp(xv), best_f), np.where(better, gv, best2)
 
@@ -125,6 +135,58 @@ def _refine(coeffs: list[StageCoefficients], f_lo: np.ndarray, f_hi: np.ndarray,
     return np.exp(result)
 
 
+def _stage_poles(sc: StageCoefficients) -> np.ndarray:
+    """Roots (rad/s) of one stage's denominators, (S, n); complex, from the companion
+    matrix (degree 2 in closed form). Empty (S, 0) for first-order stages."""
+    den = sc.den
+    s_count, k = den.shape
+    n = k - 1
+    if n < 2:
+        return np.empty((s_count, 0), dtype=complex)
+    if n == 2:
+        a, b, c = den[:, 2], den[:, 1], den[:, 0]
+        disc = np.sqrt((b * b - 4 * a * c).astype(complex))
+        roots = np.stack([(-b + disc) / (2 * a), (-b - disc) / (2 * a)], axis=1)
+    else:
+        comp = np.zeros((s_count, n, n))
+        comp[:, 1:, :-1] = np.eye(n - 1)
+        comp[:, :, -1] = -den[:, :-1] / den[:, -1:]
+        roots = np.linalg.eigvals(comp)
+    return roots * sc.w_ref
+
+
+def pole_peaks(coeffs: list[StageCoefficients], f_min: float, f_max: float,
+               iterations: int = 40) -> tuple[np.ndarray, np.ndarray]:
+    """The local maximum of |H|^2 near each complex pole of each board: frequencies (Hz)
+    and |H|^2, both (S, m), NaN where a board has no such pole inside [f_min, f_max].
+
+    A pole p = -sigma + j w_d makes a resonance about |sigma| wide (rad/s) around w_d;
+    however narrow it is, its top lies in [w_d - |sigma|, w_d + |sigma|], searched here by
+    golden section on exact evaluations of H (vectorized over boards and poles). So a
+    resonance narrower than the grid spacing is still seen.
+    """
+    cols = [_stage_poles(sc) for sc in coeffs]
+    roots = np.concatenate(cols, axis=1) if cols else np.empty((0, 0), dtype=complex)
+    s_count = coeffs[0].den.shape[0] if coeffs else 0
+    if roots.size == 0:
+        return np.empty((s_count, 0)), np.empty((s_count, 0))
+    upper = roots.imag > 1e-9 * np.abs(roots)
+    centre = np.abs(roots.imag) / TWO_PI
+    half = np.abs(roots.real) / TWO_PI
+    a = np.maximum(centre - half, 0.5 * centre)
+    b = centre + half
+    use = upper & (b >= f_min) & (a <= f_max)
+    keep = np.flatnonzero(use.any(axis=0))
+    if keep.size == 0:
+        return np.full((s_count, 0), np.nan), np.full((s_count, 0), np.nan)
+    use, a, b = use[:, keep], a[:, keep], b[:, keep]
+    a = np.where(use, np.clip(a, f_min, f_max), f_min)
+    b = np.where(use, np.clip(b, f_min, f_max), f_max)
+    # the bracket shrinks to 0.618^40 ~ 5e-9 of the resonance width
+    fx, gx = _golden_max(coeffs, a, b, iterations)
+    return np.where(use, fx, np.nan), np.where(use, gx, np.nan)
+
+
 def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray,
              direction: str) -> np.ndarray:
     """Frequency (Hz) per sample where |H|^2 crosses ``level2`` (S,).
@@ -132,23 +194,41 @@ def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray
     ``direction="falling"``: the highest frequency above which the gain stays below the
     level (a low-pass edge); ``"rising"``: the lowest frequency below which it stays
     below (a high-pass edge). NaN where there is no crossing inside the grid.
+
+    The points looked at are the grid and, per board, the top of the resonance near each
+    complex pole (:func:`pole_peaks`), so a narrow resonance above the level past the
+    main corner counts whatever the grid: the edge is bracketed between the last point at
+    or above the level and the next grid point, and refined on exact |H|^2. A rise above
+    the level that is narrower than the grid spacing and not near a pole (between two
+    close zeros) could still be missed.
     """
     gdb = resp.gain_db
     f = resp.freqs_hz
     above = gdb >= _db(level2)[:, None]
     n = f.size
-    rows = np.arange(gdb.shape[0])
+    s_count = gdb.shape[0]
+    rows = np.arange(s_count)
+    pf, pg = pole_peaks(coeffs, float(f[0]), float(f[-1]))
+    pole_above = np.isfinite(pf) & (pg >= level2[:, None])
     if direction == "falling":
-        last = n - 1 - np.argmax(above[:, ::-1], axis=1)  # last index at or above the level
-        ok = above[rows, last] & (last < n - 1)
-        i = np.minimum(last, n - 2)
-        lo, hi = f[i], f[i + 1]
+        last = n - 1 - np.argmax(above[:, ::-1], axis=1)  # last grid index at or above the level
+        grid_ok = above[rows, last]
+        f_grid = np.where(grid_ok, f[last], -np.inf)
+        f_pole = np.max(np.where(pole_above, pf, -np.inf), axis=1, initial=-np.inf)
+        lo = np.maximum(f_grid, f_pole)
+        ok = np.isfinite(lo) & ~(grid_ok & (last == n - 1))
+        nxt = np.minimum(np.searchsorted(f, np.where(ok, lo, f[0]), side="right"), n - 1)
+        hi = f[nxt]
     else:
         first = np.argmax(above, axis=1)
-        ok = above[rows, first] & (first > 0)
-        i = np.maximum(first, 1)
-        lo, hi = f[i - 1], f[i]
-    out = np.full(gdb.shape[0], np.nan)
+        grid_ok = above[rows, first]
+        f_grid = np.where(grid_ok, f[first], np.inf)
+        f_pole = np.min(np.where(pole_above, pf, np.inf), axis=1, initial=np.inf)
+        hi = np.minimum(f_grid, f_pole)
+        ok = np.isfinite(hi) & ~(grid_ok & (first == 0))
+        prev = np.maximum(np.searchsorted(f, np.where(ok, hi, f[-1]), side="left") - 1, 0)
+        lo = f[prev]
+    out = np.full(s_count, np.nan)
     if ok.any():
         sub = [StageCoefficients(c.num[ok], c.den[ok], c.w_ref) for c in coeffs]
         out[ok] = _refine(sub, lo[ok], hi[ok], level2[ok])

@@ -346,3 +346,62 @@ def test_bandpass_centre_is_the_geometric_mean_of_the_edges_and_no_cutoff():
         assert "cutoff_hz" not in m  # one centre, no duplicate under another name
         np.testing.assert_allclose(m["centre_hz"], math.sqrt(m["lower_hz"] * m["upper_hz"]), rtol=1e-12)
         np.testing.assert_allclose(m["centre_hz"], FM, rtol=1e-8)
+
+
+# --- a cutoff that does not depend on the grid (issue 10, defect 21) -------------------------
+# An LC ladder RS - shunt C1 - series L2 - shunt C3 - load RL whose L2-C3 resonance, lightly
+# damped by a large RL, pokes just above the -3 dB level far past the main RS-C1 corner
+# (about 0.3 % wide: narrower than any grid spacing used below). The cutoff is defined as
+# the highest frequency above which the gain stays below the level, so it is the upper
+# edge of that resonance on every grid.
+LADDER = {"RS": 1e3, "C1": 4e-7, "L2": 1.22, "C3": 1.22e-12, "RL": 3e8}
+
+
+def ladder_ba(v):
+    """[CHAIN] H(s) = RL / (A RL + B) of the ladder's ABCD chain, as polynomials in s
+    (descending powers, numpy convention), derived here independently of the library."""
+    a0, b0, c0 = np.array([v["RS"] * v["C1"], 1.0]), np.array([v["RS"]]), np.array([v["C1"], 0.0])
+    a1 = a0
+    b1 = np.polyadd(np.polymul(a0, [v["L2"], 0.0]), b0)
+    a2 = np.polyadd(a1, np.polymul(b1, [v["C3"], 0.0]))
+    del c0  # C and D of the chain do not enter the output voltage into RL
+    return np.array([v["RL"]]), np.polyadd(a2 * v["RL"], b1)
+
+
+def ladder_cutoff_reference(v, cutoff_db):
+    """The last -cutoff_db crossing by scipy.signal.freqs on a dense grid, refined by brentq."""
+    import scipy.optimize
+
+    b, a = ladder_ba(v)
+    f = np.geomspace(10, 1e6, 2_000_001)
+    _, h = scipy.signal.freqs(b, a, worN=2 * math.pi * f)
+    dc2 = (b[-1] / a[-1]) ** 2
+    level2 = dc2 * 10 ** (-cutoff_db / 10)
+    g2 = np.abs(h) ** 2
+    i = np.flatnonzero(g2 >= level2)[-1]
+
+    def excess(x):
+        return abs(scipy.signal.freqs(b, a, worN=[2 * math.pi * x])[1][0]) ** 2 / level2 - 1
+
+    return scipy.optimize.brentq(excess, f[i], f[i + 1], xtol=1e-9, rtol=1e-14), f, g2, level2
+
+
+def ladder_design(points):
+    return design_from_dict({
+        "format": "tolspread-design", "version": 1,
+        "parts": [{"ref": r, "value": x, "grade": "EXACT"} for r, x in LADDER.items()],
+        "stages": [{"topology": "lc_lowpass", "options": {"order": 3, "first": "shunt"},
+                    "parts": {r: r for r in LADDER}}],
+        "analysis": {"f_start": 10, "f_stop": 1e6, "points": points}})
+
+
+def test_cutoff_of_a_ladder_with_a_narrow_resonance_does_not_depend_on_the_grid():
+    ref, f, g2, level2 = ladder_cutoff_reference(LADDER, ladder_design(50).analysis.cutoff_db)
+    above = g2 >= level2
+    main = f[np.argmax(~above)]  # the first fall below the level: the main corner
+    assert main < 1e3 and ref > 100 * main  # the resonance is the highest crossing
+    width = np.count_nonzero(above[f > 10 * main]) * math.log(f[1] / f[0])
+    assert width < math.log(1e5) / 3000  # narrower than the spacing of every grid below
+    for points in (30, 40, 50, 60, 400, 1000, 3000):
+        got = evaluate(ladder_design(points), samples=1).nominal.metrics["cutoff_hz"]
+        assert got == pytest.approx(ref, rel=1e-9), points
