@@ -520,3 +520,28 @@ def test_wide_bandpass_has_a_stable_centre_from_its_band_edges(tmp_path):
         from filters.values import format_value
         assert format_value(m[key]["nominal"], "Hz", digits=4) in row
     assert "cutoff (Hz)" not in text
+
+
+def test_recommend_table_aligns_and_agrees_with_the_parts_csv(tmp_path):
+    import csv
+
+    out_csv = tmp_path / "parts.csv"
+    proc = cli("recommend", "--target-yield", "90%", "--samples", "400", "--csv", str(out_csv))
+    assert proc.returncode == 0, proc.stderr
+    block = _block(proc.stdout, "part ")
+    header = block[0]
+    col = header.index("recommended")
+    rows = {r.split()[0]: r for r in block[1:]}
+    with open(out_csv, encoding="utf-8-sig", newline="") as fh:
+        parts = list(csv.DictReader(fh))
+    assert [p["ref"] for p in parts] == list(rows)
+    for p in parts:  # the grade bought is the one the terminal recommends, in its column
+        assert rows[p["ref"]][col:].split()[0] == p["grade"]
+    total = math.fsum(float(p["relative cost"]) for p in parts)
+    assert f"total relative cost {total:.2f}" in proc.stdout
+    # the current cost is the design's own grades (demo: 4 resistors R-thick-1, 4 capacitors
+    # C-C0G-5, priced from the built-in catalog)
+    cat = {g["name"]: g["cost"] for g in json.loads(
+        (Path(__file__).parents[1] / "filters" / "data" / "catalog.json").read_text())["grades"]}
+    current = math.fsum(cat[p.grade] for p in load_demo().parts)
+    assert f"(current grades {current:.2f})" in proc.stdout
