@@ -24,7 +24,7 @@ from typing import Any, Callable, Sequence
 import numpy as np
 from scipy import optimize, signal
 
-from .design import Design, Part, Stage, design_from_dict
+from .design import Analysis, Design, Part, Stage, design_from_dict
 from .engine import compile_design, dc_gain2, gain2_at, hf_gain2, stage_coefficients
 from .errors import InputError
 from .evaluate import prepare
@@ -190,6 +190,7 @@ C_LEVEL_1KHZ = 10e-9           # F: preferred impedance level, 10 nF at 1 kHz, s
 LEVELS_TRIED = 6               # impedance levels (capacitor values) tried per section when snapping
 NEIGHBOURS = 2                 # series values tried on each side of every exact resistor
 F0_WEIGHT = 2.0                # cost weight of f0 against Q: w = max(2.5, F0_WEIGHT Q)
+KEPT = 8                       # candidates per section kept for the joint refinement
 R_SHUNT_MIN = 100.0            # ohm: the multiple-feedback band-pass's shunt resistor R2 may go this low
 _RANGE_WORDS = "resistors of 1 kohm to 1 Mohm and capacitors of 100 pF to 1 uF"
 _ROLES = {
@@ -377,14 +378,20 @@ def _stage_options(topology: str) -> dict[str, Any]:
             else {"gain": "unity"} if topology.startswith("sallen_key") else {})
 
 
+def _section_coeffs(topology: str, roles: Sequence[str], vals: np.ndarray):
+    """The engine's (circuit, coefficients) of one section for every row of ``vals``
+    (rows, roles): one batch, no loop over rows."""
+    d = Design(tuple(Part(r, r[0], float(vals[0, j]), "EXACT") for j, r in enumerate(roles)),
+               (Stage(topology, {r: r for r in roles}, _stage_options(topology), "section"),))
+    circuit = compile_design(d)
+    return circuit, stage_coefficients(circuit, vals)
+
+
 def _section_fq(topology: str, roles: Sequence[str], vals: np.ndarray
                 ) -> tuple[np.ndarray, np.ndarray | None, np.ndarray]:
     """f0 (Hz), Q (None for first order) and passband |H|^2 of one section for every row
     of ``vals`` (rows, roles), from the project's engine (one batch, no loop over rows)."""
-    d = Design(tuple(Part(r, r[0], float(vals[0, j]), "EXACT") for j, r in enumerate(roles)),
-               (Stage(topology, {r: r for r in roles}, _stage_options(topology), "section"),))
-    circuit = compile_design(d)
-    coeffs = stage_coefficients(circuit, vals)
+    circuit, coeffs = _section_coeffs(topology, roles, vals)
     m = stage_metrics(circuit, coeffs)
     if "s1.fc_hz" in m:
         return m["s1.fc_hz"], None, np.ones(vals.shape[0])
@@ -392,10 +399,10 @@ def _section_fq(topology: str, roles: Sequence[str], vals: np.ndarray
     return m["s1.f0_hz"], m["s1.q"], g2
 
 
-def choose_values(index: int, topology: str, f0_hz: float, q: float | None, kind: str,
-                  series: str = "E24", cap_series: str = "E12", gain: float = 1.0,
-                  snap: bool = True) -> tuple[dict[str, float], dict[str, float]]:
-    """(exact, chosen) part values (ohm, F) by role for section ``index`` (from 1).
+def section_choices(index: int, topology: str, f0_hz: float, q: float | None, kind: str,
+                    series: str = "E24", cap_series: str = "E12", gain: float = 1.0,
+                    snap: bool = True) -> list[SectionChoice]:
+    """Candidate part values for section ``index`` (from 1), best first (at most :data:`KEPT`).
 
     Impedance level: every capacitor value of ``cap_series`` within 100 pF..1 uF is tried
     as the level capacitor; the levels whose exact values (resistors solved, see
@@ -410,8 +417,9 @@ def choose_values(index: int, topology: str, f0_hz: float, q: float | None, kind
     the combination in range with the smallest cost
     (w ln(f0/f0t))^2 + (ln(Q/Qt))^2 + (ln |gain/gain_t|)^2, w = max(2.5, 2 Q), is chosen
     (the weight: a 1 % f0 error moves the response Q times as far as a 1 % Q error, in
-    units of the section's bandwidth). ``exact`` has the chosen capacitors with exact
-    resistors. Without ``snap`` both are the exact values at the nearest level.
+    units of the section's bandwidth); the :data:`KEPT` cheapest are returned for
+    :func:`_refine_jointly`. Without ``snap``: one choice, the exact values at the
+    nearest level.
     """
     pref = _preferred_level(topology, f0_hz, q)
     feasible: list[tuple[float, dict[str, float]]] = []
@@ -425,7 +433,7 @@ def choose_values(index: int, topology: str, f0_hz: float, q: float | None, kind
         raise _refusal(index, topology, f0_hz, q, kind, cap_series, gain)
     feasible.sort(key=lambda t: t[0])
     if not snap:
-        return feasible[0][1], feasible[0][1]
+        return [SectionChoice(feasible[0][1], feasible[0][1], f0_hz, q)]
     roles = _ROLES[topology]
     r_roles = [r for r in roles if r.startswith("R")]
     blocks, exacts, dist = [], [], []
@@ -451,9 +459,124 @@ def choose_values(index: int, topology: str, f0_hz: float, q: float | None, kind
     if qq is not None:
         cost = cost + np.log(np.abs(qq) / q) ** 2
     cost = np.where(np.isfinite(cost), cost, np.inf)
-    best = int(np.argmin(cost))
-    exact = feasible[:2 * LEVELS_TRIED][int(which[best])][1]
-    return exact, {r: float(cand[best, j]) for j, r in enumerate(roles)}
+    order = np.argsort(cost, kind="stable")[:KEPT]
+    order = order[np.isfinite(cost[order])] if np.isfinite(cost[order[0]]) else order[:1]
+    levels = feasible[:2 * LEVELS_TRIED]
+    return [SectionChoice(levels[int(which[i])][1], {r: float(cand[i, j]) for j, r in enumerate(roles)},
+                          float(f0[i]), None if qq is None else float(qq[i])) for i in order]
+
+
+def choose_values(index: int, topology: str, f0_hz: float, q: float | None, kind: str,
+                  series: str = "E24", cap_series: str = "E12", gain: float = 1.0,
+                  snap: bool = True) -> tuple[dict[str, float], dict[str, float]]:
+    """(exact, chosen) part values (ohm, F) by role for section ``index`` (from 1): the
+    best of :func:`section_choices` (see there)."""
+    best = section_choices(index, topology, f0_hz, q, kind, series, cap_series, gain, snap)[0]
+    return best.exact, best.values
+
+
+def _cross(rel: np.ndarray, f: np.ndarray, level: float, rising: bool) -> np.ndarray:
+    """Per row of ``rel`` (rows, F) in dB on ascending ``f`` (Hz): where it crosses
+    ``level`` (rising: the first crossing from below; else the last from above), by
+    log-linear interpolation; clipped to the window's ends."""
+    mask = rel >= level
+    n = f.size
+    j = np.argmax(mask, axis=1) - 1 if rising else n - 1 - np.argmax(mask[:, ::-1], axis=1)
+    a = np.clip(j, 0, n - 2)
+    rows = np.arange(rel.shape[0])
+    ya, yb = rel[rows, a], rel[rows, a + 1]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = np.clip(np.nan_to_num((level - ya) / (yb - ya)), 0.0, 1.0)
+    lf = np.log(f)
+    return np.exp(lf[a] + t * (lf[a + 1] - lf[a]))
+
+
+def _refine_jointly(stages: list[dict[str, Any]], choices: list[list["SectionChoice"]],
+                    ideal: "IdealResponse", limits: "ErrorLimits", fc: float, bw: float | None,
+                    passes: int = 4) -> list[int]:
+    """Which candidate of every section to build: coordinate descent over the sections,
+    starting from each section's own best, on the whole cascade's worst error relative to
+    its limit (cutoff or centre and bandwidth from interpolated crossings, passband shape
+    and ripple against ``ideal``, each section's own f0 and Q error). Responses come from
+    the engine on one frequency grid per section candidate; each step evaluates one
+    section's candidates together (no loop over candidates). Per-section choices alone let
+    every section err the same way (a Bessel order 6 cutoff 2 % low)."""
+    n = len(stages)
+    if all(len(c) == 1 for c in choices):
+        return [0] * n
+    kind, level = ideal.kind, -ideal.cutoff_db
+    pas = ideal.passband[::8]
+    if kind == "lowpass":
+        ref_f, windows = np.array([fc * 1e-3]), [np.geomspace(0.7 * fc, 1.4 * fc, 161)]
+    elif kind == "highpass":
+        ref_f, windows = np.array([fc * 1e3]), [np.geomspace(fc / 1.4, fc / 0.7, 161)]
+    else:
+        assert bw is not None
+        lo, hi = omega_edges(fc, bw, 1.0)
+        ref_f = np.empty(0)
+        windows = [np.geomspace(lo / 1.1, lo * 1.1, 161), np.geomspace(hi / 1.1, hi * 1.1, 161)]
+    f = np.concatenate([ref_f, pas, *windows])
+    sl_pas = slice(ref_f.size, ref_f.size + pas.size)
+    sl_win = [slice(ref_f.size + pas.size + k * 161, ref_f.size + pas.size + (k + 1) * 161)
+              for k in range(len(windows))]
+    sec_db, sec_err = [], []
+    for st, cs in zip(stages, choices):
+        roles = _ROLES[st["topology"]]
+        _, coeffs = _section_coeffs(st["topology"], roles, np.array([[c.values[r] for r in roles] for c in cs]))
+        g2 = gain2_at(coeffs, np.broadcast_to(f, (len(cs), f.size)))
+        sec_db.append(10 * np.log10(np.maximum(g2, 1e-300)))
+        f0t, qt = st["target"]
+        sec_err.append(np.array([max(abs(c.f0_hz / f0t - 1) / limits.cutoff,
+                                     0.0 if qt is None or c.q is None else abs(c.q / qt - 1) / limits.q)
+                                 for c in cs]))
+    ideal_db = 10 * np.log10(np.maximum(ideal.g2(f), 1e-300) / ideal.ref2)
+    c_ideal, b_ideal = ideal.cutoff()
+
+    def objective(total: np.ndarray, sec_worst: np.ndarray) -> np.ndarray:
+        ref = np.max(total[:, ref_f.size:], axis=1) if kind == "bandpass" else total[:, 0]
+        rel = total - ref[:, None]
+        p = rel[:, sl_pas]
+        terms = [np.max(np.abs(p - ideal_db[sl_pas]), axis=1) / limits.gain_db,
+                 np.abs(np.ptp(p, axis=1) - np.ptp(ideal_db[sl_pas])) / limits.gain_db, sec_worst]
+        if kind == "bandpass":
+            lower = _cross(rel[:, sl_win[0]], windows[0], level, rising=True)
+            upper = _cross(rel[:, sl_win[1]], windows[1], level, rising=False)
+            terms += [np.abs(np.sqrt(lower * upper) / c_ideal - 1) / limits.cutoff,
+                      np.abs((upper - lower) / b_ideal - 1) / limits.bandwidth]  # type: ignore[operator]
+        else:
+            c = _cross(rel[:, sl_win[0]], windows[0], level, rising=kind == "highpass")
+            terms += [np.abs(c / c_ideal - 1) / limits.cutoff, np.abs(ref) / limits.gain_db]
+        t = np.stack(terms)
+        return np.max(t, axis=0) + 1e-3 * np.sum(t * t, axis=0)
+
+    choice = [0] * n
+    total = np.sum([d[0] for d in sec_db], axis=0)
+    best = float(objective(total[None, :], np.array([max(e[0] for e in sec_err)]))[0])
+    for _ in range(passes):
+        improved = False
+        for i in range(n):
+            if len(choices[i]) == 1:
+                continue
+            rows = (total - sec_db[i][choice[i]])[None, :] + sec_db[i]
+            others = max([sec_err[j][choice[j]] for j in range(n) if j != i], default=0.0)
+            o = objective(rows, np.maximum(others, sec_err[i]))
+            k = int(np.argmin(o))
+            if o[k] < best - 1e-12:
+                choice[i], total, best, improved = k, rows[k], float(o[k]), True
+        if not improved:
+            break
+    return choice
+
+
+@dataclass(frozen=True)
+class SectionChoice:
+    """One candidate for a section: ``exact`` values (the chosen capacitors, exact
+    resistors), the snapped ``values`` (ohm, F, by role), and their f0 (Hz) and Q."""
+
+    exact: dict[str, float]
+    values: dict[str, float]
+    f0_hz: float
+    q: float | None
 
 
 # --- results ---------------------------------------------------------------------------
@@ -848,6 +971,7 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     # Stages: values in the practical range, snapped to keep f0 and Q (choose_values).
     stages: list[dict[str, Any]] = []
     refusals: list[tuple[float, InputError]] = []
+    choices: list[list[SectionChoice]] = []
     for i, (f0, q) in enumerate(targets, 1):
         if q is None:
             t = "rc_lowpass" if kind == "lowpass" else "rc_highpass"
@@ -858,13 +982,18 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
             gain = min(1.0, q * q) if t == "mfb_bandpass" else 1.0
             name = f"S{i} f0 {_hz(f0)}, Q {q:.3f}"
         try:
-            exact_vals, chosen = choose_values(i, t, f0, q, kind, series, cap_series, gain, snap)
+            choices.append(section_choices(i, t, f0, q, kind, series, cap_series, gain, snap))
         except InputError as exc:  # name the hardest section (highest Q), not the first
             refusals.append((q or 0.0, exc))
             continue
-        stages.append({"topology": t, "name": name, "exact": exact_vals, "values": chosen, "target": (f0, q)})
+        stages.append({"topology": t, "name": name, "target": (f0, q)})
     if refusals:
         raise max(refusals, key=lambda r: r[0])[1]
+    ideal = IdealResponse.of(response, order, fc, kind, bw, ripple_db, cutoff_db,
+                             Analysis(f_start=f_start, f_stop=f_stop))
+    picks = _refine_jointly(stages, choices, ideal, limits, fc, bw)
+    for st, cs, k in zip(stages, choices, picks):
+        st["exact"], st["values"] = cs[k].exact, cs[k].values
 
     label = _LABEL[response] + (f" {ripple_db:g} dB" if ripple_db is not None else "")
     title = (f"{label} {_KIND_LABEL[kind]}, order {order}, "
@@ -885,7 +1014,6 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
 
     c_exact, b_exact = measure_cutoff(exact)
     c_snap, b_snap = measure_cutoff(snapped)
-    ideal = IdealResponse.of(response, order, fc, kind, bw, ripple_db, cutoff_db, snapped.analysis)
     checks = error_checks(snapped, ideal, reports, limits, exact)
 
     description = (
