@@ -904,12 +904,16 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     Analysis range: cutoff/100 to cutoff x 100 Hz, 400 points (band-pass: wide enough for
     the band edges too); ``cutoff_db`` set so the analysis measures the same cutoff as the
     target (3.01 dB; Linkwitz-Riley 6.02 dB; an even-order Chebyshev band-pass
-    3.01 + ripple dB below its peak). Mask (a **starting point** for the user to edit),
-    relative to the passband reference: a floor over [f_start, cutoff/2] (high-pass
-    [2 cutoff, f_stop]; band-pass where the prototype is at Omega <= 1/2) at -1 dB
-    (Chebyshev -(ripple + 0.5) dB), lowered if the nominal response needs it, and a
-    stopband ceiling from 4 x cutoff (Omega >= 4) to the range's end, at the nominal
-    response there + 6 dB, rounded to 1 dB.
+    3.01 + ripple dB below its peak). Mask: a **starting point** for the user to edit,
+    implied by the ideal response (see :func:`_starting_mask`), with a passband ceiling.
+
+    Part values stay in the practical range (:data:`R_MIN`..:data:`R_MAX`,
+    :data:`C_MIN`..:data:`C_MAX`; see :func:`section_choices`), else :class:`InputError`
+    naming ``cutoff_hz``, ``bandwidth_hz`` or ``order``. Snapping keeps the best few
+    candidates per section and picks among them for the whole cascade
+    (:func:`_refine_jointly`). ``limits`` (default :class:`ErrorLimits`) are what the
+    result's :attr:`SynthesisResult.checks` are held against: errors of the snapped design
+    (ideal op-amps, the engine) against the ideal ``scipy.signal`` response.
     """
     _check_family(response, order, ripple_db)
     limits = (limits or ErrorLimits()).checked()
