@@ -132,7 +132,9 @@ def _grade_problems(args: dict[str, Any], path: str) -> list[InputError]:
         v = args[k] = float(v)
         if not (lo <= v and (v <= hi if hi_ok else v < hi)):
             unit = _UNITS.get(k, "")
-            bad(k, f"must be from {lo:g}{unit} to {'' if hi_ok else 'below '}{hi:g}{unit}, not {v:g}")
+            span = f"from {lo:g}{unit} to {'' if hi_ok else 'below '}{hi:g}{unit}"
+            bad(k, f"must not be negative (allowed: {span}), not {v:g}" if v < lo == 0
+                else f"must be {span}, not {v:g}")
             continue
         ok[k] = v
     tol, cov, inner = ok.get("tolerance_pct"), ok.get("coverage"), ok.get("bin_inner_pct")
