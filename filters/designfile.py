@@ -17,7 +17,7 @@ from typing import Any, Callable
 
 from .design import Design, design_from_dict
 from .errors import InputError, ValidationError
-from .safeio import parse_json, read_text, write_text_atomic  # noqa: F401  (write_text_atomic: used by others)
+from .safeio import parse_json, read_text, remove_orphan_temporaries, write_text_atomic  # noqa: F401 (used by others)
 
 FORMAT_TAG = "tolspread-design"
 VERSION = 2
@@ -71,9 +71,12 @@ def loads(text: str, source: str = "design") -> Design:
 
 
 def load(path: str | Path) -> Design:
-    """Read a design file."""
+    """Read a design file (a regular file of at most ``MAX_BYTES``). Temporary files that
+    a killed save of it left beside it are removed (the window's start opens a design
+    through here)."""
     p = Path(path)
     text = read_text(p, MAX_BYTES, what="design file")
+    remove_orphan_temporaries(p)
     return loads(text, str(p))
 
 

@@ -158,6 +158,9 @@ def test_temporaries_of_killed_saves_are_removed_by_the_next_save(tmp_path):
     assert not any(f.exists() for f in orphans)
     assert live.exists() and unrelated.exists()
     assert safeio.remove_orphan_temporaries(tmp_path / "other.json") == 1
+    # opening the design (as the window's start does) tidies too
+    orphans[0].write_text("half a desi", encoding="utf-8")
+    assert load(p) == load_demo() and not orphans[0].exists() and live.exists()
 
 
 _SAVER = textwrap.dedent("""
