@@ -170,8 +170,9 @@ def parse_json(text: str, source: str, *, limit: int, max_depth: int, what: str 
 def check_output_path(path: str | Path | None, option: str = "") -> Path:
     """The path an output may be written to, or :class:`InputError` saying why not.
 
-    Refuses an empty name, a folder, and anything that exists but is not a regular file
-    (a device such as ``/dev/full``, a pipe, a socket), following symbolic links. The
+    Refuses an empty name, a folder, a new file in a folder that does not exist, and
+    anything that exists but is not a regular file (a device such as ``/dev/full``, a
+    pipe, a socket), following symbolic links. The
     error's path is ``option`` (a command-line option such as ``--json``) when given.
     """
     text = "" if path is None else os.fspath(path)
@@ -184,6 +185,9 @@ def check_output_path(path: str | Path | None, option: str = "") -> Path:
     try:
         st = os.stat(text)
     except FileNotFoundError:
+        parent = os.path.dirname(os.path.realpath(text))
+        if not os.path.isdir(parent):
+            raise refuse(f"cannot be written: the folder {parent} does not exist") from None
         return Path(text)
     except NotADirectoryError:
         raise refuse("cannot be written: a part of its folder path is a file") from None

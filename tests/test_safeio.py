@@ -251,6 +251,12 @@ def test_an_empty_output_name_is_refused(name):
     assert e.value.path == "--json" and "no file name" in e.value.reason
 
 
+def test_a_new_file_in_a_missing_folder_is_refused_before_the_work(tmp_path):
+    with pytest.raises(InputError) as e:
+        safeio.check_output_path(tmp_path / "nope" / "r.html", "--report")
+    assert e.value.path == "--report" and "does not exist" in e.value.reason
+
+
 def test_a_folder_is_refused_as_an_output(tmp_path):
     with pytest.raises(InputError) as e:
         save(load_demo(), tmp_path)
