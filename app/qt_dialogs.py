@@ -167,7 +167,7 @@ class SynthesisDialog(QDialog):
         font = QFontDatabase.systemFont(QFontDatabase.SystemFont.FixedFont)
         font.setStyleHint(QFont.StyleHint.Monospace)
         self.preview.setFont(font)
-        self.preview.setMinimumSize(640, 220)
+        self.preview.setMinimumSize(880, 330)  # the section table and the error table without scrolling at 1280x800
 
         self.buttons, self.ok_button = _ok_cancel(self)
         self.warning = QLabel()

@@ -790,8 +790,8 @@ class SynthesisResult:
 
     def errors_text(self) -> str:
         """The error table: every check's ideal and built value, error, limit and verdict."""
-        lines = ["Errors of the built design (nominal values, ideal op-amps, this program's engine) "
-                 "against the ideal response (scipy.signal):",
+        lines = ["Errors of the built design against the ideal response (scipy.signal);",
+                 "the built design at its nominal values, ideal op-amps, this program's engine:",
                  f"  {'figure':<18} {'ideal':>12} {'built':>12} {'error':>10} {'limit':>9}"]
         for c in self.checks:
             if c.unit == "dB":
