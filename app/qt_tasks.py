@@ -71,6 +71,13 @@ class BackgroundTask(QObject):
     def wait(self, ms: int = 10_000) -> bool:
         return self._thread.wait(ms)
 
+    def stop(self, ms: int = 30_000) -> bool:
+        """Cancel, drop every connection to the caller, and wait for the thread (the window
+        is closing: no result may arrive in a widget being deleted). True if it ended."""
+        self._stop.set()
+        self.blockSignals(True)
+        return self._thread.wait(ms)
+
     @property
     def running(self) -> bool:
         return self._thread.isRunning()
