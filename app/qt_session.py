@@ -5,6 +5,9 @@ edit) or :meth:`Session.preview` (a what-if shown while a slider is dragged, not
 edit). The session asks a worker thread for an evaluation after each change; results
 carry a generation number and stale ones are dropped, so a newer request always wins and
 the window never waits.
+
+A session asks for its first evaluation as soon as it is made, and again whenever its
+design is replaced (New, Open, restore), so a window shows figures without any edit.
 """
 from __future__ import annotations
 
@@ -110,6 +113,8 @@ class Session(QObject):
     path_changed = Signal(object)         # Path | None
     dirty_changed = Signal(bool)
     evaluation_stopped = Signal(int)      # generation
+    run_cancelled = Signal(object, object)  # Design whose run was cancelled, ViewData still shown (or None)
+    design_replaced = Signal(object)      # Design (New, Open, restore: a different design, not an edit)
     _wake = Signal()
 
     def __init__(self, design: Design, path: Path | None = None) -> None:
@@ -121,7 +126,9 @@ class Session(QObject):
         self._second: SecondQuantity = "phase"
         self._what_if: tuple[Grade, ...] | None = None
         self.undo_stack = QUndoStack(self)
-        self.undo_stack.cleanChanged.connect(lambda clean: self.dirty_changed.emit(not clean))
+        # a slot of this object (not a lambda): Qt drops the connection when the session goes,
+        # so the undo stack's own teardown cannot emit into a deleted session
+        self.undo_stack.cleanChanged.connect(self._on_clean_changed)
         self._thread = QThread()
         self._thread.setObjectName("tolspread-evaluation")
         self._worker = _Worker()
@@ -132,7 +139,10 @@ class Session(QObject):
         self._worker.progress.connect(self._on_progress)
         self._worker.stopped.connect(self.evaluation_stopped)
         self._thread.start()
+        self._running_design: Design | None = None
+        self._closed = False
         self.last_view: ViewData | None = None
+        self.request()  # the first figures come without any edit
 
     # --- reading -------------------------------------------------------------------------
     @property
@@ -154,6 +164,15 @@ class Session(QObject):
     @property
     def second(self) -> SecondQuantity:
         return self._second
+
+    @property
+    def closed(self) -> bool:
+        """True after :meth:`shutdown`: no more evaluations, no more signals."""
+        return self._closed
+
+    @Slot(bool)
+    def _on_clean_changed(self, clean: bool) -> None:
+        self.dirty_changed.emit(not clean)
 
     # --- editing -------------------------------------------------------------------------
     def apply(self, design: Design, text: str) -> None:
@@ -192,6 +211,7 @@ class Session(QObject):
         self._set_design(design)
         self.undo_stack.setClean()
         self.dirty_changed.emit(False)
+        self.design_replaced.emit(design)
 
     # --- files ---------------------------------------------------------------------------
     def open(self, path: Path) -> None:
@@ -214,7 +234,10 @@ class Session(QObject):
         """Ask for an evaluation of the current state; returns its generation number.
 
         ``boards`` limits it to the first that many boards (a preview)."""
+        if self._closed:
+            return self._generation
         self._generation += 1
+        self._running_design = self._design
         req = ViewRequest(self._generation, self._design, self._what_if, self._second,
                           budget=boards is None, boards=boards)
         self._worker.submit(req)
@@ -223,13 +246,21 @@ class Session(QObject):
         return self._generation
 
     def cancel(self) -> None:
-        """Stop the running evaluation; the last shown result stays."""
+        """Stop the running evaluation; the last shown result stays.
+
+        Emits :attr:`run_cancelled` with the design whose run was stopped and the view still
+        shown, so the window can say which run its figures belong to."""
+        if not self.busy:
+            return
         self._worker.cancel_through(self._generation)
         self._shown_generation = self._generation
         self.busy_changed.emit(False)
+        self.run_cancelled.emit(self._running_design, self.last_view)
 
     @Slot(object)
     def _on_view_finished(self, view: ViewData) -> None:
+        if self._closed:
+            return
         if view.generation < self._generation:
             return  # a newer request is on its way
         self._shown_generation = view.generation
@@ -239,6 +270,8 @@ class Session(QObject):
 
     @Slot(int, str, str)
     def _on_view_failed(self, generation: int, message: str, details: str) -> None:
+        if self._closed:
+            return
         if generation < self._generation:
             return
         self._shown_generation = generation
@@ -247,11 +280,14 @@ class Session(QObject):
 
     @Slot(int, int, int)
     def _on_progress(self, generation: int, done: int, total: int) -> None:
+        if self._closed:
+            return
         if generation == self._generation:
             self.progress.emit(done, total)
 
     def evaluate_now(self) -> ViewData:
-        """Evaluate synchronously on the calling thread (tests, screenshots)."""
+        """Evaluate synchronously on the calling thread (library-level tests only: the
+        window, ``--screenshot`` and the acceptance tests wait for the worker instead)."""
         self._generation += 1
         req = ViewRequest(self._generation, self._design, self._what_if, self._second)
         self._worker.cancel_through(self._generation - 1)
@@ -260,7 +296,16 @@ class Session(QObject):
         return view
 
     def shutdown(self) -> None:
+        """Stop the worker and disconnect everything (the window is closing); safe to call twice.
+
+        After this no signal of the session fires: a slot can never run against a widget
+        that is being deleted."""
+        if self._closed:
+            return
+        self._closed = True
         self._worker.cancel_through(self._generation)
+        self.blockSignals(True)
+        self.undo_stack.blockSignals(True)  # its teardown emits cleanChanged
         self._thread.quit()
-        self._thread.wait(5000)
+        self._thread.wait(30_000)
 
