@@ -29,11 +29,13 @@ from filters.mask import Span
 from filters.summary import metric_label
 
 from . import userfiles
+from .qt_help import build_help_menu
 from .qt_masktable import SpanTable
 from .qt_parts import PartsPanel
 from .qt_plots import SpreadPlots
 from .qt_results import ResultsPanel
 from .qt_session import Session
+from .qt_style import VERMILION
 
 log = logging.getLogger("tolspread")
 MAX_RECENT = 8
@@ -68,7 +70,11 @@ class MainWindow(QMainWindow):
         self._build_status()
         self._connect()
         self._restore_layout()
+        self._fit_next_view = False  # a newly opened design is framed when its figures arrive
         self._on_design_changed(session.design)
+        self._on_busy_changed(session.busy)
+        if session.last_view is not None:
+            self._on_view_ready(session.last_view)
         self._update_title()
         self.autosave = QTimer(self)
         self.autosave.setInterval(int(os.environ.get("TOLSPREAD_AUTOSAVE_MS", AUTOSAVE_MS)))
@@ -85,12 +91,18 @@ class MainWindow(QMainWindow):
         return d
 
     def _action(self, text: str, slot, shortcut=None, name: str = "", checkable: bool = False) -> QAction:
+        """A window action; ``slot()`` is called without arguments, or ``slot(checked)`` for a
+        checkable action. ``triggered`` passes a ``checked`` flag, which would otherwise land
+        in a slot's first default argument (a path, say)."""
         a = QAction(text, self)
         if shortcut is not None:
             a.setShortcut(QKeySequence(shortcut))
         a.setCheckable(checkable)
         a.setObjectName(name or text.lower().replace(" ", "_").replace("…", ""))
-        a.triggered.connect(slot)
+        if checkable:
+            a.triggered.connect(lambda checked: slot(bool(checked)))
+        else:
+            a.triggered.connect(lambda *_checked: slot())
         return a
 
     def _build_actions(self) -> None:
@@ -116,11 +128,18 @@ class MainWindow(QMainWindow):
             fm.addAction(a)
         fm.addSeparator()
         fm.addAction(self.act_quit)
+        # The menu shows what will be undone ("Undo R1 value 2k7"); the toolbar button keeps
+        # the short icon text, so the buttons never move; the tooltip has the full text.
         self.act_undo = self.session.undo_stack.createUndoAction(self, "Undo")
-        self.act_undo.setShortcut(QKeySequence(S.Undo))
+        self.act_undo.setShortcuts(QKeySequence.keyBindings(S.Undo))
+        self.act_undo.setIconText("Undo")
         self.act_undo.setObjectName("undo")
         self.act_redo = self.session.undo_stack.createRedoAction(self, "Redo")
-        self.act_redo.setShortcut(QKeySequence(S.Redo))
+        redo_keys = QKeySequence.keyBindings(S.Redo)
+        if QKeySequence("Ctrl+Y") not in redo_keys:
+            redo_keys.append(QKeySequence("Ctrl+Y"))  # README promises Ctrl+Y on every platform
+        self.act_redo.setShortcuts(redo_keys)
+        self.act_redo.setIconText("Redo")
         self.act_redo.setObjectName("redo")
         em = m.addMenu("&Edit")
         em.addAction(self.act_undo)
@@ -146,9 +165,10 @@ class MainWindow(QMainWindow):
             dm.addSeparator() if a is None else dm.addAction(a)
         vm = m.addMenu("&View")
         group = QActionGroup(self)
-        self.act_phase = self._action("Phase", lambda: self.session.set_second("phase"), "Ctrl+1", "show_phase", True)
-        self.act_delay = self._action("Group delay", lambda: self.session.set_second("delay"), "Ctrl+2", "show_delay",
-                                      True)
+        self.act_phase = self._action("Phase", lambda on: on and self._set_second("phase"), "Ctrl+1",
+                                      "show_phase", True)
+        self.act_delay = self._action("Group delay", lambda on: on and self._set_second("delay"), "Ctrl+2",
+                                      "show_delay", True)
         self.act_phase.setChecked(True)
         for a in (self.act_phase, self.act_delay):
             group.addAction(a)
@@ -158,8 +178,13 @@ class MainWindow(QMainWindow):
                                         "highlight_failing", True)
         self.act_failing.setChecked(True)
         self.act_fit = self._action("Fit plots", self.plots.fit, "Ctrl+0", "fit_plots")
+        self.act_evaluate = self._action("Evaluate again", self.session.request, "F5", "evaluate")
+        self.act_evaluate.setToolTip("Evaluate the current design again (after a cancelled run)")
         vm.addAction(self.act_failing)
         vm.addAction(self.act_fit)
+        vm.addSeparator()
+        vm.addAction(self.act_evaluate)
+        self.help_menu = build_help_menu(self)
         tb = QToolBar("Main tools")
         tb.setObjectName("toolbar_main")
         for a in (self.act_open, self.act_save, None, self.act_undo, self.act_redo, None, self.act_floor,
@@ -179,7 +204,7 @@ class MainWindow(QMainWindow):
         self.cancel_button = QPushButton("Cancel run")
         self.cancel_button.setObjectName("cancel_run")
         self.cancel_button.hide()
-        self.cancel_button.clicked.connect(self.session.cancel)
+        self.cancel_button.clicked.connect(self._on_cancel_clicked)
         self.busy_label = QLabel("")
         self.busy_label.setObjectName("busy_label")
         sb.addWidget(self.status_text, 1)
@@ -194,8 +219,10 @@ class MainWindow(QMainWindow):
         s.evaluation_failed.connect(self._on_evaluation_failed)
         s.busy_changed.connect(self._on_busy_changed)
         s.progress.connect(self._on_progress)
-        s.dirty_changed.connect(lambda _d: self._update_title())
-        s.path_changed.connect(lambda _p: self._update_title())
+        s.dirty_changed.connect(self._on_dirty_changed)
+        s.path_changed.connect(self._on_path_changed)
+        s.run_cancelled.connect(self._on_run_cancelled)
+        s.design_replaced.connect(self._on_design_replaced)
         self.parts.value_committed.connect(self._on_value_committed)
         self.parts.grade_chosen.connect(self._on_grade_chosen)
         self.parts.tolerance_dragging.connect(self._on_tolerance_dragging)
@@ -231,7 +258,50 @@ class MainWindow(QMainWindow):
     def _on_view_ready(self, view: ViewData) -> None:
         self.plots.show_view(view)
         self.results.show_view(view)
+        if self._fit_next_view and not view.preview:
+            self._fit_next_view = False
+            self.plots.fit()
+            self._clear_readout()
         self.show_status(f"{view.samples:,} boards evaluated in {1000 * view.elapsed_s:.0f} ms")
+
+    def _on_design_replaced(self, _design: Design) -> None:
+        """New, Open, restore: frame the new design once its figures arrive; the cursor
+        readout of the old design is gone at once."""
+        self._fit_next_view = True
+        self._clear_readout()
+
+    def _set_second(self, second: str) -> None:
+        self._clear_readout()  # the readout of the other quantity would be stale
+        self.session.set_second(second)  # type: ignore[arg-type]
+
+    def _clear_readout(self) -> None:
+        self.plots.readout.setText(" ")
+
+    def _on_cancel_clicked(self) -> None:
+        self.session.cancel()
+
+    def _on_run_cancelled(self, design: Design | None, shown: ViewData | None) -> None:
+        """Say that the run was cancelled and which run the figures on screen belong to."""
+        a = design.analysis if design is not None else self.session.design.analysis
+        stopped = f"Run of {a.samples:,} boards (seed {a.seed}) cancelled"
+        if shown is None:
+            text = f"{stopped}: no figures yet. View > Evaluate again (F5) starts it again."
+        else:
+            now = self.session.design
+            # only the sampling differs (the boards box, the seed): no need to mention the design
+            same = replace(now, analysis=shown.design.analysis) == shown.design
+            text = (f"{stopped}. The figures shown are from the previous run: {shown.samples:,} boards, "
+                    f"seed {shown.seed}, {shown.method} sampling"
+                    f"{'' if same else ', of the design before your last change'}. "
+                    "View > Evaluate again (F5) runs the current design; Undo returns to the one shown.")
+        self.results.detail.setText(f"<span style='color:{VERMILION}'><b>{text}</b></span>")
+        self.show_status(text.split(". View >")[0])
+
+    def _on_dirty_changed(self, _dirty: bool) -> None:
+        self._update_title()
+
+    def _on_path_changed(self, _path) -> None:
+        self._update_title()
 
     def _on_evaluation_failed(self, message: str, details: str) -> None:
         self.results.show_message(message)
@@ -592,5 +662,14 @@ class MainWindow(QMainWindow):
         self.settings.sync()
         userfiles.recovery_path().unlink(missing_ok=True)
         self.autosave.stop()
-        self.session.shutdown()
+        self.stop_background_work()
         event.accept()
+
+    def stop_background_work(self) -> None:
+        """Cancel the report and recommendation jobs and the evaluation worker, and wait
+        for their threads, so nothing reports back into a window that is going away."""
+        for task in (getattr(self, "_report_task", None),
+                     getattr(getattr(self, "_recommend_dialog", None), "task", None)):
+            if task is not None:
+                task.stop()
+        self.session.shutdown()
