@@ -26,16 +26,31 @@ def install_error_hook(parent_getter) -> None:
     def hook(exc_type, exc, tb) -> None:
         details = "".join(traceback.format_exception(exc_type, exc, tb))
         log.error("unexpected error\n%s", details)
-        if QApplication.instance() is None or QApplication.platformName() == "offscreen":
+        parent = _alive(parent_getter)
+        if (QApplication.instance() is None or QApplication.platformName() == "offscreen"
+                or QApplication.closingDown() or parent is None or not parent.isVisible()):
+            # no window to return to (closed or closing): a dialog now would keep the
+            # process alive behind a window the user already closed
             sys.stderr.write(details)
             return
         box = QMessageBox(QMessageBox.Icon.Critical, "Unexpected error",
                           f"Something went wrong: {exc}\n\nYour design is still open. The details were "
-                          f"written to {userfiles.log_path()}.", QMessageBox.StandardButton.Ok, parent_getter())
+                          f"written to {userfiles.log_path()}.", QMessageBox.StandardButton.Ok, parent)
         box.setDetailedText(details)
         box.exec()
 
     sys.excepthook = hook
+
+
+def _alive(getter):
+    """The widget ``getter()`` returns, or None when it is gone (deleted by Qt)."""
+    try:
+        w = getter()
+        if w is not None:
+            w.isVisible()  # raises RuntimeError once the C++ object is deleted
+        return w
+    except RuntimeError:
+        return None
 
 
 def make_window(design_path: str | None):
@@ -104,24 +119,62 @@ def run_window(design_path: str | None, screenshot: str | None) -> int:
     install_error_hook(lambda: window)
     if screenshot:
         return save_screenshot(window, Path(screenshot))
+    # also when the loop ends without closeEvent (logout, a signal): stop the threads first
+    app.aboutToQuit.connect(window.stop_background_work)
     window.show()
     offer_recovery(window)
     return app.exec()
 
 
-def save_screenshot(window, path: Path) -> int:
-    """Render the window after its first evaluation and save it as PNG."""
+SCREENSHOT_TIMEOUT_S = 300
+
+
+def save_screenshot(window, path: Path, timeout_s: float = SCREENSHOT_TIMEOUT_S) -> int:
+    """Show the window as ``tolspread`` does, wait in its event loop for the first real
+    result (the worker's, with the spread budget), then save the window as PNG (1600x950).
+
+    Exit status 2 when the evaluation fails, does not finish within ``timeout_s`` seconds,
+    or the file cannot be written."""
+    from PySide6.QtCore import QEventLoop, QTimer
     from PySide6.QtWidgets import QApplication
 
     window.resize(1600, 950)
     window.show()
-    QApplication.processEvents()
-    window.session.evaluate_now()
-    for _ in range(3):
-        QApplication.processEvents()
-    ok = window.grab().save(str(path), "PNG")
+    session = window.session
+    outcome: dict[str, str] = {}
+    loop = QEventLoop()
+
+    def done(_view) -> None:
+        outcome.setdefault("ok", "")
+        loop.quit()
+
+    def failed(message: str, _details: str) -> None:
+        outcome.setdefault("failed", message)
+        loop.quit()
+
+    session.view_ready.connect(done)
+    session.evaluation_failed.connect(failed)
+    timer = QTimer()
+    timer.setSingleShot(True)
+    timer.timeout.connect(lambda: (outcome.setdefault("failed", f"no result after {timeout_s:g} s"), loop.quit()))
+    timer.start(int(1000 * timeout_s))
+    if session.busy or session.last_view is None:
+        loop.exec()
+    timer.stop()
+    session.view_ready.disconnect(done)
+    session.evaluation_failed.disconnect(failed)
+    ok = False
+    if "failed" not in outcome:
+        # let the results, plots and layout paint the new figures before the grab
+        pause = QEventLoop()
+        QTimer.singleShot(300, pause.quit)
+        pause.exec()
+        ok = window.grab().save(str(path), "PNG")
     window.session.undo_stack.setClean()
     window.close()
+    if "failed" in outcome:
+        sys.stderr.write(f"tolspread: no screenshot: the evaluation did not finish ({outcome['failed']})\n")
+        return 2
     if not ok:
         sys.stderr.write(f"tolspread: could not write {path}\n")
         return 2
