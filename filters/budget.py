@@ -9,16 +9,22 @@ interactions, parts correlated by lot) is reported as the remainder.
 Beside it, each part's normalized sensitivity at the nominal design,
 S = d ln(metric) / d ln(value) (for dB metrics: dB per unit ln(value), reported per 1 %),
 by a central difference of +-1e-4 in ln(value) evaluated as extra rows of one batch.
+
+Memory: the fit is taken in chunks of boards (:data:`filters.summary.CHUNK`), and rows
+of perturbed designs are evaluated in bounded batches (:func:`evaluate_rows`), so neither
+grows with the number of boards or parts beyond (parts x parts) sums.
 """
 from __future__ import annotations
 
 from dataclasses import dataclass
 
 import re
+from typing import Callable
 
 import numpy as np
 
 from .evaluate import Ensemble, Prepared, evaluate_values
+from .summary import CHUNK, chunks
 
 STEP = 1e-4
 
@@ -106,18 +112,50 @@ def largest_remainder(values: list[float], total: float = 100.0, decimals: int =
     return [round(f * unit, decimals) for f in floors]
 
 
+#: Numbers per curve array in one batch of :func:`evaluate_rows` (16 MB of float64): the
+#: rows of sensitivities and corners are evaluated this many frequency points at a time.
+ROW_NUMBERS = 1 << 21
+
+
+def evaluate_rows(prep: Prepared, n: int, make_rows: Callable[[int, int], np.ndarray],
+                  metrics: bool = True) -> tuple[dict[str, np.ndarray], np.ndarray]:
+    """Metrics and margins of ``n`` rows of part values made by ``make_rows(lo, hi)``
+    ((hi - lo, P) each), evaluated in batches of at most ``ROW_NUMBERS / frequencies``
+    rows so that the curves in memory stay bounded whatever ``n`` is.
+
+    Returns (columns name -> (n,) including ``margin.<label>``, margins (n, spans)).
+    Each row's results do not depend on the batch it is in.
+    """
+    step = max(1, ROW_NUMBERS // max(1, prep.freqs_hz.size))
+    cols: dict[str, np.ndarray] = {}
+    marg = np.empty((n, len(prep.plans)))
+    for sl in chunks(n, step):
+        ev = evaluate_values(prep, make_rows(sl.start, sl.stop), metrics=metrics)
+        marg[sl] = ev.margins
+        for name, v in ev.metrics.items():
+            cols.setdefault(name, np.full(n, np.nan))[sl] = v
+    for j, s in enumerate(prep.design.mask):
+        cols[f"margin.{s.label}"] = marg[:, j]
+    return cols, marg
+
+
+def perturbed_rows(base: np.ndarray, lo: int, hi: int) -> np.ndarray:
+    """Rows ``[lo, hi)`` of the central-difference designs around ``base`` (B, P): for
+    base row b and part k, row ``2 P b + 2 k`` has part k times exp(STEP) and the next
+    row times exp(-STEP). Shape (hi - lo, P)."""
+    p = base.shape[1]
+    r = np.arange(lo, hi)
+    rows = base[r // (2 * p)].copy()
+    k = (r % (2 * p)) // 2
+    rows[np.arange(r.size), k] *= np.where(r % 2 == 0, np.exp(STEP), np.exp(-STEP))
+    return rows
+
+
 def sensitivities(prep: Prepared, names: list[str]) -> dict[str, np.ndarray]:
     """Normalized sensitivity of each metric to each part at the nominal design, (P,)."""
     nom = prep.nominal.values
-    p = nom.size
-    rows = np.repeat(nom[None, :], 2 * p, axis=0)
-    k = np.arange(p)
-    rows[2 * k, k] *= np.exp(STEP)
-    rows[2 * k + 1, k] *= np.exp(-STEP)
-    ev = evaluate_values(prep, rows)
-    cols = dict(ev.metrics)
-    for j, s in enumerate(prep.design.mask):
-        cols[f"margin.{s.label}"] = ev.margins[:, j]
+    base = nom[None, :]
+    cols, _ = evaluate_rows(prep, 2 * nom.size, lambda lo, hi: perturbed_rows(base, lo, hi))
     out = {}
     for name in names:
         y = cols.get(name)
@@ -132,62 +170,127 @@ def sensitivities(prep: Prepared, names: list[str]) -> dict[str, np.ndarray]:
     return out
 
 
-def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None) -> dict[str, Budget]:
-    """Spread budgets of ``names`` (default: cutoff or band-pass centre and bandwidth,
-    stage f0/Q, every span margin)."""
+def log_deviations(ens: Ensemble, nominal: np.ndarray, sl: slice) -> np.ndarray:
+    """ln(value / marked value) of the boards in ``sl``, (boards, P)."""
+    return np.log(ens.values[sl] / nominal)
+
+
+def budget_names(cols: dict[str, np.ndarray]) -> list[str]:
+    """The default metrics of a spread budget: cutoff or band-pass centre and bandwidth,
+    stage f0/Q (not single pole pairs), every span margin."""
+    names = [n for n in cols if n in ("cutoff_hz", "centre_hz") or n.endswith(".f0_hz") or n.endswith(".q")
+             or n.startswith("margin.") or n == "bandwidth_hz"]
+    return [n for n in names if not is_pair_metric(n)]
+
+
+def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
+                  chunk: int = CHUNK) -> dict[str, Budget]:
+    """Spread budgets of ``names`` (default: :func:`budget_names`).
+
+    Taken in chunks of ``chunk`` boards (two passes: means, then centred cross products
+    X'X (P, P) and X'y), so memory does not grow with the boards beyond one chunk. Each
+    metric is fitted on the boards where it exists: the normal equations of its centred
+    log deviations, solved by least squares (``numpy.linalg.lstsq``).
+    """
     cols = metric_columns(ens)
     if names is None:
-        names = [n for n in cols if n in ("cutoff_hz", "centre_hz") or n.endswith(".f0_hz") or n.endswith(".q")
-                 or n.startswith("margin.") or n == "bandwidth_hz"]
-        names = [n for n in names if not is_pair_metric(n)]
+        names = budget_names(cols)
     sens = sensitivities(prep, names)
     refs = [p.ref for p in ens.design.parts]
-    x = np.log(ens.values / prep.nominal.values)
-    xc_all = x - x.mean(axis=0)
-    varying = xc_all.std(axis=0) > 0
-    ys = {}
-    for name in names:
-        y = cols[name]
+    nom = prep.nominal.values
+    n, p = ens.values.shape
+
+    def y_of(name: str, sl: slice) -> np.ndarray:
+        y = cols[name][sl]
         if is_log_metric(name):
             with np.errstate(invalid="ignore", divide="ignore"):
                 y = np.log(y)
-        ys[name] = y
-    # One least-squares solve for every metric that is finite on every board (the usual
-    # case): normal equations on the centred log deviations, X'X is parts x parts.
-    full = [n for n in names if np.all(np.isfinite(ys[n]))]
-    betas: dict[str, np.ndarray] = {}
-    if full and varying.any():
-        xv = xc_all[:, varying]
-        ymat = np.column_stack([ys[n] - ys[n].mean() for n in full])
-        sol = np.linalg.lstsq(xv.T @ xv, xv.T @ ymat, rcond=None)[0]
-        for k, n in enumerate(full):
-            b = np.zeros(len(refs))
-            b[varying] = sol[:, k]
-            betas[n] = b
+        return y
+
+    # Pass 1: every board's log-deviation sums; each metric's count, sum and the
+    # log-deviation sums over the boards where it is finite.
+    sum_x = np.zeros(p)
+    count = dict.fromkeys(names, 0)
+    sum_y = dict.fromkeys(names, 0.0)
+    sum_x_ok = {name: np.zeros(p) for name in names}
+    for sl in chunks(n, chunk):
+        x = log_deviations(ens, nom, sl)
+        sx = x.sum(axis=0)
+        sum_x += sx
+        for name in names:
+            y = y_of(name, sl)
+            ok = np.isfinite(y)
+            if ok.all():
+                count[name] += y.size
+                sum_y[name] += float(np.sum(y))
+                sum_x_ok[name] += sx
+            elif ok.any():
+                count[name] += int(ok.sum())
+                sum_y[name] += float(np.sum(y[ok]))
+                sum_x_ok[name] += x[ok].sum(axis=0)
+    mx = sum_x / n if n else sum_x
+    my = {name: sum_y[name] / count[name] if count[name] else 0.0 for name in names}
+    # Pass 2: cross products centred on every board's mean log deviation (xc) and on each
+    # metric's own mean; the shift to the metric's own boards' mean comes after.
+    gram = np.zeros((p, p))
+    gram_ok = {name: np.zeros((p, p)) for name in names}
+    sxy = {name: np.zeros(p) for name in names}
+    syy = dict.fromkeys(names, 0.0)
+    sy = dict.fromkeys(names, 0.0)
+    for sl in chunks(n, chunk):
+        xc = log_deviations(ens, nom, sl) - mx
+        g = xc.T @ xc
+        gram += g
+        for name in names:
+            y = y_of(name, sl)
+            ok = np.isfinite(y)
+            if not ok.any():
+                continue
+            if ok.all():
+                gram_ok[name] += g
+                xo = xc
+            else:
+                xo = xc[ok]
+                gram_ok[name] += xo.T @ xo
+            yc = y[ok] - my[name]
+            sxy[name] += xo.T @ yc
+            syy[name] += float(yc @ yc)
+            sy[name] += float(np.sum(yc))
+    varying = np.diag(gram) > 0
     out: dict[str, Budget] = {}
+    full = [name for name in names if count[name] == n and syy[name] > 0 and n >= 3]
+    betas: dict[str, np.ndarray] = {}
+    if full and varying.any():  # one least-squares solve for every metric found on every board
+        rhs = np.column_stack([sxy[name] for name in full])
+        sol = np.linalg.lstsq(gram[np.ix_(varying, varying)], rhs[varying], rcond=None)[0]
+        for k, name in enumerate(full):
+            b = np.zeros(p)
+            b[varying] = sol[:, k]
+            betas[name] = b
     for name in names:
-        y = ys[name]
-        ok = np.isfinite(y)
-        s_vec = sens.get(name, np.full(len(refs), np.nan))
+        cnt = count[name]
+        s_vec = sens.get(name, np.full(p, np.nan))
         unit = "ln/ln" if is_log_metric(name) else "dB per %"
-        if ok.sum() < 3 or np.var(y[ok]) == 0:
+        if cnt < 3 or syy[name] == 0:
             entries = tuple(BudgetEntry(r, 0.0, float(v), unit) for r, v in zip(refs, s_vec))
-            out[name] = Budget(name, entries, 0.0, int(ok.sum()))
+            out[name] = Budget(name, entries, 0.0, int(cnt))
             continue
-        xc = x[ok] - x[ok].mean(axis=0)
-        yc = y[ok] - y[ok].mean()
+        # shift the sums to this metric's own boards' means: d = its mean log deviation - mx
+        d = sum_x_ok[name] / cnt - mx
+        sxx = gram_ok[name] - cnt * np.outer(d, d)
         beta = betas.get(name)
         if beta is None:  # some boards lack this metric: fit on the boards that have it
-            beta = np.zeros(len(refs))
-            use = xc.std(axis=0) > 0
+            beta = np.zeros(p)
+            use = np.diag(sxx) > 0
             if use.any():
-                beta[use] = np.linalg.lstsq(xc[:, use], yc, rcond=None)[0]
-        var_y = float(np.var(yc))
-        shares = beta ** 2 * np.var(xc, axis=0) / var_y
+                rhs = sxy[name] - d * sy[name]
+                beta[use] = np.linalg.lstsq(sxx[np.ix_(use, use)], rhs[use], rcond=None)[0]
+        var_y = (syy[name] - sy[name] ** 2 / cnt) / cnt
+        shares = beta ** 2 * (np.diag(sxx) / cnt) / var_y
         if shares.sum() > 1.0:  # parts correlated against each other: scale to the whole variance
             shares = shares / shares.sum()
         remainder = float(max(0.0, 1.0 - shares.sum()))
         order = np.argsort(-shares)
         entries = tuple(BudgetEntry(refs[i], float(shares[i]), float(s_vec[i]), unit) for i in order)
-        out[name] = Budget(name, entries, remainder, int(ok.sum()))
+        out[name] = Budget(name, entries, remainder, int(cnt))
     return out

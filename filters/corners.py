@@ -13,6 +13,12 @@ estimate, not a guaranteed worst case (the report says which kind it is).
 The RSS estimate combines the sensitivities with each part's spread:
 sigma(metric) ~ sqrt(sum (S_i sigma_i)^2) with sigma_i the sampled standard deviation of
 ln(value_i); the RSS limit uses the half-range of ln(value_i) instead of sigma_i.
+
+Memory: corner and perturbed boards are evaluated in bounded batches
+(:func:`filters.budget.evaluate_rows`; the polishing makes 2 x parts rows per corner and
+builds them batch by batch), and the sampled spread is taken in chunks of boards
+(:func:`filters.summary.column_stats`), so nothing grows with the boards, and the
+corner search holds (corners x parts) numbers beside one batch.
 """
 from __future__ import annotations
 
@@ -21,9 +27,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .budget import STEP, is_log_metric, metric_columns, sensitivities
-from .evaluate import Ensemble, Prepared, evaluate_values
+from .budget import evaluate_rows, is_log_metric, log_deviations, metric_columns, perturbed_rows, sensitivities
+from .evaluate import Ensemble, Prepared
 from .sampling import limits
+from .summary import CHUNK, chunks, column_stats
 
 MAX_EXHAUSTIVE = 12
 #: An RSS standard deviation below this share of the sampled one marks a metric as not
@@ -111,12 +118,7 @@ def _polish(prep: Prepared, rows: list[np.ndarray], targets: list[tuple[str, int
     p = len(prep.nominal.values)
     for _ in range(rounds):
         base = np.array(rows)
-        k = np.arange(p)
-        pert = np.repeat(base, 2 * p, axis=0).reshape(len(rows), 2 * p, p)
-        pert[:, 2 * k, k] *= np.exp(STEP)
-        pert[:, 2 * k + 1, k] *= np.exp(-STEP)
-        ev = evaluate_values(prep, pert.reshape(-1, p))
-        cols = metric_columns_of(prep, ev)
+        cols, _ = evaluate_rows(prep, 2 * p * len(rows), lambda a, b: perturbed_rows(base, a, b))
         moved = False
         for i, (name, sign) in enumerate(targets):
             y = cols[name].reshape(len(rows), 2 * p)[i]
@@ -134,29 +136,33 @@ def _polish(prep: Prepared, rows: list[np.ndarray], targets: list[tuple[str, int
     return rows
 
 
-def metric_columns_of(prep: Prepared, ev) -> dict[str, np.ndarray]:
-    """Metrics and span margins of evaluated rows, by name."""
-    cols = dict(ev.metrics)
-    for j, s in enumerate(prep.design.mask):
-        cols[f"margin.{s.label}"] = ev.margins[:, j]
-    return cols
+def log_spread(ens: Ensemble, nominal: np.ndarray, chunk: int = CHUNK) -> np.ndarray:
+    """Standard deviation (ddof 0) of each part's ln(value / marked value) over the
+    boards, (P,), taken in chunks of ``chunk`` boards (two passes)."""
+    n, p = ens.values.shape
+    total = np.zeros(p)
+    for sl in chunks(n, chunk):
+        total += log_deviations(ens, nominal, sl).sum(axis=0)
+    mean = total / max(n, 1)
+    squares = np.zeros(p)
+    for sl in chunks(n, chunk):
+        d = log_deviations(ens, nominal, sl) - mean
+        squares += np.einsum("ij,ij->j", d, d)
+    return np.sqrt(squares / max(n, 1))
 
 
-def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None) -> Corners:
-    """Corner extremes and RSS estimates of ``names`` (default: every metric and margin)."""
+def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None, chunk: int = CHUNK) -> Corners:
+    """Corner extremes and RSS estimates of ``names`` (default: every metric and margin);
+    the sampled spread is taken in chunks of ``chunk`` boards."""
     cols = metric_columns(ens)
     names = list(cols) if names is None else names
     rows, exhaustive, m = corner_values(prep, ens, names)
-    ev = evaluate_values(prep, rows)
-    ccols = dict(ev.metrics)
-    for j, s in enumerate(ens.design.mask):
-        ccols[f"margin.{s.label}"] = ev.margins[:, j]
+    ccols, cmarg = evaluate_rows(prep, rows.shape[0], lambda a, b: rows[a:b])
     nomcols = dict(prep.nominal.metrics)
     for j, s in enumerate(ens.design.mask):
         nomcols[f"margin.{s.label}"] = float(prep.nominal.margins[j])
     sens = sensitivities(prep, names)
-    lnx = np.log(ens.values / prep.nominal.values)
-    sigma = lnx.std(axis=0)
+    sigma = log_spread(ens, prep.nominal.values, chunk)
     lo, hi = limits(prep.nominal.values, ens.grades, ens.design.analysis.conditions)
     half = 0.5 * (np.log(hi) - np.log(lo))
     ranges = {}
@@ -173,17 +179,17 @@ def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None) -> Co
         else:  # s is per 1 %; back to per unit ln(value)
             rss_std = float(np.sqrt(np.sum((100 * s * sigma) ** 2)))
             rss_lim = float(np.sqrt(np.sum((100 * s * half) ** 2)))
-        finite = y[np.isfinite(y)]
+        st = column_stats(y, ddof=1, chunk=chunk)
         cfin = c[np.isfinite(c)]
-        sampled_std = float(finite.std(ddof=1)) if finite.size > 1 else 0.0
+        sampled_std = st.std if st.count > 1 else 0.0
         linear = not (sampled_std > 0 and np.isfinite(rss_std) and rss_std < LINEAR_SHARE * sampled_std)
         if not linear:
             rss_std = rss_lim = float("nan")
         ranges[name] = CornerRange(
             name, nominal,
             float(cfin.min()) if cfin.size else np.nan, float(cfin.max()) if cfin.size else np.nan,
-            float(finite.min()) if finite.size else np.nan, float(finite.max()) if finite.size else np.nan,
+            st.minimum, st.maximum,
             rss_std, rss_lim, linear)
-    worst = {s.label: float(ev.margins[:, j].min()) for j, s in enumerate(ens.design.mask)}
-    all_pass = bool(np.all(ev.margins >= 0)) if ev.margins.size else True
+    worst = {s.label: float(cmarg[:, j].min()) for j, s in enumerate(ens.design.mask)}
+    all_pass = bool(np.all(cmarg >= 0)) if cmarg.size else True
     return Corners(ranges, exhaustive, int(rows.shape[0]), int(m), all_pass, worst)

@@ -19,6 +19,10 @@ from .topologies import TOPOLOGIES, Topology, build
 from .values import format_value, parse_value
 
 MAX_SAMPLES = 10_000_000
+# Parts in one design: the guided corner search evaluates about 4 x parts x metrics designs
+# per round (its work grows with the cube of the part count: 100 parts take about 30 s
+# here); memory stays bounded at any count (filters/memory.py, benchmarks/memory.py).
+MAX_PARTS = 100
 VALUE_RANGE = (1e-15, 1e15)  # SI units: beyond this no real part exists and the numbers overflow
 GAIN_LIMIT_DB = 1000.0       # mask limits beyond +-1000 dB are certainly typing errors
 # The largest mask limit of each quantity (gain dB, phase degrees, delay variation seconds):
@@ -418,6 +422,8 @@ def design_from_dict(data: Any) -> Design:
     if not isinstance(raw_parts, list) or not raw_parts:
         problems.append(InputError("must be a non-empty list of parts", "parts"))
         raw_parts = []
+    elif len(raw_parts) > MAX_PARTS:
+        problems.append(InputError(f"at most {MAX_PARTS} parts in one design, not {len(raw_parts)}", "parts"))
     seen: set[str] = set()
     for i, p in enumerate(raw_parts):
         path = f"parts[{i}]"
