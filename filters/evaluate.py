@@ -21,7 +21,14 @@ from typing import Callable, Sequence
 import numpy as np
 
 from .design import Design
-from .engine import Circuit, Response, compile_design, frequency_response, stage_coefficients
+from .engine import (
+    Circuit,
+    Response,
+    compile_design,
+    frequency_response,
+    response_blocks,
+    stage_coefficients,
+)
 from .errors import Cancelled, InputError
 from .grades import Grade
 from .judge import SpanPlan, margins, needs, plan
@@ -66,10 +73,11 @@ def scores_for(design: Design, samples: int, seed: int, method: str, start: int 
 
 @dataclass(frozen=True)
 class Evaluated:
-    """Results for a batch of part values: response (S, F), metrics name -> (S,),
-    margins (S, spans) in each span's unit."""
+    """Results for a batch of part values: response (S, F) (None when no curves were
+    kept), metrics name -> (S,) (empty on the pass/fail path), margins (S, spans) in each
+    span's unit."""
 
-    response: Response
+    response: Response | None
     metrics: dict[str, np.ndarray]
     margins: np.ndarray
 
@@ -170,28 +178,49 @@ def attenuation_name(f_hz: float) -> str:
 
 
 def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
-                    delay: bool = False, out: tuple | None = None) -> Evaluated:
+                    delay: bool = False, out: tuple | None = None, metrics: bool = True) -> Evaluated:
     """Responses, metrics and margins for part values ``values`` (S, P), no sampling.
 
     ``out`` = (gain_db, phase, delay) arrays (S, F) (or None each) to write the curves into.
+    The margins are judged block by block while each block of the response is in the CPU
+    cache (:func:`filters.engine.response_blocks`).
+
+    ``metrics=False`` is the pass/fail-and-margins path: no metrics (``metrics`` is
+    empty), no phase or delay unless the mask or ``phase``/``delay`` asks for them, and
+    without ``out`` no curves at all (``response`` is None; memory is a few blocks of
+    rows). Its margins equal the full path's bit for bit.
     """
     need_phase, need_delay = needs(prep.design.mask)
+    want_phase, want_delay = phase or need_phase, delay or need_delay
+    s, f = values.shape[0], prep.freqs_hz.size
+    o = out or (None, None, None)
+    gain, ph, tau = o[0], o[1] if want_phase else None, o[2] if want_delay else None
+    if metrics:  # the metrics read the whole curves: keep them
+        gain = np.empty((s, f)) if gain is None else gain
+        ph = np.empty((s, f)) if want_phase and ph is None else ph
+        tau = np.empty((s, f)) if want_delay and tau is None else tau
+    marg = np.empty((s, len(prep.plans)))
     # Extreme but valid designs may overflow or underflow in places (a gain of 1e-320);
     # such numbers become inf or 0 and are reported as missing, never as warnings mid-run.
     with np.errstate(divide="ignore", over="ignore", invalid="ignore", under="ignore"):
         coeffs = stage_coefficients(prep.circuit, values, prep.w_refs)
-        o = out or (None, None, None)
-        resp = frequency_response(prep.circuit, coeffs, prep.freqs_hz, phase=phase or need_phase,
-                                  delay=delay or need_delay, out_gain_db=o[0], out_phase=o[1], out_delay=o[2])
+        for lo, hi, block in response_blocks(prep.circuit, coeffs, prep.freqs_hz, phase=want_phase,
+                                             delay=want_delay, out_gain_db=gain, out_phase=ph,
+                                             out_delay=tau):
+            marg[lo:hi] = margins(prep.plans, block)
+        resp = None if gain is None else Response(prep.freqs_hz, gain, ph, tau)
+        if not metrics:
+            return Evaluated(resp, {}, marg)
+        assert resp is not None
         a = prep.design.analysis
         m = _metrics_for(prep.circuit, coeffs, resp, a.cutoff_db, a.attenuation_hz)
-        return Evaluated(resp, m, margins(prep.plans, resp))
+        return Evaluated(resp, m, marg)
 
 
 def evaluate(design: Design, *, samples: int | None = None, seed: int | None = None,
              method: str | None = None, grades: Sequence[Grade] | None = None,
              curves: bool = True, phase: bool = True, delay: bool = False,
-             extra_freqs: Sequence[float] = (), chunk: int | None = None, start: int = 0,
+             metrics: bool = True, extra_freqs: Sequence[float] = (), chunk: int | None = None, start: int = 0,
              prepared: Prepared | None = None,
              progress: Callable[[int, int], None] | None = None,
              should_stop: Callable[[], bool] | None = None) -> Ensemble:
@@ -200,6 +229,9 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
     ``grades`` overrides each part's grade (same order as ``design.parts``), which is how a
     tolerance slider or a candidate recommendation is tried on the same boards.
     ``start`` skips that many boards of the seed's sequence (for adding batches).
+    ``metrics=False`` judges pass/fail and margins only (what a recommendation reads): the
+    ensemble's ``metrics`` is empty, the margins are the full path's bit for bit, and with
+    ``curves=False`` no (S, F) array is made at all.
     ``progress(done, total)`` is called after each chunk; ``should_stop()`` returning True
     raises :class:`Cancelled`: it is asked after each chunk and every :data:`STOP_POLL_S`
     while a chunk is awaited; chunks still running then skip the rest of their work.
@@ -221,7 +253,7 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
     phase_deg = np.empty((n, f)) if curves and phase else None
     delay_s = np.empty((n, f)) if curves and delay else None
     marg = np.empty((n, len(prep.plans)))
-    metrics: dict[str, np.ndarray] = {}
+    columns: dict[str, np.ndarray] = {}  # metric name -> (n,)
 
     stopped = threading.Event()  # set when the caller stops: chunks not yet done skip their work
 
@@ -238,7 +270,8 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
         out = (None if gain_db is None else gain_db[lo:hi],
                None if phase_deg is None else phase_deg[lo:hi],
                None if delay_s is None else delay_s[lo:hi])
-        ev = evaluate_values(prep, vals, phase=curves and phase, delay=curves and delay, out=out)
+        ev = evaluate_values(prep, vals, phase=curves and phase, delay=curves and delay, out=out,
+                             metrics=metrics)
         marg[lo:hi] = ev.margins
         return lo, hi, ev.metrics
 
@@ -264,11 +297,11 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
         for b in bounds:
             pending.append(_POOL.submit(work, *b))
             if len(pending) >= window:
-                done = _collect(result_of(pending.pop(0)), metrics, n, done, progress)
+                done = _collect(result_of(pending.pop(0)), columns, n, done, progress)
                 if should_stop is not None and should_stop():
                     raise Cancelled("evaluation cancelled")
         while pending:
-            done = _collect(result_of(pending.pop(0)), metrics, n, done, progress)
+            done = _collect(result_of(pending.pop(0)), columns, n, done, progress)
             if pending and should_stop is not None and should_stop():
                 raise Cancelled("evaluation cancelled")
     finally:
@@ -278,7 +311,7 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
         for p in pending:
             p.cancel()
     return Ensemble(design, grade_list, seed, method, start, values, freqs, gain_db, phase_deg,
-                    delay_s, metrics, marg, prep.nominal)
+                    delay_s, columns, marg, prep.nominal)
 
 
 def _collect(result: tuple, metrics: dict[str, np.ndarray], n: int, done: int, progress) -> int:

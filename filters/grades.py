@@ -18,6 +18,7 @@ two standard deviations, common practice) truncated at the limits.
 """
 from __future__ import annotations
 
+import functools
 import json
 import os
 from dataclasses import asdict, dataclass, fields, replace
@@ -208,8 +209,10 @@ class Catalog:
         return Catalog(tuple(grades))
 
 
+@functools.lru_cache(maxsize=1)
 def builtin_catalog() -> Catalog:
-    """The catalog shipped with the package (typical grades; demo costs)."""
+    """The catalog shipped with the package (typical grades; demo costs). Read once and
+    shared: a :class:`Catalog` and its grades are immutable."""
     text = resources.files("filters").joinpath("data/catalog.json").read_text(encoding="utf-8")
     return Catalog.from_dict(json.loads(text))
 

@@ -22,8 +22,22 @@ class SpanPlan:
     """Grid indices of a span and its limit there, prepared once per grid."""
 
     span: Span
-    index: np.ndarray      # grid indices inside [f1, f2]
+    index: np.ndarray      # grid indices inside [f1, f2] (consecutive: the grid is sorted)
     limit: np.ndarray      # limit at those points (dB, deg or s)
+
+    @property
+    def columns(self) -> slice:
+        """The grid columns of ``index`` as a slice (a view of a response, no copy)."""
+        if self.index.size == 0:
+            return slice(0, 0)
+        return slice(int(self.index[0]), int(self.index[-1]) + 1)
+
+    @property
+    def flat(self) -> float | None:
+        """The limit when it is the same at every point of the span, else None."""
+        if self.limit.size and np.all(self.limit == self.limit[0]):
+            return float(self.limit[0])
+        return None
 
 
 def plan(mask: tuple[Span, ...], freqs_hz: np.ndarray, nominal_reference_db: float) -> list[SpanPlan]:
@@ -40,28 +54,60 @@ def plan(mask: tuple[Span, ...], freqs_hz: np.ndarray, nominal_reference_db: flo
     return out
 
 
+JUDGE_ROWS = 256  # rows per block where a sloped limit needs a temporary (stays in cache)
+
+
 def margins(plans: list[SpanPlan], resp: Response) -> np.ndarray:
     """Margin of every sample on every span, shape (samples, spans).
 
     Gain spans: dB; phase spans: degrees; delay spans: seconds (limit minus the delay's
     variation over the band). Positive = passes.
+
+    Each span reads its columns as a slice of the response (a view, never a copy). With a
+    flat limit the margin is min(curve) - limit (floor) or limit - max(curve) (ceiling):
+    rounding is monotonic, so this equals the smallest of the pointwise differences bit for
+    bit. A sloped limit is subtracted in blocks of :data:`JUDGE_ROWS` rows.
     """
     s = resp.gain_db.shape[0]
     out = np.empty((s, len(plans)))
     for j, p in enumerate(plans):
         q = p.span.quantity
-        if q == "gain":
-            d = resp.gain_db[:, p.index] - p.limit
-            out[:, j] = d.min(axis=1) if p.span.kind == "floor" else (-d).min(axis=1)
-        elif q == "phase":
-            assert resp.phase_deg is not None, "phase spans need the phase"
-            d = resp.phase_deg[:, p.index] - p.limit
-            out[:, j] = d.min(axis=1) if p.span.kind == "floor" else (-d).min(axis=1)
-        else:
+        if q == "delay":
             assert resp.delay_s is not None, "delay spans need the group delay"
-            band = resp.delay_s[:, p.index]
+            band = resp.delay_s[:, p.columns]
             out[:, j] = p.span.limit1 - (band.max(axis=1) - band.min(axis=1))
+            continue
+        if q == "gain":
+            curves = resp.gain_db
+        else:
+            assert resp.phase_deg is not None, "phase spans need the phase"
+            curves = resp.phase_deg
+        _span_margin(curves[:, p.columns], p, out[:, j])
     return out
+
+
+def _span_margin(band: np.ndarray, p: SpanPlan, out: np.ndarray) -> None:
+    """Margin (S,) of the curves ``band`` (S, width: a span's columns) against ``p``'s
+    limit, into ``out``: min(band - limit) for a floor, min(limit - band) for a ceiling."""
+    floor = p.span.kind == "floor"
+    flat = p.flat
+    if flat is not None:
+        if floor:
+            np.subtract(band.min(axis=1), flat, out=out)
+        else:  # -(max - limit): the same number as min(-(band - limit))
+            np.subtract(band.max(axis=1), flat, out=out)
+            np.negative(out, out=out)
+        return
+    rows = min(band.shape[0], JUDGE_ROWS)
+    tmp = np.empty((rows, band.shape[1]))
+    for lo in range(0, band.shape[0], JUDGE_ROWS):
+        hi = min(band.shape[0], lo + JUDGE_ROWS)
+        d = np.subtract(band[lo:hi], p.limit, out=tmp[:hi - lo])
+        if floor:
+            d.min(axis=1, out=out[lo:hi])
+        else:
+            d.max(axis=1, out=out[lo:hi])
+            np.negative(out[lo:hi], out=out[lo:hi])
 
 
 def needs(mask: tuple[Span, ...]) -> tuple[bool, bool]:

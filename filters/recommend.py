@@ -266,8 +266,10 @@ class _Evaluator:
 
     def _run(self, grades: tuple[Grade, ...], samples: int, seed: int) -> Ensemble:
         self._check_stop()
+        # pass/fail and margins are all a candidate needs (the shares read span margins); the
+        # metrics only without a mask (the shares then fall back to the cutoff)
         return evaluate(self.design, samples=samples, seed=seed, grades=grades, curves=False,
-                        prepared=self.prep, should_stop=self.should_stop)
+                        metrics=not self.design.mask, prepared=self.prep, should_stop=self.should_stop)
 
     def _candidate(self, grades: tuple[Grade, ...], ens: Ensemble) -> Candidate:
         k, n = int(np.count_nonzero(ens.passed)), ens.samples

@@ -37,6 +37,7 @@ from filters.engine import (
     compile_design,
     frequency_response,
     gain2_at,
+    response_blocks,
     stage_coefficients,
 )
 from filters.metrics import pole_pairs, stage_metrics
@@ -385,6 +386,38 @@ def test_gain_and_phase_match_scipy_freqs(cid, circuit, values):
         ref = np.degrees(np.unwrap(np.angle(h)))
         np.testing.assert_allclose(np.diff(resp.phase_deg[i]), np.diff(ref), rtol=0, atol=1e-7,
                                    err_msg=cid)
+
+
+@pytest.mark.parametrize("cid, circuit, values", CASES, ids=CASE_IDS)
+def test_gain_without_phase_is_the_gain_of_the_phase_path(cid, circuit, values):
+    # source: the documented contract of frequency_response (the phase is extra work on the
+    # same polynomials, never a different gain): bit for bit, every case above, with and
+    # without the group delay
+    coeffs = stage_coefficients(circuit, values)
+    full = frequency_response(circuit, coeffs, FREQS, phase=True, delay=True)
+    bare = frequency_response(circuit, coeffs, FREQS, phase=False, delay=False)
+    assert bare.phase_deg is None and bare.delay_s is None
+    np.testing.assert_array_equal(bare.gain_db, full.gain_db, err_msg=cid)
+    phase_only = frequency_response(circuit, coeffs, FREQS, phase=True, delay=False)
+    np.testing.assert_array_equal(phase_only.phase_deg, full.phase_deg, err_msg=cid)
+
+
+@pytest.mark.parametrize("rows", [1, 2, 3, 5])
+def test_response_blocks_equal_the_whole_response_whatever_the_block(rows):
+    # source: the documented contract of response_blocks (numbers independent of the
+    # blocks, bit for bit; a one-row block would take BLAS's matrix-vector kernel, whose
+    # last bits differ, so blocks hold two rows or more); scratch blocks are overwritten,
+    # so each is copied at once
+    for cid, circuit, values in CASES:
+        coeffs = stage_coefficients(circuit, values)
+        whole = frequency_response(circuit, coeffs, FREQS, phase=True, delay=True)
+        got = {k: np.full(whole.gain_db.shape, np.nan) for k in ("g", "p", "t")}
+        for lo, hi, blk in response_blocks(circuit, coeffs, FREQS, phase=True, delay=True, rows=rows):
+            assert blk.gain_db.shape == (hi - lo, FREQS.size)
+            got["g"][lo:hi], got["p"][lo:hi], got["t"][lo:hi] = blk.gain_db, blk.phase_deg, blk.delay_s
+        np.testing.assert_array_equal(got["g"], whole.gain_db, err_msg=cid)
+        np.testing.assert_array_equal(got["p"], whole.phase_deg, err_msg=cid)
+        np.testing.assert_array_equal(got["t"], whole.delay_s, err_msg=cid)
 
 
 @pytest.mark.parametrize("cid, circuit, values", CASES, ids=CASE_IDS)
