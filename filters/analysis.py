@@ -17,6 +17,7 @@ from .budget import Budget, spread_budget
 from .corners import Corners, corners
 from .design import Design
 from .evaluate import Ensemble, Prepared, evaluate, prepare
+from .memory import BoardStore, check_boards
 from .stats import SpanFailures, YieldEstimate, adaptive_yield, failure_breakdown, yield_estimate
 from .summary import MetricSummary, summarize
 
@@ -79,26 +80,33 @@ def analyze(design: Design, *, samples: int | None = None, seed: int | None = No
     interval = interval or a.interval
     prep = prepare(design)
     if half_width is None:
+        # the memory rule (filters/memory.py): refused in one line before any work
+        check_boards(prep, a.samples if samples is None else int(samples),
+                     "analysis.samples" if samples is None else "samples")
         ens = evaluate(design, samples=samples, seed=seed, method=method, curves=False,
                        prepared=prep, progress=progress, should_stop=should_stop)
         est, spans = yield_of(ens, a.confidence, interval)
         history = [est]
     else:
-        batches: list[Ensemble] = []
+        check_boards(prep, int(max_samples), "max_samples")
+        store = BoardStore(prep, int(max_samples))  # batches join without a second copy
 
         def run_batch(start: int, stop: int) -> np.ndarray:
-            e = evaluate(design, samples=stop - start, start=start, seed=seed, method=method,
-                         curves=False, prepared=prep, should_stop=should_stop)
-            batches.append(e)
+            passed = []
+            for lo, hi in store.pieces(start, stop):
+                e = evaluate(design, samples=hi - lo, start=lo, seed=seed, method=method,
+                             curves=False, prepared=prep, should_stop=should_stop)
+                store.add(e)
+                passed.append(e.passed)
             if progress is not None:
                 progress(stop, max_samples)
-            return e.passed
+            return np.concatenate(passed)
 
         first = samples or min(2000, max_samples)
         est, history = adaptive_yield(run_batch, half_width=half_width, batch=first,
                                       max_samples=max_samples, confidence=a.confidence,
                                       method=interval, should_stop=should_stop)  # type: ignore[arg-type]
-        ens = concat(batches)
+        ens = store.ensemble()
         _, spans = yield_of(ens, a.confidence, interval)
     summaries = {name: summarize(ens, name) for name in ens.metrics}
     budget = spread_budget(ens, prep)

@@ -14,9 +14,13 @@ by ``benchmarks/memory.py``; README's "Guarantees and their limits" quotes the f
 """
 from __future__ import annotations
 
+from dataclasses import replace
+
+import numpy as np
+
 from .design import MAX_SAMPLES
 from .errors import InputError
-from .evaluate import Prepared
+from .evaluate import Ensemble, Prepared
 
 #: Per-board numbers one run may keep: 150 million float64 (1.2 GB, 1,144 MiB).
 MAX_NUMBERS = 150_000_000
@@ -34,15 +38,65 @@ def max_boards(prep: Prepared) -> int:
     return max(1, min(MAX_SAMPLES, MAX_NUMBERS // numbers_per_board(prep)))
 
 
-def check_boards(prep: Prepared, boards: int, path: str, copies: int = 1) -> None:
-    """Refuse ``boards`` when ``copies`` x boards would keep more than ``MAX_NUMBERS``.
+def check_boards(prep: Prepared, boards: int, path: str) -> None:
+    """Refuse ``boards`` when they would keep more than ``MAX_NUMBERS`` numbers.
 
-    ``copies`` is 2 where a run joins batches into one ensemble (both are held while they
-    are joined). Raises :class:`InputError` naming ``path``, in one line.
+    Raises :class:`InputError` naming ``path``, in one line.
     """
-    most = max_boards(prep) // copies
+    most = max_boards(prep)
     if boards > most:
         per = numbers_per_board(prep)
         raise InputError(f"at most {most:,} boards for this design ({per} numbers a board: parts, "
                          f"metrics and margins; the memory bound is {MEMORY_BOUND_MIB // 1024} GB), "
                          f"not {boards:,}", path)
+
+
+#: Boards of one adaptive batch are evaluated this many numbers at a time (75 MB), so a
+#: batch adds at most that much beside the boards already kept.
+PIECE_NUMBERS = MAX_NUMBERS // 16
+
+
+class BoardStore:
+    """The per-board arrays of a run made of batches, filled piece by piece.
+
+    The arrays for ``capacity`` boards are made with ``numpy.empty``: the system commits
+    their pages only as rows are written, so a run that stops early keeps only what it
+    sampled. Each piece's ensemble is copied in and dropped, so joining needs no second
+    copy of the boards.
+    """
+
+    def __init__(self, prep: Prepared, capacity: int) -> None:
+        self.per = numbers_per_board(prep)
+        self.capacity = int(capacity)
+        self.filled = 0
+        self.first: Ensemble | None = None
+        self.values = np.empty((self.capacity, len(prep.design.parts)))
+        self.margins = np.empty((self.capacity, len(prep.design.mask)))
+        self.metrics: dict[str, np.ndarray] = {}
+
+    def pieces(self, start: int, stop: int) -> list[tuple[int, int]]:
+        """Board ranges covering ``[start, stop)``, each at most ``PIECE_NUMBERS`` numbers."""
+        step = max(1, PIECE_NUMBERS // self.per)
+        return [(lo, min(stop, lo + step)) for lo in range(start, stop, step)]
+
+    def add(self, ens: Ensemble) -> None:
+        """Copy the boards of ``ens`` (which must follow the boards kept so far)."""
+        lo, hi = ens.start, ens.start + ens.samples
+        if self.first is None:
+            self.first = ens
+        self.values[lo:hi] = ens.values
+        self.margins[lo:hi] = ens.margins
+        for name, v in ens.metrics.items():
+            if name not in self.metrics:
+                self.metrics[name] = np.empty(self.capacity)
+                self.metrics[name][:lo] = np.nan
+            self.metrics[name][lo:hi] = v
+        self.filled = max(self.filled, hi)
+
+    def ensemble(self) -> Ensemble:
+        """The kept boards as one ensemble (no curves), starting at the first piece's start."""
+        assert self.first is not None
+        n, start = self.filled, self.first.start
+        return replace(self.first, values=self.values[start:n], margins=self.margins[start:n],
+                       metrics={k: v[start:n] for k, v in self.metrics.items()},
+                       gain_db=None, phase_deg=None, delay_s=None)
