@@ -285,8 +285,9 @@ class SynthesisDialog(QDialog):
         self.warning.setText(warning)
         self.warning.setVisible(bool(warning))
         self.accept_errors.setVisible(bool(warning))
-        if not warning:
-            self.accept_errors.setChecked(False)
+        blocked = self.accept_errors.blockSignals(True)
+        self.accept_errors.setChecked(False)  # an acceptance holds for the design it was given for
+        self.accept_errors.blockSignals(blocked)
         self._update_ok()
         self.result_changed.emit(result)
 

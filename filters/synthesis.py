@@ -428,7 +428,7 @@ def section_choices(index: int, topology: str, f0_hz: float, q: float | None, ki
             vals = _ordered(topology, {**caps, **_resistors(topology, f0_hz, q, caps, gain)})
             row = np.array([[vals[r] for r in _ROLES[topology]]])
             if _in_range(row, topology)[0]:
-                feasible.append((abs(math.log(level / pref)) + 1e-3 * len(feasible), vals))
+                feasible.append((abs(math.log(level / pref)) + 1e-9 * len(feasible), vals))  # ties: first C1
     if not feasible:
         raise _refusal(index, topology, f0_hz, q, kind, cap_series, gain)
     feasible.sort(key=lambda t: t[0])

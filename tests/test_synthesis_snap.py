@@ -348,6 +348,10 @@ def test_dialog_shows_the_error_report_and_asks_before_accepting(dialog, qtbot):
     qtbot.mouseClick(dialog.accept_errors, Qt.MouseButton.LeftButton,
                      pos=QPoint(8, dialog.accept_errors.height() // 2))  # on its box
     assert dialog.accept_errors.isChecked() and dialog.ok_button.isEnabled()
+    # a changed design needs its own acceptance
+    _type(qtbot, dialog.bandwidth, "101")
+    assert not dialog.accept_errors.isChecked() and not dialog.ok_button.isEnabled()
+    qtbot.mouseClick(dialog.accept_errors, Qt.MouseButton.LeftButton, pos=QPoint(8, dialog.accept_errors.height() // 2))
     with qtbot.waitSignal(dialog.accepted, timeout=2000):
         qtbot.mouseClick(dialog.ok_button, Qt.MouseButton.LeftButton)
     assert dialog.result().exceeded
