@@ -1,51 +1,81 @@
 """Speed and memory figures quoted in README.md; run ``python benchmarks/engine.py``.
 
-Not run by CI (timings are not tests). Timings are repeated after a warm-up and printed
-as best and median, because a shared machine's timings scatter; the per-sample loop is
-the same work done one board at a time with ``scipy.signal.freqs``, for comparison, and
-the ratio is taken median to median.
+Not run by CI (timings are not tests). Each figure is repeated after a warm-up and
+printed as the median wall time and the median CPU time (all threads of the process,
+``time.process_time``); a shared machine's wall times scatter, CPU times much less, so
+ratios are given for both. Compared figures are measured side by side in the same run,
+interleaved. The per-sample loop is the same work done one board at a time with
+``scipy.signal.freqs``, for comparison.
+
+``--quick`` skips the runs of 1,000,000 boards, ``--no-gui`` the window.
 """
 from __future__ import annotations
 
 import argparse
+import json
+import math
 import resource
+import subprocess
 import sys
 import time
-import tracemalloc
+from dataclasses import dataclass
+from dataclasses import replace as dc_replace
+from pathlib import Path
 
 import numpy as np
 from scipy import optimize, signal
 
-from filters.designfile import load_demo
-from filters.engine import compile_design, stage_coefficients
-from filters.evaluate import evaluate, frequency_grid
+ROOT = Path(__file__).resolve().parents[1]
+if str(ROOT) not in sys.path:
+    sys.path.insert(0, str(ROOT))
+
+from filters.design import design_from_dict  # noqa: E402
+from filters.designfile import load, load_demo  # noqa: E402
+from filters.engine import compile_design, stage_coefficients  # noqa: E402
+from filters.evaluate import evaluate, frequency_grid, prepare  # noqa: E402
+
+EXAMPLE = ROOT / "assets" / "examples" / "ultrasonic_bandpass.json"
 
 
-def timings(fn, repeats: int = 15, warmup: int = 2) -> tuple[float, float]:
-    """(best, median) wall time in s of ``fn()`` over ``repeats`` runs after ``warmup``."""
-    for _ in range(warmup):
-        fn()
-    times = []
+@dataclass
+class Timing:
+    """Medians over the repeats: ``wall`` and ``cpu`` (s); ``best`` wall (s)."""
+
+    best: float
+    wall: float
+    cpu: float
+
+    def text(self) -> str:
+        return f"median {self.wall * 1e3:.1f} ms wall (best {self.best * 1e3:.1f}), {self.cpu * 1e3:.1f} ms CPU"
+
+
+def side_by_side(fns: list, repeats: int = 15, warmup: int = 2) -> list[Timing]:
+    """Time each of ``fns`` ``repeats`` times, interleaved (one of each per round)."""
+    for fn in fns:
+        for _ in range(warmup):
+            fn()
+    walls: list[list[float]] = [[] for _ in fns]
+    cpus: list[list[float]] = [[] for _ in fns]
     for _ in range(repeats):
-        t = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t)
-    times.sort()
-    return times[0], times[len(times) // 2]
+        for k, fn in enumerate(fns):
+            c, t = time.process_time(), time.perf_counter()
+            fn()
+            walls[k].append(time.perf_counter() - t)
+            cpus[k].append(time.process_time() - c)
+    return [Timing(min(w), float(np.median(w)), float(np.median(c))) for w, c in zip(walls, cpus)]
 
 
-def ms(pair: tuple[float, float]) -> str:
-    return f"best {pair[0] * 1e3:.1f} ms, median {pair[1] * 1e3:.1f} ms"
+def ratio(slow: Timing, fast: Timing) -> str:
+    return f"{slow.wall / fast.wall:.1f} x wall, {slow.cpu / fast.cpu:.1f} x CPU"
 
 
-def loop_reference(design, samples: int, exact_cutoff: bool, repeats: int = 3) -> tuple[float, float]:
-    """Magnitude (dB), continuous phase and the -3 dB cutoff per sample with
-    scipy.signal.freqs in a loop over samples.
+# --- the per-sample loop --------------------------------------------------------------------
 
-    ``exact_cutoff`` refines the cutoff by root finding on |H(jw)| (scipy.optimize.brentq),
-    which is what the vectorized engine does; otherwise it is interpolated on the grid.
-    Returns (best, median) in s over ``repeats`` runs.
-    """
+def loop_reference(design, samples: int, exact_cutoff: bool):
+    """A function doing magnitude (dB), continuous phase and the -3 dB cutoff per sample with
+    scipy.signal.freqs in a loop over samples; ``exact_cutoff`` refines the cutoff by root
+    finding on |H(jw)| (scipy.optimize.brentq), as the engine does, else it is
+    interpolated on the grid."""
     ens = evaluate(design, samples=samples, curves=False)
     circuit = compile_design(design)
     coeffs = stage_coefficients(circuit, ens.values)
@@ -75,32 +105,186 @@ def loop_reference(design, samples: int, exact_cutoff: bool, repeats: int = 3) -
                 else:
                     np.interp(level, [mag[i], mag[i - 1]], [np.log(freqs[i]), np.log(freqs[i - 1])])
 
-    return timings(run, repeats, warmup=0)
+    return run
+
+
+# --- designs for the scaling table -------------------------------------------------------------
+
+def _design(parts, stages, fc: float, f_stop: float = 1e5, stop_factor: float = 4.0):
+    """A design of the given parts ([(ref, value, grade)]) and stages, with a passband floor
+    up to fc / 4 and a stopband ceiling from ``stop_factor`` x fc, both relative to the
+    passband (invented figures for timing)."""
+    return design_from_dict({
+        "format": "tolspread-design", "version": 2,
+        "parts": [{"ref": r, "value": v, "grade": g} for r, v, g in parts],
+        "stages": stages,
+        "mask": [{"kind": "floor", "f1": 10.0, "f2": fc / 4, "limit1": -3.0, "relative": True},
+                 {"kind": "ceiling", "f1": stop_factor * fc, "f2": f_stop, "limit1": -20.0, "relative": True}],
+        "analysis": {"f_start": 10.0, "f_stop": f_stop, "points": 400}})
+
+
+def cascade_12th_order(fc: float = 1e3):
+    """Twelve poles: six unity-gain Sallen-Key sections with Butterworth Qs,
+    Q_k = 1 / (2 sin((2k - 1) pi / 24)), R1 = R2 = 10 kOhm."""
+    parts, stages = [], []
+    for k in range(1, 7):
+        q = 1 / (2 * math.sin((2 * k - 1) * math.pi / 24))
+        c0 = 1 / (2 * math.pi * 10e3 * fc)
+        refs = {"R1": f"R{2 * k - 1}", "R2": f"R{2 * k}", "C1": f"C{2 * k - 1}", "C2": f"C{2 * k}"}
+        parts += [(refs["R1"], 10e3, "R-thick-1"), (refs["R2"], 10e3, "R-thick-1"),
+                  (refs["C1"], c0 * 2 * q, "C-C0G-5"), (refs["C2"], c0 / (2 * q), "C-C0G-5")]
+        stages.append({"topology": "sallen_key_lowpass", "options": {}, "parts": refs})
+    return _design(parts, stages, fc)
+
+
+def lc_ladder_5th_order(fc: float = 1e3, r0: float = 50.0):
+    """A doubly terminated Butterworth LC ladder, shunt C first, g_k = 2 sin((2k - 1) pi / 10)."""
+    wc = 2 * math.pi * fc
+    parts = [("RS", r0, "R-thick-1"), ("RL", r0, "R-thick-1")]
+    roles = {"RS": "RS", "RL": "RL"}
+    for k in range(1, 6):
+        g = 2 * math.sin((2 * k - 1) * math.pi / 10)
+        ref = f"C{k}" if k % 2 else f"L{k}"
+        parts.append((ref, g / (r0 * wc) if k % 2 else g * r0 / wc, "C-C0G-5" if k % 2 else "L-5"))
+        roles[ref] = ref
+    return _design(parts, [{"topology": "lc_lowpass", "options": {"order": 5, "first": "shunt"},
+                            "parts": roles}], fc)
+
+
+def rc_ladder_4_sections():
+    """Four RC low-pass sections in one passive ladder (R_k = 1 kOhm (1 + 0.7k),
+    C_k = 100 nF / (1 + 0.3k))."""
+    parts, roles = [], {}
+    for k in range(1, 5):
+        parts += [(f"R{k}", 1e3 * (1 + 0.7 * k), "R-thick-1"), (f"C{k}", 100e-9 / (1 + 0.3 * k), "C-C0G-5")]
+        roles.update({f"R{k}": f"R{k}", f"C{k}": f"C{k}"})
+    return _design(parts, [{"topology": "rc_lowpass", "options": {"sections": 4}, "parts": roles}], 150.0, stop_factor=10.0)
+
+
+def scaling_designs() -> list[tuple[str, object]]:
+    return [("demo (4th order, 2 Sallen-Key)", load_demo()),
+            ("12th-order cascade (6 Sallen-Key)", cascade_12th_order()),
+            ("5th-order LC ladder", lc_ladder_5th_order()),
+            ("4-section RC ladder", rc_ladder_4_sections()),
+            ("band-pass example (2 MFB, op-amp GBW)", load(str(EXAMPLE)))]
+
+
+def order_of(design) -> int:
+    """Total denominator degree of the design's H(s) (poles)."""
+    circuit = compile_design(design)
+    return sum(st.tf.den_degree for st in circuit.stages)
+
+
+# --- the figures --------------------------------------------------------------------------------
+
+def engine_vs_loop(design, n: int) -> None:
+    freqs = frequency_grid(design)
+    bare = dc_replace(design, mask=())  # the loop does no judging either
+    prep = prepare(bare)
+    loop_exact = loop_reference(design, n, exact_cutoff=True)
+    loop_grid = loop_reference(design, n, exact_cutoff=False)
+
+    def vec() -> None:
+        evaluate(bare, samples=n, curves=True, phase=True, prepared=prep)
+
+    t_vec, t_loop = side_by_side([vec, loop_exact], repeats=3, warmup=1)
+    t_vec2, t_grid = side_by_side([vec, loop_grid], repeats=3, warmup=0)
+    print(f"full evaluation of the demo (sampling, gain dB, phase, cutoff, stage f0/Q), {n:,} boards x "
+          f"{freqs.size} freqs: {t_vec.text()}")
+    print(f"  per-sample scipy.signal.freqs loop, same work (cutoff by root finding): {t_loop.text()}"
+          f"  -> engine {ratio(t_loop, t_vec)} faster")
+    print(f"  per-sample loop with the cutoff only interpolated on the grid: {t_grid.text()}"
+          f"  -> engine {ratio(t_grid, t_vec2)} faster")
+    t_many = side_by_side([vec], repeats=21)[0]
+    print(f"  full evaluation alone, 21 repeats: {t_many.text()}")
+
+
+def pass_fail_vs_full(design, n: int) -> None:
+    prep = prepare(design)
+    full, metrics_only, fast = side_by_side([
+        lambda: evaluate(design, samples=n, curves=True, phase=True, prepared=prep),
+        lambda: evaluate(design, samples=n, curves=False, prepared=prep),
+        lambda: evaluate(design, samples=n, curves=False, metrics=False, prepared=prep)], repeats=21)
+    print(f"judged demo, {n:,} boards: full evaluation (curves, phase, every metric, margins): {full.text()}")
+    print(f"  metrics and margins, no curves (analyze): {metrics_only.text()}")
+    print(f"  pass/fail and margins only (recommend): {fast.text()}  -> {ratio(full, fast)} faster than "
+          f"the full evaluation, {ratio(metrics_only, fast)} faster than metrics without curves")
+
+
+def recommend_times() -> None:
+    from filters.recommend import recommend
+
+    for name, design, target in (("demo", load_demo(), 0.99), ("demo", load_demo(), 0.95),
+                                 (EXAMPLE.name, load(str(EXAMPLE)), 0.85)):
+        c, t = time.process_time(), time.perf_counter()
+        r = recommend(design, target)
+        wall, cpu = time.perf_counter() - t, time.process_time() - c
+        print(f"recommend {name} at {target}: {wall:.2f} s wall, {cpu:.2f} s CPU, {r.evaluations} sets "
+              f"evaluated ({design.analysis.samples:,} boards each), chosen {'yes' if r.chosen else 'no'}")
+
+
+def million(design_name: str = "demo", samples: int = 1_000_000) -> None:
+    """Run in a child process: elapsed time and the process's peak RSS for ``samples``
+    boards, metrics and margins only (no curves)."""
+    design = load_demo() if design_name == "demo" else load(design_name)
+    c, t = time.process_time(), time.perf_counter()
+    ens = evaluate(design, samples=samples, curves=False)
+    wall, cpu = time.perf_counter() - t, time.process_time() - c
+    rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(json.dumps({"wall": wall, "cpu": cpu, "rss_mib": rss, "passed": int(ens.passed.sum())}))
+
+
+def million_in_child(samples: int = 1_000_000) -> dict:
+    out = subprocess.run([sys.executable, __file__, "--child-million", str(samples)], capture_output=True,
+                         text=True, check=True)
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def scaling_table(sizes: list[int]) -> None:
+    print("scaling: metrics and margins, no curves (evaluate(curves=False)); ns per board x frequency, "
+          "and per board x frequency x section (section = 2 poles, rounded up)")
+    header = f"  {'design':40s} {'poles':>5s} {'freqs':>5s} " + " ".join(f"{n:>14,d}" for n in sizes)
+    print(header)
+    demo_per_section = None
+    for name, design in scaling_designs():
+        prep = prepare(design)
+        f = prep.freqs_hz.size
+        poles = order_of(design)
+        sections = math.ceil(poles / 2)
+        cells = []
+        per_section_10k = None
+        for n in sizes:
+            reps = 7 if n <= 10_000 else (3 if n <= 100_000 else 1)
+            t = side_by_side([lambda: evaluate(design, samples=n, curves=False, prepared=prep)],
+                             repeats=reps, warmup=1 if n < 1_000_000 else 0)[0]
+            ns = t.wall / (n * f) * 1e9
+            cells.append(f"{ns:6.2f} ({ns / sections:5.2f})")
+            if n == 10_000:
+                per_section_10k = t.cpu / (n * f * sections) * 1e9
+        print(f"  {name:40s} {poles:5d} {f:5d} " + " ".join(f"{c:>14s}" for c in cells))
+        if per_section_10k is not None:
+            if demo_per_section is None:
+                demo_per_section = per_section_10k
+            print(f"  {'':40s} CPU ns per board x frequency x section at 10,000: {per_section_10k:.2f} "
+                  f"({per_section_10k / demo_per_section:.2f} x the demo's)")
 
 
 def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__)
-    ap.add_argument("--quick", action="store_true", help="skip the 1,000,000-sample run")
+    ap.add_argument("--quick", action="store_true", help="skip the 1,000,000-board runs")
     ap.add_argument("--no-gui", action="store_true", help="skip the window latency figure")
+    ap.add_argument("--child-million", type=int, help=argparse.SUPPRESS)
     args = ap.parse_args()
+    if args.child_million:
+        million("demo", args.child_million)
+        return 0
     design = load_demo()
     n = 10_000
     freqs = frequency_grid(design)
     print(f"demo design: {len(design.parts)} parts, {len(design.stages)} stages, {freqs.size} frequencies")
-    from dataclasses import replace as dc_replace
-
-    bare = dc_replace(design, mask=())  # the loop below does no judging either
-    t_vec = timings(lambda: evaluate(bare, samples=n, curves=True, phase=True))
-    print(f"engine: sampling + magnitude (dB) + phase + cutoff + stage f0/Q, {n} samples x "
-          f"{freqs.size} freqs: {ms(t_vec)}")
-    t_loop = loop_reference(design, n, exact_cutoff=True)
-    print(f"per-sample scipy.signal.freqs loop, same work (cutoff by root finding): {ms(t_loop)}"
-          f"  -> engine {t_loop[1] / t_vec[1]:.0f} x faster (medians)")
-    t_grid = loop_reference(design, n, exact_cutoff=False)
-    print(f"per-sample loop with the cutoff only interpolated on the grid: {ms(t_grid)}"
-          f"  -> engine {t_grid[1] / t_vec[1]:.0f} x faster (medians)")
-    t_y = yield_pipeline(design, n)
-    print(f"sampling + response + judging + yield, {n} samples x {freqs.size} freqs: {ms(t_y)}")
+    engine_vs_loop(design, n)
+    pass_fail_vs_full(design, n)
+    recommend_times()
     if not args.no_gui:
         drag, release = slider_latency()
         for name, ts in (("while dragging (preview on the first 1000 boards)", drag),
@@ -108,32 +292,11 @@ def main() -> int:
             print(f"window, 5000-board design: slider to redrawn plots and yield {name}: "
                   f"median {ts[len(ts) // 2] * 1e3:.0f} ms, worst {ts[-1] * 1e3:.0f} ms")
     if not args.quick:
-        big = 1_000_000
-        tracemalloc.start()
-        t = time.perf_counter()
-        evaluate(design, samples=big, curves=False)
-        elapsed = time.perf_counter() - t
-        _, peak = tracemalloc.get_traced_memory()
-        tracemalloc.stop()
-        rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-        print(f"{big} samples in chunks, metrics only: {elapsed:.1f} s, "
-              f"peak traced numpy/Python memory {peak / 2**20:.0f} MiB (process peak RSS {rss:.0f} MiB)")
+        r = million_in_child()
+        print(f"1,000,000 boards of the demo, metrics and margins only, in chunks (own process): "
+              f"{r['wall']:.2f} s wall, {r['cpu']:.2f} s CPU, peak RSS {r['rss_mib']:.0f} MiB")
+    scaling_table([1_000, 10_000, 100_000] + ([] if args.quick else [1_000_000]))
     return 0
-
-
-
-def yield_pipeline(design, samples: int) -> tuple[float, float]:
-    """Sampling + response + judging + yield for ``samples`` boards (curves kept)."""
-    from filters.evaluate import prepare
-    from filters.stats import yield_estimate
-
-    prep = prepare(design)
-
-    def run() -> None:
-        ens = evaluate(design, samples=samples, curves=True, phase=False, prepared=prep)
-        yield_estimate(ens.passed)
-
-    return timings(run)
 
 
 def slider_latency(samples: int = 5000, moves: int = 15) -> tuple[list[float], list[float]]:
@@ -143,8 +306,6 @@ def slider_latency(samples: int = 5000, moves: int = 15) -> tuple[list[float], l
     import os
 
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-    from dataclasses import replace as dc_replace
-
     from PySide6.QtCore import QEventLoop
     from PySide6.QtWidgets import QApplication
 
@@ -180,6 +341,7 @@ def slider_latency(samples: int = 5000, moves: int = 15) -> tuple[list[float], l
     window.session.undo_stack.setClean()
     window.close()
     return sorted(drag), sorted(release)
+
 
 if __name__ == "__main__":
     sys.exit(main())
