@@ -10,7 +10,7 @@ Beside it, each part's normalized sensitivity at the nominal design,
 S = d ln(metric) / d ln(value) (for dB metrics: dB per unit ln(value), reported per 1 %),
 by a central difference of +-1e-4 in ln(value) evaluated as extra rows of one batch.
 
-Memory: the fit is taken in chunks of boards (:data:`filters.summary.CHUNK`), and rows
+Memory: the fit is taken in chunks of boards (:func:`filters.summary.board_chunk`), and rows
 of perturbed designs are evaluated in bounded batches (:func:`evaluate_rows`), so neither
 grows with the number of boards or parts beyond (parts x parts) sums.
 """
@@ -24,7 +24,7 @@ from typing import Callable
 import numpy as np
 
 from .evaluate import Ensemble, Prepared, evaluate_values
-from .summary import CHUNK, chunks
+from .summary import board_chunk, chunks
 
 STEP = 1e-4
 
@@ -112,9 +112,9 @@ def largest_remainder(values: list[float], total: float = 100.0, decimals: int =
     return [round(f * unit, decimals) for f in floors]
 
 
-#: Numbers per curve array in one batch of :func:`evaluate_rows` (16 MB of float64): the
+#: Numbers per curve array in one batch of :func:`evaluate_rows` (4 MB of float64): the
 #: rows of sensitivities and corners are evaluated this many frequency points at a time.
-ROW_NUMBERS = 1 << 21
+ROW_NUMBERS = 1 << 19
 
 
 def evaluate_rows(prep: Prepared, n: int, make_rows: Callable[[int, int], np.ndarray],
@@ -184,10 +184,11 @@ def budget_names(cols: dict[str, np.ndarray]) -> list[str]:
 
 
 def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
-                  chunk: int = CHUNK) -> dict[str, Budget]:
+                  chunk: int | None = None) -> dict[str, Budget]:
     """Spread budgets of ``names`` (default: :func:`budget_names`).
 
-    Taken in chunks of ``chunk`` boards (two passes: means, then centred cross products
+    Taken in chunks of ``chunk`` boards (default :func:`filters.summary.board_chunk` of the
+    part count; two passes: means, then centred cross products
     X'X (P, P) and X'y), so memory does not grow with the boards beyond one chunk. Each
     metric is fitted on the boards where it exists: the normal equations of its centred
     log deviations, solved by least squares (``numpy.linalg.lstsq``).
@@ -199,6 +200,7 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
     refs = [p.ref for p in ens.design.parts]
     nom = prep.nominal.values
     n, p = ens.values.shape
+    chunk = chunk or board_chunk(p)
 
     def y_of(name: str, sl: slice) -> np.ndarray:
         y = cols[name][sl]
@@ -228,6 +230,7 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
                 count[name] += int(ok.sum())
                 sum_y[name] += float(np.sum(y[ok]))
                 sum_x_ok[name] += x[ok].sum(axis=0)
+        del x  # one chunk's arrays at a time
     mx = sum_x / n if n else sum_x
     my = {name: sum_y[name] / count[name] if count[name] else 0.0 for name in names}
     # Pass 2: cross products centred on every board's mean log deviation (xc) and on each
@@ -241,6 +244,7 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
         xc = log_deviations(ens, nom, sl) - mx
         g = xc.T @ xc
         gram += g
+        xo = xc
         for name in names:
             y = y_of(name, sl)
             ok = np.isfinite(y)
@@ -256,6 +260,7 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
             sxy[name] += xo.T @ yc
             syy[name] += float(yc @ yc)
             sy[name] += float(np.sum(yc))
+        del xc, xo  # one chunk's arrays at a time
     varying = np.diag(gram) > 0
     out: dict[str, Budget] = {}
     full = [name for name in names if count[name] == n and syy[name] > 0 and n >= 3]

@@ -30,7 +30,7 @@ import numpy as np
 from .budget import evaluate_rows, is_log_metric, log_deviations, metric_columns, perturbed_rows, sensitivities
 from .evaluate import Ensemble, Prepared
 from .sampling import limits
-from .summary import CHUNK, chunks, column_stats
+from .summary import CHUNK, board_chunk, chunks, column_stats
 
 MAX_EXHAUSTIVE = 12
 #: An RSS standard deviation below this share of the sampled one marks a metric as not
@@ -136,24 +136,29 @@ def _polish(prep: Prepared, rows: list[np.ndarray], targets: list[tuple[str, int
     return rows
 
 
-def log_spread(ens: Ensemble, nominal: np.ndarray, chunk: int = CHUNK) -> np.ndarray:
+def log_spread(ens: Ensemble, nominal: np.ndarray, chunk: int | None = None) -> np.ndarray:
     """Standard deviation (ddof 0) of each part's ln(value / marked value) over the
-    boards, (P,), taken in chunks of ``chunk`` boards (two passes)."""
+    boards, (P,), taken in chunks of ``chunk`` boards (default
+    :func:`filters.summary.board_chunk` of the part count; two passes)."""
     n, p = ens.values.shape
+    chunk = chunk or board_chunk(p)
     total = np.zeros(p)
     for sl in chunks(n, chunk):
         total += log_deviations(ens, nominal, sl).sum(axis=0)
     mean = total / max(n, 1)
     squares = np.zeros(p)
     for sl in chunks(n, chunk):
-        d = log_deviations(ens, nominal, sl) - mean
+        d = log_deviations(ens, nominal, sl)
+        d -= mean
         squares += np.einsum("ij,ij->j", d, d)
+        del d  # one chunk's array at a time
     return np.sqrt(squares / max(n, 1))
 
 
-def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None, chunk: int = CHUNK) -> Corners:
+def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None, chunk: int | None = None) -> Corners:
     """Corner extremes and RSS estimates of ``names`` (default: every metric and margin);
-    the sampled spread is taken in chunks of ``chunk`` boards."""
+    the sampled spread is taken in chunks of ``chunk`` boards (default: see
+    :func:`log_spread` and :data:`filters.summary.CHUNK`)."""
     cols = metric_columns(ens)
     names = list(cols) if names is None else names
     rows, exhaustive, m = corner_values(prep, ens, names)
@@ -179,7 +184,7 @@ def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None, chunk
         else:  # s is per 1 %; back to per unit ln(value)
             rss_std = float(np.sqrt(np.sum((100 * s * sigma) ** 2)))
             rss_lim = float(np.sqrt(np.sum((100 * s * half) ** 2)))
-        st = column_stats(y, ddof=1, chunk=chunk)
+        st = column_stats(y, ddof=1, chunk=chunk or CHUNK)
         cfin = c[np.isfinite(c)]
         sampled_std = st.std if st.count > 1 else 0.0
         linear = not (sampled_std > 0 and np.isfinite(rss_std) and rss_std < LINEAR_SHARE * sampled_std)

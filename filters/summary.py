@@ -26,6 +26,16 @@ from .evaluate import Ensemble
 CHUNK = 1 << 16
 
 
+#: Numbers per chunk where each board brings a row of P numbers (the spread budget's log
+#: deviations): ``board_chunk(P)`` boards, 4 MB a chunk array.
+CHUNK_NUMBERS = 1 << 19
+
+
+def board_chunk(width: int) -> int:
+    """Boards per chunk for rows of ``width`` numbers (at least 256)."""
+    return max(256, CHUNK_NUMBERS // max(1, width))
+
+
 def chunks(n: int, size: int = CHUNK) -> Iterator[slice]:
     """Slices of ``[0, n)`` of at most ``size`` boards each."""
     size = max(1, int(size))
