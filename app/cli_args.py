@@ -12,7 +12,8 @@ import math
 import re
 import sys
 
-from filters.design import MAX_SAMPLES
+from filters.design import MAX_SAMPLES, check_seed
+from filters.errors import InputError
 
 EXIT_BAD_INPUT = 2
 #: ``tolspread recommend`` found no set of grades that meets the target (README: exit status).
@@ -54,14 +55,12 @@ def positive_int(text: str) -> int:
 
 
 def seed(text: str) -> int:
-    """A random seed: a whole number, 0 or more."""
+    """A random seed: a whole number from 0 to 2^63-1, the design file's and the window's
+    range (:func:`filters.design.check_seed`)."""
     try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if v < 0:
-        raise argparse.ArgumentTypeError(f"{text!r} must not be negative")
-    return v
+        return check_seed(text, "--seed")
+    except InputError as exc:
+        raise argparse.ArgumentTypeError(exc.reason) from None
 
 
 def fraction_or_percent(text: str, lowest: float = 0.0) -> float:

@@ -21,7 +21,7 @@ from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog, QLabel, Q
                                QProgressBar, QPushButton, QSplitter, QToolBar)
 
 from filters import __version__
-from filters.design import Design
+from filters.design import Design, check_design
 from filters.designfile import load_demo, write_text_atomic
 from filters.errors import InputError, ValidationError
 from filters.liveview import ViewData, what_if_grades
@@ -36,6 +36,7 @@ from .qt_plots import SpreadPlots
 from .qt_results import ResultsPanel
 from .qt_session import Session
 from .qt_style import VERMILION
+from .qt_units import QUANTITY_UNIT, eng
 
 log = logging.getLogger("tolspread")
 MAX_RECENT = 8
@@ -234,7 +235,7 @@ class MainWindow(QMainWindow):
         self.plots.span_changing.connect(self._on_span_changing)
         self.plots.span_selected.connect(self.span_table.select)
         self.span_table.span_selected.connect(self.plots.select)
-        self.span_table.span_edited.connect(self._on_span_edited)
+        self.span_table.span_edited.connect(self._on_table_span_edited)
         self.span_table.span_added.connect(self._on_span_added)
         self.span_table.span_deleted.connect(self._delete_span)
         self.span_table.problem.connect(self.show_status)
@@ -275,7 +276,7 @@ class MainWindow(QMainWindow):
         self.session.set_second(second)  # type: ignore[arg-type]
 
     def _clear_readout(self) -> None:
-        self.plots.readout.setText(" ")
+        self.plots.clear_readout()
 
     def _on_cancel_clicked(self) -> None:
         self.session.cancel()
@@ -329,16 +330,35 @@ class MainWindow(QMainWindow):
         self.setWindowTitle(f"{'* ' if self.session.dirty else ''}{name} — tolspread {__version__}")
 
     # --- view to model -------------------------------------------------------------------
+    def apply_edit(self, design: Design, text: str) -> str | None:
+        """Make ``design`` the current design as one undoable edit named ``text`` if the
+        loader accepts it (:func:`filters.design.check_design`: the rules a saved file is
+        opened with), so whatever the window accepts saves into a file that opens.
+
+        Returns None, or the reason it was refused (one line; the design is unchanged and
+        the status bar says why)."""
+        try:
+            checked = check_design(design)
+        except ValidationError as exc:
+            reason = exc.lines()[0]
+            self.show_status(f"not applied ({text}): {reason}")
+            return reason
+        self.session.apply(checked, text)
+        return None
+
     def _on_value_committed(self, ref: str, value: float, text: str) -> None:
         d = self.session.design
-        self.session.apply(d.with_part(ref, value=value, text=text), f"{ref} value {text}")
+        reason = self.apply_edit(d.with_part(ref, value=value, text=text), f"{ref} value {text}")
+        if reason is not None:
+            self.parts.mark_invalid(ref, reason)
 
     def _on_grade_chosen(self, ref: str, grade: str) -> None:
         d = self.session.design
         p = d.parts[d.part_index(ref)]
         if p.grade == grade and p.tolerance_pct is None:
             return
-        self.session.apply(d.with_part(ref, grade=grade, tolerance_pct=None), f"{ref} grade {grade}")
+        if self.apply_edit(d.with_part(ref, grade=grade, tolerance_pct=None), f"{ref} grade {grade}"):
+            self.parts.show_design(self.session.design)  # the grade box goes back
 
     def _on_tolerance_dragging(self, ref: str, pct: float) -> None:
         self._what_if[ref] = pct
@@ -349,15 +369,19 @@ class MainWindow(QMainWindow):
     def _on_tolerance_released(self, ref: str, pct: float) -> None:
         self._what_if.pop(ref, None)
         d = self.session.design
-        self.session.apply(d.with_part(ref, tolerance_pct=pct), f"{ref} tolerance ±{pct:g} %")
+        if self.apply_edit(d.with_part(ref, tolerance_pct=pct), f"{ref} tolerance ±{pct:g} %"):
+            self.parts.show_design(self.session.design)  # the slider goes back
 
     def _on_sampling_changed(self, samples: int, seed: int, method: str) -> None:
         d = self.session.design
         a = d.analysis
         if (samples, seed, method) == (a.samples, a.seed, a.method):
             return
-        self.session.apply(d.with_analysis(samples=samples, seed=seed, method=method),
-                           f"{samples} boards, seed {seed}")
+        reason = self.apply_edit(d.with_analysis(samples=samples, seed=seed, method=method),
+                                 f"{samples} boards, seed {seed}")
+        if reason is not None:
+            self.parts.show_design(self.session.design)
+            self.parts.mark_seed_invalid(reason)
 
     def _set_draw(self, kind: str, on: bool) -> None:
         other = self.act_ceiling if kind == "floor" else self.act_floor
@@ -369,21 +393,34 @@ class MainWindow(QMainWindow):
 
     def _on_span_added(self, span: Span) -> None:
         d = self.session.design
-        self.session.apply(d.with_mask(d.mask + (span,)), f"add {span.label}")
+        refused = self.apply_edit(d.with_mask(d.mask + (span,)), f"add {span.label}")
         self.act_floor.setChecked(False)
         self.act_ceiling.setChecked(False)
         self.plots.set_draw_kind(None)
-        self.plots.select(len(d.mask))
+        if refused is None:
+            self.plots.select(len(d.mask))
 
     def _on_span_edited(self, index: int, span: Span) -> None:
         d = self.session.design
         mask = list(d.mask)
         mask[index] = span
-        self.session.apply(d.with_mask(tuple(mask)), f"edit {span.label}")
+        if self.apply_edit(d.with_mask(tuple(mask)), f"edit {span.label}") is not None:
+            self.plots.redraw_mask(d.mask)  # a dragged span goes back where the design has it
+            self.span_table.show_mask(d.mask, (d.analysis.f_start, d.analysis.f_stop))
+
+    def _on_table_span_edited(self, index: int, span: Span) -> None:
+        d = self.session.design
+        mask = list(d.mask)
+        mask[index] = span
+        reason = self.apply_edit(d.with_mask(tuple(mask)), f"edit {span.label}")
+        if reason is not None:
+            self.span_table.refuse(index, reason)
 
     def _on_span_changing(self, index: int, span: Span) -> None:
-        self.show_status(f"{span.label}: {span.f1:g} Hz to {span.f2:g} Hz, limit {span.limit1:+.2f}"
-                         f"{'' if span.limit2 is None else f' to {span.limit2:+.2f}'} dB"
+        unit = QUANTITY_UNIT[span.quantity]
+        self.show_status(f"{span.label}: {eng(span.f1, 'Hz', 4)} to {eng(span.f2, 'Hz', 4)}, limit "
+                         f"{eng(span.limit1, unit, 4)}"
+                         f"{'' if span.limit2 is None else f' to {eng(span.limit2, unit, 4)}'}"
                          f"{' relative' if span.relative else ''} (release to apply)")
 
     def delete_selected_span(self) -> None:
@@ -396,7 +433,7 @@ class MainWindow(QMainWindow):
         if not 0 <= index < len(d.mask):
             return
         span = d.mask[index]
-        self.session.apply(d.with_mask(d.mask[:index] + d.mask[index + 1:]), f"delete {span.label}")
+        self.apply_edit(d.with_mask(d.mask[:index] + d.mask[index + 1:]), f"delete {span.label}")
         self.plots.select(-1)
 
     def _on_failing_toggled(self, on: bool) -> None:
@@ -572,7 +609,9 @@ class MainWindow(QMainWindow):
         if dlg.exec():
             grades = tuple(dlg.changed_grades())
             if grades != d.grades:
-                self.session.apply(replace(d, grades=grades), "edit grades and costs")
+                reason = self.apply_edit(replace(d, grades=grades), "edit grades and costs")
+                if reason is not None:
+                    self._show_problem("The grades were not changed", reason)
 
     def open_recommend(self) -> None:
         from .qt_recommend import RecommendDialog
@@ -581,7 +620,7 @@ class MainWindow(QMainWindow):
             self.show_status("draw a spec mask first: the recommendation needs a yield to meet")
             return
         dlg = RecommendDialog(self.session.design, self)
-        dlg.apply_requested.connect(lambda design: self.session.apply(design, "use the recommended grades"))
+        dlg.apply_requested.connect(lambda design: self.apply_edit(design, "use the recommended grades"))
         self._recommend_dialog = dlg
         dlg.show()
 

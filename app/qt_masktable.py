@@ -5,7 +5,9 @@ Each limit cell carries its unit: dB (gain), deg (phase) or seconds with an SI p
 (delay, e.g. "100 µs"). A number typed without a unit is in the unit the cell shows; an SI
 suffix or the unit may be typed ("150", "0.15m", "150 µs"). A bad entry marks the cell
 (red, with the reason as its tooltip and under the table), names the field typed and keeps
-the last good value.
+the last good value. Limits are checked with the loader's own rule
+(:func:`filters.design.check_span_limits`), and the window checks the whole design as the
+loader does before it accepts an edit (:meth:`SpanTable.refuse` marks the cell then).
 """
 from __future__ import annotations
 
@@ -14,6 +16,7 @@ from PySide6.QtGui import QBrush, QColor
 from PySide6.QtWidgets import (QHBoxLayout, QHeaderView, QLabel, QPushButton, QTableWidget,
                                QTableWidgetItem, QVBoxLayout, QWidget)
 
+from filters.design import check_span_limits
 from filters.errors import InputError, ValidationError
 from filters.mask import Span
 from filters.values import format_value
@@ -79,6 +82,7 @@ class SpanTable(QWidget):
         self._f_range = (1.0, 1e6)
         self._loading = False
         self._bad: tuple[int, int, str, Span] | None = None  # row, column, reason, span it was for
+        self._last_edit: tuple[int, int, Span] | None = None  # row, column, span before the edit
         self.table.itemChanged.connect(self._on_item_changed)
         self.table.itemSelectionChanged.connect(self._on_selection)
         self.delete.clicked.connect(self._on_delete)
@@ -166,7 +170,7 @@ class SpanTable(QWidget):
                 raise InputError(f"{field} must be below f2 ({eng(old.f2, 'Hz', 4)})", field)
             if j == F2_COLUMN and not f > old.f1:
                 raise InputError(f"{field} must be above f1 ({eng(old.f1, 'Hz', 4)})", field)
-            if f < lo * (1 - 1e-9) or f > hi * (1 + 1e-9):
+            if f < lo * (1 - 1e-12) or f > hi * (1 + 1e-12):  # the loader's tolerance
                 raise InputError(f"{field} must lie inside the analysed range {eng(lo, 'Hz', 4)} to "
                                  f"{eng(hi, 'Hz', 4)}", field)
             d["f1" if j == F1_COLUMN else "f2"] = f
@@ -183,9 +187,13 @@ class SpanTable(QWidget):
         elif j == RELATIVE_COLUMN:
             d["relative"] = text.lower() in ("yes", "y", "true", "1", "relative")
         try:
-            return Span.from_dict(d, f"mask[{i}]")
+            span = Span.from_dict(d, f"mask[{i}]")
+            check_span_limits(span, f"mask[{i}]")  # the loader's rule: within +-1000 dB, ...
         except ValidationError as exc:
             raise InputError(f"{field}: {exc.lines()[0]}", field) from None
+        except InputError as exc:
+            raise InputError(f"{field}: {exc.reason}", field) from None
+        return span
 
     def _on_item_changed(self, item: QTableWidgetItem) -> None:
         if self._loading:
@@ -200,7 +208,19 @@ class SpanTable(QWidget):
             self.problem.emit(f"{reason} (kept the previous value)")
             return
         self._clear_problem()
+        self._last_edit = (i, j, self._spans[i])
         self.span_edited.emit(i, span)
+
+    def refuse(self, index: int, reason: str) -> None:
+        """The window refused the edit of row ``index`` just emitted (the whole design did
+        not pass the loader's rules): mark the cell typed, say why, show the last good value."""
+        if self._last_edit is None or self._last_edit[0] != index:
+            self.show_mask(self._spans, self._f_range)
+            return
+        i, j, before = self._last_edit
+        self._bad = (i, j, reason, before)
+        self.show_mask(self._spans, self._f_range)
+        self.problem.emit(f"{reason} (kept the previous value)")
 
     def _on_delete(self) -> None:
         i = self.selected()

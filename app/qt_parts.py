@@ -1,20 +1,23 @@
 """The parts panel: each part's reference designator, value, grade and tolerance.
 
-Value text is parsed on Enter or when the field loses focus; invalid text is marked and
-explained beside the field and the design keeps its last good value. Dragging a
+Value text is parsed on Enter or when the field loses focus with the loader's own rule
+(:func:`filters.design.check_part_value`); invalid text is marked and explained beside the
+field and the design keeps its last good value. The seed is text too (0 to 2^63-1, as in a
+design file: :func:`filters.design.check_seed`), so any seed a file holds can be shown. Dragging a
 tolerance slider previews the what-if tolerance live; releasing it makes one edit.
 """
 from __future__ import annotations
 
 import math
 
-from PySide6.QtCore import Qt, Signal
+from PySide6.QtCore import QRegularExpression, Qt, Signal
+from PySide6.QtGui import QRegularExpressionValidator
 from PySide6.QtWidgets import (QComboBox, QGridLayout, QLabel, QLineEdit, QPushButton,
                                QScrollArea, QSlider, QSpinBox, QVBoxLayout, QWidget, QComboBox as _Combo)
 
-from filters.design import MAX_SAMPLES, Design
+from filters.design import MAX_SAMPLES, MAX_SEED, Design, check_part_value, check_seed
 from filters.errors import InputError
-from filters.values import format_value, parse_value
+from filters.values import format_value
 
 SLIDER_STEPS = 1000
 TOL_MIN, TOL_MAX = 0.05, 30.0  # percent, log scale
@@ -73,7 +76,7 @@ class PartsPanel(QWidget):
     grade_chosen = Signal(str, str)             # ref, grade name
     tolerance_dragging = Signal(str, float)     # ref, tolerance %
     tolerance_released = Signal(str, float)     # ref, tolerance %
-    sampling_changed = Signal(int, int, str)    # samples, seed, method
+    sampling_changed = Signal(int, object, str)  # samples, seed (a Python int: up to 2^63-1), method
     problem_shown = Signal(str)                 # a message for the status bar
 
     def __init__(self) -> None:
@@ -90,9 +93,17 @@ class PartsPanel(QWidget):
         self.samples.setRange(10, MAX_SAMPLES)
         self.samples.setSingleStep(1000)
         self.samples.setGroupSeparatorShown(True)
-        self.seed = QSpinBox()
+        self.seed = QLineEdit()
         self.seed.setObjectName("seed")
-        self.seed.setRange(0, 2_000_000_000)
+        # digits only, at most as many as 2^63-1 has; check_seed rules on the value
+        self.seed.setValidator(QRegularExpressionValidator(QRegularExpression(rf"\d{{0,{len(str(MAX_SEED))}}}")))
+        self.seed.setToolTip(f"random seed: a whole number from 0 to {MAX_SEED:,}")
+        self.seed.setMinimumWidth(self.seed.fontMetrics().horizontalAdvance("0" * 12))
+        self.seed_problem = QLabel()
+        self.seed_problem.setObjectName("seed_problem")
+        self.seed_problem.setStyleSheet("color: #D55E00;")
+        self.seed_problem.setWordWrap(True)
+        self.seed_problem.hide()
         self.method = _Combo()
         self.method.setObjectName("method")
         self.method.addItem("random", "random")
@@ -107,9 +118,10 @@ class PartsPanel(QWidget):
         samp.addWidget(QLabel("sampling"), 1, 0)
         samp.addWidget(self.method, 1, 1)
         samp.addWidget(self.redraw, 1, 2, 1, 2)
+        samp.addWidget(self.seed_problem, 2, 0, 1, 4)
         outer.addLayout(samp)
         self.samples.editingFinished.connect(self._emit_sampling)
-        self.seed.editingFinished.connect(self._emit_sampling)
+        self.seed.editingFinished.connect(self._on_seed_edited)
         self.method.activated.connect(lambda _i: self._emit_sampling())
         self.redraw.clicked.connect(self._on_redraw)
         self.grid_host = QWidget()
@@ -158,10 +170,13 @@ class PartsPanel(QWidget):
                 row.slider.blockSignals(False)
                 self._set_readout(row, g.tolerance_pct, p.tolerance_pct is not None)
         a = design.analysis
-        for w, v in ((self.samples, a.samples), (self.seed, a.seed)):
-            w.blockSignals(True)
-            w.setValue(v)
-            w.blockSignals(False)
+        self.samples.blockSignals(True)
+        self.samples.setValue(a.samples)
+        self.samples.blockSignals(False)
+        if not self.seed.hasFocus() or not self.seed_problem.isVisible():
+            self.seed.setText(str(a.seed))
+            self.seed.setStyleSheet("")
+            self.seed_problem.hide()
         self.method.setCurrentIndex(max(0, self.method.findData(a.method)))
 
     def _rebuild(self, refs: list[str]) -> None:
@@ -198,9 +213,7 @@ class PartsPanel(QWidget):
             row.problem.hide()
             return
         try:
-            value = parse_value(text, f"{row.ref} value")
-            if not value > 0 or not math.isfinite(value):
-                raise InputError(f"must be above 0, not {text!r}", f"{row.ref} value")
+            value, text = check_part_value(text, f"{row.ref} value")  # the loader's own rule
         except InputError as exc:
             self.mark_invalid(row.ref, exc.reason)
             return
@@ -236,9 +249,37 @@ class PartsPanel(QWidget):
         self._dragging = None
         self.tolerance_released.emit(row.ref, slider_to_pct(row.slider.value()))
 
+    def seed_value(self) -> int:
+        """The seed the design holds (the box's text may be an entry not yet accepted)."""
+        return self._design.analysis.seed if self._design is not None else 1
+
+    def _on_seed_edited(self) -> None:
+        try:
+            check_seed(self.seed.text(), "seed")
+        except InputError as exc:
+            self.mark_seed_invalid(exc.reason)
+            return
+        self.seed.setStyleSheet("")
+        self.seed_problem.hide()
+        self._emit_sampling()
+
+    def mark_seed_invalid(self, reason: str) -> None:
+        """Mark the seed box and explain; the design keeps its seed."""
+        self.seed.setStyleSheet(INVALID_STYLE)
+        self.seed_problem.setText(f"seed {reason}; still using {self.seed_value()}")
+        self.seed_problem.show()
+        self.problem_shown.emit(f"seed: {reason}")
+
     def _emit_sampling(self) -> None:
-        self.sampling_changed.emit(self.samples.value(), self.seed.value(), self.method.currentData())
+        try:
+            seed = check_seed(self.seed.text(), "seed")
+        except InputError:
+            seed = self.seed_value()  # a refused entry is marked; the design's seed stays
+        self.sampling_changed.emit(self.samples.value(), seed, self.method.currentData())
 
     def _on_redraw(self) -> None:
-        self.seed.setValue(self.seed.value() + 1)
+        seed = self.seed_value()
+        self.seed.setText(str(seed + 1 if seed < MAX_SEED else 0))
+        self.seed.setStyleSheet("")
+        self.seed_problem.hide()
         self._emit_sampling()

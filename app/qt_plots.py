@@ -508,6 +508,12 @@ class SpreadPlots(QWidget):
         self._mark_selected()
         self._freeze_spans()
 
+    def redraw_mask(self, mask: tuple[Span, ...]) -> None:
+        """Draw ``mask`` again even if it did not change (a dragged span whose edit was
+        refused goes back to where the design has it)."""
+        self._mask_key = None
+        self.set_mask(mask, self._reference_db)
+
     def item_for(self, index: int) -> SpanItem | DelaySpanItem | None:
         """The drawn item of mask span ``index`` (None if its plot is not shown)."""
         return next((s for s in self.spans if s.index == index), None)

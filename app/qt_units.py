@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 import re
 
-from filters.errors import InputError
+from filters.errors import InputError, quoted
 from filters.values import format_value, parse_value
 
 QUANTITY_UNIT = {"gain": "dB", "phase": "deg", "delay": "s"}
@@ -69,7 +69,7 @@ def parse_in_unit(text: str, unit: str, shown_factor: float, field: str) -> floa
     except InputError:
         example = {"dB": "-3 or -3 dB", "deg": "-180 or -180 deg", "s": "100 µs, 100u or 0.1m",
                    "Hz": "1.2k or 1200"}.get(unit, "a number")
-        raise InputError(f"'{text.strip()}' is not a value in {unit}; write e.g. {example}", field) from None
+        raise InputError(f"{quoted(text.strip())} is not a value in {unit}; write e.g. {example}", field) from None
     if not math.isfinite(v):
-        raise InputError(f"'{text.strip()}' is not a finite value", field)
+        raise InputError(f"{quoted(text.strip())} is not a finite value", field)
     return v

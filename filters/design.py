@@ -19,6 +19,7 @@ from .topologies import TOPOLOGIES, Topology, build
 from .values import format_value, parse_value
 
 MAX_SAMPLES = 10_000_000
+MAX_SEED = 2**63 - 1  # seeds are 0 to 2^63-1 everywhere: design file, command line, window
 # Parts in one design: the guided corner search evaluates about 4 x parts x metrics designs
 # per round (its work grows with the cube of the part count: 100 parts take about 30 s
 # here); memory stays bounded at any count (filters/memory.py, benchmarks/memory.py).
@@ -209,6 +210,28 @@ def check_part_value(raw: Any, path: str = "value") -> tuple[float, str]:
     return value, text
 
 
+def check_seed(raw: Any, path: str = "analysis.seed") -> int:
+    """The loader's rule for a seed, for the file, the command line and the window alike:
+    a whole number from 0 to :data:`MAX_SEED` (text of digits, "1,000" and "1_000" too).
+    Returns it as an int; raises :class:`InputError` at ``path``."""
+    if isinstance(raw, str):
+        digits = raw.strip().replace(",", "").replace("_", "")
+        if digits.startswith("-") and digits[1:].isdigit():
+            raise InputError(f"must not be negative (a seed is 0 to {MAX_SEED}), not {quoted(raw.strip())}", path)
+        if not digits.isdigit() or not digits.isascii():
+            raise InputError(f"must be a whole number from 0 to {MAX_SEED}, not {quoted(raw.strip())}", path)
+        if len(digits.lstrip("0")) > len(str(MAX_SEED)):
+            raise InputError(f"must be at most {MAX_SEED}, not {quoted(raw.strip())}", path)
+        raw = int(digits)
+    if isinstance(raw, bool) or not isinstance(raw, int):
+        raise InputError(f"must be a whole number from 0 to {MAX_SEED}, not {quoted(raw)}", path)
+    if raw < 0:
+        raise InputError(f"must not be negative (a seed is 0 to {MAX_SEED}), not {quoted(raw)}", path)
+    if raw > MAX_SEED:
+        raise InputError(f"must be a whole number from 0 to {MAX_SEED}, not {quoted(raw)}", path)
+    return raw
+
+
 def check_span_limit(quantity: str, limit: Any, path: str = "limit1") -> float:
     """The loader's rule for one mask limit of ``quantity`` (gain in dB, phase in degrees,
     delay variation in seconds): a finite number within +-:data:`SPAN_LIMITS` (a delay
@@ -283,7 +306,7 @@ def analysis_from_dict(data: Any, problems: list[InputError], path: str = "analy
     problems += [InputError(f"unknown setting {k!r}", f"{path}.{k}") for k in data if k not in known]
     d = Analysis()
     samples = _number(data, "samples", path, problems, d.samples, integer=True, lo=1, hi=MAX_SAMPLES)
-    seed = _number(data, "seed", path, problems, d.seed, integer=True, lo=0, hi=2**63 - 1)
+    seed = _number(data, "seed", path, problems, d.seed, integer=True, lo=0, hi=MAX_SEED)
     f_start = _number(data, "f_start", path, problems, d.f_start, lo=0, lo_open=True)
     f_stop = _number(data, "f_stop", path, problems, d.f_stop, lo=0, lo_open=True)
     points = _number(data, "points", path, problems, d.points, integer=True, lo=20, hi=MAX_POINTS)
