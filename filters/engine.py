@@ -215,8 +215,14 @@ def _unwrap(ph: np.ndarray) -> np.ndarray:
     return ph
 
 
-BLOCK_ROWS = 256  # samples per block: 128-256 measured 5-15 % faster than 512 here (a block of
-                  # 256 x 404 floats, 0.8 MB, stays in a 1 MB L2); BLAS runs it on the calling thread
+BLOCK_ROWS = 256  # samples per block at most: 128-256 measured 5-15 % faster than 512 here (a
+                  # block of 256 x 404 floats, 0.8 MB, stays in a 1 MB L2)
+#: Largest rows x frequencies x coefficients of one matrix product in a block. OpenBLAS
+#: hands a product to threads of its own from 2 x 65536 x 4 = 524288 (its default
+#: GEMM_MULTITHREAD_THRESHOLD); beside the evaluation's own threads those only compete and
+#: spin: 512-row blocks of the demo (512 x 404 x 3) measured 2.5-3x the CPU time here.
+#: Threaded or not, every element comes from the same kernel: the numbers do not change.
+BLAS_SOLO_SIZE = 400_000
 
 
 @dataclass(frozen=True)
@@ -391,20 +397,26 @@ def response_blocks(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz:
     [lo, hi), arrays (hi - lo, F). They are views of ``out_*`` (S, F) where given; else
     of scratch arrays that the next block overwrites (copy what must be kept), so without
     ``out_*`` the memory used is a few blocks, whatever the number of samples. ``rows``:
-    samples per block at most (default :data:`BLOCK_ROWS`); the rows are split into blocks
+    samples per block at most (default :data:`BLOCK_ROWS`, fewer where a block's matrix
+    product would exceed :data:`BLAS_SOLO_SIZE`); the rows are split into blocks
     of equal size, at least two rows each. Every number equals
     :func:`frequency_response`'s, bit for bit, whatever the blocks.
     """
     s = coeffs[0].num.shape[0]
     f = np.asarray(freqs_hz, dtype=float)
     w = TWO_PI * f
-    # blocks of equal size (+-1 row), never a single row of several: BLAS multiplies one row
-    # by another kernel (matrix-vector), whose last bits differ from the matrix product's
-    blocks = max(1, min(-(-s // (BLOCK_ROWS if rows is None else int(rows))), s // 2))
-    edges = [k * s // blocks for k in range(blocks + 1)]
-    n_rows = -(-s // blocks)
     groups = _lean_groups(circuit, coeffs, w, delay)
     general = _general_stages(circuit, coeffs, w, delay)
+    if rows is None:  # small enough for a product to stay on the calling thread
+        polys = [p for g in groups for p in (g.den, g.dden)]
+        polys += [p for st in general for p in (st.num, st.den, st.dnum, st.dden)]
+        k_max = max((max(p.even.shape[1], p.odd.shape[1]) for p in polys if p is not None), default=1)
+        rows = min(BLOCK_ROWS, BLAS_SOLO_SIZE // (f.size * max(k_max, 1)))
+    # blocks of equal size (+-1 row), never a single row of several: BLAS multiplies one row
+    # by another kernel (matrix-vector), whose last bits differ from the matrix product's
+    blocks = max(1, min(-(-s // max(int(rows), 1)), s // 2))
+    edges = [k * s // blocks for k in range(blocks + 1)]
+    n_rows = -(-s // blocks)
     offset = sum((g.offset for g in groups), np.zeros(s)) * (180 / math.pi)
     zero = np.zeros(s, dtype=bool)
     for g in groups:

@@ -420,6 +420,28 @@ def test_response_blocks_equal_the_whole_response_whatever_the_block(rows):
         np.testing.assert_array_equal(got["t"], whole.delay_s, err_msg=cid)
 
 
+def test_response_blocks_keep_each_matrix_product_on_the_calling_thread():
+    # source: OpenBLAS's default GEMM_MULTITHREAD_THRESHOLD (4): it threads a product of
+    # m x n x k >= 2 x 65536 x 4 (interface/gemm.c, from memory); the engine's blocks stay
+    # below BLAS_SOLO_SIZE (< 524288), whatever the grid, and give the same numbers
+    from filters import engine
+
+    demo = load_demo()
+    circuit = compile_design(demo)
+    rng = np.random.default_rng(SEED)
+    nom = np.array([p.value for p in demo.parts])
+    values = nom * np.exp(0.02 * rng.standard_normal((700, nom.size)))
+    coeffs = stage_coefficients(circuit, values)
+    assert engine.BLAS_SOLO_SIZE < 2 * 65536 * 4
+    for freqs in (FREQS, np.geomspace(1.0, 1e6, 3000)):
+        k_max = 3  # the demo's pair: P of degree 4, three even coefficients
+        whole = frequency_response(circuit, coeffs, freqs, phase=True)
+        for lo, hi, blk in response_blocks(circuit, coeffs, freqs, phase=True):
+            assert 2 <= hi - lo and (hi - lo) * freqs.size * k_max <= engine.BLAS_SOLO_SIZE
+            np.testing.assert_array_equal(blk.gain_db, whole.gain_db[lo:hi])
+            np.testing.assert_array_equal(blk.phase_deg, whole.phase_deg[lo:hi])
+
+
 @pytest.mark.parametrize("cid, circuit, values", CASES, ids=CASE_IDS)
 def test_group_delay_matches_numerical_derivative(cid, circuit, values):
     # source: [SCIPY] group delay tau = -d(phase)/d(omega), here by central differences
