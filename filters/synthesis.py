@@ -762,13 +762,17 @@ class SynthesisResult:
                 f"{_pct(s.f0_error):>8} {_pct(s.q_error):>8}")
         lines.append("")
         what = "centre" if self.kind == "bandpass" else "cutoff"
-        lines.append(f"{what} ({self.cutoff_db:.2f} dB below the reference): target "
+        level = (f"geometric mean of the band edges {self.cutoff_db:.2f} dB below the peak"
+                 if self.kind == "bandpass" else f"{self.cutoff_db:.2f} dB below the passband gain")
+        lines.append(f"{what} ({level}): target "
                      f"{_hz(self.cutoff_target_hz)}, exact {_hz(self.cutoff_unsnapped_hz)}, "
                      f"snapped {_hz(self.cutoff_snapped_hz)} ({_pct(self.cutoff_error)} from snapping)")
         if self.bandwidth_target_hz is not None:
             lines.append(f"bandwidth: target {_hz(self.bandwidth_target_hz)}, exact "
                          f"{_hz(self.bandwidth_unsnapped_hz)}, snapped {_hz(self.bandwidth_snapped_hz)} "
                          f"({_pct(self.bandwidth_error)} from snapping)")
+        if self.kind == "bandpass":
+            lines.extend(self.centre_gain_lines())
         if self.gbw:
             lines.append("")
             lines.append(opamp_table_text(self.gbw))
@@ -787,6 +791,20 @@ class SynthesisResult:
                      "it); edit it to your specification.")
         return "\n".join(lines)
 
+
+    def centre_gain_lines(self) -> list[str]:
+        """Band-pass only: the built design's gain at its centre (dB), which its sections'
+        own gains set (each at most Q^2), and a plain word when it is far below 0 dB."""
+        g2 = float(_design_g2(self.design)(np.array([self.cutoff_snapped_hz]))[0])
+        g_db = 10 * math.log10(max(g2, 1e-300))
+        out = [f"gain at the centre: {g_db:+.2f} dB (set by the sections' own gains, each at most Q^2; "
+               "not held against a limit)"]
+        if g_db < -6:
+            out.append("NOTE: this band-pass loses {:.1f} dB at its centre: multiple-feedback band-pass "
+                       "sections of low Q cannot reach 0 dB there. For a band this wide, consider a "
+                       "high-pass design followed by a low-pass design, or add gain after the filter; "
+                       "check the signal levels and noise on your board.".format(-g_db))
+        return out
 
     def errors_text(self) -> str:
         """The error table: every check's ideal and built value, error, limit and verdict."""
@@ -883,8 +901,9 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     ``scipy.signal.lp2bp_zpk`` to centre ``cutoff_hz`` (geometric mean of the band edges)
     with ``bandwidth_hz`` between the edges; an order-N band-pass has 2N poles and is
     built as N multiple-feedback band-pass sections, one per pole pair, each with midband
-    gain magnitude min(1, Q^2) (so the overall midband gain is not 0 dB in general; the
-    mask is relative). Linkwitz-Riley is for low-pass and high-pass only.
+    gain magnitude enough to make up its own loss at the centre, at most Q^2 (so the
+    overall gain at the centre is about 0 dB unless low-Q sections of a wide band cannot
+    reach it; the report then says so; the mask is relative). Linkwitz-Riley is for low-pass and high-pass only.
 
     ``topology``: the second-order section type: low-pass "sallen_key_lowpass" (default)
     or "mfb_lowpass"; high-pass "sallen_key_highpass" (default) or "mfb_highpass";
@@ -983,7 +1002,7 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
             name = f"S{i} first order, fc {_hz(f0)}"
         else:
             t = topo
-            gain = min(1.0, q * q) if t == "mfb_bandpass" else 1.0
+            gain = _bandpass_section_gain(f0, q, fc) if t == "mfb_bandpass" else 1.0
             name = f"S{i} f0 {_hz(f0)}, Q {q:.3f}"
         try:
             choices.append(section_choices(i, t, f0, q, kind, series, cap_series, gain, snap))
@@ -1229,6 +1248,16 @@ def _ref2(design: Design, kind: str, g2: Callable[[np.ndarray], np.ndarray]) -> 
         f = np.geomspace(design.analysis.f_start, design.analysis.f_stop, 8001)
         return _peak2(g2, f, g2(f))
     return 10 ** (float(prepare(design.with_mask(())).nominal.metrics["reference_db"]) / 10)
+
+
+def _bandpass_section_gain(f0_hz: float, q: float, centre_hz: float) -> float:
+    """Midband gain magnitude of one multiple-feedback band-pass section: enough to make up
+    its own loss at the filter's centre (a stagger-tuned section is off its peak there), so
+    the cascade is near 0 dB at the centre, but at most Q^2 (the section needs
+    gain < 2 Q^2; Q^2 keeps R2 in a practical ratio)."""
+    x = centre_hz / f0_hz - f0_hz / centre_hz
+    loss = math.sqrt(1.0 + (q * x) ** 2)   # |H(centre)| = gain / loss for a second-order band-pass
+    return min(loss, q * q)
 
 
 def error_checks(design: Design, ideal: IdealResponse, sections: Sequence[SectionReport],

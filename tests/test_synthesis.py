@@ -289,9 +289,13 @@ def test_mfb_bandpass_sections_follow_the_closed_forms():
         assert fm == pytest.approx(s.snapped_f0_hz, rel=1e-9)
         assert math.pi * fm * v["R3"] * c == pytest.approx(s.snapped_q, rel=1e-9)
         assert rows[k].gain == pytest.approx(v["R3"] / (2 * v["R1"]), rel=1e-9)
-        # the documented midband gain choice of each section: min(1, Q^2) (exact resistors)
+        # the documented midband gain choice of each section (exact resistors): its own loss
+        # at the centre, sqrt(1 + Q^2 (fc/f0 - f0/fc)^2) for a second-order band-pass
+        # (common practice), at most Q^2
         ve = values_by_role(exact.design, k)
-        assert ve["R3"] / (2 * ve["R1"]) == pytest.approx(min(1.0, s.target_q ** 2), rel=1e-9)
+        x = 2000.0 / s.target_f0_hz - s.target_f0_hz / 2000.0
+        wanted = min(math.sqrt(1 + (s.target_q * x) ** 2), s.target_q ** 2)
+        assert ve["R3"] / (2 * ve["R1"]) == pytest.approx(wanted, rel=1e-9)
 
 
 def test_snapped_bandpass_report_matches_independent_evaluation():

@@ -349,7 +349,7 @@ def test_dialog_shows_the_error_report_and_asks_before_accepting(dialog, qtbot):
                      pos=QPoint(8, dialog.accept_errors.height() // 2))  # on its box
     assert dialog.accept_errors.isChecked() and dialog.ok_button.isEnabled()
     # a changed design needs its own acceptance
-    _type(qtbot, dialog.bandwidth, "101")
+    _type(qtbot, dialog.bandwidth, "110")  # also beyond the Q limit with E24 (measured here)
     assert not dialog.accept_errors.isChecked() and not dialog.ok_button.isEnabled()
     qtbot.mouseClick(dialog.accept_errors, Qt.MouseButton.LeftButton, pos=QPoint(8, dialog.accept_errors.height() // 2))
     with qtbot.waitSignal(dialog.accepted, timeout=2000):
@@ -372,3 +372,44 @@ def test_dialog_within_limits_needs_no_acceptance_and_refuses_out_of_range(dialo
     with qtbot.waitSignal(dialog.accepted, timeout=2000):
         qtbot.mouseClick(dialog.ok_button, Qt.MouseButton.LeftButton)
     assert not dialog.result().exceeded
+
+
+# --- gain at the centre of a band-pass ----------------------------------------------------
+
+def _mfb_bandpass_closed_form(v: dict[str, float]) -> tuple[list[float], list[float]]:
+    """Numerator and denominator (descending powers of s) of the multiple-feedback band-pass
+    as laid out in filters/topologies.py (R1 in-A, R2 A-ground, C1 A-N, C2 A-out, R3 out-N),
+    by nodal analysis written here with an ideal op-amp (N at virtual ground):
+    H = -(s / (R1 C2)) / (s^2 + s (C1 + C2) / (C1 C2 R3) + (1/R1 + 1/R2) / (C1 C2 R3));
+    with C1 = C2 this is the form of REFERENCES.md section 6 (bandwidth 2/(R3 C))."""
+    c1c2r3 = v["C1"] * v["C2"] * v["R3"]
+    return ([-1 / (v["R1"] * v["C2"]), 0.0],
+            [1.0, (v["C1"] + v["C2"]) / c1c2r3, (1 / v["R1"] + 1 / v["R2"]) / c1c2r3])
+
+
+def test_stagger_tuned_bandpass_is_near_0_db_at_its_centre(tmp_path):
+    # Before: each section's midband gain was min(1, Q^2), so two stagger-tuned sections lost
+    # 6.7 dB at the centre. Now each section makes up its own loss there. The cascade is
+    # evaluated here with scipy.signal.freqs on the closed forms above, not with the engine.
+    from scipy.signal import freqs
+    case = ("butterworth", 2, 1000.0, "bandpass", 300.0, None, "E96")
+    out = tmp_path / "bp.json"
+    proc = cli(*design_args(case, out))
+    assert proc.returncode == 0, proc.stderr
+    design = load(out)
+    w = np.array([2 * math.pi * 1000.0])
+    h = np.ones(1, dtype=complex)
+    for k in range(len(design.stages)):
+        b, a = _mfb_bandpass_closed_form(values_by_role(design, k))
+        h = h * freqs(b, a, worN=w)[1]
+    assert 20 * math.log10(abs(h[0])) == pytest.approx(0.0, abs=0.5)
+    assert "gain at the centre" in proc.stdout and "NOTE" not in proc.stdout
+
+
+def test_wide_bandpass_says_in_words_that_it_loses_gain_at_its_centre(tmp_path):
+    # Low-Q sections (Q 0.57 for a band three times as wide as its centre) can give at most
+    # Q^2 each: the report must say so rather than leave a -40 dB passband unremarked.
+    case = ("butterworth", 4, 10e3, "bandpass", 30e3, None, "E24")
+    proc = cli(*design_args(case, tmp_path / "wide.json"))
+    assert proc.returncode == 0, proc.stderr
+    assert "NOTE: this band-pass loses" in proc.stdout and "high-pass design followed by a low-pass" in proc.stdout
