@@ -209,6 +209,10 @@ def test_budget_shares_and_corners(demo, demo_html):
     assert f"all {2 ** n} combinations of the {n} varying parts" in c
     r = result.corners.ranges["cutoff_hz"]
     assert format_value(r.corner_low, "Hz", digits=4) in c and format_value(r.mc_high, "Hz", digits=4) in c
+    # a metric that is not linear at the nominal (a one-sided margin) says so, as the
+    # terminal does, rather than an RSS near zero or "n/a"
+    flat = [name for name, rr in result.corners.ranges.items() if not rr.linear]
+    assert ("not linear: see sampled spread" in c) == bool(flat)
 
 
 def test_caution_and_assumptions(demo_html):
