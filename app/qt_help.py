@@ -107,7 +107,7 @@ def about_html() -> str:
             "<table cellspacing='4'>"
             f"<tr><td>error log</td><td><code>{userfiles.log_path()}</code></td></tr>"
             f"<tr><td>settings</td><td><code>{userfiles.settings_path()}</code></td></tr>"
-            f"<tr><td>unsaved-work recovery</td><td><code>{userfiles.recovery_path()}</code></td></tr>"
+            f"<tr><td>unsaved-work recovery (one file per window)</td><td><code>{userfiles.recovery_dir()}</code></td></tr>"
             "</table>"
             "<p>Set <code>TOLSPREAD_CONFIG_DIR</code> to keep these files elsewhere.</p>"
             f"<p style='color:#555'>Qt {qVersion()}, PySide6 {pyside_version}, Python "

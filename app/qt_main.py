@@ -67,43 +67,59 @@ def make_window(design_path: str | None):
 
 
 def offer_recovery(window) -> None:
-    """After a crash: offer to restore the unsaved work found in the recovery file."""
+    """After a crash: offer to restore the unsaved work each window that is gone left.
+
+    Only files whose window no longer lives are offered (app/qt_recovery.py); Yes restores
+    one into ``window``, No discards it, Cancel (or Escape) keeps it for the next start."""
     from PySide6.QtWidgets import QMessageBox
 
+    from .qt_recovery import left_behind, restore_into
 
-    rec = userfiles.recovery_path()
-    if not rec.exists():
-        return
-    origin_file = rec.with_suffix(".origin")
-    origin = origin_file.read_text(encoding="utf-8").strip() if origin_file.exists() else ""
-    answer = QMessageBox.question(
-        window, "Restore unsaved work?",
-        "tolspread did not close normally last time. Restore the unsaved design it kept"
-        f"{f' (from {origin})' if origin else ''}?")
-    if answer == QMessageBox.StandardButton.Yes:
-        restore_recovery(window)
+    restored = False
+    kept: list[Path] = []
+    for rec in left_behind():
+        if restored:  # this window holds restored work already: keep the rest for later
+            kept.append(rec.path)
+            rec.release()
+            continue
+        origin = rec.origin()
+        B = QMessageBox.StandardButton
+        answer = QMessageBox.question(
+            window, "Restore unsaved work?",
+            "A tolspread window did not close normally and left unsaved work"
+            f"{f' (a design from {origin})' if origin else ''}, kept in {rec.path}.\n\n"
+            "Yes restores it here. No discards it. Cancel keeps it for the next start.",
+            B.Yes | B.No | B.Cancel, B.Yes)
+        if answer == B.Yes:
+            restored = restore_into(window, rec)
+        elif answer in (B.No, B.Discard):
+            rec.discard()
+            rec.release()
+        else:
+            kept.append(rec.path)
+            rec.release()
+    if kept:
+        window.show_status(f"kept {len(kept)} unsaved design{'s' if len(kept) > 1 else ''} for the next "
+                           f"start: {', '.join(str(p) for p in kept)}")
+
+
+def restore_recovery(window, path: Path | None = None) -> bool:
+    """Restore the recovery file ``path`` (default: the first one whose window is gone)
+    into ``window`` as unsaved changes; True if it worked."""
+    from .qt_recovery import RecoveryFile, left_behind, restore_into
+
+    if path is None:
+        found = left_behind()
+        for other in found[1:]:
+            other.release()
+        if not found:
+            return False
+        rec = found[0]
     else:
-        rec.unlink(missing_ok=True)
-
-
-def restore_recovery(window) -> bool:
-    """Load the recovery file into the window as unsaved changes; True if it worked."""
-    from filters.designfile import load
-    from filters.errors import InputError
-
-    rec = userfiles.recovery_path()
-    try:
-        design = load(rec)
-    except InputError as exc:
-        log.warning("recovery file unusable: %s", exc)
-        return False
-    origin_file = rec.with_suffix(".origin")
-    origin = origin_file.read_text(encoding="utf-8").strip() if origin_file.exists() else ""
-    session = window.session
-    session.replace_design(session.design, Path(origin) if origin else None)
-    session.apply(design, "restore unsaved work")
-    window.show_status("restored the unsaved work from the last session")
-    return True
+        rec = RecoveryFile(path)
+        if not rec.claim():
+            return False  # its window still lives
+    return restore_into(window, rec)
 
 
 def run_window(design_path: str | None, screenshot: str | None) -> int:
@@ -136,7 +152,6 @@ def save_screenshot(window, path: Path, timeout_s: float = SCREENSHOT_TIMEOUT_S)
     Exit status 2 when the evaluation fails, does not finish within ``timeout_s`` seconds,
     or the file cannot be written."""
     from PySide6.QtCore import QEventLoop, QTimer
-    from PySide6.QtWidgets import QApplication
 
     window.resize(1600, 950)
     window.show()

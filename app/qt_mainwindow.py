@@ -33,6 +33,7 @@ from .qt_help import build_help_menu
 from .qt_masktable import SpanTable
 from .qt_parts import PartsPanel
 from .qt_plots import SpreadPlots
+from .qt_recovery import RecoveryFile
 from .qt_results import ResultsPanel
 from .qt_session import Session
 from .qt_style import VERMILION
@@ -49,6 +50,9 @@ class MainWindow(QMainWindow):
     def __init__(self, session: Session, settings: QSettings | None = None) -> None:
         super().__init__()
         self.session = session
+        # this window's own recovery file, locked while it lives (a second window or a
+        # second tolspread never takes it for a crashed one's)
+        self.recovery = RecoveryFile.for_new_window()
         self.settings = settings or QSettings(str(userfiles.settings_path()), QSettings.Format.IniFormat)
         self.setObjectName("tolspread_main")
         self.plots = SpreadPlots()
@@ -469,10 +473,10 @@ class MainWindow(QMainWindow):
         try:
             self.session.open(path)
         except ValidationError as exc:
-            self._show_problem(f"{path.name} could not be opened", "\n".join(exc.lines()))
+            self.show_problem(f"{path.name} could not be opened", "\n".join(exc.lines()))
             return False
         except InputError as exc:
-            self._show_problem(f"{path.name} could not be opened", str(exc))
+            self.show_problem(f"{path.name} could not be opened", str(exc))
             return False
         self._remember_recent(path)
         self.show_status(f"opened {path}")
@@ -496,14 +500,14 @@ class MainWindow(QMainWindow):
         try:
             self.session.save_as(path)
         except InputError as exc:
-            self._show_problem("Saving failed; the previous file is unchanged", str(exc))
+            self.show_problem("Saving failed; the previous file is unchanged", str(exc))
             return False
         self._remember_recent(path)
         self.show_status(f"saved {path}")
-        userfiles.recovery_path().unlink(missing_ok=True)
+        self.recovery.discard()  # the saved file holds the work now
         return True
 
-    def _show_problem(self, title: str, text: str) -> None:
+    def show_problem(self, title: str, text: str) -> None:
         self.show_status(f"{title}: {text.splitlines()[0] if text else ''}")
         box = QMessageBox(QMessageBox.Icon.Warning, title, text, QMessageBox.StandardButton.Ok, self)
         box.setObjectName("problem_box")
@@ -611,7 +615,7 @@ class MainWindow(QMainWindow):
             if grades != d.grades:
                 reason = self.apply_edit(replace(d, grades=grades), "edit grades and costs")
                 if reason is not None:
-                    self._show_problem("The grades were not changed", reason)
+                    self.show_problem("The grades were not changed", reason)
 
     def open_recommend(self) -> None:
         from .qt_recommend import RecommendDialog
@@ -652,26 +656,24 @@ class MainWindow(QMainWindow):
                 else:
                     write_report(report, path)
             except (OSError, InputError) as exc:
-                self._show_problem("Could not write the report", str(exc))
+                self.show_problem("Could not write the report", str(exc))
                 return
             self.show_status(f"report written to {path}")
 
         task = BackgroundTask(job, self)
         task.finished.connect(done)
-        task.failed.connect(lambda msg, _d: self._show_problem("Could not build the report", msg))
+        task.failed.connect(lambda msg, _d: self.show_problem("Could not build the report", msg))
         self._report_task = task
         task.start()
 
     # --- recovery, layout ----------------------------------------------------------------
     def write_recovery(self) -> None:
-        """Write unsaved work to the recovery file (every minute while there is some)."""
+        """Write unsaved work to this window's recovery file (every minute while there is
+        some; :attr:`recovery`)."""
         if not self.session.dirty:
             return
         try:
-            text = self.session.text()
-            origin = str(self.session.path) if self.session.path else ""
-            write_text_atomic(userfiles.recovery_path(), text, backup=False)
-            write_text_atomic(userfiles.recovery_path().with_suffix(".origin"), origin, backup=False)
+            self.recovery.write(self.session.text(), str(self.session.path) if self.session.path else "")
         except InputError as exc:
             log.warning("could not write the recovery file: %s", exc)
 
@@ -699,8 +701,9 @@ class MainWindow(QMainWindow):
         self.settings.setValue("window_state", self.saveState())
         self.settings.setValue("centre_splitter", self.centre.saveState())
         self.settings.sync()
-        userfiles.recovery_path().unlink(missing_ok=True)
         self.autosave.stop()
+        self.recovery.discard()  # saved, or the user chose to discard it just now
+        self.recovery.release()
         self.stop_background_work()
         event.accept()
 

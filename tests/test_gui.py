@@ -25,7 +25,6 @@ from PySide6.QtGui import QImage, QMouseEvent, QPainter  # noqa: E402
 from PySide6.QtSvg import QSvgRenderer  # noqa: E402
 from PySide6.QtWidgets import QApplication  # noqa: E402
 
-from app import userfiles  # noqa: E402
 from app.qt_main import make_window, restore_recovery  # noqa: E402
 from app.qt_parts import pct_to_slider, slider_to_pct  # noqa: E402
 from filters.designfile import demo_text, load, load_demo  # noqa: E402
@@ -551,7 +550,7 @@ def test_only_the_newest_request_is_shown(window, qtbot):
 # --- 11. recovery --------------------------------------------------------------------------
 def test_recovery_file_holds_the_dirty_design(window, qtbot, tmp_path):
     s = window.session
-    rec = userfiles.recovery_path()
+    rec = window.recovery.path  # each window has its own recovery file (issue 11 #9)
     window.write_recovery()
     assert not rec.exists(), "a clean design must not write a recovery file"
     dirty = s.design.with_part("C3", grade="C-C0G-1")
@@ -563,7 +562,9 @@ def test_recovery_file_holds_the_dirty_design(window, qtbot, tmp_path):
 
     other = add_window(qtbot, make_window(None))
     try:
-        assert restore_recovery(other)
+        assert not restore_recovery(other, rec), "a live window's file must not be taken"
+        window.recovery.release()  # as when its window is gone
+        assert restore_recovery(other, rec)
         assert other.session.design == dirty and other.session.dirty
         other.act_undo.trigger()
         assert other.session.design == load_demo()
