@@ -40,13 +40,12 @@ class CompiledStage:
     @property
     def simple_phase(self) -> bool:
         """True when the phase needs no unwrapping (degree 1 or 2, monomial numerator)."""
-        nz = [e for e in self.tf.num_expr if e != 0]
-        return 1 <= self.tf.den_degree <= 2 and len(nz) == 1
+        return 1 <= self.tf.den_degree <= 2 and len(self.tf.num_powers) == 1
 
     @property
     def num_power(self) -> int:
         """k of a monomial numerator c*s^k."""
-        return max(i for i, e in enumerate(self.tf.num_expr) if e != 0)
+        return max(self.tf.num_powers)
 
 
 @dataclass(frozen=True)

@@ -19,10 +19,12 @@ from dataclasses import dataclass
 from typing import Literal, Sequence
 
 import numpy as np
-from scipy import special, stats
 
 from .errors import InputError
 from .grades import Grade
+from .lazyimport import LazyModule
+
+special = LazyModule("scipy.special")  # imported on first use (ndtr, ndtri): about 0.3 s
 
 Method = Literal["random", "sobol"]
 METHODS: tuple[str, ...] = ("random", "sobol")
@@ -46,7 +48,9 @@ def draw_scores(seed: int, n_parts: int, start: int, stop: int, method: Method =
         raise InputError(f"bad sample range [{start}, {stop})", "samples")
     ncol = columns(n_parts)
     if method == "sobol":
-        engine = stats.qmc.Sobol(d=ncol, scramble=True, seed=np.random.default_rng(seed))
+        from scipy.stats import qmc  # imported here: scipy.stats takes long to import
+
+        engine = qmc.Sobol(d=ncol, scramble=True, seed=np.random.default_rng(seed))
         if start:
             engine.fast_forward(start)
         with warnings.catch_warnings():

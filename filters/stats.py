@@ -20,9 +20,13 @@ from dataclasses import dataclass
 from typing import Callable, Literal, Sequence
 
 import numpy as np
-from scipy import special, stats
 
 from .errors import Cancelled, InputError
+from .lazyimport import LazyModule
+
+# imported on first use: scipy.stats (exact intervals, binomtest) takes about a second
+special = LazyModule("scipy.special")
+stats = LazyModule("scipy.stats")
 
 IntervalMethod = Literal["wilson", "exact"]
 INTERVAL_METHODS: tuple[str, ...] = ("wilson", "exact")

@@ -22,7 +22,6 @@ from dataclasses import dataclass, field, replace
 from typing import Any, Callable, Sequence
 
 import numpy as np
-from scipy import optimize, signal
 
 from .design import Analysis, Design, Part, Stage, design_from_dict
 from .engine import compile_design, dc_gain2, gain2_at, hf_gain2, stage_coefficients
@@ -31,7 +30,12 @@ from .evaluate import prepare
 from .grades import builtin_catalog
 from .mask import Span
 from .metrics import pole_pairs, stage_metrics
+from .lazyimport import LazyModule
 from .values import E_SERIES, format_value, series_neighbours, series_values, snap as snap_value
+
+# imported on first use: each takes a good part of a second to import
+optimize = LazyModule("scipy.optimize")
+signal = LazyModule("scipy.signal")
 
 TWO_PI = 2 * math.pi
 HALF_POWER_DB = 10 * math.log10(2)   # 3.0103 dB: |H|^2 halves

@@ -24,7 +24,7 @@ import sympy as sp
 
 from filters.engine import frequency_response, stage_coefficients
 from filters.metrics import stage_metrics
-from filters.netlist import Element, Netlist, OpAmp, derive
+from filters.netlist import Element, Netlist, OpAmp, derive, symbolic_coefficients
 from filters.topologies import TOPOLOGIES, build
 
 from designs import make  # shared builder: tests/designs.py
@@ -44,6 +44,19 @@ def sym(*names):
     return [sp.Symbol(n, positive=True) for n in names]
 
 
+class Derived:
+    """``derive(net)`` (the coefficient data the engine evaluates) with the exact sympy
+    coefficients of the same netlist beside it (``num_expr``, ``den_expr``)."""
+
+    def __init__(self, net):
+        self.tf = derive(net)
+        self.num_expr, self.den_expr = symbolic_coefficients(net)
+        assert (self.tf.num_degree, self.tf.den_degree) == (len(self.num_expr) - 1, len(self.den_expr) - 1)
+
+    def __getattr__(self, name):
+        return getattr(self.tf, name)
+
+
 def same_up_to_factor(got, want):
     """True when the coefficient tuples are proportional (cross products vanish)."""
     if len(got) != len(want):
@@ -56,7 +69,7 @@ def same_up_to_factor(got, want):
 def test_voltage_divider():
     # source: [TEXT] H = R2 / (R1 + R2)
     net = Netlist((Element("R", "R1", "in", "out"), Element("R", "R2", "out", "0")))
-    tf = derive(net)
+    tf = Derived(net)
     r1, r2 = sym("R1", "R2")
     assert tf.num_degree == 0 and tf.den_degree == 0
     assert sp.simplify(tf.num_expr[0] / tf.den_expr[0] - r2 / (r1 + r2)) == 0
@@ -68,7 +81,7 @@ def test_voltage_divider():
 def test_rc_lowpass_coefficients_are_ascending_in_s():
     # source: [TEXT] H = 1 / (1 + s R C); coefficients ascending: den = (1, RC) up to a factor
     net = Netlist((Element("R", "R", "in", "out"), Element("C", "C", "out", "0")))
-    tf = derive(net)
+    tf = Derived(net)
     vals = {"R": np.array([1e3, 10e3]), "C": np.array([1e-6, 3.3e-9])}
     num, den = tf.numerator(vals), tf.denominator(vals)
     assert num.shape == (2, 1) and den.shape == (2, 2)
@@ -80,7 +93,7 @@ def test_series_rlc_bandpass():
     # source: [TEXT] output across R of a series RLC: H = s R C / (1 + s R C + s^2 L C)
     net = Netlist((Element("L", "L", "in", "x"), Element("C", "C", "x", "out"),
                    Element("R", "R", "out", "0")))
-    tf = derive(net)
+    tf = Derived(net)
     r, l, c = sym("R", "L", "C")
     assert same_up_to_factor(tf.den_expr, (1, r * c, l * c))
     assert same_up_to_factor(tf.num_expr, (0, r * c, 0)[:len(tf.num_expr)])
@@ -93,18 +106,18 @@ def test_ideal_opamp_amplifiers():
     rf, rg, r1, r2 = sym("RF", "RG", "R1", "R2")
     non_inv = Netlist((Element("R", "RF", "out", "m"), Element("R", "RG", "m", "0")),
                       (OpAmp("U1", "in", "m", "out"),))
-    tf = derive(non_inv)
+    tf = Derived(non_inv)
     assert sp.simplify(tf.num_expr[0] / tf.den_expr[0] - (1 + rf / rg)) == 0
     inv = Netlist((Element("R", "R1", "in", "n"), Element("R", "R2", "n", "out")),
                   (OpAmp("U1", "0", "n", "out"),))
-    tf = derive(inv)
+    tf = Derived(inv)
     assert sp.simplify(tf.num_expr[0] / tf.den_expr[0] + r2 / r1) == 0
 
 
 def test_single_pole_follower():
     # source: [TEXT] follower with A(s) = wt/s: H = wt / (s + wt), wt = 2 pi GBW
     net = Netlist((Element("R", "RL", "out", "0"),), (OpAmp("U1", "in", "out", "out", "GBW"),))
-    tf = derive(net)
+    tf = Derived(net)
     (gbw,) = sym("GBW")
     wt = 2 * sp.pi * gbw
     assert tf.roles == ("RL", "GBW")
@@ -136,7 +149,7 @@ def test_every_registered_topology_builds_with_declared_roles():
 def test_sallen_key_lowpass_symbolic_denominator(gain):
     # source: [KARKI] D(s) = s^2 R1R2C1C2 + s[C2(R1+R2) + R1C1(1-K)] + 1, DC gain K,
     # K = 1 (unity) or 1 + RF/RG; [D] re-derived by nodal analysis
-    tf = derive(build("sallen_key_lowpass", {"gain": gain}).netlist)
+    tf = Derived(build("sallen_key_lowpass", {"gain": gain}).netlist)
     r1, r2, c1, c2, rf, rg = sym("R1", "R2", "C1", "C2", "RF", "RG")
     k = 1 if gain == "unity" else 1 + rf / rg
     want = (sp.Integer(1), c2 * (r1 + r2) + r1 * c1 * (1 - k), r1 * r2 * c1 * c2)
@@ -216,7 +229,7 @@ def test_sallen_key_highpass_equal_capacitors():
 def test_mfb_lowpass_symbolic_and_numeric():
     # source: [SLOA049] D(s) = s^2 R2R3C1C2 + s C2(R2 + R3 + R2R3/R1) + 1, DC gain -R2/R1,
     # w0 = 1/sqrt(R2R3C1C2), Q = sqrt(R2R3C1C2)/[C2(R2 + R3 + R2R3/R1)]; [D] re-derived
-    tf = derive(build("mfb_lowpass").netlist)
+    tf = Derived(build("mfb_lowpass").netlist)
     r1, r2, r3, c1, c2 = sym("R1", "R2", "R3", "C1", "C2")
     assert same_up_to_factor(tf.den_expr, (sp.Integer(1), c2 * (r2 + r3 + r2 * r3 / r1), r2 * r3 * c1 * c2))
     assert sp.simplify(tf.num_expr[0] / tf.den_expr[0] + r2 / r1) == 0

@@ -1,0 +1,31 @@
+"""Heavy modules imported on first use, so the command line starts quickly.
+
+``signal = LazyModule("scipy.signal")`` at the top of a module reads like an import; the
+real import happens when an attribute is first asked for (``signal.butter``), and
+``"scipy.signal" in sys.modules`` stays false until then. Imports of scipy.stats,
+scipy.signal, scipy.optimize and sympy each take from a few tenths of a second to over a
+second; most runs of the program need none or one of them.
+"""
+from __future__ import annotations
+
+import importlib
+from types import ModuleType
+from typing import Any
+
+
+class LazyModule:
+    """A stand-in for the module ``name`` that imports it when an attribute is read."""
+
+    def __init__(self, name: str) -> None:
+        self._name = name
+        self._module: ModuleType | None = None
+
+    def __getattr__(self, attr: str) -> Any:
+        if attr.startswith("__"):  # no import for copy, pickle or introspection probes
+            raise AttributeError(attr)
+        if self._module is None:
+            self._module = importlib.import_module(self._name)
+        return getattr(self._module, attr)
+
+    def __repr__(self) -> str:
+        return f"<module {self._name!r}, imported on first use>"
