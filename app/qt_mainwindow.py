@@ -42,6 +42,7 @@ from .qt_units import QUANTITY_UNIT, eng
 log = logging.getLogger("tolspread")
 MAX_RECENT = 8
 AUTOSAVE_MS = 60_000
+SPAN_ROWS_SHOWN = 4  # the span table shows this many rows whole at first (the demo's spans)
 
 
 class MainWindow(QMainWindow):
@@ -688,10 +689,23 @@ class MainWindow(QMainWindow):
             self.restoreState(state)
 
         splitter = self.settings.value("centre_splitter")
+        self._size_span_table = splitter is None  # at the first show: room for every demo span
         if splitter is not None:
             self.centre.restoreState(splitter)
-        else:
-            self.centre.setSizes([700, 190])
+
+    def showEvent(self, event) -> None:  # noqa: N802 - Qt override
+        super().showEvent(event)
+        if self._size_span_table:
+            self._size_span_table = False
+            QTimer.singleShot(0, self._fit_span_table)
+
+    def _fit_span_table(self) -> None:
+        """Give the span table the height of its rows (at least SPAN_ROWS_SHOWN, at most
+        SPAN_ROWS_SHOWN + 2; more scroll), the plots the rest."""
+        total = sum(self.centre.sizes())
+        rows = min(max(self.span_table.table.rowCount(), SPAN_ROWS_SHOWN), SPAN_ROWS_SHOWN + 2)
+        need = min(self.span_table.height_for_rows(rows), total // 2)
+        self.centre.setSizes([total - need, need])
 
     def closeEvent(self, event) -> None:  # noqa: N802 - Qt override
         if not self.confirm_discard():

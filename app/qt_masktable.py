@@ -94,6 +94,16 @@ class SpanTable(QWidget):
 
         return QSize(900, 190)
 
+    def height_for_rows(self, rows: int) -> int:
+        """The height (px) this panel needs to show ``rows`` rows of the table whole, with
+        its header, scroll bar, buttons and hint at the current width."""
+        t, lay = self.table, self.layout()
+        m = lay.contentsMargins()
+        table_h = (t.horizontalHeader().sizeHint().height() + rows * t.verticalHeader().defaultSectionSize()
+                   + 2 * t.frameWidth() + t.horizontalScrollBar().sizeHint().height())
+        hint_h = self.hint.heightForWidth(max(100, self.width() - m.left() - m.right()))
+        return m.top() + m.bottom() + table_h + self.delete.sizeHint().height() + hint_h + 3 * lay.spacing()
+
     def show_mask(self, spans: tuple[Span, ...], f_range: tuple[float, float]) -> None:
         self._spans = tuple(spans)
         self._f_range = f_range

@@ -17,6 +17,8 @@ from . import qt_style as st
 from .qt_units import QUANTITY_UNIT, eng, prefix_for
 
 MAX_TABLE_ROWS = 8  # the failure table grows to this many rows, then scrolls
+#: the metric shown first: a low- or high-pass's cutoff, a band-pass's centre
+FIRST_METRICS = ("cutoff_hz", "centre_hz")
 CAUTION = ("Estimate under the grades' stated distributions; confirm with measured parts "
            "and qualified review.")
 
@@ -139,8 +141,9 @@ class ResultsPanel(QWidget):
             for n in wanted:
                 self.chooser.addItem(metric_label(n, names), n)
             self.chooser.blockSignals(False)
-        if self.metric_name not in wanted:
-            self.metric_name = "cutoff_hz" if "cutoff_hz" in wanted else wanted[0]
+        if self.metric_name not in wanted:  # e.g. a band-pass opened after a low-pass
+            self.metric_name = next((n for n in FIRST_METRICS if n in wanted),
+                                    next((n for n in wanted if n in view.budget), wanted[0]))
         self.chooser.setCurrentIndex(max(0, self.chooser.findData(self.metric_name)))
         self._draw_metric()
 
@@ -207,6 +210,8 @@ class ResultsPanel(QWidget):
         self.budget_plot.clear()
         if b is None:
             self.budget_plot.setTitle("no budget for this metric")
+            self.budget_plot.getAxis("left").setTicks([])  # no part names left from another metric
+            self.budget_plot.setXRange(0, 100, padding=0)
             return
         self.budget_plot.setTitle("")
         entries = [e for e in b.entries if e.share > 0][:10]

@@ -237,3 +237,64 @@ def test_command_line_seed_range_is_the_files(tmp_path, capsys, seed, status):
     err = capsys.readouterr().err
     if status:
         assert err.count("\n") == 1 and "--seed" in err, err
+
+
+# --- what the window shows (review of issue 10's window items) ---------------------------------
+def test_every_demo_span_shows_whole_in_the_span_table_at_the_default_size(qtbot):
+    """At 1600x950 the span table showed 3 of the demo's 4 spans (a fixed 700/190 split)."""
+    w = start(qtbot)  # the demo, 1600x950, no saved layout (tests use a fresh settings folder)
+    qtbot.wait(100)
+    table = w.span_table.table
+    assert table.rowCount() == len(w.session.design.mask) == 4
+    last = table.rowCount() - 1
+    bottom = table.rowViewportPosition(last) + table.rowHeight(last)
+    assert table.verticalScrollBar().value() == 0 and bottom <= table.viewport().height(), \
+        f"rows end at {bottom} px, the table shows {table.viewport().height()} px"
+    assert w.plots.height() > 500, "the plots gave up too much room"
+
+
+def test_dragging_a_phase_span_says_degrees_in_the_status_bar(qtbot, tmp_path):
+    """The status line while a span is dragged always said "dB", even for a phase span."""
+    from PySide6.QtCore import QPoint
+
+    from test_plots_tables import MOVE_GAP_MS, PHASE_SPAN, design_file, settle, to_pixel
+
+    w = start(qtbot, design_file(tmp_path, [PHASE_SPAN]))
+    i = next(k for k, sp in enumerate(w.session.design.mask) if sp.quantity == "phase")
+    (x1, y1), (x2, y2) = w.plots.item_for(i).points()
+    vb = w.plots.second.getViewBox()
+    settle(qtbot, w)
+    vp = w.plots.canvas.viewport()
+    a = to_pixel(w, vb, 0.5 * (x1 + x2), 0.5 * (y1 + y2))  # on the span's line
+    QTest.mouseMove(vp, a)
+    qtbot.wait(MOVE_GAP_MS)
+    QTest.mousePress(vp, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, a)
+    for dy in range(2, 22, 4):
+        qtbot.wait(MOVE_GAP_MS)
+        QTest.mouseMove(vp, QPoint(a.x(), a.y() + dy))
+    during = w.status_text.text()
+    QTest.mouseRelease(vp, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, QPoint(a.x(), a.y() + 18))
+    assert "phase floor" in during and "release to apply" in during, during
+    assert "deg" in during and "dB" not in during, during
+
+
+def test_a_band_pass_opened_after_the_demo_shows_its_centre_and_no_stale_budget(qtbot, monkeypatch):
+    """After opening the ultrasonic band-pass the results showed "passband gain" (the first
+    metric) instead of the centre, and the "no budget" chart kept the demo's part names."""
+    root = Path(__file__).resolve().parents[1]
+    w = start(qtbot)
+    demo_refs = {p.ref for p in w.session.design.parts}
+    open_file(w, monkeypatch, root / "assets/examples/ultrasonic_bandpass.json")
+    wait_idle(qtbot, w)
+    assert w.results.chooser.currentData() == "centre_hz"
+    assert "centre" in w.results.hist.getAxis("bottom").labelText
+    # choose the passband gain (no budget) with the keyboard, as a user would
+    chooser = w.results.chooser
+    chooser.setFocus()
+    QTest.keyClick(chooser, Qt.Key.Key_Home)
+    assert chooser.currentData() == "reference_db"
+    assert "no budget" in w.results.budget_plot.getPlotItem().titleLabel.text
+    # the axis's fixed tick labels (pyqtgraph keeps them in _tickLevels: None = automatic)
+    levels = w.results.budget_plot.getAxis("left")._tickLevels or []
+    names = {label for level in levels for _, label in level}
+    assert not names & demo_refs, f"part labels of the previous design remain: {names}"
