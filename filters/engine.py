@@ -421,7 +421,7 @@ def response_blocks(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz:
     for g in groups:
         zero |= g.zero
     uniform = bool(np.all(offset == offset[0]))
-    bufs = [np.empty((n_rows, f.size)) for _ in range(3)]
+    bufs = [np.empty((n_rows, f.size)) for _ in range(8 if general else 3)]
     own_gain = np.empty((n_rows, f.size)) if out_gain_db is None else None
     own_ph = np.empty((n_rows, f.size)) if phase and out_phase is None else None
     own_tau = np.empty((n_rows, f.size)) if delay and out_delay is None else None
@@ -449,10 +449,10 @@ def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: 
                     tau: np.ndarray | None) -> None:
     """:func:`frequency_response` for sample rows [lo, hi), into ``gain_db``, ``ph`` (deg,
     without the groups' constant offsets) and ``tau`` (s), each (hi - lo, F).
-    ``bufs``: three scratch arrays of the same shape. ``gain_db`` first accumulates the
+    ``bufs``: scratch arrays of the same shape, three (eight with general stages). ``gain_db`` first accumulates the
     product of the lean groups' |P / (C x^K)|^2, then becomes the gain in dB."""
     acc = gain_db       # the product of the groups' |P/(C x^K)|^2, then the gain in dB
-    re, im, tmp = bufs
+    re, im, tmp = bufs[:3]
     lean = False        # acc holds at least one group
     phase_started = False
     if tau is not None:
@@ -483,10 +483,14 @@ def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: 
         lean = True
     general_gain: np.ndarray | None = None
     for st in general:
-        nr, ni = st.num.parts(lo, hi)
-        dr, di = st.den.parts(lo, hi)
-        d2 = dr * dr + di * di
-        n2 = nr * nr + ni * ni
+        # scratch arrays reused block after block (re, im, tmp are free once the groups are
+        # done): fresh temporaries of this size cost a page-mapping each, and stall threads
+        nr, ni = st.num.parts(lo, hi, re, im)
+        dr, di = st.den.parts(lo, hi, tmp, bufs[3])
+        d2 = np.multiply(dr, dr, out=bufs[4])
+        d2 += np.multiply(di, di, out=bufs[5])
+        n2 = np.multiply(nr, nr, out=bufs[6])
+        n2 += np.multiply(ni, ni, out=bufs[5])
         if tau is not None and st.dden is not None:
             ddr, ddi = st.dden.parts(lo, hi)
             t = (ddr * dr + ddi * di) / d2
@@ -501,8 +505,12 @@ def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: 
             else:
                 ph[...] = p
                 phase_started = True
-        g = n2 / d2
-        general_gain = g if general_gain is None else general_gain * g
+        g = np.divide(n2, d2, out=n2)
+        if general_gain is None:  # kept apart: the next stage reuses n2's array
+            general_gain = bufs[7]
+            general_gain[...] = g
+        else:
+            general_gain *= g
     if lean and general_gain is not None:
         np.divide(general_gain, acc, out=acc)
         np.log10(acc, out=acc)
