@@ -421,7 +421,7 @@ def response_blocks(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz:
     for g in groups:
         zero |= g.zero
     uniform = bool(np.all(offset == offset[0]))
-    bufs = [np.empty((n_rows, f.size)) for _ in range(8 if general else 3)]
+    bufs = [np.empty((n_rows, f.size)) for _ in range(8 if general else 4 if len(groups) > 1 else 3)]
     own_gain = np.empty((n_rows, f.size)) if out_gain_db is None else None
     own_ph = np.empty((n_rows, f.size)) if phase and out_phase is None else None
     own_tau = np.empty((n_rows, f.size)) if delay and out_delay is None else None
@@ -449,7 +449,8 @@ def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: 
                     tau: np.ndarray | None) -> None:
     """:func:`frequency_response` for sample rows [lo, hi), into ``gain_db``, ``ph`` (deg,
     without the groups' constant offsets) and ``tau`` (s), each (hi - lo, F).
-    ``bufs``: scratch arrays of the same shape, three (eight with general stages). ``gain_db`` first accumulates the
+    ``bufs``: scratch arrays of the same shape, three (four with several groups, eight
+    with general stages). ``gain_db`` first accumulates the
     product of the lean groups' |P / (C x^K)|^2, then becomes the gain in dB."""
     acc = gain_db       # the product of the groups' |P/(C x^K)|^2, then the gain in dB
     re, im, tmp = bufs[:3]
@@ -466,7 +467,7 @@ def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: 
             else:
                 np.arctan2(im, re, out=tmp)
                 ph += tmp
-        target = acc if not lean else np.empty_like(tmp)
+        target = acc if not lean else bufs[3]
         np.multiply(re, re, out=target)
         np.multiply(im, im, out=tmp)
         target += tmp
