@@ -12,7 +12,6 @@ from pathlib import Path
 from typing import Sequence
 
 from filters import __version__
-from filters.designfile import load, load_demo
 from filters.errors import InputError, ValidationError
 from filters.safeio import check_output_path
 
@@ -62,6 +61,8 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _load(path: str | None):
+    from filters.designfile import load, load_demo  # imported when a design is read
+
     return load_demo() if path is None else load(path)
 
 
