@@ -72,6 +72,16 @@ def run_cli(*args: str, cwd: Path | None = None, timeout: float = 120.0, env: di
     return Run(list(args), proc.returncode, proc.stdout, proc.stderr)
 
 
+@pytest.fixture(scope="session")
+def cli_env(tmp_path_factory) -> dict[str, str]:
+    """User folders in a temporary place, for processes started by module-scoped fixtures
+    (they run before the per-test isolation of tests/conftest.py applies)."""
+    home = tmp_path_factory.mktemp("cli_home")
+    return {"TOLSPREAD_CONFIG_DIR": str(home), "XDG_CONFIG_HOME": str(home),
+            "TOLSPREAD_CACHE_DIR": str(tmp_path_factory.getbasetemp() / "cache"),
+            "XDG_CACHE_HOME": str(home / "cache"), "QT_QPA_PLATFORM": "offscreen"}
+
+
 # --- what the window showed --------------------------------------------------------------------
 @dataclass
 class Shown:
@@ -268,15 +278,27 @@ def wait_idle(qtbot, window, timeout: int = WAIT_MS) -> None:
     qtbot.waitUntil(lambda: not window.session.busy and yield_shown(window) is not None, timeout=timeout)
 
 
-def close_later(cls=QDialog, answer=None, ms: int = 50, attempts: int = 400):
+def close_later(cls=QDialog, answer=None, ms: int = 50, attempts: int = 400, patience_ms: int = 5000):
     """Answer the next modal dialog of type ``cls`` once it is open: ``answer(dialog)``
-    (default: press Escape / reject). Polls like a person who waits for it to appear."""
-    state = {"n": 0, "seen": None}
+    (default: reject it, as Escape does). Polls like a person who waits for it to appear.
+
+    A dialog still open ``patience_ms`` after its answer is rejected so the test cannot
+    hang in its modal loop; ``state["stuck"]`` then says so (tests assert it is False)."""
+    state = {"n": 0, "seen": None, "stuck": False}
+
+    def give_up(dlg) -> None:
+        try:
+            if dlg.isVisible():
+                state["stuck"] = True
+                dlg.reject()
+        except RuntimeError:  # deleted: it closed
+            pass
 
     def poll():
         dlg = QApplication.activeModalWidget()
         if isinstance(dlg, cls) and dlg.isVisible():
             state["seen"] = dlg
+            QTimer.singleShot(patience_ms, lambda: give_up(dlg))  # also if the answer fails
             (answer or (lambda d: d.reject()))(dlg)
             return
         state["n"] += 1

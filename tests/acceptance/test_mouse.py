@@ -10,9 +10,8 @@ from __future__ import annotations
 import math
 
 import pytest
-from PySide6.QtCore import QEvent, QPoint, QPointF, Qt
-from PySide6.QtGui import QMouseEvent
-from PySide6.QtWidgets import QApplication
+from PySide6.QtCore import QPoint, QPointF, Qt
+from PySide6.QtTest import QTest
 
 from filters.values import parse_value
 
@@ -21,12 +20,6 @@ from .conftest import WAIT_MS, log_errors, wait_idle
 pytestmark = pytest.mark.gui
 
 MOVE_GAP_MS = 12  # pyqtgraph drops mouse moves closer than 10 ms apart (its rate limit)
-
-
-def _send(widget, kind, pos: QPoint, button, buttons) -> None:
-    ev = QMouseEvent(kind, QPointF(pos), QPointF(widget.mapToGlobal(pos)), button, buttons,
-                     Qt.KeyboardModifier.NoModifier)
-    QApplication.sendEvent(widget, ev)
 
 
 def to_pixel(window, x: float, y: float) -> QPoint:
@@ -54,21 +47,21 @@ def settle(qtbot, window) -> None:
 
 
 def drag(qtbot, window, start: tuple[float, float], end: tuple[float, float], steps: int = 10):
-    """Left-button press at ``start``, moves like a hand's, release at ``end`` (view coords)."""
+    """Left-button press at ``start``, moves like a hand's, release at ``end`` (view coords),
+    as QTest's mouse events on the plot viewport."""
     vp = window.plots.canvas.viewport()
     settle(qtbot, window)
     a, b = to_pixel(window, *start), to_pixel(window, *end)
-    left, none = Qt.MouseButton.LeftButton, Qt.MouseButton.NoButton
-    _send(vp, QEvent.Type.MouseMove, a, none, none)
+    left = Qt.MouseButton.LeftButton
+    QTest.mouseMove(vp, a)
     qtbot.wait(MOVE_GAP_MS)
-    _send(vp, QEvent.Type.MouseButtonPress, a, left, left)
+    QTest.mousePress(vp, left, Qt.KeyboardModifier.NoModifier, a)
     for i in range(1, steps + 1):
         qtbot.wait(MOVE_GAP_MS)
         t = i / steps
-        p = QPoint(round(a.x() + t * (b.x() - a.x())), round(a.y() + t * (b.y() - a.y())))
-        _send(vp, QEvent.Type.MouseMove, p, none, left)
+        QTest.mouseMove(vp, QPoint(round(a.x() + t * (b.x() - a.x())), round(a.y() + t * (b.y() - a.y()))))
     qtbot.wait(MOVE_GAP_MS)
-    _send(vp, QEvent.Type.MouseButtonRelease, b, left, none)
+    QTest.mouseRelease(vp, left, Qt.KeyboardModifier.NoModifier, b)
     return a, b
 
 
