@@ -139,13 +139,19 @@ def mouse_click(qtbot, window, at: tuple[float, float]) -> None:
 
 
 # --- fixtures ------------------------------------------------------------------------------
+def wait_first_view(qtbot, w) -> None:
+    """Wait for the window's own first evaluation (it computes on start; issue 10 #1: a
+    fixture calling evaluate_now() here hid that it did not)."""
+    qtbot.waitUntil(lambda: w.session.last_view is not None and not w.session.busy, timeout=WAIT_MS)
+
+
 @pytest.fixture
 def window(qtbot):
     w = add_window(qtbot, make_window(None))
     w.resize(1500, 900)
     w.show()
     qtbot.waitExposed(w)
-    w.session.evaluate_now()
+    wait_first_view(qtbot, w)
     yield w
     close_window(w)
 
@@ -170,7 +176,7 @@ def gain_window(qtbot, tmp_path):
     w.resize(1500, 900)
     w.show()
     qtbot.waitExposed(w)
-    w.session.evaluate_now()
+    wait_first_view(qtbot, w)
     yield w
     close_window(w)
 

@@ -23,7 +23,8 @@ def window(qtbot):
     w = make_window(None)
     qtbot.addWidget(w, before_close_func=lambda w: w.session.undo_stack.setClean())
     w.show()
-    w.session.evaluate_now()
+    # the window computes on its own; waiting for it (not evaluate_now()) keeps issue 10 #1 fixed
+    qtbot.waitUntil(lambda: w.session.last_view is not None and not w.session.busy, timeout=30_000)
     yield w
     w.session.undo_stack.setClean()
 
