@@ -256,8 +256,15 @@ def _chain_hook(monkeypatch, pytest_hook) -> None:
     monkeypatch.setattr(sys, "excepthook", chained)
 
 
+def _no_evaluate_now(self):
+    raise AssertionError("the acceptance layer never computes for the window: evaluate_now() was called")
+
+
 @pytest.fixture
 def starter(qtbot, monkeypatch, answers, shown):
+    from app.qt_session import Session
+
+    monkeypatch.setattr(Session, "evaluate_now", _no_evaluate_now)  # nothing may do the window's job
     s = Starter(qtbot, monkeypatch, answers, shown)
     yield s
     s.cleanup()

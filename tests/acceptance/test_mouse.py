@@ -124,3 +124,67 @@ def test_draw_mode_drag_near_the_passband_draws_and_moves_nothing(window, qtbot)
     """The issue's own reproduction: a floor drag at about -1.5 dB from 200 Hz to 800 Hz,
     a few pixels from the passband floor and ceiling lines."""
     _draw_and_check(window, qtbot, "draw_floor", 200.0, 800.0, -1.5, -1.5 - 0.0)
+
+
+def test_drag_a_span_line_outside_draw_mode_moves_only_that_span(window, qtbot, shown):
+    """Outside draw mode a drag on a span's limit line moves that span (both ends by the
+    same amount); every other span stays."""
+    before = window.session.design.mask
+    i = next(k for k, s in enumerate(before) if s.name == "stopband ceiling")
+    span = before[i]
+    reference = window.plots.view.nominal_metrics.get("reference_db", 0.0)
+    y = span.limit1 + (reference if span.relative else 0.0)
+    x_mid = 0.5 * (math.log10(span.f1) + math.log10(span.f2))
+    pa, pb = drag(qtbot, window, (x_mid, y), (x_mid, y - 6.0))
+    qtbot.waitUntil(lambda: window.session.design.mask != before, timeout=WAIT_MS)
+    after = window.session.design.mask
+    assert [s for k, s in enumerate(after) if k != i] == [s for k, s in enumerate(before) if k != i]
+    moved = after[i]
+    dy = from_pixel(window, pb)[1] - from_pixel(window, pa)[1]
+    assert moved.limit1 - span.limit1 == pytest.approx(dy, abs=0.02)
+    assert moved.f1 == pytest.approx(span.f1, rel=2e-3) and moved.f2 == pytest.approx(span.f2, rel=2e-3)
+    assert window.session.undo_stack.count() == 1, "one drag, one undoable edit"
+    wait_idle(qtbot, window)
+    assert not shown.errors() and not log_errors()
+
+
+def _type_into_cell(qtbot, window, row: int, col: int, text: str) -> None:
+    """Double-click the cell, select its text, type, press Enter (as a person edits it)."""
+    from PySide6.QtWidgets import QLineEdit
+
+    t = window.span_table.table
+    t.scrollTo(t.model().index(row, col))
+    rect = t.visualRect(t.model().index(row, col))
+    # a double-click is a click and then a second press (QTest.mouseDClick sends only the latter)
+    QTest.mouseClick(t.viewport(), Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, rect.center())
+    QTest.mouseDClick(t.viewport(), Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, rect.center())
+    qtbot.waitUntil(lambda: t.viewport().findChild(QLineEdit) is not None
+                    and t.viewport().findChild(QLineEdit).isVisible(), timeout=WAIT_MS)
+    editor = t.viewport().findChild(QLineEdit)
+    editor.selectAll()
+    qtbot.keyClicks(editor, text)
+    qtbot.keyClick(editor, Qt.Key.Key_Return)
+
+
+def test_span_table_typing_edits_the_span_and_refuses_nonsense(window, qtbot, shown):
+    """Typing a good f2 edits the span (and the yield follows); typing an f1 above f2 keeps
+    the last good value, marks the cell typed and names that field (issue 10 #11)."""
+    from .test_actions import library_yield
+    from .conftest import yield_shown
+
+    before = window.session.design
+    i = next(k for k, s in enumerate(before.mask) if s.name == "corner floor")
+    f2_col, f1_col = 4, 3
+    _type_into_cell(qtbot, window, i, f2_col, "1.8k")
+    qtbot.waitUntil(lambda: window.session.design.mask[i].f2 == pytest.approx(1800.0), timeout=WAIT_MS)
+    wait_idle(qtbot, window)
+    assert yield_shown(window) == pytest.approx(library_yield(window.session.design), abs=5e-5)
+    edited = window.session.design
+    _type_into_cell(qtbot, window, i, f1_col, "5k")
+    qtbot.wait(100)
+    assert window.session.design == edited, "a refused entry must not change the design"
+    cell = window.span_table.table.item(i, f1_col)
+    assert _frequency(cell.text()) == pytest.approx(edited.mask[i].f1), "the last good value is shown again"
+    assert "f1" in cell.toolTip() and "f2" not in cell.toolTip().split("f1")[0], cell.toolTip()
+    assert "f1" in window.status_text.text()
+    assert not shown.errors() and not log_errors()
