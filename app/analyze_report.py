@@ -7,9 +7,11 @@ from typing import Any, TextIO
 
 from filters import __version__
 from filters.analysis import AnalysisResult, analyze  # noqa: F401  (re-exported for the CLI)
-from filters.budget import is_pair_metric
+from filters import metric_names
+from filters.metric_names import SPAN_UNIT, is_margin, is_pair_metric, metric_label
 from filters.metrics import ATTENUATION_FLOOR_DB
-from filters.summary import MetricSummary, metric_label
+from filters.report_text import format_metric
+from filters.summary import MetricSummary
 from filters.values import format_value
 
 from .texttable import table
@@ -18,39 +20,25 @@ CAUTION = ("The yield is an estimate under the grades' stated distributions (see
            "confirm it by measuring real parts, follow the standards that apply, and have the design reviewed.")
 
 
-def _fmt(x: float, unit: str, signed: bool = True) -> str:
-    """A figure with its unit; dB figures carry a sign unless ``signed`` is False (a
-    standard deviation is a size, never negative)."""
-    if not math.isfinite(x):
-        return "n/a"
-    if unit == "Hz":
-        return format_value(x, "Hz", digits=4)
-    if unit == "dB":
-        return f"{x:+.3f} dB" if signed else f"{x:.3f} dB"
-    return f"{x:.4g}"
-
-
-def _unit(name: str) -> str:
-    if name.endswith("_hz"):
-        return "Hz"
-    return "dB" if name.endswith("_db") or name.startswith(("margin.", "attenuation_db@")) else ""
+def _is_attenuation(name: str) -> bool:
+    return metric_names.parse(name).kind == "attenuation"
 
 
 def _beyond_floor(s: MetricSummary) -> bool:
     """An attenuation some board has beyond :data:`ATTENUATION_FLOOR_DB`."""
-    return s.name.startswith("attenuation_db@") and math.isfinite(s.maximum) and s.maximum > ATTENUATION_FLOOR_DB
+    return _is_attenuation(s.name) and math.isfinite(s.maximum) and s.maximum > ATTENUATION_FLOOR_DB
 
 
-def summary_cells(s: MetricSummary, label: str) -> list[str]:
-    """One row of the metric table: label, nominal, mean, std, std/mean, 1st and 99th
-    percentile, min, max. Attenuations beyond the floor of trust read "> 200 dB"."""
-    u = _unit(s.name)
-    rel = f"{100 * s.rel_std:.2f} %" if (u == "Hz" or s.name.endswith(".q")) and math.isfinite(s.rel_std) else ""
+def summary_cells(s: MetricSummary, label: str, unit: str) -> list[str]:
+    """One row of the metric table (figures in ``unit``): label, nominal, mean, std,
+    std/mean, 1st and 99th percentile, min, max. Attenuations beyond the floor of trust
+    read "> 200 dB"."""
+    rel = f"{100 * s.rel_std:.2f} %" if metric_names.is_log_metric(s.name) and math.isfinite(s.rel_std) else ""
 
     def fig(x: float, signed: bool = True) -> str:
-        if s.name.startswith("attenuation_db@") and math.isfinite(x) and x > ATTENUATION_FLOOR_DB:
+        if _is_attenuation(s.name) and math.isfinite(x) and x > ATTENUATION_FLOOR_DB:
             return f"> {ATTENUATION_FLOOR_DB:g} dB"
-        return _fmt(x, u, signed)
+        return format_metric(x, unit, signed)
 
     std = "n/a" if _beyond_floor(s) else fig(s.std, signed=False)
     return [label, fig(s.nominal), fig(s.mean), std, rel, fig(s.p01), fig(s.p99), fig(s.minimum), fig(s.maximum)]
@@ -70,8 +58,9 @@ def metric_order(result: AnalysisResult) -> list[str]:
     gains, attenuations, then each stage's f0 and Q."""
     order = [n for n in ("cutoff_hz", "centre_hz", "lower_hz", "upper_hz", "bandwidth_hz", "reference_db",
                          "peaking_db") if n in result.summaries]
-    order += [n for n in result.summaries if n.startswith("attenuation_db@")]
-    order += [n for n in result.summaries if n.startswith("s") and n not in order and not is_pair_metric(n)]
+    kinds = {n: metric_names.parse(n).kind for n in result.summaries}
+    order += [n for n in result.summaries if kinds[n] == "attenuation"]
+    order += [n for n in result.summaries if kinds[n] == "stage" and not is_pair_metric(n)]
     return order
 
 
@@ -98,11 +87,10 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
                       f"{100 * y.half_width:.2f} points\n")
         rows = []
         for j, s in enumerate(result.spans):
-            u = {"gain": "dB", "phase": "deg", "delay": "s"}[d.mask[j].quantity]
-            margin = (lambda x: _fmt(x, "dB")) if u == "dB" else (lambda x, u=u: format_value(x, u, digits=4)
-                                                                    if u == "s" else f"{x:+.3f} {u}")
+            u = SPAN_UNIT[d.mask[j].quantity]
             rows.append([s.name, f"{s.failed:,}", _pct(s.fraction), _pct(s.share_of_failures),
-                         margin(s.worst_margin_db), margin(float(result.prepared.nominal.margins[j]))])
+                         format_metric(s.worst_margin_db, u),
+                         format_metric(float(result.prepared.nominal.margins[j]), u)])
         _write(out, table(["span", "failing boards", "of all", "share of failures", "worst margin",
                            "nominal margin"], rows, "<>>>>>"))
         out.write("\n")
@@ -110,7 +98,8 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
         out.write("No spec mask in this design: add floor and ceiling spans to get a yield.\n\n")
 
     order = metric_order(result)
-    rows = [summary_cells(result.summaries[n], metric_label(n, names)) for n in order]
+    rows = [summary_cells(result.summaries[n], metric_label(n, names), metric_names.unit(n, d.mask))
+            for n in order]
     _write(out, table(["metric", "nominal", "mean", "std", "std/mean", "1st pct", "99th pct", "min", "max"],
                       rows, "<>>>>>>>>"))
     for n in order:
@@ -127,10 +116,11 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
               "rounded so each line adds to 100 %)\n")
     rows = []
     for name, b in result.budget.items():
-        if name not in ("cutoff_hz", "centre_hz") and not name.startswith("margin."):
+        if name not in ("cutoff_hz", "centre_hz") and not is_margin(name):
             continue
         shares = b.rounded_percent(top)
-        rows.append([metric_label(name, names), ", ".join(f"{ref} {v:.1f} %" for ref, v in shares) or "no spread"])
+        rows.append([metric_label(name, names, d.mask),
+                     ", ".join(f"{ref} {v:.1f} %" for ref, v in shares) or "no spread"])
     if rows:
         _write(out, table(["metric", "shares"], rows, "<<")[1:])
 
@@ -140,16 +130,16 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
                  "guaranteed worst case")
     out.write(f"\nCORNERS ({kind})\n")
     rows, nonlinear = [], []
-    for name in ["cutoff_hz", "centre_hz"] + [n for n in c.ranges if n.startswith("margin.")]:
+    for name in ["cutoff_hz", "centre_hz"] + [n for n in c.ranges if is_margin(n)]:
         r = c.ranges.get(name)
         if r is None:
             continue
-        u = _unit(name)
-        rss = _fmt(r.rss_std, u, signed=False) if r.linear else "not linear"
+        u = metric_names.unit(name, d.mask)
+        rss = format_metric(r.rss_std, u, signed=False) if r.linear else "not linear"
+        label = metric_label(name, names, d.mask)
         if not r.linear:
-            nonlinear.append(metric_label(name, names))
-        rows.append([metric_label(name, names), _fmt(r.corner_low, u), _fmt(r.corner_high, u),
-                     _fmt(r.mc_low, u), _fmt(r.mc_high, u), rss])
+            nonlinear.append(label)
+        rows.append([label, *(format_metric(x, u) for x in (r.corner_low, r.corner_high, r.mc_low, r.mc_high)), rss])
     _write(out, table(["metric", "corner low", "corner high", "MC min", "MC max", "RSS std"], rows, "<>>>>>"))
     for label in nonlinear:
         out.write(f"  note: {label} is not linear at the nominal: a one-sided limit (a minimum or maximum over "
@@ -185,19 +175,26 @@ def _clean(obj: Any) -> Any:
 def to_json(result: AnalysisResult) -> dict[str, Any]:
     """The JSON document of ``tolspread analyze --json``."""
     d = result.design
+
+    def with_unit(name: str, fields: dict[str, Any]) -> dict[str, Any]:
+        return {**fields, "unit": metric_names.unit(name, d.mask)}
+
     y = result.yield_.to_dict()
-    y["spans"] = [s.to_dict() for s in result.spans]
+    # a span's margins (worst_margin_db) are in its quantity's unit: dB, deg or s
+    y["spans"] = [{**s.to_dict(), "unit": SPAN_UNIT[span.quantity]} for s, span in zip(result.spans, d.mask)]
     y["caution"] = CAUTION
+    corner_doc = result.corners.to_dict()
+    corner_doc["metrics"] = {n: with_unit(n, r) for n, r in corner_doc["metrics"].items()}
     return _clean({
         "tool": "tolspread", "version": __version__,
         "design": d.name,
         "samples": result.samples,
         "seed": result.seed,
         "method": result.ensemble.method,
-        "metrics": {n: s.to_dict() for n, s in result.summaries.items()},
+        "metrics": {n: with_unit(n, s.to_dict()) for n, s in result.summaries.items()},
         "attenuation_floor_db": ATTENUATION_FLOOR_DB,
         "yield": y,
-        "budget": {n: b.to_dict() for n, b in result.budget.items()},
-        "corners": result.corners.to_dict(),
+        "budget": {n: with_unit(n, b.to_dict()) for n, b in result.budget.items()},
+        "corners": corner_doc,
         "opamps": [dict(vars(r)) for r in result.opamps],
     })

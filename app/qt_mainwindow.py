@@ -26,7 +26,7 @@ from filters.designfile import load_demo, write_text_atomic
 from filters.errors import InputError, ValidationError
 from filters.liveview import ViewData, what_if_grades
 from filters.mask import Span
-from filters.summary import metric_label
+from filters.metric_names import metric_label
 
 from . import userfiles
 from .qt_help import build_help_menu
@@ -581,7 +581,8 @@ class MainWindow(QMainWindow):
 
         buf = io.StringIO()
         w = csv.writer(buf)
-        w.writerow(["board"] + [f"{r} (SI units)" for r in refs] + [metric_label(n, stage_names) for n in names]
+        w.writerow(["board"] + [f"{r} (SI units)" for r in refs]
+                   + [metric_label(n, stage_names, view.design.mask) for n in names]
                    + ["passes mask"])
         passed = ens.passed
         cols = np.column_stack([ens.values] + [view.metrics[n] for n in names])

@@ -19,6 +19,7 @@ from PySide6.QtWidgets import (QHBoxLayout, QHeaderView, QLabel, QPushButton, QT
 from filters.design import check_span_limits
 from filters.errors import InputError, ValidationError
 from filters.mask import Span
+from filters.metric_names import unique_span_name
 from filters.values import format_value
 
 from . import qt_style as st
@@ -241,7 +242,9 @@ class SpanTable(QWidget):
         lo, hi = self._f_range
         f1, f2 = lo * (hi / lo) ** 0.2, lo * (hi / lo) ** 0.4
         if quantity == "phase":
-            span = Span(kind="floor", f1=f1, f2=f2, limit1=-180.0, quantity="phase", name="phase floor")
+            span = Span(kind="floor", f1=f1, f2=f2, limit1=-180.0, quantity="phase",
+                        name=unique_span_name("phase floor", self._spans))
         else:
-            span = Span(kind="variation", f1=f1, f2=f2, limit1=1e-4, quantity="delay", name="delay variation")
+            span = Span(kind="variation", f1=f1, f2=f2, limit1=1e-4, quantity="delay",
+                        name=unique_span_name("delay variation", self._spans))
         self.span_added.emit(span)

@@ -29,6 +29,7 @@ from PySide6.QtWidgets import (QGraphicsPolygonItem, QGraphicsRectItem, QLabel, 
 
 from filters.liveview import ViewData
 from filters.mask import Span
+from filters.metric_names import unique_span_name
 from filters.values import format_value
 
 from . import qt_style as st
@@ -555,9 +556,10 @@ class SpreadPlots(QWidget):
         # the rectangle paints the forbidden zone: a ceiling's limit is its lower edge
         level = min(y0, y1) if kind == "ceiling" else max(y0, y1)
         limit = round(level - self._reference_db, 2)
-        n = sum(1 for s in self.view.design.mask if s.kind == kind) + 1
+        mask = self.view.design.mask  # "floor 3": numbered after the spans of its kind, never a name in use
+        name = unique_span_name(kind, mask, first=sum(1 for s in mask if s.kind == kind) + 1)
         self.span_added.emit(Span(kind=kind, f1=f1, f2=f2, limit1=limit, relative=True,  # type: ignore[arg-type]
-                                  name=f"{kind} {n}"))
+                                  name=name))
 
     def _on_span_changing(self, item: SpanItem) -> None:
         span = item.current_span()

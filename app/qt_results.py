@@ -2,8 +2,6 @@
 metric, and the spread budget of that metric as a ranked bar chart."""
 from __future__ import annotations
 
-import re
-
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, Signal
@@ -11,7 +9,8 @@ from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QHeaderView, QLabel, QTab
                                QVBoxLayout, QWidget)
 
 from filters.liveview import ViewData
-from filters.summary import metric_label
+from filters import metric_names
+from filters.metric_names import is_pair_metric, metric_label
 
 from . import qt_style as st
 from .qt_units import QUANTITY_UNIT, eng, prefix_for
@@ -133,13 +132,13 @@ class ResultsPanel(QWidget):
                 self.table.setItem(i, j, item)
         self._fit_table_height()
         names = [s.name for s in view.design.stages]
-        wanted = [n for n in view.metrics if not _is_pair(n)]
+        wanted = [n for n in view.metrics if not is_pair_metric(n)]
         current = [self.chooser.itemData(i) for i in range(self.chooser.count())]
         if current != wanted:
             self.chooser.blockSignals(True)
             self.chooser.clear()
             for n in wanted:
-                self.chooser.addItem(metric_label(n, names), n)
+                self.chooser.addItem(metric_label(n, names, view.design.mask), n)
             self.chooser.blockSignals(False)
         if self.metric_name not in wanted:  # e.g. a band-pass opened after a low-pass
             self.metric_name = next((n for n in FIRST_METRICS if n in wanted),
@@ -230,13 +229,8 @@ class ResultsPanel(QWidget):
     def _label_metric_axis(self, axis, name: str, stage_names: list[str], values: np.ndarray) -> None:
         """Label ``axis`` with the metric and its unit. dB, degrees, Q and % are never
         SI-scaled; Hz and seconds get one fixed prefix chosen from the data (kHz, µs)."""
-        label = metric_label(name, stage_names)
-        m = re.fullmatch(r"(.*) \(([^()]*)\)", label)
-        base, unit = (m.group(1), m.group(2)) if m else (label, "")
-        if name.startswith("margin.") and self.view is not None:
-            span = next((sp for sp in self.view.design.mask if sp.label == name[len("margin."):]), None)
-            if span is not None:
-                unit = QUANTITY_UNIT[span.quantity]  # a phase or delay margin is not in dB
+        base = metric_names.metric_words(name, stage_names)
+        unit = metric_names.unit(name, self.view.design.mask if self.view is not None else None)
         if unit in ("Hz", "s") and values.size:
             prefix, factor = prefix_for(float(np.max(np.abs(values))))
             axis.setScale(1.0 / factor)
@@ -248,8 +242,3 @@ class ResultsPanel(QWidget):
     def show_message(self, text: str) -> None:
         self.yield_label.setText(f"<span style='color:{st.VERMILION}'><b>{text}</b></span>")
 
-
-def _is_pair(name: str) -> bool:
-    from filters.budget import is_pair_metric
-
-    return is_pair_metric(name)

@@ -20,7 +20,8 @@ from filters.bands import Bands
 from filters.designfile import write_text_atomic
 from filters.liveview import ViewData
 from filters.report_figures import SVG_NS, svg_histogram, svg_spread_plot
-from filters.summary import metric_label
+from filters import metric_names
+from filters.metric_names import metric_label
 
 WIDTH = 1100
 GAIN_HEIGHT = 480
@@ -95,10 +96,10 @@ def plots_svg(view: ViewData, gain_range: tuple[tuple[float, float], tuple[float
                                     title=f"{name}: {label.split(' (')[0]} spread", ylabel=label))
     if histogram_metric is not None and histogram_metric in view.metrics:
         stage_names = [s.name for s in view.design.stages]
-        label = metric_label(histogram_metric, stage_names)
-        unit = "Hz" if histogram_metric.endswith("_hz") else ""
+        label = metric_label(histogram_metric, stage_names, view.design.mask)
         figs.append(svg_histogram(view.metrics[histogram_metric], 40,
-                                  ~view.ensemble.passed if view.design.mask else None, label, unit=unit,
+                                  ~view.ensemble.passed if view.design.mask else None, label,
+                                  unit=metric_names.unit(histogram_metric, view.design.mask),
                                   width=WIDTH, height=HIST_HEIGHT, ident="histogram",
                                   title=f"{name}: histogram of {label}"))
     return stack_svgs(figs)

@@ -11,9 +11,9 @@ import math
 import re
 
 from filters.errors import InputError, quoted
+from filters.metric_names import SPAN_UNIT as QUANTITY_UNIT
 from filters.values import format_value, parse_value
 
-QUANTITY_UNIT = {"gain": "dB", "phase": "deg", "delay": "s"}
 _PREFIX_OF = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}
 _FACTOR_OF = {p: 10.0 ** e for e, p in _PREFIX_OF.items()}
 _FACTOR_OF["u"] = 1e-6

@@ -1,13 +1,15 @@
 """The spread budget: which part explains how much of a metric's variance.
 
 From the sampled boards: the metric (its logarithm for frequencies and Q, the value
-itself for dB margins) is regressed by least squares on every part's log deviation
+itself for decibels and for margins in dB, degrees or seconds:
+:func:`filters.metric_names.is_log_metric`) is regressed by least squares on every part's log deviation
 ln(value / marked value). A part's share is its term's variance over the metric's
 variance, beta_i^2 Var(x_i) / Var(y); what the straight-line fit leaves (curvature,
 interactions, parts correlated by lot) is reported as the remainder.
 
 Beside it, each part's normalized sensitivity at the nominal design,
-S = d ln(metric) / d ln(value) (for dB metrics: dB per unit ln(value), reported per 1 %),
+S = d ln(metric) / d ln(value) (for linear metrics: the metric's unit per unit ln(value),
+reported per 1 %: :func:`filters.metric_names.sensitivity_unit`),
 by a central difference of +-1e-4 in ln(value) evaluated as extra rows of one batch.
 
 Memory: the fit is taken in chunks of boards (:func:`filters.summary.board_chunk`), and rows
@@ -17,37 +19,21 @@ grows with the number of boards or parts beyond (parts x parts) sums.
 from __future__ import annotations
 
 from dataclasses import dataclass
-
-import re
 from typing import Callable
 
 import numpy as np
 
 from .evaluate import Ensemble, Prepared, evaluate_values
+from .metric_names import is_log_metric, is_margin, margin_name, margin_names, parse, sensitivity_unit
 from .summary import board_chunk, chunks
 
 STEP = 1e-4
 
 
-def is_log_metric(name: str) -> bool:
-    """Frequencies and Q are budgeted on a log scale; dB values and margins linearly."""
-    return name.endswith("_hz") or name.endswith(".q")
-
-
-def is_pair_metric(name: str) -> bool:
-    """``s1.p2.q``: one pole pair of a higher-order stage (kept out of default lists)."""
-    return bool(re.match(r"^s\d+\.p\d+\.", name))
-
-
-def margin_names(ens: Ensemble) -> list[str]:
-    """Metric names of the span margins, ``margin.<span label>``."""
-    return [f"margin.{s.label}" for s in ens.design.mask]
-
-
 def metric_columns(ens: Ensemble) -> dict[str, np.ndarray]:
     """Every per-sample metric including span margins, name -> (S,)."""
     out = dict(ens.metrics)
-    for j, name in enumerate(margin_names(ens)):
+    for j, name in enumerate(margin_names(ens.design.mask)):
         out[name] = ens.margins[:, j]
     return out
 
@@ -135,7 +121,7 @@ def evaluate_rows(prep: Prepared, n: int, make_rows: Callable[[int, int], np.nda
         for name, v in ev.metrics.items():
             cols.setdefault(name, np.full(n, np.nan))[sl] = v
     for j, s in enumerate(prep.design.mask):
-        cols[f"margin.{s.label}"] = marg[:, j]
+        cols[margin_name(s)] = marg[:, j]
     return cols, marg
 
 
@@ -178,9 +164,13 @@ def log_deviations(ens: Ensemble, nominal: np.ndarray, sl: slice) -> np.ndarray:
 def budget_names(cols: dict[str, np.ndarray]) -> list[str]:
     """The default metrics of a spread budget: cutoff or band-pass centre and bandwidth,
     stage f0/Q (not single pole pairs), every span margin."""
-    names = [n for n in cols if n in ("cutoff_hz", "centre_hz") or n.endswith(".f0_hz") or n.endswith(".q")
-             or n.startswith("margin.") or n == "bandwidth_hz"]
-    return [n for n in names if not is_pair_metric(n)]
+    def default(name: str) -> bool:
+        if name in ("cutoff_hz", "centre_hz", "bandwidth_hz") or is_margin(name):
+            return True
+        mid = parse(name)
+        return mid.kind == "stage" and mid.quantity in ("f0_hz", "q") and not mid.pair
+
+    return [n for n in cols if default(n)]
 
 
 def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
@@ -275,7 +265,7 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
     for name in names:
         cnt = count[name]
         s_vec = sens.get(name, np.full(p, np.nan))
-        unit = "ln/ln" if is_log_metric(name) else "dB per %"
+        unit = sensitivity_unit(name, ens.design.mask)
         if cnt < 3 or syy[name] == 0:
             entries = tuple(BudgetEntry(r, 0.0, float(v), unit) for r, v in zip(refs, s_vec))
             out[name] = Budget(name, entries, 0.0, int(cnt))

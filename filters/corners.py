@@ -27,8 +27,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .budget import evaluate_rows, is_log_metric, log_deviations, metric_columns, perturbed_rows, sensitivities
+from .budget import evaluate_rows, log_deviations, metric_columns, perturbed_rows, sensitivities
 from .evaluate import Ensemble, Prepared
+from .metric_names import is_log_metric, margin_name
 from .sampling import limits
 from .summary import CHUNK, board_chunk, chunks, column_stats
 
@@ -165,7 +166,7 @@ def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None, chunk
     ccols, cmarg = evaluate_rows(prep, rows.shape[0], lambda a, b: rows[a:b])
     nomcols = dict(prep.nominal.metrics)
     for j, s in enumerate(ens.design.mask):
-        nomcols[f"margin.{s.label}"] = float(prep.nominal.margins[j])
+        nomcols[margin_name(s)] = float(prep.nominal.margins[j])
     sens = sensitivities(prep, names)
     sigma = log_spread(ens, prep.nominal.values, chunk)
     lo, hi = limits(prep.nominal.values, ens.grades, ens.design.analysis.conditions)

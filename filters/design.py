@@ -14,6 +14,7 @@ from typing import Any
 from .errors import InputError, ValidationError, is_finite_number, quoted
 from .grades import Catalog, Grade, builtin_catalog, scaled
 from .mask import Span
+from .metric_names import SPAN_UNIT, duplicate_label
 from .sampling import METHODS, Conditions
 from .topologies import TOPOLOGIES, Topology, build
 from .values import format_value, parse_value
@@ -29,7 +30,6 @@ GAIN_LIMIT_DB = 1000.0       # mask limits beyond +-1000 dB are certainly typing
 # The largest mask limit of each quantity (gain dB, phase degrees, delay variation seconds):
 # beyond them a limit is a typing error, and margins of ~1e300 overflow the statistics.
 SPAN_LIMITS = {"gain": GAIN_LIMIT_DB, "phase": 100_000.0, "delay": 1e12}
-_SPAN_UNITS = {"gain": "dB", "phase": "deg", "delay": "s"}
 MAX_TEMPERATURE_SHIFT = 0.5  # a temperature coefficient may move a value by at most 50 % over the range
 MAX_POINTS = 5000
 INTERVALS = ("wilson", "exact")
@@ -240,7 +240,7 @@ def check_span_limit(quantity: str, limit: Any, path: str = "limit1") -> float:
         raise InputError(f"unknown quantity {quoted(quantity)}; known: {', '.join(SPAN_LIMITS)}", path)
     if not is_finite_number(limit):
         raise InputError(f"must be a finite number, not {quoted(limit)}", path)
-    v, top, unit = float(limit), SPAN_LIMITS[quantity], _SPAN_UNITS[quantity]
+    v, top, unit = float(limit), SPAN_LIMITS[quantity], SPAN_UNIT[quantity]
     if quantity == "delay" and not 0 < v <= top:
         raise InputError(f"a delay variation limit must be above 0 s and at most {top:g} s, not {v:g} s", path)
     if abs(v) > top:
@@ -508,6 +508,7 @@ def design_from_dict(data: Any) -> Design:
                 "analysis.temperature_c"))
 
     mask: list[Span] = []
+    mask_paths: list[str] = []
     raw_mask = data.get("mask", [])
     if not isinstance(raw_mask, list):
         problems.append(InputError("must be a list of spans", "mask"))
@@ -532,6 +533,14 @@ def design_from_dict(data: Any) -> Design:
             problems.append(exc)
             continue
         mask.append(span)
+        mask_paths.append(f"mask[{i}]")
+    twins = duplicate_label(mask)
+    if twins is not None:  # one margin name for two spans: their results would merge
+        first, second = (mask_paths[k] for k in twins)
+        label = mask[twins[1]].label
+        what = f"named {quoted(label)}" if mask[twins[1]].name else f"labelled {quoted(label)} (give one a name)"
+        problems.append(InputError(f"two spans are {what} ({first} and {second}); span names must be unique",
+                                   f"{second}.name"))
     if problems:
         raise ValidationError(problems)
     return Design(tuple(parts), tuple(stages), analysis, tuple(mask), data.get("name", ""),

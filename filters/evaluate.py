@@ -33,6 +33,7 @@ from .errors import Cancelled, InputError
 from .grades import Grade
 from .judge import SpanPlan, margins, needs, plan
 from .mask import edge_frequencies
+from .metric_names import attenuation_name
 from .metrics import attenuation_db, cutoff_metrics, stage_metrics
 from .sampling import draw_scores, part_values
 
@@ -170,11 +171,6 @@ def _metrics_for(circuit: Circuit, coeffs, resp: Response, cutoff_db: float,
         for f in attenuation_hz:
             m[attenuation_name(f)] = attenuation_db(coeffs, ref2, f)
     return m
-
-
-def attenuation_name(f_hz: float) -> str:
-    """Metric name of the attenuation (dB below the passband reference) at ``f_hz``."""
-    return f"attenuation_db@{f_hz:g}"
 
 
 def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,

@@ -18,6 +18,7 @@ from .budget import Budget, metric_columns, spread_budget
 from .design import Design
 from .evaluate import Ensemble, Prepared, evaluate, prepare
 from .grades import Grade
+from .metric_names import margin_name
 from .stats import SpanFailures, YieldEstimate, failure_breakdown, yield_estimate
 
 SecondQuantity = Literal["phase", "delay"]
@@ -99,7 +100,7 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
     budget = spread_budget(ens, prep) if req.budget else {}
     nominal_metrics = dict(prep.nominal.metrics)
     for j, s in enumerate(d.mask):
-        nominal_metrics[f"margin.{s.label}"] = float(prep.nominal.margins[j])
+        nominal_metrics[margin_name(s)] = float(prep.nominal.margins[j])
     return ViewData(
         req.generation, d, ens.freqs_hz, req.second, nom.gain_db[0],
         np.asarray(nominal_second), bands(drawn.gain_db), bands(second),

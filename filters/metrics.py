@@ -20,6 +20,7 @@ from .engine import (
     gain2_at,
     hf_gain2,
 )
+from .metric_names import stage_metric_name
 
 TWO_PI = 2 * math.pi
 
@@ -357,7 +358,7 @@ def stage_metrics(circuit: Circuit, coeffs: list[StageCoefficients]) -> dict[str
     for k, (st, sc) in enumerate(zip(circuit.stages, coeffs), 1):
         n = sc.den.shape[1] - 1
         if n == 1:
-            out[f"s{k}.fc_hz"] = sc.den[:, 0] / sc.den[:, 1] * sc.w_ref / TWO_PI
+            out[stage_metric_name(k, "fc_hz")] = sc.den[:, 0] / sc.den[:, 1] * sc.w_ref / TWO_PI
             continue
         f0, q = pole_pairs(sc.den, sc.w_ref)
         if f0.shape[1] == 0:
@@ -366,10 +367,10 @@ def stage_metrics(circuit: Circuit, coeffs: list[StageCoefficients]) -> dict[str
             continue  # only real poles (a passive RC ladder): no f0 and Q to report
         best = np.argmax(np.where(np.isnan(q), -np.inf, q), axis=1)  # the highest-Q pair
         rows = np.arange(q.shape[0])
-        out[f"s{k}.f0_hz"] = f0[rows, best]
-        out[f"s{k}.q"] = q[rows, best]
+        out[stage_metric_name(k, "f0_hz")] = f0[rows, best]
+        out[stage_metric_name(k, "q")] = q[rows, best]
         if f0.shape[1] > 1:
             for j in range(f0.shape[1]):
-                out[f"s{k}.p{j + 1}.f0_hz"] = f0[:, j]
-                out[f"s{k}.p{j + 1}.q"] = q[:, j]
+                out[stage_metric_name(k, "f0_hz", j + 1)] = f0[:, j]
+                out[stage_metric_name(k, "q", j + 1)] = q[:, j]
     return out

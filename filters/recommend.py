@@ -38,12 +38,13 @@ from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
 
-from .budget import Budget, margin_names, spread_budget
+from .budget import Budget, spread_budget
 from .design import MAX_SAMPLES, Design
 from .designfile import write_text_atomic
 from .errors import Cancelled, InputError
 from .evaluate import Ensemble, Prepared, evaluate, prepare
 from .grades import Catalog, Grade
+from .metric_names import is_margin, margin_names, metric_label
 from .sampling import REFERENCE_CELSIUS
 from .stats import INTERVAL_METHODS, lower_bound, samples_to_show
 from .values import E_SERIES, format_value, series_for_tolerance, snap, tolerance_letter
@@ -306,7 +307,7 @@ class _Evaluator:
             return got
         if ens is None:  # taken from the cache of another search: evaluate again (same boards)
             ens = self._run(self.grades(idx), self.samples, self.seed)
-        names = margin_names(ens)
+        names = margin_names(ens.design.mask)
         if names:
             failing = [n for j, n in enumerate(names) if np.any(ens.margins[:, j] < 0)]
             names = failing or names
@@ -697,9 +698,9 @@ FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 
 
 def worst_margin_metric(ens: Ensemble) -> str | None:
-    """``"margin.<label>"`` of the span most boards fail (ties: the smallest margin in dB),
+    """``"margin.<label>"`` of the span most boards fail (ties: the smallest margin),
     or None without a mask - a ``metric`` for :func:`parts_list_rows`."""
-    names = margin_names(ens)
+    names = margin_names(ens.design.mask)
     if not names:
         return None
     fails = np.count_nonzero(ens.margins < 0, axis=0)
@@ -737,19 +738,18 @@ def parts_list_rows(design: Design, recommendation: Recommendation | None,
     ``budget metric`` names that metric in words (``margin of 'corner floor' (dB)``).
     Blank without a budget.
     """
-    from .summary import metric_label
-
     shown = recommendation.design if recommendation is not None and recommendation.chosen else design
     grades = shown.part_grades()
     if budget and metric is None:
         metric = "cutoff_hz" if "cutoff_hz" in budget else next(
-            (k for k in budget if k.startswith("margin.")), next(iter(budget)))
+            (k for k in budget if is_margin(k)), next(iter(budget)))
     shares: dict[str, float] = {}
     if budget and metric is not None:
         if metric not in budget:
             raise InputError(f"no spread budget for {metric!r}; have {', '.join(budget)}", "metric")
         shares = {e.ref: e.share for e in budget[metric].entries}
-    metric_words = metric_label(metric, [s.name for s in shown.stages]) if shares and metric else ""
+    metric_words = (metric_label(metric, [s.name for s in shown.stages], shown.mask)
+                    if shares and metric else "")
     rows = []
     for p, g in zip(shown.parts, grades):
         unit = UNITS.get(p.kind, "")

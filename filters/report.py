@@ -26,17 +26,17 @@ import numpy as np
 from . import __version__
 from .analysis import AnalysisResult
 from .bands import INNER, bands
-from .budget import is_pair_metric
 from .designfile import write_text_atomic
 from .evaluate import Ensemble, evaluate
+from . import metric_names
 from .mask import Span
+from .metric_names import SPAN_UNIT, is_margin, is_pair_metric, margin_name, metric_label
 from .grades import Grade
 from .report_figures import (SVG_NS, esc, svg_bar_chart, svg_cost_yield, svg_histogram, svg_spread_plot)
-from .report_text import (_INTERVAL_NAMES, _METHOD_NAMES, _SPAN_UNIT, _cost, _drift, _metric_unit, _num,
+from .report_text import (_INTERVAL_NAMES, _METHOD_NAMES, _cost, _drift, format_metric,
                           _opamp_text, _sensitivity, _tempco, describe_design, describe_distribution,
                           format_count, format_pct)
 from .sampling import REFERENCE_CELSIUS
-from .summary import metric_label
 from .values import format_value
 
 #: The closing caution of every report (also shown in a box).
@@ -281,7 +281,7 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     if d.mask:
         rows = []
         for j, s in enumerate(d.mask):
-            unit = _SPAN_UNIT[s.quantity]
+            unit = SPAN_UNIT[s.quantity]
             if s.quantity == "delay":
                 lim = f"variation at most {format_value(s.limit1, 's', digits=4)}"
             else:
@@ -290,11 +290,11 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
             rel = ("relative to the passband gain" if s.relative and s.quantity == "gain" else "absolute")
             rows.append([esc(s.label), esc(s.quantity), esc(s.kind), format_value(s.f1, "Hz", digits=4),
                          format_value(s.f2, "Hz", digits=4), esc(lim), rel,
-                         _num(float(prep.nominal.margins[j]), unit)])
+                         format_metric(float(prep.nominal.margins[j]), unit)])
         add(_table(["Span", "Quantity", "Kind", "From", "To", "Limit", "Reference", "Nominal margin"], rows,
                    numeric=[3, 4, 7]))
         add(f"<p>Relative spans are measured from the nominal design's passband gain, "
-            f"{_num(ref_db, 'dB')}. A positive margin means the span is met.</p>")
+            f"{format_metric(ref_db, 'dB')}. A positive margin means the span is met.</p>")
     else:
         add("<p>No spans.</p>")
 
@@ -328,7 +328,8 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
                         and result.summaries[n].valid > 0), None)
     if hist_metric is not None:
         figures["histogram"] = svg_histogram(ens.metrics[hist_metric], 40, ~ens.passed if d.mask else None,
-                                             metric_label(hist_metric, stage_names), unit="Hz", ident="histogram")
+                                             metric_label(hist_metric, stage_names),
+                                             unit=metric_names.unit(hist_metric), ident="histogram")
         add(_figure("histogram", f"{esc(metric_label(hist_metric, stage_names))} of all "
                                  f"{format_count(result.samples)} boards"
                     + (", failing boards stacked on top." if d.mask else ".")))
@@ -357,12 +358,12 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     if d.mask:
         rows = []
         for j, s in enumerate(result.spans):
-            unit = _SPAN_UNIT[d.mask[j].quantity]
-            worst = _num(s.worst_margin_db, unit)
+            unit = SPAN_UNIT[d.mask[j].quantity]
+            worst = format_metric(s.worst_margin_db, unit)
             if s.worst_margin_db < 0:
                 worst = f'<span class="bad">{worst}</span>'
             rows.append([esc(s.name), format_count(s.failed), format_pct(s.fraction), format_pct(s.share_of_failures),
-                         worst, _num(float(prep.nominal.margins[j]), unit)])
+                         worst, format_metric(float(prep.nominal.margins[j]), unit)])
         add(_table(["Span", "Failing boards", "Of all boards", "Share of failures", "Worst margin",
                     "Nominal margin"], rows, numeric=[1, 2, 3, 4, 5]))
         add("<p>A board can fail several spans, so the shares of failures can add up to more than 100 %. "
@@ -370,9 +371,8 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
         worst_j = int(np.argmax([s.failed for s in result.spans])) if result.spans else -1
         if worst_j >= 0 and result.spans[worst_j].failed > 0:
             lab = d.mask[worst_j].label
-            unit = _SPAN_UNIT[d.mask[worst_j].quantity]
             figures["margin"] = svg_histogram(ens.margins[:, worst_j], 40, ens.margins[:, worst_j] < 0,
-                                              f"margin of '{lab}' ({unit})", ident="margin")
+                                              metric_label(margin_name(lab), stage_names, d.mask), ident="margin")
             add(_figure("margin", f"Margin of the span failing most often, '{esc(lab)}', over all boards "
                                   "(below 0: the span is violated)."))
     else:
@@ -383,12 +383,13 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     add("<p>Share of each metric's variance explained by each part (least-squares fit of the metric, or its "
         "logarithm for frequencies, on every part's log deviation over the sampled boards). What the "
         "straight-line fit leaves is shown as not explained. Sensitivity: the change at the nominal design "
-        "(d ln metric / d ln value for frequencies; dB per 1 % change for margins).</p>")
+        "(d ln metric / d ln value for frequencies; for margins the change in the span's unit, dB, deg or s, "
+        "per 1 % change of the part).</p>")
     names = [n for n in ("cutoff_hz", "bandwidth_hz") if n in result.budget]
-    names += [n for n in result.budget if n.startswith("margin.")]
+    names += [n for n in result.budget if is_margin(n)]
     for k, name in enumerate(names):
         b = result.budget[name]
-        label = metric_label(name, stage_names)
+        label = metric_label(name, stage_names, d.mask)
         add(f"<h3>{esc(label)}</h3>")
         top = [e for e in b.entries if e.share > 0][:5]
         if not top and b.remainder == 0:
@@ -427,11 +428,11 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     for name, r in c.ranges.items():
         if is_pair_metric(name):
             continue
-        u = _metric_unit(name, d.mask)
-        rows.append([esc(metric_label(name, stage_names)), _num(r.nominal, u), _num(r.corner_low, u),
-                     _num(r.corner_high, u), _num(r.mc_low, u), _num(r.mc_high, u),
-                     _num(r.rss_std, u, False) if r.linear else "not linear: see sampled spread",
-                     _num(r.rss_limit, u, False) if r.linear else "not linear"])
+        u = metric_names.unit(name, d.mask)
+        rows.append([esc(metric_label(name, stage_names, d.mask)),
+                     *(format_metric(x, u) for x in (r.nominal, r.corner_low, r.corner_high, r.mc_low, r.mc_high)),
+                     format_metric(r.rss_std, u, False) if r.linear else "not linear: see sampled spread",
+                     format_metric(r.rss_limit, u, False) if r.linear else "not linear"])
     add(_table(["Metric", "Nominal", "Corner low", "Corner high", "MC min", "MC max", "RSS std", "RSS limit (\u00b1)"],
                rows, numeric=range(1, 8)))
     add("<p>MC: the extremes over the sampled boards. RSS: the sensitivities combined with each part's sampled "
@@ -443,7 +444,7 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
                    else '<span class="bad">some corner boards fail the mask</span>')
         add(f"<p>Worst case: {verdict}.</p>")
         add(_table(["Span", "Worst margin over the corners"],
-                   [[esc(s.label), _num(c.worst_margins.get(s.label, float("nan")), _SPAN_UNIT[s.quantity])]
+                   [[esc(s.label), format_metric(c.worst_margins.get(s.label, float("nan")), SPAN_UNIT[s.quantity])]
                     for s in d.mask], numeric=[1]))
 
     # --- recommendation ----------------------------------------------------------------------------
@@ -495,16 +496,18 @@ def _metrics_table(result: AnalysisResult, stage_names: list[str]) -> str:
     order = [n for n in ("cutoff_hz", "centre_hz", "bandwidth_hz", "lower_hz", "upper_hz", "reference_db",
                          "peaking_db") if n in result.summaries]
     order += [n for n in result.summaries if n not in order and not is_pair_metric(n)]
+    mask = result.design.mask
     rows = []
     notes = []
     for n in order:
         s = result.summaries[n]
-        u = _metric_unit(n, result.design.mask)
-        rel = f"{100 * s.rel_std:.2f} %" if (u == "Hz" or n.endswith(".q")) and math.isfinite(s.rel_std) else ""
-        rows.append([esc(metric_label(n, stage_names)), _num(s.nominal, u), _num(s.mean, u), _num(s.std, u, False), rel,
-                     _num(s.p01, u), _num(s.p99, u), _num(s.minimum, u), _num(s.maximum, u)])
+        u = metric_names.unit(n, mask)
+        rel = f"{100 * s.rel_std:.2f} %" if metric_names.is_log_metric(n) and math.isfinite(s.rel_std) else ""
+        rows.append([esc(metric_label(n, stage_names, mask)),
+                     *(format_metric(x, u) for x in (s.nominal, s.mean)), format_metric(s.std, u, False), rel,
+                     *(format_metric(x, u) for x in (s.p01, s.p99, s.minimum, s.maximum))])
         if s.valid < result.samples:
-            notes.append(f"{esc(metric_label(n, stage_names))} is outside the analysed range on "
+            notes.append(f"{esc(metric_label(n, stage_names, mask))} is outside the analysed range on "
                          f"{format_count(result.samples - s.valid)} board(s); they are left out of its statistics.")
     html_out = "<h3>Metrics over all boards</h3>\n" + _table(
         ["Metric", "Nominal", "Mean", "Std", "Std/mean", "1st pct", "99th pct", "Min", "Max"], rows,

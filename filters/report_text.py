@@ -10,6 +10,7 @@ from typing import Sequence
 
 from .grades import Grade
 from .mask import Span
+from .metric_names import SPAN_UNIT
 from .values import format_value
 
 esc = html.escape
@@ -36,7 +37,7 @@ def format_count(n: int) -> str:
     return f"{int(n):,}"
 
 
-def _num(x: float, unit: str, signed: bool = True) -> str:
+def format_metric(x: float, unit: str, signed: bool = True) -> str:
     """A metric value for people in ``unit`` (Hz, dB, deg, s or "" for plain numbers);
     dB and degrees carry their sign unless ``signed`` is False (spreads)."""
     if x is None or not math.isfinite(x):
@@ -55,23 +56,6 @@ def _num(x: float, unit: str, signed: bool = True) -> str:
 
 def _cost(x: float | None) -> str:
     return "n/a" if x is None or not math.isfinite(x) else f"{x:.2f}"
-
-
-_SPAN_UNIT = {"gain": "dB", "phase": "deg", "delay": "s"}
-
-
-def _metric_unit(name: str, mask: Sequence[Span]) -> str:
-    if name.startswith("margin."):
-        label = name[len("margin."):]
-        for s in mask:
-            if s.label == label:
-                return _SPAN_UNIT[s.quantity]
-        return "dB"
-    if name.endswith("_hz"):
-        return "Hz"
-    if name.endswith("_db"):
-        return "dB"
-    return ""
 
 
 def describe_distribution(g: Grade, short: bool = False) -> str:
@@ -149,7 +133,7 @@ def _span_words(s: Span) -> str:
     where = f"from {format_value(s.f1, 'Hz', digits=4)} to {format_value(s.f2, 'Hz', digits=4)}"
     if s.quantity == "delay":
         return (f"{s.label}: group delay varies by at most {format_value(s.limit1, 's', digits=4)} {where}")
-    unit = _SPAN_UNIT[s.quantity]
+    unit = SPAN_UNIT[s.quantity]
     lim = f"{s.limit1:+g} {unit}"
     if s.limit2 is not None and s.limit2 != s.limit1:
         lim += f" (sloping to {s.limit2:+g} {unit})"

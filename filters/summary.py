@@ -157,35 +157,3 @@ def summarize(ens: Ensemble, name: str, chunk: int = CHUNK) -> MetricSummary:
     nominal = ens.nominal.metrics.get(name, float("nan"))
     p01, p99 = st.percentiles
     return MetricSummary(name, nominal, st.mean, st.std, p01, p99, st.minimum, st.maximum, st.count)
-
-
-METRIC_LABELS = {
-    "cutoff_hz": "cutoff (Hz)",
-    "centre_hz": "centre (Hz)",
-    "bandwidth_hz": "bandwidth (Hz)",
-    "lower_hz": "lower band edge (Hz)",
-    "upper_hz": "upper band edge (Hz)",
-    "reference_db": "passband gain (dB)",
-    "peaking_db": "peaking (dB)",
-}
-
-
-def metric_label(name: str, stage_names: list[str] | None = None) -> str:
-    """A readable label for a metric name such as ``s2.q`` -> ``stage 2 Q``."""
-    if name in METRIC_LABELS:
-        return METRIC_LABELS[name]
-    parts = name.split(".")
-    if parts[0].startswith("s") and parts[0][1:].isdigit():
-        k = int(parts[0][1:])
-        stage = stage_names[k - 1] if stage_names and k - 1 < len(stage_names) else f"stage {k}"
-        rest = {"f0_hz": "f0 (Hz)", "q": "Q", "fc_hz": "fc (Hz)"}
-        tail = parts[-1]
-        pair = f" pair {parts[1][1:]}" if len(parts) == 3 else ""
-        return f"{stage}{pair} {rest.get(tail, tail)}"
-    if name.startswith("attenuation_db@"):
-        from .values import format_value
-
-        return f"attenuation at {format_value(float(name.split('@')[1]), 'Hz')} (dB)"
-    if name.startswith("margin."):
-        return f"margin of '{name[7:]}' (dB)"
-    return name

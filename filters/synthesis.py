@@ -29,6 +29,7 @@ from .errors import InputError
 from .evaluate import prepare
 from .grades import builtin_catalog
 from .mask import Span
+from .metric_names import stage_metric_name
 from .metrics import pole_pairs, stage_metrics
 from .lazyimport import LazyModule
 from .values import E_SERIES, format_value, series_neighbours, series_values, snap as snap_value
@@ -397,10 +398,11 @@ def _section_fq(topology: str, roles: Sequence[str], vals: np.ndarray
     of ``vals`` (rows, roles), from the project's engine (one batch, no loop over rows)."""
     circuit, coeffs = _section_coeffs(topology, roles, vals)
     m = stage_metrics(circuit, coeffs)
-    if "s1.fc_hz" in m:
-        return m["s1.fc_hz"], None, np.ones(vals.shape[0])
+    fc = stage_metric_name(1, "fc_hz")
+    if fc in m:
+        return m[fc], None, np.ones(vals.shape[0])
     g2 = dc_gain2(coeffs) if circuit.kind == "lowpass" else np.ones(vals.shape[0])
-    return m["s1.f0_hz"], m["s1.q"], g2
+    return m[stage_metric_name(1, "f0_hz")], m[stage_metric_name(1, "q")], g2
 
 
 def section_choices(index: int, topology: str, f0_hz: float, q: float | None, kind: str,
@@ -1105,10 +1107,11 @@ def _stage_fq(design: Design) -> list[tuple[float, float | None]]:
     m = stage_metrics(circuit, coeffs)
     out: list[tuple[float, float | None]] = []
     for k in range(1, len(design.stages) + 1):
-        if f"s{k}.fc_hz" in m:
-            out.append((float(m[f"s{k}.fc_hz"][0]), None))
+        fc = stage_metric_name(k, "fc_hz")
+        if fc in m:
+            out.append((float(m[fc][0]), None))
         else:
-            out.append((float(m[f"s{k}.f0_hz"][0]), float(m[f"s{k}.q"][0])))
+            out.append((float(m[stage_metric_name(k, "f0_hz")][0]), float(m[stage_metric_name(k, "q")][0])))
     return out
 
 

@@ -46,6 +46,7 @@ from filters.engine import compile_design, stage_coefficients
 from filters.errors import InputError, ValidationError
 from filters.evaluate import evaluate
 from filters.grades import DISTRIBUTIONS, builtin_catalog
+from filters.mask import Span
 from filters.sampling import METHODS
 from filters.topologies import TOPOLOGIES, build
 from filters.values import _E_INT, format_rkm, format_value, parse_value
@@ -176,6 +177,17 @@ def spans(draw, f_start: float, f_stop: float):
     return s
 
 
+def unique_span_labels(mask: list[dict]) -> list[dict]:
+    """Span dicts renamed where their labels repeat: a valid design's span labels are unique
+    (the loader refuses twins, which would share one margin name)."""
+    seen = set()
+    for i, s in enumerate(mask):
+        while Span.from_dict(s).label in seen:
+            s["name"] = f"{s.get('name', '')} {i}"
+        seen.add(Span.from_dict(s).label)
+    return mask
+
+
 @st.composite
 def design_dicts(draw, *, own_grades: bool = False, max_spans: int = 3):
     """A valid design dict: 1-3 buffered stages of any topology, parts from the issue's
@@ -204,8 +216,8 @@ def design_dicts(draw, *, own_grades: bool = False, max_spans: int = 3):
                 part["tolerance_pct"] = draw(st.floats(0, 99.0))
             parts.append(part)
     analysis = draw(analysis_dicts())
-    mask = [draw(spans(analysis["f_start"], analysis["f_stop"]))
-            for _ in range(draw(st.integers(0, max_spans)))]
+    mask = unique_span_labels([draw(spans(analysis["f_start"], analysis["f_stop"]))
+                               for _ in range(draw(st.integers(0, max_spans)))])
     d = {"format": FORMAT_TAG, "version": VERSION, "parts": draw(st.permutations(parts)),
          "stages": stages, "analysis": analysis, "mask": mask}
     if grades:
@@ -878,6 +890,7 @@ def demo_mutations(draw):
                 s.pop("relative", None)
             if s["kind"] == "variation":
                 s.pop("limit2", None)
+    unique_span_labels(d["mask"])
     return d
 
 
