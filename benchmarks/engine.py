@@ -7,7 +7,8 @@ ratios are given for both. Compared figures are measured side by side in the sam
 interleaved. The per-sample loop is the same work done one board at a time with
 ``scipy.signal.freqs``, for comparison.
 
-``--quick`` skips the runs of 1,000,000 boards, ``--no-gui`` the window.
+``--quick`` skips the runs of 1,000,000 boards, ``--no-gui`` the window, ``--only GROUP``
+prints one group of figures.
 """
 from __future__ import annotations
 
@@ -241,10 +242,11 @@ def million_in_child(samples: int = 1_000_000) -> dict:
 
 
 def scaling_table(sizes: list[int]) -> None:
-    print("scaling: metrics and margins, no curves (evaluate(curves=False)); ns per board x frequency, "
-          "and per board x frequency x section (section = 2 poles, rounded up)")
-    header = f"  {'design':40s} {'poles':>5s} {'freqs':>5s} " + " ".join(f"{n:>14,d}" for n in sizes)
-    print(header)
+    print("scaling: metrics and margins, no curves (evaluate(curves=False)); CPU ns per board x frequency "
+          "(wall ns in parentheses), and at 10,000 boards the CPU ns per board x frequency x section "
+          "(section = 2 poles, rounded up) against the demo's")
+    print(f"  {'design':40s} {'poles':>5s} {'freqs':>5s} " + " ".join(f"{n:>15,d}" for n in sizes)
+          + "   per section at 10,000")
     demo_per_section = None
     for name, design in scaling_designs():
         prep = prepare(design)
@@ -252,27 +254,25 @@ def scaling_table(sizes: list[int]) -> None:
         poles = order_of(design)
         sections = math.ceil(poles / 2)
         cells = []
-        per_section_10k = None
+        tail = ""
         for n in sizes:
             reps = 7 if n <= 10_000 else (3 if n <= 100_000 else 1)
             t = side_by_side([lambda: evaluate(design, samples=n, curves=False, prepared=prep)],
                              repeats=reps, warmup=1 if n < 1_000_000 else 0)[0]
-            ns = t.wall / (n * f) * 1e9
-            cells.append(f"{ns:6.2f} ({ns / sections:5.2f})")
+            cells.append(f"{t.cpu / (n * f) * 1e9:6.1f} ({t.wall / (n * f) * 1e9:5.1f})")
             if n == 10_000:
-                per_section_10k = t.cpu / (n * f * sections) * 1e9
-        print(f"  {name:40s} {poles:5d} {f:5d} " + " ".join(f"{c:>14s}" for c in cells))
-        if per_section_10k is not None:
-            if demo_per_section is None:
-                demo_per_section = per_section_10k
-            print(f"  {'':40s} CPU ns per board x frequency x section at 10,000: {per_section_10k:.2f} "
-                  f"({per_section_10k / demo_per_section:.2f} x the demo's)")
+                per_section = t.cpu / (n * f * sections) * 1e9
+                demo_per_section = demo_per_section or per_section
+                tail = f"   {per_section:5.2f} ns, {per_section / demo_per_section:.2f} x the demo's"
+        print(f"  {name:40s} {poles:5d} {f:5d} " + " ".join(f"{c:>15s}" for c in cells) + tail)
 
 
 def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__)
     ap.add_argument("--quick", action="store_true", help="skip the 1,000,000-board runs")
     ap.add_argument("--no-gui", action="store_true", help="skip the window latency figure")
+    ap.add_argument("--only", choices=("loop", "passfail", "recommend", "window", "million", "scaling"),
+                    help="print only this group of figures")
     ap.add_argument("--child-million", type=int, help=argparse.SUPPRESS)
     args = ap.parse_args()
     if args.child_million:
@@ -281,21 +281,29 @@ def main() -> int:
     design = load_demo()
     n = 10_000
     freqs = frequency_grid(design)
+
+    def want(group: str) -> bool:
+        return args.only in (None, group)
+
     print(f"demo design: {len(design.parts)} parts, {len(design.stages)} stages, {freqs.size} frequencies")
-    engine_vs_loop(design, n)
-    pass_fail_vs_full(design, n)
-    recommend_times()
-    if not args.no_gui:
+    if want("loop"):
+        engine_vs_loop(design, n)
+    if want("passfail"):
+        pass_fail_vs_full(design, n)
+    if want("recommend"):
+        recommend_times()
+    if want("window") and not args.no_gui:
         drag, release = slider_latency()
         for name, ts in (("while dragging (preview on the first 1000 boards)", drag),
                          ("on release (all 5000 boards)", release)):
             print(f"window, 5000-board design: slider to redrawn plots and yield {name}: "
                   f"median {ts[len(ts) // 2] * 1e3:.0f} ms, worst {ts[-1] * 1e3:.0f} ms")
-    if not args.quick:
+    if want("million") and not args.quick:
         r = million_in_child()
         print(f"1,000,000 boards of the demo, metrics and margins only, in chunks (own process): "
               f"{r['wall']:.2f} s wall, {r['cpu']:.2f} s CPU, peak RSS {r['rss_mib']:.0f} MiB")
-    scaling_table([1_000, 10_000, 100_000] + ([] if args.quick else [1_000_000]))
+    if want("scaling"):
+        scaling_table([1_000, 10_000, 100_000] + ([] if args.quick else [1_000_000]))
     return 0
 
 
