@@ -14,6 +14,7 @@ References used below:
 """
 from __future__ import annotations
 
+import html
 import json
 import math
 import subprocess
@@ -84,9 +85,13 @@ def row(text: str, start: str) -> str:
 
 def test_phase_and_delay_margins_carry_their_units_through_the_command_line(tmp_path):
     path = phase_design(tmp_path)
-    proc = run_tolspread("analyze", str(path), "--samples", "300", "--seed", "1")
+    report = tmp_path / "report.html"
+    proc = run_tolspread("analyze", str(path), "--samples", "300", "--seed", "1", "--report", str(report))
     assert proc.returncode == 0, proc.stderr
     out = proc.stdout
+    page = html.unescape(report.read_text(encoding="utf-8"))
+    assert "margin of 'phase floor' (deg)" in page and "margin of 'phase floor' (dB)" not in page
+    assert "deg per %" in page and "margin of 'delay wobble' (s)" in page
     # [SK] a low-pass's phase falls with frequency, so the floor's smallest margin is at f2
     nominal = demo_phase_deg(PHASE_F2) - PHASE_LIMIT
     span_row = row(out, "phase floor")
