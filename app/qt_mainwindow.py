@@ -21,10 +21,10 @@ from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog, QLabel, Q
                                QProgressBar, QPushButton, QSplitter, QToolBar)
 
 from filters import __version__
-from filters.design import Design, check_design
+from filters.design import Design
 from filters.designfile import load_demo, write_text_atomic
 from filters.errors import InputError, ValidationError
-from filters.liveview import ViewData, what_if_grades
+from filters.liveview import ViewData
 from filters.mask import Span
 from filters.metric_names import metric_label
 
@@ -71,12 +71,12 @@ class MainWindow(QMainWindow):
         self.results.setMinimumWidth(380)
         self._dock(self.parts, "Parts and grades", "dock_parts", Qt.DockWidgetArea.LeftDockWidgetArea)
         self._dock(self.results, "Yield and spread budget", "dock_results", Qt.DockWidgetArea.RightDockWidgetArea)
-        self._what_if: dict[str, float] = {}
         self._build_actions()
         self._build_status()
         self._connect()
         self._restore_layout()
         self._fit_next_view = False  # a newly opened design is framed when its figures arrive
+        self._notice_after_view = ""  # a refusal that the next figures' status line keeps
         self._on_design_changed(session.design)
         self._on_busy_changed(session.busy)
         if session.last_view is not None:
@@ -229,6 +229,7 @@ class MainWindow(QMainWindow):
         s.path_changed.connect(self._on_path_changed)
         s.run_cancelled.connect(self._on_run_cancelled)
         s.design_replaced.connect(self._on_design_replaced)
+        s.edit_refused.connect(lambda text, reason: self.show_status(f"not applied ({text}): {reason}"))
         self.parts.value_committed.connect(self._on_value_committed)
         self.parts.grade_chosen.connect(self._on_grade_chosen)
         self.parts.tolerance_dragging.connect(self._on_tolerance_dragging)
@@ -249,7 +250,6 @@ class MainWindow(QMainWindow):
 
     # --- model to view -------------------------------------------------------------------
     def _on_design_changed(self, design: Design) -> None:
-        self._what_if.clear()
         try:
             from filters.synthesis import gbw_warnings
 
@@ -268,7 +268,9 @@ class MainWindow(QMainWindow):
             self._fit_next_view = False
             self.plots.fit()
             self._clear_readout()
-        self.show_status(f"{view.samples:,} boards evaluated in {1000 * view.elapsed_s:.0f} ms")
+        notice, self._notice_after_view = self._notice_after_view, ""
+        self.show_status(f"{view.samples:,} boards evaluated in {1000 * view.elapsed_s:.0f} ms"
+                         + (f"; {notice}" if notice and not view.preview else ""))
 
     def _on_design_replaced(self, _design: Design) -> None:
         """New, Open, restore: frame the new design once its figures arrive; the cursor
@@ -341,15 +343,8 @@ class MainWindow(QMainWindow):
         opened with), so whatever the window accepts saves into a file that opens.
 
         Returns None, or the reason it was refused (one line; the design is unchanged and
-        the status bar says why)."""
-        try:
-            checked = check_design(design)
-        except ValidationError as exc:
-            reason = exc.lines()[0]
-            self.show_status(f"not applied ({text}): {reason}")
-            return reason
-        self.session.apply(checked, text)
-        return None
+        the status bar says why: :meth:`Session.apply_checked`)."""
+        return self.session.apply_checked(design, text)
 
     def _on_value_committed(self, ref: str, value: float, text: str) -> None:
         d = self.session.design
@@ -366,16 +361,16 @@ class MainWindow(QMainWindow):
             self.parts.show_design(self.session.design)  # the grade box goes back
 
     def _on_tolerance_dragging(self, ref: str, pct: float) -> None:
-        self._what_if[ref] = pct
-        d = self.session.design
-        tols = [self._what_if.get(p.ref) for p in d.parts]
-        self.session.preview(what_if_grades(d, tols))
+        reason = self.session.try_tolerance(ref, pct)  # the session holds what is being tried
+        if reason is not None:
+            self.show_status(f"{ref} tolerance ±{pct:g} %: {reason}")
 
     def _on_tolerance_released(self, ref: str, pct: float) -> None:
-        self._what_if.pop(ref, None)
-        d = self.session.design
-        if self.apply_edit(d.with_part(ref, tolerance_pct=pct), f"{ref} tolerance ±{pct:g} %"):
+        reason = self.session.commit_tolerance(ref, pct)
+        if reason is not None:
             self.parts.show_design(self.session.design)  # the slider goes back
+            # the figures of the unchanged design follow; their status line keeps the reason
+            self._notice_after_view = f"not applied ({ref} tolerance ±{pct:g} %): {reason}"
 
     def _on_sampling_changed(self, samples: int, seed: int, method: str) -> None:
         d = self.session.design

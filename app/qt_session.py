@@ -1,8 +1,10 @@
 """The session model: the design being edited, its file, undo history, and evaluations.
 
-Widgets never change a design themselves: they call :meth:`Session.apply` (one undoable
-edit) or :meth:`Session.preview` (a what-if shown while a slider is dragged, not yet an
-edit). The session asks a worker thread for an evaluation after each change; results
+Widgets never change a design themselves: they call :meth:`Session.apply_checked` (one
+undoable edit, if the loader's rules accept it), or :meth:`Session.try_tolerance` while a
+tolerance slider is dragged and :meth:`Session.commit_tolerance` when it is released. The
+session alone holds the tolerances being tried (:attr:`Session.what_if`); the window only
+shows them. The session asks a worker thread for an evaluation after each change; results
 carry a generation number and stale ones are dropped, so a newer request always wins and
 the window never waits.
 
@@ -14,13 +16,15 @@ from __future__ import annotations
 import threading
 import traceback
 from pathlib import Path
+from types import MappingProxyType
+from typing import Mapping
 
 from PySide6.QtCore import QObject, QThread, Signal, Slot
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
-from filters.design import Design
+from filters.design import Design, check_design
 from filters.designfile import dumps, load, save
-from filters.errors import Cancelled, InputError
+from filters.errors import Cancelled, InputError, ValidationError
 from filters.evaluate import Prepared, prepare
 from filters.grades import Grade
 from filters.liveview import SecondQuantity, ViewData, ViewRequest, compute_view
@@ -115,6 +119,7 @@ class Session(QObject):
     evaluation_stopped = Signal(int)      # generation
     run_cancelled = Signal(object, object)  # Design whose run was cancelled, ViewData still shown (or None)
     design_replaced = Signal(object)      # Design (New, Open, restore: a different design, not an edit)
+    edit_refused = Signal(str, str)       # the edit's name, the reason (one line)
     _wake = Signal()
 
     def __init__(self, design: Design, path: Path | None = None) -> None:
@@ -124,7 +129,8 @@ class Session(QObject):
         self._generation = 0
         self._shown_generation = 0
         self._second: SecondQuantity = "phase"
-        self._what_if: tuple[Grade, ...] | None = None
+        self._trying: dict[str, float] = {}  # ref -> tolerance (%) being tried (a slider held)
+        self._what_if: tuple[Grade, ...] | None = None  # the grades the tried tolerances give
         self.undo_stack = QUndoStack(self)
         # a slot of this object (not a lambda): Qt drops the connection when the session goes,
         # so the undo stack's own teardown cannot emit into a deleted session
@@ -166,6 +172,12 @@ class Session(QObject):
         return self._second
 
     @property
+    def what_if(self) -> Mapping[str, float]:
+        """The tolerances (%) being tried, by reference designator: empty unless a
+        tolerance slider is held (read-only; :meth:`try_tolerance` changes it)."""
+        return MappingProxyType(dict(self._trying))
+
+    @property
     def closed(self) -> bool:
         """True after :meth:`shutdown`: no more evaluations, no more signals."""
         return self._closed
@@ -176,27 +188,87 @@ class Session(QObject):
 
     # --- editing -------------------------------------------------------------------------
     def apply(self, design: Design, text: str) -> None:
-        """Make ``design`` the current design as one undoable edit named ``text``."""
+        """Make ``design`` the current design as one undoable edit named ``text`` (any
+        what-if ends). ``design`` must already pass :func:`filters.design.check_design`:
+        edits from widgets go through :meth:`apply_checked`."""
         if design == self._design:
-            self._what_if = None
+            self._end_what_if()
             self.request()
             return
         self.undo_stack.push(_EditCommand(self, self._design, design, text))
 
+    def apply_checked(self, design: Design, text: str) -> str | None:
+        """Make ``design`` the current design as one undoable edit named ``text`` if the
+        loader accepts it (:func:`filters.design.check_design`: the rules a saved file is
+        opened with), so whatever the window accepts saves into a file that opens.
+
+        Returns None, or the reason it was refused (one line; the design is unchanged and
+        :attr:`edit_refused` carries ``text`` and the reason)."""
+        try:
+            checked = check_design(design)
+        except ValidationError as exc:
+            reason = exc.lines()[0]
+            self.edit_refused.emit(text, reason)
+            return reason
+        self.apply(checked, text)
+        return None
+
     def _set_design(self, design: Design) -> None:
         self._design = design
-        self._what_if = None
+        self._end_what_if()
         self.design_changed.emit(design)
         self.request()
 
-    def preview(self, grades: tuple[Grade, ...] | None) -> None:
-        """Show what-if grades (a slider being dragged) without editing the design.
+    # --- what-if tolerances (a slider being dragged) ------------------------------------
+    def tolerance_design(self, tolerances: Mapping[str, float]) -> Design:
+        """The current design with each part of ``tolerances`` (ref -> %) at that what-if
+        tolerance, as the loader builds it: what a drag previews and what its release
+        applies are this one design (raises :class:`ValidationError` if refused)."""
+        design = self._design
+        for ref, pct in tolerances.items():
+            design = design.with_part(ref, tolerance_pct=pct)
+        return check_design(design)
 
-        While dragging, the first :data:`PREVIEW_BOARDS` boards (the same boards the full
-        run starts with) are evaluated, so the curves follow the hand; the release makes the
-        edit and evaluates every board."""
-        self._what_if = grades
+    def try_tolerance(self, ref: str, pct: float) -> str | None:
+        """Show part ``ref`` at ``pct`` % without editing the design (a slider held).
+
+        The first :data:`PREVIEW_BOARDS` boards (the same boards the full run starts with)
+        are evaluated, so the curves follow the hand. Returns None, or the reason the
+        loader's rules refuse that tolerance (the preview then stays as it was)."""
+        trying = {**self._trying, ref: pct}
+        try:
+            grades = self.tolerance_design(trying).part_grades()
+        except ValidationError as exc:
+            return exc.lines()[0]
+        self._trying, self._what_if = trying, grades
         self.request(boards=PREVIEW_BOARDS)
+        return None
+
+    def commit_tolerance(self, ref: str, pct: float) -> str | None:
+        """Make part ``ref``'s tolerance ``pct`` % one undoable edit (the slider released):
+        the design :meth:`tolerance_design` gives, the one the preview showed. The what-if
+        ends; on a refusal every board of the unchanged design is evaluated again and the
+        reason returned (:attr:`edit_refused` carries it too)."""
+        text = f"{ref} tolerance ±{pct:g} %"
+        try:
+            design = self.tolerance_design({ref: pct})
+        except ValidationError as exc:
+            reason = exc.lines()[0]
+            self.end_what_if()  # the preview of the refused tolerance must not stay on screen
+            self.edit_refused.emit(text, reason)
+            return reason
+        self.apply(design, text)
+        return None
+
+    def end_what_if(self) -> int:
+        """Stop trying tolerances without an edit: every board of the design as it is is
+        evaluated again. Returns the generation number of that evaluation."""
+        self._end_what_if()
+        return self.request()
+
+    def _end_what_if(self) -> None:
+        self._trying = {}
+        self._what_if = None
 
     def set_second(self, second: SecondQuantity) -> None:
         if second != self._second:

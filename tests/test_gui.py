@@ -256,6 +256,85 @@ def test_slider_keyboard_step_is_one_edit(window, qtbot):
         library_yield(before.with_part("C2", tolerance_pct=pct)).estimate, abs=5e-5)
 
 
+def _slider_handle(slider) -> QPoint:
+    """The centre of ``slider``'s handle, in its own pixels (Qt's style says where it is)."""
+    from PySide6.QtWidgets import QStyle, QStyleOptionSlider
+
+    opt = QStyleOptionSlider()
+    slider.initStyleOption(opt)
+    return slider.style().subControlRect(QStyle.ComplexControl.CC_Slider, opt,
+                                         QStyle.SubControl.SC_SliderHandle, slider).center()
+
+
+def test_mouse_drag_of_a_tolerance_slider_previews_then_makes_one_edit(window, qtbot):
+    """Issue 12 #5: the handle dragged with real press / move / release events. While it is
+    held, the session (not the window) holds the tolerance tried and the plots show the
+    first boards of the design with that tolerance; the release makes one undoable edit of
+    exactly that design. The expected yields come from the library's own evaluate on the
+    design built by hand (Design.with_part), not through the session."""
+    from app.qt_session import PREVIEW_BOARDS
+    from PySide6.QtTest import QTest
+
+    s = window.session
+    before = s.design
+    i = before.part_index("C2")
+    slider = window.parts.rows["C2"].slider
+    assert not hasattr(window, "_what_if"), "the window keeps no what-if state of its own"
+    assert dict(s.what_if) == {}
+    handle = _slider_handle(slider)
+    left = Qt.MouseButton.LeftButton
+    QTest.mousePress(slider, left, Qt.KeyboardModifier.NoModifier, handle)
+    assert slider.isSliderDown()
+    previews = []
+    for dx in (-30, -60):  # two steps of the hand towards tighter tolerances
+        with qtbot.waitSignal(s.view_ready, timeout=WAIT_MS) as shown:
+            QTest.mouseMove(slider, QPoint(handle.x() + dx, handle.y()))
+        pct = slider_to_pct(slider.value())
+        previews.append(pct)
+        view = shown.args[0]
+        assert dict(s.what_if) == {"C2": pct}
+        assert s.design is before and s.undo_stack.count() == 0, "a held slider edits nothing"
+        assert view.preview and view.samples == PREVIEW_BOARDS
+        tried = before.with_part("C2", tolerance_pct=pct)
+        expected = library_yield(tried, samples=PREVIEW_BOARDS)
+        assert view.yield_.estimate == pytest.approx(expected.estimate, abs=1e-12)
+        assert yield_text(expected.estimate) in window.results.yield_label.text()
+    assert previews[1] < previews[0] < before.part_grades()[i].tolerance_pct, previews
+
+    with qtbot.waitSignal(s.view_ready, timeout=WAIT_MS) as done:
+        QTest.mouseRelease(slider, left, Qt.KeyboardModifier.NoModifier,
+                           QPoint(handle.x() - 60, handle.y()))
+    assert not slider.isSliderDown()
+    assert dict(s.what_if) == {}
+    assert s.undo_stack.count() == 1, "the whole drag is one edit"
+    assert s.design == before.with_part("C2", tolerance_pct=previews[-1])
+    assert not done.args[0].preview and done.args[0].samples == before.analysis.samples
+    assert shown_yield(window) == pytest.approx(
+        library_yield(before.with_part("C2", tolerance_pct=previews[-1])).estimate, abs=5e-5)
+    with qtbot.waitSignal(s.view_ready, timeout=WAIT_MS):
+        window.act_undo.trigger()
+    assert s.design == before and dict(s.what_if) == {}
+
+
+def test_a_refused_tolerance_release_ends_the_preview(window, qtbot):
+    """A release the loader's rules refuse (a tolerance of 100 % or more: design file rule
+    parts[i].tolerance_pct) leaves the design as it was and shows every board of it again;
+    before issue 12 #5 the window forgot its what-if but the session kept showing it."""
+    s = window.session
+    before = s.design
+    with qtbot.waitSignal(s.view_ready, timeout=WAIT_MS) as shown:
+        window.parts.tolerance_dragging.emit("C2", 12.0)  # what the held slider sends
+    assert shown.args[0].preview and dict(s.what_if) == {"C2": 12.0}
+    with qtbot.waitSignal(s.view_ready, timeout=WAIT_MS) as done:
+        window.parts.tolerance_released.emit("C2", 150.0)
+    assert s.design is before and s.undo_stack.count() == 0 and dict(s.what_if) == {}
+    assert not done.args[0].preview
+    assert shown_yield(window) == pytest.approx(library_yield(before).estimate, abs=5e-5)
+    assert "tolerance_pct" in window.status_text.text() and "not applied" in window.status_text.text()
+    assert window.parts.rows["C2"].slider.value() == pct_to_slider(before.part_grades()[
+        before.part_index("C2")].tolerance_pct)
+
+
 # --- 2. drawing a span with the mouse ------------------------------------------------------
 def test_mouse_drag_adds_a_ceiling_span_then_delete_undo_redo(gain_window, qtbot):
     window = gain_window
@@ -541,10 +620,9 @@ def test_only_the_newest_request_is_shown(window, qtbot):
     s.view_ready.connect(lambda v: seen.append(v.generation))
     tight = [0.2 if k == i else None for k in range(len(d.parts))]
     loose = [25.0 if k == i else None for k in range(len(d.parts))]
-    s.preview(what_if_grades(d, tight))
-    s.preview(what_if_grades(d, loose))
-    s.preview(None)
-    last = s.request()
+    assert s.try_tolerance("C2", 0.2) is None
+    assert s.try_tolerance("C2", 25.0) is None
+    last = s.end_what_if()
     qtbot.waitUntil(lambda: s.last_view is not None and s.last_view.generation == last, timeout=WAIT_MS)
     assert seen == [last]
     assert not s.busy
