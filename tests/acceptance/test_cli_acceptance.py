@@ -105,6 +105,7 @@ def bad_runs(tmp_path_factory, cli_env):
         return tmp, {name: f.result() for name, f in futures.items()}
 
 
+@pytest.mark.slow  # the fixture runs 30 processes (about 30 s on two busy cores)
 @pytest.mark.parametrize("name", list(BAD_CASES))
 def test_bad_input_exits_2_with_one_line(bad_runs, name):
     tmp, runs = bad_runs
@@ -115,6 +116,7 @@ def test_bad_input_exits_2_with_one_line(bad_runs, name):
     assert not (tmp / "out.json").exists(), "a refused design must write nothing"
 
 
+@pytest.mark.slow
 def test_ambiguous_target_says_how_it_was_read(bad_runs):
     """issue 10 #17: '1' could mean 1 % or 100 %: the message says what was understood."""
     line = bad_runs[1]["recommend target 1"].err_lines[0]
@@ -351,6 +353,7 @@ def test_recommend_too_few_boards_exits_3_and_says_how_many(tmp_path):
     assert "boards" in run.stdout and f"{need}" in run.stdout.replace(",", ""), run.stdout
 
 
+@pytest.mark.slow
 def test_recommend_curve(tmp_path):
     run = run_cli("recommend", "--target-yield", "0.9", "--samples", "300", "--curve", cwd=tmp_path)
     assert run.returncode == 0, run.stderr
