@@ -590,7 +590,7 @@ class MainWindow(QMainWindow):
     # --- design tools --------------------------------------------------------------------
     def new_from_response(self) -> None:
         """Synthesize a design from a response (a dialog), replacing the open design."""
-        from .qt_dialogs import SynthesisDialog
+        from .qt_synthesis_dialog import SynthesisDialog
 
         if not self.confirm_discard():
             return
@@ -603,7 +603,7 @@ class MainWindow(QMainWindow):
 
     def edit_catalog(self) -> None:
         """Edit grade costs and tolerances; changes become the design's own grades."""
-        from .qt_dialogs import CatalogDialog
+        from .qt_catalog_dialog import CatalogDialog
 
         d = self.session.design
         dlg = CatalogDialog(d.catalog, d.grades, self)

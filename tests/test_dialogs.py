@@ -14,7 +14,8 @@ import pytest
 pytest.importorskip("PySide6")
 pytest.importorskip("pytestqt")
 
-from app.qt_dialogs import COL_COST, COL_NAME, COL_TEMPCO, COL_TOL, CatalogDialog, SynthesisDialog  # noqa: E402
+from app.qt_catalog_dialog import COL_COST, COL_NAME, COL_TEMPCO, COL_TOL, CatalogDialog  # noqa: E402
+from app.qt_synthesis_dialog import SynthesisDialog  # noqa: E402
 from filters.design import Design  # noqa: E402
 from filters.grades import Catalog, Grade, builtin_catalog, load_catalog  # noqa: E402
 from filters.synthesis import synthesize  # noqa: E402

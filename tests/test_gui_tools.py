@@ -38,14 +38,14 @@ def _spin(condition, seconds: float = 60.0) -> None:
 
 
 def test_new_design_from_a_response_replaces_the_design(window, monkeypatch):
-    from app import qt_dialogs
+    from app import qt_synthesis_dialog
 
     def accept_default(dlg):  # the dialog as a user leaves it after typing a spec
         dlg.set_inputs({**dlg.inputs(), "order": 4, "cutoff": "5k"})
         dlg.refresh()
         return 1
 
-    monkeypatch.setattr(qt_dialogs.SynthesisDialog, "exec", accept_default)
+    monkeypatch.setattr(qt_synthesis_dialog.SynthesisDialog, "exec", accept_default)
     window.new_from_response()
     want = synthesize("butterworth", 4, 5000.0).design  # filters.synthesis is the reference
     assert window.session.design == want
@@ -53,14 +53,14 @@ def test_new_design_from_a_response_replaces_the_design(window, monkeypatch):
 
 
 def test_edited_costs_become_the_designs_own_grades_and_undo(window, monkeypatch):
-    from app import qt_dialogs
+    from app import qt_catalog_dialog
 
     def edit_and_accept(dlg):
         row = dlg.row_of("R-thick-1")
-        dlg.table.item(row, qt_dialogs.COLUMNS.index("relative cost")).setText("2.5")
+        dlg.table.item(row, qt_catalog_dialog.COLUMNS.index("relative cost")).setText("2.5")
         return 1
 
-    monkeypatch.setattr(qt_dialogs.CatalogDialog, "exec", edit_and_accept)
+    monkeypatch.setattr(qt_catalog_dialog.CatalogDialog, "exec", edit_and_accept)
     before = window.session.design
     window.edit_catalog()
     d = window.session.design

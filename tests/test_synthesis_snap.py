@@ -307,7 +307,7 @@ def test_cutoffs_near_the_range_ends_build_in_range(cutoff, tmp_path):
 
 @pytest.fixture
 def dialog(qtbot):
-    from app.qt_dialogs import SynthesisDialog
+    from app.qt_synthesis_dialog import SynthesisDialog
 
     d = SynthesisDialog()
     qtbot.addWidget(d)

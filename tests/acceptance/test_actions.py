@@ -396,7 +396,7 @@ def test_new_design_from_a_response(window, qtbot, answers, shown):
 
 
 def test_grades_and_costs(window, qtbot, shown):
-    from app.qt_dialogs import COLUMNS
+    from app.qt_catalog_dialog import COLUMNS
 
     before = window.session.design
 
