@@ -6,15 +6,11 @@ The window observes the :class:`~app.qt_session.Session`; every edit goes throug
 """
 from __future__ import annotations
 
-import csv
 import os
 import logging
 from dataclasses import replace
 from pathlib import Path
 
-import numpy as np
-import pyqtgraph as pg
-import pyqtgraph.exporters  # noqa: F401  (registers the exporters)
 from PySide6.QtCore import QSettings, Qt, QTimer
 from PySide6.QtGui import QAction, QActionGroup, QKeySequence
 from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog, QLabel, QMainWindow, QMessageBox,
@@ -22,13 +18,13 @@ from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog, QLabel, Q
 
 from filters import __version__
 from filters.design import Design
-from filters.designfile import load_demo, write_text_atomic
+from filters.designfile import load_demo
 from filters.errors import InputError, ValidationError
 from filters.liveview import ViewData
 from filters.mask import Span
-from filters.metric_names import metric_label
 
 from . import userfiles
+from .qt_exports import WindowExports
 from .qt_help import build_help_menu
 from .qt_masktable import SpanTable
 from .qt_parts import PartsPanel
@@ -71,6 +67,8 @@ class MainWindow(QMainWindow):
         self.results.setMinimumWidth(380)
         self._dock(self.parts, "Parts and grades", "dock_parts", Qt.DockWidgetArea.LeftDockWidgetArea)
         self._dock(self.results, "Yield and spread budget", "dock_results", Qt.DockWidgetArea.RightDockWidgetArea)
+        self.exports = WindowExports(self)
+        self.recommend_dialog = None  # the Find cheapest grades dialog, once opened (its result goes in the report)
         self._build_actions()
         self._build_status()
         self._connect()
@@ -118,9 +116,10 @@ class MainWindow(QMainWindow):
         self.act_open = self._action("Open…", self.file_open, S.Open, "file_open")
         self.act_save = self._action("Save", self.file_save, S.Save, "file_save")
         self.act_save_as = self._action("Save As…", self.file_save_as, S.SaveAs, "file_save_as")
-        self.act_png = self._action("Export plots as PNG…", lambda: self.export_plots("png"), "Ctrl+E", "export_png")
-        self.act_svg = self._action("Export plots as SVG…", lambda: self.export_plots("svg"), "Ctrl+Shift+E", "export_svg")
-        self.act_csv = self._action("Export board metrics as CSV…", self.export_csv, "Ctrl+Shift+M", "export_csv")
+        ex = self.exports
+        self.act_png = self._action("Export plots as PNG…", lambda: ex.plots("png"), "Ctrl+E", "export_png")
+        self.act_svg = self._action("Export plots as SVG…", lambda: ex.plots("svg"), "Ctrl+Shift+E", "export_svg")
+        self.act_csv = self._action("Export board metrics as CSV…", ex.board_metrics, "Ctrl+Shift+M", "export_csv")
         self.act_quit = self._action("Quit", self.close, S.Quit, "quit")
         fm = m.addMenu("&File")
         for a in (self.act_new, self.act_open):
@@ -162,9 +161,9 @@ class MainWindow(QMainWindow):
                                       "new_from_response")
         self.act_catalog = self._action("Grades and costs…", self.edit_catalog, "Ctrl+G", "edit_catalog")
         self.act_recommend = self._action("Find cheapest grades…", self.open_recommend, "Ctrl+R", "recommend")
-        self.act_report_html = self._action("Export report (HTML)…", lambda: self.export_report("html"),
+        self.act_report_html = self._action("Export report (HTML)…", lambda: ex.report("html"),
                                             "Ctrl+P", "report_html")
-        self.act_report_pdf = self._action("Export report (PDF)…", lambda: self.export_report("pdf"),
+        self.act_report_pdf = self._action("Export report (PDF)…", lambda: ex.report("pdf"),
                                            "Ctrl+Shift+P", "report_pdf")
         for a in (self.act_synth, self.act_catalog, self.act_recommend, None, self.act_report_html,
                   self.act_report_pdf):
@@ -461,7 +460,7 @@ class MainWindow(QMainWindow):
     def file_open(self) -> None:
         if not self.confirm_discard():
             return
-        path, _ = QFileDialog.getOpenFileName(self, "Open design", str(self._last_dir()), "Designs (*.json);;All files (*)")
+        path, _ = QFileDialog.getOpenFileName(self, "Open design", str(self.last_dir()), "Designs (*.json);;All files (*)")
         if path:
             self.open_path(Path(path))
 
@@ -484,7 +483,7 @@ class MainWindow(QMainWindow):
         return self._save_to(self.session.path)
 
     def file_save_as(self) -> bool:
-        path, _ = QFileDialog.getSaveFileName(self, "Save design", str(self._last_dir() / "design.json"),
+        path, _ = QFileDialog.getSaveFileName(self, "Save design", str(self.last_dir() / "design.json"),
                                               "Designs (*.json)")
         if not path:
             return False
@@ -514,7 +513,8 @@ class MainWindow(QMainWindow):
             return
         box.exec()
 
-    def _last_dir(self) -> Path:
+    def last_dir(self) -> Path:
+        """The folder a file dialog starts in (the last one a file was opened or saved in)."""
         return Path(self.settings.value("last_dir", str(Path.home())))
 
     def _remember_recent(self, path: Path) -> None:
@@ -535,57 +535,6 @@ class MainWindow(QMainWindow):
             a = self.recent_menu.addAction(p)
             a.triggered.connect(lambda _c=False, p=p: self.confirm_discard() and self.open_path(Path(p)))
         self.recent_menu.setEnabled(bool(self.recent_files()))
-
-    # --- exports -------------------------------------------------------------------------
-    def export_plots(self, kind: str, path: str | None = None) -> Path | None:
-        """Save the plots as PNG (both plots, as shown) or SVG (every plot shown: gain,
-        phase or delay, and the histogram, over the shown ranges); asks for a file unless
-        ``path`` is given."""
-        if path is None:
-            path, _ = QFileDialog.getSaveFileName(self, f"Export plots as {kind.upper()}",
-                                                  str(self._last_dir() / f"spread.{kind}"), f"*.{kind}")
-            if not path:
-                return None
-        if kind == "svg":
-            from .qt_svgexport import export_window_plots
-
-            if not export_window_plots(self, path):  # gain, phase/delay and histogram, as shown
-                return None
-        else:
-            exporter = pg.exporters.ImageExporter(self.plots.canvas.scene())
-            exporter.parameters()["width"] = max(1200, int(self.plots.canvas.width()))
-            exporter.export(str(path))
-        self.show_status(f"plots written to {path}")
-        return Path(path)
-
-    def export_csv(self, path: str | None = None) -> Path | None:
-        """Write every board's part values, metrics and margins as CSV."""
-        view = self.session.last_view
-        if view is None:
-            return None
-        if path is None:
-            path, _ = QFileDialog.getSaveFileName(self, "Export board metrics", str(self._last_dir() / "boards.csv"),
-                                                  "*.csv")
-            if not path:
-                return None
-        ens = view.ensemble
-        refs = [p.ref for p in view.design.parts]
-        names = list(view.metrics)
-        stage_names = [s.name for s in view.design.stages]
-        import io
-
-        buf = io.StringIO()
-        w = csv.writer(buf)
-        w.writerow(["board"] + [f"{r} (SI units)" for r in refs]
-                   + [metric_label(n, stage_names, view.design.mask) for n in names]
-                   + ["passes mask"])
-        passed = ens.passed
-        cols = np.column_stack([ens.values] + [view.metrics[n] for n in names])
-        for i in range(cols.shape[0]):  # writing text: one row per board is the file's shape
-            w.writerow([i] + [f"{x:.9g}" for x in cols[i]] + [int(passed[i])])
-        write_text_atomic(Path(path), buf.getvalue(), backup=False)
-        self.show_status(f"{cols.shape[0]} boards written to {path}")
-        return Path(path)
 
     # --- design tools --------------------------------------------------------------------
     def new_from_response(self) -> None:
@@ -622,46 +571,8 @@ class MainWindow(QMainWindow):
             return
         dlg = RecommendDialog(self.session.design, self)
         dlg.apply_requested.connect(lambda design: self.apply_edit(design, "use the recommended grades"))
-        self._recommend_dialog = dlg
+        self.recommend_dialog = dlg
         dlg.show()
-
-    def export_report(self, kind: str, path: str | None = None) -> None:
-        """Write the design-review report of the current design (HTML or PDF), with the
-        recommendation and parts list when Find cheapest grades ran for this design."""
-        from filters.report import write_report
-
-        from .qt_reportexport import recommendation_for, window_report, write_pdf
-        from .qt_tasks import BackgroundTask
-
-        if path is None:
-            path, _ = QFileDialog.getSaveFileName(self, f"Export report ({kind.upper()})",
-                                                  str(self._last_dir() / f"report.{kind}"), f"*.{kind}")
-            if not path:
-                return
-        design = self.session.design
-        self.show_status("building the report…")
-
-        rec, curve, searched = recommendation_for(design, getattr(self, "_recommend_dialog", None))
-
-        def job(progress, should_stop):
-            return window_report(design, rec, curve, searched, progress=progress, should_stop=should_stop)
-
-        def done(report) -> None:
-            try:
-                if kind == "pdf":
-                    write_pdf(report, Path(path))
-                else:
-                    write_report(report, path)
-            except (OSError, InputError) as exc:
-                self.show_problem("Could not write the report", str(exc))
-                return
-            self.show_status(f"report written to {path}")
-
-        task = BackgroundTask(job, self)
-        task.finished.connect(done)
-        task.failed.connect(lambda msg, _d: self.show_problem("Could not build the report", msg))
-        self._report_task = task
-        task.start()
 
     # --- recovery, layout ----------------------------------------------------------------
     def write_recovery(self) -> None:
@@ -720,8 +631,8 @@ class MainWindow(QMainWindow):
     def stop_background_work(self) -> None:
         """Cancel the report and recommendation jobs and the evaluation worker, and wait
         for their threads, so nothing reports back into a window that is going away."""
-        for task in (getattr(self, "_report_task", None),
-                     getattr(getattr(self, "_recommend_dialog", None), "task", None)):
-            if task is not None:
-                task.stop()
+        self.exports.stop()
+        task = getattr(self.recommend_dialog, "task", None)
+        if task is not None:
+            task.stop()
         self.session.shutdown()

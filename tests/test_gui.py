@@ -509,7 +509,7 @@ def test_screenshot_command_writes_a_png(tmp_path):
 # --- 7. exports ----------------------------------------------------------------------------
 def test_export_png(window, tmp_path):
     png = tmp_path / "plots.png"
-    assert window.export_plots("png", str(png)) == png
+    assert window.exports.plots("png", str(png)) == png
     assert png.read_bytes().startswith(PNG_SIGNATURE)
     img = QImage(str(png))
     assert img.width() >= 1200
@@ -524,7 +524,7 @@ def test_export_svg(window, tmp_path):
     import xml.etree.ElementTree as ET
 
     svg = tmp_path / "plots.svg"
-    assert window.export_plots("svg", str(svg)) == svg
+    assert window.exports.plots("svg", str(svg)) == svg
     text = svg.read_text(encoding="utf-8")
     root = ET.fromstring(text)
     assert root.tag.endswith("svg")
@@ -547,7 +547,7 @@ def test_export_csv_matches_the_library(window, tmp_path):
     import csv
 
     path = tmp_path / "boards.csv"
-    assert window.export_csv(str(path)) == path
+    assert window.exports.board_metrics(str(path)) == path
     with path.open(newline="", encoding="utf-8") as fh:
         rows = list(csv.reader(fh))
     design = window.session.design

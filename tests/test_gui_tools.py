@@ -90,7 +90,7 @@ def test_recommendation_dialog_applies_the_cheapest_grades(window):
 @pytest.mark.parametrize("kind", ["html", "pdf"])
 def test_report_export_writes_a_file(window, tmp_path, kind):
     path = tmp_path / f"report.{kind}"
-    window.export_report(kind, str(path))
+    window.exports.report(kind, str(path))
     _spin(lambda: path.exists() and path.stat().st_size > 0, 120)
     data = path.read_bytes()
     if kind == "pdf":
