@@ -19,6 +19,7 @@ from .engine import (
     dc_gain2,
     gain2_at,
     hf_gain2,
+    poly_jw,
 )
 from .metric_names import stage_metric_name
 
@@ -99,22 +100,39 @@ def reference_gain2(circuit: Circuit, coeffs: list[StageCoefficients], resp: Res
     return peak(coeffs, resp)[1] if peak2 is None else peak2
 
 
+def _rows(coeffs: list[StageCoefficients], rows: np.ndarray) -> list[StageCoefficients]:
+    """The stages' coefficients of the boards ``rows`` (an index or boolean array)."""
+    return [StageCoefficients(c.num[rows], c.den[rows], c.w_ref) for c in coeffs]
+
+
+#: A bracket is refined until |H|^2 is within this many dB of the target.
+REFINE_TOLERANCE_DB = 1e-10
+
+
 def _refine(coeffs: list[StageCoefficients], f_lo: np.ndarray, f_hi: np.ndarray, target2: np.ndarray,
-            iterations: int = 30) -> np.ndarray:
+            iterations: int = 30, lo_db: np.ndarray | None = None,
+            hi_db: np.ndarray | None = None) -> np.ndarray:
     """The frequency in [f_lo, f_hi] where |H|^2 crosses ``target2`` (regula falsi in
-    log frequency against dB, Illinois variant), per sample."""
+    log frequency against dB, Illinois variant), per sample; all arrays (S,), Hz.
+
+    ``lo_db`` and ``hi_db`` are the gains (dB) at the ends when already known (the grid's
+    values, or a searched peak's), else they are evaluated. Each sample stops once it is
+    within :data:`REFINE_TOLERANCE_DB` of the target, and only unfinished samples are
+    evaluated again, so a sample's answer does not depend on which other samples share
+    the batch (chunking never changes a number).
+    """
     a, b = np.log(f_lo), np.log(f_hi)
     t = 10 * np.log10(target2)
-    fa = 10 * np.log10(np.maximum(gain2_at(coeffs, f_lo), 1e-300)) - t
-    fb = 10 * np.log10(np.maximum(gain2_at(coeffs, f_hi), 1e-300)) - t
+    fa = (_gain_db_at(coeffs, f_lo) if lo_db is None else lo_db) - t
+    fb = (_gain_db_at(coeffs, f_hi) if hi_db is None else hi_db) - t
     side = np.zeros(a.shape)
-    c = a.copy()
     result = np.full(a.shape, np.nan)
-    done = np.zeros(a.shape, dtype=bool)
-    for _ in range(iterations):
+    live = np.arange(a.size)  # the samples still being refined
+    sub = coeffs
+    for step in range(iterations):
         denom = fb - fa
         c = np.where(denom != 0, b - fb * (b - a) / np.where(denom != 0, denom, 1), 0.5 * (a + b))
-        fc = 10 * np.log10(np.maximum(gain2_at(coeffs, np.exp(c)), 1e-300)) - t
+        fc = _gain_db_at(sub, np.exp(c)) - t
         same_a = np.sign(fc) == np.sign(fa)
         # move the end on the side of c; halve the value kept at the other end (Illinois)
         a = np.where(same_a, c, a)
@@ -125,26 +143,35 @@ def _refine(coeffs: list[StageCoefficients], f_lo: np.ndarray, f_hi: np.ndarray,
         fa_new = np.where(~same_a & (side == 1), fa_new / 2, fa_new)
         fa = fa_new
         side = np.where(same_a, -1, 1)
-        # freeze each sample once it has converged, so its answer does not depend on which
-        # other samples share the batch (chunking never changes a number)
-        new = ~done & (np.abs(fc) < 1e-10)
-        result[new] = c[new]
-        done |= new
-        if done.all():
-            break
-    result[~done] = c[~done]
+        done = np.abs(fc) < REFINE_TOLERANCE_DB
+        if step == iterations - 1:
+            done[:] = True  # out of steps: the last point tried
+        if done.any():
+            result[live[done]] = c[done]
+            go = ~done
+            if not go.any():
+                break
+            live, a, b, fa, fb, side, t = live[go], a[go], b[go], fa[go], fb[go], side[go], t[go]
+            sub = _rows(sub, go)
     return np.exp(result)
 
 
+def _gain_db_at(coeffs: list[StageCoefficients], f_hz: np.ndarray) -> np.ndarray:
+    """10 log10 |H|^2 (dB) at per-sample frequencies (S,) Hz, exact; -3000 dB for 0."""
+    return 10 * np.log10(np.maximum(gain2_at(coeffs, f_hz), 1e-300))
+
+
 def _stage_poles(sc: StageCoefficients) -> np.ndarray:
-    """Roots (rad/s) of one stage's denominators, (S, n); complex, from the companion
-    matrix (degree 2 in closed form). Empty (S, 0) for first-order stages."""
+    """Roots (rad/s) of one stage's denominators, (S, n), complex: degree 1 and 2 in
+    closed form, higher from the companion matrix. (S, 0) for a constant denominator."""
     den = sc.den
     s_count, k = den.shape
     n = k - 1
-    if n < 2:
+    if n < 1:
         return np.empty((s_count, 0), dtype=complex)
-    if n == 2:
+    if n == 1:
+        roots = (-den[:, :1] / den[:, 1:]).astype(complex)
+    elif n == 2:
         a, b, c = den[:, 2], den[:, 1], den[:, 0]
         disc = np.sqrt((b * b - 4 * a * c).astype(complex))
         roots = np.stack([(-b + disc) / (2 * a), (-b - disc) / (2 * a)], axis=1)
@@ -156,36 +183,94 @@ def _stage_poles(sc: StageCoefficients) -> np.ndarray:
     return roots * sc.w_ref
 
 
-def pole_peaks(coeffs: list[StageCoefficients], f_min: float, f_max: float,
-               iterations: int = 40) -> tuple[np.ndarray, np.ndarray]:
-    """The local maximum of |H|^2 near each complex pole of each board: frequencies (Hz)
-    and |H|^2, both (S, m), NaN where a board has no such pole inside [f_min, f_max].
+def _all_poles(coeffs: list[StageCoefficients]) -> np.ndarray:
+    """Every pole (rad/s) of every stage, (S, R) complex."""
+    s_count = coeffs[0].den.shape[0] if coeffs else 0
+    cols = [_stage_poles(sc) for sc in coeffs]
+    return np.concatenate(cols, axis=1) if cols else np.empty((s_count, 0), dtype=complex)
+
+
+def _pole_brackets(poles: np.ndarray, f_min: float, f_max: float
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Where to look for the top of the resonance near each pole (S, R): brackets ``a``,
+    ``b`` (Hz, clipped to [f_min, f_max]) and ``use`` (a complex pole, upper half plane,
+    whose bracket meets [f_min, f_max]).
 
     A pole p = -sigma + j w_d makes a resonance about |sigma| wide (rad/s) around w_d;
-    however narrow it is, its top lies in [w_d - |sigma|, w_d + |sigma|], searched here by
-    golden section on exact evaluations of H (vectorized over boards and poles). So a
-    resonance narrower than the grid spacing is still seen.
+    however narrow it is, its top lies in [w_d - |sigma|, w_d + |sigma|].
     """
-    cols = [_stage_poles(sc) for sc in coeffs]
-    roots = np.concatenate(cols, axis=1) if cols else np.empty((0, 0), dtype=complex)
-    s_count = coeffs[0].den.shape[0] if coeffs else 0
-    if roots.size == 0:
-        return np.empty((s_count, 0)), np.empty((s_count, 0))
-    upper = roots.imag > 1e-9 * np.abs(roots)
-    centre = np.abs(roots.imag) / TWO_PI
-    half = np.abs(roots.real) / TWO_PI
+    upper = poles.imag > 1e-9 * np.abs(poles)
+    centre = np.abs(poles.imag) / TWO_PI
+    half = np.abs(poles.real) / TWO_PI
     a = np.maximum(centre - half, 0.5 * centre)
     b = centre + half
     use = upper & (b >= f_min) & (a <= f_max)
-    keep = np.flatnonzero(use.any(axis=0))
-    if keep.size == 0:
-        return np.full((s_count, 0), np.nan), np.full((s_count, 0), np.nan)
-    use, a, b = use[:, keep], a[:, keep], b[:, keep]
-    a = np.where(use, np.clip(a, f_min, f_max), f_min)
-    b = np.where(use, np.clip(b, f_min, f_max), f_max)
-    # the bracket shrinks to 0.618^40 ~ 5e-9 of the resonance width
-    fx, gx = _golden_max(coeffs, a, b, iterations)
-    return np.where(use, fx, np.nan), np.where(use, gx, np.nan)
+    return np.clip(a, f_min, f_max), np.clip(b, f_min, f_max), use
+
+
+def _peaks_in(coeffs: list[StageCoefficients], a: np.ndarray, b: np.ndarray, use: np.ndarray,
+              iterations: int) -> tuple[np.ndarray, np.ndarray]:
+    """Golden-section maxima of |H|^2 in [a, b] (Hz, (S, R)) for the pairs ``use`` only
+    (the pairs gathered into one flat batch): frequencies (Hz) and |H|^2, NaN elsewhere."""
+    fx = np.full(use.shape, np.nan)
+    gx = np.full(use.shape, np.nan)
+    board, pole = np.nonzero(use)
+    if board.size:
+        # the bracket shrinks to 0.618^40 ~ 5e-9 of the resonance width
+        fx[board, pole], gx[board, pole] = _golden_max(_rows(coeffs, board), a[board, pole], b[board, pole],
+                                                       iterations)
+    return fx, gx
+
+
+def pole_peaks(coeffs: list[StageCoefficients], f_min: float, f_max: float,
+               iterations: int = 40) -> tuple[np.ndarray, np.ndarray]:
+    """The local maximum of |H|^2 near each complex pole of each board: frequencies (Hz)
+    and |H|^2, both (S, R) over the boards' poles, NaN where a pole is real, in the lower
+    half plane or not near [f_min, f_max].
+
+    The top of each resonance is searched by golden section on exact evaluations of H in
+    the bracket of :func:`_pole_brackets` (vectorized over boards and poles), so a
+    resonance narrower than the grid spacing is still seen. :func:`crossing` searches
+    only the poles whose top could move its answer.
+    """
+    poles = _all_poles(coeffs)
+    a, b, use = _pole_brackets(poles, f_min, f_max)
+    return _peaks_in(coeffs, a, b, use, iterations)
+
+
+def _gain2_bound(coeffs: list[StageCoefficients], poles: np.ndarray, board: np.ndarray,
+                 g2_ref: np.ndarray, f_ref: np.ndarray, f_lo: np.ndarray, f_hi: np.ndarray) -> np.ndarray:
+    """An upper bound of |H(j 2 pi f)|^2 for f in [f_lo, f_hi] (Hz), per element (k,) of
+    boards ``board``, given |H|^2 = ``g2_ref`` at f = ``f_ref`` (any frequency, best the
+    interval's end nearest the poles).
+
+    |H(jw)|^2 = |H(jw_r)|^2 prod |N_s(jw)|^2 / |N_s(jw_r)|^2 prod_p |jw_r - p|^2 / |jw - p|^2
+    over the stages s and every pole p. On the interval, |jw - p| is at least p's distance
+    to the segment j [w_lo, w_hi], and |N_s(jw)| = |sum n_k (jx)^k| is at most
+    sum |n_k| x_hi^k (x = w / w_ref >= 0). For an all-pole low-pass whose poles lie below
+    the interval, with w_r its lower end, every ratio is 1 exactly and the bound is
+    |H(jw_r)|^2 itself. Zeros or poles on the segment make the bound infinite or NaN.
+    """
+    w_r, w_lo, w_hi = TWO_PI * f_ref, TWO_PI * f_lo, TWO_PI * f_hi
+    p = poles[board]  # (k, R)
+    near = np.clip(p.imag, w_lo[:, None], w_hi[:, None])
+    # |j w_r - p| over p's distance to the segment (the same formula at w_r: exactly 1 there)
+    re2 = p.real * p.real
+    ratio2 = np.prod((re2 + (p.imag - w_r[:, None]) ** 2) / (re2 + (p.imag - near) ** 2), axis=1)
+    for sc in coeffs:
+        num = sc.num[board]
+        x_hi, x_r = w_hi / sc.w_ref, w_r / sc.w_ref
+        top = np.abs(num[:, -1])
+        for m in range(num.shape[1] - 2, -1, -1):
+            top = top * x_hi + np.abs(num[:, m])
+        re, im = poly_jw(num, x_r[:, None], (x_r * x_r)[:, None])
+        ratio2 = ratio2 * top ** 2 / (re[:, 0] ** 2 + im[:, 0] ** 2)
+    return g2_ref * ratio2
+
+
+#: A pole whose bound (:func:`_gain2_bound`) is below the level by more than this share
+#: is not searched (a margin for the rounding of poles and of the grid's decibels).
+BOUND_MARGIN = 1e-6
 
 
 def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray,
@@ -202,38 +287,91 @@ def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray
     or above the level and the next grid point, and refined on exact |H|^2. A rise above
     the level that is narrower than the grid spacing and not near a pole (between two
     close zeros) could still be missed.
+
+    A pole's top is searched only where it could move the answer. Falling (rising is the
+    mirror image): let g be the last grid point at or above the level and g+ the next one.
+    A top at or below g changes nothing. A top in (g, g+) changes the bracket's lower end
+    but not the crossing found (to the refinement's tolerance): the search assumes one
+    maximum in the pole's bracket, so from g up to the top the gain rises (it stays above
+    the level) and past the top it falls, crossing the level once before g+. So only a top
+    above the level at or beyond g+ matters, and a pole is skipped when its bracket ends
+    before g+ or when an upper bound of |H|^2 on the rest of its bracket
+    (:func:`_gain2_bound`, from the grid's gain at g+ and the distances to the poles) is
+    below the level. A resonance too damped to rise above the level there is skipped this
+    way; for an all-pole low-pass whose poles lie below g+ the bound is the grid's own
+    gain at g+, which is below the level.
     """
     gdb = resp.gain_db
     f = resp.freqs_hz
-    above = gdb >= _db(level2)[:, None]
+    level_db = _db(level2)
+    above = gdb >= level_db[:, None]
     n = f.size
     s_count = gdb.shape[0]
     rows = np.arange(s_count)
-    pf, pg = pole_peaks(coeffs, float(f[0]), float(f[-1]))
-    pole_above = np.isfinite(pf) & (pg >= level2[:, None])
-    if direction == "falling":
-        last = n - 1 - np.argmax(above[:, ::-1], axis=1)  # last grid index at or above the level
-        grid_ok = above[rows, last]
-        f_grid = np.where(grid_ok, f[last], -np.inf)
+    falling = direction == "falling"
+    if falling:
+        # 1 + the last grid index at or above the level (0: none); a reversed argmax is slow
+        count = np.max(above * np.arange(1, n + 1, dtype=np.int16 if n < 32767 else np.int32), axis=1)
+        grid_ok = count > 0
+        edge = np.maximum(count - 1, 0)
+        ref = np.where(grid_ok, np.minimum(edge + 1, n - 1), 0)  # g+ (the first grid point if none)
+        open_end = grid_ok & (edge == n - 1)
+    else:
+        edge = np.argmax(above, axis=1)  # the first grid index at or above the level
+        grid_ok = above[rows, edge]
+        ref = np.where(grid_ok, np.maximum(edge - 1, 0), n - 1)
+        open_end = grid_ok & (edge == 0)
+    poles = _all_poles(coeffs)
+    a, b, use = _pole_brackets(poles, float(f[0]), float(f[-1]))
+    f_ref = f[ref]
+    use &= ~open_end[:, None]  # above the level at the grid's end: no crossing, whatever the poles
+    use &= (b >= f_ref[:, None]) if falling else (a <= f_ref[:, None])
+    board, pole = np.nonzero(use)
+    if board.size:
+        ends = (np.maximum(a[board, pole], f_ref[board]), b[board, pole]) if falling else \
+            (a[board, pole], np.minimum(b[board, pole], f_ref[board]))
+        g_ref = gdb[board, ref[board]]
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            bound = _gain2_bound(coeffs, poles, board, 10 ** (g_ref / 10), f_ref[board], *ends)
+        # kept: NaN or infinite bounds, and a grid gain held at the engine's top limit
+        skip = (bound < level2[board] * (1 - BOUND_MARGIN)) & (g_ref < GAIN_DB_LIMIT)
+        use[board[skip], pole[skip]] = False
+    pf, pg = _peaks_in(coeffs, a, b, use, 40)
+    pole_above = use & (pg >= level2[:, None])
+    if falling:
+        f_grid = np.where(grid_ok, f[edge], -np.inf)
         f_pole = np.max(np.where(pole_above, pf, -np.inf), axis=1, initial=-np.inf)
         lo = np.maximum(f_grid, f_pole)
-        ok = np.isfinite(lo) & ~(grid_ok & (last == n - 1))
+        ok = np.isfinite(lo) & ~open_end
         nxt = np.minimum(np.searchsorted(f, np.where(ok, lo, f[0]), side="right"), n - 1)
         hi = f[nxt]
+        hi_db = gdb[rows, nxt]
+        lo_db = _pick_db(f_grid, gdb[rows, edge], lo, pf, pg, pole_above)
     else:
-        first = np.argmax(above, axis=1)
-        grid_ok = above[rows, first]
-        f_grid = np.where(grid_ok, f[first], np.inf)
+        f_grid = np.where(grid_ok, f[edge], np.inf)
         f_pole = np.min(np.where(pole_above, pf, np.inf), axis=1, initial=np.inf)
         hi = np.minimum(f_grid, f_pole)
-        ok = np.isfinite(hi) & ~(grid_ok & (first == 0))
+        ok = np.isfinite(hi) & ~open_end
         prev = np.maximum(np.searchsorted(f, np.where(ok, hi, f[-1]), side="left") - 1, 0)
         lo = f[prev]
+        lo_db = gdb[rows, prev]
+        hi_db = _pick_db(f_grid, gdb[rows, edge], hi, pf, pg, pole_above)
     out = np.full(s_count, np.nan)
     if ok.any():
-        sub = [StageCoefficients(c.num[ok], c.den[ok], c.w_ref) for c in coeffs]
-        out[ok] = _refine(sub, lo[ok], hi[ok], level2[ok])
+        out[ok] = _refine(_rows(coeffs, ok), lo[ok], hi[ok], level2[ok], lo_db=lo_db[ok], hi_db=hi_db[ok])
     return out
+
+
+def _pick_db(f_grid: np.ndarray, grid_db: np.ndarray, f_end: np.ndarray, pf: np.ndarray, pg: np.ndarray,
+             pole_above: np.ndarray) -> np.ndarray:
+    """The gain (dB) at a bracket end ``f_end`` (S,) that is either the grid point
+    ``f_grid`` (gain ``grid_db``) or the top of a pole's resonance (``pf``, ``pg``, (S, R))."""
+    if pf.shape[1] == 0:
+        return grid_db
+    hit = pole_above & (pf == f_end[:, None])
+    from_pole = hit.any(axis=1) & (f_end != f_grid)
+    g = pg[np.arange(pf.shape[0]), np.argmax(hit, axis=1)]
+    return np.where(from_pole, _db(np.where(from_pole, g, 1.0)), grid_db)
 
 
 def _db(gain2: np.ndarray) -> np.ndarray:
@@ -268,15 +406,16 @@ def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Resp
     elif circuit.kind == "highpass":
         out["cutoff_hz"] = crossing(resp, coeffs, level2, "rising")
     else:
-        lower = _half_crossing(resp, coeffs, level2, peak_f, below=True)
-        upper = _half_crossing(resp, coeffs, level2, peak_f, below=False)
+        lower = _half_crossing(resp, coeffs, level2, peak_f, peak2, below=True)
+        upper = _half_crossing(resp, coeffs, level2, peak_f, peak2, below=False)
         out.update(centre_hz=np.sqrt(lower * upper), lower_hz=lower, upper_hz=upper, bandwidth_hz=upper - lower)
     return out
 
 
 def _half_crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray,
-                   peak_f: np.ndarray, below: bool) -> np.ndarray:
-    """Band edge on one side of the (refined) peak: the crossing nearest the peak.
+                   peak_f: np.ndarray, peak2: np.ndarray, below: bool) -> np.ndarray:
+    """Band edge on one side of the (refined) peak (``peak_f`` Hz, |H|^2 ``peak2``, (S,)):
+    the crossing nearest the peak.
 
     The bracket runs from the last grid point under the level to the next grid point or
     the peak itself, whichever is nearer, so a coarse grid whose points all miss the
@@ -286,23 +425,27 @@ def _half_crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.n
     f = resp.freqs_hz
     n = gdb.shape[1]
     rows = np.arange(gdb.shape[0])
+    peak_db = _db(peak2)
     under = gdb < _db(level2)[:, None]
     if below:
         cand = under & (f[None, :] < peak_f[:, None])
         j = n - 1 - np.argmax(cand[:, ::-1], axis=1)  # last grid point under the level left of the peak
         ok = cand[rows, j]
         lo = f[j]
-        hi = np.minimum(f[np.minimum(j + 1, n - 1)], peak_f)
+        k = np.minimum(j + 1, n - 1)
+        hi = np.minimum(f[k], peak_f)
+        lo_db, hi_db = gdb[rows, j], np.where(f[k] <= peak_f, gdb[rows, k], peak_db)
     else:
         cand = under & (f[None, :] > peak_f[:, None])
         j = np.argmax(cand, axis=1)
         ok = cand[rows, j]
-        lo = np.maximum(f[np.maximum(j - 1, 0)], peak_f)
+        k = np.maximum(j - 1, 0)
+        lo = np.maximum(f[k], peak_f)
         hi = f[j]
+        lo_db, hi_db = np.where(f[k] >= peak_f, gdb[rows, k], peak_db), gdb[rows, j]
     out = np.full(gdb.shape[0], np.nan)
     if ok.any():
-        sub = [StageCoefficients(c.num[ok], c.den[ok], c.w_ref) for c in coeffs]
-        out[ok] = _refine(sub, lo[ok], hi[ok], level2[ok])
+        out[ok] = _refine(_rows(coeffs, ok), lo[ok], hi[ok], level2[ok], lo_db=lo_db[ok], hi_db=hi_db[ok])
     return out
 
 

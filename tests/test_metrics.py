@@ -405,3 +405,87 @@ def test_cutoff_of_a_ladder_with_a_narrow_resonance_does_not_depend_on_the_grid(
     for points in (30, 40, 50, 60, 400, 1000, 3000):
         got = evaluate(ladder_design(points), samples=1).nominal.metrics["cutoff_hz"]
         assert got == pytest.approx(ref, rel=1e-9), points
+
+
+# --- cutoffs of many boards against a per-board reference (issue 13, part A) ---------------
+# The crossing searches a pole's resonance only where it could move the answer (a bound on
+# |H|^2 decides); these boards are refined with the bracket ends taken from the grid.
+# Reference per board: the Sallen-Key closed forms [KARKI] (unity gain,
+# D(s) = 1 + s C2 (R1 + R2) + s^2 R1 R2 C1 C2 for the low-pass;
+# 1 + s R1 (C1 + C2) + s^2 R1 R2 C1 C2 over s^2 R1 R2 C1 C2 for the high-pass) evaluated
+# with numpy's polyval, the edge found on a dense grid and refined by scipy's brentq.
+
+def _sk_h2(kind, r1, r2, c1, c2):
+    """|H(j 2 pi f)|^2 of one unity-gain Sallen-Key section, per board, as a function of f."""
+    def h2(f):
+        s = 1j * TWO_PI * f
+        d = 1 + s * (c2 * (r1 + r2) if kind == "lowpass" else r1 * (c1 + c2)) + s * s * r1 * r2 * c1 * c2
+        n = 1 if kind == "lowpass" else s * s * r1 * r2 * c1 * c2
+        return np.abs(n / d) ** 2
+    return h2
+
+
+def _reference_edge(h2, level2, falling, f_lo, f_hi):
+    import scipy.optimize
+
+    f = np.geomspace(f_lo, f_hi, 20_001)
+    above = h2(f) >= level2
+    i = np.flatnonzero(above)[-1] if falling else np.flatnonzero(above)[0] - 1
+    return scipy.optimize.brentq(lambda x: math.log(h2(x) / level2), f[i], f[i + 1], xtol=1e-14, rtol=1e-15)
+
+
+@pytest.mark.parametrize("kind", ["lowpass", "highpass"])
+def test_cutoff_of_every_board_matches_a_per_board_reference(kind):
+    fc = 1e3
+    stages = []
+    for q in butter_q(4):  # [BW] Butterworth Qs
+        c = 22e-9
+        w0 = TWO_PI * fc
+        if kind == "lowpass":  # [KARKI] equal R: Q = sqrt(C1/C2)/2, w0 = 1/(R sqrt(C1 C2))
+            v = sk_unity(fc, q)
+        else:  # [KARKI] equal C: Q = sqrt(R2/R1)/2, w0 = 1/(C sqrt(R1 R2))
+            r1 = 1 / (2 * q * w0 * c)
+            v = {"C1": c, "C2": c, "R1": r1, "R2": 4 * q * q * r1}
+        stages.append((f"sallen_key_{kind}", {}, v, {"R1": "R-thick-1", "R2": "R-thick-1",
+                                                     "C1": "C-C0G-5", "C2": "C-C0G-5"}))
+    d = make(stages, {"f_start": 10, "f_stop": 1e5, "points": 400, "cutoff_db": 3.0})
+    ens = evaluate(d, samples=300, seed=7, curves=False)
+    got = ens.metrics["cutoff_hz"]
+    level2 = 10 ** (-3.0 / 10)  # both references are 1 (DC gain, or gain at infinity)
+    for k in range(ens.samples):
+        secs = [_sk_h2(kind, *(col(ens, f"{r}_{j}")[k] for r in ("R1", "R2", "C1", "C2"))) for j in (1, 2)]
+        ref = _reference_edge(lambda f: secs[0](f) * secs[1](f), level2, kind == "lowpass", fc / 10, fc * 10)
+        assert got[k] == pytest.approx(ref, rel=1e-9), k
+
+
+def test_pole_bound_holds_on_dense_grids():
+    # The bound that lets the crossing skip a pole's search must never be below |H|^2
+    # anywhere on its interval: checked against scipy.signal.freqs on 2,001 points of
+    # random intervals, for the demo's boards, the LC ladder and the band-pass example.
+    from pathlib import Path
+
+    from filters.designfile import load
+    from filters.metrics import _all_poles, _gain2_bound
+
+    rng = np.random.default_rng(5)
+    example = Path(__file__).resolve().parents[1] / "assets" / "examples" / "ultrasonic_bandpass.json"
+    for design in (load_demo(), ladder_design(400), load(str(example))):
+        ens = evaluate(design, samples=40, seed=11, curves=False)
+        circuit = compile_design(design)
+        coeffs = stage_coefficients(circuit, ens.values)
+        poles = _all_poles(coeffs)
+        lo_all = ens.freqs_hz[0]
+        for k in range(ens.samples):
+            num, den = np.array([1.0]), np.array([1.0])
+            for c in coeffs:
+                n_, d_ = c.unscaled()
+                num, den = np.polymul(num, n_[k][::-1]), np.polymul(den, d_[k][::-1])
+            f1, f2 = np.sort(lo_all * 10 ** rng.uniform(0, 4, 2))
+            f = np.geomspace(f1, f2, 2_001)
+            _, h = scipy.signal.freqs(num, den, worN=TWO_PI * f)
+            g2 = np.abs(h) ** 2
+            for f_ref in (f1, f2, math.sqrt(f1 * f2)):
+                g_ref = np.abs(scipy.signal.freqs(num, den, worN=[TWO_PI * f_ref])[1][0]) ** 2
+                bound = _gain2_bound(coeffs, poles, np.array([k]), np.array([g_ref]), np.array([f_ref]),
+                                     np.array([f1]), np.array([f2]))[0]
+                assert bound >= g2.max() * (1 - 1e-9), (design.stages[0].topology, k, f1, f2)
