@@ -65,8 +65,10 @@ class MainWindow(QMainWindow):
         self.parts.setMinimumWidth(440)
         self.results = ResultsPanel()
         self.results.setMinimumWidth(380)
-        self._dock(self.parts, "Parts and grades", "dock_parts", Qt.DockWidgetArea.LeftDockWidgetArea)
-        self._dock(self.results, "Yield and spread budget", "dock_results", Qt.DockWidgetArea.RightDockWidgetArea)
+        self.dock_parts = self._dock(self.parts, "Parts and grades", "dock_parts",
+                                     Qt.DockWidgetArea.LeftDockWidgetArea)
+        self.dock_results = self._dock(self.results, "Yield and spread budget", "dock_results",
+                                       Qt.DockWidgetArea.RightDockWidgetArea)
         self.exports = WindowExports(self)
         self.recommend_dialog = None  # the Find cheapest grades dialog, once opened (its result goes in the report)
         self._build_actions()
@@ -594,6 +596,7 @@ class MainWindow(QMainWindow):
             self.resize(1500, 900)
         if state is not None:
             self.restoreState(state)
+        self._size_docks = state is None  # at the first show: the docks at their content's width
 
         splitter = self.settings.value("centre_splitter")
         self._size_span_table = splitter is None  # at the first show: room for every demo span
@@ -602,9 +605,18 @@ class MainWindow(QMainWindow):
 
     def showEvent(self, event) -> None:  # noqa: N802 - Qt override
         super().showEvent(event)
+        if self._size_docks:
+            self._size_docks = False
+            QTimer.singleShot(0, self._fit_docks)
         if self._size_span_table:
             self._size_span_table = False
             QTimer.singleShot(0, self._fit_span_table)
+
+    def _fit_docks(self) -> None:
+        """Give the parts and results docks the width their content needs and the plots the
+        rest (Qt's own split would give each dock as much room as the plots)."""
+        docks = [self.dock_parts, self.dock_results]
+        self.resizeDocks(docks, [d.minimumSizeHint().width() for d in docks], Qt.Orientation.Horizontal)
 
     def _fit_span_table(self) -> None:
         """Give the span table the height of its rows (at least SPAN_ROWS_SHOWN, at most

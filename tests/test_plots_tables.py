@@ -460,3 +460,20 @@ def test_nothing_is_clipped(qtbot, size):
     problems += _table_problems(w.results.table, all_rows_visible=size == DEFAULT_SIZE)
     problems += _table_problems(w.span_table.table, all_rows_visible=False)
     assert not problems, "\n".join(problems)
+
+
+def test_the_plots_get_the_most_room_at_the_default_size(qtbot):
+    """A user's look at the default window (issue 12): the plots were a narrow column
+    (~450 px of 1500) beside two docks with empty width. Now each dock is as wide as its
+    content needs and the plots take the rest."""
+    w = make_window(None)  # no saved layout: the first start (tests/conftest.py)
+    qtbot.addWidget(w, before_close_func=_discard)
+    w.show()
+    qtbot.waitExposed(w)
+    wait_idle(qtbot, w)
+    assert (w.width(), w.height()) == (1500, 900), "the window's first size (MainWindow._restore_layout)"
+    plots = w.centralWidget().width()
+    for dock in (w.dock_parts, w.dock_results):
+        assert dock.width() <= dock.minimumSizeHint().width() + 2, (dock.objectName(), dock.width())
+        assert plots > dock.width() + 100, (plots, dock.objectName(), dock.width())
+    assert plots >= 600, plots
