@@ -1,5 +1,7 @@
 """The design: parts with their grades, stages of topologies, analysis settings, spec mask.
 
+Over 500 lines: the design's dataclasses beside the loader's rule for each field (the window checks edits with them).
+
 Plain frozen dataclasses, built from and written to the design file's dict form by
 :func:`design_from_dict` and :meth:`Design.to_dict` (see :mod:`filters.designfile` for the
 file itself). Loading checks the whole dict and reports every problem with its field path,

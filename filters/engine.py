@@ -1,5 +1,7 @@
 """The engine: a design's stages compiled to transfer functions, evaluated for every sample.
 
+Over 500 lines: the hot path (compile, coefficients, responses in blocks, scratch reuse) kept readable in one place.
+
 Shapes: part values ``(samples, parts)`` in ohm, F, H (op-amps: gain-bandwidth in Hz);
 coefficients ``(samples, degree + 1)`` in ascending powers of s; responses
 ``(samples, freqs)``. Stages are buffered, so the design's H(s) is the product of the

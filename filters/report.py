@@ -1,5 +1,7 @@
 """The analysis report: one self-contained HTML file with inline SVG figures.
 
+Over 500 lines: one document's sections, each a short function, read in the order the report prints them.
+
 :func:`build_report` turns an :class:`~filters.analysis.AnalysisResult` (and, when given,
 a grade recommendation, its cost-yield curve and a parts list) into a :class:`Report`.
 Every number in it comes from the result; this module only lays out the document. The

@@ -1,5 +1,7 @@
 """The report's figures: plain SVG text generated with numpy (no plotting library).
 
+Over 500 lines: one small SVG toolkit (axes, ticks, text, hatching) that its four figures share.
+
 * :func:`svg_spread_plot` - gain against log frequency: the spread bands of the sampled
   boards, the nominal curve and the mask spans with their forbidden side hatched;
 * :func:`svg_histogram` - a metric's histogram, failing boards stacked on passing ones;

@@ -1,5 +1,7 @@
 """Filter synthesis: from a response family, an order and a cutoff to a buildable design.
 
+Over 500 lines until issue 12 #3 moves the op-amp check and the prototype maths into modules of their own.
+
 :func:`prototype_sections` splits a normalized low-pass prototype into first- and
 second-order sections (f0 and Q). :func:`synthesize` transforms the prototype to the
 requested cutoff (low-pass, high-pass or band-pass), picks one topology per section,
