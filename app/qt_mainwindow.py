@@ -1,8 +1,11 @@
 """The main window: parts on the left, spread plots in the middle, results on the right,
 the span table below. Menus and shortcuts for files, undo and redo, the mask and exports.
 
+Over 500 lines: every action and every signal between the panels and the session, wired in
+one place; exports (:mod:`app.qt_exports`), dialogs and span items live in modules of their own.
+
 The window observes the :class:`~app.qt_session.Session`; every edit goes through
-``session.apply`` so it can be undone.
+``session.apply_checked`` (the loader's rules) so it can be undone.
 """
 from __future__ import annotations
 
