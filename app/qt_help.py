@@ -70,6 +70,16 @@ measuring real parts and by qualified review before committing to production.</i
 """
 
 
+def _dedicated_key(text: str) -> bool:
+    """True for a key found only on some keyboards: F13 and above, or a named key such as
+    "Undo" or "Redo" without a modifier."""
+    if "+" in text:
+        return False
+    if text.startswith("F") and text[1:].isdigit():
+        return int(text[1:]) > 12
+    return len(text) > 3 and text.isalpha()
+
+
 def shortcut_rows(window: QMainWindow) -> list[tuple[str, str, str]]:
     """(menu, action, keys) for every action in the window's menus that has a shortcut,
     in menu order; keys in the platform's native text, alternatives joined by " or "."""
@@ -80,8 +90,11 @@ def shortcut_rows(window: QMainWindow) -> list[tuple[str, str, str]]:
             if a.menu() is not None:
                 walk(a.menu(), f"{path} > {a.menu().title().replace('&', '')}")
             elif not a.isSeparator() and a.shortcuts():
-                keys = " or ".join(k.toString(QKeySequence.SequenceFormat.NativeText) for k in a.shortcuts())
-                rows.append((path, _plain(a), keys))
+                texts = [k.toString(QKeySequence.SequenceFormat.NativeText) for k in a.shortcuts()]
+                # the platform adds dedicated keys (F14, "Undo") that few keyboards have: list
+                # them only when they are the action's only keys
+                usual = [t for t in texts if not _dedicated_key(t)] or texts
+                rows.append((path, _plain(a), " or ".join(usual)))
 
     for top in window.menuBar().actions():
         if top.menu() is not None:

@@ -482,9 +482,13 @@ def test_help_menu_guide_shortcuts_and_about(program, qtbot):
     native = QKeySequence.SequenceFormat.NativeText
     in_menus = [a for m in w.menuBar().findChildren(QMenu) for a in m.actions() if a.shortcuts()]
     assert len(in_menus) >= 20
-    for a in in_menus:  # every shortcut the menus really have is listed
-        keys = " or ".join(k.toString(native) for k in a.shortcuts())
-        assert any(r[1] == keys for r in rows), (a.objectName(), keys)
+    for a in in_menus:  # every shortcut the menus really have is listed (keys found only on
+        # some keyboards, such as F14 or a dedicated "Undo" key, only when nothing else is)
+        texts = [k.toString(native) for k in a.shortcuts()]
+        usual = [t for t in texts if "+" in t or t == "Del" or (t.startswith("F") and t[1:].isdigit()
+                                                                  and int(t[1:]) <= 12) or len(t) == 1] or texts
+        assert any(r[1] == " or ".join(usual) for r in rows), (a.objectName(), usual)
+    assert not any("F14" in keys for _, keys in rows)
     assert any(name == "Redo" and QKeySequence("Ctrl+Y").toString(native) in keys for name, keys in rows)
 
     action(w, "help_about").trigger()
