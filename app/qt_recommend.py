@@ -169,7 +169,8 @@ class RecommendDialog(QDialog):
             if rec.verified is not None:
                 check = (f" On {rec.verified.samples:,} fresh boards: yield {pct(rec.verified.estimate)}, lower bound "
                          f"{pct(rec.verified.lower)} — the target {'holds' if rec.meets_on_fresh_seed else 'does NOT hold'}.")
-            self.summary.setText(f"<b>total relative cost {c.cost:.2f}</b>; yield {pct(c.estimate)}, lower bound "
+            self.summary.setText(f"<b>total relative cost {c.cost:.2f}</b> (current grades {rec.current_cost:.2f}); "
+                                 f"yield {pct(c.estimate)}, lower bound "
                                  f"{pct(c.lower)} ({c.passed:,} of {c.samples:,} boards; {rec.evaluations} grade "
                                  f"sets tried).{check}")
             self.table.setRowCount(len(d.parts))

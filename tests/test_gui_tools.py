@@ -82,6 +82,9 @@ def test_recommendation_dialog_applies_the_cheapest_grades(window):
     _spin(lambda: dlg.recommendation is not None)
     want = recommend(window.session.design, 0.90, samples=1000)
     assert dlg.recommendation.chosen.grades == want.chosen.grades
+    # both costs, as the command line prints them (issue 10 #15)
+    assert (f"total relative cost {want.chosen.cost:.2f}</b> (current grades {want.current_cost:.2f})"
+            in dlg.summary.text())
     dlg.apply_button.click()
     assert tuple(p.grade for p in window.session.design.parts) == want.chosen.grades
     dlg.close()
