@@ -4,7 +4,7 @@ A yield is a binomial proportion: ``passed`` boards of ``samples`` meet the spec
 Every fraction here (yield, bound, half-width) is a plain fraction in [0, 1], not a
 percentage; margins are in dB.
 
-Two interval methods (REFERENCES.md section 8):
+Two interval methods (tests/REFERENCES.md section 8):
 
 * ``"wilson"`` - the Wilson (1927) score interval, without continuity correction;
 * ``"exact"`` - the Clopper & Pearson (1934) interval from beta quantiles.
@@ -269,7 +269,7 @@ def _wilson(k: int, n: int, z: float) -> tuple[float, float]:
 def binomial_exact_zero_failures_upper(n: int, confidence: float = 0.95) -> float:
     """Exact one-sided upper bound on the failure fraction when none of ``n`` boards fails.
 
-    1 - (1 - confidence)^(1/n) (REFERENCES.md section 8 [D]); about 3/n at 95 % (rule of three).
+    1 - (1 - confidence)^(1/n) (tests/REFERENCES.md section 8 [D]); about 3/n at 95 % (rule of three).
     """
     nn = _check_whole(n, "n", 1)
     c = _check_confidence(confidence)

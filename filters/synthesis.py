@@ -109,7 +109,7 @@ def prototype_zpk(response: str, order: int, ripple_db: float | None = None
                   ) -> tuple[np.ndarray, np.ndarray, float]:
     """Zeros, poles (rad/s, normalized) and gain of the low-pass prototype.
 
-    Normalization (the -3 dB convention of the published tables, REFERENCES.md section 5):
+    Normalization (the -3 dB convention of the published tables, tests/REFERENCES.md section 5):
     Omega = 1 where |H|^2 is half the DC value, that is 3.01 dB below DC.
 
     - Butterworth: ``scipy.signal.butter`` natively.
@@ -294,7 +294,7 @@ def section_values(topology: str, f0_hz: float, q: float | None, cap_series: str
     snapped to the series); the resistors are then solved exactly, so the section has f0
     (Hz) and Q exactly with these values:
 
-    - ``sallen_key_lowpass`` (unity gain; REFERENCES.md section 6: w0^2 = 1/(R1R2C1C2),
+    - ``sallen_key_lowpass`` (unity gain; tests/REFERENCES.md section 6: w0^2 = 1/(R1R2C1C2),
       Q = sqrt(R1R2C1C2)/(C2(R1+R2))): C2 = level/(2Q), C1 = the next series value at or
       above 4 Q^2 C2 (the condition for real R), R1 < R2 the roots of the quadratic.
     - ``mfb_lowpass`` (DC gain -1: R1 = R2 = R; Q = sqrt(R R3 C1 C2)/(C2 (R + 2 R3))):
@@ -627,7 +627,7 @@ class GbwWarning:
     ``gain`` G is the stage's passband gain magnitude (DC for a low-pass, high-frequency
     for a high-pass, at f0 for a band-pass), ``peak_gain`` the largest |H| on a grid.
     ``required_gbw_hz`` = 100 G Q f0 (open-loop gain at f0 40 dB above the stage's peak
-    gain, which is about G Q; Op Amps for Everyone ch. 16, as in REFERENCES.md section 7).
+    gain, which is about G Q; Op Amps for Everyone ch. 16, as in tests/REFERENCES.md section 7).
     ``too_low``: the op-amp's GBW is below that. GBW fields are None when the stage has
     no op-amp part and no GBW was given.
     """
@@ -1390,7 +1390,7 @@ def opamp_shift_table(design: Design, gbw_hz: float | None = None) -> list[GbwWa
 
     The op-amp's GBW (Hz) is the value of the part on the stage's role U1, else
     ``gbw_hz`` (a what-if for stages without op-amp parts), else the GBW fields are None.
-    Rule (REFERENCES.md section 7, after Op Amps for Everyone ch. 16): open-loop gain at
+    Rule (tests/REFERENCES.md section 7, after Op Amps for Everyone ch. 16): open-loop gain at
     f0 at least 40 dB above the stage's peak gain, i.e. GBW >= 100 G Q f0 with G the
     stage's passband gain (see :class:`GbwWarning`). Passive stages are left out.
     """

@@ -16,7 +16,7 @@ from filters.evaluate import evaluate
 
 def butterworth4(fc: float = 1000.0, attenuation=(2000.0,)):
     # A 4th-order Butterworth as two unity-gain Sallen-Key stages with exact values for
-    # Q = 0.5412 and 1.3066 (REFERENCES.md section 5, Carter & Mancini Table 16.7 [C]);
+    # Q = 0.5412 and 1.3066 (tests/REFERENCES.md section 5, Carter & Mancini Table 16.7 [C]);
     # equal resistors R: C1/C2 = 4 Q^2, w0 = 1/(R sqrt(C1 C2)).
     parts, stages, k = [], [], 0
     for q in (0.5411961, 1.3065630):
@@ -36,7 +36,7 @@ def butterworth4(fc: float = 1000.0, attenuation=(2000.0,)):
 
 
 def test_attenuation_of_a_butterworth_matches_the_closed_form():
-    # Butterworth attenuation 10 log10(1 + (f/fc)^(2n)) dB (REFERENCES.md section 5 [D]),
+    # Butterworth attenuation 10 log10(1 + (f/fc)^(2n)) dB (tests/REFERENCES.md section 5 [D]),
     # and scipy.signal.butter(4, wc, analog=True) as the reference library.
     d = design_from_dict(butterworth4(attenuation=(2000.0, 5000.0)))
     m = evaluate(d, samples=3).metrics

@@ -4,11 +4,11 @@ published results and closed forms.
 References used below:
   [SVV]    Schaumann & Van Valkenburg, "Design of Analog Filters" (2001), and Huelsman,
            "Active and Passive Analog Filter Design" (1993), normalized sensitivities
-           S = (dF/F)/(dx/x) - from memory [M], REFERENCES.md section 6: unity-gain
+           S = (dF/F)/(dx/x) - from memory [M], tests/REFERENCES.md section 6: unity-gain
            Sallen-Key S(w0, each R, C) = -1/2, S(Q, C1) = +1/2, S(Q, C2) = -1/2,
            S(Q, R1) = (R2 - R1)/(2(R1 + R2)); equal-component Sallen-Key S(Q, K) = K/(3 - K).
   [SK]     Sallen-Key low-pass with gain K: w0 = 1/sqrt(R1R2C1C2),
-           Q = sqrt(R1R2C1C2)/[C2(R1+R2) + R1C1(1-K)], K = 1 + RF/RG (REFERENCES.md section 6,
+           Q = sqrt(R1R2C1C2)/[C2(R1+R2) + R1C1(1-K)], K = 1 + RF/RG (tests/REFERENCES.md section 6,
            after Karki TI SLOA024, equation numbers from memory [M], re-derived [D]).
            Derived here [D] by differentiating: S(Q, R2) = (R1 - R2)/(2(R1 + R2)); for equal
            components S(Q, R1) = 1/2 - (2-K)/(3-K), S(Q, R2) = 1/2 - 1/(3-K),
@@ -28,7 +28,7 @@ References used below:
            theta_k = (2k-1)pi/(2n), eps = sqrt(10^(A/10) - 1); ripple peaks (|T_n| = 0) at
            Omega = cos(theta_k) (from memory); checked here against scipy.signal.cheby1.
   [ORCH]   H. J. Orchard, "Inductorless filters", Electronics Letters 2(6), 1966 (from memory
-           [M], REFERENCES.md section 6): at frequencies of maximum power transfer the
+           [M], tests/REFERENCES.md section 6): at frequencies of maximum power transfer the
            first-order sensitivity of the gain of a doubly terminated lossless ladder to every
            L and C is zero.
   [MPT]    maximum power transfer (elementary circuit theory, from memory): with source and load

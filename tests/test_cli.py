@@ -3,7 +3,7 @@ ends in one line on stderr with exit status 2 and never a traceback.
 
 Most tests call ``app.cli.main(argv)`` in-process; one runs ``python -m app.cli`` as a
 subprocess to see what a user sees. References are named beside each check.
-REFERENCES.md tags: [C] confirmed in a stored copy of the published document, [M] from
+tests/REFERENCES.md tags: [C] confirmed in a stored copy of the published document, [M] from
 memory (not confirmed), [D] derived by computation.
 """
 from __future__ import annotations
@@ -67,7 +67,7 @@ def _rc_file(tmp_path: Path, **over) -> Path:
 def _demo_closed_form() -> dict[str, float]:
     """Nominal numbers of the demo from closed forms, not from the code under test.
 
-    Unity-gain Sallen-Key low-pass: H = 1/(s^2 R1R2C1C2 + s C2(R1+R2) + 1) (REFERENCES.md
+    Unity-gain Sallen-Key low-pass: H = 1/(s^2 R1R2C1C2 + s C2(R1+R2) + 1) (tests/REFERENCES.md
     section 6, [D], layout after TI SLOA024 [M]). Cutoff where |H1 H2| is 3 dB below DC,
     found with scipy.optimize.brentq.
     """
@@ -125,7 +125,7 @@ def test_json_file_has_the_documented_keys_and_consistent_values(tmp_path, capsy
 
 
 def test_json_cutoff_spread_matches_first_order_propagation(capsys):
-    # GUM 5.1.6 law of propagation (REFERENCES.md section 4, [M] from memory), first order:
+    # GUM 5.1.6 law of propagation (tests/REFERENCES.md section 4, [M] from memory), first order:
     # u(fc)/fc = sqrt(sum (S_i u_i)^2), S_i = d ln fc / d ln x_i taken by central
     # differences of the closed-form cutoff. u_i: the demo's grades are truncated normals
     # at coverage 2 (README), so u_i = tol/2 * truncnorm(-2, 2).std() (reference library).

@@ -2,19 +2,19 @@
 and against the Monte Carlo boards themselves.
 
 References used below:
-  [SK]     unity-gain Sallen-Key low-pass: f0 = 1/(2 pi sqrt(R1R2C1C2)) (REFERENCES.md
+  [SK]     unity-gain Sallen-Key low-pass: f0 = 1/(2 pi sqrt(R1R2C1C2)) (tests/REFERENCES.md
            section 6, after Karki TI SLOA024, equation numbers from memory [M], re-derived [D]).
   [RC]     first-order RC low-pass |H|^2 = 1/(1 + (f/fc)^2), fc = 1/(2 pi R C) (elementary
            circuit theory, from memory); its 3 dB point is fc sqrt(10^0.3 - 1).
   [GUM]    product of powers: (u_c/y)^2 = sum (p_i u(x_i)/x_i)^2 (JCGM 100:2008 5.1.6, from
-           memory [M], REFERENCES.md section 4); every p_i = -1 for fc, -1/2 for f0.
+           memory [M], tests/REFERENCES.md section 4); every p_i = -1 for fc, -1/2 for f0.
   [BOX]    a function monotone in each part takes its extremes over the tolerance box at
            vertices (elementary calculus); with every grade truncated at its tolerance limits
            no sampled board leaves the box, so none lies beyond the corner extremes of such a
            metric. The README "Grades" section documents the truncation (common practice: a
            maker's final test removes parts outside the tolerance).
   [BW]     Butterworth pole pairs of order n: Q_k = 1/(2 sin((2k-1) pi/(2n))) (from memory [M];
-           REFERENCES.md section 5 lists the same Qs for n = 4, 5, 6).
+           tests/REFERENCES.md section 5 lists the same Qs for n = 4, 5, 6).
 """
 from __future__ import annotations
 

@@ -1,7 +1,7 @@
 """Design files: demo, round trips, atomic saves with a backup, whole-file validation that
 reports every problem with its path, and refusal of malformed or hostile files.
 
-References are named beside each check. REFERENCES.md tags: [C] confirmed in a stored copy
+References are named beside each check. tests/REFERENCES.md tags: [C] confirmed in a stored copy
 of the published document, [M] from memory (not confirmed), [D] derived by computation.
 """
 from __future__ import annotations
@@ -51,7 +51,7 @@ def test_load_demo_matches_its_file():
     assert [p.ref for p in d.parts] == [p["ref"] for p in raw["parts"]]
     assert len(d.stages) == len(raw["stages"]) == 2
     assert len(d.mask) == len(raw["mask"])
-    # RKM codes, IEC 60062 (REFERENCES.md section 2, [C]): 2k67 = 2670 ohm, 4n7 = 4.7 nF
+    # RKM codes, IEC 60062 (tests/REFERENCES.md section 2, [C]): 2k67 = 2670 ohm, 4n7 = 4.7 nF
     assert d.parts[d.part_index("R1")].value == pytest.approx(2670.0, rel=1e-12)
     assert d.parts[d.part_index("C4")].value == pytest.approx(4.7e-9, rel=1e-12)
     assert d.analysis.seed == raw["analysis"]["seed"]
@@ -60,8 +60,8 @@ def test_load_demo_matches_its_file():
 def test_demo_is_the_butterworth_it_claims():
     # The demo says: 4th-order Butterworth, 2 kHz, two unity-gain Sallen-Key stages.
     # Butterworth 4 section Qs 0.5412 and 1.3066 (Carter & Mancini, Op Amps for Everyone,
-    # Table 16.7, REFERENCES.md section 5, [C]); unity-gain Sallen-Key
-    # w0 = 1/sqrt(R1R2C1C2), Q = sqrt(R1R2C1C2)/(C2(R1+R2)) (REFERENCES.md section 6, [D]).
+    # Table 16.7, tests/REFERENCES.md section 5, [C]); unity-gain Sallen-Key
+    # w0 = 1/sqrt(R1R2C1C2), Q = sqrt(R1R2C1C2)/(C2(R1+R2)) (tests/REFERENCES.md section 6, [D]).
     # 1 % allows for the E96/E12 rounding of the part values.
     d = load_demo()
     qs = []

@@ -6,12 +6,12 @@ References used below:
            cheby1 (analog=True) - reference library.
   [NODAL]  a direct complex nodal solution written in this file (modified nodal analysis,
            numpy.linalg.solve at each frequency; poles from scipy.linalg.eig of the same
-           matrices). The netlists are typed here from the layouts in REFERENCES.md section 6
+           matrices). The netlists are typed here from the layouts in tests/REFERENCES.md section 6
            and the README topology table, not read from filters.topologies, so the check is
            independent of both sympy and the library's netlists.
   [CM]     Carter & Mancini, "Op Amps for Everyone", 5th ed., section 16.9, Tables 16.6
            (Bessel) and 16.7 (Butterworth) [C: confirmed in a stored copy]; the Chebyshev
-           rows are [D + M]: derived by computation, partly from memory (REFERENCES.md
+           rows are [D + M]: derived by computation, partly from memory (tests/REFERENCES.md
            section 5). Printed to four decimals.
   [WT]     Williams & Taylor, "Electronic Filter Design Handbook": doubly terminated
            Butterworth ladder g_k = 2 sin((2k - 1) pi / (2n)), equal terminations, and the
@@ -19,7 +19,7 @@ References used below:
   [TEXT]   elementary circuit theory, from memory: equal terminations halve the voltage
            (-6 dB) of a lossless ladder at DC; unity-gain Sallen-Key with R1 = R2 = R has
            Q = sqrt(C1/C2)/2 and w0 = 1/(R sqrt(C1 C2)) (special case of [KARKI] in
-           REFERENCES.md section 6).
+           tests/REFERENCES.md section 6).
 """
 from __future__ import annotations
 
@@ -165,7 +165,7 @@ def mna_poles(elements, opamps, values):
 
 
 def sk_lowpass_net(gain="unity", gbw=None):
-    # REFERENCES.md section 6: R1 input to A, R2 A to B, C1 A to output, C2 B to ground
+    # tests/REFERENCES.md section 6: R1 input to A, R2 A to B, C1 A to output, C2 B to ground
     els = [("R", "R1", "in", "a"), ("R", "R2", "a", "b"), ("C", "C1", "a", "out"), ("C", "C2", "b", "0")]
     minus = "out"
     if gain == "resistors":
@@ -175,7 +175,7 @@ def sk_lowpass_net(gain="unity", gbw=None):
 
 
 def sk_highpass_net(gain="unity", gbw=None):
-    # REFERENCES.md section 6: C1 input to A, C2 A to B, R1 A to output, R2 B to ground
+    # tests/REFERENCES.md section 6: C1 input to A, C2 A to B, R1 A to output, R2 B to ground
     els = [("C", "C1", "in", "a"), ("C", "C2", "a", "b"), ("R", "R1", "a", "out"), ("R", "R2", "b", "0")]
     minus = "out"
     if gain == "resistors":
@@ -185,7 +185,7 @@ def sk_highpass_net(gain="unity", gbw=None):
 
 
 def mfb_net(kind, gbw=None):
-    # REFERENCES.md section 6 (low-pass, band-pass); high-pass: C1 input to A, C2 A to the
+    # tests/REFERENCES.md section 6 (low-pass, band-pass); high-pass: C1 input to A, C2 A to the
     # inverting input N, C3 A to the output, R1 A to ground, R2 output to N (README table)
     els = {
         "lowpass": [("R", "R1", "in", "a"), ("R", "R2", "a", "out"), ("R", "R3", "a", "n"),
@@ -553,7 +553,7 @@ def test_butterworth_lc_ladder_magnitude(order, first):
 # --- normalized prototypes -------------------------------------------------------------
 
 # source: [CM] Table 16.7 (Butterworth) and 16.6 (Bessel) [C]; Chebyshev rows [D + M]
-# (derived, partly from memory), all as printed in REFERENCES.md section 5.
+# (derived, partly from memory), all as printed in tests/REFERENCES.md section 5.
 # Each entry: first-order a (or None), then (a_i, b_i, Q_i) of the sections
 # 1 + a_i s + b_i s^2 with Omega = 1 at the -3 dB frequency.
 TABLE = {

@@ -1,6 +1,6 @@
 """Grades: how a tolerance becomes a distribution, the built-in catalog, grade validation.
 
-References are named beside each check. REFERENCES.md tags: [C] confirmed in a stored copy
+References are named beside each check. tests/REFERENCES.md tags: [C] confirmed in a stored copy
 of the published document, [M] from memory (not confirmed), [D] derived by computation.
 Statistical checks use fixed seeds and a stated bound of 5 standard errors.
 """
@@ -32,7 +32,7 @@ def _deviations(grade: Grade, n: int = N_BIG, seed: int = 11) -> np.ndarray:
 
 def test_coverage_factor_for_95_percent_matches_normal_quantile():
     # JCGM 100:2008 (GUM) Table G.1, via NIST TN 1297 section 6: 95 % -> k = 1.960
-    # (REFERENCES.md section 4, [C]). Reference library: scipy.stats.norm.ppf.
+    # (tests/REFERENCES.md section 4, [C]). Reference library: scipy.stats.norm.ppf.
     assert abs(stats.norm.ppf(0.975) - 1.96) < 1e-3
     # Same table [C]: 95.45 % -> k = 2, 99.73 % -> k = 3.
     assert abs(2 * stats.norm.cdf(2.0) - 1 - 0.9545) < 1e-4
@@ -41,7 +41,7 @@ def test_coverage_factor_for_95_percent_matches_normal_quantile():
 
 @pytest.mark.parametrize("coverage, inside", [(1.96, 0.95), (2.0, 0.9545), (1.0, 0.6827)])
 def test_untruncated_normal_grade_puts_the_table_fraction_inside_the_tolerance(coverage, inside):
-    # GUM Table G.1 via NIST TN 1297 (REFERENCES.md section 4, [C]): coverage factor k
+    # GUM Table G.1 via NIST TN 1297 (tests/REFERENCES.md section 4, [C]): coverage factor k
     # encloses the tabulated fraction of a normal distribution.
     g = Grade("T", "R", 5.0, coverage=coverage, truncate=False)
     dev = _deviations(g)
@@ -51,7 +51,7 @@ def test_untruncated_normal_grade_puts_the_table_fraction_inside_the_tolerance(c
 
 
 def test_five_percent_part_at_k2_has_about_2_5_percent_std():
-    # Fact of the trade (common practice, REFERENCES.md section 4): a tolerance read as two
+    # Fact of the trade (common practice, tests/REFERENCES.md section 4): a tolerance read as two
     # standard deviations, so a +-5 % part has a standard deviation of about 2.5 %.
     g = Grade("R5", "R", 5.0, truncate=False)
     dev = _deviations(g)
@@ -92,7 +92,7 @@ def test_truncated_normal_matches_truncnorm_distribution():
 
 
 def test_uniform_grade_std_is_half_width_over_sqrt3():
-    # GUM 4.3.7 (REFERENCES.md section 4, [M] from memory): rectangular distribution of
+    # GUM 4.3.7 (tests/REFERENCES.md section 4, [M] from memory): rectangular distribution of
     # half-width a has u = a/sqrt(3). Cross-checked with scipy.stats.uniform.
     a = 0.05
     ref = stats.uniform(loc=-a, scale=2 * a)
@@ -149,7 +149,7 @@ def _tolerances(cat: Catalog, kind: str, tech: str) -> set[float]:
 
 
 def test_builtin_catalog_has_the_common_grades():
-    # Typical purchasable grades, common practice (REFERENCES.md section 9).
+    # Typical purchasable grades, common practice (tests/REFERENCES.md section 9).
     cat = builtin_catalog()
     resistors = {g.tolerance_pct for g in cat.grades if g.kind == "R"}
     assert {0.1, 0.5, 1.0, 2.0, 5.0} <= resistors
@@ -164,7 +164,7 @@ def test_builtin_catalog_has_the_common_grades():
 
 def test_builtin_catalog_temperature_coefficients_follow_the_codes():
     cat = builtin_catalog()
-    # EIA-198-1-F (REFERENCES.md section 3, [C]): C0G (NP0) = 0 +- 30 ppm/K.
+    # EIA-198-1-F (tests/REFERENCES.md section 3, [C]): C0G (NP0) = 0 +- 30 ppm/K.
     for g in cat.grades:
         if "C0G" in g.technology:
             assert (g.tempco_ppm, g.tempco_spread_ppm) == (0.0, 30.0), g.name
@@ -175,7 +175,7 @@ def test_builtin_catalog_temperature_coefficients_follow_the_codes():
     for g in x7r:
         worst = max(abs(g.tempco_ppm) + g.tempco_spread_ppm, 0) * 1e-6 * max(125 - 25, 25 + 55)
         assert worst <= 0.15 + 1e-12, g.name
-    # Vendor pages (REFERENCES.md section 9, [C]): thick film +-100/+-200 ppm/K, thin film
+    # Vendor pages (tests/REFERENCES.md section 9, [C]): thick film +-100/+-200 ppm/K, thin film
     # +-25/+-50 ppm/K.
     for g in cat.grades:
         if "thick-film" in g.technology:

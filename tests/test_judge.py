@@ -7,7 +7,7 @@ References used below:
            the closed forms below, not taken from the library under test.
   [SK]     Sallen-Key low-pass with gain K (R1 input to A, R2 A to B, C1 A to output, C2 B
            to ground): H = K / (s^2 R1R2C1C2 + s[C2(R1+R2) + R1C1(1-K)] + 1); unity gain is
-           K = 1; gain network K = 1 + RF/RG. REFERENCES.md section 6 (layout after Karki,
+           K = 1; gain network K = 1 + RF/RG. tests/REFERENCES.md section 6 (layout after Karki,
            TI SLOA024, equation numbers from memory [M]; re-derived by nodal analysis [D]).
   [RC]     first-order RC sections, elementary circuit theory (from memory): low-pass
            H = 1/(1 + sRC), high-pass H = sRC/(1 + sRC).

@@ -1,7 +1,7 @@
 """Checks of filters.metrics (cutoff, band edges, peaking, stage f0/Q, pole pairs,
 attenuation), through filters.evaluate, against closed forms and reference libraries.
 
-References used below (tags as in /work/shared/REFERENCES.md):
+References used below (tags as in tests/REFERENCES.md):
   [KARKI]  J. Karki, TI SLOA024, Sallen-Key closed forms (equation numbers from memory [M];
            expressions re-derived by nodal analysis [D], REFERENCES.md section 6).
   [SLOA049] TI SLOA049, multiple-feedback low-pass and band-pass closed forms (as above).

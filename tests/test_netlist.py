@@ -1,7 +1,7 @@
 """Checks of filters.netlist and filters.topologies: the transfer functions the engine
 derives by sympy nodal analysis, held against published closed forms.
 
-Sources, abbreviated below (see /work/shared/REFERENCES.md for tags):
+Sources, abbreviated below (see tests/REFERENCES.md for tags):
   [KARKI]  J. Karki, "Analysis of the Sallen-Key Architecture", TI SLOA024 (equation
            numbers from memory [M]); the expressions as written in REFERENCES.md section 6
            were re-derived by nodal analysis [D].

@@ -8,14 +8,14 @@ References used below:
   [BINOM]  the one-sided lower confidence bound at confidence C as the lower end of the
            two-sided Wilson (1927) interval at level 2C - 1, from
            scipy.stats.binomtest(k, n).proportion_ci(confidence_level=2C-1, method="wilson")
-           (REFERENCES.md section 8 [C]).
-  [IEC62]  IEC 60062 tolerance letters (REFERENCES.md section 2 [C]): B 0.1 %, C 0.25 %,
+           (tests/REFERENCES.md section 8 [C]).
+  [IEC62]  IEC 60062 tolerance letters (tests/REFERENCES.md section 2 [C]): B 0.1 %, C 0.25 %,
            D 0.5 %, F 1 %, G 2 %, J 5 %, K 10 %, M 20 %.
-  [IEC63]  IEC 60063 Table 2 (REFERENCES.md section 1 [C]): E96 holds 267 and 274 (no
+  [IEC63]  IEC 60063 Table 2 (tests/REFERENCES.md section 1 [C]): E96 holds 267 and 274 (no
            value between); E48 holds 100; E24 holds 2.7 and 2.2; usual pairing 1 % E96,
            2 % E48, 5 % E24, 10 % E12 [C].
   [CAT]    filters/data/catalog.json read here with json (the shipped grades).
-  [SK]     unity-gain Sallen-Key low-pass, f0 = 1/(2 pi sqrt(R1 R2 C1 C2)) (REFERENCES.md
+  [SK]     unity-gain Sallen-Key low-pass, f0 = 1/(2 pi sqrt(R1 R2 C1 C2)) (tests/REFERENCES.md
            section 6): with 10k, 10k, 22n, 10n f0 = 1073 Hz, the -3 dB corner near 1.12 kHz;
            the mask below (floor -3 dB to 1090 Hz, ceiling -5.2 dB from 1400 Hz) leaves a
            few tenths of a dB of margin, so the grades decide the yield.

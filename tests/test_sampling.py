@@ -1,7 +1,7 @@
 """Sampling: standard scores in blocks, common random numbers, lot correlation,
 temperature, value limits, and the propagated spread of a first-order RC corner.
 
-References are named beside each check. REFERENCES.md tags: [C] confirmed in a stored copy
+References are named beside each check. tests/REFERENCES.md tags: [C] confirmed in a stored copy
 of the published document, [M] from memory (not confirmed), [D] derived by computation.
 Statistical checks use fixed seeds and a stated bound of 5 standard errors.
 """
@@ -291,7 +291,7 @@ def _log1p_moments(sigma: float) -> tuple[float, float]:
 def _check_log_cutoff(ln_fc: np.ndarray) -> None:
     n = ln_fc.size
     ln_f0 = math.log(1 / (2 * math.pi * R_NOM * C_NOM))
-    # GUM 5.1.6, law of propagation for a product of powers (REFERENCES.md section 4, [M]
+    # GUM 5.1.6, law of propagation for a product of powers (tests/REFERENCES.md section 4, [M]
     # from memory), first order: fc = 1/(2 pi R C) -> u(fc)/fc = sqrt(sigma_R^2 + sigma_C^2).
     first_order = math.hypot(SIG_R, SIG_C)
     # exact moments of ln fc = ln f0 - ln(1 + dR) - ln(1 + dC) (scipy numerical expectation)

@@ -1,6 +1,6 @@
 """Checks of filters.stats against outside sources, each named beside its check.
 
-Sources, abbreviated below (REFERENCES.md section 8):
+Sources, abbreviated below (tests/REFERENCES.md section 8):
   [W27]    Wilson (1927), JASA 22:209-212 - the score interval: the p with
            (k/n - p)^2 = z^2 p (1 - p) / n, solved here independently as a quadratic.
   [CP34]   Clopper & Pearson (1934), Biometrika 26:404-413 - exact interval; its ends are

@@ -1,9 +1,9 @@
 """Filter synthesis: prototype sections, synthesized designs, op-amp gain-bandwidth checks,
 and ``tolspread design``.
 
-References named beside each check. REFERENCES.md tags: [C] confirmed in a stored copy
+References named beside each check. tests/REFERENCES.md tags: [C] confirmed in a stored copy
 of the published document, [M] from memory (not confirmed), [D] derived by computation.
-The prototype table is REFERENCES.md section 5: Carter & Mancini, Op Amps for Everyone,
+The prototype table is tests/REFERENCES.md section 5: Carter & Mancini, Op Amps for Everyone,
 5th ed., section 16.9, Table 16.6 (Bessel) and 16.7 (Butterworth) [C]; the Chebyshev rows
 are [D + M]. scipy.signal is the reference library for poles and responses.
 """
@@ -30,7 +30,7 @@ from filters.values import E_SERIES
 TWO_PI = 2 * math.pi
 HALF_POWER_DB = 10 * math.log10(2)
 
-# REFERENCES.md section 5: sections 1 + a s + b s^2 (first order: ("a", a)), table order.
+# tests/REFERENCES.md section 5: sections 1 + a s + b s^2 (first order: ("a", a)), table order.
 # Butterworth and Bessel: Carter & Mancini Tables 16.7 / 16.6 [C]; Chebyshev [D + M].
 TABLE = {
     ("butterworth", 2, None): [(1.4142, 1.0)],
@@ -104,7 +104,7 @@ def values_by_role(design, k: int) -> dict[str, float]:
 
 
 def sk_lowpass_closed_form(v: dict[str, float]) -> tuple[float, float]:
-    """f0 (Hz), Q of a unity-gain Sallen-Key low-pass: REFERENCES.md section 6 (Karki,
+    """f0 (Hz), Q of a unity-gain Sallen-Key low-pass: tests/REFERENCES.md section 6 (Karki,
     SLOA024 [M for equation numbers], re-derived by nodal analysis [D])."""
     prod = v["R1"] * v["R2"] * v["C1"] * v["C2"]
     return 1 / (TWO_PI * math.sqrt(prod)), math.sqrt(prod) / (v["C2"] * (v["R1"] + v["R2"]))
@@ -125,7 +125,7 @@ def scipy_gain_db(z, p, k, f_hz: np.ndarray) -> np.ndarray:
 
 @pytest.mark.parametrize("key", list(TABLE), ids=lambda k: f"{k[0]}-{k[1]}-{k[2]}")
 def test_sections_match_published_table(key):
-    # REFERENCES.md section 5 table (source and tag per family: see TABLE above); the
+    # tests/REFERENCES.md section 5 table (source and tag per family: see TABLE above); the
     # table has 4 decimals, so a and b agree within 1e-4 and Q within rtol 2e-3.
     response, order, ripple = key
     got = prototype_sections(response, order, ripple)
@@ -166,7 +166,7 @@ def test_sections_match_scipy_poles(response, order, ripple):
 @pytest.mark.parametrize("response,order,ripple", [("butterworth", 3, None), ("bessel", 6, None),
                                                    ("chebyshev", 4, 0.5), ("chebyshev", 5, 2.0)])
 def test_prototype_is_half_power_at_omega_one(response, order, ripple):
-    # The stated normalization: |H(j1)|^2 = |H(0)|^2 / 2 (REFERENCES.md section 5 convention),
+    # The stated normalization: |H(j1)|^2 = |H(0)|^2 / 2 (tests/REFERENCES.md section 5 convention),
     # computed from the sections alone.
     secs = prototype_sections(response, order, ripple)
     h0 = h1 = 1.0
@@ -266,7 +266,7 @@ def test_unsnapped_design_reproduces_scipy_response(case):
 
 
 def test_passband_gain_is_unity_for_lowpass_and_highpass():
-    # Unity-gain Sallen-Key and gain -1 multiple-feedback sections (REFERENCES.md section 6:
+    # Unity-gain Sallen-Key and gain -1 multiple-feedback sections (tests/REFERENCES.md section 6:
     # Sallen-Key DC gain K = 1; multiple-feedback DC gain -R2/R1 with R1 = R2)
     for kind, topo in (("lowpass", "sallen_key_lowpass"), ("lowpass", "mfb_lowpass"),
                        ("highpass", "sallen_key_highpass"), ("highpass", "mfb_highpass")):
@@ -276,7 +276,7 @@ def test_passband_gain_is_unity_for_lowpass_and_highpass():
 
 
 def test_mfb_bandpass_sections_follow_the_closed_forms():
-    # REFERENCES.md section 6, multiple-feedback band-pass with C1 = C2 = C:
+    # tests/REFERENCES.md section 6, multiple-feedback band-pass with C1 = C2 = C:
     # f_m = (1/2piC) sqrt((R1+R2)/(R1 R3 R2)), Q = pi f_m R3 C, A_m = -R3/(2 R1)
     res = synthesize("butterworth", 3, 2000.0, kind="bandpass", bandwidth_hz=800.0)
     rows = opamp_shift_table(res.design)
@@ -299,7 +299,7 @@ def test_mfb_bandpass_sections_follow_the_closed_forms():
 
 
 def test_snapped_bandpass_report_matches_independent_evaluation():
-    # Multiple-feedback band-pass, C1 = C2 = C (REFERENCES.md section 6):
+    # Multiple-feedback band-pass, C1 = C2 = C (tests/REFERENCES.md section 6):
     # H = -(s/(R1 C)) / (s^2 + s 2/(R3 C) + (1/R1 + 1/R2)/(R3 C^2)), whose midband gain is
     # -R3/(2 R1) and Q = pi f_m R3 C as listed there. Cascade evaluated here; band edges at
     # cutoff_db below the peak (even-order Chebyshev: 3.01 + ripple dB, as documented).
@@ -330,7 +330,7 @@ def test_snapped_bandpass_report_matches_independent_evaluation():
 
 
 def test_snapped_report_matches_independent_evaluation():
-    # The report's snapped f0, Q and cutoff against the closed forms of REFERENCES.md
+    # The report's snapped f0, Q and cutoff against the closed forms of tests/REFERENCES.md
     # section 6 evaluated here on the design's part values (unity-gain Sallen-Key), and a
     # cutoff found by root finding on the product of those closed-form stages.
     res = synthesize("butterworth", 4, 2000.0)
@@ -364,7 +364,7 @@ def test_snapped_report_matches_independent_evaluation():
 
 
 def test_snapping_uses_the_series_and_keeps_caps_from_cap_series():
-    # IEC 60063 values (REFERENCES.md section 1 [C]) via filters.values.E_SERIES
+    # IEC 60063 values (tests/REFERENCES.md section 1 [C]) via filters.values.E_SERIES
     res = synthesize("chebyshev", 6, 7000.0, ripple_db=2.0, series="E96", cap_series="E6",
                      topology="mfb_lowpass")
     for p in res.design.parts:
@@ -500,7 +500,7 @@ def test_gbw_first_order_shift_of_unity_gain_sallen_key():
 
 
 def test_gbw_warnings_flag_a_slow_opamp():
-    # Rule (REFERENCES.md section 7 [C, secondary, after Op Amps for Everyone ch. 16]):
+    # Rule (tests/REFERENCES.md section 7 [C, secondary, after Op Amps for Everyone ch. 16]):
     # GBW >= 100 G Q f0. A unity-gain (G = 1) Q = 5 stage at 2 kHz needs 1 MHz: a 100 kHz
     # op-amp is far too slow, a 100 MHz one is fine.
     slow = gbw_warnings(_one_stage("sallen_key_lowpass", 2000.0, 5.0, 100e3))
@@ -518,7 +518,7 @@ def test_gbw_warnings_flag_a_slow_opamp():
 
 def test_synthesize_with_gbw_reports_the_slow_stage():
     # Chebyshev 1 dB order 5 at 10 kHz: its Q 5.56 stage needs 100 x 5.56 x 9.6 kHz, about
-    # 5.3 MHz (rule of REFERENCES.md section 7), so 1 MHz is flagged, 100 MHz is not.
+    # 5.3 MHz (rule of tests/REFERENCES.md section 7), so 1 MHz is flagged, 100 MHz is not.
     slow = synthesize("chebyshev", 5, 10e3, ripple_db=1.0, gbw_hz=1e6)
     fast = synthesize("chebyshev", 5, 10e3, ripple_db=1.0, gbw_hz=100e6)
     assert [w.too_low for w in slow.gbw] == [False, True]

@@ -7,7 +7,7 @@ refused with a warning in words and exit status 4 (and written only with --accep
 where this test confirms that a figure really is beyond its limit).
 
 The ideal filter is scipy.signal's own (butter, cheby1, bessel with btype and analog=True,
-the -3 dB normalization of REFERENCES.md section 5; ``_scipy_target`` of test_synthesis);
+the -3 dB normalization of tests/REFERENCES.md section 5; ``_scipy_target`` of test_synthesis);
 the built design's response is the project's engine on the written file's part values,
 and the errors are measured here (crossings interpolated on a dense grid), not read from
 the program's report. Issue 10, defects 13 and 14.
@@ -200,7 +200,7 @@ def test_design_is_within_the_limits_or_warns_and_exits_4(case, tmp_path):
 def test_chebyshev_bandpass_order_5_is_refused_not_built_broken(tmp_path):
     # Chebyshev 1 dB, order 5, centre 1 kHz, 200 Hz wide needs sections of Q 58 (scipy's
     # poles, measured here); a multiple-feedback band-pass section spreads its resistors
-    # 4 Q^2 : 1 (REFERENCES.md section 6: R3 = 2Q/(w0 C), R2 ~ 1/(2 Q w0 C)), 13,500 : 1, more
+    # 4 Q^2 : 1 (tests/REFERENCES.md section 6: R3 = 2Q/(w0 C), R2 ~ 1/(2 Q w0 C)), 13,500 : 1, more
     # than 100 ohm..1 Mohm hold. Before: written with a 19.8 Hz bandwidth, exit 0.
     case = ("chebyshev", 5, 1000.0, "bandpass", 200.0, 1.0, "E24")
     assert max(q for _, q in ideal_pairs(case) if q) == pytest.approx(58.05, abs=0.05)
@@ -252,7 +252,7 @@ def test_chebyshev_highpass_keeps_its_ripple_and_gets_a_passband_ceiling(tmp_pat
 
 def test_butterworth_lowpass_order_4_sections_keep_f0(tmp_path):
     # Before: section 1 f0 +4.85 % (both resistors rounded down). Sallen-Key closed form
-    # (REFERENCES.md section 6) on the written values; targets from scipy's butter poles.
+    # (tests/REFERENCES.md section 6) on the written values; targets from scipy's butter poles.
     case = ("butterworth", 4, 1000.0, "lowpass", None, None, "E24")
     out = tmp_path / "lp.json"
     proc = cli(*design_args(case, out))
@@ -381,7 +381,7 @@ def _mfb_bandpass_closed_form(v: dict[str, float]) -> tuple[list[float], list[fl
     as laid out in filters/topologies.py (R1 in-A, R2 A-ground, C1 A-N, C2 A-out, R3 out-N),
     by nodal analysis written here with an ideal op-amp (N at virtual ground):
     H = -(s / (R1 C2)) / (s^2 + s (C1 + C2) / (C1 C2 R3) + (1/R1 + 1/R2) / (C1 C2 R3));
-    with C1 = C2 this is the form of REFERENCES.md section 6 (bandwidth 2/(R3 C))."""
+    with C1 = C2 this is the form of tests/REFERENCES.md section 6 (bandwidth 2/(R3 C))."""
     c1c2r3 = v["C1"] * v["C2"] * v["R3"]
     return ([-1 / (v["R1"] * v["C2"]), 0.0],
             [1.0, (v["C1"] + v["C2"]) / c1c2r3, (1 / v["R1"] + 1 / v["R2"]) / c1c2r3])

@@ -6,15 +6,15 @@ References used below:
            circuit theory, from memory): |H(f)|^2 >= 1/2 exactly when fc >= f, so a floor of
            -10 log10(2) dB at f means fc >= f and a ceiling of the same level means fc <= f.
   [GUM]    product of powers Y = c prod X_i^p_i: (u_c/y)^2 = sum (p_i u(x_i)/x_i)^2
-           (JCGM 100:2008 5.1.6, from memory [M], REFERENCES.md section 4); for fc = 1/(2 pi R C)
+           (JCGM 100:2008 5.1.6, from memory [M], tests/REFERENCES.md section 4); for fc = 1/(2 pi R C)
            ln fc = -ln R - ln C - ln 2 pi, so to first order ln fc ~ Normal(ln fc0,
            sqrt(s_R^2 + s_C^2)).
   [NORM]   scipy.stats.norm and scipy.integrate.quad: the exact pass probability of the
            sampled model (values = nominal * (1 + delta), delta normal), integrated here.
   [GRADE]  README "Grades": a tolerance is read as two standard deviations (coverage factor
-           2, common practice; GUM Table G.1 [C] via REFERENCES.md section 4).
+           2, common practice; GUM Table G.1 [C] via tests/REFERENCES.md section 4).
   [BINOM]  Wilson (1927) and Clopper & Pearson (1934) intervals as implemented by
-           scipy.stats.binomtest(k, n).proportion_ci (REFERENCES.md section 8 [C]).
+           scipy.stats.binomtest(k, n).proportion_ci (tests/REFERENCES.md section 8 [C]).
   [CHI2]   the mean of N independent draws has variance sigma^2/N; the mean square of m
            independent normal errors is sigma^2 chi2_m / m (elementary statistics, from memory).
   [QMC]    scrambled (Owen) Sobol points integrate smooth functions with a smaller error than
