@@ -385,7 +385,10 @@ class MainWindow(QMainWindow):
                                  f"{samples} boards, seed {seed}")
         if reason is not None:
             self.parts.show_design(self.session.design)
-            self.parts.mark_seed_invalid(reason)
+            if samples != a.samples and reason.startswith("analysis.samples: "):  # the memory rule
+                self.parts.mark_samples_invalid(reason.removeprefix("analysis.samples: "))
+            else:
+                self.parts.mark_seed_invalid(reason)
 
     def _set_draw(self, kind: str, on: bool) -> None:
         other = self.act_ceiling if kind == "floor" else self.act_floor

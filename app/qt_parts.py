@@ -104,6 +104,11 @@ class PartsPanel(QWidget):
         self.seed_problem.setStyleSheet("color: #D55E00;")
         self.seed_problem.setWordWrap(True)
         self.seed_problem.hide()
+        self.samples_problem = QLabel()  # a boards count the memory rule refuses
+        self.samples_problem.setObjectName("samples_problem")
+        self.samples_problem.setStyleSheet("color: #D55E00;")
+        self.samples_problem.setWordWrap(True)
+        self.samples_problem.hide()
         self.method = _Combo()
         self.method.setObjectName("method")
         self.method.addItem("random", "random")
@@ -119,6 +124,7 @@ class PartsPanel(QWidget):
         samp.addWidget(self.method, 1, 1)
         samp.addWidget(self.redraw, 1, 2, 1, 2)
         samp.addWidget(self.seed_problem, 2, 0, 1, 4)
+        samp.addWidget(self.samples_problem, 3, 0, 1, 4)
         outer.addLayout(samp)
         self.samples.editingFinished.connect(self._emit_sampling)
         self.seed.editingFinished.connect(self._on_seed_edited)
@@ -170,6 +176,9 @@ class PartsPanel(QWidget):
                 row.slider.blockSignals(False)
                 self._set_readout(row, g.tolerance_pct, p.tolerance_pct is not None)
         a = design.analysis
+        if a.samples != self.samples.value():
+            self.samples.setStyleSheet("")
+            self.samples_problem.hide()
         self.samples.blockSignals(True)
         self.samples.setValue(a.samples)
         self.samples.blockSignals(False)
@@ -270,7 +279,16 @@ class PartsPanel(QWidget):
         self.seed_problem.show()
         self.problem_shown.emit(f"seed: {reason}")
 
+    def mark_samples_invalid(self, reason: str) -> None:
+        """Mark the boards box and explain (``reason``: one line); the design keeps its boards."""
+        self.samples.setStyleSheet(INVALID_STYLE)
+        self.samples_problem.setText(f"boards: {reason}; still using {self.samples.value():,}")
+        self.samples_problem.show()
+        self.problem_shown.emit(f"boards: {reason}")
+
     def _emit_sampling(self) -> None:
+        self.samples.setStyleSheet("")
+        self.samples_problem.hide()
         try:
             seed = check_seed(self.seed.text(), "seed")
         except InputError:

@@ -28,6 +28,7 @@ from filters.errors import Cancelled, InputError, ValidationError
 from filters.evaluate import Prepared, prepare
 from filters.grades import Grade
 from filters.liveview import SecondQuantity, ViewData, ViewRequest, compute_view
+from filters.memory import check_boards
 
 
 PREVIEW_BOARDS = 1000  # boards evaluated while a slider is being dragged
@@ -206,8 +207,10 @@ class Session(QObject):
         :attr:`edit_refused` carries ``text`` and the reason)."""
         try:
             checked = check_design(design)
-        except ValidationError as exc:
-            reason = exc.lines()[0]
+            if checked.analysis.samples != self._design.analysis.samples:  # the memory rule (filters/memory.py)
+                check_boards(prepare(checked), checked.analysis.samples, "analysis.samples")
+        except InputError as exc:
+            reason = exc.lines()[0] if isinstance(exc, ValidationError) else str(exc)
             self.edit_refused.emit(text, reason)
             return reason
         self.apply(checked, text)

@@ -18,6 +18,7 @@ from .budget import Budget, metric_columns, spread_budget
 from .design import Design
 from .evaluate import Ensemble, Prepared, evaluate, prepare
 from .grades import Grade
+from .memory import check_boards
 from .metric_names import margin_name
 from .stats import SpanFailures, YieldEstimate, failure_breakdown, yield_estimate
 
@@ -72,12 +73,17 @@ class ViewData:
 def compute_view(req: ViewRequest, prepared: Prepared | None = None,
                  progress: Callable[[int, int], None] | None = None,
                  should_stop: Callable[[], bool] | None = None) -> ViewData:
-    """Evaluate ``req`` and gather what the window draws (may raise Cancelled)."""
+    """Evaluate ``req`` and gather what the window draws (may raise Cancelled).
+
+    Raises :class:`~filters.errors.InputError` (path ``analysis.samples``) when the boards
+    would keep more numbers than the memory rule allows (:func:`filters.memory.check_boards`).
+    """
     t0 = time.perf_counter()
     d = req.design
     prep = prepared if prepared is not None and prepared.design is d else prepare(d)
     delay = req.second == "delay"
     n = d.analysis.samples if req.boards is None else min(req.boards, d.analysis.samples)
+    check_boards(prep, n, "analysis.samples")  # the memory rule (filters/memory.py), before any work
     if n <= CURVE_LIMIT:
         ens = evaluate(d, samples=n, grades=req.grades, curves=True, phase=not delay, delay=delay,
                        prepared=prep, progress=progress, should_stop=should_stop)

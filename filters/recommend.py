@@ -44,6 +44,7 @@ from .designfile import write_text_atomic
 from .errors import Cancelled, InputError
 from .evaluate import Ensemble, Prepared, evaluate, prepare
 from .grades import Catalog, Grade
+from .memory import check_boards
 from .metric_names import is_margin, margin_names, metric_label
 from .sampling import REFERENCE_CELSIUS
 from .stats import INTERVAL_METHODS, lower_bound, samples_to_show
@@ -612,6 +613,11 @@ def _recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
                      "boards", need=need)
 
     prep = _prep if _prep is not None else prepare(design)
+    try:  # the memory rule (filters/memory.py) for the check on a fresh seed, before any search
+        check_boards(prep, n * factor, "samples")
+    except InputError as exc:
+        raise InputError(f"{exc.reason} ({n:,} boards x verify_factor {factor} for the check on a fresh "
+                         "seed)", "samples") from None
     ev = _Evaluator(design, prep, cands, n, seed_, conf, method, cache, cap,
                     min(combos, cap) if exhaustive else cap, progress, should_stop)
     capped = False
