@@ -7,6 +7,8 @@ between the bracketing grid points, so a cutoff does not depend on the grid dens
 from __future__ import annotations
 
 import math
+import threading
+import weakref
 from typing import Callable
 
 import numpy as np
@@ -176,11 +178,33 @@ def _stage_poles(sc: StageCoefficients) -> np.ndarray:
         disc = np.sqrt((b * b - 4 * a * c).astype(complex))
         roots = np.stack([(-b + disc) / (2 * a), (-b - disc) / (2 * a)], axis=1)
     else:
-        comp = np.zeros((s_count, n, n))
-        comp[:, 1:, :-1] = np.eye(n - 1)
-        comp[:, :, -1] = -den[:, :-1] / den[:, -1:]
-        roots = np.linalg.eigvals(comp)
+        roots = _companion_roots(den)
     return roots * sc.w_ref
+
+
+#: Per thread, the last few companion-matrix roots, by denominator array (weak references).
+_KEPT = threading.local()
+
+
+def _companion_roots(den: np.ndarray) -> np.ndarray:
+    """Roots of the polynomials ``den`` (S, n + 1), ascending powers, n > 2: (S, n) complex
+    eigenvalues of their companion matrices. The cutoff and the stage f0/Q of one batch ask
+    for the same arrays (about 10 us a board for degree 5), so the last few results of the
+    thread are kept, keyed by the array itself (never by an equal copy)."""
+    kept = getattr(_KEPT, "items", None)
+    if kept is None:
+        kept = _KEPT.items = []
+    for ref, roots in kept:
+        if ref() is den:
+            return roots
+    s_count, k = den.shape
+    n = k - 1
+    comp = np.zeros((s_count, n, n))
+    comp[:, 1:, :-1] = np.eye(n - 1)
+    comp[:, :, -1] = -den[:, :-1] / den[:, -1:]
+    roots = np.linalg.eigvals(comp)
+    kept[:] = [(r, v) for r, v in kept[-7:] if r() is not None] + [(weakref.ref(den), roots)]
+    return roots
 
 
 def _all_poles(coeffs: list[StageCoefficients]) -> np.ndarray:
@@ -310,10 +334,7 @@ def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray
     rows = np.arange(s_count)
     falling = direction == "falling"
     if falling:
-        # 1 + the last grid index at or above the level (0: none); a reversed argmax is slow
-        count = np.max(above * np.arange(1, n + 1, dtype=np.int16 if n < 32767 else np.int32), axis=1)
-        grid_ok = count > 0
-        edge = np.maximum(count - 1, 0)
+        edge, grid_ok = _last_true(above)  # the last grid index at or above the level
         ref = np.where(grid_ok, np.minimum(edge + 1, n - 1), 0)  # g+ (the first grid point if none)
         open_end = grid_ok & (edge == n - 1)
     else:
@@ -362,6 +383,23 @@ def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray
     return out
 
 
+#: For each byte of bits packed big-endian (the first column in the top bit): the position
+#: (0-7) of its last set bit, 0 for an empty byte.
+_LAST_BIT = np.array([0] + [7 - ((b & -b).bit_length() - 1) for b in range(1, 256)], dtype=np.intp)
+
+
+def _last_true(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Index of the last True in each row of ``mask`` (S, F) and whether there is one, (S,)
+    each (index 0 where there is none). Rows are packed into bits first: an argmax over a
+    reversed boolean array is several times slower than packing (numpy 2.x, measured)."""
+    packed = np.packbits(mask, axis=1)  # (S, ceil(F / 8))
+    nonzero = packed != 0
+    rows = np.arange(mask.shape[0])
+    byte = packed.shape[1] - 1 - np.argmax(nonzero[:, ::-1], axis=1)
+    found = nonzero[rows, byte]
+    return np.where(found, 8 * byte + _LAST_BIT[packed[rows, byte]], 0), found
+
+
 def _pick_db(f_grid: np.ndarray, grid_db: np.ndarray, f_end: np.ndarray, pf: np.ndarray, pg: np.ndarray,
              pole_above: np.ndarray) -> np.ndarray:
     """The gain (dB) at a bracket end ``f_end`` (S,) that is either the grid point
@@ -406,31 +444,33 @@ def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Resp
     elif circuit.kind == "highpass":
         out["cutoff_hz"] = crossing(resp, coeffs, level2, "rising")
     else:
-        lower = _half_crossing(resp, coeffs, level2, peak_f, peak2, below=True)
-        upper = _half_crossing(resp, coeffs, level2, peak_f, peak2, below=False)
+        under = resp.gain_db < _db(level2)[:, None]  # one comparison for both edges
+        lower = _half_crossing(resp, coeffs, level2, peak_f, peak2, below=True, under=under)
+        upper = _half_crossing(resp, coeffs, level2, peak_f, peak2, below=False, under=under)
         out.update(centre_hz=np.sqrt(lower * upper), lower_hz=lower, upper_hz=upper, bandwidth_hz=upper - lower)
     return out
 
 
 def _half_crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray,
-                   peak_f: np.ndarray, peak2: np.ndarray, below: bool) -> np.ndarray:
+                   peak_f: np.ndarray, peak2: np.ndarray, below: bool,
+                   under: np.ndarray | None = None) -> np.ndarray:
     """Band edge on one side of the (refined) peak (``peak_f`` Hz, |H|^2 ``peak2``, (S,)):
     the crossing nearest the peak.
 
     The bracket runs from the last grid point under the level to the next grid point or
     the peak itself, whichever is nearer, so a coarse grid whose points all miss the
-    peak's top still brackets the edge correctly.
+    peak's top still brackets the edge correctly. ``under`` (S, F): the grid points under
+    the level, when already compared.
     """
     gdb = resp.gain_db
     f = resp.freqs_hz
     n = gdb.shape[1]
     rows = np.arange(gdb.shape[0])
     peak_db = _db(peak2)
-    under = gdb < _db(level2)[:, None]
+    if under is None:
+        under = gdb < _db(level2)[:, None]
     if below:
-        cand = under & (f[None, :] < peak_f[:, None])
-        j = n - 1 - np.argmax(cand[:, ::-1], axis=1)  # last grid point under the level left of the peak
-        ok = cand[rows, j]
+        j, ok = _last_true(under & (f[None, :] < peak_f[:, None]))  # last point under the level left of the peak
         lo = f[j]
         k = np.minimum(j + 1, n - 1)
         hi = np.minimum(f[k], peak_f)
@@ -472,10 +512,7 @@ def pole_pairs(den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
         return (w0 / TWO_PI)[:, None], q[:, None]
     if n < 2:
         return np.empty((s_count, 0)), np.empty((s_count, 0))
-    comp = np.zeros((s_count, n, n))
-    comp[:, 1:, :-1] = np.eye(n - 1)
-    comp[:, :, -1] = -den[:, :-1] / den[:, -1:]
-    roots = np.linalg.eigvals(comp) * w_ref  # rad/s
+    roots = _companion_roots(den) * w_ref  # rad/s
     upper = np.where(roots.imag > 1e-9 * np.abs(roots), roots, np.nan)
     w0 = np.abs(upper)
     # negative for right-half-plane (unstable) poles, as at degree 2; a pair on (or within
