@@ -1,1 +1,1 @@
-"""tolspread applications: the command line (app.cli) and the window (app.qt_*)."""
+"""tolspread applications: the command line (tolspread.app.cli) and the window (tolspread.app.qt_*)."""

@@ -5,14 +5,14 @@ from __future__ import annotations
 import math
 from typing import Any, TextIO
 
-from filters import __version__
-from filters.analysis import AnalysisResult, analyze  # noqa: F401  (re-exported for the CLI)
-from filters import metric_names
-from filters.metric_names import SPAN_UNIT, is_margin, is_pair_metric, metric_label
-from filters.metrics import ATTENUATION_FLOOR_DB
-from filters.report_text import format_metric
-from filters.summary import MetricSummary
-from filters.values import format_value
+from .. import __version__
+from ..analysis import AnalysisResult, analyze  # noqa: F401  (re-exported for the CLI)
+from .. import metric_names
+from ..metric_names import SPAN_UNIT, is_margin, is_pair_metric, metric_label
+from ..metrics import ATTENUATION_FLOOR_DB
+from ..report_text import format_metric
+from ..summary import MetricSummary
+from ..values import format_value
 
 from .texttable import table
 
@@ -77,7 +77,7 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
     if d.mask:
         out.write(f"YIELD  {_pct(y.estimate)}  ({100 * y.confidence:g} % interval {_pct(y.low)} to "
                   f"{_pct(y.high)}, {y.method}; {y.passed:,} of {y.samples:,} boards pass)\n")
-        from filters.stats import samples_for_half_width
+        from ..stats import samples_for_half_width
 
         need = [(h, samples_for_half_width(h / 100, y.estimate, y.confidence, y.method)) for h in (1.0, 0.5, 0.1)]
         out.write("  boards needed at this yield for an interval of " +
@@ -149,7 +149,7 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
         out.write(f"  worst case: {'every corner board meets the mask' if c.all_pass else 'some corner boards fail the mask'}"
                   "\n")
     if result.opamps:
-        from filters.synthesis import opamp_table_text
+        from ..synthesis import opamp_table_text
 
         out.write("\nOP-AMP GAIN-BANDWIDTH (single-pole model; rule: GBW >= 100 G Q f0, open-loop gain at f0\n"
                   "  40 dB above the stage's gain, after Op Amps for Everyone ch. 16)\n")

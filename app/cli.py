@@ -11,9 +11,9 @@ import sys
 from pathlib import Path
 from typing import Sequence
 
-from filters import __version__
-from filters.errors import InputError, ValidationError
-from filters.safeio import check_output_path
+from .. import __version__
+from ..errors import InputError, ValidationError
+from ..safeio import check_output_path
 
 from .cli_args import EXIT_BAD_INPUT, Parser, positive_int, seed
 from .cli_design import add_parser as add_design_parser, run as run_design
@@ -61,7 +61,7 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _load(path: str | None):
-    from filters.designfile import load, load_demo  # imported when a design is read
+    from ..designfile import load, load_demo  # imported when a design is read
 
     return load_demo() if path is None else load(path)
 
@@ -77,7 +77,7 @@ def cmd_analyze(args: argparse.Namespace) -> int:
     if args.attenuation_at:
         from dataclasses import replace
 
-        from filters.values import parse_value
+        from ..values import parse_value
 
         freqs = []
         for text in args.attenuation_at:
@@ -105,11 +105,11 @@ def cmd_analyze(args: argparse.Namespace) -> int:
         if args.json == "-":
             sys.stdout.write(text)
         else:
-            from filters.designfile import write_text_atomic
+            from ..designfile import write_text_atomic
 
             write_text_atomic(Path(args.json), text, backup=False)
     if args.report:
-        from filters.report import build_report, write_report
+        from ..report import build_report, write_report
 
         write_report(build_report(result), args.report)
         if args.json != "-":

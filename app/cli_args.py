@@ -12,8 +12,8 @@ import math
 import re
 import sys
 
-from filters.design import MAX_SAMPLES, check_seed
-from filters.errors import InputError
+from ..design import MAX_SAMPLES, check_seed
+from ..errors import InputError
 
 EXIT_BAD_INPUT = 2
 #: ``tolspread recommend`` found no set of grades that meets the target (README: exit status).

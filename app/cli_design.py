@@ -25,11 +25,11 @@ import sys
 from dataclasses import replace
 from typing import Any
 
-from filters.designfile import save
-from filters.errors import InputError
-from filters.safeio import check_output_path
-from filters.synthesis import KINDS, RESPONSES, ErrorLimits, synthesize
-from filters.values import format_value, parse_value
+from ..designfile import save
+from ..errors import InputError
+from ..safeio import check_output_path
+from ..synthesis import KINDS, RESPONSES, ErrorLimits, synthesize
+from ..values import format_value, parse_value
 
 # synthesize() argument -> command-line option, for error messages
 _OPTION = {"response": "--response", "order": "--order", "cutoff_hz": "--cutoff", "kind": "--kind",

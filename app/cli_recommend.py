@@ -5,7 +5,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from filters.errors import InputError
+from ..errors import InputError
 
 from .cli_args import EXIT_NO_SET, confidence, fraction_or_percent, positive_int, seed
 from .texttable import table
@@ -33,12 +33,12 @@ def add_parser(sub) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from filters.analysis import analyze
-    from filters.designfile import load, load_demo, save
-    from filters.grades import load_catalog
-    from filters.recommend import cost_yield_curve, parts_list_rows, recommend, worst_margin_metric, write_parts_csv
-    from filters.report import build_report, write_report
-    from filters.safeio import check_output_path
+    from ..analysis import analyze
+    from ..designfile import load, load_demo, save
+    from ..grades import load_catalog
+    from ..recommend import cost_yield_curve, parts_list_rows, recommend, worst_margin_metric, write_parts_csv
+    from ..report import build_report, write_report
+    from ..safeio import check_output_path
 
     for option in ("--output", "--csv", "--report"):  # issue 11: '' or a device refused before the search
         if getattr(args, option[2:]) is not None:

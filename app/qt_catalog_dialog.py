@@ -16,9 +16,9 @@ from PySide6.QtGui import QBrush
 from PySide6.QtWidgets import (QAbstractItemView, QDialog, QFileDialog, QHBoxLayout, QHeaderView, QLabel,
                                QPushButton, QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
-from filters.designfile import problems_text, write_text_atomic
-from filters.errors import InputError
-from filters.grades import Catalog, Grade, builtin_catalog, load_catalog
+from ..designfile import problems_text, write_text_atomic
+from ..errors import InputError
+from ..grades import Catalog, Grade, builtin_catalog, load_catalog
 
 from .qt_dialog_parts import PROBLEM_STYLE, ok_cancel, reason
 from .qt_style import VERMILION, rgba

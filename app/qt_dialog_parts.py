@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from PySide6.QtWidgets import QDialog, QDialogButtonBox, QPushButton, QWidget
 
-from filters.errors import InputError, ValidationError
+from ..errors import InputError, ValidationError
 
 from .qt_style import VERMILION
 

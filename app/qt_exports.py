@@ -15,8 +15,8 @@ from typing import TYPE_CHECKING
 import pyqtgraph.exporters
 from PySide6.QtWidgets import QFileDialog
 
-from filters.designfile import write_text_atomic
-from filters.errors import InputError
+from ..designfile import write_text_atomic
+from ..errors import InputError
 
 if TYPE_CHECKING:
     from .qt_mainwindow import MainWindow
@@ -57,7 +57,7 @@ class WindowExports:
     def board_metrics(self, path: str | None = None) -> Path | None:
         """Write every board's part values, metrics and margins as CSV
         (:func:`filters.board_table.board_csv`); nothing before the first figures."""
-        from filters.board_table import board_csv, board_table
+        from ..board_table import board_csv, board_table
 
         w = self.window
         view = w.session.last_view
@@ -74,7 +74,7 @@ class WindowExports:
     def report(self, kind: str, path: str | None = None) -> None:
         """Write the design-review report of the current design (HTML or PDF), with the
         recommendation and parts list when Find cheapest grades ran for this design."""
-        from filters.report import write_report
+        from ..report import write_report
 
         from .qt_reportexport import recommendation_for, window_report, write_pdf
         from .qt_tasks import BackgroundTask

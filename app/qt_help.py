@@ -14,7 +14,7 @@ from PySide6.QtGui import QAction, QKeySequence
 from PySide6.QtWidgets import (QDialog, QDialogButtonBox, QHeaderView, QLabel, QMainWindow, QMenu,
                                QTableWidget, QTableWidgetItem, QTextBrowser, QVBoxLayout, QWidget)
 
-from filters import __version__
+from .. import __version__
 
 from . import userfiles
 

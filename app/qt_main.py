@@ -55,7 +55,7 @@ def _alive(getter):
 
 def make_window(design_path: str | None):
     """Create the session and main window (the demo design unless a path is given)."""
-    from filters.designfile import load, load_demo
+    from ..designfile import load, load_demo
 
     from .qt_mainwindow import MainWindow
     from .qt_session import Session

@@ -4,7 +4,7 @@ the span table below. Menus and shortcuts for files, undo and redo, the mask and
 Over 500 lines: every action and every signal between the panels and the session, wired in
 one place; exports (:mod:`app.qt_exports`), dialogs and span items live in modules of their own.
 
-The window observes the :class:`~app.qt_session.Session`; every edit goes through
+The window observes the :class:`~tolspread.app.qt_session.Session`; every edit goes through
 ``session.apply_checked`` (the loader's rules) so it can be undone.
 """
 from __future__ import annotations
@@ -19,12 +19,12 @@ from PySide6.QtGui import QAction, QActionGroup, QKeySequence
 from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog, QLabel, QMainWindow, QMessageBox,
                                QProgressBar, QPushButton, QSplitter, QToolBar)
 
-from filters import __version__
-from filters.design import Design
-from filters.designfile import load_demo
-from filters.errors import InputError, ValidationError
-from filters.liveview import ViewData
-from filters.mask import Span
+from .. import __version__
+from ..design import Design
+from ..designfile import load_demo
+from ..errors import InputError, ValidationError
+from ..liveview import ViewData
+from ..mask import Span
 
 from . import userfiles
 from .qt_exports import WindowExports
@@ -255,7 +255,7 @@ class MainWindow(QMainWindow):
     # --- model to view -------------------------------------------------------------------
     def _on_design_changed(self, design: Design) -> None:
         try:
-            from filters.synthesis import gbw_warnings
+            from ..synthesis import gbw_warnings
 
             self.results.show_opamps(gbw_warnings(design))
         except InputError as exc:

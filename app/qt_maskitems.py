@@ -18,7 +18,7 @@ from PySide6.QtCore import QPointF, QRectF, Qt, Signal
 from PySide6.QtGui import QPolygonF
 from PySide6.QtWidgets import QGraphicsPolygonItem, QGraphicsRectItem
 
-from filters.mask import Span
+from ..mask import Span
 
 from . import qt_style as st
 from .qt_units import eng

@@ -16,11 +16,11 @@ from PySide6.QtGui import QBrush, QColor
 from PySide6.QtWidgets import (QHBoxLayout, QHeaderView, QLabel, QPushButton, QTableWidget,
                                QTableWidgetItem, QVBoxLayout, QWidget)
 
-from filters.design import check_span_limits
-from filters.errors import InputError, ValidationError
-from filters.mask import Span
-from filters.metric_names import unique_span_name
-from filters.values import format_value
+from ..design import check_span_limits
+from ..errors import InputError, ValidationError
+from ..mask import Span
+from ..metric_names import unique_span_name
+from ..values import format_value
 
 from . import qt_style as st
 from .qt_units import QUANTITY_UNIT, eng, parse_in_unit, prefix_for

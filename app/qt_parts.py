@@ -15,9 +15,9 @@ from PySide6.QtGui import QRegularExpressionValidator
 from PySide6.QtWidgets import (QComboBox, QGridLayout, QLabel, QLineEdit, QPushButton,
                                QScrollArea, QSlider, QSpinBox, QVBoxLayout, QWidget, QComboBox as _Combo)
 
-from filters.design import MAX_SAMPLES, MAX_SEED, Design, check_part_value, check_seed
-from filters.errors import InputError
-from filters.values import format_value
+from ..design import MAX_SAMPLES, MAX_SEED, Design, check_part_value, check_seed
+from ..errors import InputError
+from ..values import format_value
 
 SLIDER_STEPS = 1000
 TOL_MIN, TOL_MAX = 0.05, 30.0  # percent, log scale

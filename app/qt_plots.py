@@ -23,10 +23,10 @@ import pyqtgraph as pg
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import QLabel, QSizePolicy, QVBoxLayout, QWidget
 
-from filters.liveview import ViewData
-from filters.mask import Span
-from filters.metric_names import unique_span_name
-from filters.values import format_value
+from ..liveview import ViewData
+from ..mask import Span
+from ..metric_names import unique_span_name
+from ..values import format_value
 
 from . import qt_style as st
 from .qt_maskitems import (FILL_REACH_DEG, DelaySpanItem, DrawKind, MaskViewBox, SpanItem, from_view_x,

@@ -8,9 +8,9 @@ from PySide6.QtWidgets import (QCheckBox, QDialog, QDoubleSpinBox, QFileDialog, 
                                QHeaderView, QLabel, QProgressBar, QPushButton, QSpinBox, QTableWidget,
                                QTableWidgetItem, QVBoxLayout)
 
-from filters.design import Design
-from filters.errors import InputError
-from filters.recommend import (Recommendation, cost_yield_curve, parts_list_rows, recommend,
+from ..design import Design
+from ..errors import InputError
+from ..recommend import (Recommendation, cost_yield_curve, parts_list_rows, recommend,
                                worst_margin_metric, write_parts_csv)
 
 from . import qt_style as st
@@ -216,7 +216,7 @@ class RecommendDialog(QDialog):
         design = self.design
 
         def job(progress, should_stop):
-            from filters.analysis import analyze
+            from ..analysis import analyze
 
             result = analyze(rec.design, samples=rec.chosen.samples, seed=rec.seed, progress=progress,
                              should_stop=should_stop)

@@ -16,8 +16,8 @@ from pathlib import Path
 
 from PySide6.QtCore import QLockFile
 
-from filters.errors import InputError
-from filters.safeio import read_text, write_text_atomic
+from ..errors import InputError
+from ..safeio import read_text, write_text_atomic
 
 from . import userfiles
 
@@ -98,7 +98,7 @@ def restore_into(window, rec: RecoveryFile) -> bool:
     The work then lives in the window's own recovery file, and ``rec`` is removed. A file
     the loader refuses is kept, unchanged, in the unreadable folder, and the user is told
     where and why."""
-    from filters.designfile import load
+    from ..designfile import load
 
     try:
         design = load(rec.path)

@@ -23,8 +23,8 @@ from PySide6.QtGui import (QFont, QImage, QPageLayout, QPageSize, QPainter, QPdf
                            QTextCursor, QTextDocument, QTextFormat)
 from PySide6.QtSvg import QSvgRenderer
 
-from filters.design import Design
-from filters.report import Report
+from ..design import Design
+from ..report import Report
 
 #: Device pixels per inch of the PDF page (CSS pixels: 1 px = 1/96 in, so the report's
 #: style sheet keeps its sizes; text and lines stay vector, figures keep their resolution).
@@ -76,9 +76,9 @@ def window_report(design: Design, rec: Any = None, curve: Any = None, searched: 
     """The report of ``design`` (analysed as the command line does), with the parts list of
     its own grades and, when given, the recommendation ``rec`` found from ``searched`` and
     its cost-yield ``curve``."""
-    from filters.analysis import analyze
-    from filters.recommend import parts_list_rows, worst_margin_metric
-    from filters.report import build_report
+    from ..analysis import analyze
+    from ..recommend import parts_list_rows, worst_margin_metric
+    from ..report import build_report
 
     result = analyze(design, progress=progress, should_stop=should_stop)
     rows = parts_list_rows(design, None, result.budget, metric=worst_margin_metric(result.ensemble))

@@ -8,9 +8,9 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QHeaderView, QLabel, QTableWidget, QTableWidgetItem,
                                QVBoxLayout, QWidget)
 
-from filters.liveview import ViewData
-from filters import metric_names
-from filters.metric_names import is_pair_metric, metric_label
+from ..liveview import ViewData
+from .. import metric_names
+from ..metric_names import is_pair_metric, metric_label
 
 from . import qt_style as st
 from .qt_units import QUANTITY_UNIT, eng, prefix_for
@@ -158,7 +158,7 @@ class ResultsPanel(QWidget):
         t.setFixedHeight(h)
 
     def show_opamps(self, rows) -> None:
-        """Op-amp gain-bandwidth effects (filters.synthesis.GbwWarning rows)."""
+        """Op-amp gain-bandwidth effects (tolspread.synthesis.GbwWarning rows)."""
         if not rows:
             self.opamp_note.hide()
             return

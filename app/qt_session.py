@@ -22,13 +22,13 @@ from typing import Mapping
 from PySide6.QtCore import QObject, QThread, Signal, Slot
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
-from filters.design import Design, check_design
-from filters.designfile import dumps, load, save
-from filters.errors import Cancelled, InputError, ValidationError
-from filters.evaluate import Prepared, prepare
-from filters.grades import Grade
-from filters.liveview import SecondQuantity, ViewData, ViewRequest, compute_view
-from filters.memory import check_boards
+from ..design import Design, check_design
+from ..designfile import dumps, load, save
+from ..errors import Cancelled, InputError, ValidationError
+from ..evaluate import Prepared, prepare
+from ..grades import Grade
+from ..liveview import SecondQuantity, ViewData, ViewRequest, compute_view
+from ..memory import check_boards
 
 
 PREVIEW_BOARDS = 1000  # boards evaluated while a slider is being dragged

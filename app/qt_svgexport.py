@@ -16,12 +16,12 @@ from pathlib import Path
 
 import numpy as np
 
-from filters.bands import Bands
-from filters.designfile import write_text_atomic
-from filters.liveview import ViewData
-from filters.report_figures import SVG_NS, svg_histogram, svg_spread_plot
-from filters import metric_names
-from filters.metric_names import metric_label
+from ..bands import Bands
+from ..designfile import write_text_atomic
+from ..liveview import ViewData
+from ..report_figures import SVG_NS, svg_histogram, svg_spread_plot
+from .. import metric_names
+from ..metric_names import metric_label
 
 WIDTH = 1100
 GAIN_HEIGHT = 480
@@ -41,7 +41,7 @@ def stack_svgs(svgs: list[str], gap: int = GAP) -> str:
     for svg in svgs:
         m = _SVG_HEAD.match(svg)
         if m is None:
-            raise ValueError("not an SVG figure of filters.report_figures")
+            raise ValueError("not an SVG figure of tolspread.report_figures")
         w, h = int(m.group(1)), int(m.group(2))
         inner = svg[m.end():svg.rindex("</svg>")]
         parts.append(f'<g transform="translate(0 {y})">{inner}</g>')

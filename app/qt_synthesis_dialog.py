@@ -18,9 +18,9 @@ from PySide6.QtGui import QFont, QFontDatabase
 from PySide6.QtWidgets import (QCheckBox, QComboBox, QDialog, QGridLayout, QLabel, QLineEdit,
                                QPlainTextEdit, QSpinBox, QVBoxLayout, QWidget)
 
-from filters.errors import InputError
-from filters.synthesis import MAX_ORDER, RIPPLES_DB, TOPOLOGY_CHOICES, SynthesisResult, synthesize
-from filters.values import E_SERIES, parse_value
+from ..errors import InputError
+from ..synthesis import MAX_ORDER, RIPPLES_DB, TOPOLOGY_CHOICES, SynthesisResult, synthesize
+from ..values import E_SERIES, parse_value
 
 from .qt_dialog_parts import PROBLEM_STYLE, mark, ok_cancel, reason
 from .qt_style import VERMILION
@@ -42,7 +42,7 @@ DEFAULT_SERIES, DEFAULT_CAP_SERIES = "E24", "E12"
 class SynthesisDialog(QDialog):
     """"New design from a response": response, order, kind, cutoff ... and a live preview.
 
-    ``result()`` is the last valid :class:`~filters.synthesis.SynthesisResult` (its
+    ``result()`` is the last valid :class:`~tolspread.synthesis.SynthesisResult` (its
     ``.design`` is what the window loads); it is kept while the input is invalid.
     ``result_changed(object)`` is emitted with every new valid result;
     ``problem_changed(str)`` with the current problem ("" when the input is valid).

@@ -13,7 +13,7 @@ from typing import Any, Callable
 
 from PySide6.QtCore import QObject, QThread, Signal
 
-from filters.errors import Cancelled, InputError
+from ..errors import Cancelled, InputError
 
 
 class _Runner(QObject):

@@ -30,10 +30,10 @@ ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
-from filters.design import design_from_dict  # noqa: E402
-from filters.designfile import load, load_demo  # noqa: E402
-from filters.engine import compile_design, stage_coefficients  # noqa: E402
-from filters.evaluate import evaluate, frequency_grid, prepare  # noqa: E402
+from tolspread.design import design_from_dict  # noqa: E402
+from tolspread.designfile import load, load_demo  # noqa: E402
+from tolspread.engine import compile_design, stage_coefficients  # noqa: E402
+from tolspread.evaluate import evaluate, frequency_grid, prepare  # noqa: E402
 
 EXAMPLE = ROOT / "assets" / "examples" / "ultrasonic_bandpass.json"
 
@@ -213,7 +213,7 @@ def pass_fail_vs_full(design, n: int) -> None:
 
 
 def recommend_times() -> None:
-    from filters.recommend import recommend
+    from tolspread.recommend import recommend
 
     for name, design, target in (("demo", load_demo(), 0.99), ("demo", load_demo(), 0.95),
                                  (EXAMPLE.name, load(str(EXAMPLE)), 0.85)):
@@ -317,7 +317,7 @@ def slider_latency(samples: int = 5000, moves: int = 15) -> tuple[list[float], l
     from PySide6.QtCore import QEventLoop
     from PySide6.QtWidgets import QApplication
 
-    from app.qt_main import make_window
+    from tolspread.app.qt_main import make_window
 
     app = QApplication.instance() or QApplication([])
     window = make_window(None)

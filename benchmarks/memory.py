@@ -37,7 +37,7 @@ def cascade(n_parts: int, samples: int = 5000):
     """An invented design: ``n_parts // 4`` unity-gain Sallen-Key low-pass stages near
     1 kHz (Q 0.707, 1 % resistors, 5 % C0G capacitors), a passband floor and a stopband
     ceiling."""
-    from filters.design import design_from_dict
+    from tolspread.design import design_from_dict
 
     parts, stages = [], []
     for k in range(1, n_parts // 4 + 1):
@@ -61,11 +61,11 @@ def cascade(n_parts: int, samples: int = 5000):
 
 def run_case(name: str, traced: bool) -> dict:
     """Run one case in this process; returns the figures."""
-    from filters.analysis import analyze
-    from filters.design import MAX_PARTS
-    from filters.designfile import load_demo
-    from filters.evaluate import prepare
-    from filters.memory import max_boards
+    from tolspread.analysis import analyze
+    from tolspread.design import MAX_PARTS
+    from tolspread.designfile import load_demo
+    from tolspread.evaluate import prepare
+    from tolspread.memory import max_boards
 
     design = load_demo() if name.startswith("analyze") else cascade(MAX_PARTS)
     prep = prepare(design)
@@ -77,7 +77,7 @@ def run_case(name: str, traced: bool) -> dict:
         tracemalloc.start()
     t = time.perf_counter()
     if name == "recommend-parts":
-        from filters.recommend import recommend
+        from tolspread.recommend import recommend
 
         rec = recommend(design, 0.99)
         what = f"{rec.evaluations} grade sets evaluated, chosen: {rec.chosen is not None}"

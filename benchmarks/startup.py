@@ -8,7 +8,7 @@ average before and after, since a shared machine makes single runs noisy:
   analyze-cold   ``tolspread analyze --samples 100`` with an empty derivation cache
                  (a new ``TOLSPREAD_CACHE_DIR`` for every run: the netlists are derived)
   analyze-warm   the same with a cache filled by one run beforehand (nothing derived)
-  import-cli     ``python -c "import app.cli"`` and which heavy modules it loaded
+  import-cli     ``python -c "import tolspread.app.cli"`` and which heavy modules it loaded
 
 Not run by CI. README's "Start-up" paragraph quotes these figures.
 """
@@ -63,8 +63,8 @@ def measure(name: str, cmd: list[str], runs: int, cache: str) -> tuple[str, list
 
 
 def heavy_modules_of_import() -> list[str]:
-    """Which of :data:`HEAVY` ``import app.cli`` loads (in a fresh interpreter)."""
-    code = ("import sys, app.cli; "
+    """Which of :data:`HEAVY` ``import tolspread.app.cli`` loads (in a fresh interpreter)."""
+    code = ("import sys, tolspread.app.cli; "
             f"print(' '.join(m for m in {HEAVY!r} if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     return out.stdout.split()
@@ -80,7 +80,7 @@ def main() -> None:
         measure("tolspread --version", cmd + ["--version"], args.runs, "any"),
         measure("analyze --samples 100, cold cache", cmd + ["analyze", "--samples", "100"], args.runs, "cold"),
         measure("analyze --samples 100, warm cache", cmd + ["analyze", "--samples", "100"], args.runs, "warm"),
-        measure('python -c "import app.cli"', [sys.executable, "-c", "import app.cli"], args.runs, "any"),
+        measure('python -c "import tolspread.app.cli"', [sys.executable, "-c", "import tolspread.app.cli"], args.runs, "any"),
     ]
     load_after = os.getloadavg()
     print(f"{args.runs} runs per case on {os.cpu_count()} cores; load average (1, 5, 15 min) "
@@ -90,7 +90,7 @@ def main() -> None:
         print(f"  {name:36s} median {statistics.median(times):6.2f} s "
               f"(min {min(times):.2f}, max {max(times):.2f})")
     heavy = heavy_modules_of_import()
-    print(f"  import app.cli loads: {', '.join(heavy) if heavy else 'none of ' + ', '.join(HEAVY)}")
+    print(f"  import tolspread.app.cli loads: {', '.join(heavy) if heavy else 'none of ' + ', '.join(HEAVY)}")
 
 
 if __name__ == "__main__":

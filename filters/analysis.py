@@ -21,6 +21,13 @@ from .memory import BoardStore, check_boards
 from .stats import SpanFailures, YieldEstimate, adaptive_yield, failure_breakdown, yield_estimate
 from .summary import MetricSummary, summarize
 
+__all__ = [
+    "AnalysisResult",
+    "concat",
+    "yield_of",
+    "analyze",
+]
+
 
 @dataclass(frozen=True)
 class AnalysisResult:

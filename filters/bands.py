@@ -14,6 +14,14 @@ import numpy as np
 
 from .evaluate import _POOL, WORKERS
 
+__all__ = [
+    "INNER",
+    "Bands",
+    "bands",
+    "traces",
+    "pick_rows",
+]
+
 INNER = 0.98  # the central share of boards in the inner band
 
 

@@ -1,7 +1,7 @@
 """The per-board table: one row per board, its part values, metrics and margins, and
 whether it passes the mask (what the window's "Export board metrics as CSV" writes).
 
-:func:`board_table` gathers the columns from an :class:`~filters.evaluate.Ensemble` as one
+:func:`board_table` gathers the columns from an :class:`~tolspread.evaluate.Ensemble` as one
 ``(boards, columns)`` array with a name and a unit for every column; :func:`board_csv`
 writes it as CSV text (numbers to 9 significant digits, for scripts and spreadsheets: a
 data file, not a report for people). Nothing here loops over boards except the text rows

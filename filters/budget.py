@@ -27,6 +27,21 @@ from .evaluate import Ensemble, Prepared, evaluate_values
 from .metric_names import is_log_metric, is_margin, margin_name, margin_names, parse, sensitivity_unit
 from .summary import board_chunk, chunks
 
+__all__ = [
+    "STEP",
+    "metric_columns",
+    "BudgetEntry",
+    "Budget",
+    "largest_remainder",
+    "ROW_NUMBERS",
+    "evaluate_rows",
+    "perturbed_rows",
+    "sensitivities",
+    "log_deviations",
+    "budget_names",
+    "spread_budget",
+]
+
 STEP = 1e-4
 
 

@@ -33,6 +33,16 @@ from .metric_names import is_log_metric, margin_name
 from .sampling import limits
 from .summary import CHUNK, board_chunk, chunks, column_stats
 
+__all__ = [
+    "MAX_EXHAUSTIVE",
+    "LINEAR_SHARE",
+    "CornerRange",
+    "Corners",
+    "corner_values",
+    "log_spread",
+    "corners",
+]
+
 MAX_EXHAUSTIVE = 12
 #: An RSS standard deviation below this share of the sampled one marks a metric as not
 #: linear at the nominal (its first-order sensitivities miss the spread).

@@ -36,6 +36,19 @@ from typing import Any
 from .errors import InputError
 from .safeio import parse_json, read_text, write_text_atomic
 
+__all__ = [
+    "FORMAT",
+    "VERSION",
+    "MAX_BYTES",
+    "MAX_POWER",
+    "Coefficients",
+    "cache_dir",
+    "key_of",
+    "entry_path",
+    "load",
+    "store",
+]
+
 FORMAT = "tolspread-derivation"
 # Bump when the derivation or the stored layout changes: older entries are then rewritten.
 VERSION = 1

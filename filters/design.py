@@ -21,6 +21,29 @@ from .sampling import METHODS, Conditions
 from .topologies import TOPOLOGIES, Topology, build
 from .values import format_value, parse_value
 
+__all__ = [
+    "MAX_SAMPLES",
+    "MAX_SEED",
+    "MAX_PARTS",
+    "VALUE_RANGE",
+    "GAIN_LIMIT_DB",
+    "SPAN_LIMITS",
+    "MAX_TEMPERATURE_SHIFT",
+    "MAX_POINTS",
+    "INTERVALS",
+    "Part",
+    "Stage",
+    "Analysis",
+    "Design",
+    "check_part_value",
+    "check_seed",
+    "check_span_limit",
+    "check_span_limits",
+    "check_design",
+    "analysis_from_dict",
+    "design_from_dict",
+]
+
 MAX_SAMPLES = 10_000_000
 MAX_SEED = 2**63 - 1  # seeds are 0 to 2^63-1 everywhere: design file, command line, window
 # Parts in one design: the guided corner search evaluates about 4 x parts x metrics designs

@@ -19,6 +19,22 @@ from .design import Design, design_from_dict
 from .errors import InputError, ValidationError
 from .safeio import parse_json, read_text, remove_orphan_temporaries, write_text_atomic  # noqa: F401 (used by others)
 
+__all__ = [
+    "FORMAT_TAG",
+    "VERSION",
+    "MAX_BYTES",
+    "MAX_DEPTH",
+    "MIGRATIONS",
+    "parse_text",
+    "loads",
+    "load",
+    "dumps",
+    "save",
+    "problems_text",
+    "demo_text",
+    "load_demo",
+]
+
 FORMAT_TAG = "tolspread-design"
 VERSION = 2
 MAX_BYTES = 2_000_000
@@ -102,7 +118,7 @@ def demo_text() -> str:
     """The built-in demo design's file text (an invented scenario)."""
     from importlib import resources
 
-    return resources.files("filters").joinpath("data/demo_design.json").read_text(encoding="utf-8")
+    return resources.files(__package__).joinpath("data/demo_design.json").read_text(encoding="utf-8")
 
 
 def load_demo() -> Design:

@@ -27,6 +27,25 @@ from .errors import InputError
 from .netlist import TransferFunction, derive
 from .topologies import ResponseKind, Topology
 
+__all__ = [
+    "TWO_PI",
+    "CompiledStage",
+    "Circuit",
+    "compile_design",
+    "StageCoefficients",
+    "stage_coefficients",
+    "poly_jw",
+    "Response",
+    "GAIN_DB_LIMIT",
+    "BLOCK_ROWS",
+    "BLAS_SOLO_SIZE",
+    "frequency_response",
+    "response_blocks",
+    "gain2_at",
+    "dc_gain2",
+    "hf_gain2",
+]
+
 TWO_PI = 2 * math.pi
 
 

@@ -8,6 +8,16 @@ from __future__ import annotations
 
 import math
 
+__all__ = [
+    "one_line",
+    "TolspreadError",
+    "InputError",
+    "ValidationError",
+    "Cancelled",
+    "is_finite_number",
+    "quoted",
+]
+
 
 def one_line(text: str, limit: int) -> str:
     """``text`` as part of a one-line message: line breaks and other control characters

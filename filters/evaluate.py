@@ -37,6 +37,22 @@ from .metric_names import attenuation_name
 from .metrics import attenuation_db, cutoff_metrics, stage_metrics
 from .sampling import draw_scores, part_values
 
+__all__ = [
+    "CHUNK_MAX",
+    "WORKERS",
+    "STOP_POLL_S",
+    "chunk_size",
+    "frequency_grid",
+    "scores_for",
+    "Evaluated",
+    "Nominal",
+    "Ensemble",
+    "Prepared",
+    "prepare",
+    "evaluate_values",
+    "evaluate",
+]
+
 CHUNK_MAX = 8192  # boards per chunk at most: bounds the per-chunk arrays (a few x 8192 x F floats)
 WORKERS = max(1, min(4, os.cpu_count() or 1))
 STOP_POLL_S = 0.01  # how often a waiting evaluation asks should_stop (s)

@@ -29,6 +29,21 @@ from typing import Any, Literal
 from .errors import InputError, ValidationError, is_finite_number
 from .safeio import parse_json, read_text
 
+__all__ = [
+    "Distribution",
+    "PartKind",
+    "DISTRIBUTIONS",
+    "KINDS",
+    "Grade",
+    "GRADE_LIMITS",
+    "Catalog",
+    "builtin_catalog",
+    "CATALOG_MAX_BYTES",
+    "CATALOG_MAX_DEPTH",
+    "load_catalog",
+    "scaled",
+]
+
 Distribution = Literal["normal", "uniform", "binned"]
 PartKind = Literal["R", "C", "L", "opamp", "any"]
 DISTRIBUTIONS: tuple[str, ...] = ("normal", "uniform", "binned")
@@ -213,7 +228,7 @@ class Catalog:
 def builtin_catalog() -> Catalog:
     """The catalog shipped with the package (typical grades; demo costs). Read once and
     shared: a :class:`Catalog` and its grades are immutable."""
-    text = resources.files("filters").joinpath("data/catalog.json").read_text(encoding="utf-8")
+    text = resources.files(__package__).joinpath("data/catalog.json").read_text(encoding="utf-8")
     return Catalog.from_dict(json.loads(text))
 
 

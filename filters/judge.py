@@ -16,6 +16,14 @@ import numpy as np
 from .engine import Response
 from .mask import Span
 
+__all__ = [
+    "SpanPlan",
+    "plan",
+    "JUDGE_ROWS",
+    "margins",
+    "needs",
+]
+
 
 @dataclass(frozen=True)
 class SpanPlan:

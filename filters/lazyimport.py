@@ -12,6 +12,10 @@ import importlib
 from types import ModuleType
 from typing import Any
 
+__all__ = [
+    "LazyModule",
+]
+
 
 class LazyModule:
     """A stand-in for the module ``name`` that imports it when an attribute is read."""

@@ -22,6 +22,15 @@ from .memory import check_boards
 from .metric_names import margin_name
 from .stats import SpanFailures, YieldEstimate, failure_breakdown, yield_estimate
 
+__all__ = [
+    "SecondQuantity",
+    "CURVE_LIMIT",
+    "ViewRequest",
+    "ViewData",
+    "compute_view",
+    "what_if_grades",
+]
+
 SecondQuantity = Literal["phase", "delay"]
 CURVE_LIMIT = 20_000  # boards whose curves are kept for the bands: bounded memory for big runs
 
@@ -75,7 +84,7 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
                  should_stop: Callable[[], bool] | None = None) -> ViewData:
     """Evaluate ``req`` and gather what the window draws (may raise Cancelled).
 
-    Raises :class:`~filters.errors.InputError` (path ``analysis.samples``) when the boards
+    Raises :class:`~tolspread.errors.InputError` (path ``analysis.samples``) when the boards
     would keep more numbers than the memory rule allows (:func:`filters.memory.check_boards`).
     """
     t0 = time.perf_counter()

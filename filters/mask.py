@@ -16,6 +16,14 @@ import numpy as np
 
 from .errors import InputError, ValidationError, is_finite_number
 
+__all__ = [
+    "Quantity",
+    "SpanKind",
+    "QUANTITIES",
+    "Span",
+    "edge_frequencies",
+]
+
 Quantity = Literal["gain", "phase", "delay"]
 SpanKind = Literal["floor", "ceiling", "variation"]
 QUANTITIES: tuple[str, ...] = ("gain", "phase", "delay")

@@ -22,6 +22,16 @@ from .design import MAX_SAMPLES
 from .errors import InputError
 from .evaluate import Ensemble, Prepared
 
+__all__ = [
+    "MAX_NUMBERS",
+    "MEMORY_BOUND_MIB",
+    "numbers_per_board",
+    "max_boards",
+    "check_boards",
+    "PIECE_NUMBERS",
+    "BoardStore",
+]
+
 #: Per-board numbers one run may keep: 150 million float64 (1.2 GB, 1,144 MiB).
 MAX_NUMBERS = 150_000_000
 #: The stated bound on a run's peak resident memory (MiB), at every size the limits allow.

@@ -36,6 +36,31 @@ from typing import Literal, Sequence
 
 from .mask import Span
 
+__all__ = [
+    "MetricKind",
+    "SPAN_UNIT",
+    "RESPONSE_METRICS",
+    "STAGE_METRICS",
+    "MARGIN_PREFIX",
+    "ATTENUATION_PREFIX",
+    "MetricId",
+    "margin_name",
+    "margin_names",
+    "stage_metric_name",
+    "attenuation_name",
+    "parse",
+    "is_margin",
+    "is_pair_metric",
+    "span_of",
+    "unit",
+    "is_log_metric",
+    "sensitivity_unit",
+    "metric_words",
+    "metric_label",
+    "duplicate_label",
+    "unique_span_name",
+]
+
 MetricKind = Literal["response", "attenuation", "stage", "margin"]
 
 #: The unit of each span quantity's limits and margins.

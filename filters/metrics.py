@@ -25,6 +25,21 @@ from .engine import (
 )
 from .metric_names import stage_metric_name
 
+__all__ = [
+    "TWO_PI",
+    "ATTENUATION_FLOOR_DB",
+    "peak",
+    "reference_gain2",
+    "REFINE_TOLERANCE_DB",
+    "pole_peaks",
+    "BOUND_MARGIN",
+    "crossing",
+    "cutoff_metrics",
+    "attenuation_db",
+    "pole_pairs",
+    "stage_metrics",
+]
+
 TWO_PI = 2 * math.pi
 
 #: Attenuations beyond this (dB below the reference) are reported as "> 200 dB", not as

@@ -29,6 +29,26 @@ import numpy as np
 
 from . import derivation_cache
 
+__all__ = [
+    "ElementKind",
+    "GROUND",
+    "INPUT",
+    "OUTPUT",
+    "Term",
+    "Coefficient",
+    "Element",
+    "OpAmp",
+    "Netlist",
+    "evaluate_coefficient",
+    "TransferFunction",
+    "nodal_system",
+    "symbolic_coefficients",
+    "coefficient_from_code",
+    "derive_uncached",
+    "agrees_with_nodal_solution",
+    "derive",
+]
+
 ElementKind = Literal["R", "L", "C"]
 GROUND = "0"
 INPUT = "in"

@@ -50,6 +50,26 @@ from .sampling import REFERENCE_CELSIUS
 from .stats import INTERVAL_METHODS, lower_bound, samples_to_show
 from .values import E_SERIES, format_value, series_for_tolerance, snap, tolerance_letter
 
+__all__ = [
+    "FRESH_SEED_OFFSET",
+    "DEFAULT_TARGETS",
+    "Candidate",
+    "Recommendation",
+    "candidate_grades",
+    "boards_needed",
+    "current_cost",
+    "recommend",
+    "design_with_grades",
+    "cost_yield_curve",
+    "UNITS",
+    "PARTS_COLUMNS",
+    "FORMULA_STARTS",
+    "worst_margin_metric",
+    "smallest_series",
+    "parts_list_rows",
+    "write_parts_csv",
+]
+
 #: The verification run uses this seed offset from the search's seed.
 FRESH_SEED_OFFSET = 1_000_003
 DEFAULT_TARGETS: tuple[float, ...] = (0.5, 0.8, 0.9, 0.95, 0.99, 0.995, 0.999)

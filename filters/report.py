@@ -2,7 +2,7 @@
 
 Over 500 lines: one document's sections, each a short function, read in the order the report prints them.
 
-:func:`build_report` turns an :class:`~filters.analysis.AnalysisResult` (and, when given,
+:func:`build_report` turns an :class:`~tolspread.analysis.AnalysisResult` (and, when given,
 a grade recommendation, its cost-yield curve and a parts list) into a :class:`Report`.
 Every number in it comes from the result; this module only lays out the document. The
 figures are drawn by :mod:`filters.report_figures`, the words and numbers for people come
@@ -40,6 +40,15 @@ from .report_text import (_INTERVAL_NAMES, _METHOD_NAMES, _cost, _drift, format_
                           format_count, format_pct)
 from .sampling import REFERENCE_CELSIUS
 from .values import format_value
+
+__all__ = [
+    "CAUTION",
+    "FIGURE_BOARDS",
+    "Report",
+    "PRINT_CSS",
+    "build_report",
+    "write_report",
+]
 
 #: The closing caution of every report (also shown in a box).
 CAUTION = ("The numbers in this report are estimates under the assumptions listed above. "

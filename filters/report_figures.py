@@ -28,6 +28,24 @@ from .mask import Span
 from .report_text import format_count
 from .values import format_value
 
+__all__ = [
+    "BLUE",
+    "SKY",
+    "ORANGE",
+    "PURPLE",
+    "VERMILLION",
+    "BLACK",
+    "GRID",
+    "AXIS",
+    "SVG_NS",
+    "MIN_FONT",
+    "PLOT_TOP",
+    "svg_spread_plot",
+    "svg_histogram",
+    "svg_bar_chart",
+    "svg_cost_yield",
+]
+
 # Okabe-Ito colours
 BLUE = "#0072B2"
 SKY = "#56B4E9"

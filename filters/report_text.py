@@ -13,6 +13,14 @@ from .mask import Span
 from .metric_names import SPAN_UNIT
 from .values import format_value
 
+__all__ = [
+    "format_pct",
+    "format_count",
+    "format_metric",
+    "describe_distribution",
+    "describe_design",
+]
+
 esc = html.escape
 
 # --- number formatting for people ------------------------------------------------------

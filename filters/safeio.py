@@ -25,7 +25,7 @@ Writing (:func:`write_text_atomic`, :func:`write_bytes_atomic`):
 * temporary files left by a save that was killed (their process no longer runs) are
   removed by the next save beside them, or by :func:`remove_orphan_temporaries`.
 
-Every problem is an :class:`~filters.errors.InputError` naming the path; nothing here
+Every problem is an :class:`~tolspread.errors.InputError` naming the path; nothing here
 raises ``OSError``.
 """
 from __future__ import annotations
@@ -42,6 +42,18 @@ from pathlib import Path
 from typing import Any
 
 from .errors import InputError
+
+__all__ = [
+    "NOT_REGULAR",
+    "ORPHAN_AGE_S",
+    "read_bytes",
+    "read_text",
+    "parse_json",
+    "check_output_path",
+    "remove_orphan_temporaries",
+    "write_bytes_atomic",
+    "write_text_atomic",
+]
 
 NOT_REGULAR = "is not a regular file (a device, pipe or socket)"
 _TMP_RE = re.compile(r"^\.(?P<name>.+)\.(?P<pid>\d+)\.[0-9a-f]{12}\.tmp$")

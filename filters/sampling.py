@@ -24,6 +24,19 @@ from .errors import InputError
 from .grades import Grade
 from .lazyimport import LazyModule
 
+__all__ = [
+    "Method",
+    "METHODS",
+    "BLOCK",
+    "REFERENCE_CELSIUS",
+    "columns",
+    "draw_scores",
+    "relative_deviation",
+    "Conditions",
+    "part_values",
+    "limits",
+]
+
 special = LazyModule("scipy.special")  # imported on first use (ndtr, ndtri): about 0.3 s
 
 Method = Literal["random", "sobol"]

@@ -24,6 +24,23 @@ import numpy as np
 from .errors import Cancelled, InputError
 from .lazyimport import LazyModule
 
+__all__ = [
+    "IntervalMethod",
+    "INTERVAL_METHODS",
+    "MAX_PLANNED_SAMPLES",
+    "YieldEstimate",
+    "SpanFailures",
+    "binomial_interval",
+    "yield_estimate",
+    "lower_bound",
+    "binomial_exact_zero_failures_upper",
+    "samples_for_half_width",
+    "samples_to_show",
+    "smallest_meeting",
+    "adaptive_yield",
+    "failure_breakdown",
+]
+
 # imported on first use: scipy.stats (exact intervals, binomtest) takes about a second
 special = LazyModule("scipy.special")
 stats = LazyModule("scipy.stats")

@@ -21,6 +21,17 @@ import numpy as np
 
 from .evaluate import Ensemble
 
+__all__ = [
+    "CHUNK",
+    "CHUNK_NUMBERS",
+    "board_chunk",
+    "chunks",
+    "Stats",
+    "column_stats",
+    "MetricSummary",
+    "summarize",
+]
+
 #: Boards per chunk of the streaming statistics here and in the spread budget and corners
 #: (65,536 boards: 0.5 MB a column).
 CHUNK = 1 << 16

@@ -6,7 +6,7 @@ Over 500 lines until issue 12 #3 moves the op-amp check and the prototype maths 
 second-order sections (f0 and Q). :func:`synthesize` transforms the prototype to the
 requested cutoff (low-pass, high-pass or band-pass), picks one topology per section,
 chooses capacitors from a preferred-value series, solves the resistors exactly, snaps
-them to their series, and returns the :class:`~filters.design.Design` with a report of
+them to their series, and returns the :class:`~tolspread.design.Design` with a report of
 what snapping did to every section's f0 and Q and to the cutoff. :func:`gbw_warnings`
 and :func:`opamp_shift_table` show how far a single-pole op-amp moves each active stage.
 
@@ -35,6 +35,46 @@ from .metric_names import stage_metric_name
 from .metrics import pole_pairs, stage_metrics
 from .lazyimport import LazyModule
 from .values import E_SERIES, format_value, series_neighbours, series_values, snap as snap_value
+
+__all__ = [
+    "TWO_PI",
+    "HALF_POWER_DB",
+    "LR_CROSSOVER_DB",
+    "CEILING_ALLOWANCE_DB",
+    "RESPONSES",
+    "KINDS",
+    "RIPPLES_DB",
+    "MAX_ORDER",
+    "TOPOLOGY_CHOICES",
+    "Section",
+    "prototype_zpk",
+    "pair_poles",
+    "prototype_sections",
+    "C_LEVEL_1KHZ",
+    "LEVELS_TRIED",
+    "NEIGHBOURS",
+    "F0_WEIGHT",
+    "KEPT",
+    "R_SHUNT_MIN",
+    "section_values",
+    "section_choices",
+    "choose_values",
+    "SectionChoice",
+    "SectionReport",
+    "GbwWarning",
+    "ErrorLimits",
+    "ErrorCheck",
+    "SynthesisResult",
+    "opamp_table_text",
+    "target_zpk",
+    "synthesize",
+    "measure_cutoff",
+    "IdealResponse",
+    "omega_edges",
+    "error_checks",
+    "opamp_shift_table",
+    "gbw_warnings",
+]
 
 # imported on first use: each takes a good part of a second to import
 optimize = LazyModule("scipy.optimize")

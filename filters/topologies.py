@@ -17,6 +17,18 @@ from typing import Any, Callable, Literal
 from .errors import InputError
 from .netlist import Element, Netlist, OpAmp
 
+__all__ = [
+    "ResponseKind",
+    "RoleKind",
+    "Topology",
+    "rc_ladder",
+    "lc_ladder",
+    "sallen_key",
+    "mfb",
+    "TOPOLOGIES",
+    "build",
+]
+
 ResponseKind = Literal["lowpass", "highpass", "bandpass"]
 RoleKind = Literal["R", "L", "C", "opamp"]
 

@@ -17,7 +17,21 @@ from decimal import Decimal
 
 import numpy as np
 
-from filters.errors import InputError, quoted
+from .errors import InputError, quoted
+
+__all__ = [
+    "parse_value",
+    "parse_value_with_tolerance",
+    "format_value",
+    "format_rkm",
+    "E_SERIES",
+    "series_values",
+    "snap",
+    "series_neighbours",
+    "series_for_tolerance",
+    "TOLERANCE_LETTERS",
+    "tolerance_letter",
+]
 
 # --- parsing ---------------------------------------------------------------------------
 

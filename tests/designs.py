@@ -3,8 +3,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from filters.design import design_from_dict
-from filters.engine import compile_design
+from tolspread.design import design_from_dict
+from tolspread.engine import compile_design
 
 
 def make(stages, analysis=None):

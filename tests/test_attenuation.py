@@ -8,10 +8,10 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from app.cli import main
-from filters.design import design_from_dict
-from filters.designfile import dumps, loads
-from filters.evaluate import evaluate
+from tolspread.app.cli import main
+from tolspread.design import design_from_dict
+from tolspread.designfile import dumps, loads
+from tolspread.evaluate import evaluate
 
 
 def butterworth4(fc: float = 1000.0, attenuation=(2000.0,)):

@@ -12,9 +12,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from filters.bands import INNER, bands
-from filters.designfile import load_demo
-from filters.evaluate import evaluate
+from tolspread.bands import INNER, bands
+from tolspread.designfile import load_demo
+from tolspread.evaluate import evaluate
 
 
 def expected(curves: np.ndarray, share: float) -> tuple[np.ndarray, ...]:

@@ -10,9 +10,9 @@ import math
 import numpy as np
 import pytest
 
-from filters.board_table import BOARD_COLUMN, PASS_COLUMN, board_csv, board_table
-from filters.designfile import load_demo
-from filters.evaluate import evaluate
+from tolspread.board_table import BOARD_COLUMN, PASS_COLUMN, board_csv, board_table
+from tolspread.designfile import load_demo
+from tolspread.evaluate import evaluate
 
 
 @pytest.fixture(scope="module")

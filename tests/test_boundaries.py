@@ -1,9 +1,13 @@
-"""Architecture checks: the numerical library never imports Qt or the applications, and
-the command line works without importing Qt (DESIGN decision: filters/ is Qt-free)."""
+"""Architecture checks: the numerical library never imports Qt or the applications, the
+command line works without importing Qt (DESIGN decision: filters/ is Qt-free), and what
+pip installs is one package, ``tolspread`` (the repository's ``filters/`` and ``app/``)."""
 from __future__ import annotations
 
+import pkgutil
 import subprocess
 import sys
+
+import tolspread
 
 
 def _modules_after(code: str) -> set[str]:
@@ -12,11 +16,30 @@ def _modules_after(code: str) -> set[str]:
     return set(out.split())
 
 
-def test_filters_never_imports_qt_or_app():
-    mods = _modules_after("import filters.analysis, filters.designfile, filters.evaluate")
-    assert not {m for m in mods if m.split(".")[0] in ("PySide6", "pyqtgraph", "app")}
+def _library_modules() -> list[str]:
+    return sorted(f"tolspread.{m.name}" for m in pkgutil.iter_modules(tolspread.__path__)
+                  if m.name != "app")
+
+
+def test_every_library_module_is_free_of_qt_and_the_applications():
+    modules = _library_modules()
+    assert len(modules) > 20  # every module of filters/, not a chosen few
+    mods = _modules_after("import " + ", ".join(modules))
+    assert not {m for m in mods if m.split(".")[0] in ("PySide6", "pyqtgraph")}
+    assert not {m for m in mods if m.startswith("tolspread.app")}
 
 
 def test_command_line_analysis_does_not_import_qt():
-    mods = _modules_after("from app.cli import main\nmain(['analyze', '--samples', '50'])")
+    mods = _modules_after("from tolspread.app.cli import main\nmain(['analyze', '--samples', '50'])")
     assert not {m for m in mods if m.split(".")[0] in ("PySide6", "pyqtgraph")}
+
+
+def test_one_installed_package_and_no_generic_top_level_names(tmp_path):
+    # run from an empty folder, so the repository's own folders are not on the path
+    for name in ("filters", "app"):
+        proc = subprocess.run([sys.executable, "-c", f"import {name}"], cwd=tmp_path,
+                              capture_output=True, text=True)
+        assert proc.returncode != 0 and "ModuleNotFoundError" in proc.stderr, name
+    proc = subprocess.run([sys.executable, "-c", "import tolspread, tolspread.app.cli; print(tolspread.__version__)"],
+                          cwd=tmp_path, capture_output=True, text=True, check=True)
+    assert proc.stdout.strip()

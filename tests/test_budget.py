@@ -1,4 +1,4 @@
-"""Checks of filters.budget (normalized sensitivities and the spread budget) against
+"""Checks of tolspread.budget (normalized sensitivities and the spread budget) against
 published results and closed forms.
 
 References used below:
@@ -48,9 +48,9 @@ import pytest
 import scipy.optimize
 import scipy.signal
 
-from filters.budget import sensitivities, spread_budget
-from filters.design import design_from_dict
-from filters.evaluate import evaluate, prepare
+from tolspread.budget import sensitivities, spread_budget
+from tolspread.design import design_from_dict
+from tolspread.evaluate import evaluate, prepare
 
 TWO_PI = 2 * math.pi
 DB_PER_LN = 10 / math.log(10)  # 4.3429 dB: d(10 log10 x)/d ln x
@@ -322,7 +322,7 @@ def test_active_cascade_of_the_same_response_is_sensitive_at_the_peaks():
 
 
 def test_largest_remainder_rounding_adds_to_exactly_100():
-    from filters.budget import largest_remainder
+    from tolspread.budget import largest_remainder
 
     # Hare's largest-remainder method (common practice in seat apportionment): three equal
     # thirds round to 33.4 + 33.3 + 33.3; plain rounding would give 99.9
@@ -337,7 +337,7 @@ def test_largest_remainder_rounding_adds_to_exactly_100():
 
 
 def test_budget_shares_and_remainder_add_to_one_and_round_to_100():
-    from filters.designfile import load_demo
+    from tolspread.designfile import load_demo
 
     demo = load_demo()
     prep = prepare(demo)

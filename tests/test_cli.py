@@ -1,7 +1,7 @@
 """The command line ``tolspread analyze``: output, JSON, reproducibility, and bad input that
 ends in one line on stderr with exit status 2 and never a traceback.
 
-Most tests call ``app.cli.main(argv)`` in-process; one runs ``python -m app.cli`` as a
+Most tests call ``tolspread.app.cli.main(argv)`` in-process; one runs ``python -m tolspread.app.cli`` as a
 subprocess to see what a user sees. References are named beside each check.
 tests/REFERENCES.md tags: [C] confirmed in a stored copy of the published document, [M] from
 memory (not confirmed), [D] derived by computation.
@@ -18,8 +18,8 @@ import numpy as np
 import pytest
 from scipy import optimize, stats
 
-from app.cli import main
-from filters.designfile import demo_text, load_demo
+from tolspread.app.cli import main
+from tolspread.designfile import demo_text, load_demo
 
 EXIT_BAD_INPUT = 2  # README: bad input gives exit status 2
 SMALL = "400"  # samples for quick runs
@@ -267,7 +267,7 @@ def test_bad_samples_exit_2(value, capsys):
 def test_absurd_samples_exit_2(capsys):
     # More boards than memory can hold must be refused as bad input (exit 2, one line),
     # not end in an out-of-memory traceback. (The design file itself caps samples at
-    # filters.design.MAX_SAMPLES.) 10^15 boards cannot be allocated on any machine.
+    # tolspread.design.MAX_SAMPLES.) 10^15 boards cannot be allocated on any machine.
     code, _, err = run(["analyze", "--samples", str(10 ** 15)], capsys)
     assert code == EXIT_BAD_INPUT
     assert "--samples" in err or "samples" in err
@@ -289,10 +289,10 @@ def test_json_into_missing_folder_exit_2(tmp_path, capsys):
 
 
 def test_subprocess_shows_one_line_and_no_traceback(tmp_path):
-    # What a user sees: python -m app.cli with a broken file.
+    # What a user sees: python -m tolspread.app.cli with a broken file.
     p = tmp_path / "broken.json"
     p.write_text("[" * 10_000, encoding="utf-8")
-    proc = subprocess.run([sys.executable, "-m", "app.cli", "analyze", str(p)], capture_output=True,
+    proc = subprocess.run([sys.executable, "-m", "tolspread.app.cli", "analyze", str(p)], capture_output=True,
                           text=True, timeout=120, cwd=Path(__file__).resolve().parents[1])
     assert proc.returncode == EXIT_BAD_INPUT
     assert "Traceback" not in proc.stderr
@@ -517,7 +517,7 @@ def test_wide_bandpass_has_a_stable_centre_from_its_band_edges(tmp_path):
     for label, key in (("centre (Hz)", "centre_hz"), ("lower band edge (Hz)", "lower_hz"),
                        ("upper band edge (Hz)", "upper_hz")):
         row = next(r for r in text.splitlines() if r.strip().startswith(label))
-        from filters.values import format_value
+        from tolspread.values import format_value
         assert format_value(m[key]["nominal"], "Hz", digits=4) in row
     assert "cutoff (Hz)" not in text
 

@@ -1,4 +1,4 @@
-"""Checks of filters.corners (worst-case corners and the RSS estimate) against closed forms
+"""Checks of tolspread.corners (worst-case corners and the RSS estimate) against closed forms
 and against the Monte Carlo boards themselves.
 
 References used below:
@@ -23,11 +23,11 @@ import math
 import numpy as np
 import pytest
 
-from filters.budget import metric_columns
-from filters.corners import MAX_EXHAUSTIVE, corners
-from filters.design import design_from_dict
-from filters.designfile import load_demo
-from filters.evaluate import evaluate, prepare
+from tolspread.budget import metric_columns
+from tolspread.corners import MAX_EXHAUSTIVE, corners
+from tolspread.design import design_from_dict
+from tolspread.designfile import load_demo
+from tolspread.evaluate import evaluate, prepare
 
 TWO_PI = 2 * math.pi
 

@@ -1,4 +1,4 @@
-"""The derivation cache (filters.derivation_cache) and start-up (issue 12, item 8).
+"""The derivation cache (tolspread.derivation_cache) and start-up (issue 12, item 8).
 
 References used below:
   [PIN]    ``tolspread analyze --samples 2000 --seed 3 --json -`` of the demo, recorded from
@@ -62,7 +62,7 @@ def test_demo_analyze_json_is_pinned(tmp_path):
 def library_netlists():
     """Every library topology with every option value, each ideal and with its op-amp's
     gain-bandwidth role (when it has an op-amp)."""
-    from filters.topologies import TOPOLOGIES, build
+    from tolspread.topologies import TOPOLOGIES, build
 
     options = {
         "rc_lowpass": [{"sections": k, "source": s, "load": ld} for k in range(1, 5)
@@ -90,7 +90,7 @@ def random_values(roles, n=64, seed=20240611):
 
 def lambdified(exprs, roles, vals):
     """The path before the cache: sympy.lambdify of each coefficient, stacked as the
-    engine's columns (the old filters.netlist._compile)."""
+    engine's columns (the old tolspread.netlist._compile)."""
     import sympy as sp
 
     args = [sp.Symbol(r, positive=True) for r in roles]
@@ -102,7 +102,7 @@ def lambdified(exprs, roles, vals):
 @pytest.fixture
 def cache(tmp_path, monkeypatch):
     """An empty cache folder of its own, and derive() forgetting what this process knows."""
-    from filters.netlist import derive
+    from tolspread.netlist import derive
 
     folder = tmp_path / "cache"
     monkeypatch.setenv("TOLSPREAD_CACHE_DIR", str(folder))
@@ -116,9 +116,9 @@ def test_every_library_netlist_cached_gives_the_sympy_numbers(cache, monkeypatch
     # reference: sympy.lambdify of the exact symbolic coefficients (the evaluation used
     # before the cache), bit for bit on log-uniform values over 18 decades; and a numpy
     # nodal solution (numpy.linalg.solve) at complex points for H itself
-    from filters import derivation_cache
-    from filters import netlist as netlist_module
-    from filters.netlist import agrees_with_nodal_solution, derive, symbolic_coefficients
+    from tolspread import derivation_cache
+    from tolspread import netlist as netlist_module
+    from tolspread.netlist import agrees_with_nodal_solution, derive, symbolic_coefficients
 
     nets = library_netlists()
     assert len(nets) == 54  # 32 RC ladders, 8 LC ladders, 8 Sallen-Key, 6 multiple-feedback
@@ -145,7 +145,7 @@ def test_every_library_netlist_cached_gives_the_sympy_numbers(cache, monkeypatch
 # --- a damaged, old or foreign cache file is ignored and rewritten ---------------------------
 
 def demo_netlist():
-    from filters.topologies import build
+    from tolspread.topologies import build
 
     return build("sallen_key_lowpass").with_opamps({"U1"})
 
@@ -222,9 +222,9 @@ DAMAGE = ["truncated", "empty", "binary", "not an object", "nested deeply", "old
 @pytest.mark.parametrize("kind", DAMAGE)
 def test_a_bad_cache_file_is_ignored_and_rewritten(cache, kind):
     # reference: the same netlist derived with sympy into an empty cache (the first run)
-    from filters import derivation_cache
-    from filters.netlist import derive
-    from filters.topologies import build
+    from tolspread import derivation_cache
+    from tolspread.netlist import derive
+    from tolspread.topologies import build
 
     net = demo_netlist()
     other = build("mfb_bandpass").netlist
@@ -241,8 +241,8 @@ def test_a_bad_cache_file_is_ignored_and_rewritten(cache, kind):
 
 
 def test_a_folder_where_the_cache_file_should_be(cache):
-    from filters import derivation_cache
-    from filters.netlist import derive
+    from tolspread import derivation_cache
+    from tolspread.netlist import derive
 
     net = demo_netlist()
     good = derive(net)
@@ -255,7 +255,7 @@ def test_a_folder_where_the_cache_file_should_be(cache):
 
 def test_an_unwritable_cache_folder_is_no_error(tmp_path, monkeypatch):
     # the folder cannot be made: its parent is a regular file (refused even for root)
-    from filters.netlist import derive
+    from tolspread.netlist import derive
 
     blocker = tmp_path / "not-a-folder"
     blocker.write_text("x")
@@ -275,8 +275,8 @@ def test_an_unwritable_cache_folder_is_no_error(tmp_path, monkeypatch):
 def test_the_cache_file_is_plain_data(cache):
     # nothing but JSON objects, lists, text, numbers and null; the coefficients are
     # [number, [[role, power], ...]] terms over the netlist's own roles
-    from filters import derivation_cache
-    from filters.netlist import derive
+    from tolspread import derivation_cache
+    from tolspread.netlist import derive
 
     net = demo_netlist()
     derive(net)
@@ -299,7 +299,7 @@ def test_the_cache_folder_follows_the_environment(tmp_path, monkeypatch):
     # source: XDG Base Directory Specification (freedesktop.org), from memory: user caches
     # go to $XDG_CACHE_HOME, or $HOME/.cache when it is unset or empty; a relative path in
     # it is invalid and ignored
-    from filters.derivation_cache import cache_dir
+    from tolspread.derivation_cache import cache_dir
 
     monkeypatch.setenv("TOLSPREAD_CACHE_DIR", str(tmp_path / "own"))
     assert cache_dir() == tmp_path / "own"
@@ -314,7 +314,7 @@ def test_the_cache_folder_follows_the_environment(tmp_path, monkeypatch):
 
 def test_the_tests_never_use_the_real_cache_folder():
     # tests/conftest.py points the cache at a temporary folder for every test
-    from filters.derivation_cache import cache_dir
+    from tolspread.derivation_cache import cache_dir
 
     real = Path.home() / ".cache"
     assert real not in cache_dir().parents
@@ -338,8 +338,8 @@ def loaded_after(code, env=None):
 
 
 def test_importing_the_command_line_loads_no_heavy_module():
-    assert loaded_after("import app.cli") == []
-    assert loaded_after("from app.cli import main\nmain(['--version'])") == []
+    assert loaded_after("import tolspread.app.cli") == []
+    assert loaded_after("from tolspread.app.cli import main\nmain(['--version'])") == []
 
 
 @pytest.mark.slow
@@ -347,7 +347,7 @@ def test_a_second_run_derives_nothing_and_gives_the_same_output(tmp_path):
     # the first run (empty cache) derives with sympy and keeps the derivation; the second
     # imports no sympy and prints the same text [PIN: the first run is the reference]
     env = dict(os.environ, TOLSPREAD_CACHE_DIR=str(tmp_path / "cache"))
-    run = "from app.cli import main\nmain(['analyze', '--samples', '200', '--seed', '4'])"
+    run = "from tolspread.app.cli import main\nmain(['analyze', '--samples', '200', '--seed', '4'])"
     first = subprocess.run([sys.executable, "-c", f"import sys\n{run}\nprint('sympy' in sys.modules)"],
                            capture_output=True, text=True, env=env, timeout=300)
     assert first.returncode == 0, first.stderr

@@ -16,13 +16,13 @@ from pathlib import Path
 
 import pytest
 
-from filters import designfile
-from filters.design import MAX_SAMPLES, Design, design_from_dict
-from filters.designfile import (FORMAT_TAG, MAX_BYTES, VERSION, dumps, load, load_demo, loads,
+from tolspread import designfile
+from tolspread.design import MAX_SAMPLES, Design, design_from_dict
+from tolspread.designfile import (FORMAT_TAG, MAX_BYTES, VERSION, dumps, load, load_demo, loads,
                                 problems_text, save)
-from filters.errors import InputError, ValidationError
-from filters.grades import Grade
-from filters.mask import Span
+from tolspread.errors import InputError, ValidationError
+from tolspread.grades import Grade
+from tolspread.mask import Span
 
 
 def _paths(exc: InputError) -> set[str]:
@@ -377,7 +377,7 @@ def test_grade_objects_in_designs_round_trip():
     assert replace(d, name="x") != d
 
 
-# --- version migration (filters.designfile.MIGRATIONS) ---------------------------------
+# --- version migration (tolspread.designfile.MIGRATIONS) ---------------------------------
 
 V1_TEXT = """{"format": "tolspread-design", "version": 1, "name": "old file",
  "parts": [{"ref": "R1", "value": "10k", "grade": "R-thick-1"}, {"ref": "C1", "value": "10n", "grade": "C-C0G-5"}],
@@ -389,7 +389,7 @@ V1_TEXT = """{"format": "tolspread-design", "version": 1, "name": "old file",
 def test_version_1_file_is_migrated():
     # A version-1 file (temperature as one number, spans without quantity) loads as the
     # current version, with the same meaning: a fixed 40 deg C and a gain floor.
-    from filters.designfile import VERSION, loads, parse_text
+    from tolspread.designfile import VERSION, loads, parse_text
 
     data = parse_text(V1_TEXT)
     assert data["version"] == VERSION
@@ -403,7 +403,7 @@ def test_version_1_file_is_migrated():
 
 
 def test_current_version_rejects_a_bare_temperature():
-    from filters.designfile import VERSION, loads
+    from tolspread.designfile import VERSION, loads
 
     text = V1_TEXT.replace('"version": 1', f'"version": {VERSION}')
     with pytest.raises(InputError) as info:
@@ -460,7 +460,7 @@ def test_mask_limits_are_checked_against_their_quantitys_range(quantity, kind, l
 
 def test_the_window_validators_apply_the_loaders_rules():
     # issue 11 #3: one function for the window and the loader.
-    from filters.design import SPAN_LIMITS, check_design, check_part_value, check_span_limit
+    from tolspread.design import SPAN_LIMITS, check_design, check_part_value, check_span_limit
 
     assert check_part_value("4k7") == (4700.0, "4k7")  # IEC 60062 RKM: 4k7 = 4.7 kohm (from memory)
     assert check_part_value(1e-9) == (1e-9, "")

@@ -1,8 +1,8 @@
 """The two dialogs, driven like a person drives them (offscreen Qt, pytest-qt, never exec()).
 
 What the dialogs return is checked against the library: the synthesis dialog's design
-against :func:`filters.synthesis.synthesize`, the catalog dialog's grades against
-:func:`filters.grades.builtin_catalog` and :func:`filters.grades.load_catalog`.
+against :func:`tolspread.synthesis.synthesize`, the catalog dialog's grades against
+:func:`tolspread.grades.builtin_catalog` and :func:`tolspread.grades.load_catalog`.
 """
 from __future__ import annotations
 
@@ -14,11 +14,11 @@ import pytest
 pytest.importorskip("PySide6")
 pytest.importorskip("pytestqt")
 
-from app.qt_catalog_dialog import COL_COST, COL_NAME, COL_TEMPCO, COL_TOL, CatalogDialog  # noqa: E402
-from app.qt_synthesis_dialog import SynthesisDialog  # noqa: E402
-from filters.design import Design  # noqa: E402
-from filters.grades import Catalog, Grade, builtin_catalog, load_catalog  # noqa: E402
-from filters.synthesis import synthesize  # noqa: E402
+from tolspread.app.qt_catalog_dialog import COL_COST, COL_NAME, COL_TEMPCO, COL_TOL, CatalogDialog  # noqa: E402
+from tolspread.app.qt_synthesis_dialog import SynthesisDialog  # noqa: E402
+from tolspread.design import Design  # noqa: E402
+from tolspread.grades import Catalog, Grade, builtin_catalog, load_catalog  # noqa: E402
+from tolspread.synthesis import synthesize  # noqa: E402
 
 pytestmark = pytest.mark.gui
 
@@ -322,5 +322,5 @@ def test_extreme_values_give_a_message_not_a_traceback(synth):
     assert not synth.ok_button.isEnabled()
     assert synth.problem()
     assert synth.result() is good
-    synth.bandwidth.setText("5k")  # narrower bands need Q above 50: refused (filters.synthesis ranges)
+    synth.bandwidth.setText("5k")  # narrower bands need Q above 50: refused (tolspread.synthesis ranges)
     assert synth.is_valid()

@@ -1,4 +1,4 @@
-"""Checks of filters.engine: responses, phase and group delay of compiled designs, held
+"""Checks of tolspread.engine: responses, phase and group delay of compiled designs, held
 against references outside the project.
 
 References used below:
@@ -7,7 +7,7 @@ References used below:
   [NODAL]  a direct complex nodal solution written in this file (modified nodal analysis,
            numpy.linalg.solve at each frequency; poles from scipy.linalg.eig of the same
            matrices). The netlists are typed here from the layouts in tests/REFERENCES.md section 6
-           and the README topology table, not read from filters.topologies, so the check is
+           and the README topology table, not read from tolspread.topologies, so the check is
            independent of both sympy and the library's netlists.
   [CM]     Carter & Mancini, "Op Amps for Everyone", 5th ed., section 16.9, Tables 16.6
            (Bessel) and 16.7 (Butterworth) [C: confirmed in a stored copy]; the Chebyshev
@@ -31,8 +31,8 @@ import scipy.linalg
 import scipy.optimize
 import scipy.signal
 
-from filters.designfile import load_demo
-from filters.engine import (
+from tolspread.designfile import load_demo
+from tolspread.engine import (
     StageCoefficients,
     compile_design,
     frequency_response,
@@ -40,7 +40,7 @@ from filters.engine import (
     response_blocks,
     stage_coefficients,
 )
-from filters.metrics import pole_pairs, stage_metrics
+from tolspread.metrics import pole_pairs, stage_metrics
 
 from designs import make  # shared builder: tests/designs.py
 
@@ -424,7 +424,7 @@ def test_response_blocks_keep_each_matrix_product_on_the_calling_thread():
     # source: OpenBLAS's default GEMM_MULTITHREAD_THRESHOLD (4): it threads a product of
     # m x n x k >= 2 x 65536 x 4 (interface/gemm.c, from memory); the engine's blocks stay
     # below BLAS_SOLO_SIZE (< 524288), whatever the grid, and give the same numbers
-    from filters import engine
+    from tolspread import engine
 
     demo = load_demo()
     circuit = compile_design(demo)

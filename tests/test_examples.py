@@ -6,8 +6,8 @@ from pathlib import Path
 
 import pytest
 
-from filters.analysis import analyze
-from filters.designfile import load
+from tolspread.analysis import analyze
+from tolspread.designfile import load
 
 EXAMPLES = sorted((Path(__file__).resolve().parent.parent / "assets" / "examples").glob("*.json"))
 

@@ -14,9 +14,9 @@ from pathlib import Path
 
 import pytest
 
-from filters.designfile import load_demo
-from filters.recommend import PARTS_COLUMNS, parts_list_rows, smallest_series, write_parts_csv
-from filters.values import parse_value
+from tolspread.designfile import load_demo
+from tolspread.recommend import PARTS_COLUMNS, parts_list_rows, smallest_series, write_parts_csv
+from tolspread.values import parse_value
 
 # IEC 60063 series as printed in the standard (from memory): the E3..E24 mantissas.
 E3 = (1.0, 2.2, 4.7)
@@ -58,13 +58,13 @@ def test_parts_csv_series_bom_formulas_and_plain_metric(tmp_path):
     # a user-made grade whose technology text would run as a spreadsheet formula
     from dataclasses import replace
 
-    from filters.grades import Grade
+    from tolspread.grades import Grade
 
     bad = Grade.from_dict({"name": "R-odd", "kind": "R", "tolerance_pct": 1, "cost": 1,
                            "technology": "=HYPERLINK(\"http://x\")"}, "grades[0]")
     design = replace(design, grades=(bad,)).with_part("R1", grade="R-odd")
-    from filters.analysis import analyze
-    from filters.recommend import worst_margin_metric
+    from tolspread.analysis import analyze
+    from tolspread.recommend import worst_margin_metric
 
     result = analyze(design, samples=300)
     rows = parts_list_rows(design, None, result.budget, metric=worst_margin_metric(result.ensemble))

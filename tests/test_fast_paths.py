@@ -1,13 +1,13 @@
 """The fast paths (issue 13) give the numbers of the full path.
 
 References used below:
-  [POINT]  a span's margin by its definition (README "Design files", filters.judge): the
+  [POINT]  a span's margin by its definition (README "Design files", tolspread.judge): the
            smallest difference between the response and the limit over the grid points
            inside [f1, f2] (response minus limit for a floor, limit minus response for a
            ceiling), the limit linear in log frequency from limit1 to limit2 and relative
            spans taken from the nominal passband gain; a delay span: limit1 minus the
            delay's variation (max - min) over the band. Computed here point by point on
-           the full path's own curves (an independent formula, not filters.judge).
+           the full path's own curves (an independent formula, not tolspread.judge).
   [FULL]   the full evaluation (metrics, curves) of the same boards: the pass/fail path
            must give its margins bit for bit.
   [PIN]    results recorded from the code before the speed work of issue 13 (commit
@@ -22,13 +22,13 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
-from filters import evaluate as evaluate_module
-from filters import recommend as recommend_module
-from filters.analysis import analyze
-from filters.designfile import load, load_demo
-from filters.evaluate import evaluate, evaluate_values, prepare
-from filters.mask import Span
-from filters.recommend import recommend
+from tolspread import evaluate as evaluate_module
+from tolspread import recommend as recommend_module
+from tolspread.analysis import analyze
+from tolspread.designfile import load, load_demo
+from tolspread.evaluate import evaluate, evaluate_values, prepare
+from tolspread.mask import Span
+from tolspread.recommend import recommend
 
 EXAMPLE = "assets/examples/ultrasonic_bandpass.json"
 
@@ -170,7 +170,7 @@ def test_wilson_bounds_are_scipys_binomtest_bit_for_bit():
     # library, two-sided and one-sided ("greater"); k = 0 and k = n included
     from scipy import stats
 
-    from filters.stats import lower_bound, yield_estimate
+    from tolspread.stats import lower_bound, yield_estimate
 
     rng = np.random.default_rng(13)
     sizes = list(range(1, 40)) + [int(x) for x in rng.integers(40, 3_000_000, 60)]
@@ -189,7 +189,7 @@ def test_builtin_catalog_is_read_once_and_cannot_be_changed():
     # source: the documented contract of builtin_catalog (shared, immutable)
     import dataclasses
 
-    from filters.grades import builtin_catalog
+    from tolspread.grades import builtin_catalog
 
     cat = builtin_catalog()
     assert builtin_catalog() is cat

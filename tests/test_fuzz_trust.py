@@ -33,19 +33,19 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from app.cli import main
-from filters.analysis import analyze
-from filters.designfile import demo_text, dumps, load, loads, save
-from filters.errors import InputError, ValidationError
-from filters.evaluate import evaluate
-from filters.grades import Catalog, builtin_catalog, load_catalog
+from tolspread.app.cli import main
+from tolspread.analysis import analyze
+from tolspread.designfile import demo_text, dumps, load, loads, save
+from tolspread.errors import InputError, ValidationError
+from tolspread.evaluate import evaluate
+from tolspread.grades import Catalog, builtin_catalog, load_catalog
 from test_properties import _get, _paths  # JSON paths of a document (shared helpers)
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = {
     "design_files": 400,    # nearly valid design files: load, and for those that load save/reload/analyse
     "catalog_files": 300,   # nearly valid catalog files: load, and for those that load write/reload
-    "cli_in_process": 160,  # command lines run through app.cli.main (analyze and design)
+    "cli_in_process": 160,  # command lines run through tolspread.app.cli.main (analyze and design)
 }
 SUBPROCESS_RUNS = 4         # fuzzed files through the installed ``tolspread`` command
 
@@ -238,7 +238,7 @@ def test_nearly_valid_catalog_files_load_or_say_why_and_reload_identical(tmp_pat
     written and reloads identical, and its cost sums and sampled values are finite."""
     import numpy as np
 
-    from filters.sampling import draw_scores, part_values
+    from tolspread.sampling import draw_scores, part_values
 
     seen: Counter = Counter()
     folder = tmp_path
@@ -269,7 +269,7 @@ def test_nearly_valid_catalog_files_load_or_say_why_and_reload_identical(tmp_pat
 # --- the command line, in process --------------------------------------------------------------
 
 def run_cli(argv: list[str]) -> tuple[int, str, str]:
-    """Exit status, stdout and stderr of ``tolspread ARGV`` run through ``app.cli.main``;
+    """Exit status, stdout and stderr of ``tolspread ARGV`` run through ``tolspread.app.cli.main``;
     an exception escaping main (a traceback for the user) fails the test."""
     out, err = io.StringIO(), io.StringIO()
     try:
@@ -387,7 +387,7 @@ def test_fuzzed_files_through_the_installed_command(tmp_path):
         p = folder / f"f{i}.json"
         p.write_text(text, encoding="utf-8")
         procs.append(subprocess.Popen(
-            [sys.executable, "-W", "error", "-m", "app.cli", "analyze", str(p), "--samples", "50"],
+            [sys.executable, "-W", "error", "-m", "tolspread.app.cli", "analyze", str(p), "--samples", "50"],
             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT))
     for proc in procs:
         _, err = proc.communicate(timeout=300)

@@ -13,9 +13,9 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from filters.errors import InputError, ValidationError
-from filters.grades import Catalog, Grade, builtin_catalog, load_catalog, scaled
-from filters.sampling import draw_scores, part_values, relative_deviation
+from tolspread.errors import InputError, ValidationError
+from tolspread.grades import Catalog, Grade, builtin_catalog, load_catalog, scaled
+from tolspread.sampling import draw_scores, part_values, relative_deviation
 
 N_BIG = 200_000
 NOMINAL = 1000.0

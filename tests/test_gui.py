@@ -1,8 +1,8 @@
 """The window, driven the way a person drives it (offscreen Qt, pytest-qt).
 
 Every readout is checked against the library: the yield against
-``filters.evaluate.evaluate`` + ``filters.stats.yield_estimate`` on the design the window
-should now hold, curves and cursor values against ``filters.liveview.compute_view``.
+``tolspread.evaluate.evaluate`` + ``tolspread.stats.yield_estimate`` on the design the window
+should now hold, curves and cursor values against ``tolspread.liveview.compute_view``.
 """
 from __future__ import annotations
 
@@ -25,12 +25,12 @@ from PySide6.QtGui import QImage, QMouseEvent, QPainter  # noqa: E402
 from PySide6.QtSvg import QSvgRenderer  # noqa: E402
 from PySide6.QtWidgets import QApplication  # noqa: E402
 
-from app.qt_main import make_window, restore_recovery  # noqa: E402
-from app.qt_parts import pct_to_slider, slider_to_pct  # noqa: E402
-from filters.designfile import demo_text, load, load_demo  # noqa: E402
-from filters.evaluate import evaluate  # noqa: E402
-from filters.liveview import ViewRequest, compute_view, what_if_grades  # noqa: E402
-from filters.stats import yield_estimate  # noqa: E402
+from tolspread.app.qt_main import make_window, restore_recovery  # noqa: E402
+from tolspread.app.qt_parts import pct_to_slider, slider_to_pct  # noqa: E402
+from tolspread.designfile import demo_text, load, load_demo  # noqa: E402
+from tolspread.evaluate import evaluate  # noqa: E402
+from tolspread.liveview import ViewRequest, compute_view, what_if_grades  # noqa: E402
+from tolspread.stats import yield_estimate  # noqa: E402
 
 pytestmark = pytest.mark.gui
 
@@ -206,7 +206,7 @@ def test_slider_drag_previews_then_release_makes_one_undoable_edit(window, qtbot
 
     # while the handle is held: a what-if preview on the first boards (the same boards the
     # full run starts with); the design is not edited
-    from app.qt_session import PREVIEW_BOARDS
+    from tolspread.app.qt_session import PREVIEW_BOARDS
 
     row.slider.setSliderDown(True)
     with qtbot.waitSignal(s.view_ready, timeout=WAIT_MS) as preview:
@@ -272,7 +272,7 @@ def test_mouse_drag_of_a_tolerance_slider_previews_then_makes_one_edit(window, q
     first boards of the design with that tolerance; the release makes one undoable edit of
     exactly that design. The expected yields come from the library's own evaluate on the
     design built by hand (Design.with_part), not through the session."""
-    from app.qt_session import PREVIEW_BOARDS
+    from tolspread.app.qt_session import PREVIEW_BOARDS
     from PySide6.QtTest import QTest
 
     s = window.session
@@ -494,7 +494,7 @@ def test_save_reopen_and_backup(window, qtbot, tmp_path):
 def test_screenshot_command_writes_a_png(tmp_path):
     shot = tmp_path / "shot.png"
     env = dict(os.environ, QT_QPA_PLATFORM="offscreen", TOLSPREAD_CONFIG_DIR=str(tmp_path / "cfg"))
-    proc = subprocess.run([sys.executable, "-m", "app.cli", "--screenshot", str(shot)], env=env,
+    proc = subprocess.run([sys.executable, "-m", "tolspread.app.cli", "--screenshot", str(shot)], env=env,
                           capture_output=True, text=True, timeout=120, cwd=Path(__file__).parents[1])
     assert proc.returncode == 0, proc.stderr
     data = shot.read_bytes()
@@ -568,7 +568,7 @@ def test_export_csv_matches_the_library(window, tmp_path):
 # --- 8. cursor readout ---------------------------------------------------------------------
 @pytest.mark.parametrize("f_hz", [1000.0, 5000.0, 2345.0])
 def test_cursor_readout_shows_the_library_gain(window, demo_view, f_hz):
-    from filters.values import format_value
+    from tolspread.values import format_value
 
     f = demo_view.freqs_hz
     i = int(np.argmin(np.abs(np.log10(f) - math.log10(f_hz))))  # nearest grid point

@@ -1,6 +1,6 @@
 """The window's design tools end to end: a design from a response, grade costs, the
 recommendation dialog, and the report exports. Expected values come from the library
-(filters.synthesis, filters.recommend, filters.report)."""
+(tolspread.synthesis, tolspread.recommend, tolspread.report)."""
 from __future__ import annotations
 
 import time
@@ -10,15 +10,15 @@ import pytest
 from PySide6.QtCore import QEventLoop
 from PySide6.QtWidgets import QApplication
 
-from filters.grades import builtin_catalog
-from filters.synthesis import synthesize
+from tolspread.grades import builtin_catalog
+from tolspread.synthesis import synthesize
 
 pytestmark = pytest.mark.gui
 
 
 @pytest.fixture
 def window(qtbot):
-    from app.qt_main import make_window
+    from tolspread.app.qt_main import make_window
 
     w = make_window(None)
     qtbot.addWidget(w, before_close_func=lambda w: w.session.undo_stack.setClean())
@@ -38,7 +38,7 @@ def _spin(condition, seconds: float = 60.0) -> None:
 
 
 def test_new_design_from_a_response_replaces_the_design(window, monkeypatch):
-    from app import qt_synthesis_dialog
+    from tolspread.app import qt_synthesis_dialog
 
     def accept_default(dlg):  # the dialog as a user leaves it after typing a spec
         dlg.set_inputs({**dlg.inputs(), "order": 4, "cutoff": "5k"})
@@ -47,13 +47,13 @@ def test_new_design_from_a_response_replaces_the_design(window, monkeypatch):
 
     monkeypatch.setattr(qt_synthesis_dialog.SynthesisDialog, "exec", accept_default)
     window.new_from_response()
-    want = synthesize("butterworth", 4, 5000.0).design  # filters.synthesis is the reference
+    want = synthesize("butterworth", 4, 5000.0).design  # tolspread.synthesis is the reference
     assert window.session.design == want
     assert window.session.dirty
 
 
 def test_edited_costs_become_the_designs_own_grades_and_undo(window, monkeypatch):
-    from app import qt_catalog_dialog
+    from tolspread.app import qt_catalog_dialog
 
     def edit_and_accept(dlg):
         row = dlg.row_of("R-thick-1")
@@ -71,8 +71,8 @@ def test_edited_costs_become_the_designs_own_grades_and_undo(window, monkeypatch
 
 
 def test_recommendation_dialog_applies_the_cheapest_grades(window):
-    from app.qt_recommend import RecommendDialog
-    from filters.recommend import recommend
+    from tolspread.app.qt_recommend import RecommendDialog
+    from tolspread.recommend import recommend
 
     dlg = RecommendDialog(window.session.design, window)
     dlg.samples.setValue(1000)

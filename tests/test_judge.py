@@ -1,4 +1,4 @@
-"""Checks of filters.judge (mask judging) and of the frequency grid it works on, held
+"""Checks of tolspread.judge (mask judging) and of the frequency grid it works on, held
 against references outside the project.
 
 References used below:
@@ -11,8 +11,8 @@ References used below:
            TI SLOA024, equation numbers from memory [M]; re-derived by nodal analysis [D]).
   [RC]     first-order RC sections, elementary circuit theory (from memory): low-pass
            H = 1/(1 + sRC), high-pass H = sRC/(1 + sRC).
-  [DOC]    the documented behaviour under test (README "Design files", filters.mask and
-           filters.judge docstrings): every span edge is a grid point, a span is checked at
+  [DOC]    the documented behaviour under test (README "Design files", tolspread.mask and
+           tolspread.judge docstrings): every span edge is a grid point, a span is checked at
            its ends and every grid point between, a sloped limit is linear in dB against
            log frequency, a relative span is relative to the nominal design's passband gain,
            positive margin = pass.
@@ -25,11 +25,11 @@ import numpy as np
 import pytest
 import scipy.signal
 
-from filters.design import design_from_dict
-from filters.designfile import load_demo
-from filters.evaluate import evaluate, evaluate_values, frequency_grid, prepare
-from filters.judge import plan
-from filters.mask import Span
+from tolspread.design import design_from_dict
+from tolspread.designfile import load_demo
+from tolspread.evaluate import evaluate, evaluate_values, frequency_grid, prepare
+from tolspread.judge import plan
+from tolspread.mask import Span
 
 TWO_PI = 2 * math.pi
 DB_TOL = 1e-9  # dB; both sides evaluate the same rational function in double precision

@@ -13,9 +13,9 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
-from filters.designfile import load_demo
-from filters.errors import Cancelled
-from filters.evaluate import evaluate
+from tolspread.designfile import load_demo
+from tolspread.errors import Cancelled
+from tolspread.evaluate import evaluate
 
 
 def test_chunked_results_do_not_depend_on_the_chunk_size():
@@ -61,7 +61,7 @@ def test_cancel_stops_between_chunks():
 
 @pytest.mark.gui
 def test_window_session_cancels_a_million_board_run_within_200_ms(qtbot):
-    from app.qt_session import Session
+    from tolspread.app.qt_session import Session
 
     d = load_demo()
     big = replace(d, analysis=replace(d.analysis, samples=1_000_000))
@@ -86,7 +86,7 @@ def test_window_session_cancels_a_million_board_run_within_200_ms(qtbot):
 def test_ctrl_c_stops_the_command_line_cleanly(tmp_path):
     env = dict(os.environ, TOLSPREAD_CONFIG_DIR=str(tmp_path))
     out = tmp_path / "r.json"
-    proc = subprocess.Popen([sys.executable, "-m", "app.cli", "analyze", "--samples", "5000000",
+    proc = subprocess.Popen([sys.executable, "-m", "tolspread.app.cli", "analyze", "--samples", "5000000",
                              "--json", str(out)], stdout=subprocess.PIPE, stderr=subprocess.PIPE, env=env,
                             text=True)
     time.sleep(3.0)

@@ -4,7 +4,7 @@ The spread budget, corners and summaries are taken in chunks of boards; they mus
 what one whole-array numpy computation gives (checked here against numpy itself:
 ``numpy.percentile``, ``mean``, ``std`` and ``numpy.linalg.lstsq`` on the whole data
 matrix), while their memory does not grow with the boards. A run keeps at most
-``filters.memory.MAX_NUMBERS`` per-board numbers and a design at most ``MAX_PARTS`` parts;
+``tolspread.memory.MAX_NUMBERS`` per-board numbers and a design at most ``MAX_PARTS`` parts;
 beyond them the command line refuses in one line naming the field, before any work.
 """
 from __future__ import annotations
@@ -20,16 +20,16 @@ import numpy as np
 import pytest
 
 from benchmarks.memory import cascade
-from filters.analysis import analyze
-from filters import budget as budget_mod
-from filters.budget import is_log_metric, metric_columns, spread_budget
-from filters.corners import corners
-from filters.design import MAX_PARTS
-from filters.designfile import load_demo, save
-from filters.errors import InputError, ValidationError
-from filters.evaluate import evaluate, prepare
-from filters.memory import MAX_NUMBERS, max_boards, numbers_per_board
-from filters.summary import summarize
+from tolspread.analysis import analyze
+from tolspread import budget as budget_mod
+from tolspread.budget import is_log_metric, metric_columns, spread_budget
+from tolspread.corners import corners
+from tolspread.design import MAX_PARTS
+from tolspread.designfile import load_demo, save
+from tolspread.errors import InputError, ValidationError
+from tolspread.evaluate import evaluate, prepare
+from tolspread.memory import MAX_NUMBERS, max_boards, numbers_per_board
+from tolspread.summary import summarize
 
 ROOT = Path(__file__).resolve().parents[1]
 TOL = 1e-12  # the chunked sums differ from one numpy call only by rounding
@@ -127,10 +127,10 @@ CHILD = textwrap.dedent("""
     import json, resource, sys, tracemalloc
     from dataclasses import replace
     from benchmarks.memory import cascade
-    from filters.budget import spread_budget
-    from filters.corners import corners
-    from filters.evaluate import evaluate, prepare
-    from filters.summary import summarize
+    from tolspread.budget import spread_budget
+    from tolspread.corners import corners
+    from tolspread.evaluate import evaluate, prepare
+    from tolspread.summary import summarize
     design = cascade(8)
     prep = prepare(design)
     ens = evaluate(design, samples=int(sys.argv[1]), curves=False, prepared=prep)
@@ -186,12 +186,12 @@ def big_design_file(tmp_path, n_parts, samples):
 
 def test_more_parts_than_the_limit_are_refused_naming_the_field(tmp_path):
     path = big_design_file(tmp_path, MAX_PARTS + 1, 1000)
-    from filters.designfile import load
+    from tolspread.designfile import load
 
     with pytest.raises(ValidationError) as err:
         load(path)
     assert any(p.path == "parts" and f"at most {MAX_PARTS} parts" in p.reason for p in err.value.problems)
-    proc = subprocess.run([sys.executable, "-m", "app.cli", "analyze", str(path)], capture_output=True,
+    proc = subprocess.run([sys.executable, "-m", "tolspread.app.cli", "analyze", str(path)], capture_output=True,
                           text=True, timeout=120, cwd=ROOT)
     assert proc.returncode == 2
     assert "Traceback" not in proc.stderr and "parts" in proc.stderr
@@ -213,7 +213,7 @@ def test_samples_beyond_the_memory_rule_are_refused_before_any_work(tmp_path):
         analyze(design, half_width=0.01, max_samples=most + 1)
     assert err.value.path == "max_samples"
     path = big_design_file(tmp_path, MAX_PARTS, 10_000_000)
-    proc = subprocess.run([sys.executable, "-m", "app.cli", "analyze", str(path)], capture_output=True,
+    proc = subprocess.run([sys.executable, "-m", "tolspread.app.cli", "analyze", str(path)], capture_output=True,
                           text=True, timeout=120, cwd=ROOT)
     assert proc.returncode == 2, proc.stderr
     lines = proc.stderr.strip().splitlines()

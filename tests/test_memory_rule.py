@@ -16,13 +16,13 @@ from pathlib import Path
 import pytest
 
 from benchmarks.memory import cascade
-from filters.design import MAX_PARTS
-from filters.designfile import save
-from filters.errors import Cancelled, InputError
-from filters.evaluate import prepare
-from filters.liveview import ViewRequest, compute_view
-from filters.memory import MAX_NUMBERS
-from filters.recommend import recommend
+from tolspread.design import MAX_PARTS
+from tolspread.designfile import save
+from tolspread.errors import Cancelled, InputError
+from tolspread.evaluate import prepare
+from tolspread.liveview import ViewRequest, compute_view
+from tolspread.memory import MAX_NUMBERS
+from tolspread.recommend import recommend
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -68,7 +68,7 @@ def test_command_line_recommend_refuses_in_one_line(big, tmp_path):
     design, prep, most = big
     path = tmp_path / "big.json"
     save(design, str(path))
-    proc = subprocess.run([sys.executable, "-m", "app.cli", "recommend", str(path), "--target-yield", "0.9",
+    proc = subprocess.run([sys.executable, "-m", "tolspread.app.cli", "recommend", str(path), "--target-yield", "0.9",
                            "--samples", str(most // 4 + 1)], capture_output=True, text=True, timeout=120,
                           cwd=ROOT)
     assert proc.returncode == 2, proc.stderr
@@ -82,9 +82,9 @@ def test_window_boards_box_refuses_a_count_beyond_the_rule(qtbot, monkeypatch):
     pytest.importorskip("pytestqt")
     from PySide6.QtCore import Qt
 
-    from app.qt_main import make_window
-    from filters import memory
-    from filters.designfile import load_demo
+    from tolspread.app.qt_main import make_window
+    from tolspread import memory
+    from tolspread.designfile import load_demo
 
     w = make_window(None)
     # closing must not ask about the unsaved edit (a modal box would wait for ever)

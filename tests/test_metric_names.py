@@ -1,4 +1,4 @@
-"""Metric names, units and span labels (filters.metric_names; issue 12, item 2).
+"""Metric names, units and span labels (tolspread.metric_names; issue 12, item 2).
 
 Two defects came from names built and parsed in many places:
   1. a phase span's margin printed as "margin of 'phase floor' (dB)", its corner values in dB
@@ -25,14 +25,14 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from filters import metric_names as mn
-from filters.budget import metric_columns
-from filters.design import design_from_dict
-from filters.designfile import load
-from filters.errors import ValidationError
-from filters.evaluate import evaluate
-from filters.mask import Span
-from filters.values import parse_value
+from tolspread import metric_names as mn
+from tolspread.budget import metric_columns
+from tolspread.design import design_from_dict
+from tolspread.designfile import load
+from tolspread.errors import ValidationError
+from tolspread.evaluate import evaluate
+from tolspread.mask import Span
+from tolspread.values import parse_value
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "filters" / "data" / "demo_design.json"

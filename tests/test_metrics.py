@@ -1,5 +1,5 @@
-"""Checks of filters.metrics (cutoff, band edges, peaking, stage f0/Q, pole pairs,
-attenuation), through filters.evaluate, against closed forms and reference libraries.
+"""Checks of tolspread.metrics (cutoff, band edges, peaking, stage f0/Q, pole pairs,
+attenuation), through tolspread.evaluate, against closed forms and reference libraries.
 
 References used below (tags as in tests/REFERENCES.md):
   [KARKI]  J. Karki, TI SLOA024, Sallen-Key closed forms (equation numbers from memory [M];
@@ -26,11 +26,11 @@ import numpy as np
 import pytest
 import scipy.signal
 
-from filters.design import design_from_dict
-from filters.designfile import load_demo
-from filters.engine import StageCoefficients, compile_design, frequency_response, stage_coefficients
-from filters.evaluate import evaluate
-from filters.metrics import attenuation_db, cutoff_metrics, pole_pairs, reference_gain2
+from tolspread.design import design_from_dict
+from tolspread.designfile import load_demo
+from tolspread.engine import StageCoefficients, compile_design, frequency_response, stage_coefficients
+from tolspread.evaluate import evaluate
+from tolspread.metrics import attenuation_db, cutoff_metrics, pole_pairs, reference_gain2
 
 TWO_PI = 2 * math.pi
 HALF_POWER_DB = 10 * math.log10(2)
@@ -171,7 +171,7 @@ def test_bandpass_centre_uniform_grid():
 
 def test_bandpass_centre_grid_with_extra_points():
     # source: [SLOA049] f_m, rtol 1e-3 as above. Mask edges and extra frequencies are
-    # merged into the grid (filters.evaluate.frequency_grid), so the grid is no longer
+    # merged into the grid (tolspread.evaluate.frequency_grid), so the grid is no longer
     # evenly spaced in log f; here the extra point is f_m itself, the best case.
     m = evaluate(bandpass_design(), samples=1, extra_freqs=[FM]).nominal.metrics
     np.testing.assert_allclose(m["centre_hz"], FM, rtol=1e-3)
@@ -190,7 +190,7 @@ def test_bandpass_edges_exact_when_peak_is_on_the_grid():
 @pytest.mark.parametrize("points", [50, 400])
 def test_bandpass_bandwidth_does_not_depend_on_the_grid(points):
     # source: [SLOA049]/[TEXT] half-power bandwidth f_m/Q = 1/(pi R3 C) exactly, midband
-    # gain 20 log10(R3/(2 R1)); filters.metrics promises crossings that do not depend on
+    # gain 20 log10(R3/(2 R1)); tolspread.metrics promises crossings that do not depend on
     # the grid density. f_m is not a grid point here.
     ens = evaluate(bandpass_design(points=points), samples=1)
     assert np.min(np.abs(ens.freqs_hz / FM - 1)) > 1e-4
@@ -464,8 +464,8 @@ def test_pole_bound_holds_on_dense_grids():
     # random intervals, for the demo's boards, the LC ladder and the band-pass example.
     from pathlib import Path
 
-    from filters.designfile import load
-    from filters.metrics import _all_poles, _gain2_bound
+    from tolspread.designfile import load
+    from tolspread.metrics import _all_poles, _gain2_bound
 
     rng = np.random.default_rng(5)
     example = Path(__file__).resolve().parents[1] / "assets" / "examples" / "ultrasonic_bandpass.json"

@@ -1,4 +1,4 @@
-"""Checks of filters.netlist and filters.topologies: the transfer functions the engine
+"""Checks of tolspread.netlist and tolspread.topologies: the transfer functions the engine
 derives by sympy nodal analysis, held against published closed forms.
 
 Sources, abbreviated below (see tests/REFERENCES.md for tags):
@@ -22,10 +22,10 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from filters.engine import frequency_response, stage_coefficients
-from filters.metrics import stage_metrics
-from filters.netlist import Element, Netlist, OpAmp, derive, symbolic_coefficients
-from filters.topologies import TOPOLOGIES, build
+from tolspread.engine import frequency_response, stage_coefficients
+from tolspread.metrics import stage_metrics
+from tolspread.netlist import Element, Netlist, OpAmp, derive, symbolic_coefficients
+from tolspread.topologies import TOPOLOGIES, build
 
 from designs import make  # shared builder: tests/designs.py
 
@@ -126,7 +126,7 @@ def test_single_pole_follower():
 
 
 def test_netlist_without_output_node_is_refused():
-    # source: filters.netlist docstring contract (input node 'in', output node 'out')
+    # source: tolspread.netlist docstring contract (input node 'in', output node 'out')
     with pytest.raises(ValueError):
         derive(Netlist((Element("R", "R1", "in", "x"), Element("R", "R2", "x", "0"))))
 

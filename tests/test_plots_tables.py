@@ -2,7 +2,7 @@
 
 The window is started as a user starts it (``make_window`` then ``show``) and each test
 waits for the figures it shows; nothing here calls ``evaluate_now`` or a private method to
-do the program's work. Expected numbers come from the library (``filters.liveview``) or
+do the program's work. Expected numbers come from the library (``tolspread.liveview``) or
 from arithmetic written out in the test.
 """
 from __future__ import annotations
@@ -22,9 +22,9 @@ from PySide6.QtGui import QColor  # noqa: E402
 from PySide6.QtTest import QTest  # noqa: E402
 from PySide6.QtWidgets import QApplication, QLabel  # noqa: E402
 
-from app.qt_main import make_window  # noqa: E402
-from filters.designfile import demo_text, load_demo  # noqa: E402
-from filters.liveview import ViewRequest, compute_view  # noqa: E402
+from tolspread.app.qt_main import make_window  # noqa: E402
+from tolspread.designfile import demo_text, load_demo  # noqa: E402
+from tolspread.liveview import ViewRequest, compute_view  # noqa: E402
 
 pytestmark = pytest.mark.gui
 

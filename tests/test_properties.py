@@ -39,17 +39,17 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy import signal
 
-from filters import designfile
-from filters.design import INTERVALS, Design, design_from_dict
-from filters.designfile import FORMAT_TAG, VERSION, dumps, load, loads, save
-from filters.engine import compile_design, stage_coefficients
-from filters.errors import InputError, ValidationError
-from filters.evaluate import evaluate
-from filters.grades import DISTRIBUTIONS, builtin_catalog
-from filters.mask import Span
-from filters.sampling import METHODS
-from filters.topologies import TOPOLOGIES, build
-from filters.values import _E_INT, format_rkm, format_value, parse_value
+from tolspread import designfile
+from tolspread.design import INTERVALS, Design, design_from_dict
+from tolspread.designfile import FORMAT_TAG, VERSION, dumps, load, loads, save
+from tolspread.engine import compile_design, stage_coefficients
+from tolspread.errors import InputError, ValidationError
+from tolspread.evaluate import evaluate
+from tolspread.grades import DISTRIBUTIONS, builtin_catalog
+from tolspread.mask import Span
+from tolspread.sampling import METHODS
+from tolspread.topologies import TOPOLOGIES, build
+from tolspread.values import _E_INT, format_rkm, format_value, parse_value
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -133,7 +133,7 @@ def custom_grades(draw, index: int):
         "drift_pct": st.floats(0, 50), "cost": st.floats(0, 100),
         "technology": st.text(max_size=12)})))
     if dist == "normal" and g.get("truncate") is False and tol / g.get("coverage", 2.0) * 8 >= 100:
-        g["truncate"] = True  # untruncated, 8 standard deviations must stay above zero (filters.grades)
+        g["truncate"] = True  # untruncated, 8 standard deviations must stay above zero (tolspread.grades)
     return g
 
 
@@ -406,8 +406,8 @@ ensemble_hash = _ns["ensemble_hash"]
 
 _CHILD_SRC = _HASH_SRC + '''
 import sys
-from filters.designfile import load
-from filters.evaluate import evaluate
+from tolspread.designfile import load
+from tolspread.evaluate import evaluate
 print(ensemble_hash(evaluate(load(sys.argv[1]), samples=int(sys.argv[2]), delay=True)))
 '''
 
@@ -688,7 +688,7 @@ def test_valid_grades_sample_only_positive_part_values(grade, analysis):
     """[INV] a grade and temperature range are either refused at load (naming the field) or
     sample only part values above 0 (a resistance of -2 kohm has no meaning and its
     f0 = sqrt(negative) is NaN)."""
-    from filters.sampling import draw_scores, part_values
+    from tolspread.sampling import draw_scores, part_values
 
     doc = copy.deepcopy(DEMO)
     doc["grades"] = [grade]

@@ -1,9 +1,9 @@
-"""Checks of filters.recommend (cheapest grades that meet a yield target, parts list) against
+"""Checks of tolspread.recommend (cheapest grades that meet a yield target, parts list) against
 an exhaustive search written here, scipy.stats and published tables.
 
 References used below:
   [BRUTE]  an exhaustive search written in this file: all 4^4 = 256 grade sets of the test
-           design evaluated with filters.evaluate.evaluate on one seed and sample count (the
+           design evaluated with tolspread.evaluate.evaluate on one seed and sample count (the
            same boards), the cheapest set whose lower bound meets the target picked here.
   [BINOM]  the one-sided lower confidence bound at confidence C as the lower end of the
            two-sided Wilson (1927) interval at level 2C - 1, from
@@ -32,12 +32,12 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from filters.budget import spread_budget
-from filters.design import design_from_dict
-from filters.errors import Cancelled, InputError
-from filters.evaluate import evaluate, prepare
-from filters.grades import Catalog
-from filters.recommend import (FRESH_SEED_OFFSET, PARTS_COLUMNS, Recommendation, candidate_grades,
+from tolspread.budget import spread_budget
+from tolspread.design import design_from_dict
+from tolspread.errors import Cancelled, InputError
+from tolspread.evaluate import evaluate, prepare
+from tolspread.grades import Catalog
+from tolspread.recommend import (FRESH_SEED_OFFSET, PARTS_COLUMNS, Recommendation, candidate_grades,
                                cost_yield_curve, parts_list_rows, recommend, worst_margin_metric,
                                write_parts_csv)
 

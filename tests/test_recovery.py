@@ -29,7 +29,7 @@ CHILD = textwrap.dedent("""
     from PySide6.QtTest import QTest
     from PySide6.QtWidgets import QApplication
     app = QApplication([])
-    from app.qt_main import make_window
+    from tolspread.app.qt_main import make_window
     w = make_window(None)
     w.show()
     field = w.parts.rows["R1"].value
@@ -88,7 +88,7 @@ class Asked:
 
 
 def new_window(qtbot):
-    from app.qt_main import make_window, offer_recovery
+    from tolspread.app.qt_main import make_window, offer_recovery
 
     w = make_window(None)
     qtbot.addWidget(w, before_close_func=lambda w: w.session.undo_stack.setClean())
@@ -163,7 +163,7 @@ def test_a_live_window_in_another_process_is_not_taken_for_a_crash(tmp_path, qtb
 def test_two_windows_in_one_process_keep_their_own_files(qtbot, monkeypatch):
     from PySide6.QtWidgets import QMessageBox
 
-    from filters.designfile import load
+    from tolspread.designfile import load
 
     asked = Asked(monkeypatch, QMessageBox.StandardButton.No)
     first = new_window(qtbot)
@@ -190,9 +190,9 @@ def test_a_recovery_file_that_does_not_open_is_kept_and_the_user_told(tmp_path, 
     and was deleted on close."""
     from PySide6.QtWidgets import QMessageBox
 
-    from app import userfiles
-    from filters.designfile import demo_text, loads
-    from filters.errors import InputError
+    from tolspread.app import userfiles
+    from tolspread.designfile import demo_text, loads
+    from tolspread.errors import InputError
 
     bad = json.loads(demo_text())
     bad["parts"][0]["value"] = "1e16"  # beyond the 1e15 any part may have
@@ -223,8 +223,8 @@ def _problem_texts(w) -> str:
 def test_only_a_chosen_discard_deletes_left_work(qtbot, monkeypatch, answer, stays):
     from PySide6.QtWidgets import QMessageBox
 
-    from app import userfiles
-    from filters.designfile import demo_text
+    from tolspread.app import userfiles
+    from tolspread.designfile import demo_text
 
     rec = userfiles.recovery_dir() / "20240101-000000-1-beef.json"
     rec.write_text(demo_text(), encoding="utf-8")

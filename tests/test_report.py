@@ -1,7 +1,7 @@
 """The HTML report: well-formed, self-contained, escaped, and showing the library's numbers.
 
-The references are outside the report code: the numbers come from filters.analysis /
-filters.stats / filters.corners, the markup is checked with Python's html.parser and
+The references are outside the report code: the numbers come from tolspread.analysis /
+tolspread.stats / tolspread.corners, the markup is checked with Python's html.parser and
 xml.etree, the figure geometry against the frequency axis it claims to draw.
 """
 from __future__ import annotations
@@ -17,13 +17,13 @@ from html.parser import HTMLParser
 import numpy as np
 import pytest
 
-from filters.analysis import analyze
-from filters.designfile import load_demo
-from filters.evaluate import evaluate
-from filters.report import (CAUTION, build_report, format_pct, svg_bar_chart, svg_cost_yield,
+from tolspread.analysis import analyze
+from tolspread.designfile import load_demo
+from tolspread.evaluate import evaluate
+from tolspread.report import (CAUTION, build_report, format_pct, svg_bar_chart, svg_cost_yield,
                             svg_histogram, svg_spread_plot, write_report)
-from filters.stats import yield_estimate
-from filters.values import format_value
+from tolspread.stats import yield_estimate
+from tolspread.values import format_value
 
 WHEN = datetime(2026, 1, 2, 3, 4)
 VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta", "source", "track", "wbr"}
@@ -377,7 +377,7 @@ def test_format_pct():
 # --- optional sections, files, edge cases --------------------------------------------------------
 
 def test_recommendation_curve_and_parts_list():
-    rec_mod = pytest.importorskip("filters.recommend")
+    rec_mod = pytest.importorskip("tolspread.recommend")
     design = load_demo()
     result = analyze(design, samples=500)
     rec = rec_mod.recommend(design, 0.6, samples=300, max_evaluations=8, verify_factor=1)
@@ -520,7 +520,7 @@ def test_every_table_header_is_named_and_in_thead(demo_html):
 @pytest.fixture(scope="module")
 def recommended():
     """The command line's way: recommend, then analyse the design with the chosen grades."""
-    rec_mod = pytest.importorskip("filters.recommend")
+    rec_mod = pytest.importorskip("tolspread.recommend")
     design = load_demo()
     rec = rec_mod.recommend(design, 0.9, samples=400, max_evaluations=40, verify_factor=1)
     assert rec.chosen is not None and tuple(p.grade for p in design.parts) != rec.chosen.grades

@@ -20,9 +20,9 @@ from pathlib import Path
 
 import pytest
 
-from filters import designfile, safeio
-from filters.designfile import dumps, load, load_demo, loads, save
-from filters.errors import InputError
+from tolspread import designfile, safeio
+from tolspread.designfile import dumps, load, load_demo, loads, save
+from tolspread.errors import InputError
 
 posix_only = pytest.mark.skipif(os.name != "posix", reason="POSIX file modes, FIFOs and signals")
 
@@ -38,8 +38,8 @@ def _temporaries(folder: Path) -> list[str]:
 def test_new_files_get_the_mode_the_umask_gives(tmp_path, umask, mode):
     # A new file is created with 0666 minus the umask (POSIX open(2), from memory), as
     # Qt's PNG and PDF writers do; the old temp-file route always gave 0600.
-    from filters.recommend import write_parts_csv
-    from filters.report import svg_spread_plot  # noqa: F401  (the SVG export writes text the same way)
+    from tolspread.recommend import write_parts_csv
+    from tolspread.report import svg_spread_plot  # noqa: F401  (the SVG export writes text the same way)
 
     old = os.umask(umask)
     try:
@@ -165,7 +165,7 @@ def test_temporaries_of_killed_saves_are_removed_by_the_next_save(tmp_path):
 
 _SAVER = textwrap.dedent("""
     import sys
-    from filters.safeio import write_text_atomic
+    from tolspread.safeio import write_text_atomic
     target, a, b = sys.argv[1:4]
     texts = [open(a, encoding="utf-8").read(), open(b, encoding="utf-8").read()]
     print("ready", flush=True)
@@ -275,7 +275,7 @@ def test_reads_stop_at_the_byte_limit(tmp_path):
 
 
 def test_guarded_json_is_the_same_for_designs_and_catalogs(tmp_path):
-    from filters.grades import load_catalog
+    from tolspread.grades import load_catalog
 
     for text in ("[" * 30 + "]" * 30, '{"a": ' + "1" * 5000 + "}"):
         for reader in (load, load_catalog):

@@ -13,11 +13,11 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from filters.design import design_from_dict
-from filters.errors import InputError
-from filters.evaluate import evaluate
-from filters.grades import Grade, builtin_catalog
-from filters.sampling import (BLOCK, REFERENCE_CELSIUS, Conditions, columns, draw_scores, limits,
+from tolspread.design import design_from_dict
+from tolspread.errors import InputError
+from tolspread.evaluate import evaluate
+from tolspread.grades import Grade, builtin_catalog
+from tolspread.sampling import (BLOCK, REFERENCE_CELSIUS, Conditions, columns, draw_scores, limits,
                               part_values)
 
 
@@ -131,7 +131,7 @@ def test_tighter_grade_rescales_the_same_boards():
 
 def test_evaluate_with_grade_override_uses_the_same_boards():
     # The same via evaluate(grades=...) on the demo's parts: equal grades give equal values.
-    from filters.designfile import load_demo
+    from tolspread.designfile import load_demo
 
     d = load_demo()
     cat = d.catalog

@@ -1,4 +1,4 @@
-"""Checks of filters.stats against outside sources, each named beside its check.
+"""Checks of tolspread.stats against outside sources, each named beside its check.
 
 Sources, abbreviated below (tests/REFERENCES.md section 8):
   [W27]    Wilson (1927), JASA 22:209-212 - the score interval: the p with
@@ -25,9 +25,9 @@ from hypothesis import strategies as st
 from scipy import special
 from scipy import stats as sps
 
-import filters.stats as fstats
-from filters.errors import Cancelled, InputError
-from filters.stats import (
+import tolspread.stats as fstats
+from tolspread.errors import Cancelled, InputError
+from tolspread.stats import (
     SpanFailures,
     YieldEstimate,
     adaptive_yield,
@@ -157,7 +157,7 @@ def test_zero_failures_matches_scipy_exact(n, confidence):
 # --- planning the number of samples ----------------------------------------------------
 
 def ref_half_width(n: int, p: float, confidence: float, method: str) -> float:
-    """Half-width at k = p n by the definitions, written independently of filters.stats."""
+    """Half-width at k = p n by the definitions, written independently of tolspread.stats."""
     k = p * n
     if method == "wilson":
         # [W27]: roots of (1 + z^2/n) q^2 - (2 k/n + z^2/n) q + (k/n)^2 = 0
@@ -415,7 +415,7 @@ def test_wilson_fast_path_matches_scipy_everywhere(n, frac, conf):
 @pytest.mark.parametrize("target, p, method", [(0.995, 1.0, "wilson"), (0.99, 1.0, "exact"),
                                                (0.95, 0.97, "wilson"), (0.9, 0.93, "exact")])
 def test_samples_to_show_is_the_fewest_boards_whose_lower_bound_reaches_the_target(target, p, method):
-    from filters.stats import samples_to_show
+    from tolspread.stats import samples_to_show
 
     n = samples_to_show(target, p, 0.95, method)
 
@@ -432,7 +432,7 @@ def test_samples_to_show_is_the_fewest_boards_whose_lower_bound_reaches_the_targ
 
 
 def test_samples_to_show_refuses_a_yield_not_above_the_target():
-    from filters.stats import samples_to_show
+    from tolspread.stats import samples_to_show
 
     with pytest.raises(InputError) as e:
         samples_to_show(0.95, 0.95)

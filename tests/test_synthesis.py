@@ -16,16 +16,16 @@ import numpy as np
 import pytest
 from scipy import optimize, signal
 
-from app.cli_design import add_parser, run
-from filters.analysis import analyze
-from filters.design import design_from_dict
-from filters.designfile import dumps, load, loads
-from filters.engine import compile_design, frequency_response, stage_coefficients
-from filters.errors import InputError
-from filters.evaluate import evaluate, prepare
-from filters.synthesis import (GbwWarning, gbw_warnings, opamp_shift_table, prototype_sections,
+from tolspread.app.cli_design import add_parser, run
+from tolspread.analysis import analyze
+from tolspread.design import design_from_dict
+from tolspread.designfile import dumps, load, loads
+from tolspread.engine import compile_design, frequency_response, stage_coefficients
+from tolspread.errors import InputError
+from tolspread.evaluate import evaluate, prepare
+from tolspread.synthesis import (GbwWarning, gbw_warnings, opamp_shift_table, prototype_sections,
                                section_values, synthesize)
-from filters.values import E_SERIES
+from tolspread.values import E_SERIES
 
 TWO_PI = 2 * math.pi
 HALF_POWER_DB = 10 * math.log10(2)
@@ -64,7 +64,7 @@ TABLE_Q = {
 }
 
 
-# --- helpers (independent of filters.synthesis) ----------------------------------------
+# --- helpers (independent of tolspread.synthesis) ----------------------------------------
 
 def scipy_prototype(response: str, order: int, ripple: float | None):
     """Normalized low-pass zpk straight from scipy.signal; Chebyshev scaled so that |H|^2 is
@@ -364,7 +364,7 @@ def test_snapped_report_matches_independent_evaluation():
 
 
 def test_snapping_uses_the_series_and_keeps_caps_from_cap_series():
-    # IEC 60063 values (tests/REFERENCES.md section 1 [C]) via filters.values.E_SERIES
+    # IEC 60063 values (tests/REFERENCES.md section 1 [C]) via tolspread.values.E_SERIES
     res = synthesize("chebyshev", 6, 7000.0, ripple_db=2.0, series="E96", cap_series="E6",
                      topology="mfb_lowpass")
     for p in res.design.parts:
@@ -585,7 +585,7 @@ def test_cli_design_bad_input_names_the_option(argv, path, tmp_path):
 
 def test_highpass_with_finite_gbw_keeps_a_passband_reference():
     # A single-pole op-amp (A = wt/s) rolls every active high-pass off at high frequency,
-    # so the passband reference is the peak there (filters.metrics.reference_gain2); the
+    # so the passband reference is the peak there (tolspread.metrics.reference_gain2); the
     # nominal cutoff then stays near the ideal one when the GBW is ample (ideal limit,
     # Budak & Petrela 1972, from memory).
     fast = synthesize("butterworth", 4, 1000.0, kind="highpass", gbw_hz=1e9, snap=False)

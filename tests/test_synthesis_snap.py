@@ -22,10 +22,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from filters.designfile import load
-from filters.engine import compile_design, stage_coefficients
-from filters.metrics import stage_metrics
-from filters.values import parse_value
+from tolspread.designfile import load
+from tolspread.engine import compile_design, stage_coefficients
+from tolspread.metrics import stage_metrics
+from tolspread.values import parse_value
 from test_synthesis import (_scipy_target, chebyshev_omega_c, engine_gain_db, scipy_gain_db,
                             sk_lowpass_closed_form, values_by_role)
 
@@ -307,7 +307,7 @@ def test_cutoffs_near_the_range_ends_build_in_range(cutoff, tmp_path):
 
 @pytest.fixture
 def dialog(qtbot):
-    from app.qt_synthesis_dialog import SynthesisDialog
+    from tolspread.app.qt_synthesis_dialog import SynthesisDialog
 
     d = SynthesisDialog()
     qtbot.addWidget(d)

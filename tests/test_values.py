@@ -1,4 +1,4 @@
-"""Checks of filters.values against outside sources, each named beside its check.
+"""Checks of tolspread.values against outside sources, each named beside its check.
 
 Sources, abbreviated below:
   [IEC63]  IEC 60063:2015, Tables 1 (E3-E24) and 2 (E48-E192). The standard itself was not
@@ -23,8 +23,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from filters.errors import InputError
-from filters.values import (
+from tolspread.errors import InputError
+from tolspread.values import (
     E_SERIES,
     TOLERANCE_LETTERS,
     format_rkm,

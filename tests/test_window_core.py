@@ -1,6 +1,6 @@
 """The window's core behaviour, driven the way a person drives it (issue 10: 1, 2, 4-8, 12).
 
-The window is started through the console script's own function, ``app.cli.main`` (what
+The window is started through the console script's own function, ``tolspread.app.cli.main`` (what
 ``tolspread`` runs). ``QApplication.exec`` is replaced by a call that returns at once, so
 ``main`` returns after it has built and shown the window; from then on ``qtbot`` runs the
 real event loop while the test waits, as a person waits, for figures to appear.
@@ -35,9 +35,9 @@ from PySide6.QtTest import QTest  # noqa: E402
 from PySide6.QtWidgets import (QApplication, QDialog, QFileDialog, QMenu, QMessageBox, QToolBar,  # noqa: E402
                                QToolButton)
 
-from filters.designfile import dumps, load, load_demo  # noqa: E402
-from filters.evaluate import evaluate  # noqa: E402
-from filters.stats import yield_estimate  # noqa: E402
+from tolspread.designfile import dumps, load, load_demo  # noqa: E402
+from tolspread.evaluate import evaluate  # noqa: E402
+from tolspread.stats import yield_estimate  # noqa: E402
 
 pytestmark = pytest.mark.gui
 
@@ -53,10 +53,10 @@ def _no_evaluate_now(self):
 
 
 class Program:
-    """``tolspread ARGS`` started through ``app.cli.main``; its window and the answers it gets."""
+    """``tolspread ARGS`` started through ``tolspread.app.cli.main``; its window and the answers it gets."""
 
     def __init__(self, qtbot, monkeypatch) -> None:
-        from app.qt_session import Session
+        from tolspread.app.qt_session import Session
 
         self.qtbot = qtbot
         self.mp = monkeypatch
@@ -82,7 +82,7 @@ class Program:
         return (self.open_paths.pop(0) if self.open_paths else "", "")
 
     def start(self, *args: str):
-        from app.cli import main
+        from tolspread.app.cli import main
 
         before = {id(w) for w in _main_windows()}
         hook = sys.excepthook  # pytest-qt's: an exception in a slot fails the test
@@ -162,7 +162,7 @@ def new_boards_edit(qtbot, w) -> None:
 def test_window_computes_on_start_without_an_edit(program, qtbot):
     w = program.start()
     qtbot.waitUntil(lambda: shown_yield(w) is not None, timeout=WAIT_MS)
-    # the figure is the library's own for the demo (filters.evaluate + filters.stats)
+    # the figure is the library's own for the demo (tolspread.evaluate + tolspread.stats)
     assert library_yield_text(load_demo()) in w.results.yield_label.text()
     assert not w.session.dirty
 
@@ -200,7 +200,7 @@ def test_open_new_and_new_from_response_compute_without_an_edit(program, qtbot, 
 
 
 def test_restored_recovery_file_is_computed(program, qtbot):
-    from app import userfiles
+    from tolspread.app import userfiles
 
     d = load_demo()
     kept = d.with_analysis(seed=d.analysis.seed + 7)
@@ -215,8 +215,8 @@ def test_restored_recovery_file_is_computed(program, qtbot):
 
 def test_screenshot_starts_the_window_normally_and_waits(program, monkeypatch, tmp_path):
     """``tolspread --screenshot`` must show the first real result, not compute it itself."""
-    from app.cli import main
-    from app.qt_mainwindow import MainWindow
+    from tolspread.app.cli import main
+    from tolspread.app.qt_mainwindow import MainWindow
 
     seen: list[str] = []
     grab = MainWindow.grab
@@ -301,7 +301,7 @@ QUIT_SCRIPT = textwrap.dedent("""
     from PySide6.QtGui import QAction
     from PySide6.QtTest import QTest
     from PySide6.QtWidgets import QApplication, QMessageBox
-    from app.cli import main
+    from tolspread.app.cli import main
 
     app = QApplication(sys.argv[:1])
 
@@ -460,8 +460,8 @@ def test_redo_keys(program, qtbot, redo_key):
 
 # --- 12: the Help menu ------------------------------------------------------------------------
 def test_help_menu_guide_shortcuts_and_about(program, qtbot):
-    from filters import __version__
-    from app import userfiles
+    from tolspread import __version__
+    from tolspread.app import userfiles
 
     w = program.start()
     menus = [a.text().replace("&", "") for a in w.menuBar().actions()]

@@ -3,7 +3,7 @@
 Everything here is done as a user does it: text typed into the fields with key events and
 Enter, table cells edited with a double-click, File > Open and File > Save As through their
 QActions with the file dialogs answered by temporary paths. The judge is the loader
-(``filters.designfile.load``), the outside reference of "a file that opens": whatever the
+(``tolspread.designfile.load``), the outside reference of "a file that opens": whatever the
 window accepts must save into a file that reopens identical, and what the loader refuses
 must be refused beside the field with the last good value kept.
 """
@@ -23,9 +23,9 @@ from PySide6.QtCore import Qt  # noqa: E402
 from PySide6.QtTest import QTest  # noqa: E402
 from PySide6.QtWidgets import QFileDialog, QMessageBox  # noqa: E402
 
-from app.qt_main import make_window  # noqa: E402
-from filters.designfile import demo_text, load  # noqa: E402
-from filters.errors import InputError  # noqa: E402
+from tolspread.app.qt_main import make_window  # noqa: E402
+from tolspread.designfile import demo_text, load  # noqa: E402
+from tolspread.errors import InputError  # noqa: E402
 from test_plots_tables import edit_cell as double_click_and_type  # noqa: E402
 from test_plots_tables import start, wait_idle  # noqa: E402  (opens as ``tolspread FILE`` does, at 1600x950)
 
@@ -97,7 +97,7 @@ def test_a_part_value_the_loader_refuses_is_refused_beside_the_field(qtbot, tmp_
 
 def load_text_with(design, ref: str, value_text: str):
     """The loader's verdict on ``design`` with part ``ref`` written as ``value_text``."""
-    from filters.designfile import loads
+    from tolspread.designfile import loads
 
     d = design.to_dict()
     for p in d["parts"]:
@@ -122,7 +122,7 @@ def test_a_span_limit_the_loader_refuses_marks_the_cell(qtbot, tmp_path, typed):
     span["limit1"] = 5000.0
     d = before.to_dict()
     d["mask"][0] = span
-    from filters.designfile import loads
+    from tolspread.designfile import loads
 
     with pytest.raises(InputError):  # the loader refuses a 5000 dB limit (the outside judge)
         loads(json.dumps(d))
@@ -227,7 +227,7 @@ def test_a_seed_beyond_the_file_range_is_refused_beside_the_box(qtbot, tmp_path,
 @pytest.mark.parametrize("seed, status", [("9223372036854775807", 0), ("9223372036854775808", 2), ("-1", 2)])
 def test_command_line_seed_range_is_the_files(tmp_path, capsys, seed, status):
     """``--seed`` takes exactly the seeds a design file may hold (0 to 2^63-1)."""
-    from app.cli import main
+    from tolspread.app.cli import main
 
     try:
         code = main(["analyze", str(small_design(tmp_path)), "--samples", "50", "--seed", seed])

@@ -1,4 +1,4 @@
-"""Checks of the yield (filters.evaluate, filters.stats through filters.analysis.analyze)
+"""Checks of the yield (tolspread.evaluate, tolspread.stats through tolspread.analysis.analyze)
 against analytic results and reference libraries.
 
 References used below:
@@ -28,10 +28,10 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from filters.analysis import analyze
-from filters.design import design_from_dict
-from filters.designfile import load_demo
-from filters.evaluate import evaluate, prepare
+from tolspread.analysis import analyze
+from tolspread.design import design_from_dict
+from tolspread.designfile import load_demo
+from tolspread.evaluate import evaluate, prepare
 
 TWO_PI = 2 * math.pi
 R_NOM, C_NOM = 10e3, 10e-9

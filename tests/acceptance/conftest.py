@@ -1,6 +1,6 @@
 """The acceptance layer: the program driven the way a person drives it.
 
-The window is started through the console script's own function (``app.cli.main``, what
+The window is started through the console script's own function (``tolspread.app.cli.main``, what
 ``tolspread`` runs), never through ``make_window``/``evaluate_now`` or any private method.
 ``QApplication.exec`` is replaced by a call that returns at once, so ``main`` returns after
 it has built, shown and offered recovery for the window; from then on ``qtbot`` runs the
@@ -157,14 +157,14 @@ def shown(qapp):
 
 def user_dir() -> Path:
     """The folder of settings, log and recovery files (tests/conftest.py points it at tmp)."""
-    from app import userfiles
+    from tolspread.app import userfiles
 
     return userfiles.config_dir()
 
 
 def log_errors() -> str:
     """Errors the window wrote to its log (unexpected exceptions, failed evaluations)."""
-    from app import userfiles
+    from tolspread.app import userfiles
 
     p = userfiles.log_path()
     if not p.exists():
@@ -183,7 +183,7 @@ def main_windows() -> list[QWidget]:
 
 
 class Starter:
-    """Starts ``tolspread [ARGS]`` through ``app.cli.main`` and hands back its window."""
+    """Starts ``tolspread [ARGS]`` through ``tolspread.app.cli.main`` and hands back its window."""
 
     def __init__(self, qtbot, monkeypatch, answers: Answers, shown: ShowRecorder) -> None:
         self.qtbot = qtbot
@@ -200,7 +200,7 @@ class Starter:
 
     def launch(self, *args: str):
         """Run ``tolspread ARGS`` up to its event loop; returns the new main window."""
-        from app.cli import main
+        from tolspread.app.cli import main
 
         before = set(map(id, main_windows()))
         hook_before = sys.excepthook
@@ -262,7 +262,7 @@ def _no_evaluate_now(self):
 
 @pytest.fixture
 def starter(qtbot, monkeypatch, answers, shown):
-    from app.qt_session import Session
+    from tolspread.app.qt_session import Session
 
     monkeypatch.setattr(Session, "evaluate_now", _no_evaluate_now)  # nothing may do the window's job
     s = Starter(qtbot, monkeypatch, answers, shown)

@@ -28,9 +28,9 @@ from PySide6.QtGui import QAction, QColor, QImage, QKeySequence
 from PySide6.QtSvg import QSvgRenderer
 from PySide6.QtWidgets import QApplication, QDialog, QLineEdit, QMenu, QMessageBox, QToolBar, QToolButton
 
-from filters.designfile import load, load_demo
-from filters.evaluate import evaluate
-from filters.stats import yield_estimate
+from tolspread.designfile import load, load_demo
+from tolspread.evaluate import evaluate
+from tolspread.stats import yield_estimate
 
 from .conftest import WAIT_MS, close_later, log_errors, wait_idle, yield_shown
 from .test_window_start import small_design_file
@@ -378,7 +378,7 @@ def test_delete_selected_span(window, qtbot, shown):
 
 # --- design tools -----------------------------------------------------------------------------------
 def test_new_design_from_a_response(window, qtbot, answers, shown):
-    from filters.synthesis import synthesize
+    from tolspread.synthesis import synthesize
 
     def fill_in(dlg) -> None:  # what a person types into the dialog, then OK
         dlg.findChild(type(dlg.cutoff), "cutoff").setText("5k")
@@ -396,7 +396,7 @@ def test_new_design_from_a_response(window, qtbot, answers, shown):
 
 
 def test_grades_and_costs(window, qtbot, shown):
-    from app.qt_catalog_dialog import COLUMNS
+    from tolspread.app.qt_catalog_dialog import COLUMNS
 
     before = window.session.design
 
@@ -462,7 +462,7 @@ def test_phase_and_group_delay(window, qtbot, shown):
 
 def _fail_ink(window) -> int:
     """Pixels of the failing-board colour in the plots as shown (a person's eye)."""
-    from app import qt_style as st
+    from tolspread.app import qt_style as st
 
     img = window.plots.canvas.grab().toImage()
     target = QColor(st.VERMILION)

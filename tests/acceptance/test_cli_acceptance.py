@@ -295,7 +295,7 @@ def _terminal_grades(stdout: str, refs: list[str]) -> dict[str, tuple[str, str, 
 
 
 def test_recommend_outputs_agree(recommended):
-    from filters.designfile import load, load_demo
+    from tolspread.designfile import load, load_demo
 
     run, tmp = recommended
     assert run.returncode == 0, run.stderr
@@ -363,7 +363,7 @@ def test_recommend_curve(tmp_path):
 
 # --- the window's own options ------------------------------------------------------------------------
 def test_version_and_help(tmp_path):
-    from filters import __version__
+    from tolspread import __version__
 
     v = run_cli("--version", cwd=tmp_path)
     assert v.returncode == 0 and v.stdout.strip() == f"tolspread {__version__}"

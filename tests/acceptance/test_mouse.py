@@ -13,7 +13,7 @@ import pytest
 from PySide6.QtCore import QPoint, QPointF, Qt
 from PySide6.QtTest import QTest
 
-from filters.values import parse_value
+from tolspread.values import parse_value
 
 from .conftest import WAIT_MS, log_errors, wait_idle
 

@@ -1,8 +1,8 @@
 """Starting the window as ``tolspread`` and ``tolspread FILE`` do, and waiting for the
 first figures the way a person waits: nothing is computed for the window by the test.
 
-The yield shown is checked against the library (``filters.evaluate.evaluate`` and
-``filters.stats.yield_estimate``) on the design the window holds.
+The yield shown is checked against the library (``tolspread.evaluate.evaluate`` and
+``tolspread.stats.yield_estimate``) on the design the window holds.
 """
 from __future__ import annotations
 
@@ -12,9 +12,9 @@ import pytest
 from PySide6.QtCore import QTimer
 from PySide6.QtWidgets import QApplication, QMessageBox
 
-from filters.designfile import demo_text, load, load_demo
-from filters.evaluate import evaluate
-from filters.stats import yield_estimate
+from tolspread.designfile import demo_text, load, load_demo
+from tolspread.evaluate import evaluate
+from tolspread.stats import yield_estimate
 
 from .conftest import START_MS, log_errors, main_windows, yield_shown
 
@@ -53,7 +53,7 @@ def test_tolspread_file_shows_that_files_yield(starter, tmp_path):
 
 def test_restored_recovery_file_is_evaluated(starter, answers, tmp_path):
     """After a crash the next start offers the unsaved work; Yes restores it and computes it."""
-    from app import userfiles
+    from tolspread.app import userfiles
 
     design_path = small_design_file(tmp_path, 1500)
     text = json.loads(design_path.read_text(encoding="utf-8"))
@@ -69,7 +69,7 @@ def test_restored_recovery_file_is_evaluated(starter, answers, tmp_path):
 
 
 def test_bad_design_file_exits_2_with_one_line_and_no_window(starter, tmp_path, capsys):
-    from app.cli import main
+    from tolspread.app.cli import main
 
     bad = tmp_path / "bad.json"
     bad.write_text("{ not json", encoding="utf-8")
@@ -86,7 +86,7 @@ def test_real_event_loop_shows_the_yield_then_quit_returns_0(qapp, qtbot, answer
     the yield and then chooses File > Quit; ``main`` returns the loop's exit status."""
     import sys
 
-    from app.cli import main
+    from tolspread.app.cli import main
 
     path = small_design_file(tmp_path, 1000)
     seen: dict = {}
@@ -140,7 +140,7 @@ def answer(*args, **kwargs):  # the person answers "Discard"
 
 
 QMessageBox.question = staticmethod(answer)
-from app.cli import main  # what the tolspread console script runs
+from tolspread.app.cli import main  # what the tolspread console script runs
 
 
 def person(waited=[0]):  # waits for the yield (at most 10 s), makes an edit, quits
