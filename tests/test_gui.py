@@ -31,6 +31,7 @@ from tolspread.designfile import demo_text, load, load_demo  # noqa: E402
 from tolspread.evaluate import evaluate  # noqa: E402
 from tolspread.liveview import ViewRequest, compute_view, what_if_grades  # noqa: E402
 from tolspread.stats import yield_estimate  # noqa: E402
+from qt_wait import settle_plot  # noqa: E402
 
 pytestmark = pytest.mark.gui
 
@@ -94,17 +95,8 @@ def viewport_to_view(window, p: QPoint) -> tuple[float, float]:
 
 
 def settle(qtbot, window) -> None:
-    """Let pending paints and layouts run until the plot area stops moving: pyqtgraph widens
-    an axis to its tick labels after the first paint, which shifts the plot by a few pixels."""
-    vb = window.plots.vb_mag
-    last = None
-    for _ in range(50):
-        qtbot.wait(MOVE_GAP_MS)
-        now = (vb.sceneBoundingRect(), tuple(map(tuple, vb.viewRange())))
-        if now == last:
-            return
-        last = now
-    raise AssertionError("the plot layout did not settle")
+    """Let pending paints and layouts run until the plot area stops moving."""
+    settle_plot(qtbot, window.plots.vb_mag, MOVE_GAP_MS, tries=50)
 
 
 def mouse_drag(qtbot, window, start: tuple[float, float], end: tuple[float, float],

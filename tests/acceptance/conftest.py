@@ -31,6 +31,7 @@ pytest.importorskip("PySide6")
 pytest.importorskip("pytestqt")
 
 from PySide6.QtCore import QEvent, QObject, QTimer  # noqa: E402
+from PySide6.QtGui import QAction  # noqa: E402
 from PySide6.QtWidgets import QApplication, QDialog, QFileDialog, QMessageBox, QWidget  # noqa: E402
 
 START_MS = 10_000   # a person waits this long for the first figures (the demo takes about 0.5 s)
@@ -283,6 +284,17 @@ def window(starter):
 def wait_idle(qtbot, window, timeout: int = WAIT_MS) -> None:
     """Wait until the window has no evaluation running and shows a yield."""
     qtbot.waitUntil(lambda: not window.session.busy and yield_shown(window) is not None, timeout=timeout)
+
+
+def export_report_html(window, qtbot, answers, path: Path, timeout: int = 60_000) -> str:
+    """File > Export report (HTML) as a user does it: the action, the save dialog answered
+    with ``path``, then wait for the window's "report written"; returns the file's text."""
+    answers.save_paths.append(str(path))
+    hits = [a for a in window.findChildren(QAction) if a.objectName() == "report_html"]
+    assert len(hits) == 1, "no single action named 'report_html'"
+    hits[0].trigger()
+    qtbot.waitUntil(lambda: path.exists() and "report written" in window.status_text.text(), timeout=timeout)
+    return path.read_text(encoding="utf-8")
 
 
 def close_later(cls=QDialog, answer=None, ms: int = 50, attempts: int = 400, patience_ms: int = 5000):

@@ -32,7 +32,7 @@ from tolspread.designfile import load, load_demo
 from tolspread.evaluate import evaluate
 from tolspread.stats import yield_estimate
 
-from .conftest import WAIT_MS, close_later, log_errors, wait_idle, yield_shown
+from .conftest import WAIT_MS, close_later, export_report_html, log_errors, wait_idle, yield_shown
 from .test_window_start import small_design_file
 
 pytestmark = pytest.mark.gui
@@ -321,12 +321,8 @@ class _Text(HTMLParser):
 
 
 def test_export_report_html(window, qtbot, answers, shown, tmp_path):
-    path = tmp_path / "report.html"
-    answers.save_paths.append(str(path))
-    act(window, "report_html").trigger()
-    qtbot.waitUntil(lambda: path.exists() and "report written" in window.status_text.text(), timeout=60_000)
     parser = _Text()
-    parser.feed(path.read_text(encoding="utf-8"))
+    parser.feed(export_report_html(window, qtbot, answers, tmp_path / "report.html"))
     text = " ".join(parser.parts)
     pct = f"{100 * yield_shown(window):.2f}"
     assert pct in text, f"the report does not give the yield the window shows ({pct} %)"

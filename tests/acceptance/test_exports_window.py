@@ -19,7 +19,7 @@ from PySide6.QtCore import Qt
 from PySide6.QtGui import QImage
 from PySide6.QtWidgets import QApplication
 
-from .conftest import WAIT_MS, log_errors
+from .conftest import WAIT_MS, export_report_html, log_errors
 
 pytestmark = pytest.mark.gui
 
@@ -84,18 +84,15 @@ def test_report_after_find_cheapest_grades_holds_the_recommendation(window, qtbo
     design = window.session.design
     dlg = run_recommendation(window, qtbot)
     chosen = dlg.recommendation.chosen
-    path = tmp_path / "report.html"
-    answers.save_paths.append(str(path))
-    action(window, "report_html").trigger()
-    qtbot.waitUntil(lambda: path.exists() and "report written" in window.status_text.text(), timeout=120_000)
+    html = export_report_html(window, qtbot, answers, tmp_path / "report.html", timeout=120_000)
     p = _Tables()
-    p.feed(path.read_text(encoding="utf-8"))
+    p.feed(html)
     assert {"recommendation", "parts"} <= set(p.ids)
     rec_table = next(t for t in p.tables if t and t[0][:2] == ["Part", "Current grade"])
     head, rows = rec_table[0], rec_table[1:]
     assert [r[head.index("Current grade")] for r in rows] == [q.grade for q in design.parts]
     assert [r[head.index("Recommended grade")] for r in rows] == list(chosen.grades)
-    assert f"{chosen.cost:.2f}" in path.read_text(encoding="utf-8")
+    assert f"{chosen.cost:.2f}" in html
     parts = next(t for t in p.tables if t and t[0][:2] == ["ref", "nominal value"])
     assert [r[0] for r in parts[1:]] == [q.ref for q in design.parts]
     dlg.reject()

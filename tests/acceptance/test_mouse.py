@@ -15,6 +15,8 @@ from PySide6.QtTest import QTest
 
 from tolspread.values import parse_value
 
+from qt_wait import settle_plot
+
 from .conftest import WAIT_MS, log_errors, wait_idle
 
 pytestmark = pytest.mark.gui
@@ -35,15 +37,7 @@ def from_pixel(window, p: QPoint) -> tuple[float, float]:
 
 def settle(qtbot, window) -> None:
     """Wait until the plot area stops moving (axes widen to their labels after a paint)."""
-    vb = window.plots.mag.vb
-    last = None
-    for _ in range(100):
-        qtbot.wait(MOVE_GAP_MS)
-        now = (vb.sceneBoundingRect(), tuple(map(tuple, vb.viewRange())))
-        if now == last:
-            return
-        last = now
-    raise AssertionError("the plot layout did not settle")
+    settle_plot(qtbot, window.plots.mag.vb, MOVE_GAP_MS)
 
 
 def drag(qtbot, window, start: tuple[float, float], end: tuple[float, float], steps: int = 10):
