@@ -6,7 +6,7 @@ import math
 from typing import Any, TextIO
 
 from .. import __version__
-from ..analysis import AnalysisResult, analyze  # noqa: F401  (re-exported for the CLI)
+from ..analysis import AnalysisResult
 from .. import metric_names
 from ..metric_names import SPAN_UNIT, is_margin, is_pair_metric, metric_label
 from ..metrics import ATTENUATION_FLOOR_DB

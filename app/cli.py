@@ -67,7 +67,8 @@ def _load(path: str | None):
 
 
 def cmd_analyze(args: argparse.Namespace) -> int:
-    from .analyze_report import analyze, print_summary, to_json
+    from ..analysis import analyze
+    from .analyze_report import print_summary, to_json
 
     for option in ("--json", "--report"):  # issue 11: refuse '' or a device before the run
         target = getattr(args, option[2:])

@@ -36,7 +36,8 @@ from .qt_recovery import RecoveryFile
 from .qt_results import ResultsPanel
 from .qt_session import Session
 from .qt_style import VERMILION
-from .qt_units import QUANTITY_UNIT, eng
+from ..metric_names import SPAN_UNIT
+from .qt_units import eng
 
 log = logging.getLogger("tolspread")
 MAX_RECENT = 8
@@ -424,7 +425,7 @@ class MainWindow(QMainWindow):
             self.span_table.refuse(index, reason)
 
     def _on_span_changing(self, index: int, span: Span) -> None:
-        unit = QUANTITY_UNIT[span.quantity]
+        unit = SPAN_UNIT[span.quantity]
         self.show_status(f"{span.label}: {eng(span.f1, 'Hz', 4)} to {eng(span.f2, 'Hz', 4)}, limit "
                          f"{eng(span.limit1, unit, 4)}"
                          f"{'' if span.limit2 is None else f' to {eng(span.limit2, unit, 4)}'}"

@@ -19,11 +19,11 @@ from PySide6.QtWidgets import (QHBoxLayout, QHeaderView, QLabel, QPushButton, QT
 from ..design import check_span_limits
 from ..errors import InputError, ValidationError
 from ..mask import Span
-from ..metric_names import unique_span_name
+from ..metric_names import SPAN_UNIT, unique_span_name
 from ..values import format_value
 
 from . import qt_style as st
-from .qt_units import QUANTITY_UNIT, eng, parse_in_unit, prefix_for
+from .qt_units import eng, parse_in_unit, prefix_for
 
 COLUMNS = ["name", "quantity", "kind", "f1 (Hz)", "f2 (Hz)", "limit at f1", "limit at f2", "relative"]
 NAME_COLUMN, F1_COLUMN, F2_COLUMN, LIMIT1_COLUMN, LIMIT2_COLUMN, RELATIVE_COLUMN = 0, 3, 4, 5, 6, 7
@@ -112,7 +112,7 @@ class SpanTable(QWidget):
         sel = self.selected()
         self.table.setRowCount(len(spans))
         for i, s in enumerate(spans):
-            unit = QUANTITY_UNIT[s.quantity]
+            unit = SPAN_UNIT[s.quantity]
             gain = s.quantity == "gain"
             limit2 = "" if s.limit2 is None or s.quantity == "delay" else eng(s.limit2, unit, 6)
             cells = [s.label, s.quantity, s.kind, format_value(s.f1, digits=5), format_value(s.f2, digits=5),
@@ -186,7 +186,7 @@ class SpanTable(QWidget):
                                  f"{eng(hi, 'Hz', 4)}", field)
             d["f1" if j == F1_COLUMN else "f2"] = f
         elif j in (LIMIT1_COLUMN, LIMIT2_COLUMN):
-            unit = QUANTITY_UNIT[old.quantity]
+            unit = SPAN_UNIT[old.quantity]
             if j == LIMIT2_COLUMN and text == "":
                 d.pop("limit2", None)
             else:

@@ -17,11 +17,10 @@ from PySide6.QtWidgets import (QComboBox, QGridLayout, QLabel, QLineEdit, QPushB
 
 from ..design import MAX_SAMPLES, MAX_SEED, Design, check_part_value, check_seed
 from ..errors import InputError
-from ..values import format_value
+from ..values import PART_UNITS, format_value
 
 SLIDER_STEPS = 1000
 TOL_MIN, TOL_MAX = 0.05, 30.0  # percent, log scale
-UNITS = {"R": "Ω", "C": "F", "L": "H", "opamp": "Hz"}
 INVALID_STYLE = "QLineEdit { background: #fde2d6; border: 1px solid #D55E00; }"
 
 
@@ -161,7 +160,7 @@ class PartsPanel(QWidget):
             if not row.value.hasFocus() or not row.problem.isVisible():
                 row.value.setText(p.value_text)
                 row.value.setStyleSheet("")
-                row.value.setToolTip(f"{format_value(p.value, UNITS.get(p.kind, ''), 6)}")
+                row.value.setToolTip(f"{format_value(p.value, PART_UNITS.get(p.kind, ''), 6)}")
                 row.problem.hide()
             row.grade.blockSignals(True)
             row.grade.clear()

@@ -10,10 +10,10 @@ from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QHeaderView, QLabel, QTab
 
 from ..liveview import ViewData
 from .. import metric_names
-from ..metric_names import is_pair_metric, metric_label
+from ..metric_names import SPAN_UNIT, is_pair_metric, metric_label
 
 from . import qt_style as st
-from .qt_units import QUANTITY_UNIT, eng, prefix_for
+from .qt_units import eng, prefix_for
 
 MAX_TABLE_ROWS = 8  # the failure table grows to this many rows, then scrolls
 #: the metric shown first: a low- or high-pass's cutoff, a band-pass's centre
@@ -122,7 +122,7 @@ class ResultsPanel(QWidget):
                                 f"computed in {1000 * view.elapsed_s:.0f} ms{bands_note}")
         self.table.setRowCount(len(view.spans))
         for i, s in enumerate(view.spans):
-            unit = QUANTITY_UNIT[view.design.mask[i].quantity]
+            unit = SPAN_UNIT[view.design.mask[i].quantity]
             cells = [s.name, f"{s.failed:,} ({_pct(s.fraction)})", _pct(s.share_of_failures),
                      eng(s.worst_margin_db, unit, 3, signed=True)]
             for j, text in enumerate(cells):

@@ -11,7 +11,6 @@ import math
 import re
 
 from ..errors import InputError, quoted
-from ..metric_names import SPAN_UNIT as QUANTITY_UNIT  # noqa: F401  (the window's name for it)
 from ..values import format_value, parse_value
 
 _PREFIX_OF = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}

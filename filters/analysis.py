@@ -8,7 +8,7 @@ nothing here formats or plots.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
@@ -23,7 +23,6 @@ from .summary import MetricSummary, summarize
 
 __all__ = [
     "AnalysisResult",
-    "concat",
     "yield_of",
     "analyze",
 ]
@@ -52,17 +51,6 @@ class AnalysisResult:
     @property
     def seed(self) -> int:
         return self.ensemble.seed
-
-
-def concat(parts: list[Ensemble]) -> Ensemble:
-    """Join ensembles of consecutive sample ranges of one seed (curves are dropped)."""
-    if len(parts) == 1:
-        return parts[0]
-    first = parts[0]
-    metrics = {k: np.concatenate([p.metrics[k] for p in parts]) for k in first.metrics}
-    return replace(first, values=np.concatenate([p.values for p in parts]),
-                   margins=np.concatenate([p.margins for p in parts]), metrics=metrics,
-                   gain_db=None, phase_deg=None, delay_s=None)
 
 
 def yield_of(ens: Ensemble, confidence: float, method: str) -> tuple[YieldEstimate, list[SpanFailures]]:

@@ -19,7 +19,7 @@ import numpy as np
 from .budget import metric_columns
 from .evaluate import Ensemble
 from .metric_names import metric_label, unit
-from .recommend import UNITS as PART_UNITS
+from .values import PART_UNITS
 
 __all__ = ["BoardTable", "board_table", "board_csv", "BOARD_COLUMN", "PASS_COLUMN"]
 

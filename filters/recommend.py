@@ -48,7 +48,7 @@ from .memory import check_boards
 from .metric_names import is_margin, margin_names, metric_label
 from .sampling import REFERENCE_CELSIUS
 from .stats import INTERVAL_METHODS, lower_bound, samples_to_show
-from .values import E_SERIES, format_value, series_for_tolerance, snap, tolerance_letter
+from .values import E_SERIES, PART_UNITS, format_value, series_for_tolerance, snap, tolerance_letter
 
 __all__ = [
     "FRESH_SEED_OFFSET",
@@ -61,7 +61,6 @@ __all__ = [
     "recommend",
     "design_with_grades",
     "cost_yield_curve",
-    "UNITS",
     "PARTS_COLUMNS",
     "FORMULA_STARTS",
     "worst_margin_metric",
@@ -714,7 +713,6 @@ def cost_yield_curve(design: Design, targets: Sequence[float] = DEFAULT_TARGETS,
 
 # --- the parts list ------------------------------------------------------------------------
 
-UNITS = {"R": "\u03a9", "C": "F", "L": "H", "opamp": "Hz"}
 PARTS_COLUMNS: tuple[str, ...] = (
     "ref", "nominal value", "series", "nearest preferred value", "grade", "tolerance (\u00b1 %)",
     "IEC 60062 letter", "tempco (ppm/K)", "technology", "relative cost",
@@ -778,7 +776,7 @@ def parts_list_rows(design: Design, recommendation: Recommendation | None,
                     if shares and metric else "")
     rows = []
     for p, g in zip(shown.parts, grades):
-        unit = UNITS.get(p.kind, "")
+        unit = PART_UNITS.get(p.kind, "")
         nearest, series = "", ""
         if p.kind in ("R", "C", "L") and g.tolerance_pct > 0:
             series = smallest_series(p.value) or "none"

@@ -20,6 +20,7 @@ import numpy as np
 from .errors import InputError, quoted
 
 __all__ = [
+    "PART_UNITS",
     "parse_value",
     "parse_value_with_tolerance",
     "format_value",
@@ -52,6 +53,10 @@ _RKM_RE = re.compile(r"(?P<left>\d*)(?P<letter>[RLkKMGTpnu" + _MU + r"m])(?P<rig
 _RKM_TOL_RE = re.compile(r"(?P<code>\d*[RLkKMGTpnu" + _MU + r"m]\d+|\d+[RKMGT])(?P<tol>[BCDFGJKM])")
 _NONFINITE_RE = re.compile(r"[+-]?(?:nan|inf|infinity)", re.IGNORECASE)
 _HINT = "write e.g. 4.7k, 4k7 or 4700"
+
+
+#: Unit of a part's value by its kind (ohm, farad, henry; an op-amp's gain-bandwidth in Hz).
+PART_UNITS = {"R": "\u03a9", "C": "F", "L": "H", "opamp": "Hz"}
 
 
 def _decimal_to_float(digits: str, exp10: int, text: str, field: str) -> float:
