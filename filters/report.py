@@ -442,14 +442,14 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
         u = metric_names.unit(name, d.mask)
         rows.append([esc(metric_label(name, stage_names, d.mask)),
                      *(format_metric(x, u) for x in (r.nominal, r.corner_low, r.corner_high, r.mc_low, r.mc_high)),
-                     format_metric(r.rss_std, u, False) if r.linear else "not linear: see sampled spread",
+                     format_metric(r.rss_std, u, False) if r.linear else "not linear",
                      format_metric(r.rss_limit, u, False) if r.linear else "not linear"])
     add(_table(["Metric", "Nominal", "Corner low", "Corner high", "MC min", "MC max", "RSS std", "RSS limit (\u00b1)"],
                rows, numeric=range(1, 8)))
     add("<p>MC: the extremes over the sampled boards. RSS: the sensitivities combined with each part's sampled "
         "spread (std) or with half its full range (limit). \"Not linear\": a one-sided limit (a minimum or "
         "maximum over frequency) has zero first-order sensitivity at the nominal, so its RSS would read "
-        "near 0; read the sampled spread (MC) instead.</p>")
+        "near 0; see the sampled spread (MC min and max) instead.</p>")
     if d.mask:
         verdict = ("every corner board meets the mask" if c.all_pass
                    else '<span class="bad">some corner boards fail the mask</span>')

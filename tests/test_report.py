@@ -212,7 +212,8 @@ def test_budget_shares_and_corners(demo, demo_html):
     # a metric that is not linear at the nominal (a one-sided margin) says so, as the
     # terminal does, rather than an RSS near zero or "n/a"
     flat = [name for name, rr in result.corners.ranges.items() if not rr.linear]
-    assert ("not linear: see sampled spread" in c) == bool(flat)
+    assert ('<td class="num">not linear</td>' in c) == bool(flat)
+    assert "see the sampled spread" in c
 
 
 def test_caution_and_assumptions(demo_html):
