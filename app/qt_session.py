@@ -22,8 +22,8 @@ from typing import Mapping
 from PySide6.QtCore import QObject, QThread, Signal, Slot
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
-from ..design import Design, check_design
-from ..designfile import dumps, load, save
+from ..design import Design
+from ..designfile import check_design, dumps, load, save
 from ..errors import Cancelled, InputError, ValidationError
 from ..evaluate import Prepared, prepare
 from ..grades import Grade
@@ -190,7 +190,7 @@ class Session(QObject):
     # --- editing -------------------------------------------------------------------------
     def apply(self, design: Design, text: str) -> None:
         """Make ``design`` the current design as one undoable edit named ``text`` (any
-        what-if ends). ``design`` must already pass :func:`filters.design.check_design`:
+        what-if ends). ``design`` must already pass :func:`filters.designfile.check_design`:
         edits from widgets go through :meth:`apply_checked`."""
         if design == self._design:
             self._end_what_if()
@@ -200,7 +200,7 @@ class Session(QObject):
 
     def apply_checked(self, design: Design, text: str) -> str | None:
         """Make ``design`` the current design as one undoable edit named ``text`` if the
-        loader accepts it (:func:`filters.design.check_design`: the rules a saved file is
+        loader accepts it (:func:`filters.designfile.check_design`: the rules a saved file is
         opened with), so whatever the window accepts saves into a file that opens.
 
         Returns None, or the reason it was refused (one line; the design is unchanged and

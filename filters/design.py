@@ -2,10 +2,10 @@
 
 Over 500 lines: the design's dataclasses beside the loader's rule for each field (the window checks edits with them).
 
-Plain frozen dataclasses, built from and written to the design file's dict form by
-:func:`design_from_dict` and :meth:`Design.to_dict` (see :mod:`filters.designfile` for the
-file itself). Loading checks the whole dict and reports every problem with its field path,
-not only the first.
+Plain frozen dataclasses, built from the design file's dict form by :func:`design_from_dict`.
+Loading checks the whole dict and reports every problem with its field path, not only the
+first. Writing the dict form (``design_to_dict``) and checking a design through it
+(``check_design``) live in :mod:`filters.designfile`, which imports this module, never the reverse.
 """
 from __future__ import annotations
 
@@ -39,7 +39,6 @@ __all__ = [
     "check_seed",
     "check_span_limit",
     "check_span_limits",
-    "check_design",
     "analysis_from_dict",
     "design_from_dict",
 ]
@@ -165,52 +164,12 @@ class Design:
         return replace(self, analysis=replace(self.analysis, **changes))
 
     def to_dict(self) -> dict[str, Any]:
-        from .designfile import FORMAT_TAG, VERSION
+        """Deprecated: use :func:`filters.designfile.design_to_dict`. Kept only while
+        ``synthesis.py`` (being split) still calls it; remove it with that call, and with it
+        the last import of ``designfile`` from here."""
+        from .designfile import design_to_dict
 
-        a = self.analysis
-        out: dict[str, Any] = {"format": FORMAT_TAG, "version": VERSION}
-        if self.name:
-            out["name"] = self.name
-        if self.description:
-            out["description"] = self.description
-        out["parts"] = []
-        for p in self.parts:
-            d_part: dict[str, Any] = {"ref": p.ref, "value": p.text or _exact_text(p.value), "grade": p.grade}
-            if p.tolerance_pct is not None:
-                d_part["tolerance_pct"] = p.tolerance_pct
-            out["parts"].append(d_part)
-        out["stages"] = []
-        for s in self.stages:
-            d: dict[str, Any] = {"topology": s.topology}
-            if s.name:
-                d["name"] = s.name
-            if s.options:
-                d["options"] = dict(s.options)
-            d["parts"] = dict(s.roles)
-            out["stages"].append(d)
-        out["analysis"] = {
-            "samples": a.samples, "seed": a.seed, "f_start": a.f_start, "f_stop": a.f_stop,
-            "points": a.points, "method": a.method, "cutoff_db": a.cutoff_db,
-            "temperature_c": [a.temp_low_c, a.temp_high_c], "lot_share": a.lot_share,
-            "interval": a.interval, "confidence": a.confidence,
-        }
-        if a.attenuation_hz:
-            out["analysis"]["attenuation_at_hz"] = list(a.attenuation_hz)
-        out["mask"] = [s.to_dict() for s in self.mask]
-        if self.grades:
-            out["grades"] = [g.to_dict() for g in self.grades]
-        return out
-
-
-def _exact_text(x: float) -> str:
-    """A value text that parses back to exactly ``x``."""
-    text = format_value(x)
-    try:
-        same = parse_value(text) == x
-    except InputError:  # rounding to 4 figures overflowed (x near the largest float)
-        same = False
-    return text if same else repr(float(x))
-
+        return design_to_dict(self)
 
 def check_part_value(raw: Any, path: str = "value") -> tuple[float, str]:
     """The loader's rule for a part's value, for the design file and the window alike.
@@ -278,17 +237,6 @@ def check_span_limits(span: Span, path: str = "span") -> None:
     check_span_limit(span.quantity, span.limit1, f"{path}.limit1")
     if span.limit2 is not None:
         check_span_limit(span.quantity, span.limit2, f"{path}.limit2")
-
-
-def check_design(design: "Design") -> "Design":
-    """``design`` checked by exactly the loader's rules: its file form is validated as
-    :func:`design_from_dict` validates a file (about half a millisecond for the demo).
-
-    The window calls this before accepting an edit, so whatever it accepts saves into a
-    file that opens. Returns the design as the loader builds it; raises
-    :class:`ValidationError` listing every problem with its path.
-    """
-    return design_from_dict(design.to_dict())
 
 
 def _kind_of_role(topology: Topology, role: str) -> str | None:

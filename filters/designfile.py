@@ -17,6 +17,7 @@ from typing import Any, Callable
 
 from .design import Design, design_from_dict
 from .errors import InputError, ValidationError
+from .values import format_value, parse_value
 from .safeio import parse_json, read_text, remove_orphan_temporaries, write_text_atomic  # noqa: F401 (used by others)
 
 __all__ = [
@@ -28,6 +29,8 @@ __all__ = [
     "parse_text",
     "loads",
     "load",
+    "design_to_dict",
+    "check_design",
     "dumps",
     "save",
     "problems_text",
@@ -96,9 +99,69 @@ def load(path: str | Path) -> Design:
     return loads(text, str(p))
 
 
+def _exact_text(x: float) -> str:
+    """A value text that parses back to exactly ``x``."""
+    text = format_value(x)
+    try:
+        same = parse_value(text) == x
+    except InputError:  # rounding to 4 figures overflowed (x near the largest float)
+        same = False
+    return text if same else repr(float(x))
+
+
+def design_to_dict(design: Design) -> dict[str, Any]:
+    """The design file's dict form of ``design`` (current format and version); a part keeps
+    the value text it was written with, else a text that parses back to its exact value."""
+    a = design.analysis
+    out: dict[str, Any] = {"format": FORMAT_TAG, "version": VERSION}
+    if design.name:
+        out["name"] = design.name
+    if design.description:
+        out["description"] = design.description
+    out["parts"] = []
+    for p in design.parts:
+        d_part: dict[str, Any] = {"ref": p.ref, "value": p.text or _exact_text(p.value), "grade": p.grade}
+        if p.tolerance_pct is not None:
+            d_part["tolerance_pct"] = p.tolerance_pct
+        out["parts"].append(d_part)
+    out["stages"] = []
+    for s in design.stages:
+        d: dict[str, Any] = {"topology": s.topology}
+        if s.name:
+            d["name"] = s.name
+        if s.options:
+            d["options"] = dict(s.options)
+        d["parts"] = dict(s.roles)
+        out["stages"].append(d)
+    out["analysis"] = {
+        "samples": a.samples, "seed": a.seed, "f_start": a.f_start, "f_stop": a.f_stop,
+        "points": a.points, "method": a.method, "cutoff_db": a.cutoff_db,
+        "temperature_c": [a.temp_low_c, a.temp_high_c], "lot_share": a.lot_share,
+        "interval": a.interval, "confidence": a.confidence,
+    }
+    if a.attenuation_hz:
+        out["analysis"]["attenuation_at_hz"] = list(a.attenuation_hz)
+    out["mask"] = [s.to_dict() for s in design.mask]
+    if design.grades:
+        out["grades"] = [g.to_dict() for g in design.grades]
+    return out
+
+
+def check_design(design: Design) -> Design:
+    """``design`` checked by exactly the loader's rules: its file form is validated as
+    :func:`filters.design.design_from_dict` validates a file (about half a millisecond for
+    the demo).
+
+    The window calls this before accepting an edit, so whatever it accepts saves into a
+    file that opens. Returns the design as the loader builds it; raises
+    :class:`ValidationError` listing every problem with its path.
+    """
+    return design_from_dict(design_to_dict(design))
+
+
 def dumps(design: Design) -> str:
     """The design as design-file text (JSON, indented, ends with a newline)."""
-    return json.dumps(design.to_dict(), indent=2, ensure_ascii=False) + "\n"
+    return json.dumps(design_to_dict(design), indent=2, ensure_ascii=False) + "\n"
 
 
 def save(design: Design, path: str | Path, *, backup: bool = True) -> None:

@@ -460,7 +460,8 @@ def test_mask_limits_are_checked_against_their_quantitys_range(quantity, kind, l
 
 def test_the_window_validators_apply_the_loaders_rules():
     # issue 11 #3: one function for the window and the loader.
-    from tolspread.design import SPAN_LIMITS, check_design, check_part_value, check_span_limit
+    from tolspread.design import SPAN_LIMITS, check_part_value, check_span_limit
+    from tolspread.designfile import check_design
 
     assert check_part_value("4k7") == (4700.0, "4k7")  # IEC 60062 RKM: 4k7 = 4.7 kohm (from memory)
     assert check_part_value(1e-9) == (1e-9, "")

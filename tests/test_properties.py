@@ -842,7 +842,7 @@ def test_preferred_values_format_back_to_the_same_text(series):
 def _round_trip(d: dict, folder: Path) -> None:
     design = design_from_dict(d)
     assert loads(json.dumps(d, ensure_ascii=False)) == design
-    assert design_from_dict(design.to_dict()) == design
+    assert design_from_dict(designfile.design_to_dict(design)) == design
     target = folder / "design.json"
     save(design, target)
     back = load(target)

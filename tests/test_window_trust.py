@@ -24,7 +24,7 @@ from PySide6.QtTest import QTest  # noqa: E402
 from PySide6.QtWidgets import QFileDialog, QMessageBox  # noqa: E402
 
 from tolspread.app.qt_main import make_window  # noqa: E402
-from tolspread.designfile import demo_text, load  # noqa: E402
+from tolspread.designfile import demo_text, design_to_dict, load  # noqa: E402
 from tolspread.errors import InputError  # noqa: E402
 from test_plots_tables import edit_cell as double_click_and_type  # noqa: E402
 from test_plots_tables import start, wait_idle  # noqa: E402  (opens as ``tolspread FILE`` does, at 1600x950)
@@ -99,7 +99,7 @@ def load_text_with(design, ref: str, value_text: str):
     """The loader's verdict on ``design`` with part ``ref`` written as ``value_text``."""
     from tolspread.designfile import loads
 
-    d = design.to_dict()
+    d = design_to_dict(design)
     for p in d["parts"]:
         if p["ref"] == ref:
             p["value"] = value_text
@@ -120,7 +120,7 @@ def test_a_span_limit_the_loader_refuses_marks_the_cell(qtbot, tmp_path, typed):
     assert table.item(0, limit_column(w)).toolTip()  # the cell typed is marked
     span = before.mask[0].to_dict()
     span["limit1"] = 5000.0
-    d = before.to_dict()
+    d = design_to_dict(before)
     d["mask"][0] = span
     from tolspread.designfile import loads
 
