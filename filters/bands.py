@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .evaluate import _POOL, WORKERS
+from .workers import POOL, WORKERS
 
 __all__ = [
     "INNER",
@@ -64,7 +64,7 @@ def bands(curves: np.ndarray, share: float = INNER) -> Bands:
 
     # frequency blocks on the shared thread pool (numpy releases the GIL while it works)
     edges = np.linspace(0, f, WORKERS + 1).astype(int)
-    futures = [_POOL.submit(work, int(a), int(b)) for a, b in zip(edges[:-1], edges[1:]) if b > a]
+    futures = [POOL.submit(work, int(a), int(b)) for a, b in zip(edges[:-1], edges[1:]) if b > a]
     for fut in futures:
         fut.result()
     return Bands(share, out[0], out[1], out[2], out[3])
