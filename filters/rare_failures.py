@@ -196,9 +196,9 @@ def failure_points(fn: MarginFunction, dims: int, *, steps: int = REFINE_STEPS) 
     Parameters
     ----------
     fn : MarginFunction
-        Scores (S, D) -> margins (S, J).
+        The margin function, as for :func:`linear_model`.
     dims : int
-        D, the number of score columns.
+        The number of score columns, as for :func:`linear_model`.
     steps : int
         Refinement steps after the first direction.
 
