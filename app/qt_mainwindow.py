@@ -1,8 +1,9 @@
 """The main window: parts on the left, spread plots in the middle, results on the right,
-the span table below. Menus and shortcuts for files, undo and redo, the mask and exports.
+the span table below: every signal between the panels and the session, wired in one place.
 
-Over 500 lines: every action and every signal between the panels and the session, wired in
-one place; exports (:mod:`app.qt_exports`), dialogs and span items live in modules of their own.
+Built from modules of their own: the menus, actions and toolbar (:mod:`app.qt_window_menus`),
+the file commands (:mod:`app.qt_window_files`), the exports (:mod:`app.qt_exports`), each
+dialog (``app/qt_*_dialog.py``, :mod:`app.qt_recommend`, :mod:`app.qt_help`).
 
 The window observes the :class:`~tolspread.app.qt_session.Session`; every edit goes through
 ``session.apply_checked`` (the loader's rules) so it can be undone.
@@ -12,40 +13,36 @@ from __future__ import annotations
 import os
 import logging
 from dataclasses import replace
-from pathlib import Path
 
 from PySide6.QtCore import QSettings, Qt, QTimer
-from PySide6.QtGui import QAction, QActionGroup, QKeySequence
-from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog, QLabel, QMainWindow, QMessageBox,
-                               QProgressBar, QPushButton, QSplitter, QToolBar)
+from PySide6.QtWidgets import QDockWidget, QLabel, QMainWindow, QProgressBar, QPushButton, QSplitter
 
 from .. import __version__
 from ..design import Design
-from ..designfile import load_demo
-from ..errors import InputError, ValidationError
+from ..errors import InputError
 from ..liveview import ViewData
 from ..mask import Span
 
 from . import userfiles
 from .qt_exports import WindowExports
-from .qt_help import build_help_menu
 from .qt_masktable import SpanTable
 from .qt_parts import PartsPanel
 from .qt_plots import SpreadPlots
 from .qt_recovery import RecoveryFile
 from .qt_results import ResultsPanel
 from .qt_session import Session
+from .qt_window_files import WindowFiles
+from .qt_window_menus import build_menus
 from .qt_style import VERMILION
 from ..metric_names import SPAN_UNIT
 from .qt_units import eng
 
 log = logging.getLogger("tolspread")
-MAX_RECENT = 8
 AUTOSAVE_MS = 60_000
 SPAN_ROWS_SHOWN = 4  # the span table shows this many rows whole at first (the demo's spans)
 
 
-class MainWindow(QMainWindow):
+class MainWindow(QMainWindow, WindowFiles):
     """The tolspread window."""
 
     def __init__(self, session: Session, settings: QSettings | None = None) -> None:
@@ -75,7 +72,7 @@ class MainWindow(QMainWindow):
                                        Qt.DockWidgetArea.RightDockWidgetArea)
         self.exports = WindowExports(self)
         self.recommend_dialog = None  # the Find cheapest grades dialog, once opened (its result goes in the report)
-        self._build_actions()
+        build_menus(self)
         self._build_status()
         self._connect()
         self._restore_layout()
@@ -99,111 +96,6 @@ class MainWindow(QMainWindow):
         d.setFeatures(QDockWidget.DockWidgetFeature.DockWidgetMovable | QDockWidget.DockWidgetFeature.DockWidgetFloatable)
         self.addDockWidget(area, d)
         return d
-
-    def _action(self, text: str, slot, shortcut=None, name: str = "", checkable: bool = False) -> QAction:
-        """A window action; ``slot()`` is called without arguments, or ``slot(checked)`` for a
-        checkable action. ``triggered`` passes a ``checked`` flag, which would otherwise land
-        in a slot's first default argument (a path, say)."""
-        a = QAction(text, self)
-        if shortcut is not None:
-            a.setShortcut(QKeySequence(shortcut))
-        a.setCheckable(checkable)
-        a.setObjectName(name or text.lower().replace(" ", "_").replace("…", ""))
-        if checkable:
-            a.triggered.connect(lambda checked: slot(bool(checked)))
-        else:
-            a.triggered.connect(lambda *_checked: slot())
-        return a
-
-    def _build_actions(self) -> None:
-        m = self.menuBar()
-        S = QKeySequence.StandardKey
-        self.act_new = self._action("New", self.file_new, S.New, "file_new")
-        self.act_open = self._action("Open…", self.file_open, S.Open, "file_open")
-        self.act_save = self._action("Save", self.file_save, S.Save, "file_save")
-        self.act_save_as = self._action("Save As…", self.file_save_as, S.SaveAs, "file_save_as")
-        ex = self.exports
-        self.act_png = self._action("Export plots as PNG…", lambda: ex.plots("png"), "Ctrl+E", "export_png")
-        self.act_svg = self._action("Export plots as SVG…", lambda: ex.plots("svg"), "Ctrl+Shift+E", "export_svg")
-        self.act_csv = self._action("Export board metrics as CSV…", ex.board_metrics, "Ctrl+Shift+M", "export_csv")
-        self.act_quit = self._action("Quit", self.close, S.Quit, "quit")
-        fm = m.addMenu("&File")
-        for a in (self.act_new, self.act_open):
-            fm.addAction(a)
-        self.recent_menu = fm.addMenu("Open recent")
-        fm.addSeparator()
-        for a in (self.act_save, self.act_save_as):
-            fm.addAction(a)
-        fm.addSeparator()
-        for a in (self.act_png, self.act_svg, self.act_csv):
-            fm.addAction(a)
-        fm.addSeparator()
-        fm.addAction(self.act_quit)
-        # The menu shows what will be undone ("Undo R1 value 2k7"); the toolbar button keeps
-        # the short icon text, so the buttons never move; the tooltip has the full text.
-        self.act_undo = self.session.undo_stack.createUndoAction(self, "Undo")
-        self.act_undo.setShortcuts(QKeySequence.keyBindings(S.Undo))
-        self.act_undo.setIconText("Undo")
-        self.act_undo.setObjectName("undo")
-        self.act_redo = self.session.undo_stack.createRedoAction(self, "Redo")
-        redo_keys = QKeySequence.keyBindings(S.Redo)
-        if QKeySequence("Ctrl+Y") not in redo_keys:
-            redo_keys.append(QKeySequence("Ctrl+Y"))  # README promises Ctrl+Y on every platform
-        self.act_redo.setShortcuts(redo_keys)
-        self.act_redo.setIconText("Redo")
-        self.act_redo.setObjectName("redo")
-        em = m.addMenu("&Edit")
-        em.addAction(self.act_undo)
-        em.addAction(self.act_redo)
-        em.addSeparator()
-        self.act_floor = self._action("Draw floor span", lambda on: self._set_draw("floor", on), "F", "draw_floor", True)
-        self.act_ceiling = self._action("Draw ceiling span", lambda on: self._set_draw("ceiling", on), "C",
-                                        "draw_ceiling", True)
-        self.act_delete = self._action("Delete selected span", self.delete_selected_span, S.Delete, "delete_span")
-        for a in (self.act_floor, self.act_ceiling, self.act_delete):
-            em.addAction(a)
-        dm = m.addMenu("&Design")
-        self.act_synth = self._action("New design from a response…", self.new_from_response, "Ctrl+Shift+N",
-                                      "new_from_response")
-        self.act_catalog = self._action("Grades and costs…", self.edit_catalog, "Ctrl+G", "edit_catalog")
-        self.act_recommend = self._action("Find cheapest grades…", self.open_recommend, "Ctrl+R", "recommend")
-        self.act_report_html = self._action("Export report (HTML)…", lambda: ex.report("html"),
-                                            "Ctrl+P", "report_html")
-        self.act_report_pdf = self._action("Export report (PDF)…", lambda: ex.report("pdf"),
-                                           "Ctrl+Shift+P", "report_pdf")
-        for a in (self.act_synth, self.act_catalog, self.act_recommend, None, self.act_report_html,
-                  self.act_report_pdf):
-            dm.addSeparator() if a is None else dm.addAction(a)
-        vm = m.addMenu("&View")
-        group = QActionGroup(self)
-        self.act_phase = self._action("Phase", lambda on: on and self._set_second("phase"), "Ctrl+1",
-                                      "show_phase", True)
-        self.act_delay = self._action("Group delay", lambda on: on and self._set_second("delay"), "Ctrl+2",
-                                      "show_delay", True)
-        self.act_phase.setChecked(True)
-        for a in (self.act_phase, self.act_delay):
-            group.addAction(a)
-            vm.addAction(a)
-        vm.addSeparator()
-        self.act_failing = self._action("Highlight failing boards", self._on_failing_toggled, "Ctrl+H",
-                                        "highlight_failing", True)
-        self.act_failing.setChecked(True)
-        self.act_fit = self._action("Fit plots", self.plots.fit, "Ctrl+0", "fit_plots")
-        self.act_evaluate = self._action("Evaluate again", self.session.request, "F5", "evaluate")
-        self.act_evaluate.setToolTip("Evaluate the current design again (after a cancelled run)")
-        vm.addAction(self.act_failing)
-        vm.addAction(self.act_fit)
-        vm.addSeparator()
-        vm.addAction(self.act_evaluate)
-        self.help_menu = build_help_menu(self)
-        tb = QToolBar("Main tools")
-        tb.setObjectName("toolbar_main")
-        for a in (self.act_open, self.act_save, None, self.act_undo, self.act_redo, None, self.act_floor,
-                  self.act_ceiling, self.act_delete, None, self.act_phase, self.act_delay, self.act_failing,
-                  self.act_fit, None, self.act_recommend):
-            tb.addSeparator() if a is None else tb.addAction(a)
-        self.addToolBar(tb)
-        self._refresh_recent()
 
     def _build_status(self) -> None:
         sb = self.statusBar()
@@ -256,7 +148,7 @@ class MainWindow(QMainWindow):
     # --- model to view -------------------------------------------------------------------
     def _on_design_changed(self, design: Design) -> None:
         try:
-            from ..synthesis import gbw_warnings
+            from ..opamp_check import gbw_warnings
 
             self.results.show_opamps(gbw_warnings(design))
         except InputError as exc:
@@ -448,102 +340,6 @@ class MainWindow(QMainWindow):
         self.plots.show_failing = on
         if self.session.last_view is not None:
             self.plots.show_view(self.session.last_view)
-
-    # --- files ---------------------------------------------------------------------------
-    def confirm_discard(self) -> bool:
-        """Ask before unsaved changes are thrown away; True to go on."""
-        if not self.session.dirty:
-            return True
-        answer = QMessageBox.question(
-            self, "Unsaved changes", "The design has unsaved changes. Save them first?",
-            QMessageBox.StandardButton.Save | QMessageBox.StandardButton.Discard | QMessageBox.StandardButton.Cancel)
-        if answer == QMessageBox.StandardButton.Save:
-            return self.file_save()
-        return answer == QMessageBox.StandardButton.Discard
-
-    def file_new(self) -> None:
-        if self.confirm_discard():
-            d = load_demo()
-            self.session.replace_design(replace(d, name="untitled (from the demo)", mask=()), None)
-
-    def file_open(self) -> None:
-        if not self.confirm_discard():
-            return
-        path, _ = QFileDialog.getOpenFileName(self, "Open design", str(self.last_dir()), "Designs (*.json);;All files (*)")
-        if path:
-            self.open_path(Path(path))
-
-    def open_path(self, path: Path) -> bool:
-        try:
-            self.session.open(path)
-        except ValidationError as exc:
-            self.show_problem(f"{path.name} could not be opened", "\n".join(exc.lines()))
-            return False
-        except InputError as exc:
-            self.show_problem(f"{path.name} could not be opened", str(exc))
-            return False
-        self._remember_recent(path)
-        self.show_status(f"opened {path}")
-        return True
-
-    def file_save(self) -> bool:
-        if self.session.path is None:
-            return self.file_save_as()
-        return self._save_to(self.session.path)
-
-    def file_save_as(self) -> bool:
-        path, _ = QFileDialog.getSaveFileName(self, "Save design", str(self.last_dir() / "design.json"),
-                                              "Designs (*.json)")
-        if not path:
-            return False
-        if not path.endswith(".json"):
-            path += ".json"
-        return self._save_to(Path(path))
-
-    def _save_to(self, path: Path) -> bool:
-        try:
-            self.session.save_as(path)
-        except InputError as exc:
-            self.show_problem("Saving failed; the previous file is unchanged", str(exc))
-            return False
-        self._remember_recent(path)
-        self.show_status(f"saved {path}")
-        self.recovery.discard()  # the saved file holds the work now
-        return True
-
-    def show_problem(self, title: str, text: str) -> None:
-        self.show_status(f"{title}: {text.splitlines()[0] if text else ''}")
-        box = QMessageBox(QMessageBox.Icon.Warning, title, text, QMessageBox.StandardButton.Ok, self)
-        box.setObjectName("problem_box")
-        if QApplication.platformName() == "offscreen":
-            box.setModal(False)
-            box.show()
-            QTimer.singleShot(0, box.close)
-            return
-        box.exec()
-
-    def last_dir(self) -> Path:
-        """The folder a file dialog starts in (the last one a file was opened or saved in)."""
-        return Path(self.settings.value("last_dir", str(Path.home())))
-
-    def _remember_recent(self, path: Path) -> None:
-        path = path.resolve()
-        recent = [p for p in self.recent_files() if Path(p) != path]
-        recent.insert(0, str(path))
-        self.settings.setValue("recent_files", recent[:MAX_RECENT])
-        self.settings.setValue("last_dir", str(path.parent))
-        self._refresh_recent()
-
-    def recent_files(self) -> list[str]:
-        v = self.settings.value("recent_files", [])
-        return [v] if isinstance(v, str) else list(v or [])
-
-    def _refresh_recent(self) -> None:
-        self.recent_menu.clear()
-        for p in self.recent_files():
-            a = self.recent_menu.addAction(p)
-            a.triggered.connect(lambda _c=False, p=p: self.confirm_discard() and self.open_path(Path(p)))
-        self.recent_menu.setEnabled(bool(self.recent_files()))
 
     # --- design tools --------------------------------------------------------------------
     def new_from_response(self) -> None:
