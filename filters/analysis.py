@@ -8,7 +8,7 @@ nothing here formats or plots.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Callable
 
 import numpy as np
@@ -20,6 +20,7 @@ from .evaluate import Ensemble, Prepared, evaluate, prepare
 from .memory import BoardStore, check_boards
 from .stats import SpanFailures, YieldEstimate, adaptive_yield, failure_breakdown, yield_estimate
 from .summary import MetricSummary, summarize
+from .temperature import OverTemperature, ServiceLife, judge_over_range, judge_service_life
 
 __all__ = [
     "AnalysisResult",
@@ -43,6 +44,10 @@ class AnalysisResult:
     corners: Corners
     history: list[YieldEstimate]
     opamps: list = field(default_factory=list)  # synthesis.GbwWarning per stage with an op-amp part
+
+    # judged over the operating range / after the service life (filters/temperature.py), when asked
+    temperature: OverTemperature | None = None
+    life: ServiceLife | None = None
 
     @property
     def samples(self) -> int:
@@ -103,10 +108,20 @@ def analyze(design: Design, *, samples: int | None = None, seed: int | None = No
                                       method=interval, should_stop=should_stop)  # type: ignore[arg-type]
         ens = store.ensemble()
         _, spans = yield_of(ens, a.confidence, interval)
+    over = judge_over_range(design, prep, ens, should_stop)
+    corner_ens = ens
+    if over is not None:  # a board passes only if it meets the mask at every judged temperature
+        ens = replace(ens, margins=over.worst_margins)
+        est, spans = yield_of(ens, a.confidence, interval)
+        history = history[:-1] + [est]
+        lo, hi = over.range_c  # corners: each part's extremes over the whole range
+        corner_ens = replace(ens, design=design.with_analysis(temp_low_c=lo, temp_high_c=hi))
+    life = judge_service_life(design, prep, ens, est, should_stop)
     summaries = {name: summarize(ens, name) for name in ens.metrics}
     budget = spread_budget(ens, prep)
-    corner_result = corners(ens, prep)
+    corner_result = corners(corner_ens, prep)
     from .synthesis import gbw_warnings
 
     opamps = gbw_warnings(design)
-    return AnalysisResult(design, ens, prep, summaries, est, spans, budget, corner_result, history, opamps)
+    return AnalysisResult(design, ens, prep, summaries, est, spans, budget, corner_result, history, opamps,
+                          over, life)

@@ -18,6 +18,8 @@ from .grades import Catalog, Grade, builtin_catalog, scaled
 from .mask import Span
 from .metric_names import SPAN_UNIT, duplicate_label
 from .sampling import METHODS, Conditions
+from .temperature_settings import settings_from_dict as temperature_settings
+from .temperature_physics import for_value
 from .topologies import TOPOLOGIES, Topology, build
 from .values import format_value, parse_value
 
@@ -109,6 +111,11 @@ class Analysis:
     interval: str = "wilson"
     confidence: float = 0.95
     attenuation_hz: tuple[float, ...] = ()  # report the attenuation at these frequencies (Hz)
+    # judged over a range and after a service life (filters/temperature.py; None/0: not asked)
+    operating_range_c: tuple[float, float] | None = None  # deg C
+    judge_at_c: tuple[float, ...] = ()  # extra judged temperatures inside the range (deg C)
+    service_hours: float = 0.0          # time in service (h) ...
+    service_temp_c: float = 25.0        # ... at this temperature (deg C)
 
     @property
     def conditions(self) -> Conditions:
@@ -136,11 +143,14 @@ class Design:
         return cat
 
     def part_grades(self) -> tuple[Grade, ...]:
-        """Each part's grade, with a part's what-if tolerance applied where it has one."""
+        """Each part's grade as it applies to the part's value
+        (:func:`filters.temperature_physics.for_value`), with a part's what-if tolerance
+        applied where it has one."""
         cat = self.catalog
         out = []
         for p in self.parts:
             g = cat[p.grade]
+            g = for_value(g, p.kind, p.value)  # pF tolerance below 10 pF, tempco by value range
             out.append(g if p.tolerance_pct is None else scaled(g, p.tolerance_pct))
         return tuple(out)
 
@@ -275,7 +285,8 @@ def analysis_from_dict(data: Any, problems: list[InputError], path: str = "analy
         problems.append(InputError("must be an object", path))
         return Analysis()
     known = {"samples", "seed", "f_start", "f_stop", "points", "method", "cutoff_db",
-             "temperature_c", "lot_share", "interval", "confidence", "attenuation_at_hz"}
+             "temperature_c", "lot_share", "interval", "confidence", "attenuation_at_hz",
+             "operating_range_c", "judge_at_c", "service_life"}
     problems += [InputError(f"unknown setting {k!r}", f"{path}.{k}") for k in data if k not in known]
     d = Analysis()
     samples = _number(data, "samples", path, problems, d.samples, integer=True, lo=1, hi=MAX_SAMPLES)
@@ -320,7 +331,7 @@ def analysis_from_dict(data: Any, problems: list[InputError], path: str = "analy
         else:
             att = tuple(float(v) for v in raw)
     return Analysis(samples, seed, f_start, f_stop, points, method, cutoff_db, t_lo, t_hi, lot,
-                    interval, conf, att)
+                    interval, conf, att, **temperature_settings(data, problems, path))
 
 
 def design_from_dict(data: Any) -> Design:
@@ -470,7 +481,8 @@ def design_from_dict(data: Any) -> Design:
             problems.append(InputError(f"part {ref} is not in the parts list", where))
 
     analysis = analysis_from_dict(data.get("analysis"), problems)
-    dt = max(abs(analysis.temp_low_c - 25.0), abs(analysis.temp_high_c - 25.0))
+    t_ends = (analysis.temp_low_c, analysis.temp_high_c) + (analysis.operating_range_c or ())
+    dt = max(abs(t - 25.0) for t in t_ends)
     for i, part in enumerate(parts):
         g = catalog[part.grade]
         shift = (abs(g.tempco_ppm) + g.tempco_spread_ppm) * 1e-6 * dt

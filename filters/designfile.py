@@ -15,6 +15,7 @@ import json
 from pathlib import Path
 from typing import Any, Callable
 
+from .temperature_settings import settings_to_dict
 from .design import Design, design_from_dict
 from .errors import InputError, ValidationError
 from .values import format_value, parse_value
@@ -141,6 +142,7 @@ def design_to_dict(design: Design) -> dict[str, Any]:
     }
     if a.attenuation_hz:
         out["analysis"]["attenuation_at_hz"] = list(a.attenuation_hz)
+    out["analysis"].update(settings_to_dict(a))  # operating range, judged points, service life
     out["mask"] = [s.to_dict() for s in design.mask]
     if design.grades:
         out["grades"] = [g.to_dict() for g in design.grades]

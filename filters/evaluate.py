@@ -35,7 +35,7 @@ from .judge import SpanPlan, margins, needs, plan
 from .mask import edge_frequencies
 from .metric_names import attenuation_name
 from .metrics import attenuation_db, cutoff_metrics, stage_metrics
-from .sampling import draw_scores, part_values
+from .sampling import Conditions, draw_scores, part_values
 
 __all__ = [
     "CHUNK_MAX",
@@ -235,12 +235,15 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
              metrics: bool = True, extra_freqs: Sequence[float] = (), chunk: int | None = None, start: int = 0,
              prepared: Prepared | None = None,
              progress: Callable[[int, int], None] | None = None,
-             should_stop: Callable[[], bool] | None = None) -> Ensemble:
+             should_stop: Callable[[], bool] | None = None,
+             conditions: Conditions | None = None) -> Ensemble:
     """Evaluate ``samples`` boards of ``design`` (defaults from its analysis settings).
 
     ``grades`` overrides each part's grade (same order as ``design.parts``), which is how a
     tolerance slider or a candidate recommendation is tried on the same boards.
     ``start`` skips that many boards of the seed's sequence (for adding batches).
+    ``conditions`` replaces the analysis' board conditions (one judged temperature, a
+    service life: :mod:`filters.temperature`); the boards' scores stay the same.
     ``metrics=False`` judges pass/fail and margins only (what a recommendation reads): the
     ensemble's ``metrics`` is empty, the margins are the full path's bit for bit, and with
     ``curves=False`` no (S, F) array is made at all.
@@ -253,6 +256,7 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
     seed = a.seed if seed is None else int(seed)
     method = a.method if method is None else method
     grade_list = tuple(grades) if grades is not None else design.part_grades()
+    cond = a.conditions if conditions is None else conditions
     prep = prepared if prepared is not None else prepare(design, extra_freqs)
     freqs = prep.freqs_hz
     nominal_values = prep.nominal.values
@@ -274,7 +278,7 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
             return lo, hi, {}
         sc = scores[lo:hi] if scores is not None else draw_scores(
             seed, n_parts, start + lo, start + hi, method)  # type: ignore[arg-type]
-        vals = part_values(nominal_values, grade_list, sc, a.conditions)
+        vals = part_values(nominal_values, grade_list, sc, cond)
         values[lo:hi] = vals
         if stopped.is_set():
             return lo, hi, {}

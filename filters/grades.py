@@ -13,6 +13,13 @@ Distributions (``Grade.distribution``):
 - ``binned``: a normal distribution whose centre, inside plus/minus ``bin_inner_pct``, was
   sorted out and sold as a tighter grade, leaving two humps near the limits.
 
+Part physics by technology (fields after ``technology``; each catalog number's source is
+named in assets/sources.md): an absolute tolerance in pF for capacitors below 10 pF
+(IEC 60062 letters B, C, D), a temperature-coefficient spread by value range (thick film),
+a class II dielectric's temperature curve within its code's limit (EIA-198) and its DC-bias
+curve, a load-life drift rating (scaled by :func:`filters.temperature.life_fraction`) and
+class II ageing per decade of hours. At their defaults a grade behaves as before.
+
 The default is a normal distribution with coverage factor 2 (the tolerance read as about
 two standard deviations, common practice) truncated at the limits.
 """
@@ -42,6 +49,7 @@ __all__ = [
     "CATALOG_MAX_DEPTH",
     "load_catalog",
     "scaled",
+    "PHYSICS_FIELDS",
 ]
 
 Distribution = Literal["normal", "uniform", "binned"]
@@ -66,6 +74,18 @@ class Grade:
     drift_pct: float = 0.0
     cost: float = 1.0
     technology: str = ""
+    # Part physics by technology (assets/sources.md names the source of every catalog number).
+    tolerance_pf: float = 0.0          # capacitors below 10 pF: absolute tolerance, plus/minus pF
+    tempco_by_value: tuple[tuple[float, float, float], ...] = ()  # (low, high SI, spread ppm/K)
+    temp_curve_pct: tuple[tuple[float, float], ...] = ()  # class II: (deg C, typical change %)
+    temp_curve_spread: float = 0.0     # part-to-part scale of the curve, plus/minus fraction
+    temp_limit_pct: float = 0.0        # the dielectric code's limit over its range, plus/minus %
+    bias_curve_pct: tuple[tuple[float, float], ...] = ()  # class II: (DC bias V, typical change %)
+    life_drift_pct: float = 0.0        # load-life drift at the rating, plus/minus %
+    life_hours: float = 1000.0         # the rating's time in service (h)
+    life_temp_c: float = 70.0          # the rating's temperature (deg C)
+    activation_ev: float = 0.0         # Arrhenius activation energy of the life drift (eV)
+    ageing_pct_per_decade: float = 0.0  # class II: capacitance loss per decade of hours (%)
 
     @property
     def sigma(self) -> float:
@@ -77,7 +97,14 @@ class Grade:
         return self.kind in (kind, "any")
 
     def to_dict(self) -> dict[str, Any]:
-        return asdict(self)
+        """The grade's fields; the physics fields only where they differ from their defaults."""
+        out = asdict(self)
+        for k in PHYSICS_FIELDS:
+            if out[k] == getattr(_PLAIN, k):
+                del out[k]
+            elif isinstance(out[k], tuple):
+                out[k] = [list(row) for row in out[k]]
+        return out
 
     @staticmethod
     def from_dict(data: Any, path: str = "") -> "Grade":
@@ -101,9 +128,43 @@ class Grade:
         defaults = Grade("x", "any", 1.0)
         args = {f.name: data.get(f.name, getattr(defaults, f.name)) for f in fields(Grade)}
         problems += _grade_problems(args, path)
+        problems += _table_problems(args, path)
         if problems:
             raise ValidationError(problems)
         return Grade(**args)
+
+
+PHYSICS_FIELDS = ("tolerance_pf", "tempco_by_value", "temp_curve_pct", "temp_curve_spread",
+                  "temp_limit_pct", "bias_curve_pct", "life_drift_pct", "life_hours", "life_temp_c",
+                  "activation_ev", "ageing_pct_per_decade")
+_TABLES = {"tempco_by_value": 3, "temp_curve_pct": 2, "bias_curve_pct": 2}  # columns per row
+
+
+def _table_problems(args: dict[str, Any], path: str) -> list[InputError]:
+    """Check the grade's tables (rows of numbers); each becomes a tuple of tuples in place."""
+    problems: list[InputError] = []
+    for k, width in _TABLES.items():
+        v = args[k]
+        rows = v if isinstance(v, (list, tuple)) else None
+        ok = rows is not None and len(rows) <= 50 and all(
+            isinstance(r, (list, tuple)) and len(r) == width and all(is_finite_number(x) and not isinstance(x, bool)
+                                                                     for x in r) for r in rows)
+        if not ok:
+            problems.append(InputError(f"must be a list of up to 50 rows of {width} numbers", f"{path}.{k}"))
+            continue
+        table = tuple(tuple(float(x) for x in r) for r in rows)
+        if k != "tempco_by_value" and any(b[0] <= a[0] for a, b in zip(table, table[1:])):
+            problems.append(InputError("rows must be in rising order of their first number", f"{path}.{k}"))
+            continue
+        if k == "tempco_by_value" and any(not 0 <= r[0] < r[1] or r[2] < 0 for r in table):
+            problems.append(InputError("each row is [low, high, spread ppm/K] with 0 <= low < high and "
+                                       "spread >= 0", f"{path}.{k}"))
+            continue
+        if k != "tempco_by_value" and any(abs(r[1]) >= 100 for r in table):
+            problems.append(InputError("changes must be within plus/minus 100 %", f"{path}.{k}"))
+            continue
+        args[k] = table
+    return problems
 
 
 # Ranges of a grade's numbers: (lowest, highest, whether the highest itself is allowed).
@@ -116,8 +177,17 @@ GRADE_LIMITS: dict[str, tuple[float, float, bool]] = {
     "tempco_spread_ppm": (0.0, 100_000.0, True),  # ppm/K
     "drift_pct": (0.0, 100.0, False),            # percent
     "cost": (0.0, 1e9, True),                    # relative cost
+    "tolerance_pf": (0.0, 10.0, True),           # pF (below 10 pF only)
+    "temp_curve_spread": (0.0, 1.0, True),       # fraction of the curve
+    "temp_limit_pct": (0.0, 100.0, False),       # percent
+    "life_drift_pct": (0.0, 100.0, False),       # percent at the rating
+    "life_hours": (1.0, 1e7, True),              # hours
+    "life_temp_c": (-273.0, 1000.0, True),       # deg C
+    "activation_ev": (0.0, 5.0, True),           # eV
+    "ageing_pct_per_decade": (0.0, 50.0, True),  # percent per decade of hours
 }
-_UNITS = {"tolerance_pct": " %", "bin_inner_pct": " %", "drift_pct": " %", "tempco_ppm": " ppm/K",
+_UNITS = {"tolerance_pf": " pF", "life_drift_pct": " %", "ageing_pct_per_decade": " %",
+          "tolerance_pct": " %", "bin_inner_pct": " %", "drift_pct": " %", "tempco_ppm": " ppm/K",
           "tempco_spread_ppm": " ppm/K"}
 
 
@@ -166,6 +236,9 @@ def _grade_problems(args: dict[str, Any], path: str) -> list[InputError]:
                         "deviations must not reach a negative value); truncate the grade or raise the "
                         "coverage factor")
     return problems
+
+
+_PLAIN = Grade("plain", "any", 0.0)
 
 
 @dataclass(frozen=True)

@@ -23,6 +23,8 @@ import numpy as np
 from .errors import InputError
 from .grades import Grade
 from .lazyimport import LazyModule
+from .temperature_physics import (REFERENCE_CELSIUS, ageing_factor, has_temperature, life_fraction,
+                                  temperature_change)
 
 __all__ = [
     "Method",
@@ -42,7 +44,6 @@ special = LazyModule("scipy.special")  # imported on first use (ndtr, ndtri): ab
 Method = Literal["random", "sobol"]
 METHODS: tuple[str, ...] = ("random", "sobol")
 BLOCK = 4096
-REFERENCE_CELSIUS = 25.0
 _U_EPS = 1e-12
 
 
@@ -109,7 +110,8 @@ def relative_deviation(grade: Grade, z: np.ndarray) -> np.ndarray:
 
 @dataclass(frozen=True)
 class Conditions:
-    """Board conditions: temperature range in deg C (equal ends: fixed), lot share 0..1.
+    """Board conditions: temperature range in deg C (equal ends: fixed), lot share 0..1,
+    time in service (hours at ``service_temp_c`` deg C; 0 = as delivered).
 
     ``lot_share`` is the fraction of a part's value variance shared by parts of the same
     marked value and grade on one board (taken from one reel); 0 means independent parts.
@@ -118,13 +120,20 @@ class Conditions:
     temp_low_c: float = REFERENCE_CELSIUS
     temp_high_c: float = REFERENCE_CELSIUS
     lot_share: float = 0.0
+    service_hours: float = 0.0
+    service_temp_c: float = REFERENCE_CELSIUS
 
 
 def part_values(nominal: Sequence[float], grades: Sequence[Grade], scores: np.ndarray,
                 conditions: Conditions = Conditions()) -> np.ndarray:
     """Sampled part values, shape (samples, parts), in SI units (ohm, F, H, Hz).
 
-    ``scores`` comes from :func:`draw_scores` with the same number of parts.
+    ``scores`` comes from :func:`draw_scores` with the same number of parts; each grade
+    applies as given (:meth:`filters.design.Design.part_grades` has already applied it to
+    the part's value: pF tolerances of small capacitors, tempco by resistance range). A part's factor is ``(1 + tolerance deviation) (1 + temperature
+    change) (1 + drift) (1 + life drift) (ageing)``; its temperature score and its drift
+    score are drawn once per board, so the same board is judged at every temperature and
+    after its service life with the same parts.
     """
     nom = np.asarray(nominal, dtype=float)
     p = nom.size
@@ -136,24 +145,28 @@ def part_values(nominal: Sequence[float], grades: Sequence[Grade], scores: np.nd
         leader: dict[tuple[float, str], int] = {}
         lot_cols = [leader.setdefault((float(nom[i]), grades[i].name), i) for i in range(p)]
         z_value = np.sqrt(1 - rho) * z_value + np.sqrt(rho) * scores[:, p:2 * p][:, lot_cols]
+    hours = conditions.service_hours
+    life = [life_fraction(g, hours, conditions.service_temp_c) for g in grades]
     # columns only drawn into values when some grade or the temperature range uses them
-    uses_tc = any(g.tempco_ppm or g.tempco_spread_ppm for g in grades)
-    uses_drift = any(g.drift_pct for g in grades)
+    uses_tc = any(has_temperature(g) for g in grades)
+    uses_drift = any(g.drift_pct for g in grades) or any(life)
     u_tc = 2 * special.ndtr(scores[:, 2 * p:3 * p]) - 1 if uses_tc else None
     u_drift = 2 * special.ndtr(scores[:, 3 * p:4 * p]) - 1 if uses_drift else None
     t_span = conditions.temp_high_c - conditions.temp_low_c
     temp = conditions.temp_low_c + t_span * special.ndtr(scores[:, 4 * p]) if t_span else \
         np.full(scores.shape[0], conditions.temp_low_c)
-    d_temp = (temp - REFERENCE_CELSIUS)[:, None]
     fixed_at_reference = t_span == 0 and conditions.temp_low_c == REFERENCE_CELSIUS
     out = np.empty((scores.shape[0], p))
     for i, g in enumerate(grades):  # parts, not samples
         factor = 1 + relative_deviation(g, z_value[:, i])
-        if (g.tempco_ppm or g.tempco_spread_ppm) and not fixed_at_reference:
-            tc = (g.tempco_ppm + g.tempco_spread_ppm * u_tc[:, i]) * 1e-6
-            factor = factor * (1 + tc * d_temp[:, 0])
+        if has_temperature(g) and not fixed_at_reference:
+            factor = factor * (1 + temperature_change(g, u_tc[:, i], temp))
         if g.drift_pct:
             factor = factor * (1 + g.drift_pct / 100.0 * u_drift[:, i])
+        if life[i]:  # load-life drift: the same drift score, so a part drifts one way
+            factor = factor * (1 + life[i] * u_drift[:, i])
+        if hours and g.ageing_pct_per_decade:
+            factor = factor * ageing_factor(g, hours)
         out[:, i] = nom[i] * np.maximum(factor, 1e-6)  # guard: a value never reaches zero or below
     return out
 
@@ -162,17 +175,20 @@ def limits(nominal: Sequence[float], grades: Sequence[Grade], conditions: Condit
            ) -> tuple[np.ndarray, np.ndarray]:
     """The lowest and highest value each part can take, shape (parts,) each.
 
-    Includes the tolerance, the temperature coefficient's extreme at either end of the
-    temperature range, and drift. Used for worst-case corners.
+    Includes the tolerance, the temperature change's extreme at either end of the
+    temperature range (and at the class II curve's points between them), drift and, after
+    a service life, the life drift and ageing. Used for worst-case corners.
     """
     nom = np.asarray(nominal, dtype=float)
     lo = np.empty_like(nom)
     hi = np.empty_like(nom)
-    d_temps = (conditions.temp_low_c - REFERENCE_CELSIUS, conditions.temp_high_c - REFERENCE_CELSIUS)
+    t_ends = [conditions.temp_low_c, conditions.temp_high_c]
     for i, g in enumerate(grades):
         tol = g.tolerance_pct / 100.0
-        tcs = [(g.tempco_ppm + s * g.tempco_spread_ppm) * 1e-6 * dt for s in (-1, 1) for dt in d_temps]
-        drift = g.drift_pct / 100.0
-        lo[i] = nom[i] * (1 - tol) * (1 + min(tcs)) * (1 - drift)
-        hi[i] = nom[i] * (1 + tol) * (1 + max(tcs)) * (1 + drift)
+        temps = np.array(t_ends + [t for t, _ in g.temp_curve_pct if t_ends[0] < t < t_ends[1]])
+        tcs = [float(x) for s in (-1, 1) for x in temperature_change(g, np.full(temps.size, float(s)), temps)]
+        drift = g.drift_pct / 100.0 + life_fraction(g, conditions.service_hours, conditions.service_temp_c)
+        age = ageing_factor(g, conditions.service_hours)
+        lo[i] = nom[i] * (1 - tol) * (1 + min(tcs)) * (1 - drift) * age
+        hi[i] = nom[i] * (1 + tol) * (1 + max(tcs)) * (1 + drift) * age
     return lo, hi
