@@ -160,7 +160,7 @@ class _Sheet:
         return e
 
     def finish(self, title: str = "") -> Schematic:
-        svg = self.d.get_imagedata("svg").decode("utf-8")
+        svg = _plain_text(self.d.get_imagedata("svg").decode("utf-8"))
         m = re.search(r'viewBox="([-\d.eE]+) ([-\d.eE]+) ([\d.eE]+) ([\d.eE]+)"', svg)
         x0, y0, w, h = (float(v) for v in m.groups())
         scale = 72.0 * INCHES_PER_UNIT
@@ -172,6 +172,40 @@ class _Sheet:
             spots.append(Hotspot(ref, role, (b.xmin * scale - x0) / w, (-b.ymax * scale - y0) / h,
                                  (b.xmax * scale - x0) / w, (-b.ymin * scale - y0) / h))
         return Schematic(svg, w, h, tuple(spots), title)
+
+
+SVG_NS = "http://www.w3.org/2000/svg"
+# where a line's baseline sits below its alignment point, in font sizes (SVG 1.1 renderers
+# that ignore dominant-baseline, e.g. Qt's SVG Tiny renderer, then place text as browsers do)
+_BASELINE = {"central": 0.35, "middle": 0.35, "hanging": 0.8, "text-before-edge": 0.8}
+
+
+def _plain_text(svg: str) -> str:
+    """Each line of text its own ``<text>`` at its own baseline, without ``tspan`` or
+    ``dominant-baseline``: SVG Tiny renderers (Qt's) draw it as browsers draw the original."""
+    import xml.etree.ElementTree as ET
+
+    ET.register_namespace("", SVG_NS)
+    ET.register_namespace("xlink", "http://www.w3.org/1999/xlink")
+    root = ET.fromstring(svg)
+    for parent in list(root.iter()):
+        for i, t in reversed(list(enumerate(list(parent)))):
+            if t.tag != f"{{{SVG_NS}}}text":
+                continue
+            size = float(t.get("font-size", FONT_PT))
+            shift = _BASELINE.get(t.attrib.pop("dominant-baseline", ""), 0.0) * size
+            spans = [c for c in t if c.tag == f"{{{SVG_NS}}}tspan"]
+            if not spans:
+                t.set("y", f"{float(t.get('y', 0)) + shift:.2f}")
+                continue
+            parent.remove(t)
+            y = float(t.get("y", 0))
+            for k, span in enumerate(spans):
+                y += float(span.get("dy", 0))
+                line = ET.Element(t.tag, {**t.attrib, "x": span.get("x", t.get("x", "0")), "y": f"{y + shift:.2f}"})
+                line.text = span.text
+                parent.insert(i + k, line)
+    return ET.tostring(root, encoding="unicode")
 
 
 # --- layouts -----------------------------------------------------------------------------
