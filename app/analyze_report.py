@@ -149,7 +149,7 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
         out.write(f"  worst case: {'every corner board meets the mask' if c.all_pass else 'some corner boards fail the mask'}"
                   "\n")
     if result.opamps:
-        from ..synthesis import opamp_table_text
+        from ..synthesis_result import opamp_table_text
 
         out.write("\nOP-AMP GAIN-BANDWIDTH (single-pole model; rule: GBW >= 100 G Q f0, open-loop gain at f0\n"
                   "  40 dB above the stage's gain, after Op Amps for Everyone ch. 16)\n")

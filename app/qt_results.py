@@ -158,7 +158,7 @@ class ResultsPanel(QWidget):
         t.setFixedHeight(h)
 
     def show_opamps(self, rows) -> None:
-        """Op-amp gain-bandwidth effects (tolspread.synthesis.GbwWarning rows)."""
+        """Op-amp gain-bandwidth effects (tolspread.opamp_check.GbwWarning rows)."""
         if not rows:
             self.opamp_note.hide()
             return

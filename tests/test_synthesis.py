@@ -23,8 +23,10 @@ from tolspread.designfile import dumps, load, loads
 from tolspread.engine import compile_design, frequency_response, stage_coefficients
 from tolspread.errors import InputError
 from tolspread.evaluate import evaluate, prepare
-from tolspread.synthesis import (GbwWarning, gbw_warnings, opamp_shift_table, prototype_sections,
-                               section_values, synthesize)
+from tolspread.component_values import section_values
+from tolspread.opamp_check import GbwWarning, gbw_warnings, opamp_shift_table
+from tolspread.prototypes import prototype_sections
+from tolspread.synthesis import synthesize
 from tolspread.values import E_SERIES
 
 TWO_PI = 2 * math.pi
