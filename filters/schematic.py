@@ -34,10 +34,14 @@ __all__ = [
     "stage_schematic",
     "design_schematics",
     "topology_drawing",
+    "LIBRARY_DRAWINGS",
+    "library_drawings",
+    "write_library_drawings",
+    "schematic_figures",
 ]
 
 HIGHLIGHT = "#D55E00"   # a selected part's colour (the window's error/selection orange)
-FONT_PT = 11.0          # label text size in points (the picture's own size, before scaling)
+FONT_PT = 12.0          # label text size in points (the report's figures keep text >= 12 px)
 INCHES_PER_UNIT = 0.5   # schemdraw's scale: one drawing unit is 36 pt
 MARGIN = 0.8            # white space around the drawing, drawing units (labels never clipped)
 LEN = 3.0               # a two-terminal symbol's length, drawing units
@@ -153,7 +157,7 @@ class _Sheet:
         lower, ``out``) at ``at``; returns the element (its ``in1``, ``in2``, ``out`` points)."""
         colour = self._colour(role)
         e = self.elm.Opamp(flip=plus_on_top, anchor=anchor, color=colour).right().at(at)
-        e.label(self._text(role), loc="center", ofst=(-0.1, 0), color=colour, fontsize=FONT_PT - 1)
+        e.label(self._text(role), loc="center", ofst=(-0.1, 0), color=colour)
         self.d.add(e)
         if role in self.refs:
             self.parts.append((e, self.refs[role], role))
@@ -188,6 +192,8 @@ def _plain_text(svg: str) -> str:
     ET.register_namespace("", SVG_NS)
     ET.register_namespace("xlink", "http://www.w3.org/1999/xlink")
     root = ET.fromstring(svg)
+    for dim in ("width", "height"):  # whole numbers without a unit, as the report's figures
+        root.set(dim, str(round(float(root.get(dim, "0").removesuffix("pt")))))
     for parent in list(root.iter()):
         for i, t in reversed(list(enumerate(list(parent)))):
             if t.tag != f"{{{SVG_NS}}}text":
@@ -467,3 +473,49 @@ def topology_drawing(name: str, options: Mapping[str, Any] | None = None) -> Sch
     topology table points to these drawings)."""
     topo = build(name, dict(options or {}))
     return draw_topology(topo, title=f"{name} ({topo.description})")
+
+
+# The drawings README's topology table points to (assets/schematics/<file>.svg): each library
+# topology with the options that show all its roles.
+LIBRARY_DRAWINGS: dict[str, tuple[str, dict[str, Any]]] = {
+    "rc_lowpass": ("rc_lowpass", {"sections": 2, "source": True, "load": True}),
+    "rc_highpass": ("rc_highpass", {"sections": 2, "source": True, "load": True}),
+    "lc_lowpass_shunt": ("lc_lowpass", {"order": 3, "first": "shunt"}),
+    "lc_lowpass_series": ("lc_lowpass", {"order": 3, "first": "series"}),
+    "sallen_key_lowpass": ("sallen_key_lowpass", {"gain": "resistors"}),
+    "sallen_key_highpass": ("sallen_key_highpass", {"gain": "resistors"}),
+    "mfb_lowpass": ("mfb_lowpass", {}),
+    "mfb_highpass": ("mfb_highpass", {}),
+    "mfb_bandpass": ("mfb_bandpass", {}),
+}
+
+
+def library_drawings() -> dict[str, Schematic]:
+    """File stem -> drawing, for :data:`LIBRARY_DRAWINGS`."""
+    return {stem: topology_drawing(name, opts) for stem, (name, opts) in LIBRARY_DRAWINGS.items()}
+
+
+def write_library_drawings(folder: str) -> list[str]:
+    """Write :func:`library_drawings` as ``folder/<stem>.svg`` (UTF-8); returns the paths.
+    Run after changing a layout: ``python -c "from tolspread.schematic import
+    write_library_drawings as w; w('assets/schematics')"``."""
+    from pathlib import Path
+
+    from .safeio import write_text_atomic
+
+    out = []
+    for stem, sch in library_drawings().items():
+        path = Path(folder) / f"{stem}.svg"
+        write_text_atomic(path, sch.svg + "\n", backup=False)
+        out.append(str(path))
+    return out
+
+
+def schematic_figures(design: Any) -> list[tuple[str, str, str]]:
+    """The report's schematics: ``(figure name, SVG text, caption)`` for each stage."""
+    figures = []
+    for i, sch in enumerate(design_schematics(design)):
+        figures.append((f"schematic-{i + 1}", sch.svg,
+                        f"{sch.title}: each part with its reference designator (and the topology's "
+                        "role for it where they differ), marked value and grade."))
+    return figures

@@ -131,3 +131,34 @@ def test_drawing_imports_no_matplotlib_and_writes_text_as_text():
             "assert '<text' in s.svg and 'matplotlib' not in sys.modules; print('ok')")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
     assert out.stdout.strip() == "ok", out.stderr
+
+
+def test_readme_drawings_are_current():
+    """assets/schematics/*.svg are what the library draws today (regenerate with
+    write_library_drawings after changing a layout), and README's topology table links each."""
+    from pathlib import Path
+
+    from tolspread.schematic import library_drawings
+
+    root = Path(__file__).resolve().parents[1]
+    readme = (root / "README.md").read_text(encoding="utf-8")
+    for stem, sch in library_drawings().items():
+        path = root / "assets" / "schematics" / f"{stem}.svg"
+        assert path.read_text(encoding="utf-8") == sch.svg + "\n", f"{path.name} is stale"
+        assert f"assets/schematics/{stem}.svg" in readme, f"README does not point to {stem}.svg"
+
+
+def test_report_figures_follow_the_figure_rules():
+    """Each stage's figure: whole-number size, no clip paths or patterns, text >= 12 px
+    (the report's figure rules, DEVELOPERS.md)."""
+    from tolspread.schematic import schematic_figures
+
+    design = load_demo()
+    figs = schematic_figures(design)
+    assert [name for name, _, _ in figs] == ["schematic-1", "schematic-2"]
+    for _name, svg, caption in figs:
+        root = ET.fromstring(svg)
+        assert root.get("width").isdigit() and root.get("height").isdigit()
+        assert "clipPath" not in svg and "pattern" not in svg
+        assert all(float(t.get("font-size")) >= 12 for t in root.iter(f"{SVG_NS}text"))
+        assert "Stage" in caption
