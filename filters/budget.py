@@ -7,6 +7,17 @@ ln(value / marked value). A part's share is its term's variance over the metric'
 variance, beta_i^2 Var(x_i) / Var(y); what the straight-line fit leaves (curvature,
 interactions, parts correlated by lot) is reported as the remainder.
 
+Networks (:mod:`filters.networks`): a member's log deviation holds the network's shared
+error ln(1 + e_c); the fit takes that shared error as one regressor of its own, named after
+the network, and each member's own remainder as the member's, so a shared error is
+attributed to the network, not to a member (the network's sensitivity is the sum of its
+members'). Boards of several channels (:mod:`filters.channels`): a match span's signed
+mismatch ``mismatch.<label>`` is fitted on each part's log ratio between channel 2 and
+channel 1 (and each network's shared-error difference), so its budget names the parts
+whose channel-to-channel differences explain the mismatch (no sensitivity is given there);
+a match span's margin (its limit minus the largest difference, not linear in the parts) is
+given the budget of its signed mismatch.
+
 Beside it, each part's normalized sensitivity at the nominal design,
 S = d ln(metric) / d ln(value) (for linear metrics: the metric's unit per unit ln(value),
 reported per 1 %: :func:`filters.metric_names.sensitivity_unit`),
@@ -18,13 +29,15 @@ grows with the number of boards or parts beyond (parts x parts) sums.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Callable
 
 import numpy as np
 
 from .evaluate import Ensemble, Prepared, evaluate_values
-from .metric_names import is_log_metric, is_margin, margin_name, margin_names, parse, sensitivity_unit
+from .metric_names import (is_log_metric, is_margin, margin_name, margin_names, mismatch_name, parse,
+                           sensitivity_unit)
+from .networks import shared_log_deviation
 from .summary import board_chunk, chunks
 
 __all__ = [
@@ -38,6 +51,9 @@ __all__ = [
     "perturbed_rows",
     "sensitivities",
     "log_deviations",
+    "budget_refs",
+    "budget_columns",
+    "mismatch_columns",
     "budget_names",
     "spread_budget",
 ]
@@ -176,6 +192,50 @@ def log_deviations(ens: Ensemble, nominal: np.ndarray, sl: slice) -> np.ndarray:
     return np.log(ens.values[sl] / nominal)
 
 
+def budget_refs(design) -> list[str]:
+    """The names of a budget's regressors: every part's ref, then every network's name."""
+    return [p.ref for p in design.parts] + [n.name for n in design.networks]
+
+
+def _split_shared(design, x: np.ndarray, shared: np.ndarray) -> np.ndarray:
+    """``x`` (boards, P) with each member's network share ``shared`` (boards, networks)
+    taken out and appended as the networks' columns: (boards, P + networks)."""
+    idx = {p.ref: i for i, p in enumerate(design.parts)}
+    for j, net in enumerate(design.networks):
+        x[:, [idx[m] for m in net.members]] -= shared[:, j:j + 1]
+    return np.hstack([x, shared])
+
+
+def budget_columns(ens: Ensemble, nominal: np.ndarray, sl: slice) -> np.ndarray:
+    """The budget's regressors of the boards in ``sl``: :func:`log_deviations`, and with
+    networks each network's shared ln(1 + e_c) split off its members, (boards, P + networks)."""
+    x = log_deviations(ens, nominal, sl)
+    d = ens.design
+    if not d.networks:
+        return x
+    shared = shared_log_deviation(d, ens.seed, ens.method, ens.start + sl.start, ens.start + sl.stop)
+    return _split_shared(d, x, shared)
+
+
+def mismatch_columns(ens: Ensemble, nominal: np.ndarray, sl: slice) -> np.ndarray:
+    """Regressors of a mismatch (boards of several channels): each part's ln(value in
+    channel 2 / value in channel 1), and each network's shared-error difference split off
+    its members, (boards, P + networks)."""
+    from .channel_match import mismatch_deviations
+    from .sampling import draw_scores
+
+    d = ens.design
+    lo, hi = ens.start + sl.start, ens.start + sl.stop
+    scores = draw_scores(ens.seed, len(d.parts), lo, hi, ens.method)  # type: ignore[arg-type]
+    x = mismatch_deviations(d, nominal, ens.grades, scores, d.analysis.conditions, ens.seed, ens.method, lo)
+    if not d.networks:
+        return x
+    shared = (shared_log_deviation(d, ens.seed, ens.method, lo, hi, 1)
+              - shared_log_deviation(d, ens.seed, ens.method, lo, hi, 0))
+    shared[:, [j for j, n in enumerate(d.networks) if n.across_channels]] = 0.0  # one package
+    return _split_shared(d, x, shared)
+
+
 def budget_names(cols: dict[str, np.ndarray]) -> list[str]:
     """The default metrics of a spread budget: cutoff or band-pass centre and bandwidth,
     stage f0/Q (not single pole pairs), every span margin."""
@@ -202,10 +262,44 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
     if names is None:
         names = budget_names(cols)
     sens = sensitivities(prep, names)
-    refs = [p.ref for p in ens.design.parts]
+    design = ens.design
+    refs = budget_refs(design)
+    if design.networks:  # a network's shared error moves all its members: the sum of theirs
+        idx = {q.ref: i for i, q in enumerate(design.parts)}
+        sens = {k: np.concatenate([v, [v[[idx[m] for m in net.members]].sum() for net in design.networks]])
+                for k, v in sens.items()}
     nom = prep.nominal.values
-    n, p = ens.values.shape
-    chunk = chunk or board_chunk(p)
+    chunk = chunk or board_chunk(len(refs))
+    # a match span's margin is budgeted by its signed mismatch (the margin is limit - |mismatch|)
+    via = {m: _mismatch_of(m, design.mask) for m in names}
+    mismatch = list(dict.fromkeys(v for v in via.values() if v in cols))
+    plain = [m for m in names if via[m] is None]
+    out = _fit(ens, cols, plain, lambda sl: budget_columns(ens, nom, sl), refs, sens, chunk) if plain else {}
+    if mismatch:
+        out.update(_fit(ens, cols, mismatch, lambda sl: mismatch_columns(ens, nom, sl), refs, sens, chunk))
+    for m, v in via.items():
+        if v is not None and v != m and v in out:
+            out[m] = replace(out[v], metric=m)
+    return {name: out[name] for name in names if name in out}
+
+
+def _mismatch_of(name: str, mask) -> str | None:
+    """The signed mismatch a budget of ``name`` is fitted on (``name`` itself for a
+    mismatch, ``mismatch.<label>`` for a match span's margin), else None."""
+    mid = parse(name)
+    if mid.kind == "mismatch":
+        return name
+    if mid.kind == "margin":
+        span = next((s for s in mask if s.label == mid.span), None)
+        if span is not None and span.kind == "match":
+            return mismatch_name(span)
+    return None
+
+
+def _fit(ens: Ensemble, cols: dict[str, np.ndarray], names: list[str], x_of: Callable[[slice], np.ndarray],
+         refs: list[str], sens: dict[str, np.ndarray], chunk: int) -> dict[str, Budget]:
+    """Budgets of ``names`` fitted on the regressors ``x_of(boards)`` (boards, len(refs))."""
+    n, p = ens.samples, len(refs)
 
     def y_of(name: str, sl: slice) -> np.ndarray:
         y = cols[name][sl]
@@ -221,7 +315,7 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
     sum_y = dict.fromkeys(names, 0.0)
     sum_x_ok = {name: np.zeros(p) for name in names}
     for sl in chunks(n, chunk):
-        x = log_deviations(ens, nom, sl)
+        x = x_of(sl)
         sx = x.sum(axis=0)
         sum_x += sx
         for name in names:
@@ -246,7 +340,7 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
     syy = dict.fromkeys(names, 0.0)
     sy = dict.fromkeys(names, 0.0)
     for sl in chunks(n, chunk):
-        xc = log_deviations(ens, nom, sl) - mx
+        xc = x_of(sl) - mx
         g = xc.T @ xc
         gram += g
         xo = xc

@@ -29,7 +29,8 @@ import numpy as np
 
 from .budget import evaluate_rows, log_deviations, metric_columns, perturbed_rows, sensitivities
 from .evaluate import Ensemble, Prepared
-from .metric_names import is_log_metric, margin_name
+from .metric_names import MISMATCH_PREFIX, is_log_metric, margin_name
+from .networks import corner_grades
 from .sampling import limits
 from .summary import CHUNK, board_chunk, chunks, column_stats
 
@@ -98,7 +99,7 @@ class Corners:
 def corner_values(prep: Prepared, ens: Ensemble, names: list[str]) -> tuple[np.ndarray, bool, int]:
     """The corner boards' part values (boards, P), whether exhaustive, varying parts."""
     nom = prep.nominal.values
-    lo, hi = limits(nom, ens.grades, ens.design.analysis.conditions)
+    lo, hi = limits(nom, corner_grades(ens.design, ens.grades), ens.design.analysis.conditions)
     varying = np.flatnonzero(hi > lo)
     m = varying.size
     if m == 0:
@@ -169,9 +170,15 @@ def log_spread(ens: Ensemble, nominal: np.ndarray, chunk: int | None = None) -> 
 def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None, chunk: int | None = None) -> Corners:
     """Corner extremes and RSS estimates of ``names`` (default: every metric and margin);
     the sampled spread is taken in chunks of ``chunk`` boards (default: see
-    :func:`log_spread` and :data:`filters.summary.CHUNK`)."""
+    :func:`log_spread` and :data:`filters.summary.CHUNK`).
+
+    Match spans (channels that must match) have no corners: a corner board is one channel
+    standing for all, so its channels never differ; their margins and mismatches are left
+    out of the ranges, of ``worst_margins`` and of ``all_pass`` (read their sampled spread)."""
     cols = metric_columns(ens)
-    names = list(cols) if names is None else names
+    matched = {margin_name(s) for s in ens.design.mask if s.kind == "match"}
+    names = [n for n in (list(cols) if names is None else names)
+             if n not in matched and not n.startswith(MISMATCH_PREFIX)]
     rows, exhaustive, m = corner_values(prep, ens, names)
     ccols, cmarg = evaluate_rows(prep, rows.shape[0], lambda a, b: rows[a:b])
     nomcols = dict(prep.nominal.metrics)
@@ -179,7 +186,7 @@ def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None, chunk
         nomcols[margin_name(s)] = float(prep.nominal.margins[j])
     sens = sensitivities(prep, names)
     sigma = log_spread(ens, prep.nominal.values, chunk)
-    lo, hi = limits(prep.nominal.values, ens.grades, ens.design.analysis.conditions)
+    lo, hi = limits(prep.nominal.values, corner_grades(ens.design, ens.grades), ens.design.analysis.conditions)
     half = 0.5 * (np.log(hi) - np.log(lo))
     ranges = {}
     for name in names:
@@ -206,6 +213,7 @@ def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None, chunk
             float(cfin.min()) if cfin.size else np.nan, float(cfin.max()) if cfin.size else np.nan,
             st.minimum, st.maximum,
             rss_std, rss_lim, linear)
-    worst = {s.label: float(cmarg[:, j].min()) for j, s in enumerate(ens.design.mask)}
-    all_pass = bool(np.all(cmarg >= 0)) if cmarg.size else True
+    judged = [j for j, s in enumerate(ens.design.mask) if s.kind != "match"]
+    worst = {ens.design.mask[j].label: float(cmarg[:, j].min()) for j in judged}
+    all_pass = bool(np.all(cmarg[:, judged] >= 0)) if cmarg[:, judged].size else True
     return Corners(ranges, exhaustive, int(rows.shape[0]), int(m), all_pass, worst)

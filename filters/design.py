@@ -14,9 +14,11 @@ from dataclasses import dataclass, field, replace
 from typing import Any
 
 from .errors import InputError, ValidationError, is_finite_number, quoted
+from .channels import Channels, channels_from_dict, check_match_spans
 from .grades import Catalog, Grade, builtin_catalog, scaled
 from .mask import Span
 from .metric_names import SPAN_UNIT, duplicate_label
+from .networks import Network, networks_from_dict
 from .sampling import METHODS, Conditions
 from .temperature_settings import settings_from_dict as temperature_settings
 from .temperature_physics import for_value
@@ -134,6 +136,8 @@ class Design:
     name: str = ""
     description: str = ""
     grades: tuple[Grade, ...] = ()
+    networks: tuple[Network, ...] = ()  # resistor networks and matched pairs (filters/networks.py)
+    channels: Channels = Channels()     # identical channels on one board (filters/channels.py)
 
     @property
     def catalog(self) -> Catalog:
@@ -342,7 +346,8 @@ def design_from_dict(data: Any) -> Design:
     problems: list[InputError] = []
     if not isinstance(data, dict):
         raise ValidationError([InputError("a design must be a JSON object", "")])
-    known = {"format", "version", "name", "description", "parts", "stages", "analysis", "mask", "grades"}
+    known = {"format", "version", "name", "description", "parts", "stages", "analysis", "mask", "grades",
+             "networks", "channels"}
     problems += [InputError(f"unknown field {k!r}", k) for k in data if k not in known]
     for k in ("name", "description"):
         if k in data and not isinstance(data[k], str):
@@ -480,6 +485,8 @@ def design_from_dict(data: Any) -> Design:
         if ref not in seen:
             problems.append(InputError(f"part {ref} is not in the parts list", where))
 
+    networks = networks_from_dict(data.get("networks"), parts, problems)
+    channels = channels_from_dict(data.get("channels"), parts, problems)
     analysis = analysis_from_dict(data.get("analysis"), problems)
     t_ends = (analysis.temp_low_c, analysis.temp_high_c) + (analysis.operating_range_c or ())
     dt = max(abs(t - 25.0) for t in t_ends)
@@ -526,7 +533,8 @@ def design_from_dict(data: Any) -> Design:
         what = f"named {quoted(label)}" if mask[twins[1]].name else f"labelled {quoted(label)} (give one a name)"
         problems.append(InputError(f"two spans are {what} ({first} and {second}); span names must be unique",
                                    f"{second}.name"))
+    check_match_spans(mask, mask_paths, channels, problems)
     if problems:
         raise ValidationError(problems)
     return Design(tuple(parts), tuple(stages), analysis, tuple(mask), data.get("name", ""),
-                  data.get("description", ""), tuple(grades))
+                  data.get("description", ""), tuple(grades), networks, channels)

@@ -146,6 +146,10 @@ def design_to_dict(design: Design) -> dict[str, Any]:
     out["mask"] = [s.to_dict() for s in design.mask]
     if design.grades:
         out["grades"] = [g.to_dict() for g in design.grades]
+    if design.networks:
+        out["networks"] = [n.to_dict() for n in design.networks]
+    if design.channels.count > 1:
+        out["channels"] = design.channels.to_dict()
     return out
 
 

@@ -35,7 +35,8 @@ from .judge import SpanPlan, margins, needs, plan
 from .mask import edge_frequencies
 from .metric_names import attenuation_name
 from .metrics import attenuation_db, cutoff_metrics, stage_metrics
-from .sampling import Conditions, draw_scores, part_values
+from .channel_match import evaluate_channels, sample_values
+from .sampling import Conditions, draw_scores
 
 __all__ = [
     "CHUNK_MAX",
@@ -278,7 +279,8 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
             return lo, hi, {}
         sc = scores[lo:hi] if scores is not None else draw_scores(
             seed, n_parts, start + lo, start + hi, method)  # type: ignore[arg-type]
-        vals = part_values(nominal_values, grade_list, sc, cond)
+        every = sample_values(design, nominal_values, grade_list, sc, cond, seed, method, start + lo)
+        vals = every[0]  # (S, P): channel 1, the board's only channel without channels
         values[lo:hi] = vals
         if stopped.is_set():
             return lo, hi, {}
@@ -286,8 +288,8 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
         out = (None if gain_db is None else gain_db[lo:hi],
                None if phase_deg is None else phase_deg[lo:hi],
                None if delay_s is None else delay_s[lo:hi])
-        ev = evaluate_values(prep, vals, phase=curves and phase, delay=curves and delay, out=out,
-                             metrics=metrics)
+        ev = evaluate_channels(prep, every, phase=curves and phase, delay=curves and delay, out=out,
+                               metrics=metrics)  # evaluate_values without channels
         marg[lo:hi] = ev.margins
         return lo, hi, ev.metrics
 

@@ -69,7 +69,9 @@ def margins(plans: list[SpanPlan], resp: Response) -> np.ndarray:
     """Margin of every sample on every span, shape (samples, spans).
 
     Gain spans: dB; phase spans: degrees; delay spans: seconds (limit minus the delay's
-    variation over the band). Positive = passes.
+    variation over the band). Positive = passes. A match span's margin here is its limit
+    (each row is one channel standing for all); boards of several channels are judged by
+    :func:`filters.channel_match.evaluate_channels`.
 
     Each span reads its columns as a slice of the response (a view, never a copy). With a
     flat limit the margin is min(curve) - limit (floor) or limit - max(curve) (ceiling):
@@ -80,6 +82,9 @@ def margins(plans: list[SpanPlan], resp: Response) -> np.ndarray:
     out = np.empty((s, len(plans)))
     for j, p in enumerate(plans):
         q = p.span.quantity
+        if p.span.kind == "match":  # rows here are one channel copied to all: no difference
+            out[:, j] = p.limit.min() if p.limit.size else p.span.limit1
+            continue  # boards of several channels: filters/channel_match.py
         if q == "delay":
             assert resp.delay_s is not None, "delay spans need the group delay"
             band = resp.delay_s[:, p.columns]

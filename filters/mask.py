@@ -5,6 +5,11 @@ A gain span's limit is in dB and may slope linearly in dB against log frequency 
 ``limit1`` at f1 to ``limit2`` at f2. It is absolute, or relative to the nominal design's
 passband reference gain (``relative``). A phase span limits the phase in degrees the same
 way. A delay span limits the group delay's variation (max - min, seconds) over its band.
+
+A match span (``kind`` "match", designs of two or more channels: :mod:`filters.channels`)
+limits the difference between any two channels over its band: gain difference (dB), phase
+difference (degrees) or group-delay difference (seconds), by its ``quantity``; its limit
+is above 0 and may slope like a gain limit.
 """
 from __future__ import annotations
 
@@ -25,7 +30,7 @@ __all__ = [
 ]
 
 Quantity = Literal["gain", "phase", "delay"]
-SpanKind = Literal["floor", "ceiling", "variation"]
+SpanKind = Literal["floor", "ceiling", "variation", "match"]
 QUANTITIES: tuple[str, ...] = ("gain", "phase", "delay")
 
 
@@ -83,7 +88,7 @@ class Span:
         quantity = data.get("quantity", "gain")
         if quantity not in QUANTITIES:
             problems.append(InputError(f"must be one of {', '.join(QUANTITIES)}", f"{path}.quantity"))
-        kinds = ("variation",) if quantity == "delay" else ("floor", "ceiling")
+        kinds = ("variation", "match") if quantity == "delay" else ("floor", "ceiling", "match")
         if data["kind"] not in kinds:
             problems.append(InputError(f"must be {' or '.join(kinds)} for a {quantity} span", f"{path}.kind"))
         nums: dict[str, float] = {}
@@ -107,6 +112,14 @@ class Span:
                                            f"{path}.f2"))
         if quantity == "delay" and nums.get("limit1", 1.0) <= 0:
             problems.append(InputError("a delay variation limit must be above 0 s", f"{path}.limit1"))
+        if data["kind"] == "match":
+            for k in ("limit1", "limit2"):
+                if nums.get(k, 1.0) <= 0:
+                    problems.append(InputError("a match span limits a difference between channels: "
+                                               "its limit must be above 0", f"{path}.{k}"))
+            if data.get("relative", False) is True:
+                problems.append(InputError("a match span is a difference already; it cannot be relative",
+                                           f"{path}.relative"))
         if problems:
             raise ValidationError(problems)
         return Span(kind=data["kind"], f1=nums["f1"], f2=nums["f2"], limit1=nums["limit1"],

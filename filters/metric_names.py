@@ -17,7 +17,13 @@ name                            what                                            
 ``s<k>.p<j>.f0_hz``, ``.q``     pole pair j (from 1) of a stage of order > 2         Hz, -
 ``margin.<span label>``         a span's margin (positive: met), in its quantity's   dB,
                                 unit: gain dB, phase degrees, delay variation s      deg, s
+``mismatch.<span label>``       a match span's signed channel difference: the mean   dB,
+                                over its band of channel 2 minus channel 1           deg, s
 ==============================  ===================================================  =====
+
+Match spans (``kind`` "match", boards of several channels) limit the difference between
+any two channels: gain difference (dB), phase difference (deg), group-delay difference
+(s); :data:`MATCH_WORDS` names them for people.
 
 A margin's unit is its span's, so :func:`unit`, :func:`metric_label` and
 :func:`sensitivity_unit` need the design's mask for margins (a ``ValueError`` without it:
@@ -42,6 +48,9 @@ __all__ = [
     "RESPONSE_METRICS",
     "STAGE_METRICS",
     "MARGIN_PREFIX",
+    "MISMATCH_PREFIX",
+    "MATCH_WORDS",
+    "mismatch_name",
     "ATTENUATION_PREFIX",
     "MetricId",
     "margin_name",
@@ -61,10 +70,13 @@ __all__ = [
     "unique_span_name",
 ]
 
-MetricKind = Literal["response", "attenuation", "stage", "margin"]
+MetricKind = Literal["response", "attenuation", "stage", "margin", "mismatch"]
 
 #: The unit of each span quantity's limits and margins.
 SPAN_UNIT = {"gain": "dB", "phase": "deg", "delay": "s"}
+
+#: What a match span of each quantity limits, in words.
+MATCH_WORDS = {"gain": "gain difference", "phase": "phase difference", "delay": "group-delay difference"}
 
 #: The response's own metrics: name -> (words, unit).
 RESPONSE_METRICS = {
@@ -81,6 +93,7 @@ RESPONSE_METRICS = {
 STAGE_METRICS = {"f0_hz": ("f0", "Hz"), "q": ("Q", ""), "fc_hz": ("fc", "Hz")}
 
 MARGIN_PREFIX = "margin."
+MISMATCH_PREFIX = "mismatch."
 ATTENUATION_PREFIX = "attenuation_db@"
 _STAGE = re.compile(r"s([1-9]\d*)(?:\.p([1-9]\d*))?\.([a-z0-9_]+)")
 
@@ -92,7 +105,7 @@ class MetricId:
     ``kind``: "response" (``quantity`` is the whole name, e.g. ``cutoff_hz``),
     "attenuation" (``freq_hz``), "stage" (``stage`` from 1, ``pair`` from 1 or 0 for the
     stage's highest-Q pair, ``quantity`` one of :data:`STAGE_METRICS`) or "margin"
-    (``span``: the span's label).
+    (``span``: the span's label) or "mismatch" (``span``: the match span's label).
     """
 
     kind: MetricKind
@@ -107,6 +120,8 @@ class MetricId:
         """The metric name this id was parsed from (:func:`parse` inverts it)."""
         if self.kind == "margin":
             return margin_name(self.span)
+        if self.kind == "mismatch":
+            return mismatch_name(self.span)
         if self.kind == "attenuation":
             return attenuation_name(self.freq_hz)
         if self.kind == "stage":
@@ -119,6 +134,11 @@ class MetricId:
 def margin_name(span: Span | str) -> str:
     """``margin.<label>`` of a span (or of a span label)."""
     return MARGIN_PREFIX + (span if isinstance(span, str) else span.label)
+
+
+def mismatch_name(span: Span | str) -> str:
+    """``mismatch.<label>`` of a match span (or of its label): the signed channel difference."""
+    return MISMATCH_PREFIX + (span if isinstance(span, str) else span.label)
 
 
 def margin_names(mask: Sequence[Span]) -> list[str]:
@@ -147,6 +167,8 @@ def parse(name: str) -> MetricId:
     """The :class:`MetricId` of a metric name; ``ValueError`` for a name no module makes."""
     if name.startswith(MARGIN_PREFIX):
         return MetricId("margin", "margin", span=name[len(MARGIN_PREFIX):])
+    if name.startswith(MISMATCH_PREFIX):
+        return MetricId("mismatch", "mismatch", span=name[len(MISMATCH_PREFIX):])
     if name in RESPONSE_METRICS:
         return MetricId("response", name)
     if name.startswith(ATTENUATION_PREFIX):
@@ -178,7 +200,7 @@ def is_pair_metric(name: str) -> bool:
 def span_of(name: str, mask: Sequence[Span]) -> Span:
     """The span of margin ``name`` in ``mask``; ``ValueError`` when it has none."""
     mid = parse(name)
-    if mid.kind == "margin":
+    if mid.kind in ("margin", "mismatch"):
         for s in mask:
             if s.label == mid.span:
                 return s
@@ -191,7 +213,7 @@ def unit(name: str, mask: Sequence[Span] | None = None) -> str:
     """The unit of metric ``name``: "Hz", "dB", "deg", "s", or "" for Q. A margin's is its
     span's (:data:`SPAN_UNIT`), looked up in ``mask`` (needed for margins)."""
     mid = parse(name)
-    if mid.kind == "margin":
+    if mid.kind in ("margin", "mismatch"):
         if mask is None:
             raise ValueError(f"the unit of {name!r} is its span's: pass the design's mask")
         return SPAN_UNIT[span_of(name, mask).quantity]
@@ -234,6 +256,8 @@ def metric_words(name: str, stage_names: Sequence[str] | None = None) -> str:
         stage = stage_names[k - 1] if stage_names and k - 1 < len(stage_names) else f"stage {k}"
         pair = f" pair {mid.pair}" if mid.pair else ""
         return f"{stage}{pair} {STAGE_METRICS[mid.quantity][0]}"
+    if mid.kind == "mismatch":
+        return f"channel 2 minus channel 1 of '{mid.span}'"
     return f"margin of '{mid.span}'"
 
 
