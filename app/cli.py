@@ -16,6 +16,7 @@ from ..errors import InputError, ValidationError
 from ..safeio import check_output_path
 
 from .cli_args import EXIT_BAD_INPUT, Parser, positive_int, seed
+from .cli_centre import add_parser as add_centre_parser, run as run_centre
 from .cli_design import add_parser as add_design_parser, run as run_design
 from .cli_recommend import add_parser as add_recommend_parser, run as run_recommend
 
@@ -54,6 +55,7 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--report", metavar="PATH", help="also write the design-review report (HTML)")
     add_design_parser(sub)
     add_recommend_parser(sub)
+    add_centre_parser(sub)
     for sp in sub.choices.values():
         sp.add_argument("--verbose", action="store_true",
                         help="list every problem of a bad input file, one per line")
@@ -118,7 +120,7 @@ def cmd_analyze(args: argparse.Namespace) -> int:
     return 0
 
 
-SUBCOMMANDS = ("analyze", "design", "recommend")
+SUBCOMMANDS = ("analyze", "design", "recommend", "centre")
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -146,6 +148,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             return run_design(args)
         if args.command == "recommend":
             return run_recommend(args)
+        if args.command == "centre":
+            return run_centre(args)
         return open_window(design_path, args.screenshot)
     except ValidationError as exc:
         lines, more = exc.lines(), len(exc.lines()) - 1
