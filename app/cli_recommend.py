@@ -36,7 +36,8 @@ def run(args: argparse.Namespace) -> int:
     from ..analysis import analyze
     from ..designfile import load, load_demo, save
     from ..grades import load_catalog
-    from ..recommend import cost_yield_curve, parts_list_rows, recommend, worst_margin_metric, write_parts_csv
+    from ..parts_list import parts_list_rows, worst_margin_metric, write_parts_csv
+    from ..recommend import cost_yield_curve, recommend
     from ..report import build_report, write_report
     from ..safeio import check_output_path
 
@@ -92,7 +93,10 @@ def run(args: argparse.Namespace) -> int:
         save(chosen_design, args.output)
         out.write(f"\nwrote the design with the recommended grades to {args.output}\n")
     if args.csv or args.report:
-        result = analyze(chosen_design, samples=args.samples, seed=args.seed)
+        from ..report.build import FIGURE_BOARDS
+
+        result = analyze(chosen_design, samples=args.samples, seed=args.seed,
+                         curves=FIGURE_BOARDS if args.report else 0)
         rows = parts_list_rows(design, rec, result.budget, metric=worst_margin_metric(result.ensemble))
         if args.csv:
             write_parts_csv(rows, args.csv)

@@ -10,8 +10,8 @@ from PySide6.QtWidgets import (QCheckBox, QDialog, QDoubleSpinBox, QFileDialog, 
 
 from ..design import Design
 from ..errors import InputError
-from ..recommend import (Recommendation, cost_yield_curve, parts_list_rows, recommend,
-                               worst_margin_metric, write_parts_csv)
+from ..parts_list import parts_list_rows, worst_margin_metric, write_parts_csv
+from ..recommend import Recommendation, cost_yield_curve, recommend
 
 from . import qt_style as st
 from .qt_tasks import BackgroundTask

@@ -25,30 +25,31 @@ Search (see :func:`recommend` for the details):
 
 The chosen set is then re-evaluated on a fresh seed with more boards, to show that the
 yield was not an accident of the boards the search used.
+
+Modules: this one checks the inputs, chooses the search and builds the
+:class:`Recommendation`; the evaluator and the searches are :mod:`filters.grade_search`;
+the parts list and its CSV file :mod:`filters.parts_list`.
 """
 from __future__ import annotations
 
-import csv
-import io
-import itertools
 import math
 from dataclasses import dataclass, field, replace
-from pathlib import Path
-from typing import Any, Callable, Mapping, Sequence
+from typing import Any, Callable, Sequence
 
 import numpy as np
 
-from .budget import Budget, spread_budget
 from .design import MAX_SAMPLES, Design
-from .designfile import write_text_atomic
-from .errors import Cancelled, InputError
-from .evaluate import Ensemble, Prepared, evaluate, prepare
+from .errors import InputError
+from .evaluate import Prepared, prepare
 from .grades import Catalog, Grade
+from .grade_search import (FRESH_SEED_OFFSET, Candidate, Capped, Evaluator, SearchCache, cheapest_seen,
+                           exhaustive_search, guided_search)
 from .memory import check_boards
-from .metric_names import is_margin, margin_names, metric_label
+# the parts list lives in filters/parts_list.py; its names stay importable from here too
+from .parts_list import (FORMULA_STARTS, PARTS_COLUMNS, parts_list_rows, smallest_series,  # noqa: F401
+                         worst_margin_metric, write_parts_csv)
 from .sampling import REFERENCE_CELSIUS
 from .stats import INTERVAL_METHODS, lower_bound, samples_to_show
-from .values import E_SERIES, PART_UNITS, format_value, series_for_tolerance, snap, tolerance_letter
 
 __all__ = [
     "FRESH_SEED_OFFSET",
@@ -61,41 +62,9 @@ __all__ = [
     "recommend",
     "design_with_grades",
     "cost_yield_curve",
-    "PARTS_COLUMNS",
-    "FORMULA_STARTS",
-    "worst_margin_metric",
-    "smallest_series",
-    "parts_list_rows",
-    "write_parts_csv",
 ]
 
-#: The verification run uses this seed offset from the search's seed.
-FRESH_SEED_OFFSET = 1_000_003
 DEFAULT_TARGETS: tuple[float, ...] = (0.5, 0.8, 0.9, 0.95, 0.99, 0.995, 0.999)
-_COST_EPS = 1e-12
-
-
-@dataclass(frozen=True)
-class Candidate:
-    """One evaluated set of grades.
-
-    ``grades``: grade name per part, in design order; ``cost``: sum of the grades'
-    relative costs; ``passed`` of ``samples`` boards met the mask; ``lower``: one-sided
-    lower confidence bound of the yield (fraction) at the search's confidence;
-    ``estimate`` = passed / samples.
-    """
-
-    grades: tuple[str, ...]
-    cost: float
-    passed: int
-    samples: int
-    lower: float
-    estimate: float
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"grades": list(self.grades), "cost": float(self.cost), "passed": int(self.passed),
-                "samples": int(self.samples), "lower": float(self.lower),
-                "estimate": float(self.estimate)}
 
 
 @dataclass(frozen=True)
@@ -241,286 +210,6 @@ def current_cost(design: Design, catalog: Catalog | None = None) -> float:
     return math.fsum(cat[g.name].cost if g.name in cat else g.cost for g in design.part_grades())
 
 
-# --- the evaluator shared by the searches ------------------------------------------------
-
-class _Capped(Exception):
-    pass
-
-
-class _Cache:
-    """Evaluated candidates keyed by grade-name tuple, for one design, seed, sample count,
-    confidence and interval method (the boards are the same, so results carry over)."""
-
-    def __init__(self, key: tuple) -> None:
-        self.key = key
-        self.found: dict[tuple[str, ...], Candidate] = {}
-        self.shares: dict[tuple[str, ...], np.ndarray] = {}
-        self.verified: dict[tuple[str, ...], Candidate] = {}
-
-
-class _Evaluator:
-    def __init__(self, design: Design, prep: Prepared, cands: list[list[Grade]], samples: int,
-                 seed: int, confidence: float, method: str, cache: _Cache, max_evaluations: int,
-                 total: int, progress: Callable[[int, int], None] | None,
-                 should_stop: Callable[[], bool] | None) -> None:
-        self.design, self.prep, self.cands = design, prep, cands
-        self.samples, self.seed, self.confidence, self.method = samples, seed, confidence, method
-        self.cache = cache
-        self.max_evaluations, self.total = max_evaluations, total
-        self.progress, self.should_stop = progress, should_stop
-        self.evaluations = 0
-        self.history: list[Candidate] = []
-        self._ens: dict[tuple[str, ...], Ensemble] = {}  # feasible sets of the current round
-
-    def grades(self, idx: Sequence[int]) -> tuple[Grade, ...]:
-        return tuple(self.cands[i][k] for i, k in enumerate(idx))
-
-    def names(self, idx: Sequence[int]) -> tuple[str, ...]:
-        return tuple(g.name for g in self.grades(idx))
-
-    def cost(self, idx: Sequence[int]) -> float:
-        return math.fsum(g.cost for g in self.grades(idx))
-
-    def _check_stop(self) -> None:
-        if self.should_stop is not None and self.should_stop():
-            raise Cancelled("recommendation cancelled")
-
-    def _run(self, grades: tuple[Grade, ...], samples: int, seed: int) -> Ensemble:
-        self._check_stop()
-        # pass/fail and margins are all a candidate needs (the shares read span margins); the
-        # metrics only without a mask (the shares then fall back to the cutoff)
-        return evaluate(self.design, samples=samples, seed=seed, grades=grades, curves=False,
-                        metrics=not self.design.mask, prepared=self.prep, should_stop=self.should_stop)
-
-    def _candidate(self, grades: tuple[Grade, ...], ens: Ensemble) -> Candidate:
-        k, n = int(np.count_nonzero(ens.passed)), ens.samples
-        return Candidate(tuple(g.name for g in grades), math.fsum(g.cost for g in grades), k, n,
-                         lower_bound(k, n, self.confidence, self.method), k / n)  # type: ignore[arg-type]
-
-    def look(self, idx: Sequence[int], target: float) -> Candidate:
-        """The candidate for grade indices ``idx`` (from the cache, or evaluated now)."""
-        key = self.names(idx)
-        hit = self.cache.found.get(key)
-        if hit is None:
-            if self.evaluations >= self.max_evaluations:
-                raise _Capped
-            grades = self.grades(idx)
-            ens = self._run(grades, self.samples, self.seed)
-            hit = self._candidate(grades, ens)
-            self.cache.found[key] = hit
-            self.evaluations += 1
-            if hit.lower >= target:
-                self._ens[key] = ens
-            if self.progress is not None:
-                self.progress(self.evaluations, self.total)
-        self.history.append(hit)
-        return hit
-
-    def shares(self, idx: Sequence[int]) -> np.ndarray:
-        """Each part's summed spread-budget share (0..1 per metric) at the set ``idx``: over
-        the margins of the spans some board fails, else every span, else the cutoff."""
-        key = self.names(idx)
-        ens = self._ens.pop(key, None)
-        self._ens.clear()  # a new state: the other sets of the last round are not needed
-        got = self.cache.shares.get(key)
-        if got is not None:
-            return got
-        if ens is None:  # taken from the cache of another search: evaluate again (same boards)
-            ens = self._run(self.grades(idx), self.samples, self.seed)
-        names = margin_names(ens.design.mask)
-        if names:
-            failing = [n for j, n in enumerate(names) if np.any(ens.margins[:, j] < 0)]
-            names = failing or names
-        else:
-            names = [n for n in ("cutoff_hz", "centre_hz") if n in ens.metrics][:1]
-        refs = [p.ref for p in self.design.parts]
-        total = np.zeros(len(refs))
-        if names:
-            budget = spread_budget(ens, self.prep, list(dict.fromkeys(names)))
-            for b in budget.values():
-                for e in b.entries:
-                    total[refs.index(e.ref)] += e.share if math.isfinite(e.share) else 0.0
-        self.cache.shares[key] = total
-        return total
-
-    def verify(self, idx: Sequence[int], factor: int) -> Candidate:
-        key = self.names(idx)
-        hit = self.cache.verified.get(key)
-        if hit is None:
-            grades = self.grades(idx)
-            ens = self._run(grades, factor * self.samples, self.seed + FRESH_SEED_OFFSET)
-            hit = self.cache.verified[key] = self._candidate(grades, ens)
-        return hit
-
-
-# --- the searches -------------------------------------------------------------------------
-
-def _exhaustive(ev: _Evaluator, target: float) -> tuple[tuple[int, ...] | None, str]:
-    combos = list(itertools.product(*[range(len(c)) for c in ev.cands]))
-    combos.sort(key=lambda idx: (ev.cost(idx), idx))
-    for idx in combos:
-        if ev.look(idx, target).lower >= target:
-            return idx, ""
-    return None, (f"no set of catalog grades meets the target: all {len(combos)} combinations were "
-                  "evaluated")
-
-
-def _step(state: tuple[int, ...], i: int, by: int = -1) -> tuple[int, ...]:
-    return state[:i] + (state[i] + by,) + state[i + 1:]
-
-
-def _best_step(ev: _Evaluator, state: tuple[int, ...], target: float, rule: str,
-               parts: list[int], shares: np.ndarray, blocked: set[int]) -> tuple[int, ...] | None:
-    """The best single cheaper step of ``parts`` that meets the target, by ``rule``; every
-    part whose step fails is added to ``blocked``. None if no step meets the target."""
-    here_cost = ev.cost(state)
-    saving = {i: here_cost - ev.cost(_step(state, i)) for i in parts}
-    if rule == "saving":
-        # The largest saving first, so the first step that meets the target is the answer.
-        for i in sorted(parts, key=lambda i: (-saving[i], shares[i], i)):
-            if ev.look(_step(state, i), target).lower >= target:
-                return _step(state, i)
-            blocked.add(i)
-        return None
-    here_passed = ev.cache.found[ev.names(state)].passed
-    best, best_key = None, (math.inf, math.inf, math.inf, 0)
-    for i in sorted(parts, key=lambda i: (shares[i], i)):
-        cand = ev.look(_step(state, i), target)
-        if cand.lower < target:
-            blocked.add(i)
-            continue
-        loss = here_passed - cand.passed
-        if saving[i] > _COST_EPS:
-            ratio = loss / saving[i]
-        else:
-            ratio = -math.inf if loss <= 0 else math.inf
-        key = (ratio, -saving[i], shares[i], i)
-        if key < best_key:
-            best, best_key = _step(state, i), key
-    return best
-
-
-def _descend(ev: _Evaluator, state: tuple[int, ...], target: float,
-             rule: str = "saving") -> tuple[int, ...]:
-    """Greedy descent by single steps to the next cheaper grade until none meets the target.
-
-    Of the steps that still meet the target, rule ``"saving"`` takes the one that saves the
-    most cost, rule ``"efficiency"`` the one that loses the fewest passing boards per unit
-    of cost saved (then the larger saving); remaining ties go to the smaller budget share.
-    A part whose step failed is not tried again while other steps succeed (a looser set
-    rarely passes where a tighter one failed); before stopping, every such step is tried
-    again from the final set, so no single cheaper step from it meets the target.
-    """
-    blocked: set[int] = set()
-    while True:
-        shares = ev.shares(state)
-        movable = [i for i in range(len(state)) if state[i] > 0]
-        new = _best_step(ev, state, target, rule, [i for i in movable if i not in blocked],
-                         shares, blocked)
-        if new is None:
-            recheck = [i for i in movable if i in blocked]
-            blocked.difference_update(recheck)
-            new = _best_step(ev, state, target, rule, recheck, shares, blocked)
-            if new is None:
-                return state
-        state = new
-
-
-def _local_search(ev: _Evaluator, state: tuple[int, ...], target: float, rule: str,
-                  tried: set[tuple[int, ...]]) -> tuple[int, ...]:
-    """Descent, then a jump or a pair exchange, repeated until none finds a cheaper set."""
-    while True:
-        state = _descend(ev, state, target, rule)
-        tried.add(state)
-        new = _jump(ev, state, target)
-        if new is None:
-            new = _exchange(ev, state, target)
-        if new is None:
-            return state
-        state = new
-
-
-def _jump(ev: _Evaluator, state: tuple[int, ...], target: float) -> tuple[int, ...] | None:
-    """One part moved two or more steps cheaper (past a next grade that failed: catalogs
-    sorted by cost need not be sorted by tolerance), the largest saving first, the first
-    that meets the target; None if there is none."""
-    here = ev.cost(state)
-    moves = []
-    for i, k in enumerate(state):
-        for j in range(k - 1):
-            new = state[:i] + (j,) + state[i + 1:]
-            saving = here - ev.cost(new)
-            if saving > _COST_EPS:
-                moves.append((-saving, i, j, new))
-    for _, _, _, new in sorted(moves):
-        if ev.look(new, target).lower >= target:
-            return new
-    return None
-
-
-def _exchange(ev: _Evaluator, state: tuple[int, ...], target: float) -> tuple[int, ...] | None:
-    """One pair exchange (one part a step cheaper, another a step dearer) that lowers the
-    total cost and meets the target, the largest saving first; None if there is none."""
-    here = ev.cost(state)
-    moves = []
-    for i, j in itertools.permutations(range(len(state)), 2):
-        if state[i] > 0 and state[j] < len(ev.cands[j]) - 1:
-            new = list(state)
-            new[i] -= 1
-            new[j] += 1
-            saving = here - ev.cost(new)
-            if saving > _COST_EPS:
-                moves.append((-saving, i, j, tuple(new)))
-    for _, _, _, new in sorted(moves):
-        if ev.look(new, target).lower >= target:
-            return new
-    return None
-
-
-def _guided(ev: _Evaluator, target: float) -> tuple[tuple[int, ...] | None, str]:
-    start = tuple(len(c) - 1 for c in ev.cands)
-    first = ev.look(start, target)
-    if first.lower < target:
-        return None, (f"even the tightest grades give a yield lower bound of {first.lower:.4f} "
-                      f"({first.passed} of {first.samples} boards pass), below the target {target:g}")
-    tried: set[tuple[int, ...]] = set()
-    best = _local_search(ev, start, target, "saving", tried)
-    try:
-        # A second descent from the tightest set, by boards lost per cost saved; then
-        # polish: restart from any set already seen on these boards (this search's or a
-        # shared cache's) that meets the target more cheaply than the best end so far.
-        other = _local_search(ev, start, target, "efficiency", tried)
-        if ev.cost(other) < ev.cost(best) - _COST_EPS:
-            best = other
-        while True:
-            cheaper = _cheapest_seen(ev, target, below=ev.cost(best), exclude=tried)
-            if cheaper is None:
-                return best, ""
-            end = _local_search(ev, cheaper, target, "saving", tried)
-            if ev.cost(end) < ev.cost(best) - _COST_EPS:
-                best = end
-    except _Capped:
-        return best, ("the improvement passes stopped at max_evaluations: the set shown is "
-                      "locally minimal, but a cheaper one may exist")
-
-
-def _cheapest_seen(ev: _Evaluator, target: float, below: float = math.inf,
-                   exclude: frozenset | set = frozenset()) -> tuple[int, ...] | None:
-    """Grade indices of the cheapest cached set that meets ``target`` below cost ``below``."""
-    index = [{g.name: k for k, g in enumerate(c)} for c in ev.cands]
-    best, best_cost = None, below - _COST_EPS
-    for names, cand in ev.cache.found.items():
-        if cand.lower < target or cand.cost >= best_cost:
-            continue
-        try:
-            idx = tuple(index[i][n] for i, n in enumerate(names))
-        except KeyError:
-            continue
-        if idx not in exclude:
-            best, best_cost = idx, cand.cost
-    return best
-
-
 # --- public entry points -------------------------------------------------------------------
 
 def _cache_key(design: Design, cands: list[list[Grade]], samples: int, seed: int,
@@ -597,7 +286,7 @@ def _recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
                method: str = "wilson", verify_factor: int = 4, max_evaluations: int = 400,
                exhaustive_limit: int = 256, progress: Callable[[int, int], None] | None = None,
                should_stop: Callable[[], bool] | None = None,
-               _caches: dict[tuple, _Cache] | None = None,
+               _caches: dict[tuple, SearchCache] | None = None,
                _prep: Prepared | None = None) -> Recommendation:
     target = _fraction(target_yield, "target_yield", 0.0, lo_closed=False)
     conf = _fraction(confidence, "confidence", 0.5, lo_closed=True)
@@ -612,7 +301,7 @@ def _recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
     limit = _whole(exhaustive_limit, "exhaustive_limit", 0)
     cands = candidate_grades(design, catalog)
     key = _cache_key(design, cands, n, seed_, conf, method)
-    cache = (_caches if _caches is not None else {}).setdefault(key, _Cache(key))
+    cache = (_caches if _caches is not None else {}).setdefault(key, SearchCache(key))
     combos = math.prod(len(c) for c in cands)
     exhaustive = combos <= limit
     search = "exhaustive" if exhaustive else "guided"
@@ -637,14 +326,14 @@ def _recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
     except InputError as exc:
         raise InputError(f"{exc.reason} ({n:,} boards x verify_factor {factor} for the check on a fresh "
                          "seed)", "samples") from None
-    ev = _Evaluator(design, prep, cands, n, seed_, conf, method, cache, cap,
+    ev = Evaluator(design, prep, cands, n, seed_, conf, method, cache, cap,
                     min(combos, cap) if exhaustive else cap, progress, should_stop)
     capped = False
     try:
-        idx, note = (_exhaustive if exhaustive else _guided)(ev, target)
-    except _Capped:
+        idx, note = (exhaustive_search if exhaustive else guided_search)(ev, target)
+    except Capped:
         capped = True
-        idx = _cheapest_seen(ev, target)
+        idx = cheapest_seen(ev, target)
         note = (f"stopped after {cap} evaluations (max_evaluations); "
                 + ("the cheapest set seen that meets the target is shown, not necessarily the cheapest"
                    if idx is not None else "no set seen so far meets the target"))
@@ -657,7 +346,7 @@ def _recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
                           search, capped, note, method, seed_, *now)
 
 
-def _nothing_chosen(empty: Callable[..., Recommendation], note: str, ev: _Evaluator, target: float,
+def _nothing_chosen(empty: Callable[..., Recommendation], note: str, ev: Evaluator, target: float,
                     conf: float, method: str, capped: bool) -> Recommendation:
     """Why no set was chosen: the search was capped, the boards are too few to show a set
     whose estimated yield exceeds the target, or the catalog cannot reach it."""
@@ -703,124 +392,9 @@ def cost_yield_curve(design: Design, targets: Sequence[float] = DEFAULT_TARGETS,
     checked = [_fraction(t, f"targets[{i}]", 0.0, lo_closed=False) for i, t in enumerate(targets)]
     for private in ("_caches", "_prep"):
         kwargs.pop(private, None)
-    caches: dict[tuple, _Cache] = {}
+    caches: dict[tuple, SearchCache] = {}
     prep = prepare(design)
     results: dict[int, Recommendation] = {}
     for i in sorted(range(len(checked)), key=lambda i: -checked[i]):
         results[i] = _recommend(design, checked[i], _caches=caches, _prep=prep, **kwargs)
     return [(checked[i], results[i]) for i in range(len(checked))]
-
-
-# --- the parts list ------------------------------------------------------------------------
-
-PARTS_COLUMNS: tuple[str, ...] = (
-    "ref", "nominal value", "series", "nearest preferred value", "grade", "tolerance (\u00b1 %)",
-    "IEC 60062 letter", "tempco (ppm/K)", "technology", "relative cost",
-    "share of spread budget (%)", "budget metric")
-#: First characters that make a spreadsheet program read a cell as a formula.
-FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
-
-
-def worst_margin_metric(ens: Ensemble) -> str | None:
-    """``"margin.<label>"`` of the span most boards fail (ties: the smallest margin),
-    or None without a mask - a ``metric`` for :func:`parts_list_rows`."""
-    names = margin_names(ens.design.mask)
-    if not names:
-        return None
-    fails = np.count_nonzero(ens.margins < 0, axis=0)
-    worst = ens.margins.min(axis=0)
-    j = min(range(len(names)), key=lambda j: (-int(fails[j]), float(worst[j]), j))
-    return names[j]
-
-
-def smallest_series(value: float) -> str | None:
-    """The smallest IEC 60063 series (E3, E6, E12, E24, E48, E96, E192, in that order) that
-    holds ``value`` (SI units, any decade), or None when no series does: 4.7 nF -> "E3",
-    15 nF -> "E6", 2.67 kohm -> "E96"."""
-    return next((name for name in E_SERIES
-                 if math.isclose(float(snap(value, name)), value, rel_tol=1e-9)), None)
-
-
-def parts_list_rows(design: Design, recommendation: Recommendation | None,
-                    budget: Mapping[str, Budget] | None = None, *,
-                    metric: str | None = None) -> list[dict[str, Any]]:
-    """The parts list, one dict per part (keys :data:`PARTS_COLUMNS`), for the CSV file.
-
-    With a recommendation that chose a set, its design's grades are listed; else the
-    design's own (what-if tolerances applied). ``nominal value`` is the marked value in
-    SI units with its unit (``2.67 kΩ``); ``series`` the smallest IEC 60063 series that
-    holds it (:func:`smallest_series`; "none" when no series does; blank for op-amps and
-    ideal grades). A value of any series counts as a preferred value (common practice: E24
-    values are sold at 1 % and 2 % too); only a value in no series gets a ``nearest
-    preferred value``: the nearest value of the series usual for the grade's tolerance,
-    named with that series (a different value changes the design and needs a new
-    analysis). ``tolerance (± %)`` with its IEC 60062 letter (blank if it has none);
-    ``tempco (ppm/K)`` as ``nominal ± spread``; ``relative cost`` the catalog's.
-    ``share of spread budget (%)`` is the part's share of ``metric``'s variance in
-    ``budget`` (from :func:`filters.budget.spread_budget`), by default ``cutoff_hz`` (else
-    the first span margin); pass ``metric=worst_margin_metric(ens)`` for the worst span.
-    ``budget metric`` names that metric in words (``margin of 'corner floor' (dB)``).
-    Blank without a budget.
-    """
-    shown = recommendation.design if recommendation is not None and recommendation.chosen else design
-    grades = shown.part_grades()
-    if budget and metric is None:
-        metric = "cutoff_hz" if "cutoff_hz" in budget else next(
-            (k for k in budget if is_margin(k)), next(iter(budget)))
-    shares: dict[str, float] = {}
-    if budget and metric is not None:
-        if metric not in budget:
-            raise InputError(f"no spread budget for {metric!r}; have {', '.join(budget)}", "metric")
-        shares = {e.ref: e.share for e in budget[metric].entries}
-    metric_words = (metric_label(metric, [s.name for s in shown.stages], shown.mask)
-                    if shares and metric else "")
-    rows = []
-    for p, g in zip(shown.parts, grades):
-        unit = PART_UNITS.get(p.kind, "")
-        nearest, series = "", ""
-        if p.kind in ("R", "C", "L") and g.tolerance_pct > 0:
-            series = smallest_series(p.value) or "none"
-            if series == "none":
-                usual = series_for_tolerance(g.tolerance_pct)
-                nearest = (f"{format_value(float(snap(p.value, usual)), unit)} "
-                           f"({usual}, the series usual for \u00b1{g.tolerance_pct:g} %)")
-        share = shares.get(p.ref)
-        rows.append({
-            "ref": p.ref,
-            "nominal value": format_value(p.value, unit),
-            "series": series,
-            "nearest preferred value": nearest,
-            "grade": p.grade,
-            "tolerance (\u00b1 %)": g.tolerance_pct,
-            "IEC 60062 letter": tolerance_letter(g.tolerance_pct) or "",
-            "tempco (ppm/K)": f"{g.tempco_ppm:g} \u00b1 {g.tempco_spread_ppm:g}",
-            "technology": g.technology,
-            "relative cost": g.cost,
-            "share of spread budget (%)": "" if share is None else round(100.0 * share, 1),
-            "budget metric": metric_words,
-        })
-    return rows
-
-
-def _as_text_cell(value: Any) -> Any:
-    """A cell a spreadsheet program would run as a formula (text starting with = + - @,
-    tab or carriage return) gets a leading apostrophe, so it is shown as text."""
-    if isinstance(value, str) and value.startswith(FORMULA_STARTS):
-        return "'" + value
-    return value
-
-
-def write_parts_csv(rows: Sequence[Mapping[str, Any]], path: str | Path) -> None:
-    """Write parts-list rows (from :func:`parts_list_rows`) as a CSV file with a header,
-    atomically (:func:`filters.designfile.write_text_atomic`). The file is UTF-8 with a
-    byte-order mark (``utf-8-sig``), so spreadsheet programs show ohm and ± signs; text
-    cells that a spreadsheet would run as a formula are written with a leading apostrophe."""
-    columns = list(PARTS_COLUMNS)
-    for r in rows:
-        columns += [k for k in r if k not in columns]
-    buf = io.StringIO()
-    writer = csv.DictWriter(buf, fieldnames=columns, lineterminator="\n")
-    writer.writerow({k: _as_text_cell(k) for k in columns})
-    for r in rows:
-        writer.writerow({k: _as_text_cell(v) for k, v in r.items()})
-    write_text_atomic(Path(path), "\ufeff" + buf.getvalue(), backup=False)
