@@ -22,7 +22,8 @@ from .networks import Network, networks_from_dict
 from .sampling import METHODS, Conditions
 from .temperature_settings import settings_from_dict as temperature_settings
 from .temperature_physics import for_value
-from .topologies import TOPOLOGIES, Topology, build
+from .circuit import part_kinds
+from .stage import Stage, check_networks, stage_from_dict
 from .values import format_value, parse_value
 
 __all__ = [
@@ -81,19 +82,6 @@ class Part:
     @property
     def value_text(self) -> str:
         return self.text or format_value(self.value)
-
-
-@dataclass(frozen=True)
-class Stage:
-    """One buffered stage: a topology with options, and which part fills each role."""
-
-    topology: str
-    roles: dict[str, str]
-    options: dict[str, Any] = field(default_factory=dict)
-    name: str = ""
-
-    def built(self) -> Topology:
-        return build(self.topology, self.options)
 
 
 @dataclass(frozen=True)
@@ -253,10 +241,6 @@ def check_span_limits(span: Span, path: str = "span") -> None:
         check_span_limit(span.quantity, span.limit2, f"{path}.limit2")
 
 
-def _kind_of_role(topology: Topology, role: str) -> str | None:
-    return topology.roles.get(role) or topology.optional_roles.get(role)
-
-
 def _number(data: dict, key: str, path: str, problems: list[InputError], default: Any, *,
             integer: bool = False, lo: float | None = None, hi: float | None = None,
             lo_open: bool = False) -> Any:
@@ -382,52 +366,19 @@ def design_from_dict(data: Any) -> Design:
     if not isinstance(raw_stages, list) or not raw_stages:
         problems.append(InputError("must be a non-empty list of stages", "stages"))
         raw_stages = []
-    for i, s in enumerate(raw_stages):
-        path = f"stages[{i}]"
-        if not isinstance(s, dict):
-            problems.append(InputError("must be an object with topology and parts", path))
-            continue
-        problems += [InputError(f"unknown field {k!r}", f"{path}.{k}") for k in s
-                     if k not in ("topology", "options", "parts", "name")]
-        topo_name = s.get("topology")
-        if not isinstance(topo_name, str) or topo_name not in TOPOLOGIES:
-            problems.append(InputError(f"unknown topology {topo_name!r}; known: {', '.join(TOPOLOGIES)}",
-                                       f"{path}.topology"))
-            continue
-        options = s.get("options", {})
-        if not isinstance(options, dict):
-            problems.append(InputError("must be an object", f"{path}.options"))
-            continue
-        try:
-            topo = build(topo_name, options)
-        except InputError as exc:
-            problems.append(exc.at(path))
-            continue
-        roles = s.get("parts")
-        if not isinstance(roles, dict) or not all(isinstance(v, str) for v in roles.values()):
-            problems.append(InputError("must map each role to a reference designator, e.g. {\"R1\": \"R3\"}",
-                                       f"{path}.parts"))
-            continue
-        for role in topo.roles:
-            if role not in roles:
-                problems.append(InputError(f"role {role} needs a part", f"{path}.parts.{role}"))
-        for role, ref in roles.items():
-            kind = _kind_of_role(topo, role)
-            if kind is None:
-                problems.append(InputError(
-                    f"{topo_name} has no role {role!r}; its roles: "
-                    f"{', '.join(list(topo.roles) + list(topo.optional_roles))}", f"{path}.parts.{role}"))
-                continue
-            if ref in role_kind:
-                problems.append(InputError(f"part {ref} already fills {role_kind[ref][1]}; "
-                                           "each part fills one role", f"{path}.parts.{role}"))
-                continue
-            role_kind[ref] = (kind, f"{path}.parts.{role}")
-        name = s.get("name", "")
-        if not isinstance(name, str):
-            problems.append(InputError("must be a text", f"{path}.name"))
-            name = ""
-        stages.append(Stage(topo_name, dict(roles), dict(options), name))
+    kinds = part_kinds(data.get("parts"), {g.name: g.kind for g in catalog.grades})
+
+    def claim(ref: str, kind: str, where: str, what: str) -> None:
+        if ref in role_kind:
+            problems.append(InputError(f"{what + ': ' if what else ''}part {ref} already fills "
+                                       f"{role_kind[ref][1]}; one part, one place", where))
+        else:
+            role_kind[ref] = (kind, where)
+
+    for i, raw_stage in enumerate(raw_stages):
+        stage = stage_from_dict(raw_stage, f"stages[{i}]", kinds, claim, problems)
+        if stage is not None:
+            stages.append(stage)
 
     parts: list[Part] = []
     raw_parts = data.get("parts")
@@ -534,6 +485,9 @@ def design_from_dict(data: Any) -> Design:
         problems.append(InputError(f"two spans are {what} ({first} and {second}); span names must be unique",
                                    f"{second}.name"))
     check_match_spans(mask, mask_paths, channels, problems)
+    if not problems:  # the rules on whole networks need every part's value
+        check_networks(tuple(stages), {p.ref: p.value for p in parts},
+                       (analysis.f_start, math.sqrt(analysis.f_start * analysis.f_stop), analysis.f_stop), problems)
     if problems:
         raise ValidationError(problems)
     return Design(tuple(parts), tuple(stages), analysis, tuple(mask), data.get("name", ""),

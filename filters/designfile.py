@@ -18,6 +18,7 @@ from typing import Any, Callable
 from .temperature_settings import settings_to_dict
 from .design import Design, design_from_dict
 from .errors import InputError, ValidationError
+from .stage import stage_to_dict
 from .values import format_value, parse_value
 from .safeio import parse_json, read_text, remove_orphan_temporaries, write_text_atomic  # noqa: F401 (used by others)
 
@@ -125,15 +126,7 @@ def design_to_dict(design: Design) -> dict[str, Any]:
         if p.tolerance_pct is not None:
             d_part["tolerance_pct"] = p.tolerance_pct
         out["parts"].append(d_part)
-    out["stages"] = []
-    for s in design.stages:
-        d: dict[str, Any] = {"topology": s.topology}
-        if s.name:
-            d["name"] = s.name
-        if s.options:
-            d["options"] = dict(s.options)
-        d["parts"] = dict(s.roles)
-        out["stages"].append(d)
+    out["stages"] = [stage_to_dict(s) for s in design.stages]
     out["analysis"] = {
         "samples": a.samples, "seed": a.seed, "f_start": a.f_start, "f_stop": a.f_stop,
         "points": a.points, "method": a.method, "cutoff_db": a.cutoff_db,

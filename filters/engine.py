@@ -24,7 +24,8 @@ import numpy as np
 
 from .design import Design
 from .errors import InputError
-from .netlist import TransferFunction, derive
+from .circuit_join import combined_kind, solved_stages
+from .netlist import TransferFunction
 from .topologies import ResponseKind, Topology
 
 __all__ = [
@@ -82,8 +83,7 @@ _COMPILED: dict[tuple, Circuit] = {}
 
 
 def _structure_key(design: Design) -> tuple:
-    stages = tuple((s.topology, tuple(sorted(s.options.items())), tuple(sorted(s.roles.items())), s.name)
-                   for s in design.stages)
+    stages = tuple(s.structure() for s in design.stages)
     return stages, tuple(p.ref for p in design.parts)
 
 
@@ -96,24 +96,15 @@ def compile_design(design: Design) -> Circuit:
     refs = tuple(p.ref for p in design.parts)
     col = {r: i for i, r in enumerate(refs)}
     stages = []
-    for i, st in enumerate(design.stages):
-        topo = st.built()
-        present = {r for r in topo.optional_roles if r in st.roles}
-        tf = derive(topo.with_opamps(present))
+    # one network per buffered stage, loaded stages joined (filters/circuit_join.py)
+    for i, net in enumerate(solved_stages(design)):
+        tf = net.transfer()
         try:
-            cols = tuple(col[st.roles[r]] for r in tf.roles)
+            cols = tuple(col[net.roles[r]] for r in tf.roles)
         except KeyError as exc:
-            raise InputError(f"role {exc.args[0]} has no part", f"stages[{i}].parts") from None
-        stages.append(CompiledStage(st.name or f"stage {i + 1}", topo, tf, cols))
-    kinds = {s.topology.kind for s in stages}
-    kind: ResponseKind
-    if len(kinds) == 1:
-        kind = kinds.pop()
-    elif kinds == {"lowpass", "highpass"} or "bandpass" in kinds:
-        kind = "bandpass"
-    else:  # pragma: no cover - the three kinds above cover every mix
-        kind = "bandpass"
-    circuit = Circuit(tuple(stages), kind, refs)
+            raise InputError(f"role {exc.args[0]} has no part", f"{net.path}.parts") from None
+        stages.append(CompiledStage(net.name or f"stage {i + 1}", net.topology, tf, cols))
+    circuit = Circuit(tuple(stages), combined_kind(s.topology.kind for s in stages), refs)
     if len(_COMPILED) > 64:
         _COMPILED.clear()
     _COMPILED[key] = circuit

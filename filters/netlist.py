@@ -46,6 +46,7 @@ __all__ = [
     "coefficient_from_code",
     "derive_uncached",
     "agrees_with_nodal_solution",
+    "cached_derivation",
     "derive",
 ]
 
@@ -361,16 +362,23 @@ def agrees_with_nodal_solution(net: Netlist, tf: TransferFunction, rtol: float =
     return True
 
 
-@lru_cache(maxsize=None)
-def derive(net: Netlist) -> TransferFunction:
-    """H(s) = V(out)/V(in) of ``net``: from the user's derivation cache when a valid entry
-    is there (no sympy), else derived with sympy and stored for the next run."""
-    description = net.description()
+def cached_derivation(net: Netlist, description: dict[str, Any],
+                      derive_fresh: Callable[[Netlist], TransferFunction]) -> TransferFunction:
+    """H(s) of ``net`` from the derivation cache entry of ``description`` when a valid one
+    agrees with the numerical nodal solution, else ``derive_fresh(net)``, stored for the
+    next run."""
     stored = derivation_cache.load(description, net.roles)
     if stored is not None:
         tf = TransferFunction(net.roles, *stored)
         if agrees_with_nodal_solution(net, tf):
             return tf
-    tf = derive_uncached(net)
+    tf = derive_fresh(net)
     derivation_cache.store(description, net.roles, tf.num_terms, tf.den_terms)
     return tf
+
+
+@lru_cache(maxsize=None)
+def derive(net: Netlist) -> TransferFunction:
+    """H(s) = V(out)/V(in) of ``net``: from the user's derivation cache when a valid entry
+    is there (no sympy), else derived with sympy and stored for the next run."""
+    return cached_derivation(net, net.description(), derive_uncached)
