@@ -168,20 +168,22 @@ def test_builtin_catalog_temperature_coefficients_follow_the_codes():
     for g in cat.grades:
         if "C0G" in g.technology:
             assert (g.tempco_ppm, g.tempco_spread_ppm) == (0.0, 30.0), g.name
-    # EIA-198-1-F [C]: X7R = -55..+125 deg C with at most +-15 % change. The modelled
-    # temperature change at either end must not exceed that.
+    # EIA-198-1-F [C]: X7R = -55..+125 deg C with at most +-15 % change: a curve, not a
+    # coefficient (tests/test_temperature.py checks sampled parts against the limit).
     x7r = [g for g in cat.grades if "X7R" in g.technology]
     assert x7r
     for g in x7r:
-        worst = max(abs(g.tempco_ppm) + g.tempco_spread_ppm, 0) * 1e-6 * max(125 - 25, 25 + 55)
-        assert worst <= 0.15 + 1e-12, g.name
-    # Vendor pages (tests/REFERENCES.md section 9, [C]): thick film +-100/+-200 ppm/K, thin film
-    # +-25/+-50 ppm/K.
+        assert g.temp_curve_pct and g.temp_limit_pct == 15.0, g.name
+        assert max(abs(c) for _, c in g.temp_curve_pct) * (1 + g.temp_curve_spread) <= 15.0 + 1e-12, g.name
+    # Vendor pages (tests/REFERENCES.md section 9, [C]): thick film +-100/+-200 ppm/K (and by
+    # value +-400 below 10 ohm, section 10 [C]); thin film +-25/+-50 ppm/K, 5 to 25 ppm/K for
+    # precision classes (section 10 [C]).
     for g in cat.grades:
         if "thick-film" in g.technology:
             assert g.tempco_spread_ppm in (100.0, 200.0), g.name
+            assert {r[2] for r in g.tempco_by_value} <= {100.0, 200.0, 400.0}, g.name
         if "thin-film" in g.technology:
-            assert g.tempco_spread_ppm in (25.0, 50.0), g.name
+            assert g.tempco_spread_ppm in (10.0, 25.0, 50.0), g.name
 
 
 def test_catalog_lookup_and_for_kind():

@@ -1,0 +1,124 @@
+"""Tables of the temperature-range and service-life results, as plain cells.
+
+The command line (``tolspread analyze``) and the report lay out the same tables; each is
+a :class:`Table` of text cells (no layout here). See :mod:`filters.temperature` for the numbers.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from .metric_names import metric_label
+from .stats import YieldEstimate
+from .temperature_settings import HOURS_PER_YEAR
+from .values import format_value
+
+__all__ = [
+    "Table",
+    "temperature_tables",
+    "temperature_json",
+    "DEGREE",
+]
+
+DEGREE = "\u00b0C"
+
+
+@dataclass(frozen=True)
+class Table:
+    """A titled table: header cells, rows of cells, one alignment character per column
+    (``<`` left, ``>`` right) and notes printed under it."""
+
+    title: str
+    headers: list[str]
+    rows: list[list[str]]
+    align: str
+    notes: list[str]
+
+
+def _pct(x: float) -> str:
+    return f"{100 * x:.2f} %"
+
+
+def _interval(y: YieldEstimate) -> str:
+    return f"{_pct(y.low)} to {_pct(y.high)}"
+
+
+def _figure(x: float, unit: str) -> str:
+    """A frequency in engineering notation (4 figures), a plain number (4 figures)."""
+    return format_value(x, unit, digits=4) if unit else f"{x:.4g}"
+
+
+def _t(t: float) -> str:
+    return f"{t:g} {DEGREE}"
+
+
+def temperature_tables(result: Any) -> list[Table]:
+    """The tables of ``result`` (an :class:`filters.analysis.AnalysisResult`) about its
+    operating range and service life; empty when the design asks for neither."""
+    out: list[Table] = []
+    over, life, d = result.temperature, result.life, result.design
+    names = [s.name for s in d.stages]
+    if over is not None:
+        lo, hi = over.range_c
+        rows = [[_t(p.temperature_c), _pct(p.yield_.estimate), _interval(p.yield_),
+                 f"{p.yield_.samples - p.yield_.passed:,}"] for p in over.points]
+        y = over.overall
+        rows.append(["every judged temperature", _pct(y.estimate), _interval(y), f"{y.samples - y.passed:,}"])
+        out.append(Table(
+            f"YIELD OVER TEMPERATURE (operating range {lo:g} to {hi:g} {DEGREE}; each board keeps its parts and "
+            "passes only if it meets the mask at every judged temperature)",
+            ["temperature", "yield", f"{100 * y.confidence:g} % interval", "failing boards"], rows, "<>>>",
+            []))
+        if over.span_names:
+            n = y.samples
+            worst = result.ensemble.margins  # the smallest margin over the judged temperatures
+            rows = []
+            for j, name in enumerate(over.span_names):
+                cells = [_pct(p.span_failed[j] / n) for p in over.points]
+                rows.append([name, *cells, _pct(float((worst[:, j] < 0).sum()) / n)])
+            out.append(Table(
+                "FAILURES BY SPAN AND TEMPERATURE (share of all boards failing each span there)",
+                ["span", *(_t(p.temperature_c) for p in over.points), "at any"], rows,
+                "<" + ">" * (len(over.points) + 1), []))
+        shift = [m for m in over.points[0].summaries if m.endswith((".f0_hz", ".q")) or m == "cutoff_hz"]
+        if shift:
+            rows = []
+            for m in shift:
+                unit = "Hz" if m.endswith("_hz") else ""
+                rows.append([metric_label(m, names),
+                             *(f"{_figure(p.summaries[m].mean, unit)} \u00b1 {_figure(p.summaries[m].std, unit)}"
+                               for p in over.points)])
+            out.append(Table(
+                "STAGE f0 AND Q OVER TEMPERATURE (mean \u00b1 standard deviation of the boards)",
+                ["metric", *(_t(p.temperature_c) for p in over.points)], rows,
+                "<" + ">" * len(over.points),
+                ["each board's parts move with their own drawn temperature coefficients (class II "
+                 "capacitors along their dielectric's curve); op-amp gain-bandwidth with its grade's drift"]))
+    if life is not None:
+        where = "at every judged temperature" if over is not None else "at the board temperature"
+        years = life.hours / HOURS_PER_YEAR
+        rows = [["yield", _pct(life.delivery.estimate), _pct(life.after.estimate)],
+                [f"{100 * life.delivery.confidence:g} % interval", _interval(life.delivery), _interval(life.after)],
+                ["failing boards", f"{life.delivery.samples - life.delivery.passed:,}",
+                 f"{life.after.samples - life.after.passed:,}"]]
+        out.append(Table(
+            f"SERVICE LIFE (the same boards at delivery and after {life.hours:,.0f} h = {years:.3g} years at "
+            f"{life.temp_c:g} {DEGREE}, judged {where})",
+            ["", "at delivery", f"after {years:.3g} years"], rows, "<>>",
+            ["life drift: each grade's load-life rating scaled by sqrt(time) and an Arrhenius factor; "
+             "class II ageing per decade of hours (README 'What the numbers mean'); an estimate under "
+             "those models, to be confirmed by life tests of real parts"]))
+    return out
+
+
+def temperature_json(result: Any) -> dict[str, Any]:
+    """The ``temperature`` and ``service_life`` entries of the analyze JSON (absent keys
+    when the design asks for neither)."""
+    out: dict[str, Any] = {}
+    if result.temperature is not None:
+        doc = result.temperature.to_dict()
+        doc["span_failed_any"] = [int(x) for x in (result.ensemble.margins < 0).sum(axis=0)]
+        out["temperature"] = doc
+    if result.life is not None:
+        out["service_life"] = result.life.to_dict()
+    return out
