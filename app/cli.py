@@ -18,6 +18,7 @@ from ..safeio import check_output_path
 from .cli_args import EXIT_BAD_INPUT, Parser, positive_int, seed
 from .cli_centre import add_parser as add_centre_parser, run as run_centre
 from .cli_design import add_parser as add_design_parser, run as run_design
+from .cli_shapes import add_parser as add_shapes_parser, run as run_shapes
 from .cli_recommend import add_parser as add_recommend_parser, run as run_recommend
 
 
@@ -56,6 +57,7 @@ def build_parser() -> argparse.ArgumentParser:
     add_design_parser(sub)
     add_recommend_parser(sub)
     add_centre_parser(sub)
+    add_shapes_parser(sub)
     for sp in sub.choices.values():
         sp.add_argument("--verbose", action="store_true",
                         help="list every problem of a bad input file, one per line")
@@ -120,7 +122,7 @@ def cmd_analyze(args: argparse.Namespace) -> int:
     return 0
 
 
-SUBCOMMANDS = ("analyze", "design", "recommend", "centre")
+SUBCOMMANDS = ("analyze", "design", "recommend", "centre", "shapes")
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -150,6 +152,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             return run_recommend(args)
         if args.command == "centre":
             return run_centre(args)
+        if args.command == "shapes":
+            return run_shapes(args)
         return open_window(design_path, args.screenshot)
     except ValidationError as exc:
         lines, more = exc.lines(), len(exc.lines()) - 1

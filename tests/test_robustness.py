@@ -1,0 +1,99 @@
+"""Yield under other part distributions (tolspread.robustness) against closed forms.
+
+One toleranced capacitor in a first-order RC low-pass whose mask passes capacitances in a
+band [C_LO, C_HI]: the yield is the probability that the capacitor falls in the band, known
+in closed form for each distribution (scipy.stats.truncnorm / norm; uniform by length;
+binned by symmetry). The command line runs as a user runs it (subprocess).
+"""
+from __future__ import annotations
+
+import json
+import math
+import subprocess
+import sys
+
+import pytest
+from scipy import stats
+
+from tolspread.designfile import load
+from tolspread.grades import builtin_catalog
+from tolspread.robustness import SHAPES, reshaped, shape_yields
+
+R0, F2, F3, C0 = 10e3, 1e3, 3e3, 10e-9
+C_LO, C_HI = 10.2e-9, 11.6e-9   # relative deviations +2 % .. +16 %
+
+
+def _limit_for(c: float, f: float) -> float:
+    # first-order RC low-pass: |H|^2 = 1 / (1 + (2 pi f R C)^2) (circuit theory)
+    return -10 * math.log10(1 + (2 * math.pi * f * R0 * c) ** 2)
+
+
+@pytest.fixture
+def band_design(tmp_path):
+    data = {
+        "format": "tolspread-design", "version": 2, "name": "RC band (test)",
+        "grades": [{"name": "C-test-5", "kind": "C", "tolerance_pct": 5.0}],  # default shape
+        "parts": [{"ref": "R1", "value": "10k", "grade": "EXACT"},
+                  {"ref": "C1", "value": "10n", "grade": "C-test-5"}],
+        "stages": [{"topology": "rc_lowpass", "parts": {"R1": "R1", "C1": "C1"}}],
+        "analysis": {"samples": 40000, "seed": 5, "f_start": 10, "f_stop": 100e3, "points": 60},
+        "mask": [{"kind": "floor", "f1": F2 / 2, "f2": F2, "limit1": _limit_for(C_HI, F2), "relative": False,
+                  "name": "passband floor"},
+                 {"kind": "ceiling", "f1": F3, "f2": 2 * F3, "limit1": _limit_for(C_LO, F3), "relative": False,
+                  "name": "transition ceiling"}],
+    }
+    path = tmp_path / "band.json"
+    path.write_text(json.dumps(data))
+    return path
+
+
+def _closed_forms() -> dict[str, float]:
+    lo = C_LO / C0 - 1      # +2 %
+    tol = 0.05
+    two = stats.truncnorm(-2, 2, scale=tol / 2)     # 5 % = 2 sigma, truncated at the limits
+    three = stats.truncnorm(-3, 3, scale=tol / 3)   # 5 % = 3 sigma, truncated
+    return {
+        "as graded": two.sf(lo),
+        "3 sigma": three.sf(lo),
+        "uniform": (tol - lo) / (2 * tol),
+        # centre +-2 % removed: the upper hump [2 %, 5 %] holds half the parts (symmetry)
+        "binned": 0.5,
+        # one toleranced part: sharing its variance with a reel leaves its distribution alone
+        "shared reel": two.sf(lo),
+    }
+
+
+def test_shape_yields_match_closed_forms(band_design):
+    truth = _closed_forms()
+    results = shape_yields(load(str(band_design)))
+    assert [r.shape for r in results] == list(SHAPES)
+    for r in results:
+        # five checks at once: each at 99.9 % (Wilson interval from scipy.stats.binomtest)
+        ci = stats.binomtest(int(r.yield_.passed), int(r.yield_.samples)).proportion_ci(0.999, method="wilson")
+        assert ci.low <= truth[r.shape] <= ci.high, (r.shape, r.yield_.estimate, truth[r.shape])
+
+
+def test_reshaped_keeps_name_cost_and_exact_parts():
+    cat = builtin_catalog()
+    g = next(g for g in cat.grades if g.kind == "R" and g.tolerance_pct == 5.0)
+    b = reshaped(g, "binned")
+    assert (b.name, b.cost, b.distribution, b.bin_inner_pct) == (g.name, g.cost, "binned", 2.0)
+    assert reshaped(g, "3 sigma").coverage == 3.0
+    exact = next(g for g in cat.grades if g.tolerance_pct == 0)
+    assert all(reshaped(exact, s) == exact for s in SHAPES)
+
+
+def test_analyze_shapes_on_the_command_line(band_design):
+    r = subprocess.run([sys.executable, "-m", "tolspread.app.cli", "shapes", str(band_design), "--samples",
+                        "20000", "--json"], capture_output=True, text=True, timeout=300)
+    assert r.returncode == 0, r.stderr
+    rows = json.loads(r.stdout)["shapes"]
+    truth = _closed_forms()
+    for row in rows:
+        y = row["yield"]
+        ci = stats.binomtest(y["passed"], y["samples"]).proportion_ci(0.999, method="wilson")
+        assert ci.low <= truth[row["shape"]] <= ci.high
+    text = subprocess.run([sys.executable, "-m", "tolspread.app.cli", "shapes", str(band_design), "--samples",
+                           "5000"], capture_output=True, text=True, timeout=300)
+    assert text.returncode == 0 and "uniform inside the tolerance" in text.stdout
+    assert "measurement of real parts" in text.stdout
