@@ -1,6 +1,8 @@
 """Design builders shared by the engine tests (not a test module)."""
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from tolspread.design import design_from_dict
@@ -30,3 +32,30 @@ def make(stages, analysis=None):
     n = max(c.size for c in cols)
     values = np.column_stack([np.broadcast_to(c, (n,)) for c in cols])
     return design, compile_design(design), values
+
+
+# --- a first-order RC low-pass whose mask passes a band of capacitances -------------------
+RC_R0, RC_F2, RC_F3 = 10e3, 1e3, 3e3
+
+
+def rc_gain_db(c: float, f: float, r: float = RC_R0) -> float:
+    """Gain (dB) of a first-order RC low-pass: |H|^2 = 1 / (1 + (2 pi f R C)^2) (circuit theory)."""
+    return -10 * math.log10(1 + (2 * math.pi * f * r * c) ** 2)
+
+
+def rc_capacitor_band(c_grade: dict, c_lo: float, c_hi: float, *, samples: int, seed: int,
+                      name: str = "RC band (test)") -> dict:
+    """Design dict: R1 = 10k exact, C1 = 10n of ``c_grade``; a floor at RC_F2 passes C <= c_hi
+    and a ceiling at RC_F3 passes C >= c_lo (the gain falls as C grows)."""
+    return {
+        "format": "tolspread-design", "version": 2, "name": name,
+        "grades": [c_grade],
+        "parts": [{"ref": "R1", "value": "10k", "grade": "EXACT"},
+                  {"ref": "C1", "value": "10n", "grade": c_grade["name"]}],
+        "stages": [{"topology": "rc_lowpass", "parts": {"R1": "R1", "C1": "C1"}}],
+        "analysis": {"samples": samples, "seed": seed, "f_start": 10, "f_stop": 100e3, "points": 60},
+        "mask": [{"kind": "floor", "f1": RC_F2 / 2, "f2": RC_F2, "limit1": rc_gain_db(c_hi, RC_F2),
+                  "relative": False, "name": "passband floor"},
+                 {"kind": "ceiling", "f1": RC_F3, "f2": 2 * RC_F3, "limit1": rc_gain_db(c_lo, RC_F3),
+                  "relative": False, "name": "transition ceiling"}],
+    }

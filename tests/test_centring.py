@@ -8,13 +8,13 @@ the command line as a user runs it (subprocess).
 from __future__ import annotations
 
 import json
-import math
 import subprocess
 import sys
 
 import pytest
 from scipy import stats
 
+from designs import rc_capacitor_band
 from tolspread.centring import neighbours
 from tolspread.grades import builtin_catalog
 from tolspread.designfile import load
@@ -35,13 +35,7 @@ def test_neighbours_follow_the_series_tables():
 
 
 SIGMA = 0.025          # 5 % read as two standard deviations, not truncated
-R0, F2, F3 = 10e3, 1e3, 3e3
 C_LO, C_HI = 10.2e-9, 11.6e-9   # the band of capacitances that meets both spans
-
-
-def _limit_for(c: float, f: float) -> float:
-    # first-order RC low-pass: |H|^2 = 1 / (1 + (2 pi f R C)^2) (circuit theory)
-    return -10 * math.log10(1 + (2 * math.pi * f * R0 * c) ** 2)
 
 
 def _closed_form_yield(c: float) -> float:
@@ -50,20 +44,8 @@ def _closed_form_yield(c: float) -> float:
 
 @pytest.fixture
 def off_centre(tmp_path):
-    data = {
-        "format": "tolspread-design", "version": 2, "name": "RC off centre (test)",
-        "grades": [{"name": "C-test-5", "kind": "C", "tolerance_pct": 5.0, "coverage": 2.0, "truncate": False}],
-        "parts": [{"ref": "R1", "value": "10k", "grade": "EXACT"},
-                  {"ref": "C1", "value": "10n", "grade": "C-test-5"}],
-        "stages": [{"topology": "rc_lowpass", "parts": {"R1": "R1", "C1": "C1"}}],
-        "analysis": {"samples": 20000, "seed": 3, "f_start": 10, "f_stop": 100e3, "points": 60},
-        # floor: gain at F2 at least that of C_HI (so C <= C_HI); ceiling: gain at F3 at most
-        # that of C_LO (so C >= C_LO)
-        "mask": [{"kind": "floor", "f1": F2 / 2, "f2": F2, "limit1": _limit_for(C_HI, F2), "relative": False,
-                  "name": "passband floor"},
-                 {"kind": "ceiling", "f1": F3, "f2": 2 * F3, "limit1": _limit_for(C_LO, F3), "relative": False,
-                  "name": "transition ceiling"}],
-    }
+    grade = {"name": "C-test-5", "kind": "C", "tolerance_pct": 5.0, "coverage": 2.0, "truncate": False}
+    data = rc_capacitor_band(grade, C_LO, C_HI, samples=20000, seed=3, name="RC off centre (test)")
     path = tmp_path / "off.json"
     path.write_text(json.dumps(data))
     return path

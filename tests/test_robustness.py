@@ -8,40 +8,25 @@ binned by symmetry). The command line runs as a user runs it (subprocess).
 from __future__ import annotations
 
 import json
-import math
 import subprocess
 import sys
 
 import pytest
 from scipy import stats
 
+from designs import rc_capacitor_band
 from tolspread.designfile import load
 from tolspread.grades import builtin_catalog
 from tolspread.robustness import SHAPES, reshaped, shape_yields
 
-R0, F2, F3, C0 = 10e3, 1e3, 3e3, 10e-9
+C0 = 10e-9
 C_LO, C_HI = 10.2e-9, 11.6e-9   # relative deviations +2 % .. +16 %
-
-
-def _limit_for(c: float, f: float) -> float:
-    # first-order RC low-pass: |H|^2 = 1 / (1 + (2 pi f R C)^2) (circuit theory)
-    return -10 * math.log10(1 + (2 * math.pi * f * R0 * c) ** 2)
 
 
 @pytest.fixture
 def band_design(tmp_path):
-    data = {
-        "format": "tolspread-design", "version": 2, "name": "RC band (test)",
-        "grades": [{"name": "C-test-5", "kind": "C", "tolerance_pct": 5.0}],  # default shape
-        "parts": [{"ref": "R1", "value": "10k", "grade": "EXACT"},
-                  {"ref": "C1", "value": "10n", "grade": "C-test-5"}],
-        "stages": [{"topology": "rc_lowpass", "parts": {"R1": "R1", "C1": "C1"}}],
-        "analysis": {"samples": 40000, "seed": 5, "f_start": 10, "f_stop": 100e3, "points": 60},
-        "mask": [{"kind": "floor", "f1": F2 / 2, "f2": F2, "limit1": _limit_for(C_HI, F2), "relative": False,
-                  "name": "passband floor"},
-                 {"kind": "ceiling", "f1": F3, "f2": 2 * F3, "limit1": _limit_for(C_LO, F3), "relative": False,
-                  "name": "transition ceiling"}],
-    }
+    data = rc_capacitor_band({"name": "C-test-5", "kind": "C", "tolerance_pct": 5.0},  # default shape
+                             C_LO, C_HI, samples=40000, seed=5)
     path = tmp_path / "band.json"
     path.write_text(json.dumps(data))
     return path
