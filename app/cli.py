@@ -72,7 +72,7 @@ def _load(path: str | None):
 
 def cmd_analyze(args: argparse.Namespace) -> int:
     from ..analysis import analyze
-    from .analyze_report import print_summary, to_json
+    from ..report.text import print_summary, to_json
 
     for option in ("--json", "--report"):  # issue 11: refuse '' or a device before the run
         target = getattr(args, option[2:])
@@ -98,9 +98,12 @@ def cmd_analyze(args: argparse.Namespace) -> int:
             if total >= 50_000:
                 sys.stderr.write(f"\r  {done:,} of {total:,} boards")
                 sys.stderr.flush()
+    from ..report.build import FIGURE_BOARDS
+
+    # with --report the first boards keep their curves for its spread figure (evaluated once)
     result = analyze(design, samples=args.samples, seed=args.seed, method="sobol" if args.qmc else None,
                      interval=args.interval, half_width=args.half_width, max_samples=args.max_samples,
-                     progress=progress)
+                     curves=FIGURE_BOARDS if args.report else 0, progress=progress)
     if progress is not None and result.samples >= 50_000:
         sys.stderr.write("\n")
     if args.json != "-":

@@ -78,9 +78,9 @@ def window_report(design: Design, rec: Any = None, curve: Any = None, searched: 
     its cost-yield ``curve``."""
     from ..analysis import analyze
     from ..recommend import parts_list_rows, worst_margin_metric
-    from ..report import build_report
+    from ..report import FIGURE_BOARDS, build_report
 
-    result = analyze(design, progress=progress, should_stop=should_stop)
+    result = analyze(design, curves=FIGURE_BOARDS, progress=progress, should_stop=should_stop)
     rows = parts_list_rows(design, None, result.budget, metric=worst_margin_metric(result.ensemble))
     return build_report(result, recommendation=rec, curve=curve or None, parts_rows=rows,
                         current=searched)

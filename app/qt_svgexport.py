@@ -2,7 +2,7 @@
 
 The gain plot (bands, nominal curve, mask spans), the phase or group-delay plot and, when
 the results panel shows one, the histogram of the chosen metric are drawn by the report's
-own SVG writer (:mod:`filters.report_figures`) over the ranges the window shows, and
+own SVG writer (:mod:`filters.report.charts`) over the ranges the window shows, and
 stacked top to bottom. The file uses only what browsers and common image converters draw
 alike: plain shapes, text, one clip path per plot, no nested ``<svg>``, no scripts, no
 external resources.
@@ -19,7 +19,7 @@ import numpy as np
 from ..bands import Bands
 from ..designfile import write_text_atomic
 from ..liveview import ViewData
-from ..report_figures import SVG_NS, svg_histogram, svg_spread_plot
+from ..report.charts import SVG_NS, svg_histogram, svg_spread_plot
 from .. import metric_names
 from ..metric_names import metric_label
 
@@ -33,7 +33,7 @@ _SVG_HEAD = re.compile(r'^<svg[^>]*\swidth="(\d+)"[^>]*\sheight="(\d+)"[^>]*>', 
 
 
 def stack_svgs(svgs: list[str], gap: int = GAP) -> str:
-    """One SVG document of ``svgs`` (standalone SVG texts from :mod:`filters.report_figures`)
+    """One SVG document of ``svgs`` (standalone SVG texts from :mod:`filters.report.charts`)
     placed one under another, each as a translated group (ids must differ already)."""
     parts: list[str] = []
     y = 0
@@ -41,7 +41,7 @@ def stack_svgs(svgs: list[str], gap: int = GAP) -> str:
     for svg in svgs:
         m = _SVG_HEAD.match(svg)
         if m is None:
-            raise ValueError("not an SVG figure of tolspread.report_figures")
+            raise ValueError("not an SVG figure of tolspread.report.charts")
         w, h = int(m.group(1)), int(m.group(2))
         inner = svg[m.end():svg.rindex("</svg>")]
         parts.append(f'<g transform="translate(0 {y})">{inner}</g>')

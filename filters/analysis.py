@@ -1,50 +1,84 @@
-"""The main job in one call: evaluate a design's boards and gather every result.
+"""The one evaluation pipeline: sample a design's boards once and gather every result.
 
-:func:`analyze` is what the command line, the window and the report share: it samples
+:func:`analyze` is what the command line, the report and the window share. It samples
 the boards (a fixed count, or batches until the yield's interval is narrow enough),
 judges them against the mask, and computes the yield with its interval, the failure
-breakdown, the spread budget and the corners. It returns an :class:`AnalysisResult`;
+breakdown, the spread budget and (when asked) the corners. Asked for ``curves=N`` it also
+keeps the responses of the first N boards (the same boards the numbers start with) and
+their spread bands: what the window draws and the report's spread figure. Every board is
+evaluated once; nothing downstream evaluates again. It returns an :class:`AnalysisResult`;
 nothing here formats or plots.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
-from typing import Callable
+from dataclasses import dataclass, replace
+from functools import cached_property
+from typing import Callable, Literal, Sequence
 
 import numpy as np
 
+from .bands import Bands, bands
 from .budget import Budget, spread_budget
 from .corners import Corners, corners
 from .design import Design
 from .evaluate import Ensemble, Prepared, evaluate, prepare
+from .grades import Grade
 from .memory import BoardStore, check_boards
 from .stats import SpanFailures, YieldEstimate, adaptive_yield, failure_breakdown, yield_estimate
 from .summary import MetricSummary, summarize
 from .temperature import OverTemperature, ServiceLife, judge_over_range, judge_service_life
 
 __all__ = [
+    "SecondQuantity",
+    "Curves",
     "AnalysisResult",
     "yield_of",
     "analyze",
 ]
 
+#: The quantity drawn beside the gain: phase (deg) or group delay (s).
+SecondQuantity = Literal["phase", "delay"]
+
+
+@dataclass(frozen=True)
+class Curves:
+    """Responses of the first ``boards`` boards of a run, and their spread bands.
+
+    ``freqs_hz`` (F,); ``gain_db`` and ``second`` (N, F): gain in dB and the ``second``
+    quantity (phase in degrees or group delay in s); ``passed`` (N,) whether each of these
+    boards meets the mask; ``gain_bands`` and ``second_bands`` per frequency (F,) each.
+    """
+
+    second_kind: SecondQuantity
+    freqs_hz: np.ndarray
+    gain_db: np.ndarray
+    second: np.ndarray
+    passed: np.ndarray
+    gain_bands: Bands
+    second_bands: Bands
+    start: int = 0  # the first board's index in the seed's sequence
+
+    @property
+    def boards(self) -> int:
+        return int(self.gain_db.shape[0])
+
 
 @dataclass(frozen=True)
 class AnalysisResult:
-    """Everything one analysis found. ``summaries`` by metric name; ``budget`` by metric
-    name; ``history`` the yield after each batch of an adaptive run (else one entry)."""
+    """Everything one analysis found. ``budget`` by metric name (empty when not asked);
+    ``corners`` None when not asked; ``history`` the yield after each batch of an adaptive
+    run (else one entry); ``curves`` the first boards' responses when asked (else None);
+    ``summaries`` by metric name and ``opamps`` (the op-amp check), taken on first use."""
 
     design: Design
     ensemble: Ensemble
     prepared: Prepared
-    summaries: dict[str, MetricSummary]
     yield_: YieldEstimate
     spans: list[SpanFailures]
     budget: dict[str, Budget]
-    corners: Corners
+    corners: Corners | None
     history: list[YieldEstimate]
-    opamps: list = field(default_factory=list)  # synthesis.GbwWarning per stage with an op-amp part
-
+    curves: Curves | None = None
     # judged over the operating range / after the service life (filters/temperature.py), when asked
     temperature: OverTemperature | None = None
     life: ServiceLife | None = None
@@ -57,6 +91,19 @@ class AnalysisResult:
     def seed(self) -> int:
         return self.ensemble.seed
 
+    @cached_property
+    def summaries(self) -> dict[str, MetricSummary]:
+        """Statistics of every per-board metric (:func:`filters.summary.summarize`)."""
+        return {name: summarize(self.ensemble, name) for name in self.ensemble.metrics}
+
+    @cached_property
+    def opamps(self) -> list:
+        """The op-amp gain-bandwidth check of each stage with an op-amp part
+        (:func:`filters.opamp_check.gbw_warnings`), taken on first use."""
+        from .opamp_check import gbw_warnings
+
+        return gbw_warnings(self.design)
+
 
 def yield_of(ens: Ensemble, confidence: float, method: str) -> tuple[YieldEstimate, list[SpanFailures]]:
     """Yield with its interval, and the per-span failure breakdown."""
@@ -66,41 +113,109 @@ def yield_of(ens: Ensemble, confidence: float, method: str) -> tuple[YieldEstima
     return est, spans
 
 
+class _Runner:
+    """Evaluates board ranges of one run, the first ``keep`` boards with their curves."""
+
+    def __init__(self, design: Design, prep: Prepared, keep: int, second: SecondQuantity, seed, method,
+                 grades, total: int, progress, should_stop) -> None:
+        self.design, self.prep, self.keep, self.second = design, prep, keep, second
+        self.kw = dict(seed=seed, method=method, grades=grades, prepared=prep, should_stop=should_stop)
+        self.total, self.progress = total, progress
+        self.head: Ensemble | None = None  # the boards [0, keep) with curves
+
+    def _report(self, offset: int) -> Callable[[int, int], None] | None:
+        if self.progress is None:
+            return None
+        return lambda done, _n: self.progress(offset + done, self.total)
+
+    def run(self, lo: int, hi: int, progress: bool = True) -> Ensemble:
+        """Boards ``[lo, hi)`` in one call, with curves when they are all below ``keep``."""
+        with_curves = hi <= self.keep
+        return evaluate(self.design, samples=hi - lo, start=lo, curves=with_curves,
+                        phase=self.second == "phase", delay=self.second == "delay",
+                        progress=self._report(lo) if progress else None, **self.kw)
+
+    def into(self, store: BoardStore, lo: int, hi: int, progress: bool = True) -> np.ndarray:
+        """Boards ``[lo, hi)`` added to ``store`` (the curve boards first, kept in
+        :attr:`head`); returns their pass/fail (hi - lo,)."""
+        passed = []
+        if lo < self.keep:
+            self.head = self.run(lo, min(hi, self.keep), progress)
+            store.add(self.head)
+            passed.append(self.head.passed)
+            lo = min(hi, self.keep)
+        for a, b in store.pieces(lo, hi) if lo < hi else []:
+            e = self.run(a, b, progress)
+            store.add(e)
+            passed.append(e.passed)
+        return np.concatenate(passed)
+
+    def curves(self, passed: np.ndarray) -> Curves | None:
+        """The head's curves; ``passed`` (S,): every board's verdict (over temperature, when judged)."""
+        h = self.head
+        if h is None:
+            return None
+        second = h.delay_s if self.second == "delay" else h.phase_deg
+        assert h.gain_db is not None and second is not None
+        return Curves(self.second, h.freqs_hz, h.gain_db, second, passed[:h.samples], bands(h.gain_db),
+                      bands(second), h.start)
+
+
 def analyze(design: Design, *, samples: int | None = None, seed: int | None = None,
             method: str | None = None, interval: str | None = None,
             half_width: float | None = None, max_samples: int = 1_000_000,
+            grades: Sequence[Grade] | None = None, budget: bool = True, with_corners: bool = True,
+            curves: int = 0, second: SecondQuantity = "phase", prepared: Prepared | None = None,
+            samples_path: str | None = None,
             progress: Callable[[int, int], None] | None = None,
             should_stop: Callable[[], bool] | None = None) -> AnalysisResult:
     """Sample ``design``, judge it against its mask and gather every result.
 
     With ``half_width`` (a fraction, 0.01 = one percentage point) boards are added in
     batches until the yield interval's half-width is at most that, or ``max_samples``.
+
+    ``grades`` overrides each part's grade (what-if tolerances; design order). ``budget``
+    and ``with_corners`` ask for the spread budget and the corners (the window's preview
+    skips both). ``curves`` keeps the responses of the first that many boards (at most the
+    run's) with their spread bands in :attr:`AnalysisResult.curves`, the gain with the
+    ``second`` quantity (``"phase"``, deg, or ``"delay"``, s); the numbers are the same
+    with or without. ``prepared`` reuses a :func:`filters.evaluate.prepare` of ``design``.
+    ``samples_path`` names the field the memory rule refuses a count at (default
+    ``analysis.samples``, or ``samples`` when ``samples`` is given).
+
+    Raises :class:`~tolspread.errors.InputError` when the boards would keep more numbers
+    than the memory rule allows (:func:`filters.memory.check_boards`), before any work;
+    ``should_stop()`` returning True raises :class:`~tolspread.errors.Cancelled`.
     """
     a = design.analysis
     interval = interval or a.interval
-    prep = prepare(design)
+    prep = prepared if prepared is not None and prepared.design is design else prepare(design)
     if half_width is None:
+        n = a.samples if samples is None else int(samples)
         # the memory rule (filters/memory.py): refused in one line before any work
-        check_boards(prep, a.samples if samples is None else int(samples),
-                     "analysis.samples" if samples is None else "samples")
-        ens = evaluate(design, samples=samples, seed=seed, method=method, curves=False,
-                       prepared=prep, progress=progress, should_stop=should_stop)
+        check_boards(prep, n, samples_path or ("analysis.samples" if samples is None else "samples"))
+        runner = _Runner(design, prep, min(int(curves), n), second, seed, method, grades, n, progress,
+                         should_stop)
+        if runner.keep in (0, n):  # one call: every board with or without curves
+            ens = runner.run(0, n)
+            runner.head = ens if runner.keep else None
+        else:  # the first boards with curves, the rest without, joined without a second copy
+            store = BoardStore(prep, n)
+            runner.into(store, 0, n)
+            ens = store.ensemble()
         est, spans = yield_of(ens, a.confidence, interval)
         history = [est]
     else:
-        check_boards(prep, int(max_samples), "max_samples")
+        check_boards(prep, int(max_samples), samples_path or "max_samples")
         store = BoardStore(prep, int(max_samples))  # batches join without a second copy
+        runner = _Runner(design, prep, min(int(curves), int(max_samples)), second, seed, method, grades,
+                         int(max_samples), None, should_stop)
 
         def run_batch(start: int, stop: int) -> np.ndarray:
-            passed = []
-            for lo, hi in store.pieces(start, stop):
-                e = evaluate(design, samples=hi - lo, start=lo, seed=seed, method=method,
-                             curves=False, prepared=prep, should_stop=should_stop)
-                store.add(e)
-                passed.append(e.passed)
+            passed = runner.into(store, start, stop)
             if progress is not None:
                 progress(stop, max_samples)
-            return np.concatenate(passed)
+            return passed
 
         first = samples or min(2000, max_samples)
         est, history = adaptive_yield(run_batch, half_width=half_width, batch=first,
@@ -117,11 +232,7 @@ def analyze(design: Design, *, samples: int | None = None, seed: int | None = No
         lo, hi = over.range_c  # corners: each part's extremes over the whole range
         corner_ens = replace(ens, design=design.with_analysis(temp_low_c=lo, temp_high_c=hi))
     life = judge_service_life(design, prep, ens, est, should_stop)
-    summaries = {name: summarize(ens, name) for name in ens.metrics}
-    budget = spread_budget(ens, prep)
-    corner_result = corners(corner_ens, prep)
-    from .synthesis import gbw_warnings
-
-    opamps = gbw_warnings(design)
-    return AnalysisResult(design, ens, prep, summaries, est, spans, budget, corner_result, history, opamps,
-                          over, life)
+    budget_result = spread_budget(ens, prep) if budget else {}
+    corner_result = corners(corner_ens, prep) if with_corners else None
+    return AnalysisResult(design, ens, prep, est, spans, budget_result, corner_result, history,
+                          runner.curves(ens.passed), over, life)

@@ -78,6 +78,7 @@ class Part:
     grade: str
     text: str = field(default="", compare=False)
     tolerance_pct: float | None = None  # a what-if tolerance replacing the grade's
+    bias_v: float = 0.0  # DC bias across the part (V): class II capacitors lose value with it
 
     @property
     def value_text(self) -> str:
@@ -142,7 +143,7 @@ class Design:
         out = []
         for p in self.parts:
             g = cat[p.grade]
-            g = for_value(g, p.kind, p.value)  # pF tolerance below 10 pF, tempco by value range
+            g = for_value(g, p.kind, p.value, p.bias_v)  # pF tolerance below 10 pF, tempco by range, bias
             out.append(g if p.tolerance_pct is None else scaled(g, p.tolerance_pct))
         return tuple(out)
 
@@ -165,13 +166,6 @@ class Design:
     def with_analysis(self, **changes: Any) -> "Design":
         return replace(self, analysis=replace(self.analysis, **changes))
 
-    def to_dict(self) -> dict[str, Any]:
-        """Deprecated: use :func:`filters.designfile.design_to_dict`. Kept only while
-        ``synthesis.py`` (being split) still calls it; remove it with that call, and with it
-        the last import of ``designfile`` from here."""
-        from .designfile import design_to_dict
-
-        return design_to_dict(self)
 
 def check_part_value(raw: Any, path: str = "value") -> tuple[float, str]:
     """The loader's rule for a part's value, for the design file and the window alike.
@@ -394,7 +388,7 @@ def design_from_dict(data: Any) -> Design:
             problems.append(InputError("must be an object with ref, value and grade", path))
             continue
         problems += [InputError(f"unknown field {k!r}", f"{path}.{k}") for k in p
-                     if k not in ("ref", "value", "grade", "tolerance_pct")]
+                     if k not in ("ref", "value", "grade", "tolerance_pct", "bias_v")]
         ref = p.get("ref")
         if not isinstance(ref, str) or not ref.strip():
             problems.append(InputError("must be a reference designator such as R1", f"{path}.ref"))
@@ -431,7 +425,11 @@ def design_from_dict(data: Any) -> Design:
                                            f"{path}.tolerance_pct"))
                 continue
             tol = float(t)
-        parts.append(Part(ref, kind, value, grade, text, tol))
+        bias = p.get("bias_v", 0.0)
+        if not is_finite_number(bias) or abs(bias) > 10_000:
+            problems.append(InputError(f"must be a DC bias in V within +-10000, not {bias!r}", f"{path}.bias_v"))
+            continue
+        parts.append(Part(ref, kind, value, grade, text, tol, float(bias)))
     for ref, (kind, where) in role_kind.items():
         if ref not in seen:
             problems.append(InputError(f"part {ref} is not in the parts list", where))

@@ -11,9 +11,7 @@ random: the sensitivities and corners use it on perturbed and extreme designs).
 """
 from __future__ import annotations
 
-import os
 import threading
-from concurrent.futures import ThreadPoolExecutor
 from concurrent.futures import TimeoutError as FuturesTimeout
 from dataclasses import dataclass
 from typing import Callable, Sequence
@@ -37,6 +35,7 @@ from .metric_names import attenuation_name
 from .metrics import attenuation_db, cutoff_metrics, stage_metrics
 from .channel_match import evaluate_channels, sample_values
 from .sampling import Conditions, draw_scores
+from .workers import POOL, WORKERS
 
 __all__ = [
     "CHUNK_MAX",
@@ -55,9 +54,7 @@ __all__ = [
 ]
 
 CHUNK_MAX = 8192  # boards per chunk at most: bounds the per-chunk arrays (a few x 8192 x F floats)
-WORKERS = max(1, min(4, os.cpu_count() or 1))
 STOP_POLL_S = 0.01  # how often a waiting evaluation asks should_stop (s)
-_POOL = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="tolspread")
 _SCORES: dict[tuple, np.ndarray] = {}
 
 
@@ -313,7 +310,7 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
 
     try:
         for b in bounds:
-            pending.append(_POOL.submit(work, *b))
+            pending.append(POOL.submit(work, *b))
             if len(pending) >= window:
                 done = _collect(result_of(pending.pop(0)), columns, n, done, progress)
                 if should_stop is not None and should_stop():

@@ -29,7 +29,7 @@ from tolspread.app.qt_main import make_window, restore_recovery  # noqa: E402
 from tolspread.app.qt_parts import pct_to_slider, slider_to_pct  # noqa: E402
 from tolspread.designfile import demo_text, load, load_demo  # noqa: E402
 from tolspread.evaluate import evaluate  # noqa: E402
-from tolspread.liveview import ViewRequest, compute_view, what_if_grades  # noqa: E402
+from tolspread.liveview import ViewRequest, compute_view  # noqa: E402
 from tolspread.stats import yield_estimate  # noqa: E402
 from qt_wait import settle_plot  # noqa: E402
 
@@ -205,8 +205,8 @@ def test_slider_drag_previews_then_release_makes_one_undoable_edit(window, qtbot
         row.slider.setValue(pos)
     assert s.design is before and s.undo_stack.count() == 0
     assert preview.args[0].preview and preview.args[0].samples == PREVIEW_BOARDS
-    tols = [pct if p.ref == "C2" else None for p in before.parts]
-    expected_preview = library_yield(before, what_if_grades(before, tols), samples=PREVIEW_BOARDS)
+    tried = before.with_part("C2", tolerance_pct=pct).part_grades()  # the grades with C2 at the slider's value
+    expected_preview = library_yield(before, tried, samples=PREVIEW_BOARDS)
     assert preview.args[0].yield_.estimate == pytest.approx(expected_preview.estimate, abs=1e-12)
     assert yield_text(expected_preview.estimate) in window.results.yield_label.text()
     assert row.readout.text().startswith(f"±{pct:.3g} %")
@@ -607,11 +607,8 @@ def test_delay_switch(window, qtbot):
 def test_only_the_newest_request_is_shown(window, qtbot):
     s = window.session
     d = s.design
-    i = d.part_index("C2")
     seen = []
     s.view_ready.connect(lambda v: seen.append(v.generation))
-    tight = [0.2 if k == i else None for k in range(len(d.parts))]
-    loose = [25.0 if k == i else None for k in range(len(d.parts))]
     assert s.try_tolerance("C2", 0.2) is None
     assert s.try_tolerance("C2", 25.0) is None
     last = s.end_what_if()
@@ -620,7 +617,7 @@ def test_only_the_newest_request_is_shown(window, qtbot):
     assert not s.busy
     assert shown_yield(window) == pytest.approx(library_yield(d).estimate, abs=5e-5)
     # and the stale states would have shown something else
-    assert library_yield(d, what_if_grades(d, loose)).estimate < library_yield(d).estimate - 0.05
+    assert library_yield(d, d.with_part("C2", tolerance_pct=25.0).part_grades()).estimate < library_yield(d).estimate - 0.05
 
 
 # --- 11. recovery --------------------------------------------------------------------------

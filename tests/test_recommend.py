@@ -34,6 +34,7 @@ from scipy import stats
 
 from tolspread.budget import spread_budget
 from tolspread.design import design_from_dict
+from tolspread.designfile import design_to_dict
 from tolspread.errors import Cancelled, InputError
 from tolspread.evaluate import evaluate, prepare
 from tolspread.grades import Catalog
@@ -380,7 +381,7 @@ def test_a_dearer_looser_grade_is_never_a_candidate():
     # left out; the guided result is still minimal against every cheaper candidate of each
     # single part, checked here by evaluating each such move on the same boards [BRUTE, BINOM].
     ce = {"name": "CE", "kind": "C", "tolerance_pct": 5.0, "cost": 4.5, "tempco_spread_ppm": 30}
-    d = design_from_dict({**DESIGN.to_dict(), "grades": GRADES + [ce]})
+    d = design_from_dict({**design_to_dict(DESIGN), "grades": GRADES + [ce]})
     cat = Catalog(d.grades)
     ladder = [[g.name for g in cs] for cs in candidate_grades(d, cat)]
     assert ladder[2] == ["CA", "CB", "CC", "CD"]

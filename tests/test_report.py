@@ -20,8 +20,8 @@ import pytest
 from tolspread.analysis import analyze
 from tolspread.designfile import load_demo
 from tolspread.evaluate import evaluate
-from tolspread.report import (CAUTION, build_report, format_pct, svg_bar_chart, svg_cost_yield,
-                            svg_histogram, svg_spread_plot, write_report)
+from tolspread.report import (CAUTION, FIGURE_BOARDS, build_report, format_pct, svg_bar_chart, svg_cost_yield,
+                              svg_histogram, svg_spread_plot, write_report)
 from tolspread.stats import yield_estimate
 from tolspread.values import format_value
 
@@ -98,7 +98,7 @@ def svg_numbers(root: ET.Element) -> tuple[float, float, list[tuple[float, float
 @pytest.fixture(scope="module")
 def demo():
     design = load_demo()
-    result = analyze(design, samples=2000)
+    result = analyze(design, samples=2000, curves=FIGURE_BOARDS)
     return design, result, build_report(result, generated=WHEN)
 
 
@@ -244,7 +244,7 @@ def test_user_text_is_escaped():
     evil = "<b>bold</b> & <script>x</script>"
     span = replace(design.mask[0], name="<i>floor</i>")
     design = replace(design, name=evil, description="desc <img src=x>").with_mask((span,) + design.mask[1:])
-    rep = build_report(analyze(design, samples=300), generated=WHEN, title=None)
+    rep = build_report(analyze(design, samples=300, curves=FIGURE_BOARDS), generated=WHEN, title=None)
     doc = rep.html()
     parse(doc)
     assert "<b>bold</b>" not in doc and "<script" not in doc and "<img" not in doc and "<i>floor" not in doc
@@ -307,14 +307,57 @@ def test_spread_plot_zoom_keeps_points_inside():
             assert x0 - 0.06 <= x <= x1 + 0.06 and y0 - 0.06 <= y <= y1 + 0.06
 
 
-def test_default_figure_uses_the_same_boards(demo):
+def test_spread_figure_draws_the_first_boards_of_the_run(demo):
+    """The spread figure's curves are those of the analysed boards themselves (the same
+    seed and boards as an independent evaluate call with curves), kept by the one run."""
     design, result, rep = demo
     curves = evaluate(design, samples=2000, seed=result.seed, curves=True)
-    again = build_report(result, spread=curves, generated=WHEN)
-    assert again.figures["spread"] == rep.figures["spread"]
-    assert again.html() == rep.html()
-    with pytest.raises(ValueError):
-        build_report(result, spread=result.ensemble, generated=WHEN)  # no curves kept
+    assert result.curves is not None and result.curves.boards == 2000
+    np.testing.assert_array_equal(result.curves.gain_db, curves.gain_db)
+    np.testing.assert_array_equal(result.ensemble.margins, curves.margins)
+    with pytest.raises(ValueError, match="curves"):
+        build_report(analyze(design, samples=300), generated=WHEN)  # no curves kept: said, not evaluated again
+
+
+def test_more_boards_than_the_figure_draws_keep_the_same_numbers():
+    """With more boards than the figure draws, the first FIGURE_BOARDS keep curves and the
+    rest do not; every number equals a run without curves (common random numbers)."""
+    design = load_demo()
+    plain = analyze(design, samples=2600, seed=11)
+    drawn = analyze(design, samples=2600, seed=11, curves=500)
+    assert drawn.curves is not None and drawn.curves.boards == 500
+    np.testing.assert_array_equal(drawn.ensemble.margins, plain.ensemble.margins)
+    np.testing.assert_array_equal(drawn.ensemble.values, plain.ensemble.values)
+    for name, col in plain.ensemble.metrics.items():
+        np.testing.assert_array_equal(drawn.ensemble.metrics[name], col)
+    assert drawn.yield_ == plain.yield_
+
+
+def test_the_report_path_evaluates_each_board_once(tmp_path, monkeypatch):
+    """`tolspread analyze --report` samples every board once: the calls to the evaluation
+    entry (tolspread.evaluate.evaluate, wherever it was imported) cover the run's boards
+    without overlap. Before the one pipeline, the report evaluated its figure's boards again."""
+    import sys
+
+    import tolspread.evaluate as ev
+    from tolspread.app.cli import main
+
+    calls = []
+    original = ev.evaluate
+
+    def counting(design, **kw):
+        calls.append((kw.get("start", 0), kw.get("samples"), kw.get("conditions")))
+        return original(design, **kw)
+
+    for mod in list(sys.modules.values()):
+        if getattr(mod, "__name__", "").startswith("tolspread") and getattr(mod, "evaluate", None) is original:
+            monkeypatch.setattr(mod, "evaluate", counting)
+    out = tmp_path / "r.html"
+    assert main(["analyze", "--samples", "2500", "--seed", "5", "--report", str(out)]) == 0
+    ranges = sorted((start, start + n) for start, n, cond in calls if cond is None)
+    assert ranges[0][0] == 0 and ranges[-1][1] == 2500
+    assert all(a[1] == b[0] for a, b in zip(ranges, ranges[1:]))  # contiguous, no board twice
+    assert "Spread of the response" in out.read_text(encoding="utf-8")
 
 
 def test_histogram_counts_from_the_ensemble(demo):
@@ -380,7 +423,7 @@ def test_format_pct():
 def test_recommendation_curve_and_parts_list():
     rec_mod = pytest.importorskip("tolspread.recommend")
     design = load_demo()
-    result = analyze(design, samples=500)
+    result = analyze(design, samples=500, curves=FIGURE_BOARDS)
     rec = rec_mod.recommend(design, 0.6, samples=300, max_evaluations=8, verify_factor=1)
     curve = rec_mod.cost_yield_curve(design, [0.5, 0.99999], samples=300, max_evaluations=8, verify_factor=1)
     rows = rec_mod.parts_list_rows(design, rec, result.budget)
@@ -410,7 +453,7 @@ def test_without_recommendation_no_such_sections(demo_html):
 
 def test_no_mask_design():
     design = load_demo().with_mask(())
-    rep = build_report(analyze(design, samples=200), generated=WHEN)
+    rep = build_report(analyze(design, samples=200, curves=FIGURE_BOARDS), generated=WHEN)
     doc = rep.html()
     parse(doc)
     assert "no yield" in doc and "margin" not in rep.figures and "passband" not in rep.figures
@@ -525,7 +568,7 @@ def recommended():
     design = load_demo()
     rec = rec_mod.recommend(design, 0.9, samples=400, max_evaluations=40, verify_factor=1)
     assert rec.chosen is not None and tuple(p.grade for p in design.parts) != rec.chosen.grades
-    result = analyze(rec.design, samples=400)
+    result = analyze(rec.design, samples=400, curves=FIGURE_BOARDS)
     return design, rec, result
 
 
@@ -552,7 +595,7 @@ def test_recommendation_table_shows_the_current_grades_and_both_costs(recommende
 def test_description_is_generated_from_the_design():
     # issue 10 #22: C1 on an X7R grade; the summary must say so and never claim C0G for it
     design = load_demo().with_part("C1", grade="C-X7R-10")
-    result = analyze(design, samples=300)
+    result = analyze(design, samples=300, curves=FIGURE_BOARDS)
     doc = build_report(result, generated=WHEN).html()
     summary = tables_of(doc).paragraphs["summary"][0]
     groups = {}

@@ -1,4 +1,4 @@
-"""The report's figures: plain SVG text generated with numpy (no plotting library).
+"""The report's SVG charts: plain SVG text generated with numpy (no plotting library).
 
 Over 500 lines: one small SVG toolkit (axes, ticks, text, hatching) that its four figures share.
 
@@ -23,10 +23,10 @@ from typing import Sequence
 
 import numpy as np
 
-from .bands import Bands
-from .mask import Span
-from .report_text import format_count
-from .values import format_value
+from ..bands import Bands
+from ..mask import Span
+from ..values import format_value
+from .numbers import format_count
 
 __all__ = [
     "BLUE",

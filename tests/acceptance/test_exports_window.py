@@ -132,7 +132,7 @@ def _pdf_pages(path: Path) -> list[str]:
 @needs_poppler
 def test_pdf_report_pages_captions_and_text_size(window, qtbot, answers, shown, tmp_path):
     # issue 10 #23: captions apart from their figures, no page numbers, 5 pt chart labels
-    from tolspread.report_figures import MIN_FONT
+    from tolspread.report.charts import MIN_FONT
 
     path = tmp_path / "report.pdf"
     answers.save_paths.append(str(path))

@@ -1,0 +1,137 @@
+"""The report's words: grades, distributions, temperature coefficients, op-amps and the
+spec mask described in sentences generated from the design (no fixed claims about a
+particular design: change a grade or a limit and the sentence changes with it)."""
+from __future__ import annotations
+
+from typing import Sequence
+
+from ..grades import Grade
+from ..mask import Span
+from ..metric_names import SPAN_UNIT
+from ..values import format_value
+
+__all__ = [
+    "INTERVAL_NAMES",
+    "METHOD_NAMES",
+    "describe_distribution",
+    "tempco_text",
+    "drift_text",
+    "opamp_text",
+    "span_words",
+    "describe_design",
+]
+
+
+def describe_distribution(g: Grade, short: bool = False) -> str:
+    """How a grade's values are distributed, in words (``short``: for a table cell)."""
+    tol = g.tolerance_pct
+    if tol == 0:
+        return "none (exact)" if short else "no spread (exact value)"
+    if g.distribution == "uniform":
+        return "uniform" if short else f"uniform within \u00b1{tol:g} %"
+    if short:
+        if g.distribution == "binned":
+            return f"binned, k = {g.coverage:g}, centre \u00b1{g.bin_inner_pct:g} % removed"
+        return f"normal, k = {g.coverage:g}, {'truncated' if g.truncate else 'not truncated'}"
+    if g.distribution == "binned":
+        return (f"binned: normal with coverage factor k = {g.coverage:g} (\u03c3 = {tol / g.coverage:.3g} %), "
+                f"the centre within \u00b1{g.bin_inner_pct:g} % removed (sold as a tighter grade), "
+                f"limited to \u00b1{tol:g} %")
+    cut = f"truncated at \u00b1{tol:g} %" if g.truncate else "not truncated"
+    return f"normal with coverage factor k = {g.coverage:g} (\u03c3 = {tol / g.coverage:.3g} %), {cut}"
+
+
+def tempco_text(g: Grade) -> str:
+    """A grade's temperature coefficient in words (ppm/K, with its spread)."""
+    if not g.tempco_ppm and not g.tempco_spread_ppm:
+        return "0"
+    if not g.tempco_ppm:
+        return f"\u00b1{g.tempco_spread_ppm:g} ppm/K"
+    return f"{g.tempco_ppm:+g} \u00b1 {g.tempco_spread_ppm:g} ppm/K"
+
+
+def drift_text(g: Grade) -> str:
+    """A grade's drift in words."""
+    return f"\u00b1{g.drift_pct:g} %" if g.drift_pct else "none"
+
+
+INTERVAL_NAMES = {"wilson": "Wilson score interval (without continuity correction)",
+                   "exact": "Clopper-Pearson exact interval"}
+METHOD_NAMES = {"random": "random (numpy PCG64 generator seeded through SeedSequence)",
+                 "sobol": "scrambled Sobol points (quasi-Monte Carlo)"}
+
+
+def opamp_text(d, stage, topo) -> str:
+    """The stage's op-amps in words. An op-amp that a part of the design models is named by
+    that part's reference; the op-amp of a library topology that no part models is ideal and
+    has no designator of its own (its topology role, such as "U1", is not a part: naming it
+    would point at another stage's op-amp); a circuit stage's op-amps keep their own names."""
+    amps = [o.role for o in topo.netlist.opamps]
+    if not amps:
+        return "passive"
+    out = []
+    unnamed = 0
+    for role in amps:
+        ref = stage.roles.get(role)
+        if ref is not None:
+            part = d.parts[d.part_index(ref)]
+            out.append(f"op-amp {ref} (a part of the design), single-pole with gain-bandwidth "
+                       f"{format_value(part.value, 'Hz', digits=4)}")
+        elif stage.topology == "circuit":
+            out.append(f"op-amp {role} ideal (infinite gain and bandwidth; no part models it)")
+        else:
+            unnamed += 1
+    if unnamed:
+        what = "an ideal op-amp" if unnamed == 1 else f"{unnamed} ideal op-amps"
+        out.append(f"{what} (infinite gain and bandwidth; no part of the design models "
+                   f"{'it' if unnamed == 1 else 'them'})")
+    return "; ".join(out)
+
+
+def span_words(s: Span) -> str:
+    """One span of the mask in words, from its own limits (gain, phase or delay)."""
+    where = f"from {format_value(s.f1, 'Hz', digits=4)} to {format_value(s.f2, 'Hz', digits=4)}"
+    if s.quantity == "delay":
+        return (f"{s.label}: group delay varies by at most {format_value(s.limit1, 's', digits=4)} {where}")
+    unit = SPAN_UNIT[s.quantity]
+    lim = f"{s.limit1:+g} {unit}"
+    if s.limit2 is not None and s.limit2 != s.limit1:
+        lim += f" (sloping to {s.limit2:+g} {unit})"
+    bound = "at least" if s.kind == "floor" else "at most"
+    ref = " relative to the passband gain" if s.relative and s.quantity == "gain" else ""
+    extra = ""
+    if s.quantity == "gain" and s.kind == "ceiling" and max(s.limit1, s.end_limit) < 0:
+        extra = f", that is at least {-max(s.limit1, s.end_limit):g} dB of rejection"
+    return f"{s.label}: {s.quantity} {bound} {lim}{ref}{extra} {where}"
+
+
+def describe_design(d, grades: Sequence[Grade]) -> list[str]:
+    """Sentences (plain text) that describe the design from its own data: the stages, the
+    parts grouped by grade (``grades``: the grade in use per part, design order) and every
+    span of the mask. Nothing here is a fixed claim: change a grade or a limit and the
+    sentence changes with it."""
+    out: list[str] = []
+    stages = []
+    for k, s in enumerate(d.stages, start=1):
+        topo = s.built()
+        opts = ", ".join(f"{key} {val}" for key, val in s.options.items())
+        stages.append(f"{s.name or f'stage {k}'} ({topo.description}{', ' + opts if opts else ''})")
+    out.append(f"{len(d.stages)} stage{'s' if len(d.stages) != 1 else ''}: " + "; ".join(stages) + ".")
+    by_grade: dict[str, tuple[Grade, list[str], set[str]]] = {}
+    for p, g in zip(d.parts, grades):
+        entry = by_grade.setdefault(g.name, (g, [], set()))
+        entry[1].append(p.ref)
+        entry[2].add(p.kind)
+    kinds = {"R": "resistor", "C": "capacitor", "L": "inductor", "opamp": "op-amp"}
+    groups = []
+    for name, (g, refs, part_kinds) in by_grade.items():
+        noun = (kinds.get(next(iter(part_kinds)), "part") if len(part_kinds) == 1 else "part") + (
+            "s" if len(refs) > 1 else "")
+        tech = f", {g.technology}" if g.technology else ""
+        groups.append(f"{noun} {', '.join(refs)}: grade {name} (\u00b1{g.tolerance_pct:g} %{tech})")
+    out.append("Parts by grade: " + "; ".join(groups) + ".")
+    if d.mask:
+        out.append("Spec mask: " + "; ".join(span_words(s) for s in d.mask) + ".")
+    else:
+        out.append("No spec mask.")
+    return out
