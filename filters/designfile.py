@@ -125,6 +125,8 @@ def design_to_dict(design: Design) -> dict[str, Any]:
         d_part: dict[str, Any] = {"ref": p.ref, "value": p.text or _exact_text(p.value), "grade": p.grade}
         if p.tolerance_pct is not None:
             d_part["tolerance_pct"] = p.tolerance_pct
+        if p.bias_v:
+            d_part["bias_v"] = p.bias_v
         out["parts"].append(d_part)
     out["stages"] = [stage_to_dict(s) for s in design.stages]
     out["analysis"] = {

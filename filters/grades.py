@@ -86,6 +86,7 @@ class Grade:
     life_temp_c: float = 70.0          # the rating's temperature (deg C)
     activation_ev: float = 0.0         # Arrhenius activation energy of the life drift (eV)
     ageing_pct_per_decade: float = 0.0  # class II: capacitance loss per decade of hours (%)
+    bias_v: float = 0.0                # the DC bias a part of this grade sits at (V; from the part)
 
     @property
     def sigma(self) -> float:
@@ -136,7 +137,7 @@ class Grade:
 
 PHYSICS_FIELDS = ("tolerance_pf", "tempco_by_value", "temp_curve_pct", "temp_curve_spread",
                   "temp_limit_pct", "bias_curve_pct", "life_drift_pct", "life_hours", "life_temp_c",
-                  "activation_ev", "ageing_pct_per_decade")
+                  "activation_ev", "ageing_pct_per_decade", "bias_v")
 _TABLES = {"tempco_by_value": 3, "temp_curve_pct": 2, "bias_curve_pct": 2}  # columns per row
 
 
@@ -185,6 +186,7 @@ GRADE_LIMITS: dict[str, tuple[float, float, bool]] = {
     "life_temp_c": (-273.0, 1000.0, True),       # deg C
     "activation_ev": (0.0, 5.0, True),           # eV
     "ageing_pct_per_decade": (0.0, 50.0, True),  # percent per decade of hours
+    "bias_v": (-10_000.0, 10_000.0, True),       # V
 }
 _UNITS = {"tolerance_pf": " pF", "life_drift_pct": " %", "ageing_pct_per_decade": " %",
           "tolerance_pct": " %", "bin_inner_pct": " %", "drift_pct": " %", "tempco_ppm": " ppm/K",

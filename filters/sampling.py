@@ -23,8 +23,8 @@ import numpy as np
 from .errors import InputError
 from .grades import Grade
 from .lazyimport import LazyModule
-from .temperature_physics import (REFERENCE_CELSIUS, ageing_factor, has_temperature, life_fraction,
-                                  temperature_change)
+from .temperature_physics import (REFERENCE_CELSIUS, ageing_factor, bias_change, has_temperature,
+                                  life_fraction, temperature_change)
 
 __all__ = [
     "Method",
@@ -130,10 +130,11 @@ def part_values(nominal: Sequence[float], grades: Sequence[Grade], scores: np.nd
 
     ``scores`` comes from :func:`draw_scores` with the same number of parts; each grade
     applies as given (:meth:`filters.design.Design.part_grades` has already applied it to
-    the part's value: pF tolerances of small capacitors, tempco by resistance range). A part's factor is ``(1 + tolerance deviation) (1 + temperature
-    change) (1 + drift) (1 + life drift) (ageing)``; its temperature score and its drift
-    score are drawn once per board, so the same board is judged at every temperature and
-    after its service life with the same parts.
+    the part's value and bias: pF tolerances of small capacitors, tempco by resistance
+    range, class II bias). A part's factor is ``(1 + tolerance deviation) (1 + temperature
+    change) (1 + drift) (1 + life drift) (ageing) (1 + DC-bias change)``; its temperature
+    score and its drift score are drawn once per board, so the same board is judged at
+    every temperature and after its service life with the same parts.
     """
     nom = np.asarray(nominal, dtype=float)
     p = nom.size
@@ -167,6 +168,8 @@ def part_values(nominal: Sequence[float], grades: Sequence[Grade], scores: np.nd
             factor = factor * (1 + life[i] * u_drift[:, i])
         if hours and g.ageing_pct_per_decade:
             factor = factor * ageing_factor(g, hours)
+        if g.bias_v and g.bias_curve_pct:  # class II at the DC bias its part states
+            factor = factor * (1 + bias_change(g))
         out[:, i] = nom[i] * np.maximum(factor, 1e-6)  # guard: a value never reaches zero or below
     return out
 
@@ -188,7 +191,7 @@ def limits(nominal: Sequence[float], grades: Sequence[Grade], conditions: Condit
         temps = np.array(t_ends + [t for t, _ in g.temp_curve_pct if t_ends[0] < t < t_ends[1]])
         tcs = [float(x) for s in (-1, 1) for x in temperature_change(g, np.full(temps.size, float(s)), temps)]
         drift = g.drift_pct / 100.0 + life_fraction(g, conditions.service_hours, conditions.service_temp_c)
-        age = ageing_factor(g, conditions.service_hours)
+        age = ageing_factor(g, conditions.service_hours) * (1 + bias_change(g))
         lo[i] = nom[i] * (1 - tol) * (1 + min(tcs)) * (1 - drift) * age
         hi[i] = nom[i] * (1 + tol) * (1 + max(tcs)) * (1 + drift) * age
     return lo, hi

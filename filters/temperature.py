@@ -105,13 +105,15 @@ class ServiceLife:
 def nominal_at(prep: Any, grades: Any, temp_c: float, hours: float = 0.0, service_temp_c: float = 25.0
                ) -> np.ndarray:
     """Part values (1, P) of the nominal board at ``temp_c``: typical temperature change
-    (score 0), no tolerance, ageing after ``hours`` (life drift is symmetric: none)."""
-    from .temperature_physics import ageing_factor
+    (score 0), no tolerance, ageing after ``hours`` (life drift is symmetric: none), class II
+    parts at their stated DC bias."""
+    from .temperature_physics import ageing_factor, bias_change
 
     nom = prep.nominal.values
     t = np.array([float(temp_c)])
     zero = np.zeros(1)
-    f = [float(1 + temperature_change(g, zero, t)[0]) * ageing_factor(g, hours) for g in grades]
+    f = [float(1 + temperature_change(g, zero, t)[0]) * ageing_factor(g, hours) * (1 + bias_change(g))
+         for g in grades]
     return (nom * np.array(f))[None, :]
 
 

@@ -50,14 +50,20 @@ AGE_AT_DELIVERY_H = 1000.0
 KELVIN = 273.15
 
 
-def for_value(grade: Grade, kind: str, value: float) -> Grade:
-    """``grade`` as it applies to a part of ``kind`` with marked value ``value`` (SI).
+def for_value(grade: Grade, kind: str, value: float, bias_v: float = 0.0) -> Grade:
+    """``grade`` as it applies to a part of ``kind`` with marked value ``value`` (SI) at
+    DC bias ``bias_v`` (V).
 
     A capacitor below 10 pF with ``tolerance_pf`` set gets that absolute tolerance as a
     percentage of its value; a grade with ``tempco_by_value`` gets the spread (ppm/K) of the
-    first row whose [low, high) holds the value. Otherwise the grade itself.
+    first row whose [low, high) holds the value; a grade with a bias curve, on a part that
+    states its bias, gets that bias (its change is applied by :func:`bias_change`) and loses
+    its ``drift_pct``, which stood for the loss at a bias nobody stated. Otherwise the grade
+    itself.
     """
     g = grade
+    if bias_v and g.bias_curve_pct:
+        g = replace(g, bias_v=float(bias_v), drift_pct=0.0)
     if g.tolerance_pf and kind == "C" and value < SMALL_CAPACITOR_F:
         g = replace(g, tolerance_pct=min(99.0, 100.0 * g.tolerance_pf * 1e-12 / value))
     for low, high, spread in g.tempco_by_value:
@@ -113,9 +119,11 @@ def ageing_factor(grade: Grade, hours: float) -> float:
     return 1 - grade.ageing_pct_per_decade / 100.0 * math.log10((AGE_AT_DELIVERY_H + hours) / AGE_AT_DELIVERY_H)
 
 
-def bias_change(grade: Grade, bias_v: float) -> float:
-    """Relative change (fraction) of a class II capacitor at DC bias ``bias_v`` (V):
-    the grade's bias curve interpolated (flat beyond its ends); 0 without a curve."""
+def bias_change(grade: Grade, bias_v: float | None = None) -> float:
+    """Relative change (fraction) of a class II capacitor at DC bias ``bias_v`` (V, the
+    grade's own ``bias_v`` set by :func:`for_value` when None): the grade's bias curve
+    interpolated (flat beyond its ends); 0 without a curve."""
+    bias_v = grade.bias_v if bias_v is None else bias_v
     if not grade.bias_curve_pct or bias_v == 0:
         return 0.0
     v, pct = np.array(grade.bias_curve_pct).T
