@@ -37,6 +37,19 @@ def pct_to_slider(pct: float) -> int:
     return int(round(min(1.0, t) * SLIDER_STEPS))
 
 
+def part_groups(design: Design) -> list[tuple[str, str, tuple[str, ...]]]:
+    """The parts panel's layout: (network name, heading, member refs) for each network, its
+    members together under the heading; ("", "", refs) for the parts on their own, in design
+    order before the networks."""
+    members = {m for net in design.networks for m in net.members}
+    out = [("", "", tuple(p.ref for p in design.parts if p.ref not in members))]
+    for net in design.networks:
+        where = ", one package for all channels" if net.across_channels and design.channels.count > 1 else ""
+        out.append((net.name, f"<b>{net.name}</b> network: ±{net.tolerance_pct:g} %, ratio ±{net.ratio_pct:g} %, "
+                              f"tracking {net.tracking_ppm:g} ppm/K{where}", net.members))
+    return out
+
+
 class PartRow:
     """The widgets of one part."""
 
@@ -140,6 +153,8 @@ class PartsPanel(QWidget):
         scroll.setWidgetResizable(True)
         scroll.setWidget(self.grid_host)
         outer.addWidget(scroll, 1)
+        self.group_labels: dict[str, QLabel] = {}  # network name -> its heading
+        self._layout: list = []
 
     def sizeHint(self):  # noqa: N802 - Qt override
         from PySide6.QtCore import QSize
@@ -150,9 +165,10 @@ class PartsPanel(QWidget):
     def show_design(self, design: Design) -> None:
         """Show ``design``'s parts (rebuilding rows only when the parts list changed)."""
         self._design = design
-        refs = [p.ref for p in design.parts]
-        if refs != list(self.rows):
-            self._rebuild(refs)
+        layout = part_groups(design)
+        if layout != self._layout:
+            self._rebuild(layout)
+        members = {m: net for net in design.networks for m in net.members}
         cat = design.catalog
         grades = design.part_grades()
         for p, g in zip(design.parts, grades):
@@ -169,7 +185,16 @@ class PartsPanel(QWidget):
             row.grade.setCurrentIndex(max(0, row.grade.findData(p.grade)))
             row.grade.setToolTip(cat[p.grade].technology)
             row.grade.blockSignals(False)
-            if self._dragging != p.ref:
+        net = members.get(p.ref)
+            row.slider.setEnabled(net is None)  # a member's spread is its network's, not its grade's
+            if net is not None:
+                row.slider.blockSignals(True)
+                row.slider.setValue(pct_to_slider(net.tolerance_pct))
+                row.slider.blockSignals(False)
+                row.readout.setText(f"±{net.tolerance_pct:.3g} % {net.name}")
+                row.readout.setToolTip(f"the tolerance of network {net.name}; its grade sets the temperature "
+                                       "coefficient, drift and cost")
+            elif self._dragging != p.ref:
                 row.slider.blockSignals(True)
                 row.slider.setValue(pct_to_slider(g.tolerance_pct))
                 row.slider.blockSignals(False)
@@ -187,23 +212,40 @@ class PartsPanel(QWidget):
             self.seed_problem.hide()
         self.method.setCurrentIndex(max(0, self.method.findData(a.method)))
 
-    def _rebuild(self, refs: list[str]) -> None:
+    def _rebuild(self, layout: list[tuple[str, str, tuple[str, ...]]]) -> None:
+        """Rows for ``layout`` (:func:`part_groups`): each group's heading (if any) above its parts."""
         for row in self.rows.values():
             for w in (row.label, row.value, row.grade, row.slider, row.readout, row.problem):
                 w.setParent(None)
                 w.deleteLater()
-        self.rows = {}
-        for i, ref in enumerate(refs):
-            row = PartRow(self, ref)
-            r = 1 + 2 * i
-            self.grid.addWidget(row.label, r, 0)
-            self.grid.addWidget(row.value, r, 1)
-            self.grid.addWidget(row.grade, r, 2)
-            self.grid.addWidget(row.slider, r, 3)
-            self.grid.addWidget(row.readout, r, 4)
-            self.grid.addWidget(row.problem, r + 1, 1, 1, 4)
-            self.rows[ref] = row
-        self.grid.setRowStretch(1 + 2 * len(refs), 1)
+        for w in self.group_labels.values():
+            w.setParent(None)
+            w.deleteLater()
+        self.rows, self.group_labels, self._layout = {}, {}, layout
+        r = 1
+        for name, heading, refs in layout:
+            if heading:
+                head = QLabel(heading)
+                head.setObjectName(f"network_{name}")
+                head.setStyleSheet("QLabel { border-top: 1px solid #888; padding-top: 2px; }")
+                self.grid.addWidget(head, r, 0, 1, 5)
+                self.group_labels[name] = head
+                r += 1
+            for ref in refs:
+                r = self._add_row(ref, r)
+        self.grid.setRowStretch(r, 1)
+
+    def _add_row(self, ref: str, r: int) -> int:
+        """One part's widgets at grid row ``r`` (and its problem line below); the next free row."""
+        row = PartRow(self, ref)
+        self.grid.addWidget(row.label, r, 0)
+        self.grid.addWidget(row.value, r, 1)
+        self.grid.addWidget(row.grade, r, 2)
+        self.grid.addWidget(row.slider, r, 3)
+        self.grid.addWidget(row.readout, r, 4)
+        self.grid.addWidget(row.problem, r + 1, 1, 1, 4)
+        self.rows[ref] = row
+        return r + 2
 
     def _set_readout(self, row: PartRow, pct: float, what_if: bool) -> None:
         row.readout.setText(f"±{pct:.3g} %" + (" *" if what_if else ""))

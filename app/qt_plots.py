@@ -234,6 +234,8 @@ class SpreadPlots(QWidget):
             s.remove()
         self.spans = []
         for i, span in enumerate(mask):
+            if span.kind == "match":  # a difference between channels: no line on one curve (the table lists it)
+                continue
             if span.quantity == "gain":
                 self.spans.append(SpanItem(self.mag, i, span, reference_db, self._on_span_changing,
                                            self._on_span_finished, self._on_span_clicked))
