@@ -185,7 +185,7 @@ class PartsPanel(QWidget):
             row.grade.setCurrentIndex(max(0, row.grade.findData(p.grade)))
             row.grade.setToolTip(cat[p.grade].technology)
             row.grade.blockSignals(False)
-        net = members.get(p.ref)
+            net = members.get(p.ref)
             row.slider.setEnabled(net is None)  # a member's spread is its network's, not its grade's
             if net is not None:
                 row.slider.blockSignals(True)
