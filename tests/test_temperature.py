@@ -315,3 +315,21 @@ def test_every_catalog_grade_is_named_in_the_sources_document():
             continue
         stem = g.name.rsplit("-", 1)[0]
         assert g.name in text or f"{stem}-" in text, g.name
+
+
+def test_report_has_the_temperature_section_with_the_same_numbers():
+    # the report's section (filters/report/temperature.py) shows each judged temperature's
+    # yield as the analysis computed it; a design without a range has no such section
+    from tolspread.report import FIGURE_BOARDS, build_report
+
+    r = {"name": "r", "kind": "R", "tolerance_pct": 1, "tempco_spread_ppm": 100}
+    c = {"name": "c", "kind": "C", "tolerance_pct": 5, "tempco_ppm": 400}
+    mask = [{"name": "corner", "quantity": "gain", "kind": "floor", "f1": 10, "f2": 1500, "limit1": -3}]
+    res = analyze(design_from_dict(_rc_design(r, c, {"samples": 500, "operating_range_c": [-20, 70]}, mask)),
+                  curves=FIGURE_BOARDS)
+    html = build_report(res).html()
+    assert 'id="temperature"' in html
+    for p in res.temperature.points:
+        assert f"{100 * p.yield_.estimate:.2f} %" in html
+    plain = analyze(design_from_dict(_rc_design(r, c, {"samples": 300}, mask)), curves=FIGURE_BOARDS)
+    assert 'id="temperature"' not in build_report(plain).html()

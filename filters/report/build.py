@@ -23,6 +23,7 @@ from .numbers import format_count, format_pct
 from .review import assumptions_section, parts_section, recommendation_section
 from .sections import (budget_section, corners_section, design_section, failures_section, mask_section,
                        spread_section, yield_section)
+from .temperature import has_temperature, temperature_section
 from .words import describe_design
 
 __all__ = [
@@ -65,6 +66,7 @@ SECTIONS: list[Section] = [
     Section("spread", "Spread of the response", spread_section),
     Section("yield", "Yield", yield_section),
     Section("failures", "Failure breakdown", failures_section),
+    Section("temperature", "Over temperature and service life", temperature_section, has_temperature),
     Section("budget", "Spread budget", budget_section),
     Section("corners", "Corners and root-sum-square", corners_section),
     Section("recommendation", "Recommended grades", recommendation_section,
