@@ -118,8 +118,9 @@ def nominal_at(prep: Any, grades: Any, temp_c: float, hours: float = 0.0, servic
 
 
 def _points(design: Any, prep: Any, ens: Any, temps: tuple[float, ...], hours: float, service_temp_c: float,
-            should_stop: Callable[[], bool] | None) -> tuple[list[TemperaturePoint], np.ndarray]:
-    """Judge the ensemble's boards at each of ``temps``; the points and the worst margins."""
+            should_stop: Callable[[], bool] | None, metrics: bool = True) -> tuple[list[TemperaturePoint], np.ndarray]:
+    """Judge the ensemble's boards at each of ``temps``; the points and the worst margins.
+    ``metrics=False``: pass/fail only (the points' summaries are empty)."""
     from .evaluate import evaluate, evaluate_values
 
     a = design.analysis
@@ -128,13 +129,15 @@ def _points(design: Any, prep: Any, ens: Any, temps: tuple[float, ...], hours: f
     for t in temps:  # a handful of temperatures; the boards are vectorized inside evaluate
         cond = Conditions(t, t, a.lot_share, hours, service_temp_c)
         e = evaluate(design, samples=ens.samples, seed=ens.seed, method=ens.method, start=ens.start,
-                     grades=ens.grades, curves=False, metrics=True, prepared=prep, conditions=cond,
+                     grades=ens.grades, curves=False, metrics=metrics, prepared=prep, conditions=cond,
                      should_stop=should_stop)
         worst = e.margins.copy() if worst is None else np.minimum(worst, e.margins)
-        with np.errstate(all="ignore"):
-            nominal = evaluate_values(prep, nominal_at(prep, ens.grades, t, hours, service_temp_c))
         keep = [n for n in e.metrics if n in _SHIFT_METRICS or n.endswith((".f0_hz", ".q"))]
-        summaries = {n: replace(summarize(e, n), nominal=float(nominal.metrics[n][0])) for n in keep}
+        summaries = {}
+        if keep:
+            with np.errstate(all="ignore"):
+                nominal = evaluate_values(prep, nominal_at(prep, ens.grades, t, hours, service_temp_c))
+            summaries = {n: replace(summarize(e, n), nominal=float(nominal.metrics[n][0])) for n in keep}
         est = yield_estimate(e.passed, None, a.confidence, a.interval)
         points.append(TemperaturePoint(t, est, tuple(int(x) for x in (e.margins < 0).sum(axis=0)), summaries))
     assert worst is not None
@@ -164,7 +167,8 @@ def judge_service_life(design: Any, prep: Any, ens: Any, delivery: YieldEstimate
         return None
     temps = judged_temperatures(a)
     if temps:
-        points, worst = _points(design, prep, ens, temps, a.service_hours, a.service_temp_c, should_stop)
+        points, worst = _points(design, prep, ens, temps, a.service_hours, a.service_temp_c, should_stop,
+                                metrics=False)
         passed = np.all(worst >= 0, axis=1)
     else:
         from .evaluate import evaluate

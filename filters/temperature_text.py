@@ -105,9 +105,9 @@ def temperature_tables(result: Any) -> list[Table]:
             f"SERVICE LIFE (the same boards at delivery and after {life.hours:,.0f} h = {years:.3g} years at "
             f"{life.temp_c:g} {DEGREE}, judged {where})",
             ["", "at delivery", f"after {years:.3g} years"], rows, "<>>",
-            ["life drift: each grade's load-life rating scaled by sqrt(time) and an Arrhenius factor; "
-             "class II ageing per decade of hours (README 'What the numbers mean'); an estimate under "
-             "those models, to be confirmed by life tests of real parts"]))
+            ["life drift: each grade's load-life rating (at rated power) scaled by sqrt(time) and an "
+             "Arrhenius factor, class II ageing per decade of hours (README 'What the numbers mean'): a "
+             "cautious estimate for parts run well below rated power; confirm with life tests of real parts"]))
     return out
 
 
