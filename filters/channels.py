@@ -143,4 +143,6 @@ def channel_values(design: "Design", nominal: np.ndarray, grades: Sequence[Grade
             for j in across:
                 net_sc[:, [j, k + j]] = first_shared[:, [j, k + j]]
         out[c] = board_values(design, nominal, grades, sc, conditions, seed, method, start, c, net_sc)
+    if shared_idx:  # one physical part: its value in every channel is channel 1's (network members too)
+        out[1:, :, shared_idx] = out[0][:, shared_idx]
     return out

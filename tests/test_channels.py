@@ -58,6 +58,17 @@ def test_channels_with_shared_parts_have_zero_mismatch(how):
     assert ens.passed.all()
 
 
+def test_a_shared_part_is_one_value_in_every_channel_even_in_a_network():
+    data = two_channels(shared=["R1"])
+    data["networks"] = [{"name": "RN1", "members": ["R1", "R2"], "tolerance_pct": 1, "ratio_pct": 0.2}]
+    design = design_from_dict(data)
+    prep = prepare(design)
+    every = channel_values(design, prep.nominal.values, design.part_grades(), scores_for(design, 200, 5, "random"),
+                           design.analysis.conditions, 5, "random", 0)
+    assert np.array_equal(every[0][:, 0], every[1][:, 0])  # R1 is one part on the board
+    assert not np.array_equal(every[0][:, 1], every[1][:, 1])  # R2 is one per channel
+
+
 def test_independent_channels_mismatch_variance_is_twice_one_channel():
     design = design_from_dict(two_channels())
     ens = evaluate(design, samples=5000, seed=7, curves=True)
@@ -145,3 +156,17 @@ def test_channels_survive_save_and_load():
     design = design_from_dict(two_channels(shared=["C2"]))
     again = design_from_dict(json.loads(json.dumps(design_to_dict(design))))
     assert again.channels == design.channels and again.mask == design.mask
+
+
+def test_report_states_the_match_spans_networks_and_channels(tmp_path):
+    from cli_runs import run_cli
+
+    report = tmp_path / "review.html"
+    proc = run_cli("analyze", str(EXAMPLE), "--samples", "300", "--report", str(report))
+    assert proc.returncode == 0, proc.stderr
+    text = report.read_text(encoding="utf-8")
+    # the limits as the design file states them (0.1 dB, 1 deg), in words
+    assert "I/Q gain match: gain difference between any two channels at most 0.1 dB" in text
+    assert "I/Q phase match: phase difference between any two channels at most 1 deg" in text
+    assert "2 identical channels on each board" in text
+    assert "Network RN1 (R1, R2) (one package for all channels)" in text

@@ -12,7 +12,7 @@ import numpy as np
 from .. import metric_names
 from ..analysis import AnalysisResult
 from ..mask import Span
-from ..metric_names import SPAN_UNIT, is_margin, is_pair_metric, margin_name, metric_label
+from ..metric_names import MATCH_WORDS, SPAN_UNIT, is_margin, is_pair_metric, margin_name, metric_label
 from ..values import format_value
 from .charts import svg_bar_chart, svg_histogram, svg_spread_plot
 from .context import Context
@@ -66,7 +66,10 @@ def mask_section(ctx: Context) -> str:
         rows = []
         for j, s in enumerate(d.mask):
             unit = SPAN_UNIT[s.quantity]
-            if s.quantity == "delay":
+            if s.kind == "match":  # a difference between channels
+                lim = f"{MATCH_WORDS[s.quantity]} at most " + (
+                    format_value(s.limit1, "s", digits=4) if s.quantity == "delay" else f"{s.limit1:g} {unit}")
+            elif s.quantity == "delay":
                 lim = f"variation at most {format_value(s.limit1, 's', digits=4)}"
             else:
                 lim = f"{s.limit1:+g} {unit}" + (f" to {s.end_limit:+g} {unit}" if s.limit2 is not None

@@ -7,7 +7,7 @@ from typing import Sequence
 
 from ..grades import Grade
 from ..mask import Span
-from ..metric_names import SPAN_UNIT
+from ..metric_names import MATCH_WORDS, SPAN_UNIT
 from ..values import format_value
 
 __all__ = [
@@ -91,6 +91,9 @@ def opamp_text(d, stage, topo) -> str:
 def span_words(s: Span) -> str:
     """One span of the mask in words, from its own limits (gain, phase or delay)."""
     where = f"from {format_value(s.f1, 'Hz', digits=4)} to {format_value(s.f2, 'Hz', digits=4)}"
+    if s.kind == "match":  # boards of several channels (filters/channels.py)
+        lim = format_value(s.limit1, "s", digits=4) if s.quantity == "delay" else f"{s.limit1:g} {SPAN_UNIT[s.quantity]}"
+        return f"{s.label}: {MATCH_WORDS[s.quantity]} between any two channels at most {lim} {where}"
     if s.quantity == "delay":
         return (f"{s.label}: group delay varies by at most {format_value(s.limit1, 's', digits=4)} {where}")
     unit = SPAN_UNIT[s.quantity]
@@ -130,6 +133,14 @@ def describe_design(d, grades: Sequence[Grade]) -> list[str]:
         tech = f", {g.technology}" if g.technology else ""
         groups.append(f"{noun} {', '.join(refs)}: grade {name} (\u00b1{g.tolerance_pct:g} %{tech})")
     out.append("Parts by grade: " + "; ".join(groups) + ".")
+    for net in d.networks:  # filters/networks.py
+        one = " (one package for all channels)" if net.across_channels and d.channels.count > 1 else ""
+        out.append(f"Network {net.name} ({', '.join(net.members)}){one}: \u00b1{net.tolerance_pct:g} % each, ratio "
+                   f"\u00b1{net.ratio_pct:g} %, temperature coefficients tracking within {net.tracking_ppm:g} ppm/K; "
+                   "its members' grades give their temperature coefficient, drift and cost.")
+    if d.channels.count > 1:  # filters/channels.py
+        shared = f"; shared by all channels: {', '.join(d.channels.shared)}" if d.channels.shared else ""
+        out.append(f"{d.channels.count} identical channels on each board, each with its own parts{shared}.")
     if d.mask:
         out.append("Spec mask: " + "; ".join(span_words(s) for s in d.mask) + ".")
     else:
