@@ -170,3 +170,6 @@ def test_report_states_the_match_spans_networks_and_channels(tmp_path):
     assert "I/Q phase match: phase difference between any two channels at most 1 deg" in text
     assert "2 identical channels on each board" in text
     assert "Network RN1 (R1, R2) (one package for all channels)" in text
+    # corners cannot judge a difference between channels: both reports say so
+    assert "Match spans have no corners" in text
+    assert "match spans have no corners" in run_cli("analyze", str(EXAMPLE), "--samples", "300").stdout

@@ -18,7 +18,8 @@ from .charts import svg_bar_chart, svg_histogram, svg_spread_plot
 from .context import Context
 from .document import esc, figure, table
 from .numbers import format_count, format_metric, format_pct, format_sensitivity
-from .words import INTERVAL_NAMES, METHOD_NAMES, describe_distribution, drift_text, opamp_text, tempco_text
+from .words import (INTERVAL_NAMES, MATCH_NOTE, METHOD_NAMES, describe_distribution, drift_text, opamp_text,
+                    tempco_text)
 
 __all__ = [
     "design_section",
@@ -257,6 +258,8 @@ def corners_section(ctx: Context) -> str:
         verdict = ("every corner board meets the mask" if c.all_pass
                    else '<span class="bad">some corner boards fail the mask</span>')
         add(f"<p>Worst case: {verdict}.</p>")
+        if any(s.kind == "match" for s in d.mask):
+            add(f"<p>{esc(MATCH_NOTE[0].upper() + MATCH_NOTE[1:])}.</p>")
         add(table(["Span", "Worst margin over the corners"],
                    [[esc(s.label), format_metric(c.worst_margins.get(s.label, float("nan")), SPAN_UNIT[s.quantity])]
                     for s in d.mask], numeric=[1]))

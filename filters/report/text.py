@@ -14,6 +14,7 @@ from ..summary import MetricSummary
 from ..temperature_text import temperature_json, temperature_tables
 from ..values import format_value
 from .numbers import beyond_floor, format_metric, format_metric_value, format_pct
+from .words import MATCH_NOTE
 
 __all__ = [
     "CAUTION",
@@ -170,6 +171,8 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
     if d.mask:
         out.write(f"  worst case: {'every corner board meets the mask' if c.all_pass else 'some corner boards fail the mask'}"
                   "\n")
+    if any(s.kind == "match" for s in d.mask):
+        out.write(f"  note: {MATCH_NOTE}\n")
     if result.opamps:
         from ..synthesis_result import opamp_table_text
 

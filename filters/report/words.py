@@ -18,6 +18,7 @@ __all__ = [
     "drift_text",
     "opamp_text",
     "span_words",
+    "MATCH_NOTE",
     "describe_design",
 ]
 
@@ -86,6 +87,11 @@ def opamp_text(d, stage, topo) -> str:
         out.append(f"{what} (infinite gain and bandwidth; no part of the design models "
                    f"{'it' if unnamed == 1 else 'them'})")
     return "; ".join(out)
+
+
+#: Why corners say nothing of match spans (terminal and HTML report).
+MATCH_NOTE = ("match spans have no corners (a corner board is one channel standing for all, so its channels "
+              "never differ) and the worst-case verdict is about the other spans; read their sampled spread")
 
 
 def span_words(s: Span) -> str:
