@@ -22,6 +22,7 @@ from ..values import PART_UNITS, format_value
 SLIDER_STEPS = 1000
 TOL_MIN, TOL_MAX = 0.05, 30.0  # percent, log scale
 INVALID_STYLE = "QLineEdit { background: #fde2d6; border: 1px solid #D55E00; }"
+SELECTED_STYLE = "QLabel { background: #D55E00; color: white; font-weight: bold; padding: 1px 3px; }"
 
 
 def slider_to_pct(pos: int) -> float:
@@ -40,9 +41,12 @@ def pct_to_slider(pct: float) -> int:
 def part_groups(design: Design) -> list[tuple[str, str, tuple[str, ...]]]:
     """The parts panel's layout: (network name, heading, member refs) for each network, its
     members together under the heading; ("", "", refs) for the parts on their own, in design
-    order before the networks."""
+    order before the networks (headed by the channel count when the board has several)."""
     members = {m for net in design.networks for m in net.members}
-    out = [("", "", tuple(p.ref for p in design.parts if p.ref not in members))]
+    ch = design.channels
+    heading = "" if ch.count < 2 else (f"<b>{ch.count} channels</b> on each board, each with its own parts"
+                                       + (f"; shared by all: {', '.join(ch.shared)}" if ch.shared else ""))
+    out = [("channels" if heading else "", heading, tuple(p.ref for p in design.parts if p.ref not in members))]
     for net in design.networks:
         where = ", one package for all channels" if net.across_channels and design.channels.count > 1 else ""
         out.append((net.name, f"<b>{net.name}</b> network: ±{net.tolerance_pct:g} %, ratio ±{net.ratio_pct:g} %, "
@@ -153,8 +157,10 @@ class PartsPanel(QWidget):
         scroll.setWidgetResizable(True)
         scroll.setWidget(self.grid_host)
         outer.addWidget(scroll, 1)
+        self.scroll = scroll
         self.group_labels: dict[str, QLabel] = {}  # network name -> its heading
         self._layout: list = []
+        self.selected: str | None = None  # the part chosen in the circuit view
 
     def sizeHint(self):  # noqa: N802 - Qt override
         from PySide6.QtCore import QSize
@@ -226,7 +232,7 @@ class PartsPanel(QWidget):
         for name, heading, refs in layout:
             if heading:
                 head = QLabel(heading)
-                head.setObjectName(f"network_{name}")
+                head.setObjectName(f"group_{name}")
                 head.setStyleSheet("QLabel { border-top: 1px solid #888; padding-top: 2px; }")
                 self.grid.addWidget(head, r, 0, 1, 5)
                 self.group_labels[name] = head
@@ -245,7 +251,19 @@ class PartsPanel(QWidget):
         self.grid.addWidget(row.readout, r, 4)
         self.grid.addWidget(row.problem, r + 1, 1, 1, 4)
         self.rows[ref] = row
+        row.label.setStyleSheet(SELECTED_STYLE if ref == self.selected else "")
         return r + 2
+
+    def select_part(self, ref: str | None) -> None:
+        """Mark part ``ref``'s row as chosen (its name on the highlight colour), scroll to it
+        and put the cursor in its value field; None clears the mark."""
+        self.selected = ref
+        for r, row in self.rows.items():
+            row.label.setStyleSheet(SELECTED_STYLE if r == ref else "")
+        row = self.rows.get(ref) if ref else None
+        if row is not None:
+            self.scroll.ensureWidgetVisible(row.value)
+            row.value.setFocus()
 
     def _set_readout(self, row: PartRow, pct: float, what_if: bool) -> None:
         row.readout.setText(f"±{pct:.3g} %" + (" *" if what_if else ""))

@@ -33,9 +33,14 @@ from .qt_parts import INVALID_STYLE
 BAD_CELL = QColor("#fde2d6")   # the value fields' invalid colour (qt_parts.INVALID_STYLE)
 KINDS = (("resistor", "R"), ("capacitor", "C"), ("inductor", "L"))
 _ROW_PATH = re.compile(r"stages\[(\d+)\]\.(elements|opamps)\[(\d+)\](?:\.(\w+))?")
+_NODE = re.compile(r"\bnode (\S+)")
 _OPAMP_COLUMNS = {"ref": 0, "plus": 1, "minus": 2, "output": 3}
 
 Apply = Callable[[Design, str], "str | None"]
+
+
+def _buffered(stage) -> bool:
+    return getattr(stage, "buffered", True)
 
 
 def _button(text: str, name: str, tip: str) -> QPushButton:
@@ -70,6 +75,7 @@ class StageEditor(QWidget):
         self._apply_design = apply_design
         self.design: Design | None = None
         self._loading = False
+        self._select_next: int | None = None
         lay = QVBoxLayout(self)
         lay.setContentsMargins(4, 4, 4, 4)
         top = QHBoxLayout()
@@ -180,8 +186,8 @@ class StageEditor(QWidget):
         self.design = design
         self._loading = True
         try:
-            keep = self.index
-            items = [f"{i + 1}: {s.name or s.topology}" + ("" if s.buffered else " (loaded by the next)")
+            keep = self.index if self._select_next is None else self._select_next
+            items = [f"{i + 1}: {s.name or s.topology}" + ("" if _buffered(s) else " (loaded by the next)")
                      for i, s in enumerate(design.stages)]
             if items != [self.stage_list.item(i).text() for i in range(self.stage_list.count())]:
                 self.stage_list.clear()
@@ -202,16 +208,17 @@ class StageEditor(QWidget):
         self.name.setText(s.name)
         self.topology.setCurrentIndex(max(0, self.topology.findData(s.topology)))
         self.options.setText(json.dumps(s.options) if s.options else "")
-        self.options.setEnabled(not s.is_circuit)
-        self.buffered.setChecked(s.buffered)
-        self.buffered.setEnabled(i < len(d.stages) - 1 or not s.buffered)
-        self.opamp_part.setVisible(not s.is_circuit and bool(s.built().optional_roles))
+        circuit = s.topology == edits.CIRCUIT
+        self.options.setEnabled(not circuit)
+        self.buffered.setChecked(_buffered(s))
+        self.buffered.setEnabled(i < len(d.stages) - 1 or not _buffered(s))
+        self.opamp_part.setVisible(not circuit and bool(s.built().optional_roles))
         self.opamp_part.setChecked("U1" in s.roles)
         self.remove_stage.setEnabled(len(d.stages) > 1)
         self.up.setEnabled(i > 0)
         self.down.setEnabled(i < len(d.stages) - 1)
         parts = {p.ref: p for p in d.parts}
-        if s.is_circuit:
+        if circuit:
             self.pages.setCurrentIndex(1)
             self._fill(self.elements, edits.element_rows(data))
             self._fill(self.opamps, edits.opamp_rows(data))
@@ -255,11 +262,10 @@ class StageEditor(QWidget):
         except InputError as exc:
             problems = [exc]
         else:
-            if select is not None:
-                self.stage_list.blockSignals(True)
-                self.stage_list.setCurrentRow(select if select >= 0 else len(design.stages) - 1)
-                self.stage_list.blockSignals(False)
+            if select is not None:  # the stage to show once the edited design arrives
+                self._select_next = select if select >= 0 else len(design.stages) - 1
             reason = self._apply_design(design, f"{text} (stage {self.index + 1})")
+            self._select_next = None
             if reason is None:
                 self.stage_selected.emit(self.index)
                 return None
@@ -361,10 +367,14 @@ class StageEditor(QWidget):
                 continue
             table = self.elements if m.group(2) == "elements" else self.opamps
             row, field = int(m.group(3)), m.group(4)
+            node = _NODE.search(p.reason)
             if field == "between":
                 cols = [1, 2]
             elif m.group(2) == "opamps" and field in _OPAMP_COLUMNS:
                 cols = [_OPAMP_COLUMNS[field]]
+            elif field is None and node is not None:  # "node n9 connects only to R5": n9's cells
+                cols = [c for c in range(1, table.columnCount())
+                        if table.item(row, c) is not None and table.item(row, c).text().strip() == node.group(1)] or [0]
             else:
                 cols = [0]
             table.blockSignals(True)

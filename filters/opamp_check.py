@@ -86,11 +86,14 @@ def opamp_shift_table(design: Design, gbw_hz: float | None = None) -> list[GbwWa
     ``gbw_hz`` (a what-if for stages without op-amp parts), else the GBW fields are None.
     Rule (tests/REFERENCES.md section 7, after Op Amps for Everyone ch. 16): open-loop gain at
     f0 at least 40 dB above the stage's peak gain, i.e. GBW >= 100 G Q f0 with G the
-    stage's passband gain (see :class:`GbwWarning`). Passive stages are left out.
+    stage's passband gain (see :class:`GbwWarning`). Passive stages and circuit stages are
+    left out.
     """
     values = {p.ref: p.value for p in design.parts}
     rows: list[GbwWarning] = []
     for k, st in enumerate(design.stages):
+        if st.topology == "circuit":  # a circuit's op-amps sit anywhere in its network: no f0/Q rule
+            continue
         topo = st.built()
         if "U1" not in topo.optional_roles:
             continue
