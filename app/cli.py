@@ -18,6 +18,7 @@ from ..safeio import check_output_path
 from .cli_args import EXIT_BAD_INPUT, Parser, positive_int, seed
 from .cli_centre import add_parser as add_centre_parser, run as run_centre
 from .cli_design import add_parser as add_design_parser, run as run_design
+from .cli_measure import add_parser as add_measure_parser, run as run_measure
 from .cli_shapes import add_parser as add_shapes_parser, run as run_shapes
 from .cli_recommend import add_parser as add_recommend_parser, run as run_recommend
 
@@ -58,6 +59,7 @@ def build_parser() -> argparse.ArgumentParser:
     add_recommend_parser(sub)
     add_centre_parser(sub)
     add_shapes_parser(sub)
+    add_measure_parser(sub)
     for sp in sub.choices.values():
         sp.add_argument("--verbose", action="store_true",
                         help="list every problem of a bad input file, one per line")
@@ -125,7 +127,7 @@ def cmd_analyze(args: argparse.Namespace) -> int:
     return 0
 
 
-SUBCOMMANDS = ("analyze", "design", "recommend", "centre", "shapes")
+SUBCOMMANDS = ("analyze", "design", "recommend", "centre", "shapes", "measure")
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -157,6 +159,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             return run_centre(args)
         if args.command == "shapes":
             return run_shapes(args)
+        if args.command == "measure":
+            return run_measure(args)
         return open_window(design_path, args.screenshot)
     except ValidationError as exc:
         lines, more = exc.lines(), len(exc.lines()) - 1

@@ -105,3 +105,19 @@ def fraction_or_percent(text: str, lowest: float = 0.0) -> float:
 def confidence(text: str) -> float:
     """A confidence level: a fraction or percentage from 0.5 (50 %) to below 1."""
     return fraction_or_percent(text, lowest=0.5)
+
+
+def design_with_mask(path: str | None, output: str | None = None, why: str = "no yield to judge"):
+    """The design at ``path`` (the built-in demo when None) for a command that judges yield:
+    ``output`` (an -o path) is checked first, so a bad path is refused before any work, and a
+    design without a spec mask is refused with ``why``."""
+    from ..designfile import load, load_demo
+    from ..errors import InputError
+    from ..safeio import check_output_path
+
+    if output is not None:
+        check_output_path(output, "--output")
+    design = load_demo() if path is None else load(path)
+    if not design.mask:
+        raise InputError(f"the design has no spec mask, so there is {why}; add spans first", "mask")
+    return design

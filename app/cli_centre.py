@@ -5,7 +5,7 @@ import argparse
 import json
 import sys
 
-from .cli_args import positive_int, seed
+from .cli_args import design_with_mask, positive_int, seed
 from .texttable import table
 
 
@@ -23,16 +23,10 @@ def add_parser(sub) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from ..centring import centre_values
-    from ..designfile import load, load_demo, save
-    from ..errors import InputError
-    from ..safeio import check_output_path
+    from ..designfile import save
     from ..values import PART_UNITS, format_value
 
-    if args.output is not None:
-        check_output_path(args.output, "--output")
-    design = load_demo() if args.design is None else load(args.design)
-    if not design.mask:
-        raise InputError("the design has no spec mask, so there is no yield to raise; add spans first", "mask")
+    design = design_with_mask(args.design, args.output, "no yield to raise")
 
     def progress(done: int, total: int) -> None:
         sys.stderr.write(f"\r  {done:,} of {total:,} combinations screened")

@@ -6,7 +6,7 @@ import argparse
 import json
 import sys
 
-from .cli_args import confidence, fraction_or_percent, positive_int, seed
+from .cli_args import confidence, design_with_mask, fraction_or_percent, positive_int, seed
 from .texttable import table
 
 
@@ -24,13 +24,9 @@ def add_parser(sub) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..designfile import load, load_demo
-    from ..errors import InputError
     from ..robustness import SHAPE_TEXT, shape_recommendations, shape_yields
 
-    design = load_demo() if args.design is None else load(args.design)
-    if not design.mask:
-        raise InputError("the design has no spec mask, so there is no yield to compare; add spans first", "mask")
+    design = design_with_mask(args.design, None, "no yield to compare")
     yields = shape_yields(design, samples=args.samples, seed=args.seed)
     choices = None
     if args.target_yield is not None:

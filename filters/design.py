@@ -16,6 +16,7 @@ from typing import Any
 from .errors import InputError, ValidationError, is_finite_number, quoted
 from .channels import Channels, channels_from_dict, check_match_spans
 from .grades import Catalog, Grade, builtin_catalog, scaled
+from .measured import Measured, measured_from_dict, measured_grade
 from .mask import Span
 from .metric_names import SPAN_UNIT, duplicate_label
 from .networks import Network, networks_from_dict
@@ -79,6 +80,9 @@ class Part:
     text: str = field(default="", compare=False)
     tolerance_pct: float | None = None  # a what-if tolerance replacing the grade's
     bias_v: float = 0.0  # DC bias across the part (V): class II capacitors lose value with it
+    measured: Measured | None = None  # measured values replacing the grade's distribution (filters/measured.py)
+    locked: bool = False  # a grade search keeps this part's grade
+    forbid: tuple[str, ...] = ()  # technologies a grade search must not give this part (grades' technology)
 
     @property
     def value_text(self) -> str:
@@ -144,6 +148,8 @@ class Design:
         for p in self.parts:
             g = cat[p.grade]
             g = for_value(g, p.kind, p.value, p.bias_v)  # pF tolerance below 10 pF, tempco by range, bias
+            if p.measured is not None:  # measured values replace the distribution (filters/measured.py)
+                g = measured_grade(g, p.value, p.measured, p.ref)
             out.append(g if p.tolerance_pct is None else scaled(g, p.tolerance_pct))
         return tuple(out)
 
@@ -388,7 +394,7 @@ def design_from_dict(data: Any) -> Design:
             problems.append(InputError("must be an object with ref, value and grade", path))
             continue
         problems += [InputError(f"unknown field {k!r}", f"{path}.{k}") for k in p
-                     if k not in ("ref", "value", "grade", "tolerance_pct", "bias_v")]
+                     if k not in ("ref", "value", "grade", "tolerance_pct", "bias_v", "measured", "locked", "forbid")]
         ref = p.get("ref")
         if not isinstance(ref, str) or not ref.strip():
             problems.append(InputError("must be a reference designator such as R1", f"{path}.ref"))
@@ -429,7 +435,26 @@ def design_from_dict(data: Any) -> Design:
         if not is_finite_number(bias) or abs(bias) > 10_000:
             problems.append(InputError(f"must be a DC bias in V within +-10000, not {bias!r}", f"{path}.bias_v"))
             continue
-        parts.append(Part(ref, kind, value, grade, text, tol, float(bias)))
+        measured = None
+        if p.get("measured") is not None:
+            try:
+                measured = measured_from_dict(p["measured"], f"{path}.measured")
+            except InputError as exc:
+                problems.append(exc)
+                continue
+            if kind not in ("R", "C", "L"):
+                problems.append(InputError(f"measured values are for R, C and L parts, not {kind}", f"{path}.measured"))
+                continue
+        locked = p.get("locked", False)
+        if not isinstance(locked, bool):
+            problems.append(InputError("must be true or false", f"{path}.locked"))
+            continue
+        forbid = p.get("forbid", [])
+        if not isinstance(forbid, list) or not all(isinstance(x, str) and x.strip() for x in forbid):
+            problems.append(InputError("must be a list of technology names such as \"X7R\"", f"{path}.forbid"))
+            continue
+        parts.append(Part(ref, kind, value, grade, text, tol, float(bias), measured, locked,
+                          tuple(x.strip() for x in forbid)))
     for ref, (kind, where) in role_kind.items():
         if ref not in seen:
             problems.append(InputError(f"part {ref} is not in the parts list", where))

@@ -18,6 +18,7 @@ from typing import Any, Callable
 from .temperature_settings import settings_to_dict
 from .design import Design, design_from_dict
 from .errors import InputError, ValidationError
+from .measured import measured_to_dict
 from .stage import stage_to_dict
 from .values import format_value, parse_value
 from .safeio import parse_json, read_text, remove_orphan_temporaries, write_text_atomic  # noqa: F401 (used by others)
@@ -127,6 +128,12 @@ def design_to_dict(design: Design) -> dict[str, Any]:
             d_part["tolerance_pct"] = p.tolerance_pct
         if p.bias_v:
             d_part["bias_v"] = p.bias_v
+        if p.measured is not None:
+            d_part["measured"] = measured_to_dict(p.measured)
+        if p.locked:
+            d_part["locked"] = True
+        if p.forbid:
+            d_part["forbid"] = list(p.forbid)
         out["parts"].append(d_part)
     out["stages"] = [stage_to_dict(s) for s in design.stages]
     out["analysis"] = {

@@ -86,6 +86,9 @@ class Grade:
     life_temp_c: float = 70.0          # the rating's temperature (deg C)
     activation_ev: float = 0.0         # Arrhenius activation energy of the life drift (eV)
     ageing_pct_per_decade: float = 0.0  # class II: capacitance loss per decade of hours (%)
+    # A measured part's relative deviations (fractions), resampled instead of the distribution
+    # (filters/measured.py); built for one part, never read from a catalog file.
+    measured: tuple[float, ...] = ()
     bias_v: float = 0.0                # the DC bias a part of this grade sits at (V; from the part)
 
     @property
@@ -100,6 +103,10 @@ class Grade:
     def to_dict(self) -> dict[str, Any]:
         """The grade's fields; the physics fields only where they differ from their defaults."""
         out = asdict(self)
+        if not out["measured"]:
+            del out["measured"]
+        else:
+            out["measured"] = list(out["measured"])
         for k in PHYSICS_FIELDS:
             if out[k] == getattr(_PLAIN, k):
                 del out[k]
@@ -116,7 +123,7 @@ class Grade:
         """
         if not isinstance(data, dict):
             raise InputError("must be an object with name, kind and tolerance_pct", path)
-        known = {f.name for f in fields(Grade)}
+        known = {f.name for f in fields(Grade)} - {"measured"}  # measured values belong to a part
         problems: list[InputError] = []
         for k in data:
             if k not in known:

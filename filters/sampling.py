@@ -86,6 +86,10 @@ def draw_scores(seed: int, n_parts: int, start: int, stop: int, method: Method =
 
 def relative_deviation(grade: Grade, z: np.ndarray) -> np.ndarray:
     """Relative deviation (fraction) of parts of ``grade`` from standard normal scores ``z``."""
+    if grade.measured:  # a measured part: each board takes one measured deviation (bootstrap)
+        dev = np.asarray(grade.measured)
+        idx = np.minimum((special.ndtr(z) * dev.size).astype(np.intp), dev.size - 1)
+        return dev[idx]
     tol = grade.tolerance_pct / 100.0
     if tol == 0:
         return np.zeros_like(z)
