@@ -49,11 +49,14 @@ def test_parts_panel_shows_a_network_as_a_group(qtbot):
     members = ["R1", "R2", "RF", "RG"]
     # the members sit together under the heading, the other parts above it
     assert all(rows[m] > head_row for m in members)
-    assert all(rows[o] < head_row for o in ("C1", "C2", "U1"))
+    assert rows["U1"] < head_row  # a part in no network
+    pair_row = grid.getItemPosition(grid.indexOf(panel.group_labels["CP1"]))[0]
+    assert all(head_row < rows[m] < pair_row for m in members)  # RN1's members before the pair's heading
+    assert all(rows[c] > pair_row for c in ("C1", "C2"))
     for m in members:
         assert not panel.rows[m].slider.isEnabled()  # the spread is the network's
         assert "RN1" in panel.rows[m].readout.text()
-    assert panel.rows["C1"].slider.isEnabled()
+    assert panel.rows["U1"].slider.isEnabled()
     assert library_yield_text(load(path)) in w.results.yield_label.text()
 
 
@@ -62,5 +65,6 @@ def test_window_judges_matched_channels_as_the_library_does(qtbot):
     w = open_window(qtbot, path)
     design = load(path)
     assert library_yield_text(design) in w.results.yield_label.text()
+    assert "2 channels" in w.parts.group_labels["channels"].text()
     # match spans are differences between channels: listed in the span table, not drawn on a curve
     assert len(w.plots.spans) == sum(1 for s in design.mask if s.kind != "match" and s.quantity == "gain")
