@@ -58,6 +58,7 @@ class CompiledStage:
     topology: Topology
     tf: TransferFunction
     columns: tuple[int, ...]  # part column of each of tf.roles
+    number: int = 0  # the design's number (from 1) of its stage (of the first, for loaded stages joined)
 
     @property
     def simple_phase(self) -> bool:
@@ -103,7 +104,7 @@ def compile_design(design: Design) -> Circuit:
             cols = tuple(col[net.roles[r]] for r in tf.roles)
         except KeyError as exc:
             raise InputError(f"role {exc.args[0]} has no part", f"{net.path}.parts") from None
-        stages.append(CompiledStage(net.name or f"stage {i + 1}", net.topology, tf, cols))
+        stages.append(CompiledStage(net.name or f"stage {i + 1}", net.topology, tf, cols, net.first + 1))
     circuit = Circuit(tuple(stages), combined_kind(s.topology.kind for s in stages), refs)
     if len(_COMPILED) > 64:
         _COMPILED.clear()

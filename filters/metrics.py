@@ -544,13 +544,15 @@ def pole_pairs(den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
 
 
 def stage_metrics(circuit: Circuit, coeffs: list[StageCoefficients]) -> dict[str, np.ndarray]:
-    """Each stage's f0 (Hz) and Q, named ``s<k>.f0_hz`` / ``s<k>.q`` (k from 1).
+    """Each stage's f0 (Hz) and Q, named ``s<k>.f0_hz`` / ``s<k>.q`` (k: the design's stage
+    number from 1; loaded stages solved as one network are named by their first stage).
 
     A first-order stage gives ``s<k>.fc_hz``. A stage of higher order gives its
     highest-Q pair as ``s<k>.f0_hz``/``s<k>.q`` and every pair as ``s<k>.p<j>.f0_hz``...
     """
     out: dict[str, np.ndarray] = {}
-    for k, (st, sc) in enumerate(zip(circuit.stages, coeffs), 1):
+    for i, (st, sc) in enumerate(zip(circuit.stages, coeffs), 1):
+        k = st.number or i
         n = sc.den.shape[1] - 1
         if n == 1:
             out[stage_metric_name(k, "fc_hz")] = sc.den[:, 0] / sc.den[:, 1] * sc.w_ref / TWO_PI
