@@ -370,6 +370,18 @@ class MainWindow(QMainWindow, WindowFiles):
                 if reason is not None:
                     self.show_problem("The grades were not changed", reason)
 
+    def open_temperature(self) -> None:
+        """The operating range, judged temperatures and service life; yield against temperature."""
+        from .qt_temperature import TemperatureDialog
+
+        dlg = TemperatureDialog(self.session.design, self.apply_edit, self)
+        if self.session.last_view is not None:
+            dlg.show_view(self.session.last_view)
+        self.session.view_ready.connect(dlg.show_view)
+        dlg.finished.connect(lambda _r: self.session.view_ready.disconnect(dlg.show_view))
+        self.temperature_dialog = dlg
+        dlg.show()
+
     def open_recommend(self) -> None:
         from .qt_recommend import RecommendDialog
 

@@ -94,11 +94,12 @@ def build_menus(w: "MainWindow") -> None:
                       "new_from_response")
     w.act_catalog = act("Grades and costs…", w.edit_catalog, "Ctrl+G", "edit_catalog")
     w.act_recommend = act("Find cheapest grades…", w.open_recommend, "Ctrl+R", "recommend")
+    w.act_temperature = act("Temperature and service life…", w.open_temperature, "Ctrl+T", "temperature")
     w.act_report_html = act("Export report (HTML)…", lambda: ex.report("html"),
                             "Ctrl+P", "report_html")
     w.act_report_pdf = act("Export report (PDF)…", lambda: ex.report("pdf"),
                            "Ctrl+Shift+P", "report_pdf")
-    for a in (w.act_synth, w.act_catalog, w.act_recommend, None, w.act_report_html,
+    for a in (w.act_synth, w.act_catalog, w.act_recommend, w.act_temperature, None, w.act_report_html,
               w.act_report_pdf):
         dm.addSeparator() if a is None else dm.addAction(a)
     vm = m.addMenu("&View")

@@ -1,0 +1,227 @@
+"""The "Temperature and service life" window: the design's operating range, judged
+temperatures and service life, the yield against temperature, and the spread bands at a
+chosen temperature.
+
+The settings go into the design as one undoable edit (the window's ``apply_edit``, which
+checks them with the loader's rules). The yield plot reads the last shown analysis
+(``ViewData.result.temperature``, :mod:`filters.temperature`). The bands at a chosen
+temperature come from the same boards evaluated at that temperature
+(:func:`filters.evaluate.evaluate` with ``conditions``), at most :data:`BAND_BOARDS` of them.
+"""
+from __future__ import annotations
+
+from typing import Callable
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6.QtCore import Qt
+from PySide6.QtWidgets import (QCheckBox, QDialog, QDoubleSpinBox, QFormLayout, QGroupBox, QHBoxLayout, QLabel,
+                               QLineEdit, QPushButton, QVBoxLayout, QWidget)
+
+from ..bands import bands
+from ..design import Design
+from ..evaluate import evaluate
+from ..liveview import ViewData
+from ..sampling import Conditions
+from ..temperature_settings import HOURS_PER_YEAR
+
+__all__ = ["BAND_BOARDS", "TemperatureDialog", "parse_points"]
+
+BAND_BOARDS = 2000  # boards behind the bands at a chosen temperature (the design's first ones)
+
+
+def parse_points(text: str) -> tuple[float, ...]:
+    """Extra judged temperatures typed as ``0, 60`` (deg C); ValueError names the bad entry."""
+    out = []
+    for piece in text.replace(";", ",").split(","):
+        piece = piece.strip()
+        if not piece:
+            continue
+        try:
+            out.append(float(piece))
+        except ValueError:
+            raise ValueError(f"extra temperatures: {piece!r} is not a number in deg C") from None
+    return tuple(out)
+
+
+def _spin(lo: float, hi: float, value: float, suffix: str, name: str, decimals: int = 1) -> QDoubleSpinBox:
+    box = QDoubleSpinBox()
+    box.setRange(lo, hi)
+    box.setDecimals(decimals)
+    box.setValue(value)
+    box.setSuffix(suffix)
+    box.setObjectName(name)
+    return box
+
+
+class TemperatureDialog(QDialog):
+    """Settings of the operating range and service life, the yield against temperature,
+    and the spread bands at a chosen temperature. ``apply_edit(design, text)`` makes a
+    design current and returns None or the reason it was refused."""
+
+    def __init__(self, design: Design, apply_edit: Callable[[Design, str], str | None],
+                 parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.setWindowTitle("Temperature and service life")
+        self.setObjectName("temperature_dialog")
+        self._design = design
+        self._apply_edit = apply_edit
+        a = design.analysis
+        rng = a.operating_range_c or (-40.0, 85.0)
+
+        settings = QGroupBox("Judged over")
+        form = QFormLayout(settings)
+        self.use_range = QCheckBox("an operating range (each board must pass at every judged temperature)")
+        self.use_range.setObjectName("use_range")
+        self.use_range.setChecked(a.operating_range_c is not None)
+        self.low = _spin(-270.0, 999.0, rng[0], " °C", "range_low")
+        self.high = _spin(-270.0, 999.0, rng[1], " °C", "range_high")
+        row = QHBoxLayout()
+        row.addWidget(self.low)
+        row.addWidget(QLabel("to"))
+        row.addWidget(self.high)
+        self.points = QLineEdit(", ".join(f"{t:g}" for t in a.judge_at_c))
+        self.points.setObjectName("judge_at")
+        self.points.setPlaceholderText("extra points, e.g. 0, 60 (the ends and 25 °C are always judged)")
+        self.use_life = QCheckBox("after a service life of")
+        self.use_life.setObjectName("use_life")
+        self.use_life.setChecked(bool(a.service_hours))
+        self.years = _spin(0.01, 100.0, a.service_hours / HOURS_PER_YEAR if a.service_hours else 10.0, " years",
+                           "life_years", 2)
+        self.life_temp = _spin(-270.0, 999.0, a.service_temp_c, " °C", "life_temp")
+        life = QHBoxLayout()
+        life.addWidget(self.use_life)
+        life.addWidget(self.years)
+        life.addWidget(QLabel("at"))
+        life.addWidget(self.life_temp)
+        form.addRow(self.use_range)
+        form.addRow("range", row)
+        form.addRow("extra points", self.points)
+        form.addRow(life)
+        self.apply_button = QPushButton("Apply to the design")
+        self.apply_button.setObjectName("apply_temperature")
+        self.apply_button.clicked.connect(self.apply)
+        self.problem = QLabel()
+        self.problem.setObjectName("temperature_problem")
+        self.problem.setStyleSheet("color: #D55E00;")
+        self.problem.setWordWrap(True)
+        form.addRow(self.apply_button)
+        form.addRow(self.problem)
+
+        self.summary = QLabel("")
+        self.summary.setObjectName("temperature_summary")
+        self.summary.setWordWrap(True)
+        self.yield_plot = pg.PlotWidget()
+        self.yield_plot.setObjectName("yield_temperature_plot")
+        self.yield_plot.setBackground("w")
+        self.yield_plot.setLabel("bottom", "temperature (°C)")
+        self.yield_plot.setLabel("left", "yield (%)")
+        self.yield_plot.showGrid(x=True, y=True, alpha=0.3)
+
+        band_row = QHBoxLayout()
+        self.band_temp = _spin(-270.0, 999.0, rng[0], " °C", "band_temperature")
+        self.band_button = QPushButton("Show bands at this temperature")
+        self.band_button.setObjectName("show_bands")
+        self.band_button.clicked.connect(self.show_bands)
+        band_row.addWidget(QLabel("spread at"))
+        band_row.addWidget(self.band_temp)
+        band_row.addWidget(self.band_button)
+        band_row.addStretch(1)
+        self.band_plot = pg.PlotWidget()
+        self.band_plot.setObjectName("band_temperature_plot")
+        self.band_plot.setBackground("w")
+        self.band_plot.setLogMode(x=True, y=False)
+        self.band_plot.setLabel("bottom", "frequency (Hz)")
+        self.band_plot.setLabel("left", "gain (dB)")
+        self.band_plot.showGrid(x=True, y=True, alpha=0.3)
+        self.band_note = QLabel("")
+        self.band_note.setObjectName("band_note")
+        self.band_note.setWordWrap(True)
+
+        lay = QVBoxLayout(self)
+        lay.addWidget(settings)
+        lay.addWidget(self.summary)
+        lay.addWidget(self.yield_plot, 1)
+        lay.addLayout(band_row)
+        lay.addWidget(self.band_plot, 1)
+        lay.addWidget(self.band_note)
+        self.resize(720, 820)
+
+    # --- settings to the design ------------------------------------------------------------
+    def settings_design(self) -> Design:
+        """The design with this window's settings (ValueError for unreadable extra points)."""
+        d = self._design
+        if self.use_range.isChecked():
+            rng = (float(self.low.value()), float(self.high.value()))
+            pts = parse_points(self.points.text())
+        else:
+            rng, pts = None, ()
+        hours = float(self.years.value()) * HOURS_PER_YEAR if self.use_life.isChecked() else 0.0
+        temp = float(self.life_temp.value()) if self.use_life.isChecked() else d.analysis.service_temp_c
+        return d.with_analysis(operating_range_c=rng, judge_at_c=pts, service_hours=hours, service_temp_c=temp)
+
+    def apply(self) -> None:
+        """Make the settings the design's (one undoable edit) or show why not."""
+        try:
+            d = self.settings_design()
+        except ValueError as exc:
+            self.problem.setText(str(exc))
+            return
+        if d == self._design:
+            self.problem.setText("")
+            return
+        reason = self._apply_edit(d, "temperature and service life")
+        self.problem.setText(reason or "")
+        if reason is None:
+            self._design = d
+
+    # --- results ---------------------------------------------------------------------------
+    def show_view(self, view: ViewData) -> None:
+        """Draw the yield against temperature of the analysis behind ``view``."""
+        self._design = view.design
+        self.yield_plot.clear()
+        res = view.result
+        over = None if res is None else res.temperature
+        life = None if res is None else res.life
+        lines = []
+        if over is not None:
+            t = np.array(over.temperatures_c)
+            y = np.array([100 * p.yield_.estimate for p in over.points])
+            lo = np.array([100 * p.yield_.low for p in over.points])
+            hi = np.array([100 * p.yield_.high for p in over.points])
+            self.yield_plot.addItem(pg.ErrorBarItem(x=t, y=y, top=hi - y, bottom=y - lo, beam=2.0, pen=pg.mkPen("k")))
+            self.yield_plot.plot(t, y, pen=pg.mkPen("#0072B2", width=2), symbol="o", symbolBrush="#0072B2",
+                                 name="at each temperature")
+            overall = 100 * over.overall.estimate
+            dashed = pg.mkPen("#D55E00", width=2, style=Qt.PenStyle.DashLine)
+            self.yield_plot.addItem(pg.InfiniteLine(pos=overall, angle=0, pen=dashed))
+            lines.append("yield at " + ", ".join(f"{p.temperature_c:g} °C {100 * p.yield_.estimate:.2f} %"
+                                                 for p in over.points)
+                         + f"; at every judged temperature {overall:.2f} % (dashed line)")
+        else:
+            lines.append("no operating range: each board is judged at the design's board temperature")
+        if life is not None:
+            lines.append(f"after {life.years:.3g} years at {life.temp_c:g} °C: {100 * life.after.estimate:.2f} % "
+                         f"(at delivery {100 * life.delivery.estimate:.2f} %; life drift is a cautious estimate "
+                         "from the grades' load-life ratings)")
+        self.summary.setText("\n".join(lines))
+
+    def show_bands(self) -> None:
+        """The gain bands of the design's first boards at the chosen temperature."""
+        d = self._design
+        t = float(self.band_temp.value())
+        n = min(d.analysis.samples, BAND_BOARDS)
+        cond = Conditions(t, t, d.analysis.lot_share)
+        e = evaluate(d, samples=n, curves=True, phase=False, metrics=False, conditions=cond)
+        b = bands(e.gain_db)
+        f = e.freqs_hz
+        p = self.band_plot
+        p.clear()
+        outer_lo = p.plot(f, b.low, pen=pg.mkPen("#56B4E9"))
+        outer_hi = p.plot(f, b.high, pen=pg.mkPen("#56B4E9"))
+        p.addItem(pg.FillBetweenItem(outer_lo, outer_hi, brush=pg.mkBrush(86, 180, 233, 60)))
+        p.plot(f, b.inner_low, pen=pg.mkPen("#0072B2"))
+        p.plot(f, b.inner_high, pen=pg.mkPen("#0072B2"))
+        passed = int(np.count_nonzero(e.passed))
+        self.band_note.setText(f"{n:,} boards at {t:g} °C: {100 * b.share:g} % band (dark) and min to max (light); "
+                               f"{passed:,} of them meet the mask at this temperature")
