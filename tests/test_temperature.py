@@ -333,3 +333,34 @@ def test_report_has_the_temperature_section_with_the_same_numbers():
         assert f"{100 * p.yield_.estimate:.2f} %" in html
     plain = analyze(design_from_dict(_rc_design(r, c, {"samples": 300}, mask)), curves=FIGURE_BOARDS)
     assert 'id="temperature"' not in build_report(plain).html()
+
+
+def test_op_amp_gain_bandwidth_drifts_with_its_grade_and_moves_the_stage_table():
+    # The op-amp grades drift -1500 +- 500 ppm/K (assets/sources.md: from memory). A unity-gain
+    # Sallen-Key with exact passives and a slow op-amp: at 85 deg C each board's gain-bandwidth
+    # is its 25 deg C value times (1 + tc 60 K), tc within -2000..-1000 ppm/K; the stage
+    # table's Q at 85 deg C is the mean of the boards' Q evaluated there (scipy-free check:
+    # numpy mean of the same evaluation).
+    g = builtin_catalog()["OPAMP-GBW-50"]
+    assert (g.tempco_ppm, g.tempco_spread_ppm) == (-1500.0, 500.0)
+    spec = {
+        "format": "tolspread-design", "version": 2, "name": "sk",
+        "parts": [{"ref": "R1", "value": "10k", "grade": "EXACT"}, {"ref": "R2", "value": "10k", "grade": "EXACT"},
+                  {"ref": "C1", "value": "20n", "grade": "EXACT"}, {"ref": "C2", "value": "10n", "grade": "EXACT"},
+                  {"ref": "U1", "value": "100k", "grade": "OPAMP-GBW-50"}],
+        "stages": [{"topology": "sallen_key_lowpass", "options": {"gain": "unity"},
+                    "parts": {"R1": "R1", "R2": "R2", "C1": "C1", "C2": "C2", "U1": "U1"}}],
+        "analysis": {"samples": 400, "seed": 2, "f_start": 10, "f_stop": 1e5, "points": 200,
+                     "operating_range_c": [-40, 85]},
+    }
+    d = design_from_dict(spec)
+    cold = evaluate(d, samples=400, curves=False, conditions=Conditions(25.0, 25.0))
+    hot = evaluate(d, samples=400, curves=False, conditions=Conditions(85.0, 85.0))
+    ratio = hot.values[:, 4] / cold.values[:, 4]
+    assert np.all((ratio >= 1 - 2000e-6 * 60 - 1e-12) & (ratio <= 1 - 1000e-6 * 60 + 1e-12))
+    res = analyze(d)
+    at85 = res.temperature.points[-1]
+    assert at85.temperature_c == 85.0
+    assert at85.summaries["s1.q"].mean == pytest.approx(float(np.mean(hot.metrics["s1.q"])), rel=1e-12)
+    # a slower op-amp at 85 deg C: the stage's f0 falls below its 25 deg C value on average
+    assert at85.summaries["s1.f0_hz"].mean < res.temperature.points[1].summaries["s1.f0_hz"].mean
