@@ -26,6 +26,7 @@ from .topologies import Topology, build
 
 __all__ = [
     "HIGHLIGHT",
+    "PART_COLOUR",
     "Hotspot",
     "Schematic",
     "draw_topology",
@@ -41,6 +42,7 @@ __all__ = [
 ]
 
 HIGHLIGHT = "#D55E00"   # a selected part's colour (the window's error/selection orange)
+PART_COLOUR = "#0072B2"  # parts and their labels (the project's blue); wires and nodes black
 FONT_PT = 12.0          # label text size in points (the report's figures keep text >= 12 px)
 INCHES_PER_UNIT = 0.5   # schemdraw's scale: one drawing unit is 36 pt
 MARGIN = 0.8            # white space around the drawing, drawing units (labels never clipped)
@@ -120,7 +122,7 @@ class _Sheet:
 
     def _colour(self, role: str) -> str:
         ref = self.refs.get(role)
-        return HIGHLIGHT if self.highlight is not None and ref == self.highlight else "black"
+        return HIGHLIGHT if self.highlight is not None and ref == self.highlight else PART_COLOUR
 
     def _text(self, role: str) -> str:
         return "\n".join(self.labels.get(role, (role,)))
@@ -164,8 +166,8 @@ class _Sheet:
         return e
 
     def finish(self, title: str = "") -> Schematic:
-        svg = _plain_text(self.d.get_imagedata("svg").decode("utf-8"))
-        m = re.search(r'viewBox="([-\d.eE]+) ([-\d.eE]+) ([\d.eE]+) ([\d.eE]+)"', svg)
+        raw = self.d.get_imagedata("svg").decode("utf-8")
+        m = re.search(r'viewBox="([-\d.eE]+) ([-\d.eE]+) ([\d.eE]+) ([\d.eE]+)"', raw)
         x0, y0, w, h = (float(v) for v in m.groups())
         scale = 72.0 * INCHES_PER_UNIT
         spots = []
@@ -175,7 +177,7 @@ class _Sheet:
             b = e.get_bbox(transform=True, includetext=True)
             spots.append(Hotspot(ref, role, (b.xmin * scale - x0) / w, (-b.ymax * scale - y0) / h,
                                  (b.xmax * scale - x0) / w, (-b.ymin * scale - y0) / h))
-        return Schematic(svg, w, h, tuple(spots), title)
+        return Schematic(_tidy(raw, x0, y0, w, h), w, h, tuple(spots), title)
 
 
 SVG_NS = "http://www.w3.org/2000/svg"
@@ -184,34 +186,61 @@ SVG_NS = "http://www.w3.org/2000/svg"
 _BASELINE = {"central": 0.35, "middle": 0.35, "hanging": 0.8, "text-before-edge": 0.8}
 
 
-def _plain_text(svg: str) -> str:
-    """Each line of text its own ``<text>`` at its own baseline, without ``tspan`` or
-    ``dominant-baseline``: SVG Tiny renderers (Qt's) draw it as browsers draw the original."""
+def _tidy(svg: str, x0: float, y0: float, w: float, h: float) -> str:
+    """schemdraw's SVG in the form of the report's figures, drawn alike by browsers and by
+    Qt's SVG Tiny renderer: the view box from (0, 0) (every point moved by ``-x0, -y0``),
+    whole-number width and height, polylines instead of paths (schemdraw draws with moves
+    and lines only), and each line of text its own ``<text>`` at its own baseline (no
+    ``tspan``, no ``dominant-baseline``)."""
     import xml.etree.ElementTree as ET
 
     ET.register_namespace("", SVG_NS)
     ET.register_namespace("xlink", "http://www.w3.org/1999/xlink")
     root = ET.fromstring(svg)
-    for dim in ("width", "height"):  # whole numbers without a unit, as the report's figures
-        root.set(dim, str(round(float(root.get(dim, "0").removesuffix("pt")))))
+    root.set("viewBox", f"0 0 {w:.2f} {h:.2f}")
+    root.set("width", str(round(w)))
+    root.set("height", str(round(h)))
+
+    def xy(x: str, y: str) -> str:
+        return f"{float(x) - x0:.2f},{float(y) - y0:.2f}"
+
     for parent in list(root.iter()):
-        for i, t in reversed(list(enumerate(list(parent)))):
-            if t.tag != f"{{{SVG_NS}}}text":
-                continue
-            size = float(t.get("font-size", FONT_PT))
-            shift = _BASELINE.get(t.attrib.pop("dominant-baseline", ""), 0.0) * size
-            spans = [c for c in t if c.tag == f"{{{SVG_NS}}}tspan"]
-            if not spans:
-                t.set("y", f"{float(t.get('y', 0)) + shift:.2f}")
-                continue
-            parent.remove(t)
-            y = float(t.get("y", 0))
-            for k, span in enumerate(spans):
-                y += float(span.get("dy", 0))
-                line = ET.Element(t.tag, {**t.attrib, "x": span.get("x", t.get("x", "0")), "y": f"{y + shift:.2f}"})
-                line.text = span.text
-                parent.insert(i + k, line)
+        for i, el in reversed(list(enumerate(list(parent)))):
+            tag = el.tag.split("}")[-1]
+            if tag == "path":
+                parent.remove(el)
+                style = el.get("style", "").replace("stroke-dasharray:-;", "")
+                runs = [run.replace("L", " ").split() for run in el.get("d", "").split("M") if run.strip()]
+                for k, run in enumerate(runs):
+                    pts = " ".join(xy(*p.split(",")) for p in run)
+                    parent.insert(i + k, ET.Element(f"{{{SVG_NS}}}polyline", {"points": pts, "style": style}))
+            elif tag == "circle":
+                el.set("cx", f"{float(el.get('cx')) - x0:.2f}")
+                el.set("cy", f"{float(el.get('cy')) - y0:.2f}")
+            elif tag == "text":
+                parent.remove(el)
+                for k, line in enumerate(_text_lines(el, x0, y0)):
+                    parent.insert(i + k, line)
     return ET.tostring(root, encoding="unicode")
+
+
+def _text_lines(t, x0: float, y0: float) -> list:
+    """One ``<text>`` per line of ``t`` (its ``tspan`` lines, or itself), at its baseline."""
+    import xml.etree.ElementTree as ET
+
+    size = float(t.get("font-size", FONT_PT))
+    shift = _BASELINE.get(t.attrib.pop("dominant-baseline", ""), 0.0) * size
+    spans = [c for c in t if c.tag == f"{{{SVG_NS}}}tspan"] or [t]
+    y = float(t.get("y", 0))
+    out = []
+    for span in spans:
+        if span is not t:
+            y += float(span.get("dy", 0))
+        x = float(span.get("x", t.get("x", "0")))
+        line = ET.Element(t.tag, {**t.attrib, "x": f"{x - x0:.2f}", "y": f"{y + shift - y0:.2f}"})
+        line.text = span.text
+        out.append(line)
+    return out
 
 
 # --- layouts -----------------------------------------------------------------------------

@@ -3,6 +3,7 @@ layout give valid SVG (parsed by the standard library's xml.etree) naming every 
 the boxes recorded while drawing find the part a click lands on."""
 from __future__ import annotations
 
+import re
 import subprocess
 import sys
 import xml.etree.ElementTree as ET
@@ -162,3 +163,18 @@ def test_report_figures_follow_the_figure_rules():
         assert "clipPath" not in svg and "pattern" not in svg
         assert all(float(t.get("font-size")) >= 12 for t in root.iter(f"{SVG_NS}text"))
         assert "Stage" in caption
+
+
+def test_report_has_a_schematic_of_every_stage():
+    """The HTML report's Schematics section holds each stage's drawing inline, naming every
+    part (the figure rules themselves are checked for every figure by tests/test_report.py)."""
+    from tolspread.analysis import analyze
+    from tolspread.report import build_report
+
+    design = load_demo()
+    html = build_report(analyze(design, samples=200, curves=50)).html()
+    start = html.index('<h2 id="schematics">')
+    body = html[start:html.index("<h2 ", start + 1)]
+    assert body.count("<svg") == len(design.stages)
+    shown = {w for chunk in re.findall(r"<text[^>]*>([^<]*)</text>", body) for w in chunk.split()}
+    assert {p.ref for p in design.parts} <= shown

@@ -23,6 +23,7 @@ from .numbers import format_count, format_pct
 from .review import assumptions_section, parts_section, recommendation_section
 from .sections import (budget_section, corners_section, design_section, failures_section, mask_section,
                        spread_section, yield_section)
+from .schematics import schematics_section
 from .temperature import has_temperature, temperature_section
 from .words import describe_design
 
@@ -62,6 +63,7 @@ class Section:
 #: Every section, in the order the report prints them.
 SECTIONS: list[Section] = [
     Section("design", "Design", design_section),
+    Section("schematics", "Schematics", schematics_section),
     Section("mask", "Spec mask", mask_section),
     Section("spread", "Spread of the response", spread_section),
     Section("yield", "Yield", yield_section),
