@@ -209,8 +209,8 @@ def test_random_circuits_against_the_independent_solver():
 def test_twin_t_notch_at_one_over_2_pi_r_c():
     # A balanced twin-T (R, R, R/2 and C, C, 2C) unloaded (a follower after it) has
     # H(s) = (s^2 + w0^2) / (s^2 + 4 w0 s + w0^2), w0 = 1 / (R C): a zero on the axis at
-    # f = 1 / (2 pi R C) (the classic twin-T closed form; REFERENCES.md section 1 lists
-    # the active-filter texts that give it). 2C is two parallel C parts.
+    # f = 1 / (2 pi R C) (the twin-T closed form, REFERENCES.md section 6, from memory and
+    # re-derived by nodal analysis). 2C is two parallel C parts.
     r, c = 10e3, 100e-9
     parts = [("R1", "R", r), ("R2", "R", r), ("R3", "R", r / 2), ("C1", "C", c), ("C2", "C", c),
              ("C3", "C", c), ("C4", "C", c)]
