@@ -88,8 +88,11 @@ class WindowExports:
 
         rec, curve, searched = recommendation_for(design, w.recommend_dialog)
 
+        view = w.session.last_view  # the boards already evaluated, if they are this design's
+
         def job(progress, should_stop):
-            return window_report(design, rec, curve, searched, progress=progress, should_stop=should_stop)
+            return window_report(design, rec, curve, searched, view=view, progress=progress,
+                                 should_stop=should_stop)
 
         def done(report) -> None:
             try:

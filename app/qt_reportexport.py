@@ -70,17 +70,36 @@ def recommendation_for(design: Design, dialog: Any) -> tuple[Any, Any, Design | 
     return None, None, None
 
 
+def shown_result(design: Design, view: Any) -> Any:
+    """The analysis behind the window's ``view`` (a :class:`filters.liveview.ViewData`) when
+    it is every board of ``design`` as it is (not a preview, no what-if tolerances), else
+    None: the report can then be built from the boards the window already evaluated."""
+    result = getattr(view, "result", None)
+    if result is None or view.preview or view.design != design:
+        return None
+    if tuple(result.ensemble.grades) != design.part_grades() or result.samples != design.analysis.samples:
+        return None
+    return result
+
+
 def window_report(design: Design, rec: Any = None, curve: Any = None, searched: Design | None = None, *,
+                  view: Any = None,
                   progress: Callable[[int, int], None] | None = None,
                   should_stop: Callable[[], bool] | None = None) -> Report:
-    """The report of ``design`` (analysed as the command line does), with the parts list of
+    """The report of ``design`` (the numbers the command line gives), with the parts list of
     its own grades and, when given, the recommendation ``rec`` found from ``searched`` and
-    its cost-yield ``curve``."""
-    from ..analysis import analyze
+    its cost-yield ``curve``. When ``view`` (the window's last :class:`ViewData`) shows every
+    board of ``design``, its analysis is completed (corners; the figure's first boards) and
+    no board is evaluated again; otherwise the design is analysed."""
+    from ..analysis import analyze, completed
     from ..recommend import parts_list_rows, worst_margin_metric
     from ..report import FIGURE_BOARDS, build_report
 
-    result = analyze(design, curves=FIGURE_BOARDS, progress=progress, should_stop=should_stop)
+    shown = shown_result(design, view)
+    if shown is not None:
+        result = completed(shown, curves=FIGURE_BOARDS)
+    else:
+        result = analyze(design, curves=FIGURE_BOARDS, progress=progress, should_stop=should_stop)
     rows = parts_list_rows(design, None, result.budget, metric=worst_margin_metric(result.ensemble))
     return build_report(result, recommendation=rec, curve=curve or None, parts_rows=rows,
                         current=searched)

@@ -26,7 +26,7 @@ from .grades import Grade
 from .memory import BoardStore, check_boards
 from .stats import SpanFailures, YieldEstimate, adaptive_yield, failure_breakdown, yield_estimate
 from .summary import MetricSummary, summarize
-from .temperature import OverTemperature, ServiceLife, judge_over_range, judge_service_life
+from .temperature import OverTemperature, ServiceLife, judge_over_range, judge_service_life, passed_over_range
 
 __all__ = [
     "SecondQuantity",
@@ -34,6 +34,7 @@ __all__ = [
     "AnalysisResult",
     "yield_of",
     "analyze",
+    "completed",
 ]
 
 #: The quantity drawn beside the gain: phase (deg) or group delay (s).
@@ -61,6 +62,14 @@ class Curves:
     @property
     def boards(self) -> int:
         return int(self.gain_db.shape[0])
+
+    def first(self, n: int) -> "Curves":
+        """The curves of the first ``n`` of these boards, with their own bands (no board is
+        evaluated: the rows are sliced and their quantiles taken)."""
+        if n >= self.boards:
+            return self
+        g, s2 = self.gain_db[:n], self.second[:n]
+        return Curves(self.second_kind, self.freqs_hz, g, s2, self.passed[:n], bands(g), bands(s2), self.start)
 
 
 @dataclass(frozen=True)
@@ -213,6 +222,9 @@ def analyze(design: Design, *, samples: int | None = None, seed: int | None = No
 
         def run_batch(start: int, stop: int) -> np.ndarray:
             passed = runner.into(store, start, stop)
+            over_range = passed_over_range(design, prep, grades, seed, method, start, stop, should_stop)
+            if over_range is not None:  # with a range the stopping rule reads the yield over it
+                passed = over_range
             if progress is not None:
                 progress(stop, max_samples)
             return passed
@@ -224,15 +236,36 @@ def analyze(design: Design, *, samples: int | None = None, seed: int | None = No
         ens = store.ensemble()
         _, spans = yield_of(ens, a.confidence, interval)
     over = judge_over_range(design, prep, ens, should_stop)
-    corner_ens = ens
     if over is not None:  # a board passes only if it meets the mask at every judged temperature
         ens = replace(ens, margins=over.worst_margins)
         est, spans = yield_of(ens, a.confidence, interval)
         history = history[:-1] + [est]
-        lo, hi = over.range_c  # corners: each part's extremes over the whole range
-        corner_ens = replace(ens, design=design.with_analysis(temp_low_c=lo, temp_high_c=hi))
     life = judge_service_life(design, prep, ens, est, should_stop)
     budget_result = spread_budget(ens, prep) if budget else {}
-    corner_result = corners(corner_ens, prep) if with_corners else None
+    corner_result = _corners(design, prep, ens, over) if with_corners else None
     return AnalysisResult(design, ens, prep, est, spans, budget_result, corner_result, history,
                           runner.curves(ens.passed), over, life)
+
+
+def _corners(design: Design, prep: Prepared, ens: Ensemble, over: OverTemperature | None) -> Corners:
+    """The corners of the run's boards; over a judged temperature range each part's
+    extremes over the whole range."""
+    if over is not None:
+        lo, hi = over.range_c
+        ens = replace(ens, design=design.with_analysis(temp_low_c=lo, temp_high_c=hi))
+    return corners(ens, prep)
+
+
+def completed(result: AnalysisResult, *, curves: int | None = None) -> AnalysisResult:
+    """``result`` with what a full :func:`analyze` has and it lacks, from its own boards:
+    the spread budget and the corners when it was run without them, and its curves cut to
+    the first ``curves`` boards (bands taken again). No sampled board is evaluated again
+    (the corners evaluate their corner designs only). Raises ValueError when ``curves`` is
+    asked of a result that kept none."""
+    if curves is not None and result.curves is None:
+        raise ValueError("this result kept no curves: analyze(design, ..., curves=N)")
+    ens, prep = result.ensemble, result.prepared
+    return replace(result,
+                   budget=result.budget or spread_budget(ens, prep),
+                   corners=result.corners or _corners(result.design, prep, ens, result.temperature),
+                   curves=result.curves if curves is None else result.curves.first(curves))  # type: ignore[union-attr]

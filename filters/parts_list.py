@@ -20,7 +20,8 @@ from .designfile import write_text_atomic
 from .errors import InputError
 from .evaluate import Ensemble
 from .metric_names import is_margin, margin_names, metric_label
-from .values import E_SERIES, PART_UNITS, format_value, series_for_tolerance, snap, tolerance_letter
+from .report.numbers import format_quantity
+from .values import E_SERIES, PART_UNITS, series_for_tolerance, snap, tolerance_letter
 
 if TYPE_CHECKING:
     from .recommend import Recommendation
@@ -103,12 +104,12 @@ def parts_list_rows(design: Design, recommendation: "Recommendation | None",
             series = smallest_series(p.value) or "none"
             if series == "none":
                 usual = series_for_tolerance(g.tolerance_pct)
-                nearest = (f"{format_value(float(snap(p.value, usual)), unit)} "
+                nearest = (f"{format_quantity(float(snap(p.value, usual)), unit)} "
                            f"({usual}, the series usual for \u00b1{g.tolerance_pct:g} %)")
         share = shares.get(p.ref)
         rows.append({
             "ref": p.ref,
-            "nominal value": format_value(p.value, unit),
+            "nominal value": format_quantity(p.value, unit),
             "series": series,
             "nearest preferred value": nearest,
             "grade": p.grade,

@@ -15,8 +15,9 @@ import math
 from typing import Sequence
 
 from ..mask import Span
-from ..metric_names import parse, unit as metric_unit
+from ..metric_names import is_log_metric, parse, unit as metric_unit
 from ..metrics import ATTENUATION_FLOOR_DB
+from ..summary import MetricSummary
 from ..values import format_value
 
 __all__ = [
@@ -28,14 +29,16 @@ __all__ = [
     "format_count",
     "format_cost",
     "format_sensitivity",
+    "summary_beyond_floor",
+    "summary_cells",
 ]
 
 
-def format_quantity(x: float | None, unit: str, signed: bool = True) -> str:
+def format_quantity(x: float | None, unit: str, signed: bool = True, digits: int | None = None) -> str:
     """``x`` for people in ``unit``: "Hz", "s" or any other SI unit (ohm, F, H...) in
-    engineering notation with 4 significant figures; "dB" with 3 decimals and "deg" with
-    2, signed unless ``signed`` is False (spreads); "" a plain number (4 significant
-    figures). None, NaN and infinities read "n/a"."""
+    engineering notation with ``digits`` significant figures (default 4, seconds 3); "dB"
+    with 3 decimals and "deg" with 2, signed unless ``signed`` is False (spreads); "" a
+    plain number (4 significant figures). None, NaN and infinities read "n/a"."""
     if x is None or not math.isfinite(x):
         return "n/a"
     sign = "+" if signed else ""
@@ -43,10 +46,8 @@ def format_quantity(x: float | None, unit: str, signed: bool = True) -> str:
         return f"{x:{sign}.3f} dB"
     if unit == "deg":
         return f"{x:{sign}.2f} deg"
-    if unit == "s":
-        return format_value(x, "s", digits=3)
     if unit:
-        return format_value(x, unit, digits=4)
+        return format_value(x, unit, digits=digits or (3 if unit == "s" else 4))
     return f"{x:.4g}"
 
 
@@ -100,3 +101,21 @@ def format_sensitivity(value: float, unit: str) -> str:
     if not math.isfinite(value):
         return "n/a"
     return f"{value:+.3g}" if unit == "ln/ln" else f"{value:+.3g} {html.escape(unit)}"
+
+
+def summary_beyond_floor(s: MetricSummary) -> bool:
+    """Whether some board has an attenuation ``s`` beyond :data:`filters.metrics.ATTENUATION_FLOOR_DB`."""
+    return beyond_floor(s.name, s.maximum)
+
+
+def summary_cells(s: MetricSummary, label: str, mask) -> list[str]:
+    """One row of the metric table (figures in the metric's unit; a margin's is its span's
+    in ``mask``): label, nominal, mean, std, std/mean, 1st and 99th percentile, min, max.
+    Attenuations beyond the floor of trust read "> 200 dB"."""
+    rel = f"{100 * s.rel_std:.2f} %" if is_log_metric(s.name) and math.isfinite(s.rel_std) else ""
+
+    def fig(x: float, signed: bool = True) -> str:
+        return format_metric_value(s.name, x, mask, signed)
+
+    std = "n/a" if summary_beyond_floor(s) else fig(s.std, signed=False)
+    return [label, fig(s.nominal), fig(s.mean), std, rel, fig(s.p01), fig(s.p99), fig(s.minimum), fig(s.maximum)]

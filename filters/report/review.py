@@ -12,11 +12,10 @@ from .. import __version__
 from ..bands import INNER
 from ..grades import Grade
 from ..sampling import REFERENCE_CELSIUS
-from ..values import format_value
 from .charts import svg_cost_yield
 from .context import Context
 from .document import esc, figure, table
-from .numbers import format_cost, format_count, format_pct
+from .numbers import format_cost, format_count, format_pct, format_quantity
 from .words import INTERVAL_NAMES, METHOD_NAMES, describe_distribution, drift_text, opamp_text, tempco_text
 
 __all__ = [
@@ -203,8 +202,8 @@ def assumptions(ctx: Context) -> list[str]:
     items.append(f"Yield interval: two-sided {y.confidence * 100:g} % "
                  f"{esc(INTERVAL_NAMES.get(y.method, y.method))}; a board passes when it meets every span.")
     f = result.prepared.freqs_hz
-    items.append(f"Frequency grid: {format_count(f.size)} points from {format_value(a.f_start, 'Hz', digits=4)} to "
-                 f"{format_value(a.f_stop, 'Hz', digits=4)} ({a.points} log-spaced points plus the mask edges). "
+    items.append(f"Frequency grid: {format_count(f.size)} points from {format_quantity(a.f_start, 'Hz')} to "
+                 f"{format_quantity(a.f_stop, 'Hz')} ({a.points} log-spaced points plus the mask edges). "
                  "Each span is checked at its edges and at every grid point between them: the worst point of a "
                  "span is found on the grid, so a narrow excursion between grid points can be missed.")
     items.append(esc(f"Cutoff: where the gain falls {a.cutoff_db:g} dB below each board's own passband gain "

@@ -13,11 +13,10 @@ from .. import metric_names
 from ..analysis import AnalysisResult
 from ..mask import Span
 from ..metric_names import MATCH_WORDS, SPAN_UNIT, is_margin, is_pair_metric, margin_name, metric_label
-from ..values import format_value
 from .charts import svg_bar_chart, svg_histogram, svg_spread_plot
 from .context import Context
 from .document import esc, figure, table
-from .numbers import format_count, format_metric, format_pct, format_sensitivity
+from .numbers import format_count, format_metric, format_pct, format_quantity, format_sensitivity, summary_cells
 from .words import (INTERVAL_NAMES, MATCH_NOTE, METHOD_NAMES, describe_distribution, drift_text, opamp_text,
                     tempco_text)
 
@@ -69,15 +68,15 @@ def mask_section(ctx: Context) -> str:
             unit = SPAN_UNIT[s.quantity]
             if s.kind == "match":  # a difference between channels
                 lim = f"{MATCH_WORDS[s.quantity]} at most " + (
-                    format_value(s.limit1, "s", digits=4) if s.quantity == "delay" else f"{s.limit1:g} {unit}")
+                    format_quantity(s.limit1, 's', digits=4) if s.quantity == "delay" else f"{s.limit1:g} {unit}")
             elif s.quantity == "delay":
-                lim = f"variation at most {format_value(s.limit1, 's', digits=4)}"
+                lim = f"variation at most {format_quantity(s.limit1, 's', digits=4)}"
             else:
                 lim = f"{s.limit1:+g} {unit}" + (f" to {s.end_limit:+g} {unit}" if s.limit2 is not None
                                                   and s.limit2 != s.limit1 else "")
             rel = ("relative to the passband gain" if s.relative and s.quantity == "gain" else "absolute")
-            rows.append([esc(s.label), esc(s.quantity), esc(s.kind), format_value(s.f1, "Hz", digits=4),
-                         format_value(s.f2, "Hz", digits=4), esc(lim), rel,
+            rows.append([esc(s.label), esc(s.quantity), esc(s.kind), format_quantity(s.f1, 'Hz'),
+                         format_quantity(s.f2, 'Hz'), esc(lim), rel,
                          format_metric(float(prep.nominal.margins[j]), unit)])
         add(table(["Span", "Quantity", "Kind", "From", "To", "Limit", "Reference", "Nominal margin"], rows,
                    numeric=[3, 4, 7]))
@@ -115,7 +114,7 @@ def spread_section(ctx: Context) -> str:
                                               title="Passband detail", y_range=(ref_db + dlo, ref_db + dhi),
                                               x_range=xr, boards=sp.boards)
         add(figure("passband", "The same boards, zoomed to the spans near the passband gain."))
-    add(_metricstable(result, stage_names))
+    add(metrics_table(result, stage_names))
     hist_metric = next((n for n in ("cutoff_hz", "centre_hz") if n in result.summaries
                         and result.summaries[n].valid > 0), None)
     if hist_metric is not None:
@@ -282,7 +281,8 @@ def passband_zoom(design_mask: Sequence[Span], f_start: float, f_stop: float
     return (lo - pad, hi + pad), (max(f_start, f_lo), min(f_stop, f_hi * 2.0))
 
 
-def _metricstable(result: AnalysisResult, stage_names: list[str]) -> str:
+def metrics_table(result: AnalysisResult, stage_names: list[str]) -> str:
+    """The metrics over all boards (the terminal's rows: :func:`filters.report.numbers.summary_cells`)."""
     order = [n for n in ("cutoff_hz", "centre_hz", "bandwidth_hz", "lower_hz", "upper_hz", "reference_db",
                          "peaking_db") if n in result.summaries]
     order += [n for n in result.summaries if n not in order and not is_pair_metric(n)]
@@ -291,11 +291,7 @@ def _metricstable(result: AnalysisResult, stage_names: list[str]) -> str:
     notes = []
     for n in order:
         s = result.summaries[n]
-        u = metric_names.unit(n, mask)
-        rel = f"{100 * s.rel_std:.2f} %" if metric_names.is_log_metric(n) and math.isfinite(s.rel_std) else ""
-        rows.append([esc(metric_label(n, stage_names, mask)),
-                     *(format_metric(x, u) for x in (s.nominal, s.mean)), format_metric(s.std, u, False), rel,
-                     *(format_metric(x, u) for x in (s.p01, s.p99, s.minimum, s.maximum))])
+        rows.append([esc(c) for c in summary_cells(s, metric_label(n, stage_names, mask), mask)])
         if s.valid < result.samples:
             notes.append(f"{esc(metric_label(n, stage_names, mask))} is outside the analysed range on "
                          f"{format_count(result.samples - s.valid)} board(s); they are left out of its statistics.")

@@ -12,8 +12,7 @@ from ..metric_names import SPAN_UNIT, is_margin, is_pair_metric, metric_label
 from ..metrics import ATTENUATION_FLOOR_DB
 from ..summary import MetricSummary
 from ..temperature_text import temperature_json, temperature_tables
-from ..values import format_value
-from .numbers import beyond_floor, format_metric, format_metric_value, format_pct
+from .numbers import format_metric, format_pct, format_quantity, summary_beyond_floor, summary_cells
 from .words import MATCH_NOTE
 
 __all__ = [
@@ -44,26 +43,6 @@ def table(headers: Sequence[str], rows: Sequence[Sequence[str]], align: str, ind
         return (indent + text).rstrip()
 
     return [line(headers)] + [line(r) for r in rows]
-
-
-def _beyond_floor(s: MetricSummary) -> bool:
-    """An attenuation some board has beyond :data:`ATTENUATION_FLOOR_DB`."""
-    return beyond_floor(s.name, s.maximum)
-
-
-def summary_cells(s: MetricSummary, label: str, mask) -> list[str]:
-    """One row of the metric table (figures in the metric's unit; a margin's is its span's
-    in ``mask``): label, nominal, mean, std, std/mean, 1st and 99th percentile, min, max.
-    Attenuations beyond the floor of trust read "> 200 dB"."""
-    rel = f"{100 * s.rel_std:.2f} %" if metric_names.is_log_metric(s.name) and math.isfinite(s.rel_std) else ""
-
-    def fig(x: float, signed: bool = True) -> str:
-        return format_metric_value(s.name, x, mask, signed)
-
-    std = "n/a" if _beyond_floor(s) else fig(s.std, signed=False)
-    return [label, fig(s.nominal), fig(s.mean), std, rel, fig(s.p01), fig(s.p99), fig(s.minimum), fig(s.maximum)]
-
-
 
 
 def _write(out: TextIO, lines: list[str]) -> None:
@@ -130,7 +109,7 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
         if s.valid < result.samples:
             out.write(f"  note: {metric_label(n, names)} is outside the analysed range for "
                       f"{result.samples - s.valid:,} board(s); they are left out of its statistics\n")
-    if any(_beyond_floor(result.summaries[n]) for n in order):
+    if any(summary_beyond_floor(result.summaries[n]) for n in order):
         out.write(f"  note: attenuations beyond {ATTENUATION_FLOOR_DB:g} dB are not figures to trust: float64 "
                   "rounding in the response leaves them unresolved, and a real board's leakage stops far "
                   "short of them (measure)\n")
@@ -181,8 +160,8 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
         out.write(opamp_table_text(result.opamps) + "\n")
         for r in result.opamps:
             if r.too_low:
-                out.write(f"  WARNING: {r.stage}: gain-bandwidth {format_value(r.gbw_hz or 0, 'Hz')} is below the "
-                          f"{format_value(r.required_gbw_hz, 'Hz')} this stage needs\n")
+                out.write(f"  WARNING: {r.stage}: gain-bandwidth {format_quantity(r.gbw_hz or 0, 'Hz')} is below the "
+                          f"{format_quantity(r.required_gbw_hz, 'Hz')} this stage needs\n")
     out.write(f"\n{CAUTION}\n")
 
 

@@ -8,7 +8,7 @@ from typing import Sequence
 from ..grades import Grade
 from ..mask import Span
 from ..metric_names import MATCH_WORDS, SPAN_UNIT
-from ..values import format_value
+from .numbers import format_quantity
 
 __all__ = [
     "INTERVAL_NAMES",
@@ -77,7 +77,7 @@ def opamp_text(d, stage, topo) -> str:
         if ref is not None:
             part = d.parts[d.part_index(ref)]
             out.append(f"op-amp {ref} (a part of the design), single-pole with gain-bandwidth "
-                       f"{format_value(part.value, 'Hz', digits=4)}")
+                       f"{format_quantity(part.value, 'Hz')}")
         elif stage.topology == "circuit":
             out.append(f"op-amp {role} ideal (infinite gain and bandwidth; no part models it)")
         else:
@@ -96,12 +96,12 @@ MATCH_NOTE = ("match spans have no corners (a corner board is one channel standi
 
 def span_words(s: Span) -> str:
     """One span of the mask in words, from its own limits (gain, phase or delay)."""
-    where = f"from {format_value(s.f1, 'Hz', digits=4)} to {format_value(s.f2, 'Hz', digits=4)}"
+    where = f"from {format_quantity(s.f1, 'Hz')} to {format_quantity(s.f2, 'Hz')}"
     if s.kind == "match":  # boards of several channels (filters/channels.py)
-        lim = format_value(s.limit1, "s", digits=4) if s.quantity == "delay" else f"{s.limit1:g} {SPAN_UNIT[s.quantity]}"
+        lim = format_quantity(s.limit1, 's', digits=4) if s.quantity == "delay" else f"{s.limit1:g} {SPAN_UNIT[s.quantity]}"
         return f"{s.label}: {MATCH_WORDS[s.quantity]} between any two channels at most {lim} {where}"
     if s.quantity == "delay":
-        return (f"{s.label}: group delay varies by at most {format_value(s.limit1, 's', digits=4)} {where}")
+        return (f"{s.label}: group delay varies by at most {format_quantity(s.limit1, 's', digits=4)} {where}")
     unit = SPAN_UNIT[s.quantity]
     lim = f"{s.limit1:+g} {unit}"
     if s.limit2 is not None and s.limit2 != s.limit1:

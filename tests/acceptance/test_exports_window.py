@@ -227,3 +227,44 @@ def test_svg_export_holds_every_visible_plot_and_renders_alike(window, qtbot, an
         k = min(a.size, b.size)
         assert (a[:k] == b[:k]).mean() > 0.9
     no_error_shown(shown)
+
+
+def _section(doc: str, anchor: str) -> str:
+    start = doc.index(f'<h2 id="{anchor}">')
+    end = doc.find("<h2 ", start + 1)
+    return doc[start:end if end > 0 else len(doc)]
+
+
+def test_report_from_the_window_reuses_its_boards_and_matches_the_command_line(
+        window, qtbot, answers, shown, tmp_path, monkeypatch):
+    """Design > Export report (HTML) after the window has shown every board of the demo:
+    no sampled board is evaluated again (the calls to the evaluation entry are counted),
+    and the yield, failures, spread figure, budget and corners read as the command line's
+    own report of the same design (``tolspread analyze --report``, a process of its own)."""
+    import sys
+
+    import tolspread.evaluate as ev
+
+    from .conftest import run_cli, wait_idle
+
+    wait_idle(qtbot, window)
+    calls = []
+    original = ev.evaluate
+
+    def counting(design, **kw):
+        calls.append(kw.get("samples"))
+        return original(design, **kw)
+
+    for mod in list(sys.modules.values()):
+        if getattr(mod, "__name__", "").startswith("tolspread") and getattr(mod, "evaluate", None) is original:
+            monkeypatch.setattr(mod, "evaluate", counting)
+    doc = export_report_html(window, qtbot, answers, tmp_path / "window.html")
+    monkeypatch.undo()
+    assert calls == []
+    no_error_shown(shown)
+    cli_out = tmp_path / "cli.html"
+    run = run_cli("analyze", "--report", cli_out)
+    assert run.returncode == 0, run.stderr
+    cli_doc = cli_out.read_text(encoding="utf-8")
+    for anchor in ("spread", "yield", "failures", "budget", "corners"):
+        assert _section(doc, anchor) == _section(cli_doc, anchor), anchor
