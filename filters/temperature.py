@@ -36,6 +36,7 @@ __all__ = [
     "judge_over_range",
     "judge_service_life",
     "nominal_at",
+    "passed_over_range",
 ]
 
 # per-temperature metric summaries kept for the f0/Q shift table and the cutoff over temperature
@@ -180,3 +181,22 @@ def judge_service_life(design: Any, prep: Any, ens: Any, delivery: YieldEstimate
         points, passed = [], e.passed
     after = yield_estimate(passed, None, a.confidence, a.interval)
     return ServiceLife(a.service_hours, a.service_temp_c, delivery, after, tuple(points))
+
+
+def passed_over_range(design: Any, prep: Any, grades: Any, seed: int | None, method: str | None, start: int,
+                      stop: int, should_stop: Callable[[], bool] | None = None) -> np.ndarray | None:
+    """Whether boards ``[start, stop)`` meet the mask at every judged temperature, shape
+    (stop - start,), judged without metrics (what an adaptive run's stopping rule reads);
+    None without an operating range."""
+    from .evaluate import evaluate
+
+    temps = judged_temperatures(design.analysis)
+    if not temps:
+        return None
+    ok = np.ones(stop - start, dtype=bool)
+    for t in temps:
+        cond = Conditions(t, t, design.analysis.lot_share)
+        e = evaluate(design, samples=stop - start, start=start, seed=seed, method=method, grades=grades,
+                     curves=False, metrics=False, prepared=prep, conditions=cond, should_stop=should_stop)
+        ok &= e.passed
+    return ok

@@ -364,3 +364,19 @@ def test_op_amp_gain_bandwidth_drifts_with_its_grade_and_moves_the_stage_table()
     assert at85.summaries["s1.q"].mean == pytest.approx(float(np.mean(hot.metrics["s1.q"])), rel=1e-12)
     # a slower op-amp at 85 deg C: the stage's f0 falls below its 25 deg C value on average
     assert at85.summaries["s1.f0_hz"].mean < res.temperature.points[1].summaries["s1.f0_hz"].mean
+
+
+def test_an_adaptive_run_stops_on_the_yield_over_the_range():
+    # --half-width adds boards until the interval of the yield it reports is narrow enough;
+    # with a range that yield is the one over the range (here about 77 % against 97 % at
+    # 25 deg C: C1 +1000 ppm/K, 6 % normal tolerance, the closed form of the per-temperature
+    # test above), whose Wilson interval needs about 1,700 boards for +-2 points.
+    r = {"name": "r0", "kind": "R", "tolerance_pct": 0}
+    c = {"name": "c-hot", "kind": "C", "tolerance_pct": 6, "truncate": False, "tempco_ppm": 1000}
+    mask = [{"name": "corner", "quantity": "gain", "kind": "floor", "f1": 10, "f2": 1500, "limit1": -3}]
+    d = design_from_dict(_rc_design(r, c, {"operating_range_c": [-20, 60]}, mask))
+    res = analyze(d, samples=200, half_width=0.02, max_samples=20_000)
+    assert res.yield_.half_width <= 0.02 + 1e-12
+    assert res.yield_.passed == res.temperature.overall.passed
+    assert res.history[-1] == res.yield_
+    assert 0.7 < res.yield_.estimate < 0.85
