@@ -96,6 +96,7 @@ class ResultsPanel(QWidget):
         self.chooser.activated.connect(lambda _i: self._on_metric_chosen())
         self.view: ViewData | None = None
         self.metric_name = "cutoff_hz"
+        self.highlighted: str | None = None  # the part chosen in the circuit view
 
     def sizeHint(self):  # noqa: N802 - Qt override
         from PySide6.QtCore import QSize
@@ -212,13 +213,16 @@ class ResultsPanel(QWidget):
             self.budget_plot.getAxis("left").setTicks([])  # no part names left from another metric
             self.budget_plot.setXRange(0, 100, padding=0)
             return
-        self.budget_plot.setTitle("")
+        chosen = next((e for e in b.entries if e.ref == self.highlighted), None)
+        self.budget_plot.setTitle("" if chosen is None else
+                                  f"<span style='color:{st.VERMILION}'>{chosen.ref}: {100 * chosen.share:.3g} %</span>")
         entries = [e for e in b.entries if e.share > 0][:10]
         labels = [e.ref for e in entries] + (["unexplained"] if b.remainder > 0.005 else [])
         shares = [100 * e.share for e in entries] + ([100 * b.remainder] if b.remainder > 0.005 else [])
         ys = np.arange(len(shares))[::-1]
         if shares:
-            brushes = [st.rgba(st.BLUE, 200)] * len(entries) + [st.rgba("#888888", 160)] * (len(shares) - len(entries))
+            brushes = ([st.rgba(st.VERMILION if e.ref == self.highlighted else st.BLUE, 200) for e in entries]
+                       + [st.rgba("#888888", 160)] * (len(shares) - len(entries)))
             self.budget_plot.addItem(pg.BarGraphItem(x0=0, y=ys, height=0.7, width=shares, brushes=brushes,
                                                      pen=None))
             ax = self.budget_plot.getAxis("left")
@@ -238,6 +242,13 @@ class ResultsPanel(QWidget):
         else:
             axis.setScale(1.0)
             axis.setLabel(f"{base} ({unit})" if unit else base)
+
+    def highlight_part(self, ref: str | None) -> None:
+        """Draw part ``ref``'s bar of the spread budget in the highlight colour, its share in
+        the budget's title (a part chosen in the circuit view); None clears it."""
+        self.highlighted = ref
+        if self.view is not None:
+            self._draw_metric()
 
     def show_message(self, text: str) -> None:
         self.yield_label.setText(f"<span style='color:{st.VERMILION}'><b>{text}</b></span>")

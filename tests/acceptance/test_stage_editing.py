@@ -161,6 +161,16 @@ def test_click_a_part_in_the_schematic_selects_it(window, qtbot):
     assert "#D55E00" in window.parts.rows["C2"].label.styleSheet()
     assert window.circuit_view.selected == "C2"
     assert "C2" in window.status_text.text()
+    # the spread budget: C2's bar in the highlight colour, the others blue, its share in the title
+    import pyqtgraph as pg
+
+    plot = window.results.budget_plot
+    bars = [i for i in plot.getPlotItem().items if isinstance(i, pg.BarGraphItem)][0]
+    ticks = dict((lab, y) for y, lab in plot.getAxis("left")._tickLevels[0])
+    colours = {lab: pg.mkBrush(bars.opts["brushes"][list(bars.opts["y"]).index(y)]).color().name()
+               for lab, y in ticks.items() if lab != "unexplained"}
+    assert colours["C2"] == "#d55e00" and {c for lab, c in colours.items() if lab != "C2"} == {"#0072b2"}
+    assert "C2" in plot.getPlotItem().titleLabel.text
 
 
 def test_add_move_and_remove_stages(window, qtbot):
