@@ -25,6 +25,7 @@ from .evaluate import Ensemble, Prepared, evaluate
 from .grades import Grade
 from .metric_names import margin_names
 from .stats import lower_bound
+from .temperature import judged_ensemble
 
 __all__ = [
     "FRESH_SEED_OFFSET",
@@ -116,8 +117,10 @@ class Evaluator:
         self._check_stop()
         # pass/fail and margins are all a candidate needs (the shares read span margins); the
         # metrics only without a mask (the shares then fall back to the cutoff)
-        return evaluate(self.design, samples=samples, seed=seed, grades=grades, curves=False,
-                        metrics=not self.design.mask, prepared=self.prep, should_stop=self.should_stop)
+        ens = evaluate(self.design, samples=samples, seed=seed, grades=grades, curves=False,
+                       metrics=not self.design.mask, prepared=self.prep, should_stop=self.should_stop)
+        # with an operating range a board passes only at every judged temperature, as in analyze
+        return judged_ensemble(self.design, self.prep, ens, self.should_stop)
 
     def _candidate(self, grades: tuple[Grade, ...], ens: Ensemble) -> Candidate:
         k, n = int(np.count_nonzero(ens.passed)), ens.samples

@@ -37,6 +37,7 @@ __all__ = [
     "judge_service_life",
     "nominal_at",
     "passed_over_range",
+    "judged_ensemble",
 ]
 
 # per-temperature metric summaries kept for the f0/Q shift table and the cutoff over temperature
@@ -200,3 +201,14 @@ def passed_over_range(design: Any, prep: Any, grades: Any, seed: int | None, met
                      curves=False, metrics=False, prepared=prep, conditions=cond, should_stop=should_stop)
         ok &= e.passed
     return ok
+
+
+def judged_ensemble(design: Any, prep: Any, ens: Any, should_stop: Callable[[], bool] | None = None) -> Any:
+    """``ens`` judged over the design's operating range: its margins the smallest over the
+    judged temperatures (pass/fail only, no metrics), so ``passed`` means at every one;
+    ``ens`` itself without a range. What a grade search compares candidates by."""
+    temps = judged_temperatures(design.analysis)
+    if not temps:
+        return ens
+    _, worst = _points(design, prep, ens, temps, 0.0, REFERENCE_CELSIUS, should_stop, metrics=False)
+    return replace(ens, margins=worst)

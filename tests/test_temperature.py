@@ -380,3 +380,25 @@ def test_an_adaptive_run_stops_on_the_yield_over_the_range():
     assert res.yield_.passed == res.temperature.overall.passed
     assert res.history[-1] == res.yield_
     assert 0.7 < res.yield_.estimate < 0.85
+
+
+def test_the_grade_search_judges_candidates_over_the_range():
+    # With a range, the cheapest-grades search must count boards passing at every judged
+    # temperature, as the analysis does: its chosen set's count equals the analysis of the
+    # design with those grades on the same boards.
+    from tolspread.recommend import recommend
+
+    r = {"name": "r0", "kind": "R", "tolerance_pct": 0}
+    c = {"name": "c-hot", "kind": "C", "tolerance_pct": 2, "truncate": False, "tempco_ppm": 1000, "cost": 1}
+    c_cool = {"name": "c-cool", "kind": "C", "tolerance_pct": 2, "truncate": False, "tempco_ppm": 0, "cost": 2}
+    mask = [{"name": "corner", "quantity": "gain", "kind": "floor", "f1": 10, "f2": 1500, "limit1": -3}]
+    spec = _rc_design(r, c, {"operating_range_c": [-20, 60], "samples": 600}, mask)
+    spec["grades"].append(c_cool)
+    d = design_from_dict(spec)
+    rec = recommend(d, 0.9, samples=600, seed=4)
+    assert rec.chosen is not None
+    chosen = d
+    for part, name in zip(d.parts, rec.chosen.grades):
+        chosen = chosen.with_part(part.ref, grade=name)
+    res = analyze(chosen, samples=600, seed=4)
+    assert rec.chosen.passed == res.yield_.passed == res.temperature.overall.passed
