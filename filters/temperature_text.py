@@ -17,6 +17,8 @@ __all__ = [
     "Table",
     "temperature_tables",
     "temperature_json",
+    "physics_text",
+    "assumption_texts",
     "DEGREE",
 ]
 
@@ -121,4 +123,37 @@ def temperature_json(result: Any) -> dict[str, Any]:
         out["temperature"] = doc
     if result.life is not None:
         out["service_life"] = result.life.to_dict()
+    return out
+
+
+def physics_text(g: Any) -> str:
+    """A grade's temperature behaviour in words: a class II curve with its code's limit, or
+    the coefficient (ppm/K, with its spread); "" when it has neither."""
+    if g.temp_curve_pct:
+        lim = f", clipped to \u00b1{g.temp_limit_pct:g} %" if g.temp_limit_pct else ""
+        ends = ", ".join(f"{c:+g} % at {t:g} {DEGREE}" for t, c in (g.temp_curve_pct[0], g.temp_curve_pct[-1]))
+        return (f"a temperature curve ({ends}; scale \u00b1{100 * g.temp_curve_spread:g} % between parts{lim})")
+    return ""
+
+
+def assumption_texts(analysis: Any) -> list[str]:
+    """Plain sentences on the operating range and service life of ``analysis`` (for the
+    report's assumptions); empty when the design asks for neither."""
+    from .temperature_settings import judged_temperatures
+
+    out = []
+    temps = judged_temperatures(analysis)
+    if temps:
+        lo, hi = analysis.operating_range_c
+        out.append(f"Operating range {lo:g} to {hi:g} {DEGREE}: every board is judged at "
+                   + ", ".join(f"{t:g}" for t in temps) + f" {DEGREE} with its own parts (their temperature "
+                   "coefficients drawn once) and passes only if it meets the mask at every one; the stated yield "
+                   "is that of the boards passing at all of them. The metrics, bands and budget are those at the "
+                   "board temperature above. Corners take each part's extremes over the whole range.")
+    if analysis.service_hours:
+        out.append(f"Service life {analysis.service_hours:,.0f} h ({analysis.service_hours / HOURS_PER_YEAR:.3g} "
+                   f"years) at {analysis.service_temp_c:g} {DEGREE}: each part drifts by its grade's load-life "
+                   "rating scaled by sqrt(time) and an Arrhenius factor, in the direction of its own drift score; "
+                   "class II capacitors lose their ageing rate per decade of hours (assets/sources.md). The "
+                   "ratings are at rated power, so the figure is cautious for parts run well below it.")
     return out

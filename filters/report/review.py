@@ -12,6 +12,7 @@ from .. import __version__
 from ..bands import INNER
 from ..grades import Grade
 from ..sampling import REFERENCE_CELSIUS
+from ..temperature_text import assumption_texts, physics_text
 from .charts import svg_cost_yield
 from .context import Context
 from .document import esc, figure, table
@@ -175,7 +176,8 @@ def assumptions(ctx: Context) -> list[str]:
     for name, (g, refs, what_if) in by_grade.items():
         note = " (a what-if tolerance in place of the grade's own)" if what_if else ""
         items.append(f"Grade {esc(name)}{note} ({esc(', '.join(refs))}): \u00b1{g.tolerance_pct:g} %, "
-                     f"{esc(describe_distribution(g))}; temperature coefficient {esc(tempco_text(g))}"
+                     f"{esc(describe_distribution(g))}; temperature coefficient "
+                     f"{esc(physics_text(g) or tempco_text(g))}"
                      f"{' (spread uniform between parts)' if g.tempco_spread_ppm else ''}; drift {esc(drift_text(g))}"
                      f"{' (uniform)' if g.drift_pct else ''}; cost {g.cost:g}"
                      f"{' (' + esc(g.technology) + ')' if g.technology else ''}.")
@@ -191,6 +193,7 @@ def assumptions(ctx: Context) -> list[str]:
              f"per board; marked values hold at the reference {REFERENCE_CELSIUS:g} \u00b0C and change by the "
              "temperature coefficient times the difference.")
     items.append(esc(t))
+    items += [esc(x) for x in assumption_texts(a)]  # operating range and service life, when asked
     if a.lot_share > 0:
         items.append(esc(f"Lot share {a.lot_share:g}: that fraction of a part's value variance is shared by the "
                          "parts of the same marked value and grade on one board (one reel)."))
