@@ -331,6 +331,8 @@ def test_report_has_the_temperature_section_with_the_same_numbers():
     assert 'id="temperature"' in html
     for p in res.temperature.points:
         assert f"{100 * p.yield_.estimate:.2f} %" in html
+    # the assumptions say what the yield means over the range (filters/temperature_text.py)
+    assert "Operating range -20 to 70 \u00b0C: every board is judged at -20, 25, 70 \u00b0C" in html
     plain = analyze(design_from_dict(_rc_design(r, c, {"samples": 300}, mask)), curves=FIGURE_BOARDS)
     assert 'id="temperature"' not in build_report(plain).html()
 
