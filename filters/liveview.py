@@ -14,7 +14,7 @@ from typing import Callable
 
 import numpy as np
 
-from .analysis import AnalysisResult, SecondQuantity, analyze
+from .analysis import AnalysisResult, Curves, SecondQuantity, analyze
 from .bands import Bands, pick_rows
 from .budget import Budget, metric_columns
 from .design import Design
@@ -49,34 +49,77 @@ class ViewRequest:
 
 @dataclass(frozen=True)
 class ViewData:
-    """Everything the window draws for one request. Curves are (F,) arrays; traces
-    (K, F); ``metrics`` name -> (S,) including span margins as ``margin.<label>``."""
+    """What the window draws for one request, read from one analysis (``result``).
+
+    Its own fields are what only the window needs: the nominal curves (F,), a few sample
+    traces (K, F) of passing and failing boards, ``metrics`` name -> (S,) including span
+    margins as ``margin.<label>`` and their nominal values. The yield, failures, budget,
+    bands and board counts are the result's (properties below)."""
 
     generation: int
     design: Design
-    freqs_hz: np.ndarray
     second: SecondQuantity
     nominal_gain_db: np.ndarray
     nominal_second: np.ndarray
-    gain_bands: Bands
-    second_bands: Bands
     pass_traces_gain: np.ndarray
     pass_traces_second: np.ndarray
     fail_traces_gain: np.ndarray
     fail_traces_second: np.ndarray
-    yield_: YieldEstimate
-    spans: list[SpanFailures]
     metrics: dict[str, np.ndarray]
     nominal_metrics: dict[str, float]
-    budget: dict[str, Budget]
-    samples: int
-    seed: int
-    method: str
     elapsed_s: float
-    ensemble: Ensemble = field(repr=False, compare=False)
-    curve_boards: int = 0  # boards behind the bands and traces (all, or the first CURVE_LIMIT)
+    result: AnalysisResult = field(repr=False, compare=False)
     preview: bool = False  # only the first ViewRequest.boards boards (while a slider is dragged)
-    result: AnalysisResult | None = field(default=None, repr=False, compare=False)  # what all this was read from
+
+    @property
+    def ensemble(self) -> Ensemble:
+        return self.result.ensemble
+
+    @property
+    def freqs_hz(self) -> np.ndarray:
+        return self.result.ensemble.freqs_hz
+
+    @property
+    def yield_(self) -> YieldEstimate:
+        return self.result.yield_
+
+    @property
+    def spans(self) -> list[SpanFailures]:
+        return self.result.spans
+
+    @property
+    def budget(self) -> dict[str, Budget]:
+        return self.result.budget
+
+    @property
+    def samples(self) -> int:
+        return self.result.samples
+
+    @property
+    def seed(self) -> int:
+        return self.result.seed
+
+    @property
+    def method(self) -> str:
+        return self.result.ensemble.method
+
+    @property
+    def gain_bands(self) -> Bands:
+        return self._curves.gain_bands
+
+    @property
+    def second_bands(self) -> Bands:
+        return self._curves.second_bands
+
+    @property
+    def curve_boards(self) -> int:
+        """Boards behind the bands and traces (all, or the first :data:`CURVE_LIMIT`)."""
+        return self._curves.boards
+
+    @property
+    def _curves(self) -> Curves:
+        assert self.result.curves is not None
+        return self.result.curves
 
 
 def compute_view(req: ViewRequest, prepared: Prepared | None = None,
@@ -104,8 +147,6 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
     for j, s in enumerate(d.mask):
         nominal_metrics[margin_name(s)] = float(prep.nominal.margins[j])
     return ViewData(
-        req.generation, d, ens.freqs_hz, req.second, nom.gain_db[0],
-        np.asarray(nominal_second), drawn.gain_bands, drawn.second_bands,
+        req.generation, d, req.second, nom.gain_db[0], np.asarray(nominal_second),
         drawn.gain_db[pass_rows], drawn.second[pass_rows], drawn.gain_db[fail_rows], drawn.second[fail_rows],
-        result.yield_, result.spans, metric_columns(ens), nominal_metrics, result.budget, ens.samples,
-        ens.seed, ens.method, time.perf_counter() - t0, ens, drawn.boards, n < d.analysis.samples, result)
+        metric_columns(ens), nominal_metrics, time.perf_counter() - t0, result, n < d.analysis.samples)
