@@ -119,6 +119,7 @@ COVERAGE = {
     "new_from_response": "test_new_design_from_a_response",
     "edit_catalog": "test_grades_and_costs",
     "recommend": "test_find_cheapest_grades",
+    "temperature": "../test_temperature_window.py::test_range_set_in_the_dialog_is_judged_and_plotted",
     "report_html": "test_export_report_html",
     "report_pdf": "test_export_report_pdf",
     "show_phase": "test_phase_and_group_delay",
