@@ -30,14 +30,32 @@ def add_parser(sub) -> None:
     r.add_argument("--report", metavar="PATH", help="write the design-review report (HTML)")
     r.add_argument("--curve", action="store_true", help="also find the cheapest set for a range of targets")
     r.add_argument("-o", "--output", metavar="DESIGN", help="write the design with the chosen grades")
+    r.add_argument("--lock", action="append", default=[], metavar="REF",
+                   help="keep this part's grade (repeatable; or \"locked\": true on the part)")
+    r.add_argument("--forbid", action="append", default=[], metavar="REF=WORD",
+                   help="forbid a technology for one part, e.g. C1=X7R or C1=\"class II\" (repeatable)")
+    r.add_argument("--signal-path-forbid", action="append", default=[], metavar="WORD",
+                   help="forbid a technology for every capacitor the response depends on, e.g. \"class II\"")
+    r.add_argument("--allow-class-ii", action="store_true",
+                   help="do not warn about class II dielectrics in the signal path nor search without them")
+    r.add_argument("--boards", type=int, metavar="N",
+                   help="boards bought: with price tables in the catalog the cost is money per board at N")
+    r.add_argument("--compare", action="append", default=[], metavar="SET",
+                   help="also judge your own set on the same boards, e.g. \"R1=R-thin-0.5,C1=C-C0G-2\" "
+                        "(parts not named keep their grade; repeatable)")
 
 
 def run(args: argparse.Namespace) -> int:
+    from dataclasses import replace
+
     from ..analysis import analyze
+    from ..constraints import with_constraints
     from ..designfile import load, load_demo, save
+    from ..constraints import priced, unit_price
+    from ..grade_sets import class_ii_in_signal_path, parse_set
     from ..grades import load_catalog
     from ..parts_list import parts_list_rows, worst_margin_metric, write_parts_csv
-    from ..recommend import cost_yield_curve, recommend
+    from ..recommend import candidate_grades, cost_yield_curve, recommend
     from ..report import build_report, write_report
     from ..safeio import check_output_path
 
@@ -48,6 +66,11 @@ def run(args: argparse.Namespace) -> int:
     if not design.mask:
         raise InputError("the design has no spec mask, so there is no yield to meet; add spans first", "mask")
     catalog = load_catalog(args.catalog) if args.catalog else None
+    if catalog is not None:  # the catalog's grades join the design's, so sets can name them
+        design = replace(design, grades=tuple(design.grades) + tuple(catalog.grades))
+    design = with_constraints(design, lock=[x.strip() for x in args.lock], forbid=[_pair(x) for x in args.forbid],
+                              signal_path_forbid=args.signal_path_forbid, boards=args.boards)
+    own_sets = [(f"yours {k}", parse_set(design, text)) for k, text in enumerate(args.compare, start=1)]
 
     def progress(done: int, total: int) -> None:
         sys.stderr.write(f"\r  {done:,} grade sets tried")
@@ -62,17 +85,28 @@ def run(args: argparse.Namespace) -> int:
     out.write(f"{design.name or 'design'}\n")
     out.write(f"target: yield lower bound >= {pct(args.target_yield)} at {100 * args.confidence:g} % "
               f"confidence ({rec.search} search, {rec.evaluations:,} grade sets tried on the same boards)\n\n")
-    cat = catalog or design.catalog
+    cat = design.catalog
+    boards = design.purchase.boards
+    money = priced(candidate_grades(design), boards) is not None  # as the search counted
+    now_priced = priced([[cat[n]] for n in rec.current_grades if n in cat], boards)
+    now_cost = "no prices" if now_priced is None else f"{sum(g[0].cost for g in now_priced):.4g}"
+    unit = f"{design.purchase.currency or 'money'} per board at {boards:,} boards" if money else "relative cost"
     if rec.chosen is None:
         _explain_nothing(rec, args, out)
     else:
         c = rec.chosen
         rows = []
         for p, now, g in zip(design.parts, rec.current_grades, c.grades):
-            rows.append([p.ref, p.value_text, now, g, f"{cat[g].cost:.2f}", "changed" if g != now else ""])
-        for line in table(["part", "value", "current grade", "recommended", "cost", ""], rows, "<><<><"):
+            each = unit_price(cat[g], boards) if money else cat[g].cost
+            rows.append([p.ref, p.value_text, now, g, f"{each:.4g}" if money else f"{each:.2f}",
+                         "locked" if p.locked or p.measured is not None else ("changed" if g != now else "")])
+        for line in table(["part", "value", "current grade", "recommended", "unit price" if money else "cost", ""],
+                          rows, "<><<><"):
             out.write(line + "\n")
-        out.write(f"\n  total relative cost {c.cost:.2f} (current grades {rec.current_cost:.2f})\n")
+        if money:
+            out.write(f"\n  total {unit}: {c.cost:.4g} (current grades {now_cost})\n")
+        else:
+            out.write(f"\n  total relative cost {c.cost:.2f} (current grades {rec.current_cost:.2f})\n")
         out.write(f"  yield on the search boards {pct(c.estimate)}, lower bound {pct(c.lower)} "
                   f"({c.passed:,} of {c.samples:,})\n")
         if rec.verified is not None:
@@ -80,6 +114,22 @@ def run(args: argparse.Namespace) -> int:
             verdict = "holds" if rec.meets_on_fresh_seed else "does NOT hold"
             out.write(f"  check on fresh boards: yield {pct(v.estimate)}, lower bound {pct(v.lower)} "
                       f"({v.passed:,} of {v.samples:,}): the target {verdict}\n")
+        sets = [("current", tuple(rec.current_grades)), ("recommended", tuple(c.grades))]
+        suspects = [] if args.allow_class_ii else class_ii_in_signal_path(design, c.grades)
+        if suspects:
+            out.write(f"\n  Warning: {', '.join(suspects)} would get class II dielectrics, yet the response depends "
+                      "on them; common practice keeps class II ceramics (X7R, X5R ...) out of filter signal paths, "
+                      "as their value moves with temperature, DC bias and age. Searching without them ...\n")
+            alt = recommend(with_constraints(design, signal_path_forbid=["class II"]), args.target_yield,
+                            confidence=args.confidence, samples=args.samples, seed=args.seed)
+            if alt.chosen is None:
+                out.write("  No set without class II dielectrics in the signal path meets the target.\n")
+            else:
+                out.write(f"  The cheapest set without them costs {alt.chosen.cost:.4g} ({unit}); it is in the "
+                          "comparison below.\n")
+                sets.append(("no class II", tuple(alt.chosen.grades)))
+        sets += own_sets
+        _write_comparison(design, sets, args, unit, money, out)
     curve = None
     if args.curve:
         curve = cost_yield_curve(design, confidence=args.confidence, samples=args.samples, seed=args.seed,
@@ -104,10 +154,37 @@ def run(args: argparse.Namespace) -> int:
         if args.report:
             write_report(build_report(result, recommendation=rec, curve=curve, parts_rows=rows), args.report)
             out.write(f"wrote the report to {args.report}\n")
-    out.write("\nRelative costs come from the catalog (the built-in costs are invented demo figures). "
-              "The yield is an estimate under the grades' stated distributions; confirm it with measured "
+    out.write(f"\nPrices come from the catalog's price breaks at {boards:,} parts of each. " if money else
+              "\nRelative costs come from the catalog (the built-in costs are invented demo figures). ")
+    out.write("The yield is an estimate under the grades' stated distributions; confirm it with measured "
               "parts and qualified review.\n")
     return 0 if rec.chosen is not None else EXIT_NO_SET
+
+
+def _pair(text: str) -> tuple[str, str]:
+    ref, sep, word = (x.strip() for x in text.partition("="))
+    if not sep or not ref or not word:
+        raise InputError(f"write REF=WORD, e.g. C1=X7R, not {text!r}", "--forbid")
+    return ref, word
+
+
+def _write_comparison(design, sets, args: argparse.Namespace, unit: str, money: bool, out) -> None:
+    """The grade sets side by side on the same fresh boards (filters/grade_sets.py)."""
+    from ..grade_sets import compare_sets
+
+    results = compare_sets(design, sets, samples=args.samples, seed=args.seed, confidence=args.confidence)
+    out.write(f"\n  grade sets side by side ({results[0].yield_.samples:,} boards, the same for each; {unit})\n")
+    rows = []
+    for r in results:
+        cost = f"{r.money:.4g}" if money and r.money is not None else f"{r.cost:.2f}"
+        rows.append([r.label, cost, _pct(r.yield_.estimate), f"[{_pct(r.yield_.low)}, {_pct(r.yield_.high)}]",
+                     _pct(r.lower), "meets" if r.lower >= args.target_yield else "misses"])
+    for line in table(["set", "cost", "yield", f"{100 * args.confidence:g} % interval", "lower bound", "target"],
+                      rows, "<>>>><"):
+        out.write("  " + line + "\n")
+    for r in results[2:]:
+        changed = [f"{p.ref} {g}" for p, g, now in zip(design.parts, r.grades, results[0].grades) if g != now]
+        out.write(f"  {r.label}: {', '.join(changed) or 'as current'}\n")
 
 
 def _explain_nothing(rec, args: argparse.Namespace, out) -> None:

@@ -17,6 +17,7 @@ from .errors import InputError, ValidationError, is_finite_number, quoted
 from .channels import Channels, channels_from_dict, check_match_spans
 from .grades import Catalog, Grade, builtin_catalog, scaled
 from .measured import Measured, measured_from_dict, measured_grade
+from .constraints import Purchase, purchase_from_dict
 from .mask import Span
 from .metric_names import SPAN_UNIT, duplicate_label
 from .networks import Network, networks_from_dict
@@ -131,6 +132,7 @@ class Design:
     grades: tuple[Grade, ...] = ()
     networks: tuple[Network, ...] = ()  # resistor networks and matched pairs (filters/networks.py)
     channels: Channels = Channels()     # identical channels on one board (filters/channels.py)
+    purchase: Purchase = Purchase()     # boards bought, currency, signal-path limits (filters/constraints.py)
 
     @property
     def catalog(self) -> Catalog:
@@ -331,7 +333,7 @@ def design_from_dict(data: Any) -> Design:
     if not isinstance(data, dict):
         raise ValidationError([InputError("a design must be a JSON object", "")])
     known = {"format", "version", "name", "description", "parts", "stages", "analysis", "mask", "grades",
-             "networks", "channels"}
+             "networks", "channels", "purchase"}
     problems += [InputError(f"unknown field {k!r}", k) for k in data if k not in known]
     for k in ("name", "description"):
         if k in data and not isinstance(data[k], str):
@@ -460,6 +462,7 @@ def design_from_dict(data: Any) -> Design:
             problems.append(InputError(f"part {ref} is not in the parts list", where))
 
     networks = networks_from_dict(data.get("networks"), parts, problems)
+    purchase = purchase_from_dict(data.get("purchase"), problems)
     channels = channels_from_dict(data.get("channels"), parts, problems)
     analysis = analysis_from_dict(data.get("analysis"), problems)
     t_ends = (analysis.temp_low_c, analysis.temp_high_c) + (analysis.operating_range_c or ())
@@ -514,4 +517,4 @@ def design_from_dict(data: Any) -> Design:
     if problems:
         raise ValidationError(problems)
     return Design(tuple(parts), tuple(stages), analysis, tuple(mask), data.get("name", ""),
-                  data.get("description", ""), tuple(grades), networks, channels)
+                  data.get("description", ""), tuple(grades), networks, channels, purchase)

@@ -18,6 +18,7 @@ from typing import Any, Callable
 from .temperature_settings import settings_to_dict
 from .design import Design, design_from_dict
 from .errors import InputError, ValidationError
+from .constraints import purchase_to_dict
 from .measured import measured_to_dict
 from .stage import stage_to_dict
 from .values import format_value, parse_value
@@ -152,6 +153,9 @@ def design_to_dict(design: Design) -> dict[str, Any]:
         out["networks"] = [n.to_dict() for n in design.networks]
     if design.channels.count > 1:
         out["channels"] = design.channels.to_dict()
+    purchase = purchase_to_dict(design.purchase)
+    if purchase is not None:
+        out["purchase"] = purchase
     return out
 
 

@@ -89,6 +89,9 @@ class Grade:
     # A measured part's relative deviations (fractions), resampled instead of the distribution
     # (filters/measured.py); built for one part, never read from a catalog file.
     measured: tuple[float, ...] = ()
+    # Price breaks: (quantity, unit price) in rising quantity, in the design's purchase
+    # currency (filters/constraints.py); empty: only the relative ``cost`` is known.
+    prices: tuple[tuple[float, float], ...] = ()
     bias_v: float = 0.0                # the DC bias a part of this grade sits at (V; from the part)
 
     @property
@@ -107,6 +110,10 @@ class Grade:
             del out["measured"]
         else:
             out["measured"] = list(out["measured"])
+        if not out["prices"]:
+            del out["prices"]
+        else:
+            out["prices"] = [list(row) for row in out["prices"]]
         for k in PHYSICS_FIELDS:
             if out[k] == getattr(_PLAIN, k):
                 del out[k]
@@ -137,6 +144,7 @@ class Grade:
         args = {f.name: data.get(f.name, getattr(defaults, f.name)) for f in fields(Grade)}
         problems += _grade_problems(args, path)
         problems += _table_problems(args, path)
+        problems += _price_problems(args, path)
         if problems:
             raise ValidationError(problems)
         return Grade(**args)
@@ -146,6 +154,22 @@ PHYSICS_FIELDS = ("tolerance_pf", "tempco_by_value", "temp_curve_pct", "temp_cur
                   "temp_limit_pct", "bias_curve_pct", "life_drift_pct", "life_hours", "life_temp_c",
                   "activation_ev", "ageing_pct_per_decade", "bias_v")
 _TABLES = {"tempco_by_value": 3, "temp_curve_pct": 2, "bias_curve_pct": 2}  # columns per row
+
+
+def _price_problems(args: dict[str, Any], path: str) -> list[InputError]:
+    """Check a grade's price breaks: rows [quantity >= 1, unit price >= 0], rising quantity;
+    the table becomes a tuple of tuples in place."""
+    rows = args["prices"]
+    ok = isinstance(rows, (list, tuple)) and len(rows) <= 50 and all(
+        isinstance(r, (list, tuple)) and len(r) == 2 and all(is_finite_number(x) and not isinstance(x, bool) for x in r)
+        and r[0] >= 1 and r[1] >= 0 for r in rows)
+    if not ok:
+        return [InputError("must be a list of up to 50 rows [quantity >= 1, unit price >= 0]", f"{path}.prices")]
+    table = tuple((float(q), float(p)) for q, p in rows)
+    if any(b[0] <= a[0] for a, b in zip(table, table[1:])):
+        return [InputError("price breaks must be in rising order of quantity", f"{path}.prices")]
+    args["prices"] = table
+    return []
 
 
 def _table_problems(args: dict[str, Any], path: str) -> list[InputError]:

@@ -38,6 +38,7 @@ from typing import Any, Callable, Sequence
 
 import numpy as np
 
+from .constraints import allowed, priced, signal_path_capacitors
 from .design import MAX_SAMPLES, Design
 from .errors import InputError
 from .evaluate import Prepared, prepare
@@ -167,14 +168,25 @@ def candidate_grades(design: Design, catalog: Catalog | None = None) -> list[lis
     when a part has none."""
     cat = design.catalog if catalog is None else catalog
     a = design.analysis
-    out = []
-    for p in design.parts:
+    lists = []
+    own = design.part_grades()
+    signal = signal_path_capacitors(design) if design.purchase.signal_path_forbid else set()
+    for i, p in enumerate(design.parts):
+        if p.locked or p.measured is not None:  # constraints (filters/constraints.py): the grade stays
+            lists.append([own[i]])
+            continue
         gs = [g for g in cat.for_kind(p.kind) if g.tolerance_pct > 0]
         if not gs:
             raise InputError(f"no grade in the catalog fits part {p.ref} ({p.kind}) other than an "
                              "ideal one", "catalog")
-        out.append([g for g in gs if not any(_dominates(h, g, a.temp_low_c, a.temp_high_c) for h in gs)])
-    return out
+        ok = [g for g in gs if allowed(design, i, g, signal)]
+        if not ok:
+            raise InputError(f"every catalog grade for part {p.ref} is forbidden (forbid: "
+                             f"{', '.join(p.forbid + design.purchase.signal_path_forbid)})", f"parts[{i}].forbid")
+        lists.append(ok)
+    # with a purchase quantity and prices, costs are unit prices (before the dominance rule)
+    lists = priced(lists, design.purchase.boards) or lists
+    return [[g for g in gs if not any(_dominates(h, g, a.temp_low_c, a.temp_high_c) for h in gs)] for gs in lists]
 
 
 def _temperature_extent(g: Grade, t_low: float, t_high: float) -> float:
@@ -204,10 +216,14 @@ def boards_needed(target_yield: float, confidence: float = 0.95, method: str = "
 
 
 def current_cost(design: Design, catalog: Catalog | None = None) -> float:
-    """Total relative cost of the design's own grades, priced from ``catalog`` (default the
-    design's); a grade the catalog lacks counts at the design's own figure."""
+    """Total cost of the design's own grades, priced from ``catalog`` (default the design's);
+    a grade the catalog lacks counts at the design's own figure. With a purchase quantity and
+    prices for every grade it is money per board (:func:`filters.constraints.priced`), as the
+    search counts it; otherwise the catalog's relative cost."""
     cat = design.catalog if catalog is None else catalog
-    return math.fsum(cat[g.name].cost if g.name in cat else g.cost for g in design.part_grades())
+    grades = [[cat[g.name] if g.name in cat else g] for g in design.part_grades()]
+    grades = priced(grades, design.purchase.boards) or grades
+    return math.fsum(gs[0].cost for gs in grades)
 
 
 # --- public entry points -------------------------------------------------------------------
@@ -366,14 +382,19 @@ def _nothing_chosen(empty: Callable[..., Recommendation], note: str, ev: Evaluat
 def design_with_grades(design: Design, grades: Sequence[Grade]) -> Design:
     """``design`` with part i given ``grades[i]`` (what-if tolerances cleared). Grades the
     design's catalog lacks, or holds under the same name with other figures, are added to
-    the design's own grades so the design file stays self-contained."""
+    the design's own grades so the design file stays self-contained. A cost that differs
+    only because the search priced the grade at the purchase quantity is not a new grade;
+    locked and measured parts keep their grade."""
     cat = design.catalog
-    extra = {g.name: g for g in grades if g.name not in cat or cat[g.name] != g}
+    keep = [p.locked or p.measured is not None for p in design.parts]
+    extra = {g.name: g for g, k in zip(grades, keep)
+             if not k and (g.name not in cat or cat[g.name] != replace(g, cost=cat[g.name].cost))}
     out = design
     if extra:
         own = tuple(g for g in design.grades if g.name not in extra) + tuple(extra.values())
         out = replace(design, grades=own)
-    parts = tuple(replace(p, grade=g.name, tolerance_pct=None) for p, g in zip(design.parts, grades))
+    parts = tuple(p if k else replace(p, grade=g.name, tolerance_pct=None)
+                  for p, g, k in zip(design.parts, grades, keep))
     return replace(out, parts=parts)
 
 
