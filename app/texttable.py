@@ -1,7 +1,7 @@
-"""Plain-text tables for the terminal: :func:`filters.report.text.table` (kept importable
-here for the command-line modules)."""
+"""Plain-text tables for the terminal: :func:`filters.report.texttable.table` (kept
+importable here for the command-line modules)."""
 from __future__ import annotations
 
-from ..report.text import table
+from ..report.texttable import table
 
 __all__ = ["table"]

@@ -15,8 +15,6 @@ on first use, so ``import tolspread`` stays quick::
 """
 from __future__ import annotations
 
-import importlib
-from typing import Any
 
 __version__ = "0.1.0"
 
@@ -42,16 +40,6 @@ _PUBLIC: dict[str, tuple[str, str]] = {
 __all__ = ["__version__", *_PUBLIC]
 
 
-def __getattr__(name: str) -> Any:
-    """Import a public name's module on first use (PEP 562)."""
-    try:
-        module, attribute = _PUBLIC[name]
-    except KeyError:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}") from None
-    value = getattr(importlib.import_module(f".{module}", __name__), attribute)
-    globals()[name] = value
-    return value
+from .lazyimport import public_names  # noqa: E402 (after __version__, which the modules read)
 
-
-def __dir__() -> list[str]:
-    return sorted(set(globals()) | set(_PUBLIC))
+__getattr__, __dir__ = public_names(__name__, globals(), _PUBLIC)

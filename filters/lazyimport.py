@@ -10,10 +10,11 @@ from __future__ import annotations
 
 import importlib
 from types import ModuleType
-from typing import Any
+from typing import Any, Callable
 
 __all__ = [
     "LazyModule",
+    "public_names",
 ]
 
 
@@ -33,3 +34,24 @@ class LazyModule:
 
     def __repr__(self) -> str:
         return f"<module {self._name!r}, imported on first use>"
+
+
+def public_names(package: str, namespace: dict[str, Any], public: dict[str, tuple[str, str]]
+                 ) -> tuple[Callable[[str], Any], Callable[[], list[str]]]:
+    """A package's ``__getattr__`` and ``__dir__`` (PEP 562) that import each public name's
+    module on first use: ``public`` maps name -> (submodule, attribute); the value found is
+    kept in ``namespace`` (the package's ``globals()``), so the import happens once."""
+
+    def getattr_(name: str) -> Any:
+        try:
+            module, attribute = public[name]
+        except KeyError:
+            raise AttributeError(f"module {package!r} has no attribute {name!r}") from None
+        value = getattr(importlib.import_module(f".{module}", package), attribute)
+        namespace[name] = value
+        return value
+
+    def dir_() -> list[str]:
+        return sorted(set(namespace) | set(public))
+
+    return getattr_, dir_

@@ -7,40 +7,26 @@
 * :mod:`.document` - the HTML document: :class:`Report`, style sheets, tables, figures;
 * :mod:`.context`, :mod:`.sections`, :mod:`.review` - what each section writes;
 * :mod:`.build` - the table of sections (:data:`SECTIONS`) and :func:`build_report`;
-* :mod:`.text` - the terminal summary and the ``--json`` document of ``tolspread analyze``.
+* :mod:`.text` - the terminal summary and the ``--json`` document of ``tolspread analyze``
+  (its plain-text tables: :mod:`.texttable`).
 
 A report is built from one :func:`filters.analysis.analyze` result that kept curves
-(``curves=FIGURE_BOARDS``); nothing here evaluates a board.
+(``curves=FIGURE_BOARDS``); nothing here evaluates a board. The names below are imported on first use (the command
+line imports the light :mod:`.texttable` without the rest).
 """
 from __future__ import annotations
 
-from .build import CAUTION, FIGURE_BOARDS, SECTIONS, Section, build_report
-from .charts import MIN_FONT, SVG_NS, svg_bar_chart, svg_cost_yield, svg_histogram, svg_spread_plot
-from .context import Context
-from .document import PRINT_CSS, Report, write_report
-from .numbers import format_count, format_metric, format_pct, format_quantity
-from .words import describe_design, describe_distribution
+from ..lazyimport import public_names
 
-__all__ = [
-    "CAUTION",
-    "FIGURE_BOARDS",
-    "SECTIONS",
-    "Section",
-    "Context",
-    "Report",
-    "PRINT_CSS",
-    "build_report",
-    "write_report",
-    "format_quantity",
-    "format_metric",
-    "format_pct",
-    "format_count",
-    "describe_design",
-    "describe_distribution",
-    "MIN_FONT",
-    "SVG_NS",
-    "svg_spread_plot",
-    "svg_histogram",
-    "svg_bar_chart",
-    "svg_cost_yield",
-]
+#: public name -> (module, attribute)
+_PUBLIC: dict[str, tuple[str, str]] = {name: (module, name) for module, names in {
+    "build": ("CAUTION", "FIGURE_BOARDS", "SECTIONS", "Section", "build_report"),
+    "context": ("Context",),
+    "document": ("Report", "PRINT_CSS", "write_report"),
+    "numbers": ("format_quantity", "format_metric", "format_pct", "format_count"),
+    "words": ("describe_design", "describe_distribution"),
+    "charts": ("MIN_FONT", "SVG_NS", "svg_spread_plot", "svg_histogram", "svg_bar_chart", "svg_cost_yield"),
+}.items() for name in names}
+__all__ = list(_PUBLIC)
+
+__getattr__, __dir__ = public_names(__name__, globals(), _PUBLIC)

@@ -12,6 +12,7 @@ from ..metric_names import SPAN_UNIT, is_margin, is_pair_metric, metric_label
 from ..metrics import ATTENUATION_FLOOR_DB
 from ..summary import MetricSummary
 from ..temperature_text import temperature_json, temperature_tables
+from .texttable import table
 from .numbers import format_metric, format_pct, format_quantity, summary_beyond_floor, summary_cells
 from .words import MATCH_NOTE
 
@@ -26,23 +27,6 @@ __all__ = [
 
 CAUTION = ("The yield is an estimate under the grades' stated distributions (see README); "
            "confirm it by measuring real parts, follow the standards that apply, and have the design reviewed.")
-
-
-def table(headers: Sequence[str], rows: Sequence[Sequence[str]], align: str, indent: str = "  ",
-          gap: str = "  ") -> list[str]:
-    """Lines of a plain-text table (without newlines), every column as wide as its widest
-    cell, so long stage or span names never push the figures out of line. ``align`` holds
-    one character per column: ``<`` left (names), ``>`` right (numbers). Trailing spaces
-    are stripped."""
-    if len(align) != len(headers):
-        raise ValueError("one alignment character per column")
-    widths = [max([len(h)] + [len(r[i]) for r in rows]) for i, h in enumerate(headers)]
-
-    def line(cells: Sequence[str]) -> str:
-        text = gap.join(f"{c:{a}{w}}" for c, a, w in zip(cells, align, widths))
-        return (indent + text).rstrip()
-
-    return [line(headers)] + [line(r) for r in rows]
 
 
 def _write(out: TextIO, lines: list[str]) -> None:
