@@ -5,7 +5,7 @@ written by :func:`filters.report.build.build_report` from :data:`~filters.report
 Every number comes from the analysis result; nothing here evaluates a board."""
 from __future__ import annotations
 
-import math
+from typing import Sequence
 
 import numpy as np
 
