@@ -54,6 +54,9 @@ def build_parser() -> argparse.ArgumentParser:
                    help="also report the attenuation at this frequency (repeatable; SI text such as 6k)")
     a.add_argument("--qmc", action="store_true", help="quasi-Monte Carlo: scrambled Sobol points instead of random")
     a.add_argument("--interval", choices=("wilson", "exact"), help="yield interval: Wilson score or exact (Clopper-Pearson)")
+    a.add_argument("--rare", choices=("auto", "always", "off"), default="auto",
+                   help="high-yield estimate by importance sampling: auto (when fewer than 10 boards fail), "
+                        "always, or off (default auto)")
     a.add_argument("--report", metavar="PATH", help="also write the design-review report (HTML)")
     add_design_parser(sub)
     add_recommend_parser(sub)
@@ -105,7 +108,7 @@ def cmd_analyze(args: argparse.Namespace) -> int:
     # with --report the first boards keep their curves for its spread figure (evaluated once)
     result = analyze(design, samples=args.samples, seed=args.seed, method="sobol" if args.qmc else None,
                      interval=args.interval, half_width=args.half_width, max_samples=args.max_samples,
-                     curves=FIGURE_BOARDS if args.report else 0, progress=progress)
+                     curves=FIGURE_BOARDS if args.report else 0, rare=args.rare, progress=progress)
     if progress is not None and result.samples >= 50_000:
         sys.stderr.write("\n")
     if args.json != "-":

@@ -23,7 +23,9 @@ from .corners import Corners, corners
 from .design import Design
 from .evaluate import Ensemble, Prepared, evaluate, prepare
 from .grades import Grade
+from .errors import InputError
 from .memory import BoardStore, check_boards
+from .rare_failures import RARE_TRIGGER, RareEstimate, estimate_for, not_estimable
 from .stats import SpanFailures, YieldEstimate, adaptive_yield, failure_breakdown, yield_estimate
 from .summary import MetricSummary, summarize
 from .temperature import OverTemperature, ServiceLife, judge_over_range, judge_service_life, passed_over_range
@@ -90,6 +92,8 @@ class AnalysisResult:
     curves: Curves | None = None
     # judged over the operating range / after the service life (filters/temperature.py), when asked
     temperature: OverTemperature | None = None
+    rare: RareEstimate | None = None  # the high-yield estimate by importance sampling (filters/rare_failures.py)
+    rare_note: str = ""               # why it was not made, when it was asked for
     life: ServiceLife | None = None
 
     @property
@@ -175,7 +179,7 @@ def analyze(design: Design, *, samples: int | None = None, seed: int | None = No
             half_width: float | None = None, max_samples: int = 1_000_000,
             grades: Sequence[Grade] | None = None, budget: bool = True, with_corners: bool = True,
             curves: int = 0, second: SecondQuantity = "phase", prepared: Prepared | None = None,
-            samples_path: str | None = None,
+            samples_path: str | None = None, rare: str = "off",
             progress: Callable[[int, int], None] | None = None,
             should_stop: Callable[[], bool] | None = None) -> AnalysisResult:
     """Sample ``design``, judge it against its mask and gather every result.
@@ -191,6 +195,10 @@ def analyze(design: Design, *, samples: int | None = None, seed: int | None = No
     with or without. ``prepared`` reuses a :func:`filters.evaluate.prepare` of ``design``.
     ``samples_path`` names the field the memory rule refuses a count at (default
     ``analysis.samples``, or ``samples`` when ``samples`` is given).
+    ``rare`` asks for the high-yield estimate by importance sampling
+    (:mod:`filters.rare_failures`): ``"off"``, ``"always"``, or ``"auto"`` (when fewer than
+    :data:`~filters.rare_failures.RARE_TRIGGER` boards failed); it is in
+    :attr:`AnalysisResult.rare`, or :attr:`AnalysisResult.rare_note` says why not.
 
     Raises :class:`~tolspread.errors.InputError` when the boards would keep more numbers
     than the memory rule allows (:func:`filters.memory.check_boards`), before any work;
@@ -243,8 +251,29 @@ def analyze(design: Design, *, samples: int | None = None, seed: int | None = No
     life = judge_service_life(design, prep, ens, est, should_stop)
     budget_result = spread_budget(ens, prep) if budget else {}
     corner_result = _corners(design, prep, ens, over) if with_corners else None
+    rare_est, rare_note = _rare(design, prep, ens, est, rare, grades, seed, should_stop)
     return AnalysisResult(design, ens, prep, est, spans, budget_result, corner_result, history,
-                          runner.curves(ens.passed), over, life)
+                          curves=runner.curves(ens.passed), temperature=over, life=life, rare=rare_est,
+                          rare_note=rare_note)
+
+
+def _rare(design: Design, prep: Prepared, ens: Ensemble, est: YieldEstimate, rare: str, grades, seed,
+          should_stop) -> tuple[RareEstimate | None, str]:
+    """The importance estimate when ``rare`` asks for it (see :func:`analyze`)."""
+    if rare not in ("off", "auto", "always"):
+        raise InputError(f"must be off, auto or always, not {rare!r}", "rare")
+    failing = est.samples - est.passed
+    if rare == "off" or (rare == "auto" and (failing >= RARE_TRIGGER or not design.mask)):
+        return None, ""
+    why = not_estimable(design)
+    if why:
+        return None, why
+    found = estimate_for(design, prep, ens.grades if grades is None else tuple(grades), seed=ens.seed,
+                         confidence=design.analysis.confidence, should_stop=should_stop)
+    if found.failing == 0:
+        return None, (f"no failing board among {found.boards:,} drawn around the likeliest failure points: "
+                      "the plain interval stands")
+    return found, ""
 
 
 def _corners(design: Design, prep: Prepared, ens: Ensemble, over: OverTemperature | None) -> Corners:

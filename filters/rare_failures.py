@@ -54,6 +54,9 @@ __all__ = [
     "failure_points",
     "importance_estimate",
     "design_margin_function",
+    "RARE_TRIGGER",
+    "not_estimable",
+    "estimate_for",
 ]
 
 special = LazyModule("scipy.special")
@@ -355,3 +358,63 @@ def design_margin_function(prepared, grades, conditions) -> MarginFunction:
         return out
 
     return fn
+
+
+RARE_TRIGGER = 10  # fewer failing boards than this in a plain run: the automatic choice estimates by importance
+
+
+def not_estimable(design) -> str:
+    """Why the importance estimate cannot be made for ``design`` ("" when it can).
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    str
+        A plain reason: no mask, an operating range judged at several temperatures, resistor
+        networks or several channels (their shared errors are drawn outside the scores this
+        estimator shifts); empty when the estimate applies.
+    """
+    if not design.mask:
+        return "the design has no spec mask"
+    if getattr(design.analysis, "operating_range_c", None) is not None:
+        return "the yield is judged over an operating range (plain sampling only, for now)"
+    if getattr(design, "networks", ()):
+        return "the design has resistor networks (plain sampling only, for now)"
+    channels = getattr(design, "channels", None)
+    if channels is not None and getattr(channels, "count", 1) > 1:
+        return "the design has several channels (plain sampling only, for now)"
+    return ""
+
+
+def estimate_for(design, prepared, grades, *, seed: int, confidence: float,
+                 should_stop: Callable[[], bool] | None = None) -> RareEstimate:
+    """The importance estimate of ``design``'s failure rate with ``grades`` (see the module).
+
+    Parameters
+    ----------
+    design : Design
+        A design for which :func:`not_estimable` is empty.
+    prepared : filters.evaluate.Prepared
+        Its prepared evaluation.
+    grades : sequence of Grade
+        One grade per part.
+    seed : int
+        The analysis seed (the importance draws take their own stream from it).
+    confidence : float
+        Two-sided confidence of the interval (fraction).
+    should_stop : callable, optional
+        Asked between batches.
+
+    Returns
+    -------
+    RareEstimate
+    """
+    from .sampling import columns
+
+    fn = design_margin_function(prepared, grades, design.analysis.conditions)
+    return importance_estimate(fn, columns(len(design.parts)), seed=seed, confidence=confidence,
+                               should_stop=should_stop)

@@ -7,7 +7,10 @@ near 1e-2, 1e-3 and 1e-4.
 """
 from __future__ import annotations
 
+import json
 import math
+import subprocess
+import sys
 
 import numpy as np
 import pytest
@@ -115,3 +118,43 @@ def test_against_plain_sampling_with_many_boards(z_crit, truncate):
           f"plain {failing / n_plain:.3g} [{ci.low:.3g}, {ci.high:.3g}] from {n_plain} boards")
     assert est.low <= ci.high and ci.low <= est.high
     assert est.boards * 5 < est.plain_equivalent or z_crit < 2.5  # the point of the method
+
+
+def _one_part_file(tmp_path, z_crit: float, **analysis) -> tuple[str, float]:
+    r0, c0, f2, sigma = 10e3, 10e-9, 2e3, 0.005
+    r_crit = r0 * (1 + z_crit * sigma)
+    limit = -10 * math.log10(1 + (2 * math.pi * f2 * r_crit * c0) ** 2)
+    data = _rc_design({"name": "R-test", "kind": "R", "tolerance_pct": 1.0, "coverage": 2.0, "truncate": False},
+                      {"name": "C-test", "kind": "C", "tolerance_pct": 0.0}, limit, f2)
+    data["analysis"].update(analysis)
+    path = tmp_path / "rc.json"
+    path.write_text(json.dumps(data))
+    return str(path), float(stats.norm.sf(z_crit))
+
+
+def _analyze(*args):
+    return subprocess.run([sys.executable, "-m", "tolspread.app.cli", "analyze", *args], capture_output=True,
+                          text=True, timeout=300)
+
+
+def test_analyze_chooses_importance_sampling_when_few_boards_fail(tmp_path):
+    # Phi(-3.9) ~ 4.8e-5: 2,000 plain boards show no failure, so the automatic choice estimates
+    # by importance sampling and says so; the interval holds the closed-form tail (scipy.stats).
+    path, truth = _one_part_file(tmp_path, 3.9)
+    r = _analyze(path, "--samples", "2000", "--json", "-")
+    assert r.returncode == 0, r.stderr
+    high = json.loads(r.stdout)["yield"]["high_yield"]
+    assert high["method"] == "importance sampling"
+    assert 1 - high["high_yield"] <= truth <= 1 - high["low_yield"]
+    assert high["plain_boards_for_same_interval"] > 100 * high["boards"]
+    text = _analyze(path, "--samples", "2000")
+    assert "HIGH-YIELD ESTIMATE (importance sampling)" in text.stdout and "plain sampling would need" in text.stdout
+    off = _analyze(path, "--samples", "2000", "--rare", "off")
+    assert "HIGH-YIELD" not in off.stdout
+
+
+def test_analyze_says_why_no_estimate_over_a_range(tmp_path):
+    path, _ = _one_part_file(tmp_path, 3.9, operating_range_c=[-40, 85])
+    r = _analyze(path, "--samples", "2000", "--rare", "always")
+    assert r.returncode == 0, r.stderr
+    assert "high-yield estimate: not made (the yield is judged over an operating range" in r.stdout

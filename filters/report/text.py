@@ -4,13 +4,12 @@ figures with units from :mod:`filters.report.numbers`, the same writer as the HT
 from __future__ import annotations
 
 import math
-from typing import Any, Sequence, TextIO
+from typing import Any, TextIO
 
 from .. import __version__, metric_names
 from ..analysis import AnalysisResult
 from ..metric_names import SPAN_UNIT, is_margin, is_pair_metric, metric_label
 from ..metrics import ATTENUATION_FLOOR_DB
-from ..summary import MetricSummary
 from ..temperature_text import temperature_json, temperature_tables
 from .texttable import table
 from .numbers import format_metric, format_pct, format_quantity, summary_beyond_floor, summary_cells
@@ -45,6 +44,20 @@ def metric_order(result: AnalysisResult) -> list[str]:
     return order
 
 
+def rare_lines(result: AnalysisResult) -> list[str]:
+    """The high-yield estimate's lines (filters/rare_failures.py), or why it was not made."""
+    r = result.rare
+    if r is None:
+        return [f"  high-yield estimate: not made ({result.rare_note})"] if result.rare_note else []
+    conf = f"{100 * r.confidence:g} %"
+    plain = "more than 10^12" if not r.plain_equivalent < 1e12 else f"about {r.plain_equivalent:,.0f}"
+    return [f"  HIGH-YIELD ESTIMATE (importance sampling): failure rate {r.failure_rate:.3g}, {conf} interval "
+            f"{r.low:.3g} to {r.high:.3g}; yield {format_pct(1 - r.failure_rate)} ({format_pct(1 - r.high)} to "
+            f"{format_pct(1 - r.low)})",
+            f"    from {r.boards:,} boards drawn around {len(r.points)} likeliest failure point(s) "
+            f"({r.failing:,} failing, weighted); plain sampling would need {plain} boards for this interval"]
+
+
 def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
     """The readable summary ``tolspread analyze`` prints."""
     d = result.design
@@ -66,6 +79,8 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
         if len(result.history) > 1:
             out.write(f"  adaptive run: {len(result.history):,} batches, interval half-width "
                       f"{100 * y.half_width:.2f} points\n")
+        for line in rare_lines(result):
+            out.write(line + "\n")
         rows = []
         for j, s in enumerate(result.spans):
             u = SPAN_UNIT[d.mask[j].quantity]
@@ -171,6 +186,10 @@ def to_json(result: AnalysisResult) -> dict[str, Any]:
     # a span's margins (worst_margin_db) are in its quantity's unit: dB, deg or s
     y["spans"] = [{**s.to_dict(), "unit": SPAN_UNIT[span.quantity]} for s, span in zip(result.spans, d.mask)]
     y["caution"] = CAUTION
+    if result.rare is not None:
+        y["high_yield"] = result.rare.to_dict()
+    elif result.rare_note:
+        y["high_yield"] = {"method": "plain sampling", "note": result.rare_note}
     corner_doc = result.corners.to_dict()
     corner_doc["metrics"] = {n: with_unit(n, r) for n, r in corner_doc["metrics"].items()}
     return _clean({
