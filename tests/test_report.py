@@ -618,3 +618,27 @@ def test_opamp_of_a_stage_is_not_named_by_the_topology_role(demo_html):
     text = html.unescape(re.sub(r"<[^>]+>", "", demo_html))
     assert "op-amp U1" not in text and "U1 ideal" not in text
     assert "U2 high-Q stage: an ideal op-amp (infinite gain and bandwidth" in text
+
+
+def test_completed_adds_corners_and_cuts_curves_without_evaluating(monkeypatch):
+    """A window-style analysis (no corners, no budget, more curves) completed for the report
+    equals the command line's analysis (same boards: common random numbers), and no board
+    is evaluated again (tolspread.analysis.evaluate is not called)."""
+    import json
+
+    import tolspread.analysis as an
+
+    design = load_demo()
+    full = analyze(design, samples=900, seed=4, curves=300)
+    shown = analyze(design, samples=900, seed=4, budget=False, with_corners=False, curves=600)
+    bare = analyze(design, samples=100, seed=4)  # no curves kept
+    monkeypatch.setattr(an, "evaluate", lambda *a, **k: pytest.fail("a board was evaluated again"))
+    done = an.completed(shown, curves=300)
+    same = lambda x, y: json.dumps(x, sort_keys=True) == json.dumps(y, sort_keys=True)  # NaN == NaN here
+    assert same(done.corners.to_dict(), full.corners.to_dict())
+    assert same({k: b.to_dict() for k, b in done.budget.items()}, {k: b.to_dict() for k, b in full.budget.items()})
+    np.testing.assert_array_equal(done.curves.gain_db, full.curves.gain_db)
+    np.testing.assert_array_equal(done.curves.gain_bands.inner_low, full.curves.gain_bands.inner_low)
+    np.testing.assert_array_equal(done.curves.gain_bands.high, full.curves.gain_bands.high)
+    with pytest.raises(ValueError, match="curves"):
+        an.completed(bare, curves=50)
