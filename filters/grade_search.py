@@ -187,6 +187,23 @@ class Evaluator:
 # --- the searches -------------------------------------------------------------------------
 
 def exhaustive_search(ev: Evaluator, target: float) -> tuple[tuple[int, ...] | None, str]:
+    """Every combination of the candidate grades in order of total cost (ties in index
+    order), evaluated until the first one meets the target: it is the cheapest.
+
+    Parameters
+    ----------
+    ev : Evaluator
+        The evaluator of the search (its candidate lists, boards and cache).
+    target : float
+        Target yield, a fraction in (0, 1); a set meets it when its one-sided lower
+        confidence bound is at least ``target``.
+
+    Returns
+    -------
+    tuple[tuple[int, ...] | None, str]
+        The chosen grade indices (one per part, into ``ev.cands``) and an empty note, or
+        None and a note saying that no combination meets the target.
+    """
     combos = list(itertools.product(*[range(len(c)) for c in ev.cands]))
     combos.sort(key=lambda idx: (ev.cost(idx), idx))
     for idx in combos:
@@ -309,6 +326,30 @@ def _exchange(ev: Evaluator, state: tuple[int, ...], target: float) -> tuple[int
 
 
 def guided_search(ev: Evaluator, target: float) -> tuple[tuple[int, ...] | None, str]:
+    """The guided search of :func:`filters.recommend.recommend` (steps 1-5 of its
+    docstring): descents from the tightest grades by single cheaper steps, jumps and pair
+    exchanges, a second descent by boards lost per cost saved, then polishing from any
+    cheaper set seen.
+
+    Parameters
+    ----------
+    ev : Evaluator
+        The evaluator of the search (its candidate lists, boards and cache).
+    target : float
+        Target yield, a fraction in (0, 1), met by the lower confidence bound.
+
+    Returns
+    -------
+    tuple[tuple[int, ...] | None, str]
+        The chosen grade indices (one per part, into ``ev.cands``) and a note ("" unless
+        the improvement passes were cut short at ``max_evaluations``), or None and why
+        when even the tightest grades miss the target.
+
+    Raises
+    ------
+    Capped
+        When the first descent reaches ``max_evaluations``.
+    """
     start = tuple(len(c) - 1 for c in ev.cands)
     first = ev.look(start, target)
     if first.lower < target:
@@ -337,7 +378,25 @@ def guided_search(ev: Evaluator, target: float) -> tuple[tuple[int, ...] | None,
 
 def cheapest_seen(ev: Evaluator, target: float, below: float = math.inf,
                    exclude: frozenset | set = frozenset()) -> tuple[int, ...] | None:
-    """Grade indices of the cheapest cached set that meets ``target`` below cost ``below``."""
+    """Grade indices of the cheapest cached set that meets ``target`` below cost ``below``.
+
+    Parameters
+    ----------
+    ev : Evaluator
+        The evaluator whose cache (``ev.cache.found``) is searched.
+    target : float
+        Target yield, a fraction in (0, 1), met by the lower confidence bound.
+    below : float
+        Only sets cheaper than this total cost (the catalog's cost units) count.
+    exclude : set of tuple[int, ...]
+        Grade-index tuples to pass over (sets a descent already started from).
+
+    Returns
+    -------
+    tuple[int, ...] or None
+        Grade indices (one per part, into ``ev.cands``), or None when no cached set
+        qualifies.
+    """
     index = [{g.name: k for k, g in enumerate(c)} for c in ev.cands]
     best, best_cost = None, below - COST_EPS
     for names, cand in ev.cache.found.items():

@@ -45,7 +45,19 @@ FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 
 def worst_margin_metric(ens: Ensemble) -> str | None:
     """``"margin.<label>"`` of the span most boards fail (ties: the smallest margin),
-    or None without a mask - a ``metric`` for :func:`parts_list_rows`."""
+    or None without a mask - a ``metric`` for :func:`parts_list_rows`.
+
+    Parameters
+    ----------
+    ens : Ensemble
+        An evaluated ensemble with span margins (``ens.margins``: (S, spans), in each span's
+        unit).
+
+    Returns
+    -------
+    str or None
+        The metric name, or None when the design has no mask.
+    """
     names = margin_names(ens.design.mask)
     if not names:
         return None
@@ -58,7 +70,18 @@ def worst_margin_metric(ens: Ensemble) -> str | None:
 def smallest_series(value: float) -> str | None:
     """The smallest IEC 60063 series (E3, E6, E12, E24, E48, E96, E192, in that order) that
     holds ``value`` (SI units, any decade), or None when no series does: 4.7 nF -> "E3",
-    15 nF -> "E6", 2.67 kohm -> "E96"."""
+    15 nF -> "E6", 2.67 kohm -> "E96".
+
+    Parameters
+    ----------
+    value : float
+        A part value in SI units (ohm, F, H), positive.
+
+    Returns
+    -------
+    str or None
+        The series name (``"E3"`` ... ``"E192"``), or None.
+    """
     return next((name for name in E_SERIES
                  if math.isclose(float(snap(value, name)), value, rel_tol=1e-9)), None)
 
@@ -83,6 +106,28 @@ def parts_list_rows(design: Design, recommendation: "Recommendation | None",
     the first span margin); pass ``metric=worst_margin_metric(ens)`` for the worst span.
     ``budget metric`` names that metric in words (``margin of 'corner floor' (dB)``).
     Blank without a budget.
+
+    Parameters
+    ----------
+    design : Design
+        The design whose parts are listed.
+    recommendation : Recommendation or None
+        A recommendation; when it chose a set, its grades are listed instead.
+    budget : mapping of str to Budget, optional
+        Spread budgets by metric name (:func:`filters.budget.spread_budget`).
+    metric : str, optional
+        The budget metric whose shares are listed (default: ``cutoff_hz``, else the first
+        span margin).
+
+    Returns
+    -------
+    list[dict[str, Any]]
+        One row per part (P rows), keyed by the column titles.
+
+    Raises
+    ------
+    InputError
+        When ``budget`` has no entry for ``metric`` (path ``metric``).
     """
     shown = recommendation.design if recommendation is not None and recommendation.chosen else design
     grades = shown.part_grades()
@@ -136,7 +181,20 @@ def write_parts_csv(rows: Sequence[Mapping[str, Any]], path: str | Path) -> None
     """Write parts-list rows (from :func:`parts_list_rows`) as a CSV file with a header,
     atomically (:func:`filters.designfile.write_text_atomic`). The file is UTF-8 with a
     byte-order mark (``utf-8-sig``), so spreadsheet programs show ohm and ± signs; text
-    cells that a spreadsheet would run as a formula are written with a leading apostrophe."""
+    cells that a spreadsheet would run as a formula are written with a leading apostrophe.
+
+    Parameters
+    ----------
+    rows : sequence of mapping
+        Rows from :func:`parts_list_rows` (extra keys become extra columns).
+    path : str or Path
+        The file to write (replaced atomically).
+
+    Raises
+    ------
+    InputError
+        When the file cannot be written.
+    """
     columns = list(PARTS_COLUMNS)
     for r in rows:
         columns += [k for k in r if k not in columns]

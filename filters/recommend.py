@@ -165,7 +165,22 @@ def _whole(value: object, path: str, lo: int, hi: int | None = None) -> int:
 def candidate_grades(design: Design, catalog: Catalog | None = None) -> list[list[Grade]]:
     """Per part (design order), the catalog grades that fit its kind, cheapest first,
     without ideal zero-tolerance grades. Raises :class:`InputError` (path ``catalog``)
-    when a part has none."""
+    when a part has none.
+
+    Parameters
+    ----------
+    design : Design
+        The design; its parts in design order, its temperature range (deg C) for dominance.
+    catalog : Catalog, optional
+        The grades to choose from (default: the design's catalog).
+
+    Returns
+    -------
+    list[list[Grade]]
+        One list per part (P lists), each ordered cheapest first, with grades that another
+        grade dominates (dearer, no tighter in tolerance, temperature effect or drift, same
+        shape) left out.
+    """
     cat = design.catalog if catalog is None else catalog
     a = design.analysis
     lists = []
@@ -211,7 +226,22 @@ def _dominates(h: Grade, g: Grade, t_low: float, t_high: float) -> bool:
 
 
 def boards_needed(target_yield: float, confidence: float = 0.95, method: str = "wilson") -> int:
-    """The fewest boards n whose lower bound can reach ``target_yield`` at all (all n pass)."""
+    """The fewest boards n whose lower bound can reach ``target_yield`` at all (all n pass).
+
+    Parameters
+    ----------
+    target_yield : float
+        Target yield, a fraction in (0, 1).
+    confidence : float
+        Confidence of the one-sided lower bound, a fraction in [0.5, 1).
+    method : str
+        Interval method, ``"wilson"`` or ``"exact"`` (:func:`filters.stats.lower_bound`).
+
+    Returns
+    -------
+    int
+        The number of boards (at least 1).
+    """
     return samples_to_show(target_yield, 1.0, confidence, method)  # type: ignore[arg-type]
 
 
@@ -219,7 +249,21 @@ def current_cost(design: Design, catalog: Catalog | None = None) -> float:
     """Total cost of the design's own grades, priced from ``catalog`` (default the design's);
     a grade the catalog lacks counts at the design's own figure. With a purchase quantity and
     prices for every grade it is money per board (:func:`filters.constraints.priced`), as the
-    search counts it; otherwise the catalog's relative cost."""
+    search counts it; otherwise the catalog's relative cost.
+
+    Parameters
+    ----------
+    design : Design
+        The design whose own grades are priced.
+    catalog : Catalog, optional
+        The catalog to price them from (default: the design's).
+
+    Returns
+    -------
+    float
+        Total cost per board: money per board at the purchase quantity, else the sum of
+        the catalog's relative costs (no unit).
+    """
     cat = design.catalog if catalog is None else catalog
     grades = [[cat[g.name] if g.name in cat else g] for g in design.part_grades()]
     grades = priced(grades, design.purchase.boards) or grades
@@ -290,6 +334,46 @@ def recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
     combinations or ``max_evaluations``); ``should_stop()`` returning True raises
     :class:`filters.errors.Cancelled` between (and inside) evaluations. Bad inputs raise
     :class:`InputError` naming the argument (``target_yield``, ``confidence``, ...).
+
+    Parameters
+    ----------
+    design : Design
+        The design to choose grades for (its mask defines passing).
+    target_yield : float
+        Target yield, a fraction in (0, 1).
+    confidence : float
+        Confidence of the one-sided lower bound, a fraction in [0.5, 1).
+    samples : int, optional
+        Boards per candidate set (default: the design's ``analysis.samples``).
+    seed : int, optional
+        Seed of the boards (default: the design's ``analysis.seed``).
+    catalog : Catalog, optional
+        Grades to choose from (default: the design's catalog).
+    method : str
+        Interval method, ``"wilson"`` or ``"exact"``.
+    verify_factor : int
+        The check on a fresh seed uses this many times ``samples`` boards (at least 1).
+    max_evaluations : int
+        Most candidate sets this search evaluates (at least 1).
+    exhaustive_limit : int
+        Largest number of combinations searched exhaustively (0: always guided).
+    progress : callable, optional
+        ``progress(done, total)`` after each evaluated set (counts of sets).
+    should_stop : callable, optional
+        ``should_stop()`` returning True cancels the search.
+
+    Returns
+    -------
+    Recommendation
+        The chosen set (or None and why), its check on a fresh seed, the design with the
+        chosen grades, and every candidate looked at.
+
+    Raises
+    ------
+    InputError
+        A bad argument, named in the error's path.
+    Cancelled
+        When ``should_stop()`` returned True.
     """
     return _recommend(design, target_yield, confidence=confidence, samples=samples, seed=seed,
                       catalog=catalog, method=method, verify_factor=verify_factor,
@@ -384,7 +468,20 @@ def design_with_grades(design: Design, grades: Sequence[Grade]) -> Design:
     design's catalog lacks, or holds under the same name with other figures, are added to
     the design's own grades so the design file stays self-contained. A cost that differs
     only because the search priced the grade at the purchase quantity is not a new grade;
-    locked and measured parts keep their grade."""
+    locked and measured parts keep their grade.
+
+    Parameters
+    ----------
+    design : Design
+        The design to change.
+    grades : sequence of Grade
+        One grade per part, in design order (P grades).
+
+    Returns
+    -------
+    Design
+        A new design; ``design`` is unchanged.
+    """
     cat = design.catalog
     keep = [p.locked or p.measured is not None for p in design.parts]
     extra = {g.name: g for g, k in zip(grades, keep)
@@ -407,6 +504,20 @@ def cost_yield_curve(design: Design, targets: Sequence[float] = DEFAULT_TARGETS,
     by the grade-name tuple (each recommendation's ``evaluations`` counts only the sets it
     evaluated itself). Targets run from the highest down; a guided search restarts from any
     cheaper cached set that meets its target, so the cost never rises as the target falls.
+
+    Parameters
+    ----------
+    design : Design
+        The design to choose grades for.
+    targets : sequence of float
+        Target yields, fractions in (0, 1), in any order.
+    **kwargs
+        Any keyword argument of :func:`recommend` (``confidence``, ``samples``, ...).
+
+    Returns
+    -------
+    list[tuple[float, Recommendation]]
+        One (target, recommendation) pair per target, in the order given.
     """
     if isinstance(targets, (str, bytes)) or not isinstance(targets, Sequence) or not targets:
         raise InputError("must be a non-empty list of target yields", "targets")
