@@ -19,14 +19,14 @@ from .errors import InputError
 from .evaluate import prepare
 from .lazyimport import LazyModule
 from .mask import Span
-from .nominal_measure import level_crossings, measure_cutoff, nominal_gain2, peak_gain2
-from .prototypes import TWO_PI, cheby_omega_c, omega_edges, target_zpk
+from .nominal_measure import level_crossings, measure_cutoff, nominal_gain2, peak_gain2, stop_edges
+from .prototypes import TWO_PI, omega_edges, passband_edge, stopband_edge, target_zpk
 
 if TYPE_CHECKING:
     from .synthesis_result import SectionReport
 
 __all__ = ["CEILING_ALLOWANCE_DB", "IdealResponse", "ErrorLimits", "ErrorCheck", "reference_gain2",
-           "error_checks", "starting_mask"]
+           "error_checks", "stop_grid", "starting_mask"]
 
 signal = LazyModule("scipy.signal")  # imported on first use
 
@@ -37,10 +37,13 @@ CEILING_ALLOWANCE_DB = 0.5            # dB above the ideal passband peak for the
 class IdealResponse:
     """The ideal target from ``scipy.signal`` (zeros, poles in rad/s, gain) and its figures.
 
-    ``ref2``: the passband reference |H|^2 (DC for a low-pass, high frequency for a
-    high-pass, the peak for a band-pass). ``passband``: frequencies (Hz) of the passband
-    the gain checks use: up to Omega_p = 1/2 of the cutoff (Chebyshev: the ripple edge),
-    mapped to high-pass and band-pass like the poles.
+    ``ref2``: the passband reference |H|^2 (DC for a low-pass and a band-stop, high
+    frequency for a high-pass, the peak for a band-pass). ``passband``: frequencies (Hz)
+    of the passband the gain checks use: up to Omega_p = 1/2 of the cutoff (Chebyshev and
+    elliptic: the ripple edge), mapped to high-pass, band-pass and band-stop (both sides)
+    like the poles. ``stop``: (first, last) frequency (Hz) of the stopband an elliptic or
+    inverse Chebyshev response guarantees (``stopband_db`` below the passband's peak),
+    None for the others; ``stop_db`` that level relative to ``ref2`` (dB).
     """
 
     z: np.ndarray
@@ -51,30 +54,43 @@ class IdealResponse:
     f: np.ndarray
     passband: np.ndarray
     ref2: float
-    pass_edges: tuple[float, float]
+    stop: tuple[float, float] | None = None
+    stop_db: float | None = None
 
     @classmethod
     def of(cls, response: str, order: int, fc: float, kind: str, bw: float | None,
-           ripple_db: float | None, cutoff_db: float, analysis: Any) -> "IdealResponse":
-        z, p, k = target_zpk(response, order, fc, kind, bw, ripple_db)
-        omega_p = 1 / cheby_omega_c(order, ripple_db) if ripple_db is not None else 0.5
+           ripple_db: float | None, cutoff_db: float, analysis: Any,
+           stopband_db: float | None = None) -> "IdealResponse":
+        z, p, k = target_zpk(response, order, fc, kind, bw, ripple_db, stopband_db)
+        omega_p = passband_edge(response, order, ripple_db, stopband_db)
         f = np.geomspace(analysis.f_start, analysis.f_stop, 8001)
+        f0, f1 = float(analysis.f_start), float(analysis.f_stop)
         if kind == "lowpass":
-            edges = (analysis.f_start, omega_p * fc)
+            passband = np.geomspace(f0, omega_p * fc, 400)
         elif kind == "highpass":
-            edges = (fc / omega_p, analysis.f_stop)
+            passband = np.geomspace(fc / omega_p, f1, 400)
+        elif kind == "bandstop":
+            assert bw is not None
+            lo, hi = omega_edges(fc, bw, 1 / omega_p)
+            passband = np.concatenate([np.geomspace(f0, lo, 200), np.geomspace(hi, f1, 200)])
         else:
             assert bw is not None
-            edges = omega_edges(fc, bw, omega_p)
-        self = cls(np.asarray(z), np.asarray(p), float(k), kind, cutoff_db, f,
-                   np.geomspace(edges[0], edges[1], 400), 1.0, edges)
-        if kind == "lowpass":
+            passband = np.geomspace(*omega_edges(fc, bw, omega_p), 400)
+        self = cls(np.asarray(z), np.asarray(p), float(k), kind, cutoff_db, f, passband, 1.0)
+        if kind in ("lowpass", "bandstop"):
             ref2 = float(self.g2(np.array([0.0]))[0])
         elif kind == "highpass":
             ref2 = float(k) ** 2
         else:
             ref2 = peak_gain2(self.g2, f, self.g2(f))
-        return replace(self, ref2=ref2)
+        stop, stop_db = None, None
+        if stopband_db is not None:
+            omega_s = stopband_edge(response, order, ripple_db, stopband_db)
+            stop = {"lowpass": (omega_s * fc, f1), "highpass": (f0, fc / omega_s)}.get(kind) \
+                or omega_edges(fc, bw, 1 / omega_s)  # type: ignore[arg-type]
+            peak2 = float(np.max(self.g2(passband)))
+            stop_db = 10 * math.log10(peak2 / ref2) - stopband_db
+        return replace(self, ref2=ref2, stop=stop, stop_db=stop_db)
 
     def g2(self, f_hz: np.ndarray) -> np.ndarray:
         """|H|^2 at ``f_hz`` (Hz) by ``scipy.signal.freqs_zpk``."""
@@ -82,18 +98,24 @@ class IdealResponse:
         return np.abs(h) ** 2
 
     def cutoff(self) -> tuple[float, float | None]:
-        """(cutoff, None) or band-pass (centre, bandwidth) in Hz at ``cutoff_db``."""
+        """(cutoff, None) or band-pass and band-stop (centre, bandwidth) in Hz at ``cutoff_db``."""
         grid = self.g2(self.f)
-        lower, upper = level_crossings(self.g2, self.f, grid, self.ref2 * 10 ** (-self.cutoff_db / 10))
+        level = self.ref2 * 10 ** (-self.cutoff_db / 10)
+        crossings = stop_edges if self.kind == "bandstop" else level_crossings
+        lower, upper = crossings(self.g2, self.f, grid, level)
         if self.kind == "lowpass":
             return upper, None
         if self.kind == "highpass":
             return lower, None
         return math.sqrt(lower * upper), upper - lower
 
+
 def reference_gain2(design: Design, kind: str, g2: Callable[[np.ndarray], np.ndarray]) -> float:
     """The passband reference |H|^2 of ``design`` (``g2`` its |H|^2 at Hz): the peak for a
-    band-pass, else the analysis' reference gain (DC or high frequency)."""
+    band-pass, the DC gain for a band-stop, else the analysis' reference gain (DC or high
+    frequency)."""
+    if kind == "bandstop":
+        return float(g2(np.array([0.0]))[0])
     if kind == "bandpass":
         f = np.geomspace(design.analysis.f_start, design.analysis.f_stop, 8001)
         return peak_gain2(g2, f, g2(f))
@@ -109,11 +131,14 @@ def error_checks(design: Design, ideal: IdealResponse, sections: Sequence[Sectio
     over the passband). Low-pass and high-pass with ``exact`` (the same sections with exact
     resistors): also the passband reference gain against the sections' designed gain
     (scipy's prototype gain is a normalization: an even-order Chebyshev starts at -ripple).
-    A band-pass's level is set by its sections' gains and is not checked."""
+    A band-pass's level is set by its sections' gains and is not checked. Notch sections:
+    each one's notch frequency against the scipy zeros ("fz"). Elliptic and inverse
+    Chebyshev: the highest gain over the guaranteed stopband against the level it
+    guarantees ("stopband"; the built design may lie below it, only a rise counts)."""
     out: list[ErrorCheck] = []
     c_ideal, b_ideal = ideal.cutoff()
     c_act, b_act = measure_cutoff(design)
-    what = "centre" if ideal.kind == "bandpass" else "cutoff"
+    what = "centre" if ideal.kind in ("bandpass", "bandstop") else "cutoff"
     out.append(ErrorCheck(what, c_ideal, c_act, c_act / c_ideal - 1, limits.cutoff, "%", "Hz"))
     if b_ideal is not None and b_act is not None:
         out.append(ErrorCheck("bandwidth", b_ideal, b_act, b_act / b_ideal - 1, limits.bandwidth, "%", "Hz"))
@@ -124,6 +149,9 @@ def error_checks(design: Design, ideal: IdealResponse, sections: Sequence[Sectio
         if s.target_q is not None and s.snapped_q is not None:
             out.append(ErrorCheck(f"{short} Q", s.target_q, s.snapped_q, s.snapped_q / s.target_q - 1,
                                   limits.q, "%"))
+        if s.target_fz_hz is not None and s.snapped_fz_hz is not None:
+            out.append(ErrorCheck(f"{short} fz", s.target_fz_hz, s.snapped_fz_hz,
+                                  s.snapped_fz_hz / s.target_fz_hz - 1, limits.cutoff, "%", "Hz"))
     g2 = nominal_gain2(design)
     ref2 = reference_gain2(design, ideal.kind, g2)
     ours = 10 * np.log10(np.maximum(g2(ideal.passband), 1e-300) / ref2)
@@ -137,7 +165,17 @@ def error_checks(design: Design, ideal: IdealResponse, sections: Sequence[Sectio
                           float(ours[worst] - theirs[worst]), limits.gain_db, "dB"))
     r_ours, r_ideal = float(np.ptp(ours)), float(np.ptp(theirs))
     out.append(ErrorCheck("passband ripple", r_ideal, r_ours, r_ours - r_ideal, limits.gain_db, "dB"))
+    if ideal.stop is not None and ideal.stop_db is not None:
+        worst = float(np.max(10 * np.log10(np.maximum(g2(stop_grid(ideal.stop)), 1e-300) / ref2)))
+        out.append(ErrorCheck("stopband", ideal.stop_db, worst, max(0.0, worst - ideal.stop_db), limits.gain_db,
+                              "dB"))
     return tuple(out)
+
+
+def stop_grid(stop: tuple[float, float]) -> np.ndarray:
+    """Frequencies (Hz) the stopband checks look at: 2001 log-spaced points over ``stop``
+    (the gain's highest points lie between the zeros, where it changes slowly)."""
+    return np.geomspace(stop[0], stop[1], 2001)
 
 
 def starting_mask(ideal: IdealResponse, kind: str, ripple_db: float | None,
@@ -150,16 +188,29 @@ def starting_mask(ideal: IdealResponse, kind: str, ripple_db: float | None,
       response's maximum there + :data:`CEILING_ALLOWANCE_DB`, rounded up to 0.1 dB
       (a Chebyshev ripple peak above the reference shows here);
     - stopband ceiling from Omega >= 4 to the range's end: the ideal response there +
-      6 dB, rounded to 1 dB.
+      6 dB, rounded to 1 dB;
+    - elliptic and inverse Chebyshev: instead, the stopband the response guarantees
+      (``ideal.stop``, from the stopband edge on) at the level it guarantees
+      (``stopband_db`` below the passband's peak, rounded up to 0.1 dB);
+    - band-stop: a passband floor and a passband ceiling on each side (``low``, ``high``)
+      and the stopband ceiling between the frequencies where the prototype is at
+      Omega = 4 (or the guaranteed stopband).
     """
     f_start, f_stop = float(ideal.f[0]), float(ideal.f[-1])
     base = -(ripple_db + 0.5) if ripple_db is not None else -1.0
+    tops = None
     if kind == "lowpass":
         passband, top = [(f_start, 0.5 * fc)], (f_start, fc)
         stops = [(4 * fc, f_stop)]
     elif kind == "highpass":
         passband, top = [(2 * fc, f_stop)], (fc, f_stop)
         stops = [(f_start, fc / 4)]
+    elif kind == "bandstop":
+        assert bw is not None
+        (lo2, hi2), (lo1, hi1) = omega_edges(fc, bw, 2.0), omega_edges(fc, bw, 1.0)
+        passband, tops = [(f_start, lo2), (hi2, f_stop)], [(f_start, lo1), (hi1, f_stop)]
+        top = (f_start, f_stop)
+        stops = [omega_edges(fc, bw, 0.25)]
     else:
         assert bw is not None
         passband, top = [omega_edges(fc, bw, 0.5)], omega_edges(fc, bw, 1.0)
@@ -169,20 +220,28 @@ def starting_mask(ideal: IdealResponse, kind: str, ripple_db: float | None,
     def rel_db(f1: float, f2: float) -> np.ndarray:
         return 10 * np.log10(np.maximum(ideal.g2(np.geomspace(f1, f2, 400)), 1e-300) / ideal.ref2)
 
+    def side(j: int, count: int) -> str:
+        return "" if count == 1 else (" low", " high")[j]
+
     spans = []
-    for f1, f2 in passband:
+    for j, (f1, f2) in enumerate(passband):
         worst = float(np.min(rel_db(f1, f2)))
         limit = min(base, math.floor(2 * (worst - 0.5)) / 2)
-        spans.append(Span("floor", f1, f2, limit, relative=True, name="passband floor"))
-    peak = float(np.max(rel_db(*top)))
-    spans.append(Span("ceiling", top[0], top[1], math.ceil(10 * (peak + CEILING_ALLOWANCE_DB) - 1e-6) / 10,
-                      relative=True, name="passband ceiling"))
+        spans.append(Span("floor", f1, f2, limit, relative=True, name="passband floor" + side(j, len(passband))))
+    for j, (f1, f2) in enumerate(tops or [top]):
+        peak = float(np.max(rel_db(f1, f2)))
+        spans.append(Span("ceiling", f1, f2, math.ceil(10 * (peak + CEILING_ALLOWANCE_DB) - 1e-6) / 10,
+                          relative=True, name="passband ceiling" + side(j, len(tops or [top]))))
+    if ideal.stop is not None and ideal.stop_db is not None:
+        spans.append(Span("ceiling", ideal.stop[0], ideal.stop[1], math.ceil(10 * ideal.stop_db - 1e-6) / 10,
+                          relative=True, name="stopband ceiling"))
+        return tuple(spans)
     for j, (f1, f2) in enumerate(stops):
         if not f1 < f2:
             continue
         worst = float(np.max(rel_db(f1, f2)))
         spans.append(Span("ceiling", f1, f2, float(round(worst + 6)), relative=True,
-                          name="stopband ceiling" + ("" if len(stops) == 1 else (" low", " high")[j])))
+                          name="stopband ceiling" + side(j, len(stops))))
     return tuple(spans)
 
 

@@ -19,8 +19,11 @@ from .evaluate import prepare
 from .lazyimport import LazyModule
 from .metric_names import stage_metric_name
 from .metrics import stage_metrics
+from .prototypes import TWO_PI
+from .topologies import NOTCHES
 
-__all__ = ["nominal_coeffs", "stage_fq", "peak_gain2", "level_crossings", "nominal_gain2", "measure_cutoff"]
+__all__ = ["nominal_coeffs", "stage_fq", "notch_hz", "stage_notches", "peak_gain2", "level_crossings", "stop_edges",
+           "nominal_gain2", "measure_cutoff"]
 
 optimize = LazyModule("scipy.optimize")  # imported on first use
 
@@ -44,6 +47,23 @@ def stage_fq(design: Design) -> list[tuple[float, float | None]]:
         else:
             out.append((float(m[stage_metric_name(k, "f0_hz")][0]), float(m[stage_metric_name(k, "q")][0])))
     return out
+
+
+def notch_hz(num: np.ndarray) -> np.ndarray:
+    """The notch frequency (Hz) of numerators n0 + n1 s + n2 s^2 (rows, 3; ascending powers
+    of s in rad/s): sqrt(n0/n2) / 2 pi (NaN where n0/n2 is not positive)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = num[:, 0] / num[:, 2]
+    return np.sqrt(np.where(ratio > 0, ratio, np.nan)) / TWO_PI
+
+
+def stage_notches(design: Design) -> list[float | None]:
+    """The notch frequency (Hz) of every stage of ``design`` at nominal values (ideal
+    op-amps assumed: the numerator of a notch section is n0 + n2 s^2); None for a stage
+    that is not a notch section."""
+    _, coeffs = nominal_coeffs(design)
+    return [float(notch_hz(c.unscaled()[0])[0]) if st.topology in NOTCHES else None
+            for st, c in zip(design.stages, coeffs)]
 
 
 def peak_gain2(g2: Callable[[np.ndarray], np.ndarray], f: np.ndarray, grid: np.ndarray) -> float:
@@ -79,6 +99,16 @@ def level_crossings(g2: Callable[[np.ndarray], np.ndarray], f: np.ndarray, grid:
     return lower, upper
 
 
+def stop_edges(g2: Callable[[np.ndarray], np.ndarray], f: np.ndarray, grid: np.ndarray,
+               level: float) -> tuple[float, float]:
+    """A band-stop's edges (Hz): where |H|^2 falls below ``level`` on the way down to the
+    grid's minimum and where it rises back above it after, nearest the minimum (refined)."""
+    i = int(np.argmin(grid))
+    lower = level_crossings(g2, f[:i + 1], grid[:i + 1], level)[1]
+    upper = level_crossings(g2, f[i:], grid[i:], level)[0]
+    return lower, upper
+
+
 def nominal_gain2(design: Design) -> Callable[[np.ndarray], np.ndarray]:
     """|H(j 2 pi f)|^2 of the nominal design at frequencies f (Hz, 1-D), from the engine."""
     _, coeffs = nominal_coeffs(design)
@@ -91,17 +121,21 @@ def measure_cutoff(design: Design) -> tuple[float, float | None]:
     Low-pass and high-pass: the analysis' own ``cutoff_hz`` metric (reference DC or high
     frequency gain), with None for the bandwidth. Band-pass: (centre, bandwidth) from the
     outermost crossings of the level ``cutoff_db`` below the exact peak (found on a dense
-    grid and refined), centre = sqrt(lower x upper), bandwidth = upper - lower.
+    grid and refined), centre = sqrt(lower x upper), bandwidth = upper - lower. Band-stop:
+    the same from the stop band's edges (:func:`stop_edges`) at ``cutoff_db`` below the
+    DC gain.
     """
     circuit = compile_design(design)
-    if circuit.kind != "bandpass":
+    if circuit.kind not in ("bandpass", "bandstop"):
         return float(prepare(design.with_mask(())).nominal.metrics["cutoff_hz"]), None
     a = design.analysis
     f = np.geomspace(a.f_start, a.f_stop, 8001)
     g2 = nominal_gain2(design)
     grid = g2(f)
-    level = peak_gain2(g2, f, grid) * 10 ** (-a.cutoff_db / 10)
-    lower, upper = level_crossings(g2, f, grid, level)
+    if circuit.kind == "bandstop":
+        lower, upper = stop_edges(g2, f, grid, float(g2(np.array([0.0]))[0]) * 10 ** (-a.cutoff_db / 10))
+    else:
+        lower, upper = level_crossings(g2, f, grid, peak_gain2(g2, f, grid) * 10 ** (-a.cutoff_db / 10))
     if not (math.isfinite(lower) and math.isfinite(upper)):
         raise InputError("the band edges lie outside the analysed range", "analysis")
     return math.sqrt(lower * upper), upper - lower

@@ -63,16 +63,18 @@ def _dominant_pair(den: np.ndarray, w_ref: float) -> tuple[float, float]:
 
 
 def _stage_design(design: Design, k: int, gbw_hz: float | None) -> tuple[Design, Design | None]:
-    """Stage ``k`` alone: with an ideal op-amp, and with ``gbw_hz`` on role U1 (or None)."""
+    """Stage ``k`` alone: with ideal op-amps, and with ``gbw_hz`` on every op-amp role (U1;
+    a notch section's U1, U2 and U3), or None."""
     st = design.stages[k]
     parts = {p.ref: p for p in design.parts}
-    ideal_roles = {r: ref for r, ref in st.roles.items() if r != "U1"}
+    amps = st.built().optional_roles
+    ideal_roles = {r: ref for r, ref in st.roles.items() if r not in amps}
     ideal = Design(tuple(parts[ref] for ref in ideal_roles.values()),
                    (Stage(st.topology, ideal_roles, dict(st.options), st.name),), design.analysis)
     if gbw_hz is None:
         return ideal, None
     amp = Part("U?", "opamp", gbw_hz, "EXACT")
-    roles = dict(ideal_roles, U1=amp.ref)
+    roles = dict(ideal_roles, **{r: amp.ref for r in amps})
     real = Design(ideal.parts + (amp,), (Stage(st.topology, roles, dict(st.options), st.name),),
                   design.analysis)
     return ideal, real
@@ -82,7 +84,8 @@ def opamp_shift_table(design: Design, gbw_hz: float | None = None) -> list[GbwWa
     """For every active second-order stage: ideal f0/Q, f0/Q with a single-pole op-amp,
     their relative shifts, the GBW the rule asks for, and whether the op-amp's is too low.
 
-    The op-amp's GBW (Hz) is the value of the part on the stage's role U1, else
+    The op-amp's GBW (Hz) is the value of the part on the stage's role U1 (a stage with
+    several op-amps, the notch section, is checked with it on every op-amp), else
     ``gbw_hz`` (a what-if for stages without op-amp parts), else the GBW fields are None.
     Rule (tests/REFERENCES.md section 7, after Op Amps for Everyone ch. 16): open-loop gain at
     f0 at least 40 dB above the stage's peak gain, i.e. GBW >= 100 G Q f0 with G the

@@ -25,24 +25,35 @@ from .lazyimport import LazyModule
 __all__ = [
     "TWO_PI",
     "RESPONSES",
+    "RIPPLED",
+    "STOPBAND_RESPONSES",
     "RIPPLES_DB",
+    "STOPBAND_DB",
     "MAX_ORDER",
     "Section",
     "check_family",
     "prototype_zpk",
     "pair_poles",
+    "pair_sections",
+    "passband_edge",
+    "stopband_edge",
     "prototype_sections",
     "cheby_omega_c",
     "target_zpk",
     "omega_edges",
 ]
 
-signal = LazyModule("scipy.signal")  # imported on first use: it takes a good part of a second
+signal = LazyModule("scipy.signal")  # imported on first use: each takes a good part of a second
+optimize = LazyModule("scipy.optimize")
 
 TWO_PI = 2 * math.pi
-RESPONSES = ("butterworth", "chebyshev", "bessel", "linkwitz_riley")
+RESPONSES = ("butterworth", "chebyshev", "bessel", "linkwitz_riley", "elliptic", "inverse_chebyshev")
+RIPPLED = ("chebyshev", "elliptic")             # responses with a passband ripple
+STOPBAND_RESPONSES = ("elliptic", "inverse_chebyshev")  # responses with zeros: a stopband attenuation
 RIPPLES_DB = (0.1, 0.5, 1.0, 2.0, 3.0)
+STOPBAND_DB = (20.0, 120.0)                     # dB: the stopband attenuation a design may ask for
 MAX_ORDER = 10
+_WORDS = {"chebyshev": "Chebyshev", "elliptic": "elliptic", "inverse_chebyshev": "inverse Chebyshev"}
 
 
 @dataclass(frozen=True)
@@ -71,27 +82,44 @@ class Section:
         return 0.0 if self.q is None else 1.0 / self.f0_norm ** 2
 
 
-def check_family(response: str, order: Any, ripple_db: float | None) -> None:
+def check_family(response: str, order: Any, ripple_db: float | None, stopband_db: float | None = None) -> None:
     """Refuse an unknown response, an order outside 1..:data:`MAX_ORDER` (or odd, for
-    Linkwitz-Riley) or a ripple that does not fit the response (:class:`InputError`)."""
+    Linkwitz-Riley), a ripple or a stopband attenuation that does not fit the response
+    (:class:`InputError`). Chebyshev and elliptic need ``ripple_db`` (one of
+    :data:`RIPPLES_DB`); elliptic and inverse Chebyshev need ``stopband_db`` (dB, within
+    :data:`STOPBAND_DB`; elliptic: at least the ripple + 10 dB)."""
     if response not in RESPONSES:
         raise InputError(f"unknown response {response!r}; known: {', '.join(RESPONSES)}", "response")
     if isinstance(order, bool) or not isinstance(order, (int, np.integer)) or not 1 <= order <= MAX_ORDER:
         raise InputError(f"must be a whole number from 1 to {MAX_ORDER}, not {order!r}", "order")
     if response == "linkwitz_riley" and order % 2:
         raise InputError(f"a Linkwitz-Riley response has an even order (2, 4, ...), not {order}", "order")
-    if response == "chebyshev":
+    if response in RIPPLED:
         if ripple_db is None:
-            raise InputError("a Chebyshev response needs the passband ripple in dB: "
+            raise InputError(f"a {_WORDS[response]} response needs the passband ripple in dB: "
                              + ", ".join(f"{r:g}" for r in RIPPLES_DB), "ripple_db")
         if not any(abs(ripple_db - r) < 1e-12 for r in RIPPLES_DB):
             raise InputError(f"must be one of {', '.join(f'{r:g}' for r in RIPPLES_DB)} dB, not {ripple_db!r}",
                              "ripple_db")
     elif ripple_db is not None:
-        raise InputError(f"a ripple applies to a Chebyshev response only, not {response}", "ripple_db")
+        raise InputError(f"a ripple applies to a Chebyshev or elliptic response only, not {response}", "ripple_db")
+    if response in STOPBAND_RESPONSES:
+        lo, hi = STOPBAND_DB
+        if stopband_db is None:
+            raise InputError(f"an {_WORDS[response]} response needs the stopband attenuation in dB "
+                             f"({lo:g} to {hi:g})", "stopband_db")
+        if isinstance(stopband_db, bool) or not isinstance(stopband_db, (int, float, np.floating)) \
+                or not lo <= stopband_db <= hi:
+            raise InputError(f"must be a number of dB from {lo:g} to {hi:g}, not {stopband_db!r}", "stopband_db")
+        if response == "elliptic" and ripple_db is not None and stopband_db < ripple_db + 10:
+            raise InputError(f"must be at least the ripple + 10 dB ({ripple_db + 10:g} dB), not {stopband_db:g}",
+                             "stopband_db")
+    elif stopband_db is not None:
+        raise InputError(f"a stopband attenuation applies to an elliptic or inverse Chebyshev response only, "
+                         f"not {response}", "stopband_db")
 
 
-def prototype_zpk(response: str, order: int, ripple_db: float | None = None
+def prototype_zpk(response: str, order: int, ripple_db: float | None = None, stopband_db: float | None = None
                   ) -> tuple[np.ndarray, np.ndarray, float]:
     """Zeros, poles (rad/s, normalized) and gain of the low-pass prototype.
 
@@ -108,8 +136,15 @@ def prototype_zpk(response: str, order: int, ripple_db: float | None = None
     - Linkwitz-Riley of even order n: two cascaded Butterworth filters of order n/2 (every
       pole twice). Its cutoff is the **-6 dB crossover** (|H| = 1/2 at Omega = 1); it is
       NOT normalized to -3 dB.
+    - Elliptic (Cauer; ``ripple_db`` in the passband, at least ``stopband_db`` below the
+      passband's peak in the stopband): ``scipy.signal.ellip`` puts Omega = 1 at the ripple
+      edge; inverse Chebyshev (Chebyshev type II, flat passband, ``stopband_db``):
+      ``scipy.signal.cheby2`` puts Omega = 1 at the stopband edge. Both are scaled so that
+      |H|^2 is half the DC value at Omega = 1 (found by ``scipy.optimize.brentq`` between
+      the ripple edge, or 0, and the lowest zero); :func:`stopband_edge` gives where the
+      stopband then starts. An even order's DC gain is the bottom of the elliptic ripple.
     """
-    check_family(response, order, ripple_db)
+    check_family(response, order, ripple_db, stopband_db)
     if response == "butterworth":
         z, p, k = signal.butter(order, 1.0, analog=True, output="zpk")
     elif response == "bessel":
@@ -118,10 +153,62 @@ def prototype_zpk(response: str, order: int, ripple_db: float | None = None
         assert ripple_db is not None
         z, p, k = signal.cheby1(order, ripple_db, 1.0, analog=True, output="zpk")
         z, p, k = signal.lp2lp_zpk(z, p, k, wo=1.0 / cheby_omega_c(order, ripple_db))
+    elif response in STOPBAND_RESPONSES:
+        assert stopband_db is not None
+        if response == "elliptic":
+            assert ripple_db is not None
+            z, p, k = signal.ellip(order, ripple_db, stopband_db, 1.0, analog=True, output="zpk")
+        else:
+            z, p, k = signal.cheby2(order, stopband_db, 1.0, analog=True, output="zpk")
+        z, p, k = signal.lp2lp_zpk(z, p, k, wo=1.0 / _half_power_omega(z, p, k))
     else:
         z1, p1, k1 = signal.butter(order // 2, 1.0, analog=True, output="zpk")
         z, p, k = np.concatenate([z1, z1]), np.concatenate([p1, p1]), k1 * k1
-    return np.asarray(z), np.asarray(p, dtype=complex), float(k)
+    return np.asarray(z, dtype=complex), np.asarray(p, dtype=complex), float(k)
+
+
+def _gain2(z: np.ndarray, p: np.ndarray, k: float, w: float) -> float:
+    """|H(j w)|^2 of a zeros-poles-gain low-pass (w in rad/s)."""
+    s = 1j * w
+    return float(abs(k * np.prod(s - z) / np.prod(s - p)) ** 2)
+
+
+def _falling_to(z: np.ndarray, p: np.ndarray, k: float, level2: float, w_lo: float) -> float:
+    """The lowest w above ``w_lo`` where the prototype falls to |H|^2 = ``level2``: between
+    ``w_lo`` and its lowest zero the response of an elliptic or inverse Chebyshev low-pass
+    falls monotonically."""
+    w_hi = float(np.min(np.abs(z))) * (1 - 1e-9)
+    return float(optimize.brentq(lambda w: math.log(_gain2(z, p, k, w) / level2), w_lo, w_hi, xtol=1e-15,
+                                 rtol=1e-14))
+
+
+def _half_power_omega(z: np.ndarray, p: np.ndarray, k: float) -> float:
+    """Omega where |H|^2 is half its DC value (scipy's normalization: ripple or stopband edge at 1)."""
+    dc2 = _gain2(z, p, k, 0.0)
+    passband_edge = 1.0 if _gain2(z, p, k, 1.0) > 0.5 * dc2 else 1e-6
+    return _falling_to(z, p, k, 0.5 * dc2, passband_edge)
+
+
+def passband_edge(response: str, order: int, ripple_db: float | None = None,
+                  stopband_db: float | None = None) -> float:
+    """Omega (normalized: the -3 dB point at 1) up to which the passband checks look: the
+    ripple edge of a Chebyshev or elliptic prototype, 1/2 for the others."""
+    if response == "chebyshev":
+        assert ripple_db is not None
+        return 1 / cheby_omega_c(order, ripple_db)
+    if response == "elliptic":
+        assert ripple_db is not None and stopband_db is not None
+        return 1 / _half_power_omega(*signal.ellip(order, ripple_db, stopband_db, 1.0, analog=True, output="zpk"))
+    return 0.5
+
+
+def stopband_edge(response: str, order: int, ripple_db: float | None, stopband_db: float) -> float:
+    """Omega (normalized: the -3 dB point at 1) where an elliptic or inverse Chebyshev
+    low-pass prototype first falls ``stopband_db`` below its passband peak (0 dB); above it
+    the response never rises past that level (the stopband the response guarantees)."""
+    z, p, k = prototype_zpk(response, order, ripple_db, stopband_db)
+    peak2 = 1.0 if response == "inverse_chebyshev" or order % 2 else _gain2(z, p, k, 0.0) * 10 ** (ripple_db / 10)
+    return _falling_to(z, p, k, peak2 * 10 ** (-stopband_db / 10), 1.0)
 
 
 def pair_poles(poles: np.ndarray) -> list[tuple[float, float | None]]:
@@ -155,11 +242,43 @@ def pair_poles(poles: np.ndarray) -> list[tuple[float, float | None]]:
     return out
 
 
-def prototype_sections(response: str, order: int, ripple_db: float | None = None) -> list[Section]:
+def pair_sections(zeros: np.ndarray, poles: np.ndarray) -> list[tuple[float, float | None, float | None]]:
+    """Sections (w0, Q, wz) of a filter with zeros on the imaginary axis (rad/s): the
+    sections of :func:`pair_poles`, in its order, each complex pole pair with the nearest
+    zero pair +-j wz (None: no zero pair is left for it). Pole pairs take their zeros
+    highest Q first (the pole nearest the axis gets the zero nearest it: common practice,
+    it keeps each section's gain peaks low); distance |p - j wz| in the s-plane. Zeros at
+    the origin (a high-pass's) belong to no pair and are left out; a first-order section
+    has wz None.
+    """
+    z = np.asarray(zeros, dtype=complex)
+    z = z[np.abs(z) > 1e-9 * max(1.0, float(np.max(np.abs(poles))))]
+    if np.any(np.abs(z.real) > 1e-6 * np.abs(z)):
+        raise InputError("every zero must lie on the imaginary axis", "zeros")
+    free = sorted(float(abs(x)) for x in z if x.imag > 0)
+    sections = pair_poles(poles)
+    wz: dict[int, float | None] = {}
+    for i in sorted(range(len(sections)), key=lambda i: -(sections[i][1] or 0.0)):
+        w0, q = sections[i]
+        if q is None or not free:
+            wz[i] = None
+            continue
+        pole = w0 * complex(-1 / (2 * q), math.sqrt(max(0.0, 1 - 1 / (4 * q * q))))
+        j = min(range(len(free)), key=lambda j: abs(pole - 1j * free[j]))
+        wz[i] = free.pop(j)
+    if free:
+        raise InputError(f"{len(free)} zero pair(s) left without a pole pair", "zeros")
+    return [(w0, q, wz[i]) for i, (w0, q) in enumerate(sections)]
+
+
+def prototype_sections(response: str, order: int, ripple_db: float | None = None,
+                       stopband_db: float | None = None) -> list[Section]:
     """The normalized low-pass prototype as sections, in the order they are built.
 
     ``response``: "butterworth", "chebyshev" (``ripple_db`` 0.1, 0.5, 1, 2 or 3 dB),
-    "bessel" or "linkwitz_riley" (even orders only); ``order`` 1 to 10.
+    "bessel", "linkwitz_riley" (even orders only), "elliptic" (``ripple_db`` and
+    ``stopband_db``) or "inverse_chebyshev" (``stopband_db``); ``order`` 1 to 10. The
+    sections hold the poles only; :func:`pair_sections` pairs them with the zeros.
 
     Normalization: the whole filter's -3 dB point (|H|^2 = half the DC value) is at
     Omega = 1 rad/s, as in the published tables: Butterworth and Bessel (``norm='mag'``)
@@ -171,7 +290,7 @@ def prototype_sections(response: str, order: int, ripple_db: float | None = None
     An odd order has one first-order section (``q`` None, ``f0_norm`` = its real pole),
     placed first; second-order sections follow by ascending Q (see :func:`pair_poles`).
     """
-    _, p, _ = prototype_zpk(response, order, ripple_db)
+    _, p, _ = prototype_zpk(response, order, ripple_db, stopband_db)
     return [Section(w, q) for w, q in pair_poles(p)]
 
 
@@ -183,24 +302,27 @@ def cheby_omega_c(order: int, ripple_db: float) -> float:
 
 
 def target_zpk(response: str, order: int, cutoff_hz: float, kind: str = "lowpass",
-               bandwidth_hz: float | None = None, ripple_db: float | None = None
-               ) -> tuple[np.ndarray, np.ndarray, float]:
+               bandwidth_hz: float | None = None, ripple_db: float | None = None,
+               stopband_db: float | None = None) -> tuple[np.ndarray, np.ndarray, float]:
     """The target filter's zeros, poles (rad/s) and gain: the prototype of
     :func:`prototype_zpk` moved to ``cutoff_hz`` with ``scipy.signal.lp2lp_zpk``,
-    ``lp2hp_zpk`` or (centre ``cutoff_hz``, ``bandwidth_hz`` between the -3 dB edges)
-    ``lp2bp_zpk``."""
-    z, p, k = prototype_zpk(response, order, ripple_db)
+    ``lp2hp_zpk``, or (centre ``cutoff_hz``, ``bandwidth_hz`` between the -3 dB edges)
+    ``lp2bp_zpk`` (band-pass) or ``lp2bs_zpk`` (band-stop)."""
+    z, p, k = prototype_zpk(response, order, ripple_db, stopband_db)
     wo = TWO_PI * cutoff_hz
     if kind == "lowpass":
         return signal.lp2lp_zpk(z, p, k, wo=wo)
     if kind == "highpass":
         return signal.lp2hp_zpk(z, p, k, wo=wo)
     assert bandwidth_hz is not None
+    if kind == "bandstop":
+        return signal.lp2bs_zpk(z, p, k, wo=wo, bw=TWO_PI * bandwidth_hz)
     return signal.lp2bp_zpk(z, p, k, wo=wo, bw=TWO_PI * bandwidth_hz)
 
 
 def omega_edges(fc: float, bw: float, omega: float) -> tuple[float, float]:
-    """The band-pass frequencies (Hz) where the low-pass prototype is at +-``omega``."""
+    """The band-pass frequencies (Hz) where the low-pass prototype is at +-``omega`` (a
+    band-stop's: at +-1/``omega``)."""
     hi = 0.5 * omega * bw + math.sqrt((0.5 * omega * bw) ** 2 + fc * fc)
     return fc * fc / hi, hi
 

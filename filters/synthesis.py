@@ -25,11 +25,12 @@ from .designfile import design_to_dict
 from .engine import gain2_at
 from .errors import InputError
 from .grades import builtin_catalog
-from .ideal_response import ErrorLimits, IdealResponse, error_checks, starting_mask
-from .nominal_measure import measure_cutoff, stage_fq
+from .ideal_response import ErrorLimits, IdealResponse, error_checks, starting_mask, stop_grid
+from .nominal_measure import measure_cutoff, stage_fq, stage_notches
 from .opamp_check import GbwWarning, gbw_warnings
-from .prototypes import (MAX_ORDER, RESPONSES, RIPPLES_DB, TWO_PI, check_family, omega_edges,
-                         pair_poles, target_zpk)
+from .prototypes import (MAX_ORDER, RESPONSES, RIPPLES_DB, STOPBAND_DB, STOPBAND_RESPONSES, TWO_PI,
+                         check_family, omega_edges, pair_sections, target_zpk)
+from .topologies import NOTCHES
 from .synthesis_result import KIND_LABEL, SectionReport, SynthesisResult, hz_text
 from .values import E_SERIES
 
@@ -39,8 +40,10 @@ __all__ = [
     "RESPONSES",
     "KINDS",
     "RIPPLES_DB",
+    "STOPBAND_DB",
     "MAX_ORDER",
     "TOPOLOGY_CHOICES",
+    "NOTCH_FOR",
     "ErrorLimits",
     "SynthesisResult",
     "synthesize",
@@ -49,14 +52,17 @@ __all__ = [
 HALF_POWER_DB = 10 * math.log10(2)   # 3.0103 dB: |H|^2 halves
 LR_CROSSOVER_DB = 20 * math.log10(2)  # 6.0206 dB: |H| halves (Linkwitz-Riley crossover)
 
-KINDS = ("lowpass", "highpass", "bandpass")
+KINDS = ("lowpass", "highpass", "bandpass", "bandstop")
 TOPOLOGY_CHOICES = {
     "lowpass": ("sallen_key_lowpass", "mfb_lowpass"),
     "highpass": ("sallen_key_highpass", "mfb_highpass"),
     "bandpass": ("mfb_bandpass",),
+    "bandstop": ("notch",),
 }
+#: The notch section a response with zeros (elliptic, inverse Chebyshev, any band-stop) uses.
+NOTCH_FOR = {"lowpass": "notch_lowpass", "highpass": "notch_highpass", "bandstop": "notch"}
 _LABEL = {"butterworth": "Butterworth", "chebyshev": "Chebyshev", "bessel": "Bessel",
-          "linkwitz_riley": "Linkwitz-Riley"}
+          "linkwitz_riley": "Linkwitz-Riley", "elliptic": "Elliptic", "inverse_chebyshev": "Inverse Chebyshev"}
 
 
 def _cross(rel: np.ndarray, f: np.ndarray, level: float, rising: bool) -> np.ndarray:
@@ -81,7 +87,8 @@ def _refine_jointly(stages: list[dict[str, Any]], choices: list[list["SectionCho
     """Which candidate of every section to build: coordinate descent over the sections,
     starting from each section's own best, on the whole cascade's worst error relative to
     its limit (cutoff or centre and bandwidth from interpolated crossings, passband shape
-    and ripple against ``ideal``, each section's own f0 and Q error). Responses come from
+    and ripple against ``ideal``, each section's own f0, Q and notch frequency error, and
+    any rise above the stopband an elliptic or inverse Chebyshev response guarantees). Responses come from
     the engine on one frequency grid per section candidate; each step evaluates one
     section's candidates together (no loop over candidates). Per-section choices alone let
     every section err the same way (a Bessel order 6 cutoff 2 % low)."""
@@ -94,24 +101,32 @@ def _refine_jointly(stages: list[dict[str, Any]], choices: list[list["SectionCho
         ref_f, windows = np.array([fc * 1e-3]), [np.geomspace(0.7 * fc, 1.4 * fc, 161)]
     elif kind == "highpass":
         ref_f, windows = np.array([fc * 1e3]), [np.geomspace(fc / 1.4, fc / 0.7, 161)]
+    elif kind == "bandstop":
+        assert bw is not None
+        lo, hi = omega_edges(fc, bw, 1.0)
+        ref_f = np.array([ideal.f[0]])
+        windows = [np.geomspace(lo / 1.1, lo * 1.1, 161), np.geomspace(hi / 1.1, hi * 1.1, 161)]
     else:
         assert bw is not None
         lo, hi = omega_edges(fc, bw, 1.0)
         ref_f = np.empty(0)
         windows = [np.geomspace(lo / 1.1, lo * 1.1, 161), np.geomspace(hi / 1.1, hi * 1.1, 161)]
-    f = np.concatenate([ref_f, pas, *windows])
+    stop = stop_grid(ideal.stop)[::10] if ideal.stop is not None else np.empty(0)
+    f = np.concatenate([ref_f, pas, *windows, stop])
     sl_pas = slice(ref_f.size, ref_f.size + pas.size)
     sl_win = [slice(ref_f.size + pas.size + k * 161, ref_f.size + pas.size + (k + 1) * 161)
               for k in range(len(windows))]
+    sl_stop = slice(f.size - stop.size, f.size)
     sec_db, sec_err = [], []
     for st, cs in zip(stages, choices):
         roles = ROLES[st["topology"]]
         _, coeffs = section_coeffs(st["topology"], roles, np.array([[c.values[r] for r in roles] for c in cs]))
         g2 = gain2_at(coeffs, np.broadcast_to(f, (len(cs), f.size)))
         sec_db.append(10 * np.log10(np.maximum(g2, 1e-300)))
-        f0t, qt = st["target"]
+        f0t, qt, fzt = st["target"]
         sec_err.append(np.array([max(abs(c.f0_hz / f0t - 1) / limits.cutoff,
-                                     0.0 if qt is None or c.q is None else abs(c.q / qt - 1) / limits.q)
+                                     0.0 if qt is None or c.q is None else abs(c.q / qt - 1) / limits.q,
+                                     0.0 if fzt is None or c.fz_hz is None else abs(c.fz_hz / fzt - 1) / limits.cutoff)
                                  for c in cs]))
     ideal_db = 10 * np.log10(np.maximum(ideal.g2(f), 1e-300) / ideal.ref2)
     c_ideal, b_ideal = ideal.cutoff()
@@ -122,9 +137,11 @@ def _refine_jointly(stages: list[dict[str, Any]], choices: list[list["SectionCho
         p = rel[:, sl_pas]
         terms = [np.max(np.abs(p - ideal_db[sl_pas]), axis=1) / limits.gain_db,
                  np.abs(np.ptp(p, axis=1) - np.ptp(ideal_db[sl_pas])) / limits.gain_db, sec_worst]
-        if kind == "bandpass":
-            lower = _cross(rel[:, sl_win[0]], windows[0], level, rising=True)
-            upper = _cross(rel[:, sl_win[1]], windows[1], level, rising=False)
+        if stop.size:  # the guaranteed stopband: only a rise above its level counts
+            terms.append(np.maximum(0.0, np.max(rel[:, sl_stop], axis=1) - ideal.stop_db) / limits.gain_db)
+        if kind in ("bandpass", "bandstop"):
+            lower = _cross(rel[:, sl_win[0]], windows[0], level, rising=kind == "bandpass")
+            upper = _cross(rel[:, sl_win[1]], windows[1], level, rising=kind == "bandstop")
             terms += [np.abs(np.sqrt(lower * upper) / c_ideal - 1) / limits.cutoff,
                       np.abs((upper - lower) / b_ideal - 1) / limits.bandwidth]  # type: ignore[operator]
         else:
@@ -174,7 +191,8 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
                series: str = "E24", cap_series: str = "E12", gbw_hz: float | None = None,
                ripple_db: float | None = None, snap: bool = True,
                resistor_grade: str = "R-thick-1", capacitor_grade: str = "C-C0G-5",
-               opamp_grade: str = "OPAMP-GBW-50", limits: ErrorLimits | None = None) -> SynthesisResult:
+               opamp_grade: str = "OPAMP-GBW-50", limits: ErrorLimits | None = None,
+               stopband_db: float | None = None) -> SynthesisResult:
     """Build a design realising ``response`` of ``order`` at ``cutoff_hz`` (Hz).
 
     ``kind``: "lowpass", "highpass" or "bandpass". A low-pass or high-pass cutoff is the
@@ -216,30 +234,35 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     result's :attr:`SynthesisResult.checks` are held against: errors of the snapped design
     (ideal op-amps, the engine) against the ideal ``scipy.signal`` response.
     """
-    check_family(response, order, ripple_db)
+    check_family(response, order, ripple_db, stopband_db)
     limits = (limits or ErrorLimits()).checked()
     if kind not in KINDS:
         raise InputError(f"must be one of {', '.join(KINDS)}, not {kind!r}", "kind")
+    if kind == "bandpass" and response in STOPBAND_RESPONSES:
+        raise InputError(f"an {_LABEL[response].lower()} response is built as a low-pass, high-pass or "
+                         "band-stop, not a band-pass", "kind")
     fc = _positive(cutoff_hz, "cutoff_hz")
     if not 1e-3 <= fc <= 1e10:
         raise InputError(f"must be from 1 mHz to 10 GHz, not {fc:g} Hz", "cutoff_hz")
-    if kind == "bandpass":
+    if kind in ("bandpass", "bandstop"):
         if response == "linkwitz_riley":
             raise InputError("a Linkwitz-Riley response is a low-pass or high-pass crossover", "kind")
         if bandwidth_hz is None:
-            raise InputError("a band-pass needs its bandwidth in Hz", "bandwidth_hz")
+            raise InputError(f"a {KIND_LABEL[kind]} needs its bandwidth in Hz", "bandwidth_hz")
         bw = _positive(bandwidth_hz, "bandwidth_hz")
         if not 1e-3 * fc <= bw <= 10 * fc:
             raise InputError(f"must be from 1/1000 of the centre frequency to 10 times it, not {bw:g} Hz",
                              "bandwidth_hz")
     else:
         if bandwidth_hz is not None:
-            raise InputError("a bandwidth applies to a band-pass only", "bandwidth_hz")
+            raise InputError("a bandwidth applies to a band-pass or band-stop only", "bandwidth_hz")
         bw = None
-    topo = topology or TOPOLOGY_CHOICES[kind][0]
-    if topo not in TOPOLOGY_CHOICES[kind]:
-        raise InputError(f"a {KIND_LABEL[kind]} is built from {' or '.join(TOPOLOGY_CHOICES[kind])}, "
-                         f"not {topo!r}", "topology")
+    allowed = (NOTCH_FOR[kind],) if response in STOPBAND_RESPONSES or kind == "bandstop" else TOPOLOGY_CHOICES[kind]
+    topo = topology or allowed[0]
+    if topo not in allowed:
+        what = (f"an {_LABEL[response].lower()} {KIND_LABEL[kind]}" if response in STOPBAND_RESPONSES
+                else f"a {KIND_LABEL[kind]}")
+        raise InputError(f"{what} is built from {' or '.join(allowed)}, not {topo!r}", "topology")
     for name, path in ((series, "series"), (cap_series, "cap_series")):
         if name not in E_SERIES:
             raise InputError(f"unknown series {name!r}; use one of {', '.join(E_SERIES)}", path)
@@ -251,9 +274,9 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
             raise InputError(f"must be from 1 kHz to 1 THz, not {gbw_hz:g} Hz", "gbw_hz")
         _check_grade(opamp_grade, "opamp", "opamp_grade")
 
-    # Target: poles moved to the cutoff, paired into sections (Hz).
-    _, poles, _ = target_zpk(response, order, fc, kind, bw, ripple_db)
-    targets = [(w / TWO_PI, q) for w, q in pair_poles(poles)]
+    # Target: poles moved to the cutoff, paired into sections with their zeros (Hz).
+    zeros, poles, _ = target_zpk(response, order, fc, kind, bw, ripple_db, stopband_db)
+    targets = [(w / TWO_PI, q, None if wz is None else wz / TWO_PI) for w, q, wz in pair_sections(zeros, poles)]
 
     # Cutoff level and analysis range.
     if response == "linkwitz_riley":
@@ -263,7 +286,7 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
         cutoff_db = HALF_POWER_DB + ripple_db
     else:
         cutoff_db = HALF_POWER_DB
-    if kind == "bandpass":
+    if kind in ("bandpass", "bandstop"):
         assert bw is not None
         f_hi = 0.5 * bw + math.sqrt(0.25 * bw * bw + fc * fc)
         f_lo = fc * fc / f_hi
@@ -277,30 +300,31 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     stages: list[dict[str, Any]] = []
     refusals: list[tuple[float, InputError]] = []
     choices: list[list[SectionChoice]] = []
-    for i, (f0, q) in enumerate(targets, 1):
+    for i, (f0, q, fz) in enumerate(targets, 1):
         if q is None:
             t = "rc_lowpass" if kind == "lowpass" else "rc_highpass"
             gain = 1.0
             name = f"S{i} first order, fc {hz_text(f0)}"
         else:
-            t = topo
+            t = topo if fz is not None or topo not in NOTCHES else TOPOLOGY_CHOICES[kind][0]
             gain = _bandpass_section_gain(f0, q, fc) if t == "mfb_bandpass" else 1.0
-            name = f"S{i} f0 {hz_text(f0)}, Q {q:.3f}"
+            name = f"S{i} f0 {hz_text(f0)}, Q {q:.3f}" + (f", notch {hz_text(fz)}" if fz is not None else "")
         try:
-            choices.append(section_choices(i, t, f0, q, kind, series, cap_series, gain, snap))
+            choices.append(section_choices(i, t, f0, q, kind, series, cap_series, gain, snap, fz))
         except InputError as exc:  # name the hardest section (highest Q), not the first
             refusals.append((q or 0.0, exc))
             continue
-        stages.append({"topology": t, "name": name, "target": (f0, q)})
+        stages.append({"topology": t, "name": name, "target": (f0, q, fz)})
     if refusals:
         raise max(refusals, key=lambda r: r[0])[1]
     ideal = IdealResponse.of(response, order, fc, kind, bw, ripple_db, cutoff_db,
-                             Analysis(f_start=f_start, f_stop=f_stop))
+                             Analysis(f_start=f_start, f_stop=f_stop), stopband_db)
     picks = _refine_jointly(stages, choices, ideal, limits, fc, bw)
     for st, cs, k in zip(stages, choices, picks):
         st["exact"], st["values"] = cs[k].exact, cs[k].values
 
-    label = _LABEL[response] + (f" {ripple_db:g} dB" if ripple_db is not None else "")
+    label = (_LABEL[response] + (f" {ripple_db:g} dB" if ripple_db is not None else "")
+             + (f", stopband {stopband_db:g} dB" if stopband_db is not None else ""))
     title = (f"{label} {KIND_LABEL[kind]}, order {order}, "
              + (f"centre {hz_text(fc)}, bandwidth {hz_text(bw)}" if bw is not None else f"cutoff {hz_text(fc)}")
              + " (synthesized)")
@@ -312,9 +336,11 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     snapped = _build(stages, "values", grades, None, analysis, title, "")
     exact_m = stage_fq(exact)
     snapped_m = stage_fq(snapped)
+    exact_z, snapped_z = stage_notches(exact), stage_notches(snapped)
     reports = tuple(
         SectionReport(st["name"], st["topology"], st["target"][0], st["target"][1],
-                      exact_m[i][0], exact_m[i][1], snapped_m[i][0], snapped_m[i][1])
+                      exact_m[i][0], exact_m[i][1], snapped_m[i][0], snapped_m[i][1],
+                      st["target"][2], exact_z[i], snapped_z[i])
         for i, st in enumerate(stages))
 
     c_exact, b_exact = measure_cutoff(exact)
@@ -322,8 +348,9 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     checks = error_checks(snapped, ideal, reports, limits, exact)
 
     description = (
-        f"Synthesized: {label} {KIND_LABEL[kind]} prototype (scipy.signal poles), one section per "
-        "pole pair, lowest Q first. Capacitors from " + cap_series + ", resistors "
+        f"Synthesized: {label} {KIND_LABEL[kind]} prototype (scipy.signal poles and zeros), one section per "
+        "pole pair (with its nearest zero pair in a notch section), lowest Q first. Capacitors from "
+        + cap_series + ", resistors "
         + (f"chosen from {series}" if snap else "exact") + ". Stages are taken as buffered; a first-order "
         "RC section needs a high-impedance load (a follower) on the board. The mask is a starting "
         "point: edit it to your specification.")
@@ -337,7 +364,7 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
         rows = tuple(gbw_warnings(final))
     return SynthesisResult(final, response, kind, order, ripple_db, cutoff_db, reports, fc, c_exact,
                            c_snap, bw, b_exact, b_snap, c_gbw, rows, series, cap_series, snap,
-                           checks, limits)
+                           checks, limits, stopband_db)
 
 
 def _build(stages: list[dict[str, Any]], key: str, grades: dict[str, str],
@@ -355,10 +382,11 @@ def _build(stages: list[dict[str, Any]], key: str, grades: dict[str, str],
             parts.append({"ref": ref, "value": float(v), "grade": grades[kind]})
             roles[role] = ref
         if gbw_hz is not None and not st["topology"].startswith("rc_"):
-            counters["U"] += 1
-            ref = f"U{counters['U']}"
-            parts.append({"ref": ref, "value": gbw_hz, "grade": grades["opamp"]})
-            roles["U1"] = ref
+            for role in (("U1", "U2", "U3") if st["topology"] in NOTCHES else ("U1",)):
+                counters["U"] += 1
+                ref = f"U{counters['U']}"
+                parts.append({"ref": ref, "value": gbw_hz, "grade": grades["opamp"]})
+                roles[role] = ref
         options = stage_options(st["topology"])
         d: dict[str, Any] = {"topology": st["topology"], "name": st["name"], "parts": roles}
         if options:

@@ -20,7 +20,7 @@ from .values import format_value
 __all__ = ["KIND_LABEL", "SectionReport", "SynthesisResult", "opamp_table_text", "hz_text", "q_text",
            "pct_text"]
 
-KIND_LABEL = {"lowpass": "low-pass", "highpass": "high-pass", "bandpass": "band-pass"}
+KIND_LABEL = {"lowpass": "low-pass", "highpass": "high-pass", "bandpass": "band-pass", "bandstop": "band-stop"}
 
 
 @dataclass(frozen=True)
@@ -28,6 +28,7 @@ class SectionReport:
     """One stage: target, exact (resistors as solved) and snapped f0 (Hz) and Q.
 
     ``q`` fields are None for a first-order stage (its f0 is the -3 dB corner).
+    ``*_fz_hz``: a notch section's notch frequency (Hz; None for other stages).
     The exact and snapped values are measured on the built design with ideal op-amps.
     """
 
@@ -39,6 +40,9 @@ class SectionReport:
     unsnapped_q: float | None
     snapped_f0_hz: float
     snapped_q: float | None
+    target_fz_hz: float | None = None
+    unsnapped_fz_hz: float | None = None
+    snapped_fz_hz: float | None = None
 
     @property
     def f0_error(self) -> float:
@@ -84,6 +88,7 @@ class SynthesisResult:
     snapped: bool = True
     checks: tuple[ErrorCheck, ...] = ()
     limits: ErrorLimits = ErrorLimits()
+    stopband_db: float | None = None
 
     @property
     def exceeded(self) -> tuple[ErrorCheck, ...]:
@@ -128,10 +133,17 @@ class SynthesisResult:
                 f"{hz_text(s.unsnapped_f0_hz):>11} {q_text(s.unsnapped_q):>7}   "
                 f"{hz_text(s.snapped_f0_hz):>11} {q_text(s.snapped_q):>7}   "
                 f"{pct_text(s.f0_error):>8} {pct_text(s.q_error):>8}")
+        for s in self.sections:
+            if s.target_fz_hz is not None:
+                lines.append(f"  {s.stage.split(' ')[0]} notch: target {hz_text(s.target_fz_hz)}, exact "
+                             f"{hz_text(s.unsnapped_fz_hz)}, snapped {hz_text(s.snapped_fz_hz)} "
+                             f"({pct_text(None if s.snapped_fz_hz is None else s.snapped_fz_hz / s.target_fz_hz - 1)})")
         lines.append("")
-        what = "centre" if self.kind == "bandpass" else "cutoff"
+        what = "centre" if self.kind in ("bandpass", "bandstop") else "cutoff"
         level = (f"geometric mean of the band edges {self.cutoff_db:.2f} dB below the peak"
-                 if self.kind == "bandpass" else f"{self.cutoff_db:.2f} dB below the passband gain")
+                 if self.kind == "bandpass" else
+                 f"geometric mean of the stop band's edges {self.cutoff_db:.2f} dB below the DC gain"
+                 if self.kind == "bandstop" else f"{self.cutoff_db:.2f} dB below the passband gain")
         lines.append(f"{what} ({level}): target "
                      f"{hz_text(self.cutoff_target_hz)}, exact {hz_text(self.cutoff_unsnapped_hz)}, "
                      f"snapped {hz_text(self.cutoff_snapped_hz)} ({pct_text(self.cutoff_error)} from snapping)")
@@ -154,9 +166,11 @@ class SynthesisResult:
             lines.append("")
             lines.append(warning)
         lines.append("")
+        stop = (f"stopband ceiling at the {self.stopband_db:g} dB the response guarantees, from the stopband edge"
+                if self.stopband_db is not None else "stopband ceiling 6 dB above it")
         lines.append("The mask is a starting point (passband floor, passband ceiling "
-                     f"{CEILING_ALLOWANCE_DB:g} dB above the ideal response, stopband ceiling 6 dB above "
-                     "it); edit it to your specification.")
+                     f"{CEILING_ALLOWANCE_DB:g} dB above the ideal response, {stop}); edit it to your "
+                     "specification.")
         return "\n".join(lines)
 
     def centre_gain_lines(self) -> list[str]:

@@ -25,11 +25,13 @@ __all__ = [
     "lc_ladder",
     "sallen_key",
     "mfb",
+    "notch",
+    "NOTCHES",
     "TOPOLOGIES",
     "build",
 ]
 
-ResponseKind = Literal["lowpass", "highpass", "bandpass"]
+ResponseKind = Literal["lowpass", "highpass", "bandpass", "bandstop"]
 RoleKind = Literal["R", "L", "C", "opamp"]
 
 
@@ -201,6 +203,38 @@ def mfb(options: dict[str, Any], kind: ResponseKind) -> Topology:
                     description=f"multiple-feedback {kind}")
 
 
+def notch(options: dict[str, Any], kind: ResponseKind) -> Topology:
+    """Notch section: a two-integrator-loop (Tow-Thomas) biquad with feedforward, the output
+    at the first (lossy) integrator (tests/REFERENCES.md section 16).
+
+    U1 (lossy integrator): C1 and R1 in parallel from its inverting input X to the output
+    ``out``, R2 from U3's output to X, feedforward C3 from the input to X. U2 (integrator):
+    R3 from ``out`` to its inverting input Y, C2 from Y to its output, feedforward R4 from
+    the input to Y. U3 (inverter): R5 from U2's output to its inverting input Z, R6 from Z
+    to its output. Every non-inverting input is grounded. By nodal analysis
+
+        H(s) = -(C3/C1) (s^2 + wz^2) / (s^2 + s w0/Q + w0^2),
+        w0^2 = R6 / (R2 R3 R5 C1 C2),  Q = w0 R1 C1,  wz^2 = R6 / (R2 R4 R5 C2 C3),
+
+    so the DC gain is -R3/R4 and the high-frequency gain -C3/C1. ``notch_lowpass``
+    (wz above w0: the sections of an elliptic or inverse Chebyshev low-pass),
+    ``notch_highpass`` (wz below w0) and ``notch`` (a band-stop's sections, judged as a
+    band-stop) are this one netlist; only the response kind the design is judged as differs.
+    """
+    _check_options(options, ())
+    els = [Element("C", "C1", "x", "out"), Element("R", "R1", "x", "out"), Element("R", "R2", "n3", "x"),
+           Element("C", "C3", "in", "x"), Element("R", "R3", "out", "y"), Element("C", "C2", "y", "n2"),
+           Element("R", "R4", "in", "y"), Element("R", "R5", "n2", "z"), Element("R", "R6", "z", "n3")]
+    net = Netlist(tuple(els), (OpAmp("U1", "0", "x", "out"), OpAmp("U2", "0", "y", "n2"),
+                               OpAmp("U3", "0", "z", "n3")))
+    name = "notch" if kind == "bandstop" else f"notch_{kind}"
+    return Topology(name, kind, net, _elements_roles(els), {"U1": "opamp", "U2": "opamp", "U3": "opamp"},
+                    description=f"two-integrator-loop notch ({kind})")
+
+
+#: The notch section's names (one netlist: see :func:`notch`).
+NOTCHES = ("notch_lowpass", "notch_highpass", "notch")
+
 TOPOLOGIES: dict[str, Callable[[dict[str, Any]], Topology]] = {
     "rc_lowpass": lambda o: rc_ladder(o, highpass=False),
     "rc_highpass": lambda o: rc_ladder(o, highpass=True),
@@ -210,6 +244,9 @@ TOPOLOGIES: dict[str, Callable[[dict[str, Any]], Topology]] = {
     "mfb_lowpass": lambda o: mfb(o, "lowpass"),
     "mfb_highpass": lambda o: mfb(o, "highpass"),
     "mfb_bandpass": lambda o: mfb(o, "bandpass"),
+    "notch_lowpass": lambda o: notch(o, "lowpass"),
+    "notch_highpass": lambda o: notch(o, "highpass"),
+    "notch": lambda o: notch(o, "bandstop"),
 }
 
 

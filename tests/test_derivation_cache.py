@@ -121,7 +121,7 @@ def test_every_library_netlist_cached_gives_the_sympy_numbers(cache, monkeypatch
     from tolspread.netlist import agrees_with_nodal_solution, derive, symbolic_coefficients
 
     nets = library_netlists()
-    assert len(nets) == 54  # 32 RC ladders, 8 LC ladders, 8 Sallen-Key, 6 multiple-feedback
+    assert len(nets) == 60  # 32 RC ladders, 8 LC ladders, 8 Sallen-Key, 6 multiple-feedback, 6 notch
     fresh = {}
     for label, net in nets:
         fresh[label] = tf = derive(net)  # derived with sympy, then stored

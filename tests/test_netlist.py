@@ -137,7 +137,7 @@ def test_every_registered_topology_builds_with_declared_roles():
     for name in TOPOLOGIES:
         topo = build(name)
         assert set(topo.netlist.roles) == set(topo.roles), name
-        assert topo.kind in ("lowpass", "highpass", "bandpass")
+        assert topo.kind in ("lowpass", "highpass", "bandpass", "bandstop")
         with_u = topo.with_opamps({"U1"})
         if topo.optional_roles:
             assert "U1" in with_u.roles and "U1" not in topo.netlist.roles

@@ -98,6 +98,9 @@ OPTION_STRATEGIES = {
     "mfb_lowpass": st.just({}),
     "mfb_highpass": st.just({}),
     "mfb_bandpass": st.just({}),
+    "notch_lowpass": st.just({}),
+    "notch_highpass": st.just({}),
+    "notch": st.just({}),
 }
 
 
@@ -258,7 +261,7 @@ def check_metrics(design: Design, metrics: dict[str, np.ndarray], gain_db: np.nd
                   freqs: np.ndarray, values: np.ndarray) -> None:
     """Every metric finite, except a NaN that the curve or the poles show is by design."""
     kind = _response_kind(design)
-    assert ("centre_hz" in metrics) == (kind == "bandpass")
+    assert ("centre_hz" in metrics) == (kind in ("bandpass", "bandstop"))
     ref = metrics["reference_db"]
     level = ref - design.analysis.cutoff_db
     tol = 1e-6  # dB: the library compares |H|^2 against the level, this file dB values
@@ -281,6 +284,10 @@ def check_metrics(design: Design, metrics: dict[str, np.ndarray], gain_db: np.nd
                     assert g[-1] >= lv - tol or g.max() < lv + tol, (name, i, lv, g[[0, -1]], g.max())
                 elif name == "cutoff_hz":
                     assert g[0] >= lv - tol or g.max() < lv + tol, (name, i, lv, g[[0, -1]], g.max())
+                elif name in ("lower_hz", "upper_hz") and kind == "bandstop":
+                    # no stop band on the grid, or no point at the level on that side of the notch
+                    side = freqs < freqs[np.argmin(g)] if name == "lower_hz" else freqs > freqs[np.argmin(g)]
+                    assert g.min() >= lv - tol or np.all(g[side] < lv + tol), (name, i)
                 elif name == "lower_hz":
                     left = freqs < freqs[np.argmax(g)]  # left of the peak (centre_hz needs both edges)
                     assert np.all(g[left] >= lv - tol), (name, i)

@@ -188,7 +188,13 @@ def test_linkwitz_riley_4_is_butterworth_2_squared():
 
 
 @pytest.mark.parametrize("kwargs,path", [
-    (dict(response="elliptic", order=4), "response"),
+    (dict(response="cauer", order=4), "response"),
+    (dict(response="elliptic", order=4, stopband_db=40.0), "ripple_db"),
+    (dict(response="elliptic", order=4, ripple_db=0.5), "stopband_db"),
+    (dict(response="elliptic", order=4, ripple_db=0.5, stopband_db=5.0), "stopband_db"),
+    (dict(response="inverse_chebyshev", order=4, stopband_db=200.0), "stopband_db"),
+    (dict(response="inverse_chebyshev", order=4, ripple_db=0.5, stopband_db=40.0), "ripple_db"),
+    (dict(response="butterworth", order=4, stopband_db=40.0), "stopband_db"),
     (dict(response="butterworth", order=0), "order"),
     (dict(response="butterworth", order=11), "order"),
     (dict(response="linkwitz_riley", order=3), "order"),
@@ -436,8 +442,13 @@ def test_starting_mask_passes_nominal_with_stopband_margin_near_6_db(case):
 @pytest.mark.parametrize("kwargs,path", [
     (dict(cutoff_hz=0.0), "cutoff_hz"),
     (dict(cutoff_hz=float("nan")), "cutoff_hz"),
-    (dict(kind="bandstop"), "kind"),
+    (dict(kind="allpass"), "kind"),
     (dict(kind="bandpass"), "bandwidth_hz"),
+    (dict(kind="bandstop"), "bandwidth_hz"),
+    (dict(kind="bandstop", bandwidth_hz=100.0, topology="mfb_bandpass"), "topology"),
+    (dict(response="elliptic", ripple_db=0.5, stopband_db=40.0, kind="bandpass", bandwidth_hz=100.0), "kind"),
+    (dict(response="inverse_chebyshev", stopband_db=40.0, topology="sallen_key_lowpass"), "topology"),
+    (dict(response="inverse_chebyshev"), "stopband_db"),
     (dict(bandwidth_hz=100.0), "bandwidth_hz"),
     (dict(topology="mfb_bandpass"), "topology"),
     (dict(series="E7"), "series"),
