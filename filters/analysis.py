@@ -119,7 +119,22 @@ class AnalysisResult:
 
 
 def yield_of(ens: Ensemble, confidence: float, method: str) -> tuple[YieldEstimate, list[SpanFailures]]:
-    """Yield with its interval, and the per-span failure breakdown."""
+    """Yield with its interval, and the per-span failure breakdown.
+
+    Parameters
+    ----------
+    ens : Ensemble
+        An evaluated ensemble (``ens.passed``: (S,) bool; ``ens.margins``: (S, spans)).
+    confidence : float
+        Confidence of the interval, a fraction in (0, 1).
+    method : str
+        Interval method (:data:`filters.stats.INTERVAL_METHODS`).
+
+    Returns
+    -------
+    tuple[YieldEstimate, list[SpanFailures]]
+        The yield (fractions) and, per span of the mask, the boards that fail it.
+    """
     est = yield_estimate(ens.passed, None, confidence, method)  # type: ignore[arg-type]
     names = [s.label for s in ens.design.mask]
     spans = failure_breakdown(ens.margins >= 0, ens.margins, names) if names else []
@@ -203,6 +218,49 @@ def analyze(design: Design, *, samples: int | None = None, seed: int | None = No
     Raises :class:`~tolspread.errors.InputError` when the boards would keep more numbers
     than the memory rule allows (:func:`filters.memory.check_boards`), before any work;
     ``should_stop()`` returning True raises :class:`~tolspread.errors.Cancelled`.
+
+    Parameters
+    ----------
+    design : Design
+        The design to analyse (its mask defines passing).
+    samples : int, optional
+        Number of boards (default: the design's ``analysis.samples``).
+    seed : int, optional
+        Seed of the boards (default: the design's).
+    method : str, optional
+        Sampling method, ``"random"`` or ``"sobol"`` (default: the design's).
+    interval : str, optional
+        Yield interval method (default: the design's).
+    half_width : float, optional
+        Add boards until the yield interval's half-width (a fraction) is at most this.
+    max_samples : int
+        Most boards an adaptive run (``half_width``) may use.
+    grades : sequence of Grade, optional
+        One grade per part (design order) in place of the design's.
+    budget : bool
+        Compute the spread budget.
+    with_corners : bool
+        Compute the corners and RSS estimates.
+    curves : int
+        Keep the responses of the first this many boards (0: none).
+    second : str
+        The curves' second quantity, ``"phase"`` (deg) or ``"delay"`` (s).
+    prepared : Prepared, optional
+        A :func:`filters.evaluate.prepare` of ``design`` to reuse.
+    samples_path : str, optional
+        Field path named when the memory rule refuses the board count.
+    rare : str
+        High-yield estimate: ``"off"``, ``"always"`` or ``"auto"``.
+    progress : callable, optional
+        ``progress(done, total)`` with counts of boards.
+    should_stop : callable, optional
+        ``should_stop()`` returning True cancels the run.
+
+    Returns
+    -------
+    AnalysisResult
+        Yield with its interval, failures per span, metric summaries, spread budget,
+        corners and, when asked, curves and the high-yield estimate.
     """
     a = design.analysis
     interval = interval or a.interval
@@ -290,7 +348,20 @@ def completed(result: AnalysisResult, *, curves: int | None = None) -> AnalysisR
     the spread budget and the corners when it was run without them, and its curves cut to
     the first ``curves`` boards (bands taken again). No sampled board is evaluated again
     (the corners evaluate their corner designs only). Raises ValueError when ``curves`` is
-    asked of a result that kept none."""
+    asked of a result that kept none.
+
+    Parameters
+    ----------
+    result : AnalysisResult
+        A result of :func:`analyze`.
+    curves : int, optional
+        Keep the curves of the first this many boards (default: as kept).
+
+    Returns
+    -------
+    AnalysisResult
+        A new result; ``result`` is unchanged.
+    """
     if curves is not None and result.curves is None:
         raise ValueError("this result kept no curves: analyze(design, ..., curves=N)")
     ens, prep = result.ensemble, result.prepared

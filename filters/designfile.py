@@ -69,7 +69,25 @@ MIGRATIONS: dict[int, Callable[[dict[str, Any]], dict[str, Any]]] = {1: _v1_to_v
 
 
 def parse_text(text: str, source: str = "design") -> dict[str, Any]:
-    """Parse design-file text into a current-version dict (migrated), not yet validated."""
+    """Parse design-file text into a current-version dict (migrated), not yet validated.
+
+    Parameters
+    ----------
+    text : str
+        The file's JSON text.
+    source : str
+        What the text is, for messages (a file name, "design").
+
+    Returns
+    -------
+    dict[str, Any]
+        The design's dict in the current file format.
+
+    Raises
+    ------
+    InputError
+        When the text is not JSON of a design or cannot be migrated.
+    """
     data = parse_json(text, source, limit=MAX_BYTES, max_depth=MAX_DEPTH, what="design file")
     if not isinstance(data, dict):
         raise InputError("a design file holds one JSON object", source)
@@ -89,14 +107,43 @@ def parse_text(text: str, source: str = "design") -> dict[str, Any]:
 
 
 def loads(text: str, source: str = "design") -> Design:
-    """Read a design from JSON text; raises InputError/ValidationError naming the field."""
+    """Read a design from JSON text; raises InputError/ValidationError naming the field.
+
+    Parameters
+    ----------
+    text : str
+        Design-file JSON text.
+    source : str
+        What the text is, for messages (a file name, "design").
+
+    Returns
+    -------
+    Design
+        The validated design.
+    """
     return design_from_dict(parse_text(text, source))
 
 
 def load(path: str | Path) -> Design:
     """Read a design file (a regular file of at most ``MAX_BYTES``). Temporary files that
     a killed save of it left beside it are removed (the window's start opens a design
-    through here)."""
+    through here).
+
+    Parameters
+    ----------
+    path : str or Path
+        The design file (JSON).
+
+    Returns
+    -------
+    Design
+        The validated design.
+
+    Raises
+    ------
+    InputError, ValidationError
+        When the file cannot be read or holds no valid design (each problem with its path).
+    """
     p = Path(path)
     text = read_text(p, MAX_BYTES, what="design file")
     remove_orphan_temporaries(p)
@@ -115,7 +162,18 @@ def _exact_text(x: float) -> str:
 
 def design_to_dict(design: Design) -> dict[str, Any]:
     """The design file's dict form of ``design`` (current format and version); a part keeps
-    the value text it was written with, else a text that parses back to its exact value."""
+    the value text it was written with, else a text that parses back to its exact value.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    dict[str, Any]
+        Plain JSON-ready data (values in SI units, tolerances in %, frequencies in Hz).
+    """
     a = design.analysis
     out: dict[str, Any] = {"format": FORMAT_TAG, "version": VERSION}
     if design.name:
@@ -167,12 +225,33 @@ def check_design(design: Design) -> Design:
     The window calls this before accepting an edit, so whatever it accepts saves into a
     file that opens. Returns the design as the loader builds it; raises
     :class:`ValidationError` listing every problem with its path.
+
+    Parameters
+    ----------
+    design : Design
+        The design to check.
+
+    Returns
+    -------
+    Design
+        The design as the loader builds it from its file form.
     """
     return design_from_dict(design_to_dict(design))
 
 
 def dumps(design: Design) -> str:
-    """The design as design-file text (JSON, indented, ends with a newline)."""
+    """The design as design-file text (JSON, indented, ends with a newline).
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    str
+        JSON text of the current file format.
+    """
     return json.dumps(design_to_dict(design), indent=2, ensure_ascii=False) + "\n"
 
 
@@ -180,22 +259,54 @@ def save(design: Design, path: str | Path, *, backup: bool = True) -> None:
     """Write ``design`` to ``path`` atomically; keep the previous file as ``path.bak``.
 
     On failure the old file is intact and :class:`InputError` says why.
+
+    Parameters
+    ----------
+    design : Design
+        The design to write.
+    path : str or Path
+        The design file to write (JSON).
+    backup : bool
+        Keep the previous file as ``path.bak``.
     """
     write_text_atomic(path, dumps(design), backup=backup)
 
 
 def problems_text(exc: InputError) -> list[str]:
-    """Every problem of ``exc`` as one line each."""
+    """Every problem of ``exc`` as one line each.
+
+    Parameters
+    ----------
+    exc : InputError
+        An input error (a :class:`ValidationError` lists several problems).
+
+    Returns
+    -------
+    list[str]
+        One line per problem, each with its field path.
+    """
     return exc.lines() if isinstance(exc, ValidationError) else [str(exc)]
 
 
 def demo_text() -> str:
-    """The built-in demo design's file text (an invented scenario)."""
+    """The built-in demo design's file text (an invented scenario).
+
+    Returns
+    -------
+    str
+        Design-file JSON text.
+    """
     from importlib import resources
 
     return resources.files(__package__).joinpath("data/demo_design.json").read_text(encoding="utf-8")
 
 
 def load_demo() -> Design:
-    """The built-in demo design."""
+    """The built-in demo design.
+
+    Returns
+    -------
+    Design
+        The validated demo design (an invented scenario).
+    """
     return loads(demo_text(), "demo design")
