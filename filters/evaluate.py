@@ -60,13 +60,37 @@ _SCORES: dict[tuple, np.ndarray] = {}
 
 def chunk_size(samples: int) -> int:
     """Boards per chunk: the fewest rounds of equal chunks, one per thread in each round,
-    with no chunk above :data:`CHUNK_MAX` (an unequal last round leaves a thread idle)."""
+    with no chunk above :data:`CHUNK_MAX` (an unequal last round leaves a thread idle).
+
+    Parameters
+    ----------
+    samples : int
+        Number of boards to evaluate.
+
+    Returns
+    -------
+    int
+        Boards per chunk (at least 1).
+    """
     rounds = -(-samples // (WORKERS * CHUNK_MAX))
     return max(256, -(-samples // (max(rounds, 1) * WORKERS)))
 
 
 def frequency_grid(design: Design, extra: Sequence[float] = ()) -> np.ndarray:
-    """Log-spaced grid (Hz) over the analysed range, holding every mask edge and ``extra``."""
+    """Log-spaced grid (Hz) over the analysed range, holding every mask edge and ``extra``.
+
+    Parameters
+    ----------
+    design : Design
+        The design (its analysis range and points per decade, its mask's edges).
+    extra : sequence of float
+        More frequencies to hold, in Hz.
+
+    Returns
+    -------
+    np.ndarray
+        (F,) float, ascending, in Hz.
+    """
     a = design.analysis
     grid = np.geomspace(a.f_start, a.f_stop, a.points)
     keep = [grid, edge_frequencies(design.mask), np.asarray(extra, dtype=float)]
@@ -74,7 +98,26 @@ def frequency_grid(design: Design, extra: Sequence[float] = ()) -> np.ndarray:
 
 
 def scores_for(design: Design, samples: int, seed: int, method: str, start: int = 0) -> np.ndarray:
-    """Standard scores for samples ``[start, start + samples)`` (cached for repeated use)."""
+    """Standard scores for samples ``[start, start + samples)`` (cached for repeated use).
+
+    Parameters
+    ----------
+    design : Design
+        The design (its part count sets the columns).
+    samples : int
+        Number of boards.
+    seed : int
+        Seed of the boards.
+    method : str
+        Sampling method, ``"random"`` or ``"sobol"``.
+    start : int
+        Index of the first board in the seed's sequence.
+
+    Returns
+    -------
+    np.ndarray
+        (samples, P) float standard scores (no unit), read-only.
+    """
     key = (seed, len(design.parts), start, samples, method)
     hit = _SCORES.get(key)
     if hit is None:
@@ -154,7 +197,20 @@ class Prepared:
 
 
 def prepare(design: Design, extra_freqs: Sequence[float] = ()) -> Prepared:
-    """Compile the design, build the grid, evaluate the nominal design, plan the mask."""
+    """Compile the design, build the grid, evaluate the nominal design, plan the mask.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    extra_freqs : sequence of float
+        More frequencies for the grid, in Hz.
+
+    Returns
+    -------
+    Prepared
+        The compiled design, its grid (F,) in Hz, its nominal response and the mask's plan.
+    """
     circuit = compile_design(design)
     freqs = frequency_grid(design, extra_freqs)
     nominal_values = np.array([p.value for p in design.parts])
@@ -199,6 +255,26 @@ def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
     empty), no phase or delay unless the mask or ``phase``/``delay`` asks for them, and
     without ``out`` no curves at all (``response`` is None; memory is a few blocks of
     rows). Its margins equal the full path's bit for bit.
+
+    Parameters
+    ----------
+    prep : Prepared
+        From :func:`prepare`.
+    values : np.ndarray
+        (S, P) part values in SI units (ohm, F, H; an op-amp's gain-bandwidth in Hz).
+    phase : bool
+        Compute the phase (deg).
+    delay : bool
+        Compute the group delay (s).
+    out : tuple, optional
+        ``(gain_db, phase, delay)`` arrays (S, F) to write the curves into (None each).
+    metrics : bool
+        Compute the metrics (False: pass/fail and margins only).
+
+    Returns
+    -------
+    Evaluated
+        Response (S, F) or None, metrics name -> (S,), margins (S, spans).
     """
     need_phase, need_delay = needs(prep.design.mask)
     want_phase, want_delay = phase or need_phase, delay or need_delay
@@ -248,6 +324,47 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
     ``progress(done, total)`` is called after each chunk; ``should_stop()`` returning True
     raises :class:`Cancelled`: it is asked after each chunk and every :data:`STOP_POLL_S`
     while a chunk is awaited; chunks still running then skip the rest of their work.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    samples : int, optional
+        Number of boards (default: the design's ``analysis.samples``).
+    seed : int, optional
+        Seed of the boards (default: the design's).
+    method : str, optional
+        Sampling method, ``"random"`` or ``"sobol"`` (default: the design's).
+    grades : sequence of Grade, optional
+        One grade per part (design order) in place of the design's.
+    curves : bool
+        Keep the responses (S, F).
+    phase : bool
+        Compute the phase (deg).
+    delay : bool
+        Compute the group delay (s).
+    metrics : bool
+        Compute the metrics (False: pass/fail and margins only).
+    extra_freqs : sequence of float
+        More frequencies for the grid, in Hz.
+    chunk : int, optional
+        Boards per chunk (default: :func:`chunk_size`).
+    start : int
+        Index of the first board in the seed's sequence.
+    prepared : Prepared, optional
+        A :func:`prepare` of ``design`` to reuse.
+    progress : callable, optional
+        ``progress(done, total)`` with counts of boards.
+    should_stop : callable, optional
+        ``should_stop()`` returning True cancels the run.
+    conditions : Conditions, optional
+        Board conditions in place of the analysis' own.
+
+    Returns
+    -------
+    Ensemble
+        Part values (S, P), pass/fail (S,), margins (S, spans), metrics name -> (S,) and,
+        with ``curves``, the responses (S, F).
     """
     a = design.analysis
     n = a.samples if samples is None else int(samples)

@@ -198,6 +198,22 @@ def binomial_interval(passed: np.ndarray | float, samples: np.ndarray | float, c
     z the normal quantile at (1 + confidence) / 2. Clopper-Pearson: low = Beta(k, n - k + 1)
     quantile at alpha/2, high = Beta(k + 1, n - k) quantile at 1 - alpha/2, alpha = 1 - confidence.
     Both put low = 0 at k = 0 and high = 1 at k = n. No input checks beyond confidence and method.
+
+    Parameters
+    ----------
+    passed : np.ndarray or float
+        Passing boards (counts; fractional allowed when planning).
+    samples : np.ndarray or float
+        Boards evaluated, broadcast with ``passed``.
+    confidence : float
+        Two-sided confidence, a fraction in (0, 1).
+    method : str
+        ``"wilson"`` or ``"exact"`` (Clopper-Pearson).
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray]
+        (low, high) yield fractions, of the broadcast shape.
     """
     c = _check_confidence(confidence)
     m = _check_method(method)
@@ -233,6 +249,22 @@ def yield_estimate(passed: int | np.ndarray, samples: int | None = None, confide
     The interval is ``scipy.stats.binomtest(passed, samples).proportion_ci``; k = 0 and
     k = n are allowed. Raises :class:`InputError` with path ``passed``, ``samples``,
     ``confidence`` or ``method``.
+
+    Parameters
+    ----------
+    passed : int or np.ndarray
+        Passing boards: a count, or an (S,) bool pass array.
+    samples : int, optional
+        Boards evaluated (required with a count).
+    confidence : float
+        Two-sided confidence, a fraction in (0, 1).
+    method : str
+        ``"wilson"`` or ``"exact"``.
+
+    Returns
+    -------
+    YieldEstimate
+        Estimate, low and high (fractions), counts and the method.
     """
     k, n = _counts(passed, samples)
     c = _check_confidence(confidence)
@@ -256,6 +288,24 @@ def lower_bound(passed: int | np.ndarray, samples: int | None, confidence: float
     ``scipy.stats.binomtest(k, n, alternative="greater").proportion_ci(confidence)``. Use it
     for "the lower confidence bound of the yield meets the target". With ``one_sided=False``
     it is the lower end of the two-sided interval at ``confidence``.
+
+    Parameters
+    ----------
+    passed : int or np.ndarray
+        Passing boards: a count, or an (S,) bool pass array.
+    samples : int or None
+        Boards evaluated (None with a pass array).
+    confidence : float
+        Confidence, a fraction in (0, 1).
+    method : str
+        ``"wilson"`` or ``"exact"``.
+    one_sided : bool
+        One-sided bound (default) or the low end of the two-sided interval.
+
+    Returns
+    -------
+    float
+        The lower bound, a fraction in [0, 1].
     """
     k, n = _counts(passed, samples)
     c = _check_confidence(confidence)
@@ -287,6 +337,18 @@ def binomial_exact_zero_failures_upper(n: int, confidence: float = 0.95) -> floa
     """Exact one-sided upper bound on the failure fraction when none of ``n`` boards fails.
 
     1 - (1 - confidence)^(1/n) (tests/REFERENCES.md section 8 [D]); about 3/n at 95 % (rule of three).
+
+    Parameters
+    ----------
+    n : int
+        Boards evaluated, none failing.
+    confidence : float
+        Confidence, a fraction in (0, 1).
+
+    Returns
+    -------
+    float
+        Upper bound on the failure fraction.
     """
     nn = _check_whole(n, "n", 1)
     c = _check_confidence(confidence)
@@ -311,6 +373,22 @@ def samples_for_half_width(half_width: float, expected_yield: float = 0.5, confi
     the method's own half-width, so the guard changes the number of steps, never the result.
     Raises :class:`InputError` (path ``half_width``) if more than :data:`MAX_PLANNED_SAMPLES`
     would be needed.
+
+    Parameters
+    ----------
+    half_width : float
+        Wanted interval half-width, a fraction.
+    expected_yield : float
+        Expected yield, a fraction.
+    confidence : float
+        Two-sided confidence, a fraction in (0, 1).
+    method : str
+        ``"wilson"`` or ``"exact"``.
+
+    Returns
+    -------
+    int
+        Number of boards.
     """
     if isinstance(half_width, (bool, np.bool_)) or not isinstance(half_width, (int, float, np.integer, np.floating)):
         raise InputError(f"must be a number, not {half_width!r}", "half_width")
@@ -352,6 +430,22 @@ def samples_to_show(target: float, expected_yield: float = 1.0, confidence: floa
     any run can do with. Raises :class:`InputError` (path ``target``) when the expected
     yield does not exceed the target (no number of boards shows it) or when more than
     :data:`MAX_PLANNED_SAMPLES` would be needed.
+
+    Parameters
+    ----------
+    target : float
+        Target yield, a fraction in (0, 1).
+    expected_yield : float
+        Fraction of boards expected to pass, in (0, 1].
+    confidence : float
+        Confidence of the one-sided bound, a fraction.
+    method : str
+        ``"wilson"`` or ``"exact"``.
+
+    Returns
+    -------
+    int
+        Number of boards.
     """
     t = _check_fraction(target, "target", lo_open=True, hi_open=True)
     p = _check_fraction(expected_yield, "expected_yield", lo_open=True, hi_open=False)
@@ -374,7 +468,22 @@ def samples_to_show(target: float, expected_yield: float = 1.0, confidence: floa
 
 def smallest_meeting(ok: Callable[[int], bool], lo: int, hi: int) -> int:
     """The smallest n in (lo, hi] with ``ok(n)`` true, by bisection; ``ok`` must be
-    monotone (false up to some n, true from there) and ``ok(hi)`` true."""
+    monotone (false up to some n, true from there) and ``ok(hi)`` true.
+
+    Parameters
+    ----------
+    ok : callable
+        ``ok(n)`` -> bool, monotone in n.
+    lo : int
+        ``ok`` is taken false at ``lo``.
+    hi : int
+        ``ok(hi)`` is true.
+
+    Returns
+    -------
+    int
+        The smallest n in (lo, hi] with ``ok(n)``.
+    """
     while hi - lo > 1:
         mid = (lo + hi) // 2
         if ok(mid):
@@ -403,6 +512,28 @@ def adaptive_yield(run_batch: Callable[[int, int], np.ndarray], *, half_width: f
     per batch, so a plan never rests on fewer than half the samples it leads to), and never
     beyond ``max_samples``. ``should_stop()`` is asked before every batch; when it returns
     True, :class:`Cancelled` is raised and the partial result is discarded.
+
+    Parameters
+    ----------
+    run_batch : callable
+        ``run_batch(start, stop)`` -> (stop - start,) bool pass array.
+    half_width : float
+        Wanted interval half-width, a fraction.
+    batch : int
+        Boards per batch.
+    max_samples : int
+        Most boards in all.
+    confidence : float
+        Two-sided confidence, a fraction in (0, 1).
+    method : str
+        ``"wilson"`` or ``"exact"``.
+    should_stop : callable, optional
+        ``should_stop()`` returning True cancels the run.
+
+    Returns
+    -------
+    tuple[YieldEstimate, list[YieldEstimate]]
+        The final estimate and one estimate per batch.
     """
     if isinstance(half_width, (bool, np.bool_)) or not isinstance(half_width, (int, float, np.integer, np.floating)):
         raise InputError(f"must be a number, not {half_width!r}", "half_width")
@@ -448,6 +579,20 @@ def failure_breakdown(passes: np.ndarray, margins: np.ndarray, names: Sequence[s
     ``passes`` is a boolean array (samples, spans), True where the board meets that span;
     ``margins`` has the same shape, in dB (negative = violation, +/-inf allowed, NaN not);
     ``names`` has one name per span. A board fails overall when it fails any span.
+
+    Parameters
+    ----------
+    passes : np.ndarray
+        (S, spans) bool, True where a board meets a span.
+    margins : np.ndarray
+        (S, spans) float margins in each span's unit (negative: violation).
+    names : sequence of str
+        One name per span.
+
+    Returns
+    -------
+    list[SpanFailures]
+        One entry per span, in the order of ``names``.
     """
     p = np.asarray(passes)
     mg = np.asarray(margins, dtype=float)
