@@ -24,6 +24,7 @@ from .engine import (
     poly_jw,
 )
 from .metric_names import stage_metric_name
+from .poly_roots import batch_roots
 
 __all__ = [
     "TWO_PI",
@@ -203,7 +204,8 @@ _KEPT = threading.local()
 
 def _companion_roots(den: np.ndarray) -> np.ndarray:
     """Roots of the polynomials ``den`` (S, n + 1), ascending powers, n > 2: (S, n) complex
-    eigenvalues of their companion matrices. The cutoff and the stage f0/Q of one batch ask
+    (:func:`filters.poly_roots.batch_roots`: the eigenvalues of their companion matrices,
+    found for all boards together by Aberth's iteration). The cutoff and the stage f0/Q of one batch ask
     for the same arrays (about 10 us a board for degree 5), so the last few results of the
     thread are kept, keyed by the array itself (never by an equal copy)."""
     kept = getattr(_KEPT, "items", None)
@@ -212,12 +214,7 @@ def _companion_roots(den: np.ndarray) -> np.ndarray:
     for ref, roots in kept:
         if ref() is den:
             return roots
-    s_count, k = den.shape
-    n = k - 1
-    comp = np.zeros((s_count, n, n))
-    comp[:, 1:, :-1] = np.eye(n - 1)
-    comp[:, :, -1] = -den[:, :-1] / den[:, -1:]
-    roots = np.linalg.eigvals(comp)
+    roots = batch_roots(den)  # the companion matrices' eigenvalues, refined together (poly_roots)
     kept[:] = [(r, v) for r, v in kept[-7:] if r() is not None] + [(weakref.ref(den), roots)]
     return roots
 

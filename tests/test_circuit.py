@@ -13,6 +13,7 @@ import json
 import math
 import subprocess
 import sys
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -324,3 +325,45 @@ def test_a_derivation_past_its_time_limit_stops_and_says_so():
     els += [Element("C", f"G{k}", n, "0") for k, n in enumerate(nodes[1:])]
     with pytest.raises(InputError, match="longer than 1e-09 s"):
         derive_circuit_uncached(Netlist(tuple(els), (OpAmp("U", "n3", "out", "n11"),)), seconds=1e-9)
+
+
+def test_roots_of_a_batch_of_denominators_equal_numpy_roots():
+    # a circuit stage of higher order finds its poles for all boards at once
+    # (filters/poly_roots.py); numpy.roots of each board's polynomial is the oracle
+    from tolspread.poly_roots import batch_roots
+
+    rng = np.random.default_rng(11)
+    for n in (3, 4, 5, 7):
+        nominal = np.real(np.poly(_stable_poles(rng, n)))[::-1]
+        den = nominal * rng.uniform(0.9, 1.1, (300, n + 1))
+        if n == 3:
+            den[7] = [1.0, 3.0, 3.0, 1.0]  # (s + 1)^3: a triple root
+        got = batch_roots(den)
+        for row, roots in zip(den, got):
+            want = np.roots(row[::-1])
+            # every root found, each within 1e-9 of numpy's (1e-4 for the triple root)
+            tol = 1e-4 if n == 3 and np.allclose(row, [1, 3, 3, 1]) else 1e-9
+            assert np.max(np.min(np.abs(roots[:, None] - want[None, :]), axis=1) / np.abs(want).max()) < tol
+            assert np.max(np.min(np.abs(want[:, None] - roots[None, :]), axis=1) / np.abs(want).max()) < tol
+
+
+def _stable_poles(rng, n):
+    poles = []
+    for _ in range(n // 2):
+        w, q = rng.uniform(0.5, 2), rng.uniform(0.5, 8)
+        re, im = -w / (2 * q), w * math.sqrt(1 - 1 / (4 * q * q))
+        poles += [complex(re, im), complex(re, -im)]
+    return poles + [-rng.uniform(0.3, 3)] * (n % 2)
+
+
+@pytest.mark.slow
+def test_the_circuit_example_through_the_command_line(tmp_path):
+    # assets/examples/weigh_scale_notch.json: a loaded stage and a circuit stage, as a user runs it
+    from cli_runs import analyze_json, run_cli
+
+    example = Path(__file__).resolve().parent.parent / "assets" / "examples" / "weigh_scale_notch.json"
+    result = analyze_json(example, tmp_path, samples=300)  # exit 0, no traceback
+    assert 0.5 < result["yield"]["estimate"] < 1.0  # the notch misses on some boards
+    proc = run_cli("recommend", str(example), "--target-yield", "90%", "--samples", "300")
+    assert proc.returncode == 0, proc.stderr
+    assert "recommended" in proc.stdout and "C1" in proc.stdout
