@@ -57,7 +57,20 @@ def board_table(ens: Ensemble, metrics: Mapping[str, np.ndarray] | None = None) 
     """The per-board table of ``ens``.
 
     ``metrics``: name -> (S,) columns to show, in that order (default: every metric of
-    ``ens`` and then each span's margin, :func:`filters.budget.metric_columns`)."""
+    ``ens`` and then each span's margin, :func:`filters.budget.metric_columns`).
+
+    Parameters
+    ----------
+    ens : Ensemble
+        An evaluated ensemble (part values (S, P), pass/fail (S,)).
+    metrics : mapping of str to np.ndarray, optional
+        Metric name -> (S,) column, in the order to show.
+
+    Returns
+    -------
+    BoardTable
+        Board numbers (S,), values (S, P + M), pass/fail (S,), names, headers and units.
+    """
     design = ens.design
     columns = metric_columns(ens) if metrics is None else metrics
     names = list(columns)
@@ -74,7 +87,18 @@ def board_table(ens: Ensemble, metrics: Mapping[str, np.ndarray] | None = None) 
 
 def board_csv(table: BoardTable) -> str:
     """``table`` as CSV text: a title row, then one row per board (numbers to 9
-    significant digits, passes mask as 1 or 0)."""
+    significant digits, passes mask as 1 or 0).
+
+    Parameters
+    ----------
+    table : BoardTable
+        From :func:`board_table`.
+
+    Returns
+    -------
+    str
+        CSV text, S + 1 rows.
+    """
     buf = io.StringIO()
     w = csv.writer(buf)
     w.writerow(table.columns)

@@ -48,7 +48,19 @@ _U_EPS = 1e-12
 
 
 def columns(n_parts: int) -> int:
-    """Number of score columns for ``n_parts`` parts."""
+    """Number of score columns for ``n_parts`` parts.
+
+    Parameters
+    ----------
+    n_parts : int
+        Number of parts P.
+
+    Returns
+    -------
+    int
+        Score columns per board (4P + 1: value, temperature coefficient, drift, lot
+        share per part, and one shared column).
+    """
     return 4 * n_parts + 1
 
 
@@ -57,6 +69,24 @@ def draw_scores(seed: int, n_parts: int, start: int, stop: int, method: Method =
 
     ``method`` is ``random`` (numpy PCG64) or ``sobol`` (scrambled Sobol points from
     scipy.stats.qmc, seeded by ``seed``, mapped through the normal inverse CDF).
+
+    Parameters
+    ----------
+    seed : int
+        Seed of the boards.
+    n_parts : int
+        Number of parts P.
+    start : int
+        First board index.
+    stop : int
+        One past the last board index.
+    method : str
+        ``"random"`` or ``"sobol"``.
+
+    Returns
+    -------
+    np.ndarray
+        (stop - start, 4P + 1) float standard scores (no unit).
     """
     if not 0 <= start <= stop:
         raise InputError(f"bad sample range [{start}, {stop})", "samples")
@@ -85,7 +115,20 @@ def draw_scores(seed: int, n_parts: int, start: int, stop: int, method: Method =
 
 
 def relative_deviation(grade: Grade, z: np.ndarray) -> np.ndarray:
-    """Relative deviation (fraction) of parts of ``grade`` from standard normal scores ``z``."""
+    """Relative deviation (fraction) of parts of ``grade`` from standard normal scores ``z``.
+
+    Parameters
+    ----------
+    grade : Grade
+        The grade (its tolerance in %, distribution, coverage, truncation).
+    z : np.ndarray
+        Standard normal scores, any shape.
+
+    Returns
+    -------
+    np.ndarray
+        Relative deviations (fractions), of the shape of ``z``.
+    """
     if grade.measured:  # a measured part: each board takes one measured deviation (bootstrap)
         dev = np.asarray(grade.measured)
         idx = np.minimum((special.ndtr(z) * dev.size).astype(np.intp), dev.size - 1)
@@ -139,6 +182,22 @@ def part_values(nominal: Sequence[float], grades: Sequence[Grade], scores: np.nd
     change) (1 + drift) (1 + life drift) (ageing) (1 + DC-bias change)``; its temperature
     score and its drift score are drawn once per board, so the same board is judged at
     every temperature and after its service life with the same parts.
+
+    Parameters
+    ----------
+    nominal : sequence of float
+        (P,) marked values in SI units.
+    grades : sequence of Grade
+        (P,) one grade per part.
+    scores : np.ndarray
+        (S, 4P + 1) standard scores from :func:`draw_scores`.
+    conditions : Conditions
+        Temperature range (deg C), lot share, service hours and temperature.
+
+    Returns
+    -------
+    np.ndarray
+        (S, P) float part values in SI units (ohm, F, H; an op-amp's gain-bandwidth in Hz).
     """
     nom = np.asarray(nominal, dtype=float)
     p = nom.size
@@ -185,6 +244,20 @@ def limits(nominal: Sequence[float], grades: Sequence[Grade], conditions: Condit
     Includes the tolerance, the temperature change's extreme at either end of the
     temperature range (and at the class II curve's points between them), drift and, after
     a service life, the life drift and ageing. Used for worst-case corners.
+
+    Parameters
+    ----------
+    nominal : sequence of float
+        (P,) marked values in SI units.
+    grades : sequence of Grade
+        (P,) one grade per part.
+    conditions : Conditions
+        Temperature range (deg C), lot share, service hours and temperature.
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray]
+        (low, high), each (P,) float in SI units.
     """
     nom = np.asarray(nominal, dtype=float)
     lo = np.empty_like(nom)

@@ -89,6 +89,23 @@ def parse_value(text: str | float, field: str = "") -> float:
     IEC 60062 RKM codes ("4k7", "R47", "470R", "4n7"). Prefix case matters: "M" is mega,
     "m" milli; "k"/"K" kilo; "f", "p", "n", "u"/"µ" are lower case only. A number (not
     bool) is accepted as is if finite. Raises ``InputError`` with ``path=field``.
+
+    Parameters
+    ----------
+    text : str or float
+        The value as typed (a number passes through).
+    field : str
+        Field path named in an error.
+
+    Returns
+    -------
+    float
+        The value in SI base units (ohm, F, H, Hz).
+
+    Raises
+    ------
+    InputError
+        When the text is no value (path ``field``).
     """
     if isinstance(text, numbers.Real) and not isinstance(text, bool):
         try:
@@ -125,6 +142,18 @@ def parse_value_with_tolerance(text: str, field: str = "") -> tuple[float, str |
     The letter is only recognised straight after a strict RKM code ("4K7J", "R47F",
     "470RJ", "4n7K"); so "4n7F" means 4.7 nF at ±1 %, not farads. Anything else is read by
     ``parse_value`` and returned with ``None``. The value is in SI base units.
+
+    Parameters
+    ----------
+    text : str
+        The value as typed, perhaps ending in a tolerance letter.
+    field : str
+        Field path named in an error.
+
+    Returns
+    -------
+    tuple[float, str or None]
+        The value in SI base units and the IEC 60062 letter (None without one).
     """
     s = text.strip() if isinstance(text, str) else text
     if isinstance(s, str):
@@ -160,6 +189,20 @@ def format_value(x: float, unit: str = "", digits: int = 4) -> str:
     Rounds to ``digits`` significant figures and drops trailing zeros; ``digits >= 17``
     writes the shortest text that reads back to exactly ``x``. Prefixes f..T (micro is
     ASCII "u"). With a unit a space goes before prefix and unit: (4700, "Ω") -> "4.7 kΩ".
+
+    Parameters
+    ----------
+    x : float
+        A value in SI base units.
+    unit : str
+        Unit symbol appended after the prefix ("Ω", "F", "Hz"; "" for none).
+    digits : int
+        Significant figures.
+
+    Returns
+    -------
+    str
+        The text, e.g. ``"4.7k"`` or ``"10 nF"``.
     """
     d = _rounded(x, digits)
     sign = "-" if x < 0 else ""
@@ -182,6 +225,20 @@ def format_rkm(x: float, kind: str = "R", digits: int = 3) -> str:
     470 -> "470R", 4700 -> "4K7", 1e6 -> "1M0". Capacitors and inductors use p, n, u, m
     (R from 1 up): 4.7e-9 -> "4n7". Rounded to ``digits`` significant figures, written with
     at least two figures; 0 ohm is "0R".
+
+    Parameters
+    ----------
+    x : float
+        The value: ohm for kind ``"R"``, F for ``"C"``, H for ``"L"``.
+    kind : str
+        Part kind, ``"R"``, ``"C"`` or ``"L"``.
+    digits : int
+        Significant figures.
+
+    Returns
+    -------
+    str
+        The RKM code, e.g. ``"4K7"`` or ``"2n2"``.
     """
     if kind not in _RKM_OUT:
         raise InputError(f"unknown RKM kind '{kind}'; valid: R, C, L")
@@ -248,7 +305,22 @@ def _series(name: str) -> tuple[np.ndarray, int]:
 
 
 def series_values(name: str, lo: float, hi: float) -> np.ndarray:
-    """All preferred values of series ``name`` within [lo, hi], ascending, in SI units."""
+    """All preferred values of series ``name`` within [lo, hi], ascending, in SI units.
+
+    Parameters
+    ----------
+    name : str
+        Series name, ``"E3"`` ... ``"E192"``.
+    lo : float
+        Lowest value, SI units.
+    hi : float
+        Highest value, SI units.
+
+    Returns
+    -------
+    np.ndarray
+        (N,) float preferred values, ascending.
+    """
     mant, scale = _series(name)
     if not (math.isfinite(lo) and math.isfinite(hi) and 0 < lo <= hi):
         raise InputError(f"need 0 < lo <= hi, both finite; got lo={lo!r}, hi={hi!r}")
@@ -263,6 +335,18 @@ def snap(value: float | np.ndarray, series: str = "E24") -> float | np.ndarray:
 
     A scalar gives a float, an array an array of the same shape. Values must be positive
     and finite. A value may snap into the next decade (9.6 -> 10 in E24).
+
+    Parameters
+    ----------
+    value : float or np.ndarray
+        Positive values in SI units, any shape.
+    series : str
+        Series name, ``"E3"`` ... ``"E192"``.
+
+    Returns
+    -------
+    float or np.ndarray
+        The nearest preferred values, of the shape of ``value``.
     """
     mant, scale = _series(series)
     v = np.asarray(value, dtype=float)
@@ -287,6 +371,20 @@ def series_neighbours(value: float, series: str = "E24", count: int = 2) -> np.n
     below it and ``count`` above it, ascending (a value on the series counts as below).
 
     Used to try both sides of a value instead of rounding it alone.
+
+    Parameters
+    ----------
+    value : float
+        A positive value in SI units.
+    series : str
+        Series name, ``"E3"`` ... ``"E192"``.
+    count : int
+        Values wanted on each side.
+
+    Returns
+    -------
+    np.ndarray
+        (up to 2 * count,) float preferred values, ascending.
     """
     v = float(value)
     if not (math.isfinite(v) and v > 0):
@@ -303,6 +401,16 @@ def series_for_tolerance(tol_pct: float) -> str:
 
     20 % E6, 10 % E12, 5 % E24, 2 % E48, 1 % E96, 0.5 % and tighter E192, wider than
     20 % E3. Between grades the series of the next wider grade is used (3 % -> E24).
+
+    Parameters
+    ----------
+    tol_pct : float
+        Tolerance in percent (positive).
+
+    Returns
+    -------
+    str
+        Series name, ``"E3"`` ... ``"E192"``.
     """
     if not (math.isfinite(tol_pct) and tol_pct > 0):
         raise InputError(f"tolerance {tol_pct!r} % must be positive and finite")
@@ -319,7 +427,18 @@ TOLERANCE_LETTERS: dict[str, float] = {"B": 0.1, "C": 0.25, "D": 0.5, "F": 1, "G
 
 
 def tolerance_letter(pct: float) -> str | None:
-    """The IEC 60062 letter of a symmetric tolerance in percent (within 1e-9), else None."""
+    """The IEC 60062 letter of a symmetric tolerance in percent (within 1e-9), else None.
+
+    Parameters
+    ----------
+    pct : float
+        Symmetric tolerance in percent.
+
+    Returns
+    -------
+    str or None
+        The letter (``"F"`` for 1 %, ``"J"`` for 5 % ...), or None.
+    """
     for letter, value in TOLERANCE_LETTERS.items():
         if abs(pct - value) <= 1e-9:
             return letter
