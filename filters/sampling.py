@@ -58,8 +58,8 @@ def columns(n_parts: int) -> int:
     Returns
     -------
     int
-        Score columns per board (4P + 1: value, temperature coefficient, drift, lot
-        share per part, and one shared column).
+        Score columns per board, 4P + 1: value, lot, temperature coefficient and
+        drift of each part, then the board temperature.
     """
     return 4 * n_parts + 1
 
