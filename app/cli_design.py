@@ -33,7 +33,7 @@ from ..designfile import save
 from ..errors import InputError
 from ..safeio import check_output_path
 from ..synthesis import KINDS, RESPONSES, STOPBAND_DB, ErrorLimits, synthesize
-from ..values import format_value, parse_value
+from ..values import format_value, parse_decibels, parse_value
 
 # synthesize() argument -> command-line option, for error messages
 _OPTION = {"response": "--response", "order": "--order", "cutoff_hz": "--cutoff", "kind": "--kind",
@@ -103,21 +103,6 @@ def _value(text: Any, option: str) -> float | None:
     return None if text is None else parse_value(text, option)
 
 
-def _decibels(text: Any, option: str) -> float | None:
-    """A number of dB (a trailing "dB" allowed), or None when the option was not given."""
-    if text is None:
-        return None
-    s = str(text).strip()
-    s = s[:-2].strip() if s.lower().endswith("db") else s
-    try:
-        v = float(s)
-    except ValueError:
-        v = math.nan
-    if not math.isfinite(v):
-        raise InputError(f"must be a number of dB such as 40, not {text!r}", option)
-    return v
-
-
 def _limit(text: Any, option: str, percent: bool) -> float | None:
     """A limit option: a number above 0 (percent options may end in "%"), as a fraction or dB."""
     if text is None:
@@ -154,7 +139,8 @@ def run(args: argparse.Namespace) -> int:
     bandwidth = _value(getattr(args, "bandwidth", None), "--bandwidth")
     gbw = _value(getattr(args, "gbw", None), "--gbw")
     ripple = _value(getattr(args, "ripple", None), "--ripple")
-    stopband = _decibels(getattr(args, "stopband", None), "--stopband")
+    stopband_text = getattr(args, "stopband", None)
+    stopband = None if stopband_text is None else parse_decibels(stopband_text, "--stopband")
     kind = str(getattr(args, "kind", None) or "lowpass").strip().lower().replace("-", "")
     limits = _limits(args)
     try:

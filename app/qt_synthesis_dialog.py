@@ -19,22 +19,31 @@ from PySide6.QtWidgets import (QCheckBox, QComboBox, QDialog, QGridLayout, QLabe
                                QPlainTextEdit, QSpinBox, QVBoxLayout, QWidget)
 
 from ..errors import InputError
-from ..synthesis import MAX_ORDER, RIPPLES_DB, TOPOLOGY_CHOICES, SynthesisResult, synthesize
-from ..values import E_SERIES, parse_value
+from ..prototypes import RIPPLED, STOPBAND_RESPONSES
+from ..synthesis import (MAX_ORDER, NOTCH_FOR, RIPPLES_DB, STOPBAND_DB, TOPOLOGY_CHOICES, SynthesisResult,
+                         synthesize)
+from ..values import E_SERIES, parse_decibels, parse_value
 
 from .qt_dialog_parts import PROBLEM_STYLE, mark, ok_cancel, reason
 from .qt_style import VERMILION
 
 RESPONSE_LABELS = (("Butterworth", "butterworth"), ("Chebyshev", "chebyshev"), ("Bessel", "bessel"),
-                   ("Linkwitz-Riley", "linkwitz_riley"))
-KIND_LABELS = (("low-pass", "lowpass"), ("high-pass", "highpass"), ("band-pass", "bandpass"))
+                   ("Linkwitz-Riley", "linkwitz_riley"), ("Elliptic (Cauer)", "elliptic"),
+                   ("Inverse Chebyshev", "inverse_chebyshev"))
+KIND_LABELS = (("low-pass", "lowpass"), ("high-pass", "highpass"), ("band-pass", "bandpass"),
+               ("band-stop", "bandstop"))
+BANDED = ("bandpass", "bandstop")  # kinds with a centre and a bandwidth
 TOPOLOGY_LABELS = {
     "sallen_key_lowpass": "Sallen-Key, unity gain",
     "mfb_lowpass": "multiple feedback, gain -1",
     "sallen_key_highpass": "Sallen-Key, unity gain",
     "mfb_highpass": "multiple feedback, gain -1",
     "mfb_bandpass": "multiple feedback",
+    "notch_lowpass": "two-integrator-loop notch",
+    "notch_highpass": "two-integrator-loop notch",
+    "notch": "two-integrator-loop notch",
 }
+DEFAULT_STOPBAND = "40"
 DEFAULT_RIPPLE_DB = 1.0
 DEFAULT_SERIES, DEFAULT_CAP_SERIES = "E24", "E12"
 
@@ -57,7 +66,8 @@ class SynthesisDialog(QDialog):
                "ripple_db": ("ripple", "ripple"), "kind": ("kind", "kind"),
                "cutoff_hz": ("cutoff", "cutoff"), "bandwidth_hz": ("bandwidth", "bandwidth"),
                "topology": ("topology", "topology"), "series": ("series", "resistor series"),
-               "cap_series": ("cap_series", "capacitor series"), "gbw_hz": ("gbw", "op-amp GBW")}
+               "cap_series": ("cap_series", "capacitor series"), "gbw_hz": ("gbw", "op-amp GBW"),
+               "stopband_db": ("stopband", "stopband")}
 
     def __init__(self, parent: QWidget | None = None) -> None:
         super().__init__(parent)
@@ -75,6 +85,8 @@ class SynthesisDialog(QDialog):
         for r in RIPPLES_DB:
             self.ripple.addItem(f"{r:g} dB", r)
         self.ripple.setCurrentIndex(RIPPLES_DB.index(DEFAULT_RIPPLE_DB))
+        self.stopband = QLineEdit(DEFAULT_STOPBAND)
+        self.stopband.setPlaceholderText(f"{STOPBAND_DB[0]:g} to {STOPBAND_DB[1]:g}")
         self.order = QSpinBox()
         self.order.setRange(1, MAX_ORDER)
         self.order.setValue(4)
@@ -101,7 +113,7 @@ class SynthesisDialog(QDialog):
         self.problems: dict[str, QLabel] = {}
         grid = QGridLayout()
         rows = (("response", "response", self.response), ("ripple", "ripple", self.ripple),
-                ("order", "order", self.order), ("kind", "kind", self.kind),
+                ("stopband", "stopband (dB)", self.stopband), ("order", "order", self.order), ("kind", "kind", self.kind),
                 ("cutoff", "cutoff (Hz)", self.cutoff), ("bandwidth", "bandwidth (Hz)", self.bandwidth),
                 ("topology", "topology", self.topology), ("series", "resistor series", self.series),
                 ("cap_series", "capacitor series", self.cap_series), ("gbw", "op-amp GBW (Hz)", self.gbw))
@@ -151,11 +163,12 @@ class SynthesisDialog(QDialog):
 
         self._fill_topologies()
         self._update_enabled()
-        for combo in (self.response, self.ripple, self.topology, self.series, self.cap_series):
+        for combo in (self.ripple, self.topology, self.series, self.cap_series):
             combo.currentIndexChanged.connect(self._changed)
-        self.kind.currentIndexChanged.connect(self._kind_changed)
+        for combo in (self.kind, self.response):  # both decide the sections' topologies
+            combo.currentIndexChanged.connect(self._kind_changed)
         self.order.valueChanged.connect(self._changed)
-        for edit in (self.cutoff, self.bandwidth, self.gbw):
+        for edit in (self.cutoff, self.bandwidth, self.gbw, self.stopband):
             edit.textChanged.connect(self._changed)
         self.snap.toggled.connect(self._changed)
         self.accept_errors.toggled.connect(self._update_ok)
@@ -180,7 +193,7 @@ class SynthesisDialog(QDialog):
                 "cutoff": self.cutoff.text(), "bandwidth": self.bandwidth.text(),
                 "topology": self.topology.currentData(), "series": self.series.currentData(),
                 "cap_series": self.cap_series.currentData(), "gbw": self.gbw.text(),
-                "snap": self.snap.isChecked()}
+                "stopband": self.stopband.text(), "snap": self.snap.isChecked()}
 
     def set_inputs(self, data: dict[str, Any]) -> None:
         """Restore what :meth:`inputs` returned (unknown keys and choices are skipped)."""
@@ -197,7 +210,8 @@ class SynthesisDialog(QDialog):
                 self.topology.setCurrentIndex(i)
             if isinstance(data.get("order"), int):
                 self.order.setValue(data["order"])
-            for key, edit in (("cutoff", self.cutoff), ("bandwidth", self.bandwidth), ("gbw", self.gbw)):
+            for key, edit in (("cutoff", self.cutoff), ("bandwidth", self.bandwidth), ("gbw", self.gbw),
+                              ("stopband", self.stopband)):
                 if isinstance(data.get(key), str):
                     edit.setText(data[key])
             if isinstance(data.get("snap"), bool):
@@ -220,12 +234,13 @@ class SynthesisDialog(QDialog):
             "order": self.order.value(),
             "cutoff_hz": parse_value(self.cutoff.text(), "cutoff_hz"),
             "kind": kind,
-            "bandwidth_hz": parse_value(self.bandwidth.text(), "bandwidth_hz") if kind == "bandpass" else None,
+            "bandwidth_hz": parse_value(self.bandwidth.text(), "bandwidth_hz") if kind in BANDED else None,
             "topology": self.topology.currentData(),
             "series": self.series.currentData(),
             "cap_series": self.cap_series.currentData(),
             "gbw_hz": parse_value(gbw_text, "gbw_hz") if gbw_text else None,
-            "ripple_db": self.ripple.currentData() if response == "chebyshev" else None,
+            "ripple_db": self.ripple.currentData() if response in RIPPLED else None,
+            "stopband_db": parse_decibels(self.stopband.text(), "stopband_db") if response in STOPBAND_RESPONSES else None,
             "snap": self.snap.isChecked(),
         }
 
@@ -278,9 +293,12 @@ class SynthesisDialog(QDialog):
         self._changed()
 
     def _fill_topologies(self) -> None:
-        """The topologies valid for the chosen kind, keeping the choice when it still fits."""
+        """The topologies valid for the chosen kind and response (a response with zeros, and
+        any band-stop, is built from notch sections), keeping the choice when it still fits."""
         previous = self.topology.currentData()
-        choices = TOPOLOGY_CHOICES[self.kind.currentData()]
+        kind = self.kind.currentData()
+        notched = self.response.currentData() in STOPBAND_RESPONSES or kind == "bandstop"
+        choices = (NOTCH_FOR[kind],) if notched and kind in NOTCH_FOR else TOPOLOGY_CHOICES[kind]
         blocked = self.topology.blockSignals(True)
         self.topology.clear()
         for name in choices:
@@ -293,13 +311,14 @@ class SynthesisDialog(QDialog):
         self.ok_button.setEnabled(not self._problem and self._result is not None and not self.needs_acceptance())
 
     def _update_enabled(self) -> None:
-        self.ripple.setEnabled(self.response.currentData() == "chebyshev")
-        bandpass = self.kind.currentData() == "bandpass"
-        self.bandwidth.setEnabled(bandpass)
-        self.labels["cutoff"].setText("centre (Hz)" if bandpass else "cutoff (Hz)")
+        self.ripple.setEnabled(self.response.currentData() in RIPPLED)
+        self.stopband.setEnabled(self.response.currentData() in STOPBAND_RESPONSES)
+        banded = self.kind.currentData() in BANDED
+        self.bandwidth.setEnabled(banded)
+        self.labels["cutoff"].setText("centre (Hz)" if banded else "cutoff (Hz)")
 
     def _field_words(self, path: str) -> str:
-        if path == "cutoff_hz" and self.kind.currentData() == "bandpass":
+        if path == "cutoff_hz" and self.kind.currentData() in BANDED:
             return "centre (cutoff)"
         return self._FIELDS[path][1] if path in self._FIELDS else ""
 

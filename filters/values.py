@@ -23,6 +23,7 @@ __all__ = [
     "PART_UNITS",
     "parse_value",
     "parse_value_with_tolerance",
+    "parse_decibels",
     "format_value",
     "format_rkm",
     "E_SERIES",
@@ -134,6 +135,33 @@ def parse_value(text: str | float, field: str = "") -> float:
         digits = f"{m['left'] or '0'}.{m['right'] or '0'}"
         return _decimal_to_float(digits, _RKM_EXP[m["letter"]], s, field)
     raise InputError(f"{quoted(s)} is not a value; {_HINT}", path=field)
+
+
+def parse_decibels(text: str | float, field: str = "") -> float:
+    """A finite number of dB from text such as "40", "40dB" or "40 dB" (a number passes
+    through); :class:`InputError` naming ``field`` otherwise.
+
+    Parameters
+    ----------
+    text : str or float
+        The level as typed (a number passes through).
+    field : str
+        Field path named in an error.
+
+    Returns
+    -------
+    float
+        The level in dB.
+    """
+    t = str(text).strip()
+    t = t[:-2].strip() if t.lower().endswith("db") else t
+    try:
+        v = float(t)
+    except ValueError:
+        v = math.nan
+    if not math.isfinite(v):
+        raise InputError(f"must be a number of dB such as 40, not {str(text)!r}", field)
+    return v
 
 
 def parse_value_with_tolerance(text: str, field: str = "") -> tuple[float, str | None]:
