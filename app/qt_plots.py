@@ -21,7 +21,8 @@ import math
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, Signal
-from PySide6.QtWidgets import QLabel, QSizePolicy, QVBoxLayout, QWidget
+from PySide6.QtGui import QPainterPath, QPen
+from PySide6.QtWidgets import QGraphicsPathItem, QLabel, QSizePolicy, QVBoxLayout, QWidget
 
 from ..liveview import ViewData
 from ..mask import Span
@@ -94,22 +95,23 @@ class SpreadPlots(QWidget):
         self.legend = self.mag.addLegend(offset=(10, -10), labelTextSize="8pt")
         self._items: dict[str, dict[str, pg.GraphicsObject]] = {}
         for name, plot in (("mag", self.mag), ("second", self.second)):
-            outer_lo, outer_hi = pg.PlotDataItem(pen=None), pg.PlotDataItem(pen=None)
-            inner_lo, inner_hi = pg.PlotDataItem(pen=None), pg.PlotDataItem(pen=None)
-            outer = pg.FillBetweenItem(outer_lo, outer_hi, brush=st.OUTER_BRUSH)
-            inner = pg.FillBetweenItem(inner_lo, inner_hi, brush=st.INNER_BRUSH)
+            # each band is one filled polygon built from its two edges in one go (two curves
+            # and a fill between them would rebuild the fill once per edge)
+            outer, inner = _band_item(st.OUTER_BRUSH), _band_item(st.INNER_BRUSH)
             passing = pg.PlotDataItem(pen=pg.mkPen(**st.PASS_TRACE_PEN), connect="finite")
             failing = pg.PlotDataItem(pen=pg.mkPen(**st.FAIL_TRACE_PEN), connect="finite")
             nominal = pg.PlotDataItem(pen=pg.mkPen(**st.NOMINAL_PEN), antialias=True)
-            for it in (outer_lo, outer_hi, inner_lo, inner_hi, outer, inner, passing, failing, nominal):
-                plot.addItem(it)
+            # every range is set by this widget (fit, _frame_second): no automatic ranging,
+            # which would move an axis, and paint the plot a second time, after every result
+            for it in (outer, inner, passing, failing, nominal):
+                plot.addItem(it, ignoreBounds=True)
+            plot.disableAutoRange()
             outer.setZValue(1)
             inner.setZValue(2)
             passing.setZValue(3)
             failing.setZValue(4)
             nominal.setZValue(10)
-            self._items[name] = dict(outer_lo=outer_lo, outer_hi=outer_hi, inner_lo=inner_lo, inner_hi=inner_hi,
-                                     outer=outer, inner=inner, passing=passing, failing=failing, nominal=nominal)
+            self._items[name] = dict(outer=outer, inner=inner, passing=passing, failing=failing, nominal=nominal)
         it = self._items["mag"]
         self.legend.addItem(it["nominal"], "nominal")
         # the legend cannot draw a fill item; thick lines in the band colours stand in
@@ -155,10 +157,8 @@ class SpreadPlots(QWidget):
                  view.fail_traces_second)):
             it = self._items[name]
             it["nominal"].setData(x, nominal)
-            it["outer_lo"].setData(x, b.low)
-            it["outer_hi"].setData(x, b.high)
-            it["inner_lo"].setData(x, b.inner_low)
-            it["inner_hi"].setData(x, b.inner_high)
+            it["outer"].setPath(_band_path(x, b.low, b.high))
+            it["inner"].setPath(_band_path(x, b.inner_low, b.inner_high))
             it["passing"].setData(*_flat(x, tp))
             if self.show_failing and len(tf):
                 it["failing"].setData(*_flat(x, tf))
@@ -180,12 +180,40 @@ class SpreadPlots(QWidget):
         if not self._ranged:
             self.fit()
             self._ranged = True
+        else:
+            self._frame_second(refit=False)
+
+    def _frame_second(self, refit: bool) -> None:
+        """Frame the second plot's y axis on the bands and the nominal curve. Unless
+        ``refit``, the range moves only when the curves leave it or fill less than half
+        of it, so the axis stays put while a slider is dragged."""
+        v = self.view
+        if v is None:
+            return
+        b = v.second_bands
+        vals = np.concatenate([b.low, b.high, v.nominal_second])
+        vals = vals[np.isfinite(vals)]
+        if not vals.size:
+            return
+        lo, hi = float(vals.min()), float(vals.max())
+        pad = 0.05 * max(hi - lo, 1e-9 * max(abs(lo), abs(hi)), 1e-300)
+        lo, hi = lo - pad, hi + pad
+        (y0, y1) = self.second.vb.viewRange()[1]
+        if refit or lo < y0 or hi > y1 or (hi - lo) < 0.5 * (y1 - y0):
+            self.second.setYRange(lo, hi, padding=0)
 
     def _draw_grids(self, view: ViewData) -> None:
         """Vertical lines at 1-2-3-5 per decade, horizontal lines every 10 dB (gain) and
         every 45 deg (phase) or at round delays, across the analysed range."""
-        key = (float(view.freqs_hz[0]), float(view.freqs_hz[-1]), view.second,
-               float(np.nanmin(view.second_bands.low)), float(np.nanmax(view.second_bands.high)))
+        lo, hi = float(np.nanmin(view.second_bands.low)), float(np.nanmax(view.second_bands.high))
+        if view.second == "delay":
+            span = max(hi - lo, 1e-12)
+            step = 10 ** math.floor(math.log10(span / 2))
+            second = (math.floor((lo - span) / step) * step, math.ceil((hi + span) / step) * step, step)
+        else:
+            second = (min(math.floor(lo / 45.0) * 45.0, -360.0) - 90, max(math.ceil(hi / 45.0) * 45.0, 0.0) + 90, 45.0)
+        # the lines are drawn again only when they change (not on every result of a drag)
+        key = (float(view.freqs_hz[0]), float(view.freqs_hz[-1]), view.second, second)
         if getattr(self, "_grid_key", None) == key:
             return
         self._grid_key = key
@@ -202,13 +230,7 @@ class SpreadPlots(QWidget):
             return np.concatenate([vx, hx]), np.concatenate([vy, hy])
 
         self._grids["mag"].setData(*lines(-600.0, 200.0, 10.0))
-        lo, hi = key[3], key[4]
-        if view.second == "delay":
-            span = max(hi - lo, 1e-12)
-            step = 10 ** math.floor(math.log10(span / 2))
-            self._grids["second"].setData(*lines(lo - span, hi + span, step))
-        else:
-            self._grids["second"].setData(*lines(min(lo, -360.0) - 90, max(hi, 0.0) + 90, 45.0))
+        self._grids["second"].setData(*lines(*second))
 
     def fit(self) -> None:
         """Frame the nominal response: the whole frequency range, a sensible dB window."""
@@ -218,7 +240,7 @@ class SpreadPlots(QWidget):
         top = float(np.max(self.view.gain_bands.high))
         self.mag.setXRange(float(x[0]), float(x[-1]), padding=0)
         self.mag.setYRange(max(top - 80.0, float(np.min(self.view.gain_bands.low))), top + 5.0, padding=0.02)
-        self.second.enableAutoRange(axis="y")
+        self._frame_second(refit=True)
 
     def set_mask(self, mask: tuple[Span, ...], reference_db: float) -> None:
         """Rebuild the span items (after an edit, undo or load): gain spans on the gain
@@ -343,6 +365,22 @@ class SpreadPlots(QWidget):
 
         return (f"{format_value(f[i], 'Hz', 4)}:  nominal {fmt(nom[i])},  central {round(100 * b.share)} % "
                 f"{fmt(b.inner_low[i])} to {fmt(b.inner_high[i])},  all boards {fmt(b.low[i])} to {fmt(b.high[i])}")
+
+
+def _band_item(brush) -> QGraphicsPathItem:
+    """A filled polygon without an outline (one spread band)."""
+    item = QGraphicsPathItem()
+    item.setBrush(brush)
+    item.setPen(QPen(Qt.PenStyle.NoPen))
+    return item
+
+
+def _band_path(x: np.ndarray, low: np.ndarray, high: np.ndarray) -> QPainterPath:
+    """The region between ``low`` and ``high`` (F,) over ``x`` (F,) as one closed polygon:
+    along ``low``, back along ``high``."""
+    path = pg.arrayToQPath(np.concatenate([x, x[::-1]]), np.concatenate([low, high[::-1]]), connect="finite")
+    path.closeSubpath()
+    return path
 
 
 def _flat(x: np.ndarray, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -51,7 +51,9 @@ class ResultsPanel(QWidget):
         # text (nothing elided), and the table is as tall as its rows up to MAX_TABLE_ROWS
         self.table.setHorizontalHeaderLabels(["span", "failing\nboards", "share of\nfailures", "worst\nmargin"])
         self.table.verticalHeader().hide()
-        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        # widths from _fit_table_height once per result (ResizeToContents would measure
+        # every column again for each cell set: about 2 ms a result with four spans)
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Fixed)
         self.table.horizontalHeader().setStretchLastSection(False)
         self.table.setTextElideMode(Qt.TextElideMode.ElideNone)
         self.table.setWordWrap(False)
@@ -68,6 +70,7 @@ class ResultsPanel(QWidget):
         self.hist.setMenuEnabled(False)
         self.hist.setMouseEnabled(x=False, y=False)
         self.hist.setLabel("left", "boards")
+        self.hist.disableAutoRange()  # _draw_metric sets the ranges
         for side in ("left", "bottom"):
             self.hist.getAxis(side).enableAutoSIPrefix(False)  # never "(x0.001)" on dB
 
@@ -203,6 +206,10 @@ class ResultsPanel(QWidget):
             nom = v.nominal_metrics.get(self.metric_name)
             if nom is not None and np.isfinite(nom):
                 self.hist.addItem(pg.InfiniteLine(nom, angle=90, pen=pg.mkPen(st.INK, width=2, style=st.DASH)))
+                lo, hi = min(lo, nom), max(hi, nom)
+            # ranges set here, not by automatic ranging (which paints the plot twice a result)
+            self.hist.setXRange(lo, hi, padding=0.02)
+            self.hist.setYRange(0, float(all_counts.max()), padding=0.05)
         self._label_metric_axis(self.hist.getAxis("bottom"), self.metric_name, names, data[ok])
         b = v.budget.get(self.metric_name)
         if b is None and v.preview:

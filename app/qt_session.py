@@ -14,12 +14,13 @@ design is replaced (New, Open, restore), so a window shows figures without any e
 from __future__ import annotations
 
 import threading
+import time
 import traceback
 from pathlib import Path
 from types import MappingProxyType
 from typing import Mapping
 
-from PySide6.QtCore import QObject, QThread, Signal, Slot
+from PySide6.QtCore import QObject, QThread, QTimer, Signal, Slot
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
 from ..design import Design
@@ -32,10 +33,15 @@ from ..memory import check_boards
 
 
 PREVIEW_BOARDS = 1000  # boards evaluated while a slider is being dragged
+FRAME_S = 1 / 30  # previews are shown at most once per frame (30 a second); a full result at once
 
 
 class _Worker(QObject):
-    """Runs the newest pending request; older pending ones are skipped."""
+    """Runs the newest pending request; older pending ones are skipped.
+
+    A running full evaluation stops when any newer request arrives. A running preview
+    (a slider held) is finished even when newer previews wait, so a drag shows frames
+    however fast the mouse moves; it stops only for a full request or a cancel."""
 
     finished = Signal(object)          # ViewData
     failed = Signal(int, str, str)     # generation, message, details
@@ -47,6 +53,8 @@ class _Worker(QObject):
         self._lock = threading.Lock()
         self._pending: ViewRequest | None = None
         self._latest = 0
+        self._latest_full = 0  # the newest request for every board
+        self._cancelled = 0  # requests up to this generation are cancelled
         self._prepared: Prepared | None = None
 
     def submit(self, req: ViewRequest) -> None:
@@ -54,16 +62,22 @@ class _Worker(QObject):
         with self._lock:
             self._pending = req
             self._latest = req.generation
+            if req.boards is None:
+                self._latest_full = req.generation
 
     def cancel_through(self, generation: int) -> None:
         with self._lock:
             self._latest = max(self._latest, generation + 1)
+            self._cancelled = max(self._cancelled, generation)
             if self._pending is not None and self._pending.generation <= generation:
                 self._pending = None
 
-    def _stale(self, generation: int) -> bool:
+    def _stale(self, req: ViewRequest) -> bool:
+        """True when ``req``'s result is no longer wanted (see the class notes)."""
         with self._lock:
-            return generation < self._latest
+            if req.boards is None:
+                return req.generation < self._latest
+            return req.generation < self._latest_full or req.generation <= self._cancelled
 
     @Slot()
     def run_pending(self) -> None:
@@ -79,7 +93,7 @@ class _Worker(QObject):
                 view = compute_view(
                     req, self._prepared,
                     progress=(lambda d, t, g=req.generation: self.progress.emit(g, d, t)) if big else None,
-                    should_stop=lambda g=req.generation: self._stale(g))
+                    should_stop=lambda r=req: self._stale(r))
             except Cancelled:
                 self.stopped.emit(req.generation)
                 continue
@@ -89,7 +103,7 @@ class _Worker(QObject):
             except Exception as exc:  # noqa: BLE001 - shown to the user, never crashes the window
                 self.failed.emit(req.generation, f"evaluation failed: {exc}", traceback.format_exc())
                 continue
-            if not self._stale(req.generation):
+            if not self._stale(req):
                 self.finished.emit(view)
 
 
@@ -149,6 +163,14 @@ class Session(QObject):
         self._running_design: Design | None = None
         self._closed = False
         self.last_view: ViewData | None = None
+        # frame pacing: a preview arriving within FRAME_S of the last one shown waits for
+        # the next frame, and only the newest waiting one is shown then
+        self._shown_at = -1.0
+        self._held: ViewData | None = None
+        self._previewing = False  # the newest request is a preview: older previews may still be shown
+        self._frame = QTimer(self)
+        self._frame.setSingleShot(True)
+        self._frame.timeout.connect(self._show_held)
         self.request()  # the first figures come without any edit
 
     # --- reading -------------------------------------------------------------------------
@@ -312,6 +334,7 @@ class Session(QObject):
         if self._closed:
             return self._generation
         self._generation += 1
+        self._previewing = boards is not None
         self._running_design = self._design
         req = ViewRequest(self._generation, self._design, self._what_if, self._second,
                           budget=boards is None, boards=boards)
@@ -328,6 +351,8 @@ class Session(QObject):
         if not self.busy:
             return
         self._worker.cancel_through(self._generation)
+        self._held = None  # a preview waiting for its frame is not shown either
+        self._frame.stop()
         self._shown_generation = self._generation
         self.busy_changed.emit(False)
         self.run_cancelled.emit(self._running_design, self.last_view)
@@ -336,8 +361,26 @@ class Session(QObject):
     def _on_view_finished(self, view: ViewData) -> None:
         if self._closed:
             return
-        if view.generation < self._generation:
+        if view.generation < self._generation and not (view.preview and self._previewing):
             return  # a newer request is on its way
+        self._held = None
+        wait = self._shown_at + FRAME_S - time.perf_counter()
+        if view.preview and wait > 0:
+            self._held = view
+            if not self._frame.isActive():
+                self._frame.start(max(1, round(1000 * wait)))
+            return
+        self._frame.stop()
+        self._show(view)
+
+    @Slot()
+    def _show_held(self) -> None:
+        view, self._held = self._held, None
+        if view is not None and not self._closed and (view.generation >= self._generation or self._previewing):
+            self._show(view)
+
+    def _show(self, view: ViewData) -> None:
+        self._shown_at = time.perf_counter()
         self._shown_generation = view.generation
         self.last_view = view
         self.busy_changed.emit(False)
@@ -364,6 +407,7 @@ class Session(QObject):
         """Evaluate synchronously on the calling thread (library-level tests only: the
         window, ``--screenshot`` and the acceptance tests wait for the worker instead)."""
         self._generation += 1
+        self._previewing = False
         req = ViewRequest(self._generation, self._design, self._what_if, self._second)
         self._worker.cancel_through(self._generation - 1)
         view = compute_view(req)
