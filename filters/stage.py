@@ -9,7 +9,7 @@ only when they differ from their defaults, so files without them read as before.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Callable
 
 from .circuit import (CIRCUIT, CircuitElement, CircuitOpAmp, check_nominal, circuit_from_dict,
@@ -47,9 +47,13 @@ class Stage:
         return self.topology == CIRCUIT
 
     def built(self) -> Topology:
-        if self.is_circuit:
-            return circuit_topology(self.elements, self.opamps, self.response)
-        return build(self.topology, self.options)
+        """The stage's own topology; its description says when the next stage loads it."""
+        topo = (circuit_topology(self.elements, self.opamps, self.response) if self.is_circuit
+                else build(self.topology, self.options))
+        if self.buffered:
+            return topo
+        return replace(topo, description=f"{topo.description}; not buffered: loaded by the next stage, "
+                                         "solved with it as one network")
 
     def structure(self) -> tuple:
         """Everything that decides the stage's equations, hashable (the engine's cache key)."""
