@@ -38,7 +38,21 @@ class Bands:
 
 
 def bands(curves: np.ndarray, share: float = INNER) -> Bands:
-    """Bands of ``curves`` (S, F). NaN entries are not expected (the engine keeps finite)."""
+    """Bands of ``curves`` (S, F). NaN entries are not expected (the engine keeps finite).
+
+    Parameters
+    ----------
+    curves : np.ndarray
+        (S, F) float curves (gain in dB, phase in deg or delay in s).
+    share : float
+        Fraction of boards inside the central band, in (0, 1).
+
+    Returns
+    -------
+    Bands
+        Per frequency (F,) arrays in the curves' unit: the central ``share`` of boards
+        (``inner_low``, ``inner_high``) and every board (``low``, ``high``).
+    """
     s = curves.shape[0]
     if s == 1:
         c = curves[0]
@@ -75,6 +89,18 @@ def traces(curves: np.ndarray, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray
 
     Returns ``(x, y)`` where x repeats 0..F-1 per row followed by NaN; the window maps x
     to frequencies. Drawing many curves as one item is much faster than one item each.
+
+    Parameters
+    ----------
+    curves : np.ndarray
+        (S, F) float curves.
+    rows : np.ndarray
+        (R,) int board indices to draw.
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray]
+        (x, y), each (R * (F + 1),) float: frequency index and value, NaN between rows.
     """
     f = curves.shape[1]
     k = len(rows)
@@ -85,7 +111,22 @@ def traces(curves: np.ndarray, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray
 
 
 def pick_rows(passed: np.ndarray, count: int, failing: bool) -> np.ndarray:
-    """Up to ``count`` board indices, passing or failing ones, spread over the ensemble."""
+    """Up to ``count`` board indices, passing or failing ones, spread over the ensemble.
+
+    Parameters
+    ----------
+    passed : np.ndarray
+        (S,) bool, True where a board passes.
+    count : int
+        Most indices wanted.
+    failing : bool
+        Pick failing boards (True) or passing ones (False).
+
+    Returns
+    -------
+    np.ndarray
+        (at most count,) int board indices, ascending.
+    """
     idx = np.flatnonzero(~passed if failing else passed)
     if idx.size <= count:
         return idx

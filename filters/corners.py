@@ -97,7 +97,23 @@ class Corners:
 
 
 def corner_values(prep: Prepared, ens: Ensemble, names: list[str]) -> tuple[np.ndarray, bool, int]:
-    """The corner boards' part values (boards, P), whether exhaustive, varying parts."""
+    """The corner boards' part values (boards, P), whether exhaustive, varying parts.
+
+    Parameters
+    ----------
+    prep : Prepared
+        The prepared design (its nominal values).
+    ens : Ensemble
+        The sampled boards (their extremes set the corners).
+    names : list of str
+        Metric names whose corners are wanted.
+
+    Returns
+    -------
+    tuple[np.ndarray, bool, int]
+        Corner part values (boards, P) in SI units, True when every combination of the
+        varying parts' extremes is included, and the number of varying parts.
+    """
     nom = prep.nominal.values
     lo, hi = limits(nom, corner_grades(ens.design, ens.grades), ens.design.analysis.conditions)
     varying = np.flatnonzero(hi > lo)
@@ -151,7 +167,22 @@ def _polish(prep: Prepared, rows: list[np.ndarray], targets: list[tuple[str, int
 def log_spread(ens: Ensemble, nominal: np.ndarray, chunk: int | None = None) -> np.ndarray:
     """Standard deviation (ddof 0) of each part's ln(value / marked value) over the
     boards, (P,), taken in chunks of ``chunk`` boards (default
-    :func:`filters.summary.board_chunk` of the part count; two passes)."""
+    :func:`filters.summary.board_chunk` of the part count; two passes).
+
+    Parameters
+    ----------
+    ens : Ensemble
+        The sampled boards (part values (S, P)).
+    nominal : np.ndarray
+        (P,) marked values in SI units.
+    chunk : int, optional
+        Boards per chunk.
+
+    Returns
+    -------
+    np.ndarray
+        (P,) float standard deviations of ln(value / marked value) (no unit).
+    """
     n, p = ens.values.shape
     chunk = chunk or board_chunk(p)
     total = np.zeros(p)
@@ -174,7 +205,25 @@ def corners(ens: Ensemble, prep: Prepared, names: list[str] | None = None, chunk
 
     Match spans (channels that must match) have no corners: a corner board is one channel
     standing for all, so its channels never differ; their margins and mismatches are left
-    out of the ranges, of ``worst_margins`` and of ``all_pass`` (read their sampled spread)."""
+    out of the ranges, of ``worst_margins`` and of ``all_pass`` (read their sampled spread).
+
+    Parameters
+    ----------
+    ens : Ensemble
+        The sampled boards.
+    prep : Prepared
+        The prepared design.
+    names : list of str, optional
+        Metric names (default: every metric and margin).
+    chunk : int, optional
+        Boards per chunk.
+
+    Returns
+    -------
+    Corners
+        Per metric the corner range and RSS estimate (in the metric's unit), whether the
+        corners were exhaustive, how many corner boards ran and whether all pass.
+    """
     cols = metric_columns(ens)
     matched = {margin_name(s) for s in ens.design.mask if s.kind == "match"}
     names = [n for n in (list(cols) if names is None else names)

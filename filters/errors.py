@@ -22,7 +22,20 @@ __all__ = [
 def one_line(text: str, limit: int) -> str:
     """``text`` as part of a one-line message: line breaks and other control characters
     written as escapes (a name holding "\\n" from a file), at most ``limit`` characters
-    (the middle of a longer text replaced by "...")."""
+    (the middle of a longer text replaced by "...").
+
+    Parameters
+    ----------
+    text : str
+        Any text.
+    limit : int
+        Most characters of the result.
+
+    Returns
+    -------
+    str
+        One line of at most ``limit`` characters.
+    """
     text = str(text)
     if not text.isprintable():
         text = "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii") for c in text)
@@ -70,7 +83,18 @@ class Cancelled(TolspreadError):
 
 def is_finite_number(v: object) -> bool:
     """A JSON number (not a bool) that converts to a finite float; integers too large for
-    a float (JSON allows any number of digits) are not."""
+    a float (JSON allows any number of digits) are not.
+
+    Parameters
+    ----------
+    v : object
+        A value read from JSON.
+
+    Returns
+    -------
+    bool
+        True for a finite int or float that is not a bool.
+    """
     if isinstance(v, bool) or not isinstance(v, (int, float)):
         return False
     try:
@@ -81,7 +105,20 @@ def is_finite_number(v: object) -> bool:
 
 def quoted(v: object, limit: int = 40) -> str:
     """``repr(v)`` for a message, at most ``limit`` characters (the middle of a longer one
-    replaced by "..."), so a message about a huge input stays one readable line."""
+    replaced by "..."), so a message about a huge input stays one readable line.
+
+    Parameters
+    ----------
+    v : object
+        Any value.
+    limit : int
+        Most characters of the result.
+
+    Returns
+    -------
+    str
+        ``repr(v)``, shortened to ``limit`` characters.
+    """
     try:
         text = repr(v)
     except ValueError:  # an int of more digits than Python converts to text

@@ -344,7 +344,18 @@ CATALOG_MAX_DEPTH = 20
 
 def load_catalog(path: str | Path) -> Catalog:
     """Read a catalog file (JSON, same shape as the built-in one): a regular file of at
-    most 2 MB, parsed with the design files' guards (:func:`filters.safeio.parse_json`)."""
+    most 2 MB, parsed with the design files' guards (:func:`filters.safeio.parse_json`).
+
+    Parameters
+    ----------
+    path : str or Path
+        The catalog file (JSON).
+
+    Returns
+    -------
+    Catalog
+        The grades (tolerances in %, costs relative, temperature coefficients in ppm/K).
+    """
     p = os.fspath(path)
     text = read_text(p, CATALOG_MAX_BYTES, what="catalog file")
     data = parse_json(text, p, limit=CATALOG_MAX_BYTES, max_depth=CATALOG_MAX_DEPTH, what="catalog file")
@@ -358,5 +369,18 @@ def load_catalog(path: str | Path) -> Catalog:
 
 
 def scaled(grade: Grade, tolerance_pct: float) -> Grade:
-    """``grade`` with a different tolerance (what a tolerance slider does)."""
+    """``grade`` with a different tolerance (what a tolerance slider does).
+
+    Parameters
+    ----------
+    grade : Grade
+        The grade.
+    tolerance_pct : float
+        The new tolerance in percent.
+
+    Returns
+    -------
+    Grade
+        A copy of ``grade`` with that tolerance.
+    """
     return replace(grade, name=f"{grade.name}@{tolerance_pct:g}", tolerance_pct=tolerance_pct)

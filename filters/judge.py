@@ -50,7 +50,22 @@ class SpanPlan:
 
 def plan(mask: tuple[Span, ...], freqs_hz: np.ndarray, nominal_reference_db: float) -> list[SpanPlan]:
     """Prepare each span for judging on ``freqs_hz``; relative gain spans are taken
-    relative to ``nominal_reference_db`` (the nominal design's passband gain)."""
+    relative to ``nominal_reference_db`` (the nominal design's passband gain).
+
+    Parameters
+    ----------
+    mask : tuple of Span
+        The spec mask.
+    freqs_hz : np.ndarray
+        (F,) the frequency grid in Hz (holding every span edge).
+    nominal_reference_db : float
+        The nominal design's passband gain in dB.
+
+    Returns
+    -------
+    list[SpanPlan]
+        One plan per span: its grid indices and its limit there (dB, deg or s).
+    """
     out = []
     for s in mask:
         rel = 1e-12 * freqs_hz
@@ -77,6 +92,18 @@ def margins(plans: list[SpanPlan], resp: Response) -> np.ndarray:
     flat limit the margin is min(curve) - limit (floor) or limit - max(curve) (ceiling):
     rounding is monotonic, so this equals the smallest of the pointwise differences bit for
     bit. A sloped limit is subtracted in blocks of :data:`JUDGE_ROWS` rows.
+
+    Parameters
+    ----------
+    plans : list of SpanPlan
+        From :func:`plan`.
+    resp : Response
+        Responses (S, F): gain in dB, phase in deg, delay in s.
+
+    Returns
+    -------
+    np.ndarray
+        (S, spans) float margins in each span's unit; positive passes.
     """
     s = resp.gain_db.shape[0]
     out = np.empty((s, len(plans)))
@@ -124,5 +151,16 @@ def _span_margin(band: np.ndarray, p: SpanPlan, out: np.ndarray) -> None:
 
 
 def needs(mask: tuple[Span, ...]) -> tuple[bool, bool]:
-    """(needs phase, needs group delay) to judge ``mask``."""
+    """(needs phase, needs group delay) to judge ``mask``.
+
+    Parameters
+    ----------
+    mask : tuple of Span
+        The spec mask.
+
+    Returns
+    -------
+    tuple[bool, bool]
+        Whether the phase and whether the group delay must be computed.
+    """
     return (any(s.quantity == "phase" for s in mask), any(s.quantity == "delay" for s in mask))

@@ -40,7 +40,22 @@ def public_names(package: str, namespace: dict[str, Any], public: dict[str, tupl
                  ) -> tuple[Callable[[str], Any], Callable[[], list[str]]]:
     """A package's ``__getattr__`` and ``__dir__`` (PEP 562) that import each public name's
     module on first use: ``public`` maps name -> (submodule, attribute); the value found is
-    kept in ``namespace`` (the package's ``globals()``), so the import happens once."""
+    kept in ``namespace`` (the package's ``globals()``), so the import happens once.
+
+    Parameters
+    ----------
+    package : str
+        The package's ``__name__``.
+    namespace : dict
+        The package's ``globals()``.
+    public : dict of str to (str, str)
+        Public name -> (submodule, attribute).
+
+    Returns
+    -------
+    tuple[callable, callable]
+        The package's ``__getattr__`` and ``__dir__``.
+    """
 
     def getattr_(name: str) -> Any:
         try:

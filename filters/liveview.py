@@ -130,6 +130,23 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
 
     Raises :class:`~tolspread.errors.InputError` (path ``analysis.samples``) when the boards
     would keep more numbers than the memory rule allows (:func:`filters.memory.check_boards`).
+
+    Parameters
+    ----------
+    req : ViewRequest
+        The design, what-if grades and what to draw.
+    prepared : Prepared, optional
+        A :func:`filters.evaluate.prepare` of the design to reuse.
+    progress : callable, optional
+        ``progress(done, total)`` with counts of boards.
+    should_stop : callable, optional
+        ``should_stop()`` returning True cancels the run.
+
+    Returns
+    -------
+    ViewData
+        The analysis result with the curves (at most ``CURVE_LIMIT`` boards, (S, F)),
+        their bands and the sample traces the window draws.
     """
     t0 = time.perf_counter()
     d = req.design

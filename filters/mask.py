@@ -128,5 +128,16 @@ class Span:
 
 
 def edge_frequencies(spans: tuple[Span, ...] | list[Span]) -> np.ndarray:
-    """Every span edge in Hz, sorted and unique (they become grid points)."""
+    """Every span edge in Hz, sorted and unique (they become grid points).
+
+    Parameters
+    ----------
+    spans : sequence of Span
+        The spec mask.
+
+    Returns
+    -------
+    np.ndarray
+        (E,) float edge frequencies in Hz, ascending.
+    """
     return np.unique(np.array([f for s in spans for f in (s.f1, s.f2)], dtype=float))

@@ -39,12 +39,34 @@ MEMORY_BOUND_MIB = 2048
 
 
 def numbers_per_board(prep: Prepared) -> int:
-    """Numbers kept per board: parts (values) + metrics + spans (margins)."""
+    """Numbers kept per board: parts (values) + metrics + spans (margins).
+
+    Parameters
+    ----------
+    prep : Prepared
+        The prepared design.
+
+    Returns
+    -------
+    int
+        Numbers kept per board.
+    """
     return len(prep.design.parts) + len(prep.nominal.metrics) + len(prep.design.mask)
 
 
 def max_boards(prep: Prepared) -> int:
-    """The most boards one run of this design may sample (at most ``MAX_SAMPLES``)."""
+    """The most boards one run of this design may sample (at most ``MAX_SAMPLES``).
+
+    Parameters
+    ----------
+    prep : Prepared
+        The prepared design.
+
+    Returns
+    -------
+    int
+        Number of boards.
+    """
     return max(1, min(MAX_SAMPLES, MAX_NUMBERS // numbers_per_board(prep)))
 
 
@@ -52,6 +74,20 @@ def check_boards(prep: Prepared, boards: int, path: str) -> None:
     """Refuse ``boards`` when they would keep more than ``MAX_NUMBERS`` numbers.
 
     Raises :class:`InputError` naming ``path``, in one line.
+
+    Parameters
+    ----------
+    prep : Prepared
+        The prepared design.
+    boards : int
+        Boards the run would sample.
+    path : str
+        Field path named in the error (``analysis.samples``, ``samples``).
+
+    Raises
+    ------
+    InputError
+        When the boards would keep too many numbers.
     """
     most = max_boards(prep)
     if boards > most:

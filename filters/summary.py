@@ -43,12 +43,36 @@ CHUNK_NUMBERS = 1 << 19
 
 
 def board_chunk(width: int) -> int:
-    """Boards per chunk for rows of ``width`` numbers (at least 256)."""
+    """Boards per chunk for rows of ``width`` numbers (at least 256).
+
+    Parameters
+    ----------
+    width : int
+        Numbers per board row.
+
+    Returns
+    -------
+    int
+        Boards per chunk.
+    """
     return max(256, CHUNK_NUMBERS // max(1, width))
 
 
 def chunks(n: int, size: int = CHUNK) -> Iterator[slice]:
-    """Slices of ``[0, n)`` of at most ``size`` boards each."""
+    """Slices of ``[0, n)`` of at most ``size`` boards each.
+
+    Parameters
+    ----------
+    n : int
+        Number of boards.
+    size : int
+        Most boards per slice.
+
+    Yields
+    ------
+    slice
+        Consecutive slices covering ``[0, n)``.
+    """
     size = max(1, int(size))
     for lo in range(0, n, size):
         yield slice(lo, min(n, lo + size))
@@ -89,6 +113,22 @@ def column_stats(v: np.ndarray, ddof: int = 1, percentiles: Sequence[float] = ()
 
     ``percentiles`` in 0..100 as :func:`numpy.percentile` (method ``linear``) gives them
     for the finite entries; ``std`` is 0.0 for a single entry when ``ddof`` is 1.
+
+    Parameters
+    ----------
+    v : np.ndarray
+        (S,) float values (NaN and inf left out).
+    ddof : int
+        Delta degrees of freedom of the standard deviation.
+    percentiles : sequence of float
+        Percentiles wanted, in 0..100.
+    chunk : int
+        Boards per chunk.
+
+    Returns
+    -------
+    Stats
+        Count, mean, standard deviation, min, max and the percentiles, in ``v``'s unit.
     """
     n, total, lo_v, hi_v = 0, 0.0, np.inf, -np.inf
     for sl in chunks(v.shape[0], chunk):
@@ -163,7 +203,23 @@ class MetricSummary:
 
 def summarize(ens: Ensemble, name: str, chunk: int = CHUNK) -> MetricSummary:
     """Summary of metric ``name`` over the ensemble's samples (NaN samples left out),
-    taken in chunks of ``chunk`` boards (:func:`column_stats`)."""
+    taken in chunks of ``chunk`` boards (:func:`column_stats`).
+
+    Parameters
+    ----------
+    ens : Ensemble
+        An evaluated ensemble.
+    name : str
+        Metric name (:mod:`filters.metric_names`).
+    chunk : int
+        Boards per chunk.
+
+    Returns
+    -------
+    MetricSummary
+        Nominal value, mean, standard deviation and percentiles over the boards where the
+        metric exists (``valid``), in the metric's unit.
+    """
     st = column_stats(ens.metrics[name], ddof=1, percentiles=(1, 99), chunk=chunk)
     nominal = ens.nominal.metrics.get(name, float("nan"))
     p01, p99 = st.percentiles
