@@ -132,23 +132,71 @@ class MetricId:
 # --- building -------------------------------------------------------------------------------
 
 def margin_name(span: Span | str) -> str:
-    """``margin.<label>`` of a span (or of a span label)."""
+    """``margin.<label>`` of a span (or of a span label).
+
+    Parameters
+    ----------
+    span : Span or str
+        A span, or a span label.
+
+    Returns
+    -------
+    str
+        The metric name.
+    """
     return MARGIN_PREFIX + (span if isinstance(span, str) else span.label)
 
 
 def mismatch_name(span: Span | str) -> str:
-    """``mismatch.<label>`` of a match span (or of its label): the signed channel difference."""
+    """``mismatch.<label>`` of a match span (or of its label): the signed channel difference.
+
+    Parameters
+    ----------
+    span : Span or str
+        A span, or a span label.
+
+    Returns
+    -------
+    str
+        The metric name.
+    """
     return MISMATCH_PREFIX + (span if isinstance(span, str) else span.label)
 
 
 def margin_names(mask: Sequence[Span]) -> list[str]:
-    """The margin names of a mask's spans, in mask order."""
+    """The margin names of a mask's spans, in mask order.
+
+    Parameters
+    ----------
+    mask : sequence of Span
+        The spec mask.
+
+    Returns
+    -------
+    list[str]
+        One name per span.
+    """
     return [margin_name(s) for s in mask]
 
 
 def stage_metric_name(k: int, quantity: str, pair: int = 0) -> str:
     """``s<k>.<quantity>`` (stage ``k`` from 1), or ``s<k>.p<pair>.<quantity>`` for one
-    pole pair (``pair`` from 1) of a stage of order above 2. ``quantity``: f0_hz, q, fc_hz."""
+    pole pair (``pair`` from 1) of a stage of order above 2. ``quantity``: f0_hz, q, fc_hz.
+
+    Parameters
+    ----------
+    k : int
+        Stage number, from 1.
+    quantity : str
+        ``"f0_hz"``, ``"q"`` or ``"fc_hz"``.
+    pair : int
+        Pole pair number from 1, or 0 for the stage itself.
+
+    Returns
+    -------
+    str
+        The metric name.
+    """
     if quantity not in STAGE_METRICS:
         raise ValueError(f"unknown stage metric {quantity!r}")
     if int(k) < 1 or int(pair) < 0:
@@ -157,14 +205,36 @@ def stage_metric_name(k: int, quantity: str, pair: int = 0) -> str:
 
 
 def attenuation_name(f_hz: float) -> str:
-    """Metric name of the attenuation (dB below the passband reference) at ``f_hz`` Hz."""
+    """Metric name of the attenuation (dB below the passband reference) at ``f_hz`` Hz.
+
+    Parameters
+    ----------
+    f_hz : float
+        Frequency in Hz.
+
+    Returns
+    -------
+    str
+        The metric name.
+    """
     return f"{ATTENUATION_PREFIX}{f_hz:g}"
 
 
 # --- parsing --------------------------------------------------------------------------------
 
 def parse(name: str) -> MetricId:
-    """The :class:`MetricId` of a metric name; ``ValueError`` for a name no module makes."""
+    """The :class:`MetricId` of a metric name; ``ValueError`` for a name no module makes.
+
+    Parameters
+    ----------
+    name : str
+        A metric name.
+
+    Returns
+    -------
+    MetricId
+        Kind, stage, pair, quantity or span label of the name.
+    """
     if name.startswith(MARGIN_PREFIX):
         return MetricId("margin", "margin", span=name[len(MARGIN_PREFIX):])
     if name.startswith(MISMATCH_PREFIX):
@@ -185,12 +255,34 @@ def parse(name: str) -> MetricId:
 
 
 def is_margin(name: str) -> bool:
-    """A span's margin (``margin.<label>``)."""
+    """A span's margin (``margin.<label>``).
+
+    Parameters
+    ----------
+    name : str
+        A metric name.
+
+    Returns
+    -------
+    bool
+        True for a span's margin.
+    """
     return name.startswith(MARGIN_PREFIX)
 
 
 def is_pair_metric(name: str) -> bool:
-    """``s1.p2.q``: one pole pair of a higher-order stage (kept out of default lists)."""
+    """``s1.p2.q``: one pole pair of a higher-order stage (kept out of default lists).
+
+    Parameters
+    ----------
+    name : str
+        A metric name.
+
+    Returns
+    -------
+    bool
+        True for a metric of one pole pair.
+    """
     try:
         return parse(name).pair > 0
     except ValueError:
@@ -198,7 +290,20 @@ def is_pair_metric(name: str) -> bool:
 
 
 def span_of(name: str, mask: Sequence[Span]) -> Span:
-    """The span of margin ``name`` in ``mask``; ``ValueError`` when it has none."""
+    """The span of margin ``name`` in ``mask``; ``ValueError`` when it has none.
+
+    Parameters
+    ----------
+    name : str
+        A margin's name.
+    mask : sequence of Span
+        The spec mask.
+
+    Returns
+    -------
+    Span
+        The span.
+    """
     mid = parse(name)
     if mid.kind in ("margin", "mismatch"):
         for s in mask:
@@ -211,7 +316,20 @@ def span_of(name: str, mask: Sequence[Span]) -> Span:
 
 def unit(name: str, mask: Sequence[Span] | None = None) -> str:
     """The unit of metric ``name``: "Hz", "dB", "deg", "s", or "" for Q. A margin's is its
-    span's (:data:`SPAN_UNIT`), looked up in ``mask`` (needed for margins)."""
+    span's (:data:`SPAN_UNIT`), looked up in ``mask`` (needed for margins).
+
+    Parameters
+    ----------
+    name : str
+        A metric name.
+    mask : sequence of Span, optional
+        The spec mask (needed for margins).
+
+    Returns
+    -------
+    str
+        The unit symbol.
+    """
     mid = parse(name)
     if mid.kind in ("margin", "mismatch"):
         if mask is None:
@@ -226,7 +344,18 @@ def unit(name: str, mask: Sequence[Span] | None = None) -> str:
 
 def is_log_metric(name: str) -> bool:
     """Frequencies and Q are budgeted (and their sensitivities taken) on a log scale;
-    decibels, degrees and seconds (every margin) linearly."""
+    decibels, degrees and seconds (every margin) linearly.
+
+    Parameters
+    ----------
+    name : str
+        A metric name.
+
+    Returns
+    -------
+    bool
+        True for a frequency or a Q.
+    """
     mid = parse(name)
     if mid.kind == "stage":
         return True
@@ -236,14 +365,40 @@ def is_log_metric(name: str) -> bool:
 def sensitivity_unit(name: str, mask: Sequence[Span] | None = None) -> str:
     """The unit of a normalized sensitivity of ``name``: "ln/ln" (d ln metric / d ln
     value) for a log metric, else the metric's unit per 1 % change ("dB per %",
-    "deg per %", "s per %")."""
+    "deg per %", "s per %").
+
+    Parameters
+    ----------
+    name : str
+        A metric name.
+    mask : sequence of Span, optional
+        The spec mask (needed for margins).
+
+    Returns
+    -------
+    str
+        The unit text.
+    """
     return "ln/ln" if is_log_metric(name) else f"{unit(name, mask)} per %"
 
 
 def metric_words(name: str, stage_names: Sequence[str] | None = None) -> str:
     """What metric ``name`` is, in words without its unit: ``cutoff``, ``U2 high-Q stage
     Q`` (``stage 2 Q`` without ``stage_names``), ``margin of 'phase floor'``,
-    ``attenuation at 4 kHz``."""
+    ``attenuation at 4 kHz``.
+
+    Parameters
+    ----------
+    name : str
+        A metric name.
+    stage_names : sequence of str, optional
+        Stage names in design order (default: "stage k").
+
+    Returns
+    -------
+    str
+        The words.
+    """
     mid = parse(name)
     if mid.kind == "response":
         return RESPONSE_METRICS[name][0]
@@ -265,7 +420,22 @@ def metric_label(name: str, stage_names: Sequence[str] | None = None,
                  mask: Sequence[Span] | None = None) -> str:
     """A label for people: :func:`metric_words` with the :func:`unit` in brackets,
     ``cutoff (Hz)``, ``U2 high-Q stage Q`` (no unit), ``margin of 'phase floor' (deg)``
-    (margins need ``mask``)."""
+    (margins need ``mask``).
+
+    Parameters
+    ----------
+    name : str
+        A metric name.
+    stage_names : sequence of str, optional
+        Stage names in design order (default: "stage k").
+    mask : sequence of Span, optional
+        The spec mask (needed for margins).
+
+    Returns
+    -------
+    str
+        The label.
+    """
     u = unit(name, mask)
     return f"{metric_words(name, stage_names)} ({u})" if u else metric_words(name, stage_names)
 
@@ -274,7 +444,18 @@ def metric_label(name: str, stage_names: Sequence[str] | None = None,
 
 def duplicate_label(mask: Sequence[Span]) -> tuple[int, int] | None:
     """The first pair of mask indexes (earlier, later) whose spans share a label, or None.
-    Two such spans would share one margin name and merge in every result."""
+    Two such spans would share one margin name and merge in every result.
+
+    Parameters
+    ----------
+    mask : sequence of Span
+        The spec mask.
+
+    Returns
+    -------
+    tuple[int, int] or None
+        The two indexes, or None when every label is unique.
+    """
     seen: dict[str, int] = {}
     for i, s in enumerate(mask):
         if s.label in seen:
@@ -285,7 +466,22 @@ def duplicate_label(mask: Sequence[Span]) -> tuple[int, int] | None:
 
 def unique_span_name(stem: str, mask: Sequence[Span], first: int | None = None) -> str:
     """A span name no span of ``mask`` is labelled with: ``stem`` itself when free and
-    ``first`` is None, else ``"<stem> <n>"`` for the smallest free n from ``first`` (or 2)."""
+    ``first`` is None, else ``"<stem> <n>"`` for the smallest free n from ``first`` (or 2).
+
+    Parameters
+    ----------
+    stem : str
+        The name wanted ("floor", "phase floor").
+    mask : sequence of Span
+        The spec mask.
+    first : int, optional
+        Number from which to count (None: ``stem`` alone when free).
+
+    Returns
+    -------
+    str
+        A label free in ``mask``.
+    """
     taken = {s.label for s in mask}
     if first is None and stem not in taken:
         return stem
