@@ -9,8 +9,9 @@ its part's reference (one part, one place, so the names never collide). The join
 netlist is derived like a circuit stage (:mod:`filters.circuit_derive`); the engine then
 sees one stage with the joined H(s). A buffered stage alone keeps its own derivation.
 
-The per-stage metrics (``s<k>.f0_hz``...) count these networks, not the design's stages:
-:func:`solved_stage_names` gives their names for labels.
+The per-stage metrics (``s<k>.f0_hz``...) of a joined network are named after its first
+stage's number (:attr:`filters.engine.CompiledStage.number`), so labels built from the
+design's stage names stay right.
 """
 from __future__ import annotations
 
@@ -27,7 +28,7 @@ if TYPE_CHECKING:  # the design's modules import this one, not the other way rou
     from .design import Design
     from .stage import Stage
 
-__all__ = ["SolvedStage", "combined_kind", "stage_networks", "solved_stages", "solved_stage_names", "group_problem"]
+__all__ = ["SolvedStage", "combined_kind", "stage_networks", "solved_stages", "group_problem"]
 
 
 @dataclass(frozen=True)
@@ -130,13 +131,6 @@ def stage_networks(stages: Sequence["Stage"]) -> tuple[SolvedStage, ...]:
 def solved_stages(design: "Design") -> tuple[SolvedStage, ...]:
     """The design's networks in signal order: what the engine compiles."""
     return stage_networks(design.stages)
-
-
-def solved_stage_names(design: "Design") -> list[str]:
-    """The name of each network for labels of per-stage metrics (``s<k>``): a stage's own
-    name ("" when it has none) or, for stages solved together, their names joined."""
-    return [s.name if s.joined and s.first != s.last else design.stages[s.first].name
-            for s in solved_stages(design)]
 
 
 def group_problem(solved: SolvedStage) -> InputError | None:
