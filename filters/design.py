@@ -181,6 +181,18 @@ def check_part_value(raw: Any, path: str = "value") -> tuple[float, str]:
     ``raw`` is text (SI prefixes, RKM codes: "4k7", "10 nF") or a number; the value must be
     finite, above 0 and within :data:`VALUE_RANGE` (SI units). Returns the value in SI
     units and the text to keep ("" for a number). Raises :class:`InputError` at ``path``.
+
+    Parameters
+    ----------
+    raw : str or float
+        The value as written.
+    path : str
+        Field path named in an error.
+
+    Returns
+    -------
+    tuple[float, str]
+        The value in SI units and its text.
     """
     text = ""
     if isinstance(raw, str):
@@ -201,7 +213,20 @@ def check_part_value(raw: Any, path: str = "value") -> tuple[float, str]:
 def check_seed(raw: Any, path: str = "analysis.seed") -> int:
     """The loader's rule for a seed, for the file, the command line and the window alike:
     a whole number from 0 to :data:`MAX_SEED` (text of digits, "1,000" and "1_000" too).
-    Returns it as an int; raises :class:`InputError` at ``path``."""
+    Returns it as an int; raises :class:`InputError` at ``path``.
+
+    Parameters
+    ----------
+    raw : int or str
+        The seed as written.
+    path : str
+        Field path named in an error.
+
+    Returns
+    -------
+    int
+        The seed.
+    """
     if isinstance(raw, str):
         digits = raw.strip().replace(",", "").replace("_", "")
         if digits.startswith("-") and digits[1:].isdigit():
@@ -223,7 +248,22 @@ def check_seed(raw: Any, path: str = "analysis.seed") -> int:
 def check_span_limit(quantity: str, limit: Any, path: str = "limit1") -> float:
     """The loader's rule for one mask limit of ``quantity`` (gain in dB, phase in degrees,
     delay variation in seconds): a finite number within +-:data:`SPAN_LIMITS` (a delay
-    variation above 0). Returns it as a float; raises :class:`InputError` at ``path``."""
+    variation above 0). Returns it as a float; raises :class:`InputError` at ``path``.
+
+    Parameters
+    ----------
+    quantity : str
+        ``"gain"``, ``"phase"`` or ``"delay"``.
+    limit : float or str
+        The limit as written.
+    path : str
+        Field path named in an error.
+
+    Returns
+    -------
+    float
+        The limit in dB, deg or s.
+    """
     if quantity not in SPAN_LIMITS:
         raise InputError(f"unknown quantity {quoted(quantity)}; known: {', '.join(SPAN_LIMITS)}", path)
     if not is_finite_number(limit):
@@ -237,7 +277,20 @@ def check_span_limit(quantity: str, limit: Any, path: str = "limit1") -> float:
 
 
 def check_span_limits(span: Span, path: str = "span") -> None:
-    """:func:`check_span_limit` on both limits of ``span`` (paths ``path.limit1/2``)."""
+    """:func:`check_span_limit` on both limits of ``span`` (paths ``path.limit1/2``).
+
+    Parameters
+    ----------
+    span : Span
+        The span.
+    path : str
+        Field path of the span.
+
+    Raises
+    ------
+    InputError
+        When a limit breaks the rule.
+    """
     check_span_limit(span.quantity, span.limit1, f"{path}.limit1")
     if span.limit2 is not None:
         check_span_limit(span.quantity, span.limit2, f"{path}.limit2")
@@ -269,6 +322,23 @@ def _number(data: dict, key: str, path: str, problems: list[InputError], default
 
 
 def analysis_from_dict(data: Any, problems: list[InputError], path: str = "analysis") -> Analysis:
+    """The analysis settings of a design file, checked.
+
+    Parameters
+    ----------
+    data : dict or None
+        The file's ``analysis`` object (None: every default).
+    problems : list of InputError
+        Each problem found is appended here (with its field path).
+    path : str
+        Field path of ``data``.
+
+    Returns
+    -------
+    Analysis
+        The settings (frequencies in Hz, temperatures in deg C), defaults where a field is
+        missing or wrong.
+    """
     if data is None:
         return Analysis()
     if not isinstance(data, dict):
@@ -328,6 +398,16 @@ def design_from_dict(data: Any) -> Design:
     """Build a :class:`Design` from its dict form, checking everything.
 
     Raises :class:`ValidationError` listing every problem with its field path.
+
+    Parameters
+    ----------
+    data : dict
+        The design file's dict form (current format).
+
+    Returns
+    -------
+    Design
+        The design.
     """
     problems: list[InputError] = []
     if not isinstance(data, dict):

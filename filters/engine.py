@@ -89,7 +89,18 @@ def _structure_key(design: Design) -> tuple:
 
 
 def compile_design(design: Design) -> Circuit:
-    """Compile (and cache by structure) the design's stages into a :class:`Circuit`."""
+    """Compile (and cache by structure) the design's stages into a :class:`Circuit`.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    Circuit
+        Its stages' coefficient programs, part indices and roles.
+    """
     key = _structure_key(design)
     hit = _COMPILED.get(key)
     if hit is not None:
@@ -138,6 +149,21 @@ def stage_coefficients(circuit: Circuit, values: np.ndarray,
     ``w_refs`` fixes each stage's frequency scale (rad/s); by default it is the median
     natural frequency of the batch. Fixing it (to the nominal design's, as evaluations do)
     makes every sample's numbers independent of the batch it is computed in.
+
+    Parameters
+    ----------
+    circuit : Circuit
+        From :func:`compile_design`.
+    values : np.ndarray
+        (S, P) part values in SI units (ohm, F, H; an op-amp's gain-bandwidth in Hz).
+    w_refs : tuple of float, optional
+        Each stage's frequency scale in rad/s.
+
+    Returns
+    -------
+    list[StageCoefficients]
+        One entry per stage: numerator and denominator (S, K), ascending powers of s
+        scaled by the stage's frequency scale.
     """
     out = []
     for k, st in enumerate(circuit.stages):
@@ -183,6 +209,20 @@ def poly_jw(c: np.ndarray, x: np.ndarray, xx: np.ndarray) -> tuple[np.ndarray, n
     """Real and imaginary parts of p(jx) for coefficients ``c`` (S, K), ascending.
 
     ``x`` and ``xx = x**2`` broadcast against (S, 1): a grid (F,) or per-sample (S, k).
+
+    Parameters
+    ----------
+    c : np.ndarray
+        (S, K) coefficients, ascending powers.
+    x : np.ndarray
+        Angular frequencies (rad/s, scaled), (F,) or (S, k).
+    xx : np.ndarray
+        ``x**2``, the shape of ``x``.
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray]
+        Real and imaginary parts, (S, F) or (S, k).
     """
     even, odd = _signed_parts(c)
     re = _horner(even, xx) if even.shape[1] else np.zeros((c.shape[0], 1))
@@ -386,6 +426,32 @@ def frequency_response(circuit: Circuit, coeffs: list[StageCoefficients], freqs_
     Works through the samples in blocks of :data:`BLOCK_ROWS` rows, writing each block's
     results straight into the output arrays (decibels included); a block's temporaries are
     reused and stay in the CPU cache. ``out_*`` are optional arrays (S, F) to write into.
+
+    Parameters
+    ----------
+    circuit : Circuit
+        From :func:`compile_design`.
+    coeffs : list of StageCoefficients
+        Per stage, the numerator and denominator coefficients of every board (S, K),
+        ascending powers of s (from :func:`stage_coefficients`).
+    freqs_hz : np.ndarray
+        (F,) frequency grid in Hz.
+    phase : bool
+        Compute the phase (deg).
+    delay : bool
+        Compute the group delay (s).
+    out_gain_db : np.ndarray, optional
+        (S, F) array to write the gain into.
+    out_phase : np.ndarray, optional
+        (S, F) array to write the phase into.
+    out_delay : np.ndarray, optional
+        (S, F) array to write the group delay into.
+
+    Returns
+    -------
+    Response
+        Gain (S, F) in dB, phase (S, F) in deg and group delay (S, F) in s (None each
+        when not asked).
     """
     s = coeffs[0].num.shape[0]
     f = np.asarray(freqs_hz, dtype=float)
@@ -413,6 +479,33 @@ def response_blocks(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz:
     product would exceed :data:`BLAS_SOLO_SIZE`); the rows are split into blocks
     of equal size, at least two rows each. Every number equals
     :func:`frequency_response`'s, bit for bit, whatever the blocks.
+
+    Parameters
+    ----------
+    circuit : Circuit
+        From :func:`compile_design`.
+    coeffs : list of StageCoefficients
+        Per stage, the numerator and denominator coefficients of every board (S, K),
+        ascending powers of s (from :func:`stage_coefficients`).
+    freqs_hz : np.ndarray
+        (F,) frequency grid in Hz.
+    phase : bool
+        Compute the phase (deg).
+    delay : bool
+        Compute the group delay (s).
+    out_gain_db : np.ndarray, optional
+        (S, F) array to write the gain into.
+    out_phase : np.ndarray, optional
+        (S, F) array to write the phase into.
+    out_delay : np.ndarray, optional
+        (S, F) array to write the group delay into.
+    rows : int, optional
+        Sample rows per block (default: chosen for the grid).
+
+    Yields
+    ------
+    tuple[int, int, Response]
+        ``(lo, hi, block)``: rows ``[lo, hi)`` and their responses (hi - lo, F).
     """
     s = coeffs[0].num.shape[0]
     f = np.asarray(freqs_hz, dtype=float)
@@ -542,7 +635,21 @@ def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: 
 
 
 def gain2_at(coeffs: list[StageCoefficients], f_hz: np.ndarray) -> np.ndarray:
-    """|H|^2 at per-sample frequencies ``f_hz`` shaped (S,) or (S, k) (exact, no grid)."""
+    """|H|^2 at per-sample frequencies ``f_hz`` shaped (S,) or (S, k) (exact, no grid).
+
+    Parameters
+    ----------
+    coeffs : list of StageCoefficients
+        Per stage, the numerator and denominator coefficients of every board (S, K),
+        ascending powers of s (from :func:`stage_coefficients`).
+    f_hz : np.ndarray
+        (S,) or (S, k) frequencies in Hz.
+
+    Returns
+    -------
+    np.ndarray
+        |H|^2 (no unit), the shape of ``f_hz``.
+    """
     f = np.asarray(f_hz, dtype=float)
     col = f.ndim == 1
     w = TWO_PI * (f[:, None] if col else f)
@@ -560,7 +667,19 @@ def gain2_at(coeffs: list[StageCoefficients], f_hz: np.ndarray) -> np.ndarray:
 
 
 def dc_gain2(coeffs: list[StageCoefficients]) -> np.ndarray:
-    """|H(0)|^2 per sample (S,); 0 where a stage blocks DC."""
+    """|H(0)|^2 per sample (S,); 0 where a stage blocks DC.
+
+    Parameters
+    ----------
+    coeffs : list of StageCoefficients
+        Per stage, the numerator and denominator coefficients of every board (S, K),
+        ascending powers of s (from :func:`stage_coefficients`).
+
+    Returns
+    -------
+    np.ndarray
+        (S,) float |H(0)|^2 (no unit).
+    """
     g = None
     for sc in coeffs:
         gs = (sc.num[:, 0] / sc.den[:, 0]) ** 2
@@ -570,7 +689,19 @@ def dc_gain2(coeffs: list[StageCoefficients]) -> np.ndarray:
 
 
 def hf_gain2(coeffs: list[StageCoefficients]) -> np.ndarray:
-    """|H(s)|^2 as s -> infinity per sample (S,); 0 where a stage rolls off."""
+    """|H(s)|^2 as s -> infinity per sample (S,); 0 where a stage rolls off.
+
+    Parameters
+    ----------
+    coeffs : list of StageCoefficients
+        Per stage, the numerator and denominator coefficients of every board (S, K),
+        ascending powers of s (from :func:`stage_coefficients`).
+
+    Returns
+    -------
+    np.ndarray
+        (S,) float high-frequency |H|^2 (no unit).
+    """
     g = None
     for sc in coeffs:
         n_deg, d_deg = sc.num.shape[1] - 1, sc.den.shape[1] - 1

@@ -80,6 +80,18 @@ def peak(coeffs: list[StageCoefficients], resp: Response) -> tuple[np.ndarray, n
 
     The grid maximum is refined by a golden-section search between its two neighbours
     (exact evaluations of H; assumes one maximum there).
+
+    Parameters
+    ----------
+    coeffs : list of StageCoefficients
+        Per stage, the coefficients of every board (S, K), ascending powers of s.
+    resp : Response
+        Responses on the grid: gain (S, F) in dB.
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray]
+        (S,) frequencies in Hz and (S,) |H|^2 (no unit).
     """
     gdb = resp.gain_db
     f = resp.freqs_hz
@@ -268,6 +280,22 @@ def pole_peaks(coeffs: list[StageCoefficients], f_min: float, f_max: float,
     the bracket of :func:`_pole_brackets` (vectorized over boards and poles), so a
     resonance narrower than the grid spacing is still seen. :func:`crossing` searches
     only the poles whose top could move its answer.
+
+    Parameters
+    ----------
+    coeffs : list of StageCoefficients
+        Per stage, the coefficients of every board (S, K), ascending powers of s.
+    f_min : float
+        Lowest frequency of interest, Hz.
+    f_max : float
+        Highest frequency of interest, Hz.
+    iterations : int
+        Golden-section steps.
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray]
+        (S, R) frequencies in Hz and (S, R) |H|^2, NaN where there is no peak.
     """
     poles = _all_poles(coeffs)
     a, b, use = _pole_brackets(poles, f_min, f_max)
@@ -336,6 +364,23 @@ def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray
     below the level. A resonance too damped to rise above the level there is skipped this
     way; for an all-pole low-pass whose poles lie below g+ the bound is the grid's own
     gain at g+, which is below the level.
+
+    Parameters
+    ----------
+    resp : Response
+        Responses on the grid: gain (S, F) in dB.
+    coeffs : list of StageCoefficients
+        Per stage, the coefficients of every board (S, K), ascending powers of s.
+    level2 : np.ndarray
+        (S,) level as |H|^2 (no unit).
+    direction : str
+        ``"falling"`` or ``"rising"``.
+
+    Returns
+    -------
+    np.ndarray
+        (S,) float frequencies in Hz, NaN where the gain does not cross the level in the
+        analysed range.
     """
     gdb = resp.gain_db
     f = resp.freqs_hz
@@ -502,7 +547,22 @@ def _half_crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.n
 
 
 def attenuation_db(coeffs: list[StageCoefficients], ref2: np.ndarray, f_hz: float) -> np.ndarray:
-    """Attenuation (dB, positive = below the reference) at ``f_hz`` per sample."""
+    """Attenuation (dB, positive = below the reference) at ``f_hz`` per sample.
+
+    Parameters
+    ----------
+    coeffs : list of StageCoefficients
+        Per stage, the coefficients of every board (S, K), ascending powers of s.
+    ref2 : np.ndarray
+        (S,) reference |H|^2 (no unit).
+    f_hz : float
+        Frequency in Hz.
+
+    Returns
+    -------
+    np.ndarray
+        (S,) float attenuation in dB.
+    """
     g2 = gain2_at(coeffs, np.full(ref2.shape, float(f_hz)))
     return 10 * np.log10(np.maximum(ref2, 1e-300) / np.maximum(g2, 1e-300))
 
@@ -512,6 +572,18 @@ def pole_pairs(den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
 
     Returns arrays (S, pairs) sorted by ascending Q per sample; NaN where a sample has
     fewer complex pairs. Degree 2 uses the closed form (any Q, also below 1/2).
+
+    Parameters
+    ----------
+    den : np.ndarray
+        (S, n + 1) denominator coefficients, ascending powers of the scaled s.
+    w_ref : float
+        The frequency scale of ``den`` in rad/s.
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray]
+        f0 (S, pairs) in Hz and Q (S, pairs) (no unit).
     """
     s_count, k = den.shape
     n = k - 1
@@ -546,6 +618,18 @@ def stage_metrics(circuit: Circuit, coeffs: list[StageCoefficients]) -> dict[str
 
     A first-order stage gives ``s<k>.fc_hz``. A stage of higher order gives its
     highest-Q pair as ``s<k>.f0_hz``/``s<k>.q`` and every pair as ``s<k>.p<j>.f0_hz``...
+
+    Parameters
+    ----------
+    circuit : Circuit
+        The compiled design (:func:`filters.engine.compile_design`).
+    coeffs : list of StageCoefficients
+        Per stage, the coefficients of every board (S, K), ascending powers of s.
+
+    Returns
+    -------
+    dict[str, np.ndarray]
+        Metric name -> (S,) values (f0 and fc in Hz, Q no unit).
     """
     out: dict[str, np.ndarray] = {}
     for i, (st, sc) in enumerate(zip(circuit.stages, coeffs), 1):

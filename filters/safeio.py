@@ -72,6 +72,20 @@ def read_bytes(path: str | Path, limit: int, *, what: str = "file") -> bytes:
     Raises :class:`InputError` (path = ``path``) when the file is missing, a folder, not a
     regular file, unreadable or larger than ``limit`` bytes (``what`` names the kind of
     file in that message, e.g. "design file").
+
+    Parameters
+    ----------
+    path : str or Path
+        The file.
+    limit : int
+        Most bytes allowed.
+    what : str
+        The kind of file, for messages.
+
+    Returns
+    -------
+    bytes
+        The file's contents.
     """
     p = os.fspath(path)
     if p == "":
@@ -110,7 +124,22 @@ def read_bytes(path: str | Path, limit: int, *, what: str = "file") -> bytes:
 
 
 def read_text(path: str | Path, limit: int, *, what: str = "file") -> str:
-    """:func:`read_bytes` decoded as UTF-8."""
+    """:func:`read_bytes` decoded as UTF-8.
+
+    Parameters
+    ----------
+    path : str or Path
+        The file.
+    limit : int
+        Most bytes allowed.
+    what : str
+        The kind of file, for messages.
+
+    Returns
+    -------
+    str
+        The file's text.
+    """
     raw = read_bytes(path, limit, what=what)
     try:
         return raw.decode("utf-8")
@@ -158,6 +187,24 @@ def parse_json(text: str, source: str, *, limit: int, max_depth: int, what: str 
     nesting deeper than ``max_depth``, integers of more digits than Python converts, and
     unpaired surrogates. ``NaN`` and ``Infinity`` parse (as JSON's Python reader allows);
     the validators refuse them where a finite number is needed.
+
+    Parameters
+    ----------
+    text : str
+        JSON text.
+    source : str
+        Where it came from, the error's path.
+    limit : int
+        Most bytes allowed.
+    max_depth : int
+        Deepest nesting allowed.
+    what : str
+        The kind of file, for messages.
+
+    Returns
+    -------
+    Any
+        The parsed data.
     """
     if len(text) > limit or len(text.encode("utf-8", errors="replace")) > limit:
         raise InputError(f"file is larger than {_mb(limit)}; too large for a {what}", source)
@@ -186,6 +233,18 @@ def check_output_path(path: str | Path | None, option: str = "") -> Path:
     anything that exists but is not a regular file (a device such as ``/dev/full``, a
     pipe, a socket), following symbolic links. The
     error's path is ``option`` (a command-line option such as ``--json``) when given.
+
+    Parameters
+    ----------
+    path : str, Path or None
+        The output path.
+    option : str
+        The command-line option or field named in an error.
+
+    Returns
+    -------
+    Path
+        The path.
     """
     text = "" if path is None else os.fspath(path)
     if text.strip() == "":
@@ -231,7 +290,18 @@ def _pid_running(pid: int) -> bool:
 def remove_orphan_temporaries(target: str | Path) -> int:
     """Remove temporary files that a killed save of ``target`` (or of its backup) left
     beside it: those of processes that no longer run (elsewhere than POSIX: older than a
-    day). Returns how many were removed; problems are ignored (this only tidies)."""
+    day). Returns how many were removed; problems are ignored (this only tidies).
+
+    Parameters
+    ----------
+    target : str or Path
+        The file whose leftover temporaries are removed.
+
+    Returns
+    -------
+    int
+        Number of files removed.
+    """
     t = Path(target)
     folder = t.parent if str(t.parent) else Path(".")
     names = {t.name, t.name + ".bak"}
@@ -323,7 +393,19 @@ def _make_backup(real: Path, folder: Path) -> None:
 def write_bytes_atomic(target: str | Path, data: bytes, *, backup: bool = True, option: str = "") -> None:
     """Write ``data`` to ``target`` atomically (see the module notes); keep the previous
     file as ``target.bak`` when ``backup``. On failure the old file is intact and
-    :class:`InputError` says why (path: ``option`` when given, else the target)."""
+    :class:`InputError` says why (path: ``option`` when given, else the target).
+
+    Parameters
+    ----------
+    target : str or Path
+        The file to write.
+    data : bytes
+        Its new contents.
+    backup : bool
+        Keep the previous file as ``target.bak``.
+    option : str
+        The command-line option or field named in an error.
+    """
     t = check_output_path(target, option)
     real = Path(os.path.realpath(t)) if os.path.islink(t) else t
     folder = real.parent if str(real.parent) else Path(".")
@@ -357,7 +439,19 @@ def write_bytes_atomic(target: str | Path, data: bytes, *, backup: bool = True, 
 
 
 def write_text_atomic(target: str | Path, text: str, *, backup: bool = True, option: str = "") -> None:
-    """:func:`write_bytes_atomic` of ``text`` encoded as UTF-8."""
+    """:func:`write_bytes_atomic` of ``text`` encoded as UTF-8.
+
+    Parameters
+    ----------
+    target : str or Path
+        The file to write.
+    text : str
+        Its new text.
+    backup : bool
+        Keep the previous file as ``target.bak``.
+    option : str
+        The command-line option or field named in an error.
+    """
     try:
         data = text.encode("utf-8")
     except UnicodeEncodeError:
