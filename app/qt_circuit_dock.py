@@ -11,16 +11,14 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
-from PySide6.QtCore import Qt, QTimer
-from PySide6.QtWidgets import QDockWidget
+from PySide6.QtCore import Qt
+from PySide6.QtWidgets import QDockWidget, QScrollArea
 
 from .qt_circuit_view import CircuitView
 from .qt_stage_editor import StageEditor
 
 if TYPE_CHECKING:
     from .qt_mainwindow import MainWindow
-
-CIRCUIT_HEIGHT = 330  # the circuit dock's height (px) at the first start
 
 
 def _dock(window: "MainWindow", widget, title: str, name: str) -> QDockWidget:
@@ -50,7 +48,12 @@ def install_circuit_docks(window: "MainWindow") -> None:
     editor = StageEditor(window.apply_edit)
     window.circuit_view, window.stage_editor = view, editor
     window.dock_circuit = _dock(window, view, "Circuit", "dock_circuit")
-    window.dock_stages = _dock(window, editor, "Stages", "dock_stages")
+    scroll = QScrollArea()  # the editor scrolls rather than squeezing the drawing above the tabs
+    scroll.setWidgetResizable(True)
+    scroll.setWidget(editor)
+    scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+    scroll.setMinimumWidth(editor.minimumSizeHint().width() + scroll.verticalScrollBar().sizeHint().width())
+    window.dock_stages = _dock(window, scroll, "Stages", "dock_stages")
     window.addDockWidget(Qt.DockWidgetArea.LeftDockWidgetArea, window.dock_circuit)
     window.splitDockWidget(window.dock_circuit, window.dock_parts, Qt.Orientation.Vertical)
     window.tabifyDockWidget(window.dock_parts, window.dock_stages)
@@ -63,6 +66,3 @@ def install_circuit_docks(window: "MainWindow") -> None:
     editor.problem_shown.connect(window.show_status)
     view.show_design(session.design)
     editor.show_design(session.design)
-    if window.settings.value("window_state") is None:  # the first start: room for the drawing
-        QTimer.singleShot(0, lambda: window.resizeDocks([window.dock_circuit], [CIRCUIT_HEIGHT],
-                                                        Qt.Orientation.Vertical))

@@ -11,12 +11,14 @@ from __future__ import annotations
 from PySide6.QtCore import QByteArray, QPointF, QRectF, QSize, Qt, Signal
 from PySide6.QtGui import QPainter
 from PySide6.QtSvg import QSvgRenderer
-from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QSizePolicy, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QScrollArea, QSizePolicy, QVBoxLayout, QWidget
 
 from ..design import Design
 from ..schematic import Schematic, stage_schematic
 
-MAX_ZOOM = 1.5  # never draw the schematic larger than 1.5 x its natural size (points -> px)
+MAX_ZOOM = 1.5   # never draw the schematic larger than 1.5 x its natural size (points -> px)
+MIN_ZOOM = 0.75  # nor smaller than 0.75 x (9 px text): a larger circuit scrolls instead
+VIEW_HEIGHT = 300  # the drawing's area is at least this tall (px): a Sallen-Key stage whole
 
 
 class SchematicCanvas(QWidget):
@@ -37,13 +39,15 @@ class SchematicCanvas(QWidget):
     def set_schematic(self, schematic: Schematic | None) -> None:
         self.schematic = schematic
         self._renderer.load(QByteArray(schematic.svg.encode("utf-8")) if schematic else QByteArray())
+        if schematic is not None:  # never smaller than MIN_ZOOM: the scroll area scrolls
+            self.setMinimumSize(int(schematic.width_pt * MIN_ZOOM), int(schematic.height_pt * MIN_ZOOM))
+        self.updateGeometry()
         self.update()
 
     def sizeHint(self) -> QSize:  # noqa: N802 - Qt override
         if self.schematic is None:
-            return QSize(420, 240)
-        return QSize(int(min(self.schematic.width_pt, 640)),
-                     int(min(self.schematic.height_pt * min(1.0, 640 / self.schematic.width_pt), 420)))
+            return QSize(420, 300)
+        return QSize(int(self.schematic.width_pt), int(self.schematic.height_pt))
 
     def picture_rect(self) -> QRectF:
         """Where the drawing sits in the widget (pixels): in proportion, centred."""
@@ -106,7 +110,12 @@ class CircuitView(QWidget):
         self.title.setWordWrap(True)
         lay.addWidget(self.title)
         self.canvas = SchematicCanvas()
-        lay.addWidget(self.canvas, 1)
+        self.scroll = QScrollArea()
+        self.scroll.setObjectName("schematic_scroll")
+        self.scroll.setWidgetResizable(True)
+        self.scroll.setWidget(self.canvas)
+        self.scroll.setMinimumHeight(VIEW_HEIGHT)
+        lay.addWidget(self.scroll, 1)
         self.problem = QLabel()
         self.problem.setObjectName("schematic_problem")
         self.problem.setStyleSheet("color: #D55E00;")

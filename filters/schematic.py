@@ -47,7 +47,7 @@ FONT_PT = 12.0          # label text size in points (the report's figures keep t
 INCHES_PER_UNIT = 0.5   # schemdraw's scale: one drawing unit is 36 pt
 MARGIN = 0.8            # white space around the drawing, drawing units (labels never clipped)
 LEN = 3.0               # a two-terminal symbol's length, drawing units
-RAIL_GAP = 3.6          # distance between rails in the automatic layout
+RAIL_GAP = 3.3          # distance between rails in the automatic layout
 COLUMN = 2.8            # width of one element's column in the automatic layout
 
 
@@ -420,7 +420,10 @@ def _rail_opamp(s: _Sheet, o: OpAmp, y: Mapping[str, float], x: float, joins: li
     the x after it."""
     yp, ym, yo = y[o.plus], y[o.minus], y[o.out]
     plus_on_top = yp > ym
-    yc = (yp + ym) / 2 if yp != ym else yp + RAIL_GAP / 2
+    # the triangle in the gap between two rails nearest the middle of its inputs' rails, so no
+    # rail runs through it (the gap is wider than the triangle is tall)
+    gap = min(max(round(-(yp + ym) / 2 / RAIL_GAP - 0.5), 0), len(y) - 2)
+    yc = -(gap + 0.5) * RAIL_GAP
     x_in = x + 1.4
     # '+' is schemdraw's 'in2', '-' its 'in1'; flipping puts '+' on top; inputs 1.25 apart
     u = s.opamp(o.role, "in1", (x_in, yc + (-0.625 if plus_on_top else 0.625)), plus_on_top)
