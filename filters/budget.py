@@ -62,7 +62,18 @@ STEP = 1e-4
 
 
 def metric_columns(ens: Ensemble) -> dict[str, np.ndarray]:
-    """Every per-sample metric including span margins, name -> (S,)."""
+    """Every per-sample metric including span margins, name -> (S,).
+
+    Parameters
+    ----------
+    ens : Ensemble
+        The sampled boards (part values (S, P)).
+
+    Returns
+    -------
+    dict[str, np.ndarray]
+        Metric name -> (S,) float, in each metric's unit.
+    """
     out = dict(ens.metrics)
     for j, name in enumerate(margin_names(ens.design.mask)):
         out[name] = ens.margins[:, j]
@@ -115,7 +126,22 @@ class Budget:
 def largest_remainder(values: list[float], total: float = 100.0, decimals: int = 1) -> list[float]:
     """``values`` (non-negative) scaled to add to ``total`` and rounded to ``decimals``
     places so that the rounded figures still add to exactly ``total`` (largest-remainder
-    method: round down, then give the leftover units to the largest fractional parts)."""
+    method: round down, then give the leftover units to the largest fractional parts).
+
+    Parameters
+    ----------
+    values : list of float
+        Non-negative shares.
+    total : float
+        The sum wanted (100 for percent).
+    decimals : int
+        Decimal places.
+
+    Returns
+    -------
+    list[float]
+        The rounded figures, in the order of ``values``.
+    """
     unit = 10.0 ** -decimals
     whole = sum(values)
     if whole <= 0:
@@ -142,6 +168,22 @@ def evaluate_rows(prep: Prepared, n: int, make_rows: Callable[[int, int], np.nda
 
     Returns (columns name -> (n,) including ``margin.<label>``, margins (n, spans)).
     Each row's results do not depend on the batch it is in.
+
+    Parameters
+    ----------
+    prep : Prepared
+        The prepared design (:func:`filters.evaluate.prepare`).
+    n : int
+        Number of rows.
+    make_rows : callable
+        ``make_rows(lo, hi)`` -> (hi - lo, P) part values in SI units.
+    metrics : bool
+        Compute the metrics (False: margins only).
+
+    Returns
+    -------
+    tuple[dict[str, np.ndarray], np.ndarray]
+        Metric name -> (n,) values, and the margins (n, spans) in each span's unit.
     """
     step = max(1, ROW_NUMBERS // max(1, prep.freqs_hz.size))
     cols: dict[str, np.ndarray] = {}
@@ -159,7 +201,22 @@ def evaluate_rows(prep: Prepared, n: int, make_rows: Callable[[int, int], np.nda
 def perturbed_rows(base: np.ndarray, lo: int, hi: int) -> np.ndarray:
     """Rows ``[lo, hi)`` of the central-difference designs around ``base`` (B, P): for
     base row b and part k, row ``2 P b + 2 k`` has part k times exp(STEP) and the next
-    row times exp(-STEP). Shape (hi - lo, P)."""
+    row times exp(-STEP). Shape (hi - lo, P).
+
+    Parameters
+    ----------
+    base : np.ndarray
+        (B, P) part values in SI units.
+    lo : int
+        First row.
+    hi : int
+        One past the last row (at most 2 P B).
+
+    Returns
+    -------
+    np.ndarray
+        (hi - lo, P) float part values in SI units.
+    """
     p = base.shape[1]
     r = np.arange(lo, hi)
     rows = base[r // (2 * p)].copy()
@@ -169,7 +226,21 @@ def perturbed_rows(base: np.ndarray, lo: int, hi: int) -> np.ndarray:
 
 
 def sensitivities(prep: Prepared, names: list[str]) -> dict[str, np.ndarray]:
-    """Normalized sensitivity of each metric to each part at the nominal design, (P,)."""
+    """Normalized sensitivity of each metric to each part at the nominal design, (P,).
+
+    Parameters
+    ----------
+    prep : Prepared
+        The prepared design (:func:`filters.evaluate.prepare`).
+    names : list of str
+        Metric names.
+
+    Returns
+    -------
+    dict[str, np.ndarray]
+        Metric name -> (P,) sensitivities: d ln metric / d ln value for a log metric, else
+        the metric's unit per 1 % (:func:`filters.metric_names.sensitivity_unit`).
+    """
     nom = prep.nominal.values
     base = nom[None, :]
     cols, _ = evaluate_rows(prep, 2 * nom.size, lambda lo, hi: perturbed_rows(base, lo, hi))
@@ -188,12 +259,38 @@ def sensitivities(prep: Prepared, names: list[str]) -> dict[str, np.ndarray]:
 
 
 def log_deviations(ens: Ensemble, nominal: np.ndarray, sl: slice) -> np.ndarray:
-    """ln(value / marked value) of the boards in ``sl``, (boards, P)."""
+    """ln(value / marked value) of the boards in ``sl``, (boards, P).
+
+    Parameters
+    ----------
+    ens : Ensemble
+        The sampled boards (part values (S, P)).
+    nominal : np.ndarray
+        (P,) marked values in SI units.
+    sl : slice
+        The boards to take.
+
+    Returns
+    -------
+    np.ndarray
+        (boards, P) float (no unit).
+    """
     return np.log(ens.values[sl] / nominal)
 
 
 def budget_refs(design) -> list[str]:
-    """The names of a budget's regressors: every part's ref, then every network's name."""
+    """The names of a budget's regressors: every part's ref, then every network's name.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    list[str]
+        P part refs, then the network names.
+    """
     return [p.ref for p in design.parts] + [n.name for n in design.networks]
 
 
@@ -208,7 +305,22 @@ def _split_shared(design, x: np.ndarray, shared: np.ndarray) -> np.ndarray:
 
 def budget_columns(ens: Ensemble, nominal: np.ndarray, sl: slice) -> np.ndarray:
     """The budget's regressors of the boards in ``sl``: :func:`log_deviations`, and with
-    networks each network's shared ln(1 + e_c) split off its members, (boards, P + networks)."""
+    networks each network's shared ln(1 + e_c) split off its members, (boards, P + networks).
+
+    Parameters
+    ----------
+    ens : Ensemble
+        The sampled boards (part values (S, P)).
+    nominal : np.ndarray
+        (P,) marked values in SI units.
+    sl : slice
+        The boards to take.
+
+    Returns
+    -------
+    np.ndarray
+        (boards, P + networks) float (no unit).
+    """
     x = log_deviations(ens, nominal, sl)
     d = ens.design
     if not d.networks:
@@ -220,7 +332,22 @@ def budget_columns(ens: Ensemble, nominal: np.ndarray, sl: slice) -> np.ndarray:
 def mismatch_columns(ens: Ensemble, nominal: np.ndarray, sl: slice) -> np.ndarray:
     """Regressors of a mismatch (boards of several channels): each part's ln(value in
     channel 2 / value in channel 1), and each network's shared-error difference split off
-    its members, (boards, P + networks)."""
+    its members, (boards, P + networks).
+
+    Parameters
+    ----------
+    ens : Ensemble
+        The sampled boards (part values (S, P)).
+    nominal : np.ndarray
+        (P,) marked values in SI units.
+    sl : slice
+        The boards to take.
+
+    Returns
+    -------
+    np.ndarray
+        (boards, P + networks) float (no unit).
+    """
     from .channel_match import mismatch_deviations
     from .sampling import draw_scores
 
@@ -238,7 +365,18 @@ def mismatch_columns(ens: Ensemble, nominal: np.ndarray, sl: slice) -> np.ndarra
 
 def budget_names(cols: dict[str, np.ndarray]) -> list[str]:
     """The default metrics of a spread budget: cutoff or band-pass centre and bandwidth,
-    stage f0/Q (not single pole pairs), every span margin."""
+    stage f0/Q (not single pole pairs), every span margin.
+
+    Parameters
+    ----------
+    cols : dict of str to np.ndarray
+        Metric name -> (S,) columns (:func:`metric_columns`).
+
+    Returns
+    -------
+    list[str]
+        Metric names.
+    """
     def default(name: str) -> bool:
         if name in ("cutoff_hz", "centre_hz", "bandwidth_hz") or is_margin(name):
             return True
@@ -257,6 +395,23 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
     X'X (P, P) and X'y), so memory does not grow with the boards beyond one chunk. Each
     metric is fitted on the boards where it exists: the normal equations of its centred
     log deviations, solved by least squares (``numpy.linalg.lstsq``).
+
+    Parameters
+    ----------
+    ens : Ensemble
+        The sampled boards (part values (S, P)).
+    prep : Prepared
+        The prepared design (:func:`filters.evaluate.prepare`).
+    names : list of str, optional
+        Metric names (default: :func:`budget_names`).
+    chunk : int, optional
+        Boards per chunk.
+
+    Returns
+    -------
+    dict[str, Budget]
+        Metric name -> its budget: each part's share of the variance (fractions, largest
+        first) and the share no part explains.
     """
     cols = metric_columns(ens)
     if names is None:

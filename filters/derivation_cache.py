@@ -60,7 +60,13 @@ Coefficients = tuple[tuple[tuple[float, tuple[tuple[str, int], ...]], ...], ...]
 
 def cache_dir() -> Path | None:
     """The folder of this program's caches (see the module notes); ``None`` when no home
-    folder is known."""
+    folder is known.
+
+    Returns
+    -------
+    Path or None
+        The folder (it may not exist yet).
+    """
     env = os.environ.get("TOLSPREAD_CACHE_DIR")
     if env:
         return Path(env)
@@ -83,11 +89,34 @@ def _canonical(data: Any) -> str:
 
 
 def key_of(description: dict[str, Any]) -> str:
-    """SHA-256 (hex) of a netlist's description: the entry's file name."""
+    """SHA-256 (hex) of a netlist's description: the entry's file name.
+
+    Parameters
+    ----------
+    description : dict
+        The netlist's description (:meth:`filters.netlist.Netlist.description`).
+
+    Returns
+    -------
+    str
+        64 hex digits.
+    """
     return hashlib.sha256(_canonical(description).encode("ascii")).hexdigest()
 
 
 def entry_path(description: dict[str, Any]) -> Path | None:
+    """The cache file of a netlist's derivation.
+
+    Parameters
+    ----------
+    description : dict
+        The netlist's description.
+
+    Returns
+    -------
+    Path or None
+        ``<cache folder>/derivations/<key>.json``, or None without a cache folder.
+    """
     folder = cache_dir()
     return None if folder is None else folder / "derivations" / f"{key_of(description)}.json"
 
@@ -127,7 +156,20 @@ def _from_data(data: Any, roles: tuple[str, ...]) -> Coefficients | None:
 
 def load(description: dict[str, Any], roles: tuple[str, ...]) -> tuple[Coefficients, Coefficients] | None:
     """The stored (numerator, denominator) coefficients of the netlist ``description``
-    with value roles ``roles``, or ``None`` when there is no valid entry."""
+    with value roles ``roles``, or ``None`` when there is no valid entry.
+
+    Parameters
+    ----------
+    description : dict
+        The netlist's description (:meth:`filters.netlist.Netlist.description`).
+    roles : tuple of str
+        The value roles, in order.
+
+    Returns
+    -------
+    tuple[Coefficients, Coefficients] or None
+        Numerator and denominator terms (ascending powers of s), or None.
+    """
     path = entry_path(description)
     if path is None:
         return None
@@ -156,7 +198,24 @@ def load(description: dict[str, Any], roles: tuple[str, ...]) -> tuple[Coefficie
 
 def store(description: dict[str, Any], roles: tuple[str, ...], num: Coefficients,
           den: Coefficients) -> bool:
-    """Keep a derivation; ``False`` (and nothing raised) when the folder is not writable."""
+    """Keep a derivation; ``False`` (and nothing raised) when the folder is not writable.
+
+    Parameters
+    ----------
+    description : dict
+        The netlist's description (:meth:`filters.netlist.Netlist.description`).
+    roles : tuple of str
+        The value roles, in order.
+    num : Coefficients
+        Numerator terms, ascending powers of s.
+    den : Coefficients
+        Denominator terms, ascending powers of s.
+
+    Returns
+    -------
+    bool
+        True when the entry was written.
+    """
     path = entry_path(description)
     if path is None:
         return False

@@ -112,6 +112,18 @@ def evaluate_coefficient(terms: Coefficient, values: dict[str, np.ndarray]) -> f
     Terms are summed left to right and each term's factors multiplied left to right after
     its number, as the code ``sympy.lambdify`` prints for the same expression does: the
     same floating-point operations in the same order, hence the same numbers.
+
+    Parameters
+    ----------
+    terms : Coefficient
+        The coefficient's terms ``[number, [[role, power], ...]]``.
+    values : dict of str to np.ndarray
+        Role -> (S,) values in SI units.
+
+    Returns
+    -------
+    float or np.ndarray
+        (S,) coefficient values (a float when every term is constant).
     """
     total: float | np.ndarray = 0.0
     for k, (number, factors) in enumerate(terms):
@@ -185,6 +197,24 @@ def nodal_system(net: Netlist, value: Callable[[str], Any], s: Any, two_pi: Any,
 
     Works on symbols (sympy: ``zeros=sympy.zeros``) and on numbers (numpy: complex
     arrays) alike: ``value(role)`` is a role's value, ``s`` the complex frequency.
+
+    Parameters
+    ----------
+    net : Netlist
+        The netlist.
+    value : callable
+        ``value(role)`` -> the role's value (a symbol or an array).
+    s : Any
+        The complex frequency (a symbol or complex numbers, rad/s).
+    two_pi : Any
+        2 pi as a symbol or a number.
+    zeros : callable
+        ``zeros(rows, cols)`` -> a zero matrix of the kind used.
+
+    Returns
+    -------
+    tuple[Any, Any, int]
+        The matrix A, the right-hand side b and the index of V(out) in x.
     """
     unknown = _nodes(net)
     index = {n: i for i, n in enumerate(unknown)}
@@ -234,6 +264,16 @@ def symbolic_coefficients(net: Netlist) -> tuple[tuple[Any, ...], tuple[Any, ...
     """N(s) and D(s) of ``net`` as sympy expressions in its roles, ascending powers of s.
 
     The roles are positive sympy symbols of the same names. Imports sympy.
+
+    Parameters
+    ----------
+    net : Netlist
+        The netlist.
+
+    Returns
+    -------
+    tuple[tuple[Any, ...], tuple[Any, ...]]
+        Numerator and denominator coefficients (sympy expressions), ascending powers of s.
     """
     import sympy as sp
 
@@ -303,6 +343,18 @@ def coefficient_from_code(code: str, roles: tuple[str, ...]) -> Coefficient:
 
     ``code`` is only parsed (``ast``), never run; a sum of products of roles after a
     number is accepted, anything else raises ``ValueError``.
+
+    Parameters
+    ----------
+    code : str
+        The printed expression.
+    roles : tuple of str
+        The role names the expression may use.
+
+    Returns
+    -------
+    Coefficient
+        Terms ``[number, [[role, power], ...]]``.
     """
     node = ast.parse(code.strip(), mode="eval").body
     parts: list[tuple[int, ast.expr]] = []
@@ -330,7 +382,18 @@ def _lambdify_code(expr: Any, roles: tuple[str, ...]) -> str:
 
 
 def derive_uncached(net: Netlist) -> TransferFunction:
-    """Derive H(s) = V(out)/V(in) of ``net`` with sympy, without the cache."""
+    """Derive H(s) = V(out)/V(in) of ``net`` with sympy, without the cache.
+
+    Parameters
+    ----------
+    net : Netlist
+        The netlist.
+
+    Returns
+    -------
+    TransferFunction
+        Numerator and denominator terms, ascending powers of s, and the roles.
+    """
     num_c, den_c = symbolic_coefficients(net)
     roles = net.roles
     return TransferFunction(
@@ -343,7 +406,22 @@ def derive_uncached(net: Netlist) -> TransferFunction:
 def agrees_with_nodal_solution(net: Netlist, tf: TransferFunction, rtol: float = 1e-9) -> bool:
     """Whether ``tf`` gives the H of ``net``'s nodal equations solved numerically (numpy)
     at two points (role values near 1, complex s near 1): a check of stored coefficients
-    that needs no sympy."""
+    that needs no sympy.
+
+    Parameters
+    ----------
+    net : Netlist
+        The netlist.
+    tf : TransferFunction
+        The coefficients to check.
+    rtol : float
+        Relative tolerance.
+
+    Returns
+    -------
+    bool
+        True when both points agree within ``rtol``.
+    """
     rng = np.random.default_rng(20240611)
     for _ in range(2):
         vals = {r: np.array([rng.uniform(0.5, 2.0)]) for r in net.roles}
@@ -366,7 +444,22 @@ def cached_derivation(net: Netlist, description: dict[str, Any],
                       derive_fresh: Callable[[Netlist], TransferFunction]) -> TransferFunction:
     """H(s) of ``net`` from the derivation cache entry of ``description`` when a valid one
     agrees with the numerical nodal solution, else ``derive_fresh(net)``, stored for the
-    next run."""
+    next run.
+
+    Parameters
+    ----------
+    net : Netlist
+        The netlist.
+    description : dict
+        The netlist's description (the cache key).
+    derive_fresh : callable
+        ``derive_fresh(net)`` -> TransferFunction, used when the cache has no valid entry.
+
+    Returns
+    -------
+    TransferFunction
+        H(s) of ``net``.
+    """
     stored = derivation_cache.load(description, net.roles)
     if stored is not None:
         tf = TransferFunction(net.roles, *stored)

@@ -98,6 +98,18 @@ def rc_ladder(options: dict[str, Any], highpass: bool) -> Topology:
     Low-pass: series R_k, shunt C_k. High-pass: series C_k, shunt R_k. Options:
     ``sections`` (1-4), ``source`` (a source resistance role ``RS``), ``load`` (a load
     resistance role ``RL`` across the output).
+
+    Parameters
+    ----------
+    options : dict
+        The stage's topology options (from the design file).
+    highpass : bool
+        High-pass (series C) instead of low-pass (series R).
+
+    Returns
+    -------
+    Topology
+        Name, response kind, netlist and the roles parts must fill.
     """
     _check_options(options, ("sections", "source", "load"))
     n = _opt_int(options, "sections", 1, 1, 4)
@@ -126,6 +138,16 @@ def lc_ladder(options: dict[str, Any]) -> Topology:
     ``RS`` from the source, then alternating reactive elements numbered from the source
     side, then the load ``RL`` across the output. Option ``first``: ``shunt`` (C1 across
     the line first, then series L2, shunt C3, ...) or ``series`` (L1 in series first).
+
+    Parameters
+    ----------
+    options : dict
+        The stage's topology options (from the design file).
+
+    Returns
+    -------
+    Topology
+        Name, response kind, netlist and the roles parts must fill.
     """
     _check_options(options, ("order", "first"))
     n = _opt_int(options, "order", 3, 2, 5)
@@ -162,6 +184,18 @@ def sallen_key(options: dict[str, Any], highpass: bool) -> Topology:
     Low-pass: R1 input to node A, R2 A to B, C1 A to output, C2 B to ground.
     High-pass: C1 input to A, C2 A to B, R1 A to output, R2 B to ground.
     The op-amp's non-inverting input is node B. Option ``gain``: ``unity`` or ``resistors``.
+
+    Parameters
+    ----------
+    options : dict
+        The stage's topology options (from the design file).
+    highpass : bool
+        High-pass instead of low-pass.
+
+    Returns
+    -------
+    Topology
+        Name, response kind, netlist and the roles parts must fill.
     """
     _check_options(options, ("gain",))
     if highpass:
@@ -184,6 +218,18 @@ def mfb(options: dict[str, Any], kind: ResponseKind) -> Topology:
     C2 output to N. High-pass: C1 input to A, C2 A to N, C3 A to output, R1 A to ground,
     R2 output to N. Band-pass: R1 input to A, R2 A to ground, C1 A to N, C2 A to output,
     R3 output to N. The non-inverting input is grounded.
+
+    Parameters
+    ----------
+    options : dict
+        The stage's topology options (from the design file).
+    kind : str
+        ``"lowpass"``, ``"highpass"`` or ``"bandpass"`` (``ResponseKind``).
+
+    Returns
+    -------
+    Topology
+        Name, response kind, netlist and the roles parts must fill.
     """
     _check_options(options, ())
     if kind == "lowpass":
@@ -220,6 +266,18 @@ def notch(options: dict[str, Any], kind: ResponseKind) -> Topology:
     (wz above w0: the sections of an elliptic or inverse Chebyshev low-pass),
     ``notch_highpass`` (wz below w0) and ``notch`` (a band-stop's sections, judged as a
     band-stop) are this one netlist; only the response kind the design is judged as differs.
+
+    Parameters
+    ----------
+    options : dict
+        The stage's topology options (from the design file).
+    kind : str
+        The response kind of the notch.
+
+    Returns
+    -------
+    Topology
+        Name, response kind, netlist and the roles parts must fill.
     """
     _check_options(options, ())
     els = [Element("C", "C1", "x", "out"), Element("R", "R1", "x", "out"), Element("R", "R2", "n3", "x"),
@@ -251,7 +309,20 @@ TOPOLOGIES: dict[str, Callable[[dict[str, Any]], Topology]] = {
 
 
 def build(name: str, options: dict[str, Any] | None = None) -> Topology:
-    """Build topology ``name`` with ``options``; unknown names raise :class:`InputError`."""
+    """Build topology ``name`` with ``options``; unknown names raise :class:`InputError`.
+
+    Parameters
+    ----------
+    name : str
+        Topology name (:data:`TOPOLOGIES`).
+    options : dict, optional
+        Its options.
+
+    Returns
+    -------
+    Topology
+        Name, response kind, netlist and the roles parts must fill.
+    """
     if name not in TOPOLOGIES:
         raise InputError(f"unknown topology {name!r}; known: {', '.join(TOPOLOGIES)}", "topology")
     return TOPOLOGIES[name](dict(options or {}))
