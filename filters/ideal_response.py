@@ -113,7 +113,22 @@ class IdealResponse:
 def reference_gain2(design: Design, kind: str, g2: Callable[[np.ndarray], np.ndarray]) -> float:
     """The passband reference |H|^2 of ``design`` (``g2`` its |H|^2 at Hz): the peak for a
     band-pass, the DC gain for a band-stop, else the analysis' reference gain (DC or high
-    frequency)."""
+    frequency).
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    kind : str
+        ``"lowpass"``, ``"highpass"``, ``"bandpass"`` or ``"bandstop"``.
+    g2 : callable
+        ``g2(f_hz)`` -> |H|^2 (no unit) of the design at frequencies in Hz, any shape.
+
+    Returns
+    -------
+    float
+        |H|^2 (no unit).
+    """
     if kind == "bandstop":
         return float(g2(np.array([0.0]))[0])
     if kind == "bandpass":
@@ -134,7 +149,26 @@ def error_checks(design: Design, ideal: IdealResponse, sections: Sequence[Sectio
     A band-pass's level is set by its sections' gains and is not checked. Notch sections:
     each one's notch frequency against the scipy zeros ("fz"). Elliptic and inverse
     Chebyshev: the highest gain over the guaranteed stopband against the level it
-    guarantees ("stopband"; the built design may lie below it, only a rise counts)."""
+    guarantees ("stopband"; the built design may lie below it, only a rise counts).
+
+    Parameters
+    ----------
+    design : Design
+        The snapped design.
+    ideal : IdealResponse
+        The ideal target.
+    sections : sequence of SectionReport
+        The design's sections with their ideal f0 (Hz) and Q.
+    limits : ErrorLimits
+        Limits each figure is held to (fractions, dB).
+    exact : Design, optional
+        The design before snapping, checked the same way when given.
+
+    Returns
+    -------
+    tuple[ErrorCheck, ...]
+        One check per figure: ideal and actual values, the error and its limit.
+    """
     out: list[ErrorCheck] = []
     c_ideal, b_ideal = ideal.cutoff()
     c_act, b_act = measure_cutoff(design)
@@ -174,7 +208,18 @@ def error_checks(design: Design, ideal: IdealResponse, sections: Sequence[Sectio
 
 def stop_grid(stop: tuple[float, float]) -> np.ndarray:
     """Frequencies (Hz) the stopband checks look at: 2001 log-spaced points over ``stop``
-    (the gain's highest points lie between the zeros, where it changes slowly)."""
+    (the gain's highest points lie between the zeros, where it changes slowly).
+
+    Parameters
+    ----------
+    stop : tuple of float
+        (first, last) stopband frequency in Hz.
+
+    Returns
+    -------
+    np.ndarray
+        (2001,) float frequencies in Hz.
+    """
     return np.geomspace(stop[0], stop[1], 2001)
 
 
@@ -195,6 +240,25 @@ def starting_mask(ideal: IdealResponse, kind: str, ripple_db: float | None,
     - band-stop: a passband floor and a passband ceiling on each side (``low``, ``high``)
       and the stopband ceiling between the frequencies where the prototype is at
       Omega = 4 (or the guaranteed stopband).
+
+    Parameters
+    ----------
+    ideal : IdealResponse
+        The ideal target.
+    kind : str
+        ``"lowpass"``, ``"highpass"``, ``"bandpass"`` or ``"bandstop"``.
+    ripple_db : float or None
+        Passband ripple in dB (Chebyshev, elliptic).
+    fc : float
+        Cutoff or centre in Hz.
+    bw : float or None
+        Bandwidth in Hz (band-pass, band-stop).
+
+    Returns
+    -------
+    tuple
+        The spans (:class:`~tolspread.mask.Span`), limits in dB relative to the passband
+        reference.
     """
     f_start, f_stop = float(ideal.f[0]), float(ideal.f[-1])
     base = -(ripple_db + 0.5) if ripple_db is not None else -1.0

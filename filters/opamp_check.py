@@ -91,6 +91,18 @@ def opamp_shift_table(design: Design, gbw_hz: float | None = None) -> list[GbwWa
     f0 at least 40 dB above the stage's peak gain, i.e. GBW >= 100 G Q f0 with G the
     stage's passband gain (see :class:`GbwWarning`). Passive stages and circuit stages are
     left out.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    gbw_hz : float, optional
+        Op-amp gain-bandwidth in Hz for stages without an op-amp part.
+
+    Returns
+    -------
+    list[GbwWarning]
+        One row per active second-order stage (f0 in Hz, Q, shifts as fractions, GBW in Hz).
     """
     values = {p.ref: p.value for p in design.parts}
     rows: list[GbwWarning] = []
@@ -132,5 +144,15 @@ def gbw_warnings(design: Design) -> list[GbwWarning]:
 
     Every row carries ``too_low``; ``[w for w in gbw_warnings(d) if w.too_low]`` are the
     stages whose op-amp is too slow by the rule GBW >= 100 G Q f0.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    list[GbwWarning]
+        One row per stage with an op-amp part.
     """
     return [r for r in opamp_shift_table(design) if r.gbw_hz is not None]

@@ -233,6 +233,49 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     (:func:`_refine_jointly`). ``limits`` (default :class:`ErrorLimits`) are what the
     result's :attr:`SynthesisResult.checks` are held against: errors of the snapped design
     (ideal op-amps, the engine) against the ideal ``scipy.signal`` response.
+
+    Parameters
+    ----------
+    response : str
+        Response family (:data:`~tolspread.prototypes.RESPONSES`: ``"butterworth"``,
+        ``"chebyshev"``, ``"bessel"``, ``"linkwitz_riley"``, ``"elliptic"``,
+        ``"inverse_chebyshev"``).
+    order : int
+        Filter order.
+    cutoff_hz : float
+        Cutoff (low-pass, high-pass) or centre (band-pass) in Hz.
+    kind : str
+        ``"lowpass"``, ``"highpass"``, ``"bandpass"`` or ``"bandstop"``.
+    bandwidth_hz : float, optional
+        Bandwidth between the band edges (band-pass, band-stop), Hz.
+    topology : str, optional
+        Second-order section type (default: Sallen-Key; band-pass: multiple feedback).
+    series : str
+        E-series the resistors are snapped to.
+    cap_series : str
+        E-series the capacitors come from.
+    gbw_hz : float, optional
+        Op-amp gain-bandwidth in Hz (adds an op-amp part per active stage).
+    ripple_db : float, optional
+        Passband ripple in dB (Chebyshev, elliptic).
+    snap : bool
+        Snap the resistors to ``series``.
+    resistor_grade : str
+        Grade of every resistor.
+    capacitor_grade : str
+        Grade of every capacitor.
+    opamp_grade : str
+        Grade of every op-amp part.
+    limits : ErrorLimits, optional
+        Limits the checks against the ideal response are held to.
+    stopband_db : float, optional
+        Stopband attenuation in dB (elliptic, inverse Chebyshev).
+
+    Returns
+    -------
+    SynthesisResult
+        The design, its sections with ideal and built f0 and Q, and the checks against the
+        ideal ``scipy.signal`` response.
     """
     check_family(response, order, ripple_db, stopband_db)
     limits = (limits or ErrorLimits()).checked()

@@ -215,24 +215,68 @@ def _lim(c: ErrorCheck) -> str:
 
 
 def hz_text(x: float | None) -> str:
-    """A frequency (Hz) for people, 5 digits; "n/a" for None or not finite."""
+    """A frequency (Hz) for people, 5 digits; "n/a" for None or not finite.
+
+    Parameters
+    ----------
+    x : float or None
+        A frequency in Hz.
+
+    Returns
+    -------
+    str
+        The text.
+    """
     return "n/a" if x is None or not math.isfinite(x) else format_value(x, "Hz", digits=5)
 
 
 def q_text(x: float | None) -> str:
-    """A Q to 4 decimals; "-" for None (a first-order section)."""
+    """A Q to 4 decimals; "-" for None (a first-order section).
+
+    Parameters
+    ----------
+    x : float or None
+        A Q (no unit).
+
+    Returns
+    -------
+    str
+        The text.
+    """
     return "-" if x is None else f"{x:.4f}"
 
 
 def pct_text(x: float | None) -> str:
-    """A relative change (0.01) as a signed percentage (+1.000%); "-" for None or not finite."""
+    """A relative change (0.01) as a signed percentage (+1.000%); "-" for None or not finite.
+
+    Parameters
+    ----------
+    x : float or None
+        A relative change (a fraction).
+
+    Returns
+    -------
+    str
+        The text.
+    """
     return "-" if x is None or not math.isfinite(x) else f"{100 * x:+.3f}%"
 
 
 
 
 def opamp_table_text(rows: Sequence[GbwWarning]) -> str:
-    """The op-amp shift table as text."""
+    """The op-amp shift table as text.
+
+    Parameters
+    ----------
+    rows : sequence of GbwWarning
+        From :func:`filters.opamp_check.opamp_shift_table`.
+
+    Returns
+    -------
+    str
+        Text lines, one per stage, with a header.
+    """
     out = [f"  {'stage':<34} {'GBW':>10} {'needed':>10} {'ideal f0':>11} {'Q':>7} "
            f"{'with GBW f0':>11} {'Q':>7} {'f0 shift':>9} {'Q shift':>9}"]
     for r in rows:
