@@ -191,6 +191,28 @@ def section_values(topology: str, f0_hz: float, q: float | None, cap_series: str
       level x min(1, (f0/fz)^2), R2 = R3 = R = 1/(w0 C1), R1 = Q R, R5 = R6 =
       :data:`R_INVERTER`, R4 = 1/(wz^2 R C2 C3). DC gain R3/R4 and high-frequency gain
       C3/C1, the larger of them 1 within the capacitor series' rounding.
+
+    Parameters
+    ----------
+    topology : str
+        The section's topology name.
+    f0_hz : float
+        Natural frequency in Hz.
+    q : float or None
+        Q, None for a first-order section.
+    cap_series : str
+        E-series the capacitors come from.
+    gain : float
+        Passband gain magnitude (no unit).
+    level : float, optional
+        The level capacitor in F.
+    fz_hz : float, optional
+        Notch (zero) frequency in Hz, for a notch section.
+
+    Returns
+    -------
+    dict[str, float]
+        Role -> value in SI units (ohm, F).
     """
     if topology not in ROLES:
         raise InputError(f"no synthesis rule for topology {topology!r}", "topology")
@@ -276,13 +298,40 @@ def _f0_window(topology: str, q: float | None, cap_series: str, gain: float,
 
 
 def stage_options(topology: str) -> dict[str, Any]:
+    """The stage options a synthesized section of ``topology`` is built with.
+
+    Parameters
+    ----------
+    topology : str
+        The section's topology name.
+
+    Returns
+    -------
+    dict[str, Any]
+        One RC section for ``rc_*``, unity gain for Sallen-Key, none otherwise.
+    """
     return ({"sections": 1} if topology.startswith("rc_")
             else {"gain": "unity"} if topology.startswith("sallen_key") else {})
 
 
 def section_coeffs(topology: str, roles: Sequence[str], vals: np.ndarray):
     """The engine's (circuit, coefficients) of one section for every row of ``vals``
-    (rows, roles): one batch, no loop over rows."""
+    (rows, roles): one batch, no loop over rows.
+
+    Parameters
+    ----------
+    topology : str
+        The section's topology name.
+    roles : sequence of str
+        Its roles, the columns of ``vals``.
+    vals : np.ndarray
+        (rows, roles) part values in SI units.
+
+    Returns
+    -------
+    tuple[Circuit, list[StageCoefficients]]
+        The compiled section and its coefficients for every row.
+    """
     d = Design(tuple(Part(r, r[0], float(vals[0, j]), "EXACT") for j, r in enumerate(roles)),
                (Stage(topology, {r: r for r in roles}, stage_options(topology), "section"),))
     circuit = compile_design(d)
@@ -327,6 +376,35 @@ def section_choices(index: int, topology: str, f0_hz: float, q: float | None, ki
     ``synthesis._refine_jointly``. A notch section (``fz_hz``) adds (w ln(fz/fzt))^2 and
     leaves its gain to the cascade; its inverter resistors R5 = R6 are not snapped.
     Without ``snap``: one choice, the exact values at the nearest level.
+
+    Parameters
+    ----------
+    index : int
+        Section number, from 1 (names its parts in messages).
+    topology : str
+        The section's topology name.
+    f0_hz : float
+        Natural frequency in Hz.
+    q : float or None
+        Q, None for a first-order section.
+    kind : str
+        ``"lowpass"``, ``"highpass"``, ``"bandpass"`` or ``"bandstop"``.
+    series : str
+        E-series the resistors are snapped to.
+    cap_series : str
+        E-series the capacitors come from.
+    gain : float
+        Passband gain magnitude (no unit).
+    snap : bool
+        Snap the resistors to ``series``.
+    fz_hz : float, optional
+        Notch (zero) frequency in Hz, for a notch section.
+
+    Returns
+    -------
+    list[SectionChoice]
+        Candidates (exact and snapped values by role, their f0 in Hz, Q and notch
+        frequency in Hz), best first.
     """
     zr = _zero_ratio(topology, f0_hz, fz_hz)
     pref = _preferred_level(topology, f0_hz, q)
@@ -381,7 +459,36 @@ def choose_values(index: int, topology: str, f0_hz: float, q: float | None, kind
                   series: str = "E24", cap_series: str = "E12", gain: float = 1.0,
                   snap: bool = True, fz_hz: float | None = None) -> tuple[dict[str, float], dict[str, float]]:
     """(exact, chosen) part values (ohm, F) by role for section ``index`` (from 1): the
-    best of :func:`section_choices` (see there)."""
+    best of :func:`section_choices` (see there).
+
+    Parameters
+    ----------
+    index : int
+        Section number, from 1 (names its parts in messages).
+    topology : str
+        The section's topology name.
+    f0_hz : float
+        Natural frequency in Hz.
+    q : float or None
+        Q, None for a first-order section.
+    kind : str
+        ``"lowpass"``, ``"highpass"``, ``"bandpass"`` or ``"bandstop"``.
+    series : str
+        E-series the resistors are snapped to.
+    cap_series : str
+        E-series the capacitors come from.
+    gain : float
+        Passband gain magnitude (no unit).
+    snap : bool
+        Snap the resistors to ``series``.
+    fz_hz : float, optional
+        Notch (zero) frequency in Hz, for a notch section.
+
+    Returns
+    -------
+    tuple[dict[str, float], dict[str, float]]
+        Exact and chosen values, role -> value in SI units (ohm, F).
+    """
     best = section_choices(index, topology, f0_hz, q, kind, series, cap_series, gain, snap, fz_hz)[0]
     return best.exact, best.values
 

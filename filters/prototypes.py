@@ -87,7 +87,24 @@ def check_family(response: str, order: Any, ripple_db: float | None, stopband_db
     Linkwitz-Riley), a ripple or a stopband attenuation that does not fit the response
     (:class:`InputError`). Chebyshev and elliptic need ``ripple_db`` (one of
     :data:`RIPPLES_DB`); elliptic and inverse Chebyshev need ``stopband_db`` (dB, within
-    :data:`STOPBAND_DB`; elliptic: at least the ripple + 10 dB)."""
+    :data:`STOPBAND_DB`; elliptic: at least the ripple + 10 dB).
+
+    Parameters
+    ----------
+    response : str
+        Response family (:data:`RESPONSES`).
+    order : Any
+        Filter order as given.
+    ripple_db : float, optional
+        Passband ripple in dB (Chebyshev, elliptic).
+    stopband_db : float, optional
+        Stopband attenuation in dB (elliptic, inverse Chebyshev).
+
+    Raises
+    ------
+    InputError
+        Naming the field that does not fit.
+    """
     if response not in RESPONSES:
         raise InputError(f"unknown response {response!r}; known: {', '.join(RESPONSES)}", "response")
     if isinstance(order, bool) or not isinstance(order, (int, np.integer)) or not 1 <= order <= MAX_ORDER:
@@ -143,6 +160,22 @@ def prototype_zpk(response: str, order: int, ripple_db: float | None = None, sto
       |H|^2 is half the DC value at Omega = 1 (found by ``scipy.optimize.brentq`` between
       the ripple edge, or 0, and the lowest zero); :func:`stopband_edge` gives where the
       stopband then starts. An even order's DC gain is the bottom of the elliptic ripple.
+
+    Parameters
+    ----------
+    response : str
+        Response family (:data:`RESPONSES`).
+    order : int
+        Filter order.
+    ripple_db : float, optional
+        Passband ripple in dB (Chebyshev, elliptic).
+    stopband_db : float, optional
+        Stopband attenuation in dB (elliptic, inverse Chebyshev).
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray, float]
+        Zeros (Z,) and poles (N,) complex, normalized rad/s, and the gain.
     """
     check_family(response, order, ripple_db, stopband_db)
     if response == "butterworth":
@@ -192,7 +225,24 @@ def _half_power_omega(z: np.ndarray, p: np.ndarray, k: float) -> float:
 def passband_edge(response: str, order: int, ripple_db: float | None = None,
                   stopband_db: float | None = None) -> float:
     """Omega (normalized: the -3 dB point at 1) up to which the passband checks look: the
-    ripple edge of a Chebyshev or elliptic prototype, 1/2 for the others."""
+    ripple edge of a Chebyshev or elliptic prototype, 1/2 for the others.
+
+    Parameters
+    ----------
+    response : str
+        Response family (:data:`RESPONSES`).
+    order : int
+        Filter order.
+    ripple_db : float, optional
+        Passband ripple in dB (Chebyshev, elliptic).
+    stopband_db : float, optional
+        Stopband attenuation in dB (elliptic, inverse Chebyshev).
+
+    Returns
+    -------
+    float
+        Omega (normalized, no unit).
+    """
     if response == "chebyshev":
         assert ripple_db is not None
         return 1 / cheby_omega_c(order, ripple_db)
@@ -205,7 +255,24 @@ def passband_edge(response: str, order: int, ripple_db: float | None = None,
 def stopband_edge(response: str, order: int, ripple_db: float | None, stopband_db: float) -> float:
     """Omega (normalized: the -3 dB point at 1) where an elliptic or inverse Chebyshev
     low-pass prototype first falls ``stopband_db`` below its passband peak (0 dB); above it
-    the response never rises past that level (the stopband the response guarantees)."""
+    the response never rises past that level (the stopband the response guarantees).
+
+    Parameters
+    ----------
+    response : str
+        Response family (:data:`RESPONSES`).
+    order : int
+        Filter order.
+    ripple_db : float or None
+        Passband ripple in dB (elliptic).
+    stopband_db : float
+        Stopband attenuation in dB.
+
+    Returns
+    -------
+    float
+        Omega (normalized, no unit).
+    """
     z, p, k = prototype_zpk(response, order, ripple_db, stopband_db)
     peak2 = 1.0 if response == "inverse_chebyshev" or order % 2 else _gain2(z, p, k, 0.0) * 10 ** (ripple_db / 10)
     return _falling_to(z, p, k, peak2 * 10 ** (-stopband_db / 10), 1.0)
@@ -221,6 +288,16 @@ def pair_poles(poles: np.ndarray) -> list[tuple[float, float | None]]:
 
     Order (common practice): the first-order section first, then the second-order
     sections by ascending Q (ties by ascending w0), so the highest-Q stage comes last.
+
+    Parameters
+    ----------
+    poles : np.ndarray
+        (N,) complex poles in rad/s, left half-plane.
+
+    Returns
+    -------
+    list[tuple[float, float or None]]
+        (w0 in rad/s, Q), Q None for a first-order section.
     """
     p = np.asarray(poles, dtype=complex)
     if np.any(p.real >= 0):
@@ -250,6 +327,18 @@ def pair_sections(zeros: np.ndarray, poles: np.ndarray) -> list[tuple[float, flo
     it keeps each section's gain peaks low); distance |p - j wz| in the s-plane. Zeros at
     the origin (a high-pass's) belong to no pair and are left out; a first-order section
     has wz None.
+
+    Parameters
+    ----------
+    zeros : np.ndarray
+        (Z,) complex zeros in rad/s on the imaginary axis.
+    poles : np.ndarray
+        (N,) complex poles in rad/s, left half-plane.
+
+    Returns
+    -------
+    list[tuple[float, float or None, float or None]]
+        (w0 in rad/s, Q, wz in rad/s) per section.
     """
     z = np.asarray(zeros, dtype=complex)
     z = z[np.abs(z) > 1e-9 * max(1.0, float(np.max(np.abs(poles))))]
@@ -289,13 +378,42 @@ def prototype_sections(response: str, order: int, ripple_db: float | None = None
 
     An odd order has one first-order section (``q`` None, ``f0_norm`` = its real pole),
     placed first; second-order sections follow by ascending Q (see :func:`pair_poles`).
+
+    Parameters
+    ----------
+    response : str
+        Response family (:data:`RESPONSES`).
+    order : int
+        Filter order.
+    ripple_db : float, optional
+        Passband ripple in dB (Chebyshev, elliptic).
+    stopband_db : float, optional
+        Stopband attenuation in dB (elliptic, inverse Chebyshev).
+
+    Returns
+    -------
+    list[Section]
+        Sections with normalized f0 (Omega) and Q.
     """
     _, p, _ = prototype_zpk(response, order, ripple_db, stopband_db)
     return [Section(w, q) for w, q in pair_poles(p)]
 
 
 def cheby_omega_c(order: int, ripple_db: float) -> float:
-    """Omega of the -3 dB point of a Chebyshev prototype whose ripple edge is at 1 rad/s."""
+    """Omega of the -3 dB point of a Chebyshev prototype whose ripple edge is at 1 rad/s.
+
+    Parameters
+    ----------
+    order : int
+        Filter order.
+    ripple_db : float
+        Passband ripple in dB.
+
+    Returns
+    -------
+    float
+        Omega (normalized, no unit).
+    """
     eps = math.sqrt(10 ** (ripple_db / 10) - 1)
     t0 = 1.0 if order % 2 == 0 else 0.0
     return math.cosh(math.acosh(math.sqrt(1 + 2 * eps ** 2 * t0) / eps) / order)
@@ -307,7 +425,30 @@ def target_zpk(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     """The target filter's zeros, poles (rad/s) and gain: the prototype of
     :func:`prototype_zpk` moved to ``cutoff_hz`` with ``scipy.signal.lp2lp_zpk``,
     ``lp2hp_zpk``, or (centre ``cutoff_hz``, ``bandwidth_hz`` between the -3 dB edges)
-    ``lp2bp_zpk`` (band-pass) or ``lp2bs_zpk`` (band-stop)."""
+    ``lp2bp_zpk`` (band-pass) or ``lp2bs_zpk`` (band-stop).
+
+    Parameters
+    ----------
+    response : str
+        Response family (:data:`RESPONSES`).
+    order : int
+        Filter order.
+    cutoff_hz : float
+        Cutoff or centre in Hz.
+    kind : str
+        ``"lowpass"``, ``"highpass"``, ``"bandpass"`` or ``"bandstop"``.
+    bandwidth_hz : float, optional
+        Bandwidth between the -3 dB edges in Hz (band-pass, band-stop).
+    ripple_db : float, optional
+        Passband ripple in dB (Chebyshev, elliptic).
+    stopband_db : float, optional
+        Stopband attenuation in dB (elliptic, inverse Chebyshev).
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray, float]
+        Zeros and poles (complex, rad/s) and the gain.
+    """
     z, p, k = prototype_zpk(response, order, ripple_db, stopband_db)
     wo = TWO_PI * cutoff_hz
     if kind == "lowpass":
@@ -322,7 +463,22 @@ def target_zpk(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
 
 def omega_edges(fc: float, bw: float, omega: float) -> tuple[float, float]:
     """The band-pass frequencies (Hz) where the low-pass prototype is at +-``omega`` (a
-    band-stop's: at +-1/``omega``)."""
+    band-stop's: at +-1/``omega``).
+
+    Parameters
+    ----------
+    fc : float
+        Centre frequency in Hz.
+    bw : float
+        Bandwidth in Hz.
+    omega : float
+        Prototype frequency Omega (normalized, positive).
+
+    Returns
+    -------
+    tuple[float, float]
+        (low, high) frequencies in Hz.
+    """
     hi = 0.5 * omega * bw + math.sqrt((0.5 * omega * bw) ** 2 + fc * fc)
     return fc * fc / hi, hi
 
