@@ -105,7 +105,18 @@ def purchase_from_dict(data: Any, problems: list[InputError], path: str = "purch
 
 
 def purchase_to_dict(p: Purchase) -> dict | None:
-    """The design file's form of ``p``; None when nothing is stated."""
+    """The design file's form of ``p``; None when nothing is stated.
+
+    Parameters
+    ----------
+    p : Purchase
+        The purchase settings.
+
+    Returns
+    -------
+    dict or None
+        JSON-ready data, or None.
+    """
     if p == Purchase():
         return None
     out: dict[str, Any] = {"boards": p.boards}
@@ -119,13 +130,37 @@ def purchase_to_dict(p: Purchase) -> dict | None:
 def is_class_ii(grade: Grade) -> bool:
     """Whether ``grade`` is a class II ceramic capacitor (a temperature curve, or a class II
     code or the words "class II" in its name or technology; EIA-198 codes, REFERENCES.md
-    section 3)."""
+    section 3).
+
+    Parameters
+    ----------
+    grade : Grade
+        A grade.
+
+    Returns
+    -------
+    bool
+        True for a class II ceramic capacitor.
+    """
     return grade.kind == "C" and (bool(grade.temp_curve_pct) or
                                   bool(_CLASS_II.search(f"{grade.name} {grade.technology}")))
 
 
 def matches(grade: Grade, word: str) -> bool:
-    """Whether ``word`` names ``grade``'s technology (see the module's text)."""
+    """Whether ``word`` names ``grade``'s technology (see the module's text).
+
+    Parameters
+    ----------
+    grade : Grade
+        A grade.
+    word : str
+        A technology word ("C0G", "thick film", "class II" ...).
+
+    Returns
+    -------
+    bool
+        True when the word names the grade's technology.
+    """
     w = word.strip().lower()
     if w in ("class ii", "class 2"):
         return is_class_ii(grade)
@@ -196,7 +231,24 @@ def signal_path_capacitors(design) -> set[str]:
 def allowed(design, part_index: int, grade: Grade, signal_parts: set[str]) -> bool:
     """Whether the grade search may give ``grade`` to part ``part_index``: not forbidden by
     the part's own list, nor by the purchase's signal-path list for a capacitor in
-    ``signal_parts``."""
+    ``signal_parts``.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    part_index : int
+        Index of the part in ``design.parts``.
+    grade : Grade
+        The candidate grade.
+    signal_parts : set of str
+        Refs of the capacitors the response depends on.
+
+    Returns
+    -------
+    bool
+        True when the grade may be chosen.
+    """
     p = design.parts[part_index]
     words: Sequence[str] = p.forbid
     if p.ref in signal_parts:
@@ -207,7 +259,20 @@ def allowed(design, part_index: int, grade: Grade, signal_parts: set[str]) -> bo
 def priced(grades: list[list[Grade]], boards: int) -> list[list[Grade]] | None:
     """Each part's priced candidates with their cost replaced by the unit price at ``boards``
     parts (grades without prices are left out where a part has priced ones), or None when
-    no quantity is stated or some part has no priced candidate (relative costs are used then)."""
+    no quantity is stated or some part has no priced candidate (relative costs are used then).
+
+    Parameters
+    ----------
+    grades : list of list of Grade
+        Per part, its candidate grades.
+    boards : int
+        Boards bought (the purchase quantity).
+
+    Returns
+    -------
+    list[list[Grade]] or None
+        Per part, priced candidates (cost: money per part), or None.
+    """
     if boards <= 0:
         return None
     out = []
@@ -220,7 +285,20 @@ def priced(grades: list[list[Grade]], boards: int) -> list[list[Grade]] | None:
 
 
 def money_text(value: float, currency: str) -> str:
-    """``0.0412 EUR`` (four significant figures) for a cost per board."""
+    """``0.0412 EUR`` (four significant figures) for a cost per board.
+
+    Parameters
+    ----------
+    value : float
+        Cost per board, in ``currency``.
+    currency : str
+        Currency code.
+
+    Returns
+    -------
+    str
+        The text.
+    """
     if not math.isfinite(value):
         return "n/a"
     return f"{value:.4g} {currency}".strip()

@@ -123,7 +123,20 @@ def compare_sets(design: Design, sets: Sequence[tuple[str, Sequence[str]]], *, s
 
 def class_ii_in_signal_path(design: Design, names: Sequence[str]) -> list[str]:
     """References of capacitors given a class II grade in ``names`` although the response
-    depends on them (:func:`filters.constraints.signal_path_capacitors`)."""
+    depends on them (:func:`filters.constraints.signal_path_capacitors`).
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    names : sequence of str
+        Grade names, one per part in design order.
+
+    Returns
+    -------
+    list[str]
+        Part refs.
+    """
     cat = design.catalog
     suspects = [p.ref for p, n in zip(design.parts, names) if n in cat and is_class_ii(cat[n])]
     if not suspects:

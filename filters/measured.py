@@ -231,7 +231,18 @@ def measured_from_dict(data: Any, path: str) -> Measured:
 
 
 def measured_to_dict(m: Measured) -> dict:
-    """The design file's form of ``m`` (see :func:`measured_from_dict`)."""
+    """The design file's form of ``m`` (see :func:`measured_from_dict`).
+
+    Parameters
+    ----------
+    m : Measured
+        A part's measured values.
+
+    Returns
+    -------
+    dict
+        JSON-ready data.
+    """
     out: dict[str, Any] = {"values": list(m.values)}
     if m.temperatures_c:
         out["temperatures_c"] = list(m.temperatures_c)
@@ -363,7 +374,18 @@ def measured_yield(design, *, samples: int | None = None, seed: int | None = Non
 
 def summary_rows(design) -> list[dict]:
     """One row per measured part: n, mean and spread of the deviation (percent of the
-    marked value), the extremes, the lots and the measured coefficient, for tables."""
+    marked value), the extremes, the lots and the measured coefficient, for tables.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    list[dict]
+        One row per measured part (deviations in percent).
+    """
     rows = []
     for p, g in zip(design.parts, design.part_grades()):
         m = getattr(p, "measured", None)

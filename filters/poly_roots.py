@@ -22,7 +22,18 @@ _SETTLED = 1e-9  # a step below this fraction of its root leaves an error of its
 
 def companion_eigvals(den: np.ndarray) -> np.ndarray:
     """Roots of ``den`` (S, n + 1), ascending powers, as eigenvalues of the companion
-    matrices: (S, n) complex."""
+    matrices: (S, n) complex.
+
+    Parameters
+    ----------
+    den : np.ndarray
+        (S, n + 1) polynomial coefficients, ascending powers.
+
+    Returns
+    -------
+    np.ndarray
+        (S, n) complex roots.
+    """
     s_count, k = den.shape
     n = k - 1
     comp = np.zeros((s_count, n, n))
@@ -33,7 +44,18 @@ def companion_eigvals(den: np.ndarray) -> np.ndarray:
 
 def batch_roots(den: np.ndarray) -> np.ndarray:
     """Roots of the polynomials ``den`` (S, n + 1), ascending powers, n >= 1: (S, n)
-    complex, in the same order for every board (that of the middle board's roots)."""
+    complex, in the same order for every board (that of the middle board's roots).
+
+    Parameters
+    ----------
+    den : np.ndarray
+        (S, n + 1) polynomial coefficients, ascending powers, n >= 1.
+
+    Returns
+    -------
+    np.ndarray
+        (S, n) complex roots.
+    """
     s_count, k = den.shape
     n = k - 1
     with np.errstate(all="ignore"):
