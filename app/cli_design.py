@@ -7,7 +7,7 @@
     tolspread design --response bessel --order 2 --kind bandpass --cutoff 1k --bandwidth 200 -o bp.json
     tolspread design --response elliptic --ripple 0.5 --stopband 50 --order 5 --cutoff 1k -o cauer.json
     tolspread design --response inverse_chebyshev --stopband 40 --order 4 --cutoff 1k -o ic.json
-    tolspread design --response butterworth --order 2 --kind bandstop --cutoff 50 --bandwidth 10 -o hum.json
+    tolspread design --response butterworth --order 2 --kind bandstop --cutoff 50 --bandwidth 20 -o hum.json
 
 Frequencies (``--cutoff``, ``--bandwidth``, ``--gbw``, in Hz) may be written with SI
 prefixes ("2k", "1.5MHz"). The command prints every stage's f0 and Q before and after

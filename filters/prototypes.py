@@ -120,6 +120,9 @@ def check_family(response: str, order: Any, ripple_db: float | None, stopband_db
                              "ripple_db")
     elif ripple_db is not None:
         raise InputError(f"a ripple applies to a Chebyshev or elliptic response only, not {response}", "ripple_db")
+    if response in STOPBAND_RESPONSES and order < 2:
+        raise InputError(f"an {_WORDS[response]} response has order 2 or more (its zeros need a pole pair), "
+                         f"not {order}", "order")
     if response in STOPBAND_RESPONSES:
         lo, hi = STOPBAND_DB
         if stopband_db is None:

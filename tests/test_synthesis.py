@@ -195,6 +195,8 @@ def test_linkwitz_riley_4_is_butterworth_2_squared():
     (dict(response="inverse_chebyshev", order=4, stopband_db=200.0), "stopband_db"),
     (dict(response="inverse_chebyshev", order=4, ripple_db=0.5, stopband_db=40.0), "ripple_db"),
     (dict(response="butterworth", order=4, stopband_db=40.0), "stopband_db"),
+    (dict(response="elliptic", order=1, ripple_db=0.5, stopband_db=40.0), "order"),
+    (dict(response="inverse_chebyshev", order=1, stopband_db=40.0), "order"),
     (dict(response="butterworth", order=0), "order"),
     (dict(response="butterworth", order=11), "order"),
     (dict(response="linkwitz_riley", order=3), "order"),
