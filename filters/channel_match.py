@@ -40,21 +40,70 @@ def sample_values(design, nominal: np.ndarray, grades: Sequence[Grade], scores: 
                   conditions: Conditions, seed: int, method: str, start: int) -> np.ndarray:
     """Part values of every channel, (N, S, P) SI units (N = 1 without channels: exactly
     :func:`filters.networks.board_values`, itself :func:`filters.sampling.part_values`
-    without networks)."""
+    without networks).
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    nominal : np.ndarray
+        (P,) marked values in SI units.
+    grades : sequence of Grade
+        (P,) one grade per part, design order.
+    scores : np.ndarray
+        (S, 4P + 1) part scores of channel 0.
+    conditions : Conditions
+        Temperature range (deg C), lot share, service hours and temperature.
+    seed : int
+        The design's seed.
+    method : str
+        ``"random"`` or ``"sobol"``.
+    start : int
+        First board index.
+
+    Returns
+    -------
+    np.ndarray
+        (N, S, P) float part values in SI units.
+    """
     if design.channels.count > 1:
         return channel_values(design, nominal, grades, scores, conditions, seed, method, start)
     return board_values(design, nominal, grades, scores, conditions, seed, method, start)[None]
 
 
 def match_plans(plans: Sequence[SpanPlan]) -> list[int]:
-    """Indexes of the match spans among ``plans``."""
+    """Indexes of the match spans among ``plans``.
+
+    Parameters
+    ----------
+    plans : sequence of SpanPlan
+        The mask's plans (:func:`filters.judge.plan`).
+
+    Returns
+    -------
+    list[int]
+        Indexes into ``plans``.
+    """
     return [j for j, p in enumerate(plans) if p.span.kind == "match"]
 
 
 def match_margin(plan: SpanPlan, curves: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """(margin, signed mismatch) of one match span, (S,) each, from ``curves`` (N, S, F) of
     the span's quantity: margin = min over the band of (limit - (max_c - min_c));
-    mismatch = mean over the band of channel 2 minus channel 1."""
+    mismatch = mean over the band of channel 2 minus channel 1.
+
+    Parameters
+    ----------
+    plan : SpanPlan
+        The match span's plan.
+    curves : np.ndarray
+        (N, S, F) the span's quantity (dB, deg or s) for every channel.
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray]
+        Margin (S,) and mismatch (S,), in the span's unit.
+    """
     band = curves[:, :, plan.columns]
     spread = band.max(axis=0) - band.min(axis=0)
     margin = (plan.limit[None, :] - spread).min(axis=1)
@@ -70,6 +119,26 @@ def evaluate_channels(prep, every: np.ndarray, *, phase: bool = False, delay: bo
     metrics, plus ``mismatch.<label>`` (S,) for each match span; margins (S, spans): each
     ordinary span's smallest over the channels, each match span's from the differences.
     Without channels (N = 1) exactly ``evaluate_values(prep, every[0], ...)``.
+
+    Parameters
+    ----------
+    prep : Prepared
+        The prepared design.
+    every : np.ndarray
+        (N, S, P) part values of every channel in SI units.
+    phase : bool
+        Compute the phase (deg).
+    delay : bool
+        Compute the group delay (s).
+    out : tuple, optional
+        ``(gain_db, phase, delay)`` arrays (S, F) for channel 1's curves.
+    metrics : bool
+        Compute the metrics.
+
+    Returns
+    -------
+    Evaluated
+        Channel 1's response and metrics, the mismatches (S,) and margins (S, spans).
     """
     from .engine import Response
     from .evaluate import Evaluated, evaluate_values
@@ -106,6 +175,31 @@ def mismatch_deviations(design, nominal: np.ndarray, grades: Sequence[Grade], sc
                         conditions: Conditions, seed: int, method: str, start: int) -> np.ndarray:
     """ln(value in channel 2 / value in channel 1) of every part, (S, P): what a
     mismatch's spread budget regresses on (shared parts and parts of one reel at lot share 1
-    give zero columns and no share)."""
+    give zero columns and no share).
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    nominal : np.ndarray
+        (P,) marked values in SI units.
+    grades : sequence of Grade
+        (P,) one grade per part, design order.
+    scores : np.ndarray
+        (S, 4P + 1) part scores of channel 0.
+    conditions : Conditions
+        Temperature range (deg C), lot share, service hours and temperature.
+    seed : int
+        The design's seed.
+    method : str
+        ``"random"`` or ``"sobol"``.
+    start : int
+        First board index.
+
+    Returns
+    -------
+    np.ndarray
+        (S, P) float (no unit).
+    """
     every = channel_values(design, nominal, grades, scores, conditions, seed, method, start)
     return np.log(every[1] / every[0])

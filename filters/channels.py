@@ -67,7 +67,24 @@ class Channels:
 
 def channels_from_dict(raw: Any, parts: Sequence["Part"], problems: list[InputError],
                        path: str = "channels") -> Channels:
-    """The design file's ``channels`` object, checked; problems are appended with their path."""
+    """The design file's ``channels`` object, checked; problems are appended with their path.
+
+    Parameters
+    ----------
+    raw : dict or None
+        The file's ``channels`` object.
+    parts : sequence of Part
+        The design's parts.
+    problems : list of InputError
+        Each problem found is appended here.
+    path : str
+        Field path of ``raw``.
+
+    Returns
+    -------
+    Channels
+        The channel settings.
+    """
     if raw is None:
         return Channels()
     if not isinstance(raw, dict):
@@ -94,7 +111,19 @@ def channels_from_dict(raw: Any, parts: Sequence["Part"], problems: list[InputEr
 
 def check_match_spans(mask: Sequence["Span"], paths: Sequence[str], channels: Channels,
                       problems: list[InputError]) -> None:
-    """A match span needs two channels or more."""
+    """A match span needs two channels or more.
+
+    Parameters
+    ----------
+    mask : sequence of Span
+        The spec mask.
+    paths : sequence of str
+        Field path of each span.
+    channels : Channels
+        The channel settings.
+    problems : list of InputError
+        Each problem found is appended here.
+    """
     for span, where in zip(mask, paths):
         if span.kind == "match" and channels.count < 2:
             problems.append(InputError(
@@ -110,6 +139,28 @@ def channel_scores(scores: np.ndarray, n_parts: int, seed: int, method: str, sta
     coefficient columns [2P, 3P) and drift columns [3P, 4P) from the channel's own stream;
     lot columns [P, 2P) and the board columns from 4P on from ``scores``; the columns of
     shared parts (``shared_refs_index``) from ``scores`` too.
+
+    Parameters
+    ----------
+    scores : np.ndarray
+        (S, 4P + 1) part scores of channel 0.
+    n_parts : int
+        Number of parts P.
+    seed : int
+        The design's seed.
+    method : str
+        ``"random"`` or ``"sobol"``.
+    start : int
+        First board index.
+    channel : int
+        Channel number (0: the first).
+    shared_refs_index : sequence of int
+        Indexes of the parts all channels share.
+
+    Returns
+    -------
+    np.ndarray
+        (S, 4P + 1) float standard scores.
     """
     if channel == 0:
         return scores
@@ -127,7 +178,32 @@ def channel_scores(scores: np.ndarray, n_parts: int, seed: int, method: str, sta
 def channel_values(design: "Design", nominal: np.ndarray, grades: Sequence[Grade], scores: np.ndarray,
                    conditions: Conditions, seed: int, method: str, start: int) -> np.ndarray:
     """Part values of every channel of boards ``[start, start + S)``, shape (N, S, P), SI
-    units (channel 0 first; networks applied as :func:`filters.networks.board_values`)."""
+    units (channel 0 first; networks applied as :func:`filters.networks.board_values`).
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    nominal : np.ndarray
+        (P,) marked values in SI units.
+    grades : sequence of Grade
+        (P,) one grade per part, design order.
+    scores : np.ndarray
+        (S, 4P + 1) part scores of channel 0.
+    conditions : Conditions
+        Temperature range (deg C), lot share, service hours and temperature.
+    seed : int
+        The design's seed.
+    method : str
+        ``"random"`` or ``"sobol"``.
+    start : int
+        First board index.
+
+    Returns
+    -------
+    np.ndarray
+        (N, S, P) float part values in SI units.
+    """
     n = design.channels.count
     p = len(nominal)
     stop = start + scores.shape[0]

@@ -124,19 +124,54 @@ class Network:
 
 
 def member_sigma(tolerance_pct: float) -> float:
-    """One member's relative standard deviation (fraction): t / k."""
+    """One member's relative standard deviation (fraction): t / k.
+
+    Parameters
+    ----------
+    tolerance_pct : float
+        The network's tolerance t in percent.
+
+    Returns
+    -------
+    float
+        Relative standard deviation (fraction).
+    """
     return tolerance_pct / 100.0 / COVERAGE
 
 
 def ratio_sigma(ratio_pct: float) -> float:
     """The relative standard deviation of the ratio of two members (fraction, first
-    order): r / k."""
+    order): r / k.
+
+    Parameters
+    ----------
+    ratio_pct : float
+        The ratio tolerance r in percent.
+
+    Returns
+    -------
+    float
+        Relative standard deviation (fraction).
+    """
     return ratio_pct / 100.0 / COVERAGE
 
 
 def shared_sigma(tolerance_pct: float, ratio_pct: float) -> float:
     """Standard deviation of the shared error (fraction):
-    sqrt((s_t^2 - sigma_m^2) / (1 + sigma_m^2)) with s_t = t / k, sigma_m = r / (k sqrt 2)."""
+    sqrt((s_t^2 - sigma_m^2) / (1 + sigma_m^2)) with s_t = t / k, sigma_m = r / (k sqrt 2).
+
+    Parameters
+    ----------
+    tolerance_pct : float
+        The network's tolerance t in percent.
+    ratio_pct : float
+        The ratio tolerance r in percent.
+
+    Returns
+    -------
+    float
+        Relative standard deviation (fraction).
+    """
     s_t = member_sigma(tolerance_pct)
     s_m = ratio_sigma(ratio_pct) / math.sqrt(2.0)
     return math.sqrt(max(0.0, s_t * s_t - s_m * s_m) / (1.0 + s_m * s_m))
@@ -147,7 +182,24 @@ def shared_sigma(tolerance_pct: float, ratio_pct: float) -> float:
 def networks_from_dict(raw: Any, parts: Sequence["Part"], problems: list[InputError],
                        path: str = "networks") -> tuple[Network, ...]:
     """The design file's ``networks`` list, checked against ``parts``; every problem is
-    appended to ``problems`` with its field path."""
+    appended to ``problems`` with its field path.
+
+    Parameters
+    ----------
+    raw : list or None
+        The file's ``networks`` list.
+    parts : sequence of Part
+        The design's parts.
+    problems : list of InputError
+        Each problem found is appended here.
+    path : str
+        Field path of ``raw``.
+
+    Returns
+    -------
+    tuple[Network, ...]
+        The networks that passed the checks.
+    """
     if raw is None:
         return ()
     if not isinstance(raw, list):
@@ -227,6 +279,18 @@ def _figure(item: dict, key: str, where: str, problems: list[InputError], lo: fl
 
 
 def networks_to_dict(networks: Sequence[Network]) -> list[dict[str, Any]]:
+    """The design file's ``networks`` list.
+
+    Parameters
+    ----------
+    networks : sequence of Network
+        The design's networks.
+
+    Returns
+    -------
+    list[dict[str, Any]]
+        JSON-ready data, one dict per network.
+    """
     return [n.to_dict() for n in networks]
 
 
@@ -234,7 +298,20 @@ def networks_to_dict(networks: Sequence[Network]) -> list[dict[str, Any]]:
 
 def stream_seed(seed: int, *tags: int) -> int:
     """A seed (0 to 2^63-1) of its own stream for ``seed`` and ``tags``: scores drawn with it
-    are independent of the design's part scores and of every other tag's."""
+    are independent of the design's part scores and of every other tag's.
+
+    Parameters
+    ----------
+    seed : int
+        The design's seed.
+    *tags : int
+        Numbers naming the stream.
+
+    Returns
+    -------
+    int
+        The stream's seed.
+    """
     state = np.random.SeedSequence([int(seed), *map(int, tags)]).generate_state(2, np.uint32)
     return int((int(state[0]) << 31) ^ int(state[1]))
 
@@ -244,7 +321,28 @@ def shared_scores(seed: int, n_networks: int, start: int, stop: int, method: str
     """Standard normal shared scores, shape (stop - start, 2 * n_networks): column j the
     value score of network j, column n_networks + j its temperature-coefficient score.
     From its own stream (:func:`stream_seed`), in the same blocks as the part scores, so
-    boards [start, stop) are the same drawn at once or in chunks."""
+    boards [start, stop) are the same drawn at once or in chunks.
+
+    Parameters
+    ----------
+    seed : int
+        The design's seed.
+    n_networks : int
+        Number of networks.
+    start : int
+        First board index.
+    stop : int
+        One past the last board index.
+    method : str
+        ``"random"`` or ``"sobol"``.
+    channel : int
+        Channel number (0: the first).
+
+    Returns
+    -------
+    np.ndarray
+        (stop - start, 2 * n_networks) float standard scores.
+    """
     if n_networks == 0:
         return np.empty((stop - start, 0))
     s = stream_seed(seed, _NETWORK_STREAM, channel)
@@ -260,7 +358,20 @@ def _member_index(design: "Design") -> list[tuple[int, np.ndarray]]:
 def network_grades(design: "Design", grades: Sequence[Grade]) -> tuple[Grade, ...]:
     """``grades`` with each member's grade made the network's: no tolerance of its own (the
     network's errors are applied by :func:`board_values`) and a temperature coefficient
-    spread of s + tracking / 2."""
+    spread of s + tracking / 2.
+
+    Parameters
+    ----------
+    design : Design
+        The design (its networks and parts).
+    grades : sequence of Grade
+        (P,) one grade per part, design order.
+
+    Returns
+    -------
+    tuple[Grade, ...]
+        (P,) grades, members changed.
+    """
     out = list(grades)
     for (_, members), net in zip(_member_index(design), design.networks):
         for i in members:
@@ -273,7 +384,20 @@ def network_grades(design: "Design", grades: Sequence[Grade]) -> tuple[Grade, ..
 def corner_grades(design: "Design", grades: Sequence[Grade]) -> tuple[Grade, ...]:
     """Grades for worst-case corners: a member ranges over the network's tolerance and its
     temperature coefficient over s + tracking / 2 (a corner may set two members at
-    opposite ends, which the ratio tolerance makes unlikely: corners stay pessimistic)."""
+    opposite ends, which the ratio tolerance makes unlikely: corners stay pessimistic).
+
+    Parameters
+    ----------
+    design : Design
+        The design (its networks and parts).
+    grades : sequence of Grade
+        (P,) one grade per part, design order.
+
+    Returns
+    -------
+    tuple[Grade, ...]
+        (P,) grades, members changed.
+    """
     out = list(network_grades(design, grades))
     for (_, members), net in zip(_member_index(design), design.networks):
         for i in members:
@@ -298,6 +422,34 @@ def board_values(design: "Design", nominal: np.ndarray, grades: Sequence[Grade],
     Without networks this is exactly :func:`filters.sampling.part_values`. ``scores`` (S,
     4P + 1) are the part scores; ``shared`` the networks' shared scores (default: drawn by
     :func:`shared_scores` for ``channel``).
+
+    Parameters
+    ----------
+    design : Design
+        The design (its networks and parts).
+    nominal : np.ndarray
+        (P,) marked values in SI units.
+    grades : sequence of Grade
+        (P,) one grade per part, design order.
+    scores : np.ndarray
+        (S, 4P + 1) part scores.
+    conditions : Conditions
+        Temperature range (deg C), lot share, service hours and temperature.
+    seed : int
+        The design's seed.
+    method : str
+        ``"random"`` or ``"sobol"``.
+    start : int
+        First board index.
+    channel : int
+        Channel number (0: the first).
+    shared : np.ndarray, optional
+        (S, 2 * networks) shared scores (default: drawn).
+
+    Returns
+    -------
+    np.ndarray
+        (S, P) float part values in SI units.
     """
     if not design.networks:
         return part_values(nominal, grades, scores, conditions)
@@ -325,7 +477,28 @@ def shared_log_deviation(design: "Design", seed: int, method: str, start: int, s
                          channel: int = 0) -> np.ndarray:
     """ln(1 + e_c) of each network on boards ``[start, stop)``, shape (stop - start,
     networks): the part of each member's log deviation the whole network shares (what the
-    spread budget gives the network instead of its members)."""
+    spread budget gives the network instead of its members).
+
+    Parameters
+    ----------
+    design : Design
+        The design (its networks and parts).
+    seed : int
+        The design's seed.
+    method : str
+        ``"random"`` or ``"sobol"``.
+    start : int
+        First board index.
+    stop : int
+        One past the last board index.
+    channel : int
+        Channel number (0: the first).
+
+    Returns
+    -------
+    np.ndarray
+        (stop - start, networks) float (no unit).
+    """
     n_net = len(design.networks)
     shared = shared_scores(seed, n_net, start, stop, method, channel)
     sig = np.array([n.sigma_shared for n in design.networks])
