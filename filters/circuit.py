@@ -85,7 +85,20 @@ class CircuitOpAmp:
 def part_kinds(raw_parts: Any, kind_of_grade: dict[str, str]) -> dict[str, str]:
     """Reference -> kind (R, L, C, opamp or "any") of each part in a design file's parts
     list, from its grade (``kind_of_grade``: grade name -> kind). Malformed entries are
-    left out (the parts list reports them)."""
+    left out (the parts list reports them).
+
+    Parameters
+    ----------
+    raw_parts : list
+        The design file's ``parts`` list.
+    kind_of_grade : dict of str to str
+        Grade name -> part kind.
+
+    Returns
+    -------
+    dict[str, str]
+        Part ref -> kind.
+    """
     out: dict[str, str] = {}
     for p in raw_parts if isinstance(raw_parts, list) else []:
         if isinstance(p, dict) and isinstance(p.get("ref"), str) and isinstance(p.get("grade"), str):
@@ -259,7 +272,24 @@ def circuit_from_dict(s: dict[str, Any], path: str, kinds: dict[str, str],
                       problems: list[InputError]) -> tuple[tuple[CircuitElement, ...],
                                                            tuple[CircuitOpAmp, ...]] | None:
     """The elements and op-amps of circuit stage ``s`` (its file form), or ``None`` after
-    adding the problems to ``problems``. ``kinds``: each part's kind (:func:`part_kinds`)."""
+    adding the problems to ``problems``. ``kinds``: each part's kind (:func:`part_kinds`).
+
+    Parameters
+    ----------
+    s : dict
+        The stage's file form.
+    path : str
+        Field path of the stage.
+    kinds : dict of str to str
+        Part ref -> kind.
+    problems : list of InputError
+        Each problem found is appended here.
+
+    Returns
+    -------
+    tuple[tuple[CircuitElement, ...], tuple[CircuitOpAmp, ...]] or None
+        The elements and op-amps, or None.
+    """
     before = len(problems)
     raw_el = s.get("elements")
     if not isinstance(raw_el, list) or not raw_el:
@@ -341,7 +371,22 @@ def circuit_topology(elements: tuple[CircuitElement, ...], opamps: tuple[Circuit
                      response: str = "") -> Topology:
     """A circuit as a :class:`Topology`: roles are the element refs, each op-amp an optional
     role (given a part, it has that part's gain-bandwidth). ``response`` overrides the
-    kind :func:`infer_kind` finds."""
+    kind :func:`infer_kind` finds.
+
+    Parameters
+    ----------
+    elements : tuple of CircuitElement
+        The circuit's two-terminal elements.
+    opamps : tuple of CircuitOpAmp
+        Its op-amps.
+    response : str
+        Response kind to use ("" to infer it).
+
+    Returns
+    -------
+    Topology
+        Name, response kind, netlist and roles.
+    """
     net = circuit_netlist(elements, opamps)
     kind = response if response else infer_kind(net)
     roles = {e.ref: e.kind for e in elements}
@@ -354,7 +399,24 @@ def check_nominal(net: Netlist, values: dict[str, float], freqs_hz: tuple[float,
                   path: str) -> InputError | None:
     """A problem when the nodal equations of ``net`` are singular for the nominal
     ``values`` (role -> SI value) at every frequency of ``freqs_hz`` (s = 2 pi f (0.6 + 0.8j),
-    off the axis), naming the nodes whose voltages are left undetermined; else ``None``."""
+    off the axis), naming the nodes whose voltages are left undetermined; else ``None``.
+
+    Parameters
+    ----------
+    net : Netlist
+        The circuit's netlist.
+    values : dict of str to float
+        Role -> nominal value in SI units.
+    freqs_hz : tuple of float
+        Frequencies in Hz at which to try.
+    path : str
+        Field path named in the problem.
+
+    Returns
+    -------
+    InputError or None
+        The problem, or None.
+    """
     unknown: list[str] = []
     worst = None
     for f in freqs_hz:

@@ -97,14 +97,38 @@ def _sparse_det(rows: list[dict[int, Any]], zero: Any, deadline: float) -> Any:
 
 
 def description(net: Netlist) -> dict[str, Any]:
-    """The derivation cache's description of ``net`` derived here."""
+    """The derivation cache's description of ``net`` derived here.
+
+    Parameters
+    ----------
+    net : Netlist
+        The circuit's netlist.
+
+    Returns
+    -------
+    dict[str, Any]
+        JSON-ready description (the cache key).
+    """
     return {**net.description(), "method": METHOD}
 
 
 def derive_circuit_uncached(net: Netlist, seconds: float = DERIVE_SECONDS) -> TransferFunction:
     """H(s) = V(out)/V(in) of ``net`` (see the module notes). Raises :class:`InputError`
     (no path) when the output does not depend on the input, when the equations are
-    singular for every value, or when the derivation takes over ``seconds``."""
+    singular for every value, or when the derivation takes over ``seconds``.
+
+    Parameters
+    ----------
+    net : Netlist
+        The circuit's netlist.
+    seconds : float
+        Longest time the derivation may take, s.
+
+    Returns
+    -------
+    TransferFunction
+        Numerator and denominator terms, ascending powers of s, and the roles.
+    """
     from sympy.polys.domains import ZZ
     from sympy.polys.rings import ring
 

@@ -60,7 +60,18 @@ class SolvedStage:
 
 
 def combined_kind(kinds: Iterable[ResponseKind]) -> ResponseKind:
-    """The response kind of stages in cascade: their common kind, else band-pass."""
+    """The response kind of stages in cascade: their common kind, else band-pass.
+
+    Parameters
+    ----------
+    kinds : iterable of str
+        The stages' response kinds.
+
+    Returns
+    -------
+    str
+        A response kind.
+    """
     found = set(kinds)
     return found.pop() if len(found) == 1 else "bandpass"
 
@@ -109,7 +120,18 @@ def _joined(stages: Sequence["Stage"], first: int, last: int) -> SolvedStage:
 
 
 def stage_networks(stages: Sequence["Stage"]) -> tuple[SolvedStage, ...]:
-    """The networks of ``stages`` in signal order (see the module notes)."""
+    """The networks of ``stages`` in signal order (see the module notes).
+
+    Parameters
+    ----------
+    stages : sequence of Stage
+        The design's stages in signal order.
+
+    Returns
+    -------
+    tuple[SolvedStage, ...]
+        One network per buffered stage or group of loaded stages.
+    """
     out = []
     k = 0
     n = len(stages)
@@ -129,12 +151,34 @@ def stage_networks(stages: Sequence["Stage"]) -> tuple[SolvedStage, ...]:
 
 
 def solved_stages(design: "Design") -> tuple[SolvedStage, ...]:
-    """The design's networks in signal order: what the engine compiles."""
+    """The design's networks in signal order: what the engine compiles.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    tuple[SolvedStage, ...]
+        One network per buffered stage or group of loaded stages.
+    """
     return stage_networks(design.stages)
 
 
 def group_problem(solved: SolvedStage) -> InputError | None:
-    """A problem when loaded stages solved together exceed a circuit's limits."""
+    """A problem when loaded stages solved together exceed a circuit's limits.
+
+    Parameters
+    ----------
+    solved : SolvedStage
+        Stages solved as one network.
+
+    Returns
+    -------
+    InputError or None
+        The problem, or None.
+    """
     if solved.first == solved.last:
         return None
     nodes = len(_nodes(solved.netlist)) + 2

@@ -383,7 +383,26 @@ def draw_rails(net: Netlist, labels: Mapping[str, Sequence[str]], refs: Mapping[
 
     ``labels`` maps a role to its lines of text (ref, value, grade); ``refs`` maps a role
     to the part's reference designator (roles without one, e.g. an ideal op-amp, get no
-    hotspot); ``highlight`` draws that part in :data:`HIGHLIGHT`."""
+    hotspot); ``highlight`` draws that part in :data:`HIGHLIGHT`.
+
+    Parameters
+    ----------
+    net : Netlist
+        The netlist.
+    labels : mapping of str to sequence of str
+        Role -> lines of text.
+    refs : mapping of str to str
+        Role -> reference designator.
+    highlight : str, optional
+        A reference drawn in colour.
+    title : str
+        Title above the drawing.
+
+    Returns
+    -------
+    Schematic
+        The drawing.
+    """
     named = {e.role: (*labels.get(e.role, (e.role,)), f"{e.a} – {e.b}") for e in net.elements}
     s = _Sheet({**labels, **named}, refs, highlight)
     nodes = _rail_nodes(net)
@@ -448,7 +467,26 @@ def draw_topology(topology: Topology, labels: Mapping[str, Sequence[str]] | None
     """``topology`` drawn in its own layout (the automatic rail layout for one without).
 
     ``labels`` (role -> lines of text) defaults to the role names; ``refs`` (role -> the
-    part's reference designator, used for the hotspots) defaults to the roles themselves."""
+    part's reference designator, used for the hotspots) defaults to the roles themselves.
+
+    Parameters
+    ----------
+    topology : Topology
+        The topology.
+    labels : mapping of str to sequence of str, optional
+        Role -> lines of text.
+    refs : mapping of str to str, optional
+        Role -> reference designator.
+    highlight : str, optional
+        A reference drawn in colour.
+    title : str
+        Title above the drawing.
+
+    Returns
+    -------
+    Schematic
+        The drawing: SVG text, its size in points and the parts' boxes.
+    """
     roles = {**topology.roles, **topology.optional_roles}
     labels = dict(labels) if labels is not None else {r: (r,) for r in roles}
     refs = dict(refs) if refs is not None else {r: r for r in roles}
@@ -464,7 +502,20 @@ def draw_topology(topology: Topology, labels: Mapping[str, Sequence[str]] | None
 # --- designs -----------------------------------------------------------------------------
 def stage_labels(design: Any, index: int) -> tuple[dict[str, tuple[str, ...]], dict[str, str]]:
     """Each role of stage ``index``: its lines of text (reference designator, with the role
-    after it where the two differ; value; grade) and its part's reference designator."""
+    after it where the two differ; value; grade) and its part's reference designator.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    index : int
+        Stage index, from 0.
+
+    Returns
+    -------
+    tuple[dict[str, tuple[str, ...]], dict[str, str]]
+        Role -> lines of text, and role -> reference designator.
+    """
     stage = design.stages[index]
     topo = stage.built()
     parts = {p.ref: p for p in design.parts}
@@ -485,7 +536,22 @@ def stage_labels(design: Any, index: int) -> tuple[dict[str, tuple[str, ...]], d
 
 def stage_schematic(design: Any, index: int, highlight: str | None = None) -> Schematic:
     """Stage ``index`` of ``design`` (0-based) with its parts' references, values and grades;
-    a circuit stage in the automatic rail layout. ``highlight``: a part ref drawn in colour."""
+    a circuit stage in the automatic rail layout. ``highlight``: a part ref drawn in colour.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    index : int
+        Stage index, from 0.
+    highlight : str, optional
+        A part ref drawn in colour.
+
+    Returns
+    -------
+    Schematic
+        The drawing.
+    """
     stage = design.stages[index]
     labels, refs = stage_labels(design, index)
     topo = stage.built()
@@ -496,13 +562,37 @@ def stage_schematic(design: Any, index: int, highlight: str | None = None) -> Sc
 
 
 def design_schematics(design: Any) -> list[Schematic]:
-    """Every stage's schematic, in signal order."""
+    """Every stage's schematic, in signal order.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    list[Schematic]
+        One drawing per stage.
+    """
     return [stage_schematic(design, i) for i in range(len(design.stages))]
 
 
 def topology_drawing(name: str, options: Mapping[str, Any] | None = None) -> Schematic:
     """Library topology ``name`` with ``options``, its parts labelled by role (the README's
-    topology table points to these drawings)."""
+    topology table points to these drawings).
+
+    Parameters
+    ----------
+    name : str
+        Topology name.
+    options : mapping, optional
+        Its options.
+
+    Returns
+    -------
+    Schematic
+        The drawing.
+    """
     topo = build(name, dict(options or {}))
     return draw_topology(topo, title=f"{name} ({topo.description})")
 
@@ -523,14 +613,31 @@ LIBRARY_DRAWINGS: dict[str, tuple[str, dict[str, Any]]] = {
 
 
 def library_drawings() -> dict[str, Schematic]:
-    """File stem -> drawing, for :data:`LIBRARY_DRAWINGS`."""
+    """File stem -> drawing, for :data:`LIBRARY_DRAWINGS`.
+
+    Returns
+    -------
+    dict[str, Schematic]
+        File stem -> drawing.
+    """
     return {stem: topology_drawing(name, opts) for stem, (name, opts) in LIBRARY_DRAWINGS.items()}
 
 
 def write_library_drawings(folder: str) -> list[str]:
     """Write :func:`library_drawings` as ``folder/<stem>.svg`` (UTF-8); returns the paths.
     Run after changing a layout: ``python -c "from tolspread.schematic import
-    write_library_drawings as w; w('assets/schematics')"``."""
+    write_library_drawings as w; w('assets/schematics')"``.
+
+    Parameters
+    ----------
+    folder : str
+        The folder to write into.
+
+    Returns
+    -------
+    list[str]
+        The paths written.
+    """
     from pathlib import Path
 
     from .safeio import write_text_atomic
@@ -544,7 +651,18 @@ def write_library_drawings(folder: str) -> list[str]:
 
 
 def schematic_figures(design: Any) -> list[tuple[str, str, str]]:
-    """The report's schematics: ``(figure name, SVG text, caption)`` for each stage."""
+    """The report's schematics: ``(figure name, SVG text, caption)`` for each stage.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    list[tuple[str, str, str]]
+        (figure name, SVG text, caption) per stage.
+    """
     figures = []
     for i, sch in enumerate(design_schematics(design)):
         figures.append((f"schematic-{i + 1}", sch.svg,

@@ -65,14 +65,46 @@ def circuit_stage(elements: tuple[CircuitElement, ...], opamps: tuple[CircuitOpA
                   part_refs: set[str] | frozenset[str], name: str = "", buffered: bool = True,
                   response: str = "") -> Stage:
     """A circuit stage; ``part_refs``: the design's part references (an op-amp whose ref is
-    one gets that part's gain-bandwidth)."""
+    one gets that part's gain-bandwidth).
+
+    Parameters
+    ----------
+    elements : tuple of CircuitElement
+        The circuit's two-terminal elements.
+    opamps : tuple of CircuitOpAmp
+        Its op-amps.
+    part_refs : set of str
+        The design's part references.
+    name : str
+        The stage's name.
+    buffered : bool
+        Whether the stage's output is buffered (drives the next stage without loading).
+    response : str
+        Response kind to use ("" to infer it).
+
+    Returns
+    -------
+    Stage
+        The stage.
+    """
     roles = {e.ref: e.ref for e in elements}
     roles.update({o.ref: o.ref for o in opamps if o.ref in part_refs})
     return Stage(CIRCUIT, roles, {}, name, tuple(elements), tuple(opamps), buffered, response)
 
 
 def stage_to_dict(s: Stage) -> dict[str, Any]:
-    """The file form of a stage (see the module notes)."""
+    """The file form of a stage (see the module notes).
+
+    Parameters
+    ----------
+    s : Stage
+        The stage.
+
+    Returns
+    -------
+    dict[str, Any]
+        JSON-ready data.
+    """
     d: dict[str, Any] = {"topology": s.topology}
     if s.name:
         d["name"] = s.name
@@ -101,6 +133,24 @@ def stage_from_dict(s: Any, path: str, kinds: dict[str, str], claim: Claim,
     ``kinds``: each part's kind from its grade (:func:`filters.circuit.part_kinds`);
     ``claim(ref, kind, where, what)`` registers that the stage uses part ``ref`` as ``kind``
     at field ``where`` (``what`` names the element in a message: "element R1" or "").
+
+    Parameters
+    ----------
+    s : dict
+        The stage's file form.
+    path : str
+        Field path of the stage.
+    kinds : dict of str to str
+        Part ref -> kind.
+    claim : callable
+        ``claim(ref, kind, where, what)`` registers a part's use.
+    problems : list of InputError
+        Each problem found is appended here.
+
+    Returns
+    -------
+    Stage or None
+        The stage, or None.
     """
     if not isinstance(s, dict):
         problems.append(InputError("must be an object with topology and parts", path))
@@ -178,7 +228,19 @@ def check_networks(stages: tuple[Stage, ...], values: dict[str, float], freqs_hz
     """The rules that need the whole design: the last stage is buffered (nothing follows it
     to load it), loaded stages solved together keep a circuit's limits, and no circuit or
     joined network has singular equations at the nominal part values (``values``: part
-    reference -> SI value; checked at ``freqs_hz``)."""
+    reference -> SI value; checked at ``freqs_hz``).
+
+    Parameters
+    ----------
+    stages : tuple of Stage
+        The design's stages.
+    values : dict of str to float
+        Part ref -> nominal value in SI units.
+    freqs_hz : tuple of float
+        Frequencies in Hz at which to try the equations.
+    problems : list of InputError
+        Each problem found is appended here.
+    """
     from .circuit_join import group_problem, stage_networks
 
     if stages and not stages[-1].buffered:
