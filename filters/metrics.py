@@ -114,10 +114,27 @@ def peak(coeffs: list[StageCoefficients], resp: Response) -> tuple[np.ndarray, n
 
 def reference_gain2(circuit: Circuit, coeffs: list[StageCoefficients], resp: Response,
                     peak2: np.ndarray | None = None) -> np.ndarray:
-    """Passband reference |H|^2 per sample: DC gain (low-pass), high-frequency gain
-    (high-pass; the refined peak where a finite gain-bandwidth rolls it off), or the
-    refined peak (band-pass)."""
-    if circuit.kind == "lowpass":
+    """Passband reference |H|^2 per sample: DC gain (low-pass, band-stop), high-frequency
+    gain (high-pass; the refined peak where a finite gain-bandwidth rolls it off), or the
+    refined peak (band-pass).
+
+    Parameters
+    ----------
+    circuit : Circuit
+        The compiled design (:func:`filters.engine.compile_design`).
+    coeffs : list of StageCoefficients
+        Per stage, the coefficients of every board (S, K), ascending powers of s.
+    resp : Response
+        Responses on the grid: gain (S, F) in dB.
+    peak2 : np.ndarray, optional
+        (S,) refined peak |H|^2, when already known.
+
+    Returns
+    -------
+    np.ndarray
+        (S,) float |H|^2 (no unit).
+    """
+    if circuit.kind in ("lowpass", "bandstop"):
         return dc_gain2(coeffs)
     if circuit.kind == "highpass":
         # a finite gain-bandwidth op-amp rolls a high-pass off at high frequency: there the
@@ -484,9 +501,35 @@ def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Resp
     a band-pass is designed for: ``scipy.signal.lp2bp`` puts the edges symmetric about it
     on a log scale; stable even when a wide flat band has no clear peak);
     ``bandwidth_hz`` = upper_hz - lower_hz. No ``cutoff_hz`` for a band-pass (it would
-    repeat the centre). ``reference_db`` and ``peaking_db`` (peak above the reference)
-    always.
+    repeat the centre). Band-stop: the same four from the stop band's edges at
+    ``cutoff_db`` below the DC gain (:func:`_stop_edges`). ``reference_db`` and
+    ``peaking_db`` (peak above the reference) always.
+
+    Parameters
+    ----------
+    circuit : Circuit
+        The compiled design (:func:`filters.engine.compile_design`).
+    coeffs : list of StageCoefficients
+        Per stage, the coefficients of every board (S, K), ascending powers of s.
+    resp : Response
+        Responses on the grid: gain (S, F) in dB.
+    cutoff_db : float
+        Cutoff level in dB below the reference (e.g. 3.0).
+
+    Returns
+    -------
+    dict[str, np.ndarray]
+        Metric name -> (S,) values (Hz, dB).
     """
+    if circuit.kind == "bandstop":  # band-stop: the stop band's edges below the DC gain
+        ref2 = reference_gain2(circuit, coeffs, resp)
+        i = np.argmax(resp.gain_db, axis=1)
+        peak2 = 10 ** (resp.gain_db[np.arange(i.size), i] / 10)
+        lower, upper = _stop_edges(resp, coeffs, ref2 * 10 ** (-cutoff_db / 10))
+        return {"reference_db": 10 * np.log10(np.maximum(ref2, 1e-300)),
+                "peaking_db": 10 * np.log10(np.maximum(peak2, ref2) / np.maximum(ref2, 1e-300)),
+                "centre_hz": np.sqrt(lower * upper), "lower_hz": lower, "upper_hz": upper,
+                "bandwidth_hz": upper - lower}
     if circuit.kind == "bandpass":
         peak_f, peak2 = peak(coeffs, resp)  # the reference: refined off the grid
     else:  # peaking is informational here: the grid's maximum (within ~0.01 dB at Q = 2, 400 points)
@@ -506,6 +549,33 @@ def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Resp
         upper = _half_crossing(resp, coeffs, level2, peak_f, peak2, below=False, under=under)
         out.update(centre_hz=np.sqrt(lower * upper), lower_hz=lower, upper_hz=upper, bandwidth_hz=upper - lower)
     return out
+
+
+def _stop_edges(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray
+                ) -> tuple[np.ndarray, np.ndarray]:
+    """A band-stop's edges (Hz, (S,) each): on either side of the grid's deepest point, the
+    crossing of ``level2`` (S,) nearest it, bracketed by grid points and refined on exact
+    |H|^2 (NaN where the grid holds no point at or above the level on that side, and both
+    NaN where even the deepest point is not below it: no stop band on the grid)."""
+    gdb = resp.gain_db
+    f = resp.freqs_hz
+    rows = np.arange(gdb.shape[0])
+    idx = np.arange(f.size)[None, :]
+    deepest = np.argmin(gdb, axis=1)[:, None]
+    above = gdb >= _db(level2)[:, None]
+    stop = ~above[rows, deepest[:, 0]]
+    j, ok_lo = _last_true(above & (idx < deepest))  # the last point above the level before the notch
+    k = np.argmax(above & (idx > deepest), axis=1)  # the first one after it
+    ok_lo &= stop
+    ok_hi = above[rows, k] & (k > deepest[:, 0]) & stop
+    out = []
+    for ok, a, b in ((ok_lo, j, np.minimum(j + 1, f.size - 1)), (ok_hi, np.maximum(k - 1, 0), k)):
+        edge = np.full(gdb.shape[0], np.nan)
+        if ok.any():
+            edge[ok] = _refine(_rows(coeffs, ok), f[a[ok]], f[b[ok]], level2[ok],
+                               lo_db=gdb[rows[ok], a[ok]], hi_db=gdb[rows[ok], b[ok]])
+        out.append(edge)
+    return out[0], out[1]
 
 
 def _half_crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray,
