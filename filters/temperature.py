@@ -108,7 +108,26 @@ def nominal_at(prep: Any, grades: Any, temp_c: float, hours: float = 0.0, servic
                ) -> np.ndarray:
     """Part values (1, P) of the nominal board at ``temp_c``: typical temperature change
     (score 0), no tolerance, ageing after ``hours`` (life drift is symmetric: none), class II
-    parts at their stated DC bias."""
+    parts at their stated DC bias.
+
+    Parameters
+    ----------
+    prep : Prepared
+        The prepared design.
+    grades : sequence of Grade
+        (P,) one grade per part.
+    temp_c : float
+        Board temperature, deg C.
+    hours : float
+        Hours in service.
+    service_temp_c : float
+        Temperature in service, deg C.
+
+    Returns
+    -------
+    np.ndarray
+        (1, P) float part values in SI units.
+    """
     from .temperature_physics import ageing_factor, bias_change
 
     nom = prep.nominal.values
@@ -149,7 +168,24 @@ def _points(design: Any, prep: Any, ens: Any, temps: tuple[float, ...], hours: f
 def judge_over_range(design: Any, prep: Any, ens: Any,
                      should_stop: Callable[[], bool] | None = None) -> OverTemperature | None:
     """Judge the boards of ``ens`` at every judged temperature of ``design``; None without
-    an operating range."""
+    an operating range.
+
+    Parameters
+    ----------
+    design : Design
+        The design (its operating range and service life).
+    prep : Prepared
+        The prepared design.
+    ens : Ensemble
+        The sampled boards.
+    should_stop : callable, optional
+        ``should_stop()`` returning True cancels the run.
+
+    Returns
+    -------
+    OverTemperature or None
+        Yield and failures at each judged temperature (deg C) and over the whole range.
+    """
     temps = judged_temperatures(design.analysis)
     if not temps:
         return None
@@ -163,7 +199,26 @@ def judge_service_life(design: Any, prep: Any, ens: Any, delivery: YieldEstimate
                        should_stop: Callable[[], bool] | None = None) -> ServiceLife | None:
     """The boards of ``ens`` after the design's service life, judged as at delivery (at
     every judged temperature, or at the board temperature without a range); None when
-    the design states no service life."""
+    the design states no service life.
+
+    Parameters
+    ----------
+    design : Design
+        The design (its operating range and service life).
+    prep : Prepared
+        The prepared design.
+    ens : Ensemble
+        The sampled boards.
+    delivery : YieldEstimate
+        The yield at delivery (fractions).
+    should_stop : callable, optional
+        ``should_stop()`` returning True cancels the run.
+
+    Returns
+    -------
+    ServiceLife or None
+        The yield after the service life and what changed since delivery.
+    """
     a = design.analysis
     if not a.service_hours:
         return None
@@ -188,7 +243,32 @@ def passed_over_range(design: Any, prep: Any, grades: Any, seed: int | None, met
                       stop: int, should_stop: Callable[[], bool] | None = None) -> np.ndarray | None:
     """Whether boards ``[start, stop)`` meet the mask at every judged temperature, shape
     (stop - start,), judged without metrics (what an adaptive run's stopping rule reads);
-    None without an operating range."""
+    None without an operating range.
+
+    Parameters
+    ----------
+    design : Design
+        The design (its operating range and service life).
+    prep : Prepared
+        The prepared design.
+    grades : sequence of Grade
+        (P,) one grade per part.
+    seed : int or None
+        Seed of the boards (default: the design's).
+    method : str or None
+        Sampling method (default: the design's).
+    start : int
+        First board index.
+    stop : int
+        One past the last board index.
+    should_stop : callable, optional
+        ``should_stop()`` returning True cancels the run.
+
+    Returns
+    -------
+    np.ndarray or None
+        (stop - start,) bool.
+    """
     from .evaluate import evaluate
 
     temps = judged_temperatures(design.analysis)
@@ -206,7 +286,24 @@ def passed_over_range(design: Any, prep: Any, grades: Any, seed: int | None, met
 def judged_ensemble(design: Any, prep: Any, ens: Any, should_stop: Callable[[], bool] | None = None) -> Any:
     """``ens`` judged over the design's operating range: its margins the smallest over the
     judged temperatures (pass/fail only, no metrics), so ``passed`` means at every one;
-    ``ens`` itself without a range. What a grade search compares candidates by."""
+    ``ens`` itself without a range. What a grade search compares candidates by.
+
+    Parameters
+    ----------
+    design : Design
+        The design (its operating range and service life).
+    prep : Prepared
+        The prepared design.
+    ens : Ensemble
+        The sampled boards.
+    should_stop : callable, optional
+        ``should_stop()`` returning True cancels the run.
+
+    Returns
+    -------
+    Ensemble
+        The ensemble with margins (S, spans) the smallest over the judged temperatures.
+    """
     temps = judged_temperatures(design.analysis)
     if not temps:
         return ens

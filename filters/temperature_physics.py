@@ -60,6 +60,22 @@ def for_value(grade: Grade, kind: str, value: float, bias_v: float = 0.0) -> Gra
     states its bias, gets that bias (its change is applied by :func:`bias_change`) and loses
     its ``drift_pct``, which stood for the loss at a bias nobody stated. Otherwise the grade
     itself.
+
+    Parameters
+    ----------
+    grade : Grade
+        The grade.
+    kind : str
+        Part kind (``"R"``, ``"C"``, ``"L"``, ``"opamp"``).
+    value : float
+        Marked value in SI units.
+    bias_v : float
+        DC bias in V.
+
+    Returns
+    -------
+    Grade
+        The grade as it applies to that part.
     """
     g = grade
     if bias_v and g.bias_curve_pct:
@@ -74,7 +90,18 @@ def for_value(grade: Grade, kind: str, value: float, bias_v: float = 0.0) -> Gra
 
 
 def has_temperature(grade: Grade) -> bool:
-    """Whether the grade's value depends on temperature at all."""
+    """Whether the grade's value depends on temperature at all.
+
+    Parameters
+    ----------
+    grade : Grade
+        The grade.
+
+    Returns
+    -------
+    bool
+        True when the value changes with temperature.
+    """
     return bool(grade.tempco_ppm or grade.tempco_spread_ppm or grade.temp_curve_pct)
 
 
@@ -85,6 +112,20 @@ def temperature_change(grade: Grade, u: np.ndarray, temp_c: np.ndarray) -> np.nd
     Class II (``temp_curve_pct`` set): the typical curve at ``temp_c`` (linear
     interpolation, flat beyond its ends) times ``1 + temp_curve_spread u``, clipped to the
     code's limit ``temp_limit_pct``. Otherwise ``(tempco + spread u) 1e-6 (T - 25)``.
+
+    Parameters
+    ----------
+    grade : Grade
+        The grade.
+    u : np.ndarray
+        (S,) temperature scores, uniform in -1..1.
+    temp_c : np.ndarray
+        (S,) temperatures in deg C.
+
+    Returns
+    -------
+    np.ndarray
+        (S,) float relative changes (fractions).
     """
     if grade.temp_curve_pct:
         t, pct = np.array(grade.temp_curve_pct).T
@@ -104,6 +145,20 @@ def life_fraction(grade: Grade, hours: float, temp_c: float) -> float:
     with T in kelvin and k Boltzmann's constant in eV/K; ``activation_ev = 0`` gives no
     temperature acceleration. The square-root time law and the Arrhenius factor are
     common practice for film resistor drift (from memory; see assets/sources.md).
+
+    Parameters
+    ----------
+    grade : Grade
+        The grade.
+    hours : float
+        Hours in service.
+    temp_c : float
+        Temperature in service, deg C.
+
+    Returns
+    -------
+    float
+        Drift limit as a fraction.
     """
     if not grade.life_drift_pct or hours <= 0:
         return 0.0
@@ -113,7 +168,20 @@ def life_fraction(grade: Grade, hours: float, temp_c: float) -> float:
 
 
 def ageing_factor(grade: Grade, hours: float) -> float:
-    """Class II ageing: the value after ``hours`` more in service, relative to delivery."""
+    """Class II ageing: the value after ``hours`` more in service, relative to delivery.
+
+    Parameters
+    ----------
+    grade : Grade
+        The grade.
+    hours : float
+        Hours in service.
+
+    Returns
+    -------
+    float
+        Value after / value at delivery (no unit).
+    """
     if not grade.ageing_pct_per_decade or hours <= 0:
         return 1.0
     return 1 - grade.ageing_pct_per_decade / 100.0 * math.log10((AGE_AT_DELIVERY_H + hours) / AGE_AT_DELIVERY_H)
@@ -122,7 +190,20 @@ def ageing_factor(grade: Grade, hours: float) -> float:
 def bias_change(grade: Grade, bias_v: float | None = None) -> float:
     """Relative change (fraction) of a class II capacitor at DC bias ``bias_v`` (V, the
     grade's own ``bias_v`` set by :func:`for_value` when None): the grade's bias curve
-    interpolated (flat beyond its ends); 0 without a curve."""
+    interpolated (flat beyond its ends); 0 without a curve.
+
+    Parameters
+    ----------
+    grade : Grade
+        The grade.
+    bias_v : float, optional
+        DC bias in V.
+
+    Returns
+    -------
+    float
+        Relative change (fraction).
+    """
     bias_v = grade.bias_v if bias_v is None else bias_v
     if not grade.bias_curve_pct or bias_v == 0:
         return 0.0

@@ -25,7 +25,18 @@ MAX_JUDGED = 12          # judged temperatures at most: each is one more evaluat
 
 
 def judged_temperatures(analysis: Any) -> tuple[float, ...]:
-    """The temperatures (deg C, rising) every board is judged at; () without a range."""
+    """The temperatures (deg C, rising) every board is judged at; () without a range.
+
+    Parameters
+    ----------
+    analysis : Analysis
+        The design's analysis settings.
+
+    Returns
+    -------
+    tuple[float, ...]
+        Temperatures in deg C.
+    """
     rng = getattr(analysis, "operating_range_c", None)
     if rng is None:
         return ()
@@ -39,7 +50,22 @@ def judged_temperatures(analysis: Any) -> tuple[float, ...]:
 def settings_from_dict(data: dict, problems: list[InputError], path: str) -> dict[str, Any]:
     """The analysis fields of this module from the design file's ``analysis`` object:
     ``operating_range_c`` [low, high], ``judge_at_c`` [extra points], ``service_life``
-    {"hours": h, "temperature_c": t}. Problems are added with their field paths."""
+    {"hours": h, "temperature_c": t}. Problems are added with their field paths.
+
+    Parameters
+    ----------
+    data : dict
+        The file's ``analysis`` object.
+    problems : list of InputError
+        Each problem found is appended here.
+    path : str
+        Field path of ``data``.
+
+    Returns
+    -------
+    dict[str, Any]
+        Analysis field -> value (temperatures in deg C, hours).
+    """
     out: dict[str, Any] = {}
     if "operating_range_c" in data:
         r = data["operating_range_c"]
@@ -74,7 +100,18 @@ def settings_from_dict(data: dict, problems: list[InputError], path: str) -> dic
 
 
 def settings_to_dict(analysis: Any) -> dict[str, Any]:
-    """The design-file keys of this module's settings (none at their defaults)."""
+    """The design-file keys of this module's settings (none at their defaults).
+
+    Parameters
+    ----------
+    analysis : Analysis
+        The design's analysis settings.
+
+    Returns
+    -------
+    dict[str, Any]
+        JSON-ready data.
+    """
     out: dict[str, Any] = {}
     if analysis.operating_range_c is not None:
         out["operating_range_c"] = list(analysis.operating_range_c)

@@ -56,7 +56,18 @@ def _t(t: float) -> str:
 
 def temperature_tables(result: Any) -> list[Table]:
     """The tables of ``result`` (an :class:`filters.analysis.AnalysisResult`) about its
-    operating range and service life; empty when the design asks for neither."""
+    operating range and service life; empty when the design asks for neither.
+
+    Parameters
+    ----------
+    result : AnalysisResult
+        An analysis result.
+
+    Returns
+    -------
+    list[Table]
+        Tables for people.
+    """
     out: list[Table] = []
     over, life, d = result.temperature, result.life, result.design
     names = [s.name for s in d.stages]
@@ -115,7 +126,18 @@ def temperature_tables(result: Any) -> list[Table]:
 
 def temperature_json(result: Any) -> dict[str, Any]:
     """The ``temperature`` and ``service_life`` entries of the analyze JSON (absent keys
-    when the design asks for neither)."""
+    when the design asks for neither).
+
+    Parameters
+    ----------
+    result : AnalysisResult
+        An analysis result.
+
+    Returns
+    -------
+    dict[str, Any]
+        JSON-ready data (yields as fractions, temperatures in deg C).
+    """
     out: dict[str, Any] = {}
     if result.temperature is not None:
         doc = result.temperature.to_dict()
@@ -128,7 +150,18 @@ def temperature_json(result: Any) -> dict[str, Any]:
 
 def physics_text(g: Any) -> str:
     """A grade's temperature behaviour in words: a class II curve with its code's limit, or
-    the coefficient (ppm/K, with its spread); "" when it has neither."""
+    the coefficient (ppm/K, with its spread); "" when it has neither.
+
+    Parameters
+    ----------
+    g : Grade
+        A grade.
+
+    Returns
+    -------
+    str
+        The words.
+    """
     if g.temp_curve_pct:
         lim = f", clipped to \u00b1{g.temp_limit_pct:g} %" if g.temp_limit_pct else ""
         ends = ", ".join(f"{c:+g} % at {t:g} {DEGREE}" for t, c in (g.temp_curve_pct[0], g.temp_curve_pct[-1]))
@@ -138,7 +171,18 @@ def physics_text(g: Any) -> str:
 
 def assumption_texts(analysis: Any) -> list[str]:
     """Plain sentences on the operating range and service life of ``analysis`` (for the
-    report's assumptions); empty when the design asks for neither."""
+    report's assumptions); empty when the design asks for neither.
+
+    Parameters
+    ----------
+    analysis : Analysis
+        The design's analysis settings.
+
+    Returns
+    -------
+    list[str]
+        Sentences.
+    """
     from .temperature_settings import judged_temperatures
 
     out = []
