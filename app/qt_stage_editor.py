@@ -39,6 +39,12 @@ _OPAMP_COLUMNS = {"ref": 0, "plus": 1, "minus": 2, "output": 3}
 Apply = Callable[[Design, str], "str | None"]
 
 
+def _response_kinds() -> tuple[str, ...]:
+    from ..circuit import response_kinds
+
+    return response_kinds()
+
+
 def _buffered(stage) -> bool:
     return getattr(stage, "buffered", True)
 
@@ -60,6 +66,7 @@ def _table(name: str, headers: list[str]) -> QTableWidget:
     t.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
     t.setEditTriggers(QAbstractItemView.EditTrigger.DoubleClicked | QAbstractItemView.EditTrigger.EditKeyPressed
                       | QAbstractItemView.EditTrigger.AnyKeyPressed)
+    t.verticalHeader().setDefaultSectionSize(t.fontMetrics().height() + 8)  # compact rows
     t.setMinimumHeight(90)
     return t
 
@@ -106,11 +113,19 @@ class StageEditor(QWidget):
         self.buffered.setObjectName("stage_buffered")
         self.opamp_part = QCheckBox("op-amp gain-bandwidth from a part (else ideal)")
         self.opamp_part.setObjectName("stage_opamp_part")
+        self.response = QComboBox()
+        self.response.setObjectName("stage_response")
+        self.response.setToolTip("the response a circuit stage is judged as (cutoff, band edges...)")
+        self.response.addItem("from the circuit's shape", "")
+        for kind in _response_kinds():
+            self.response.addItem(kind, kind)
         form.addRow("name", self.name)
         form.addRow("topology", self.topology)
         form.addRow("options", self.options)
         form.addRow("", self.buffered)
         form.addRow("", self.opamp_part)
+        form.addRow("response", self.response)
+        self.form = form
         lay.addLayout(form)
         self.pages = QStackedWidget()
         self.roles = _table("role_table", ["role", "part", "value", "grade"])
@@ -120,7 +135,7 @@ class StageEditor(QWidget):
         grid = QGridLayout(circuit)
         grid.setContentsMargins(0, 0, 0, 0)
         self.elements = _table("element_table", ["ref", "node", "node"])
-        self.opamps = _table("opamp_table", ["ref", "+", "−", "output"])
+        self.opamps = _table("opamp_table", ["ref", "+", "−", "output", "GBW part"])
         self.element_kind = QComboBox()
         self.element_kind.setObjectName("element_kind")
         for label, kind in KINDS:
@@ -162,7 +177,9 @@ class StageEditor(QWidget):
         self.opamp_part.clicked.connect(lambda on: self._edit(
             lambda d: edits.set_opamp_part(d, self.index, on, self._catalog()), "op-amp part"))
         self.elements.itemChanged.connect(lambda _item: self._on_table_edited())
-        self.opamps.itemChanged.connect(lambda _item: self._on_table_edited())
+        self.opamps.itemChanged.connect(self._on_opamp_item)
+        self.response.activated.connect(lambda _i: self._edit(
+            lambda d: edits.set_response(d, self.index, self.response.currentData()), "response"))
         self.add_element.clicked.connect(lambda: self._edit(
             lambda d: edits.add_element(d, self.index, self.element_kind.currentData(), self._catalog())[0],
             "add element"))
@@ -213,6 +230,7 @@ class StageEditor(QWidget):
         self.buffered.setChecked(_buffered(s))
         self.buffered.setEnabled(i < len(d.stages) - 1 or not _buffered(s))
         self.opamp_part.setVisible(not circuit and bool(s.built().optional_roles))
+        self.form.setRowVisible(self.response, circuit)
         self.opamp_part.setChecked("U1" in s.roles)
         self.remove_stage.setEnabled(len(d.stages) > 1)
         self.up.setEnabled(i > 0)
@@ -222,6 +240,15 @@ class StageEditor(QWidget):
             self.pages.setCurrentIndex(1)
             self._fill(self.elements, edits.element_rows(data))
             self._fill(self.opamps, edits.opamp_rows(data))
+            self.opamps.blockSignals(True)
+            for r in range(self.opamps.rowCount()):
+                box = QTableWidgetItem("GBW from part" if self.opamps.item(r, 0).text() in parts else "ideal")
+                box.setFlags(Qt.ItemFlag.ItemIsEnabled | Qt.ItemFlag.ItemIsUserCheckable)
+                box.setCheckState(Qt.CheckState.Checked if self.opamps.item(r, 0).text() in parts
+                                  else Qt.CheckState.Unchecked)
+                self.opamps.setItem(r, 4, box)
+            self.opamps.blockSignals(False)
+            self.response.setCurrentIndex(max(0, self.response.findData(getattr(s, "response", ""))))
         else:
             self.pages.setCurrentIndex(0)
             rows = [[role, ref, parts[ref].value_text, parts[ref].grade] for role, ref in s.roles.items()]
@@ -347,7 +374,8 @@ class StageEditor(QWidget):
 
     @staticmethod
     def _rows(table: QTableWidget) -> list[list[str]]:
-        return [[(table.item(r, c).text() if table.item(r, c) else "").strip() for c in range(table.columnCount())]
+        cols = 4 if table.columnCount() > 4 else table.columnCount()  # an op-amp's GBW box is no node
+        return [[(table.item(r, c).text() if table.item(r, c) else "").strip() for c in range(cols)]
                 for r in range(table.rowCount())]
 
     def _on_table_edited(self) -> None:
@@ -357,6 +385,26 @@ class StageEditor(QWidget):
         self._clear_marks()
         self._edit(lambda d: edits.set_circuit(d, self.index, elements, opamps), "circuit",
                    mark=self._mark_cells)
+
+    def _on_opamp_item(self, item: QTableWidgetItem) -> None:
+        if item.column() != 4:
+            self._on_table_edited()
+            return
+        if self._loading or self.design is None:
+            return
+        on = item.checkState() == Qt.CheckState.Checked
+        row = item.row()
+        if self._edit(lambda d: edits.set_gbw_part(d, self.index, row, on, self._catalog()),
+                      "op-amp part" if on else "ideal op-amp") is not None:
+            self._show_stage_quietly()
+
+    def _show_stage_quietly(self) -> None:
+        """The stage as the design holds it (a refused toggle goes back)."""
+        self._loading = True
+        try:
+            self._show_stage()
+        finally:
+            self._loading = False
 
     def _mark_cells(self, problems: list[InputError]) -> None:
         """Each problem's cell (its row's ref cell when the problem names a whole row) red,

@@ -16,7 +16,8 @@ from ..topologies import build
 
 __all__ = ["CIRCUIT", "DEFAULT_VALUES", "new_ref", "add_part", "prune_parts", "new_stage", "move_stage",
            "remove_stage", "set_topology", "set_opamp_part", "circuit_from_library", "used_refs",
-           "add_element", "add_opamp", "remove_row", "set_circuit", "element_rows", "opamp_rows"]
+           "add_element", "add_opamp", "remove_row", "set_circuit", "set_gbw_part", "set_response",
+           "element_rows", "opamp_rows"]
 
 CIRCUIT = "circuit"
 # a new part's value: resistors, capacitors, inductors and op-amps (gain-bandwidth, Hz)
@@ -239,6 +240,30 @@ def set_circuit(data: Data, index: int, elements: list[list[str]], opamps: list[
     else:
         stage.pop("opamps", None)
     return prune_parts(out)
+
+
+def set_gbw_part(data: Data, index: int, row: int, on: bool, catalog: Catalog) -> Data:
+    """A copy whose circuit stage ``index``'s op-amp ``row`` takes its gain-bandwidth from
+    a part of its own name (a new op-amp part: its default value, the first op-amp grade)
+    or, ``on=False``, is ideal (that part goes)."""
+    out = copy.deepcopy(data)
+    ref = out["stages"][index]["opamps"][row]["ref"]
+    has = any(p["ref"] == ref for p in out["parts"])
+    if on and not has:
+        out, _ = add_part(out, "opamp", catalog, ref)
+    elif not on and has:
+        out["parts"] = [p for p in out["parts"] if p["ref"] != ref]
+    return out
+
+
+def set_response(data: Data, index: int, response: str) -> Data:
+    """A copy whose circuit stage ``index`` is judged as ``response`` ("": from its shape)."""
+    out = copy.deepcopy(data)
+    if response:
+        out["stages"][index]["response"] = response
+    else:
+        out["stages"][index].pop("response", None)
+    return out
 
 
 def element_rows(stage: Data) -> list[list[str]]:

@@ -14,7 +14,7 @@ from __future__ import annotations
 import json
 
 import pytest
-from PySide6.QtCore import Qt
+from PySide6.QtCore import QPoint, Qt
 from PySide6.QtGui import QAction
 from PySide6.QtTest import QTest
 from PySide6.QtWidgets import QComboBox, QLineEdit, QTabBar
@@ -203,3 +203,41 @@ def test_add_move_and_remove_stages(window, qtbot):
     click(qtbot, ed.remove_stage)
     qtbot.waitUntil(lambda: len(window.session.design.stages) == 2, timeout=5000)
     assert json.loads(window.session.text())["parts"] == before["parts"]  # its parts went with it
+
+
+def test_circuit_opamp_part_response_and_loading(window, qtbot):
+    """A circuit's op-amp gets its gain-bandwidth from a part of its name (Space on its
+    'GBW part' box) and is ideal again; the response it is judged as is chosen; a stage
+    loaded by the next one says so in the file. Each one edit, undone by Edit > Undo."""
+    ed = window.stage_editor
+    bring_tab_forward(qtbot, window, "Stages")
+    choose(qtbot, ed.topology, "circuit")
+    qtbot.waitUntil(lambda: stage0(window)["topology"] == "circuit", timeout=5000)
+    amp = stage0(window)["opamps"][0]["ref"]
+    parts = lambda: {p["ref"]: p for p in json.loads(window.session.text())["parts"]}  # noqa: E731
+    assert amp not in parts()  # ideal, as the Sallen-Key stage's op-amp was
+
+    box = ed.opamps.item(0, 4)
+    rect = ed.opamps.visualItemRect(box)
+    QTest.mouseClick(ed.opamps.viewport(), Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, rect.center())
+    QTest.keyClick(ed.opamps.viewport(), Qt.Key.Key_Space)
+    qtbot.waitUntil(lambda: amp in parts(), timeout=5000)
+    assert parts()[amp]["value"] == "10M"  # a 10 MHz gain-bandwidth to start from
+    assert amp in window.parts.rows
+    QTest.mouseClick(ed.opamps.viewport(), Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier,
+                     ed.opamps.visualItemRect(ed.opamps.item(0, 4)).center())
+    QTest.keyClick(ed.opamps.viewport(), Qt.Key.Key_Space)
+    qtbot.waitUntil(lambda: amp not in parts(), timeout=5000)
+
+    choose(qtbot, ed.response, "lowpass")
+    qtbot.waitUntil(lambda: stage0(window).get("response") == "lowpass", timeout=5000)
+
+    QTest.mouseClick(ed.buffered, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier,
+                     QPoint(8, ed.buffered.height() // 2))
+    qtbot.wait(200)
+    assert not ed.problem.isVisible(), ed.problem.text()
+    qtbot.waitUntil(lambda: stage0(window).get("buffered") is False, timeout=5000)
+    assert "loaded by the next" in ed.stage_list.item(0).text()
+    action(window, "undo").trigger()
+    assert stage0(window).get("buffered", True) is True
+    wait_idle(qtbot, window)
