@@ -609,6 +609,7 @@ LIBRARY_DRAWINGS: dict[str, tuple[str, dict[str, Any]]] = {
     "mfb_lowpass": ("mfb_lowpass", {}),
     "mfb_highpass": ("mfb_highpass", {}),
     "mfb_bandpass": ("mfb_bandpass", {}),
+    "notch": ("notch", {}),  # notch_lowpass and notch_highpass: the same section
 }
 
 
