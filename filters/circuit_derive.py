@@ -18,8 +18,10 @@ kept in the same derivation cache (its description carries ``"method": "cofactor
 it never meets a library entry of the same netlist), and held against the numerical
 nodal solution before use.
 
-The expansion checks the clock: past :data:`DERIVE_SECONDS` it stops with an
-:class:`filters.errors.InputError` that says so (never a hang).
+The expansion checks the clock before every product: past :data:`DERIVE_SECONDS` it stops
+with an :class:`filters.errors.InputError` that says so (never a hang); so does a
+determinant or minor of more than :data:`MAX_TERMS` terms (which bounds each product's
+size, hence the time between two checks, and the memory).
 """
 from __future__ import annotations
 
@@ -31,9 +33,10 @@ from typing import Any
 from .errors import InputError
 from .netlist import Coefficient, Netlist, TransferFunction, cached_derivation, nodal_system
 
-__all__ = ["DERIVE_SECONDS", "METHOD", "description", "derive_circuit_uncached", "derive_circuit"]
+__all__ = ["DERIVE_SECONDS", "MAX_TERMS", "METHOD", "description", "derive_circuit_uncached", "derive_circuit"]
 
 DERIVE_SECONDS = 20.0  # the derivation of one circuit stops after this long (seconds)
+MAX_TERMS = 10_000     # terms of one determinant (or minor) at most: beyond, evaluating it would crawl
 METHOD = "cofactor"
 
 
@@ -65,7 +68,6 @@ def _sparse_det(rows: list[dict[int, Any]], zero: Any, deadline: float) -> Any:
             p[i], p[j] = p[j], p[i]
             sign = -sign
     memo: dict[int, Any] = {}
-    count = [0]
 
     def minor(k: int, used: int) -> Any:
         if k == n:
@@ -73,13 +75,12 @@ def _sparse_det(rows: list[dict[int, Any]], zero: Any, deadline: float) -> Any:
         hit = memo.get(used)
         if hit is not None:
             return hit
-        count[0] += 1
-        if count[0] % 64 == 0 and time.monotonic() > deadline:
-            raise TimeoutError
         total = zero
         for j, a in rows[order[k]].items():
             if used >> j & 1:
                 continue
+            if time.monotonic() > deadline:  # checked before every product (a large one takes long)
+                raise TimeoutError
             sub = minor(k + 1, used | 1 << j)
             if sub is not None and not sub:
                 continue
@@ -89,6 +90,8 @@ def _sparse_det(rows: list[dict[int, Any]], zero: Any, deadline: float) -> Any:
                 total = total - term
             else:
                 total = total + term
+        if len(total) > MAX_TERMS:
+            raise OverflowError
         memo[used] = total
         return total
 
@@ -162,6 +165,10 @@ def derive_circuit_uncached(net: Netlist, seconds: float = DERIVE_SECONDS) -> Tr
         raise InputError(f"deriving this circuit's transfer function took longer than {seconds:g} s "
                          "(the limit) and was stopped; a smaller circuit or fewer nodes derive "
                          "faster") from None
+    except OverflowError:
+        raise InputError(f"this circuit's transfer function has more than {MAX_TERMS:,} terms in the "
+                         "part values (the limit), too many to evaluate quickly; split it into "
+                         "buffered stages or join fewer nodes") from None
     if not d:
         raise InputError("the circuit's equations are singular for any part values (a node "
                          "whose voltage nothing determines)")

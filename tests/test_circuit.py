@@ -367,3 +367,18 @@ def test_the_circuit_example_through_the_command_line(tmp_path):
     proc = run_cli("recommend", str(example), "--target-yield", "90%", "--samples", "300")
     assert proc.returncode == 0, proc.stderr
     assert "recommended" in proc.stdout and "C1" in proc.stdout
+
+
+def test_a_circuit_too_large_to_evaluate_is_refused_in_about_a_second():
+    # 14 nodes joined by 48 elements at random: its determinant would have far more than
+    # MAX_TERMS terms; the expansion stops as soon as a minor passes the bound
+    from tolspread.circuit_derive import MAX_TERMS
+
+    rng = np.random.default_rng(3)
+    nodes = ["in"] + [f"n{k}" for k in range(12)] + ["out"]
+    els = [Element("R", f"R{k}", a, b) for k, (a, b) in enumerate(zip(nodes, nodes[1:]))]
+    while len(els) < 48:
+        a, b = rng.choice(nodes + ["0"], 2, replace=False)
+        els.append(Element("C", f"C{len(els)}", str(a), str(b)))
+    with pytest.raises(InputError, match=f"more than {MAX_TERMS:,} terms"):
+        derive_circuit_uncached(Netlist(tuple(els)), seconds=60)
