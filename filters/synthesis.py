@@ -204,6 +204,14 @@ def synthesize(response: str, order: int, cutoff_hz: float, kind: str = "lowpass
     gain magnitude enough to make up its own loss at the centre, at most Q^2 (so the
     overall gain at the centre is about 0 dB unless low-Q sections of a wide band cannot
     reach it; the report then says so; the mask is relative). Linkwitz-Riley is for low-pass and high-pass only.
+    A band-stop ("bandstop") is the prototype moved by ``scipy.signal.lp2bs_zpk`` (the
+    -3 dB edges ``bandwidth_hz`` apart, their geometric mean at ``cutoff_hz``); every
+    section is a notch section ("notch"). Elliptic and inverse Chebyshev responses
+    (``stopband_db``, and ``ripple_db`` for elliptic) are low-pass, high-pass or band-stop:
+    each complex pole pair is built with its nearest zero pair as a notch section
+    ("notch_lowpass", "notch_highpass", "notch"; see
+    :func:`~tolspread.prototypes.pair_sections`), and the starting mask holds the stopband
+    the response guarantees.
 
     ``topology``: the second-order section type: low-pass "sallen_key_lowpass" (default)
     or "mfb_lowpass"; high-pass "sallen_key_highpass" (default) or "mfb_highpass";
