@@ -224,11 +224,10 @@ def test_drawing_spans_in_the_window_gives_unique_names(qtbot, monkeypatch):
     from PySide6.QtCore import QPoint, QPointF, Qt
     from PySide6.QtTest import QTest
 
-    from test_window_core import Program, wait_for_figures
+    from program_start import program, wait_for_figures
 
-    program = Program(qtbot, monkeypatch)
-    try:
-        w = program.start()
+    with program(qtbot, monkeypatch) as starter:
+        w = starter.launch()
         wait_for_figures(qtbot, w)
         actions = {a.objectName(): a for a in w.findChildren(type(w.act_floor))}
 
@@ -267,5 +266,3 @@ def test_drawing_spans_in_the_window_gives_unique_names(qtbot, monkeypatch):
         assert shown == labels
         assert len(set(w.results.chooser.itemText(i) for i in range(w.results.chooser.count()))) == \
             w.results.chooser.count()
-    finally:
-        program.close()

@@ -1,9 +1,9 @@
 """The window's core behaviour, driven the way a person drives it (issue 10: 1, 2, 4-8, 12).
 
-The window is started through the console script's own function, ``tolspread.app.cli.main`` (what
-``tolspread`` runs). ``QApplication.exec`` is replaced by a call that returns at once, so
-``main`` returns after it has built and shown the window; from then on ``qtbot`` runs the
-real event loop while the test waits, as a person waits, for figures to appear.
+The window is started by the acceptance layer's starter (tests/program_start.py): through
+the console script's own function, ``tolspread.app.cli.main`` (what ``tolspread`` runs),
+with ``QApplication.exec`` returning at once; from then on ``qtbot`` runs the real event
+loop while the test waits, as a person waits, for figures to appear.
 ``Session.evaluate_now`` is replaced by a call that fails the test: nothing here may
 compute on the window's behalf. Actions are triggered through their ``QAction`` (what a
 menu click or its shortcut does), keys through key events, buttons through mouse clicks;
@@ -13,8 +13,6 @@ from __future__ import annotations
 
 import ast
 import csv
-import json
-import logging
 import math
 import os
 import re
@@ -25,114 +23,28 @@ from pathlib import Path
 
 import pytest
 
-shiboken6 = pytest.importorskip("shiboken6")
 pytest.importorskip("PySide6")
 pytest.importorskip("pytestqt")
 
-from PySide6.QtCore import QPoint, QPointF, Qt, QTimer  # noqa: E402
+from PySide6.QtCore import QPointF, Qt, QTimer  # noqa: E402
 from PySide6.QtGui import QAction, QKeySequence, QMouseEvent  # noqa: E402
 from PySide6.QtTest import QTest  # noqa: E402
-from PySide6.QtWidgets import (QApplication, QDialog, QFileDialog, QMenu, QMessageBox, QToolBar,  # noqa: E402
+from PySide6.QtWidgets import (QApplication, QDialog, QMenu, QMessageBox, QToolBar,  # noqa: E402
                                QToolButton)
 
 from tolspread.designfile import dumps, load, load_demo  # noqa: E402
 from tolspread.evaluate import evaluate  # noqa: E402
 from tolspread.stats import yield_estimate  # noqa: E402
+from program_start import answers, shown, starter, wait_for_figures, yield_shown  # noqa: E402,F401 - fixtures
 
 pytestmark = pytest.mark.gui
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLE = ROOT / "assets" / "examples" / "ultrasonic_bandpass.json"
 WAIT_MS = 60_000  # a person's patience on a loaded machine; the tests do not measure speed
-YIELD_RE = re.compile(r"yield (\d+\.\d\d) %")
 
 
-# --- starting the program as `tolspread` does ----------------------------------------------
-def _no_evaluate_now(self):
-    raise AssertionError("the window must compute on its own; evaluate_now() was called")
-
-
-class Program:
-    """``tolspread ARGS`` started through ``tolspread.app.cli.main``; its window and the answers it gets."""
-
-    def __init__(self, qtbot, monkeypatch) -> None:
-        from tolspread.app.qt_session import Session
-
-        self.qtbot = qtbot
-        self.mp = monkeypatch
-        self.questions: list[str] = []
-        self.question_answer = QMessageBox.StandardButton.Discard
-        self.save_paths: list[str] = []
-        self.open_paths: list[str] = []
-        self.windows = []
-        self._handlers = list(logging.getLogger("tolspread").handlers)
-        monkeypatch.setattr(Session, "evaluate_now", _no_evaluate_now)
-        monkeypatch.setattr(QMessageBox, "question", staticmethod(self._question))
-        monkeypatch.setattr(QFileDialog, "getSaveFileName", staticmethod(self._save))
-        monkeypatch.setattr(QFileDialog, "getOpenFileName", staticmethod(self._open))
-
-    def _question(self, parent, title, text, *args, **kwargs):
-        self.questions.append(title)
-        return self.question_answer
-
-    def _save(self, *args, **kwargs):
-        return (self.save_paths.pop(0) if self.save_paths else "", "")
-
-    def _open(self, *args, **kwargs):
-        return (self.open_paths.pop(0) if self.open_paths else "", "")
-
-    def start(self, *args: str):
-        from tolspread.app.cli import main
-
-        before = {id(w) for w in _main_windows()}
-        hook = sys.excepthook  # pytest-qt's: an exception in a slot fails the test
-        with self.mp.context() as m:
-            m.setattr(QApplication, "exec", lambda *_a: 0)
-            rc = main(list(args))
-        self.mp.setattr(sys, "excepthook", hook)
-        assert rc == 0
-        new = [w for w in _main_windows() if id(w) not in before]
-        assert len(new) == 1
-        w = new[0]
-        self.windows.append(w)
-        self.qtbot.addWidget(w, before_close_func=lambda win: win.session.undo_stack.setClean())
-        self.qtbot.waitExposed(w)
-        return w
-
-    def close(self) -> None:
-        for w in self.windows:
-            if shiboken6.isValid(w):  # not deleted by Qt already
-                w.session.undo_stack.setClean()
-                w.close()
-        log = logging.getLogger("tolspread")
-        for h in set(log.handlers) - set(self._handlers):  # each start opens the log file
-            log.removeHandler(h)
-            h.close()
-
-
-def _main_windows():
-    return [w for w in QApplication.topLevelWidgets() if w.objectName() == "tolspread_main"]
-
-
-@pytest.fixture
-def program(qtbot, monkeypatch):
-    p = Program(qtbot, monkeypatch)
-    yield p
-    p.close()
-
-
-def shown_yield(w) -> float | None:
-    m = YIELD_RE.search(w.results.yield_label.text())
-    return float(m.group(1)) / 100 if m else None
-
-
-def wait_for_figures(qtbot, w, design=None) -> None:
-    """Wait until the window shows the figures of ``design`` (default: its current one)."""
-    def shown() -> bool:
-        v = w.session.last_view
-        return (not w.session.busy and v is not None and not v.preview
-                and v.design == (design or w.session.design) and w.results.view is v)
-    qtbot.waitUntil(shown, timeout=WAIT_MS)
+# --- starting the program as `tolspread` does: tests/program_start.py (shared with tests/acceptance)
 
 
 def library_yield_text(design) -> str:
@@ -159,24 +71,24 @@ def new_boards_edit(qtbot, w) -> None:
 
 
 # --- 1: the window computes on start, after Open, New and restore ---------------------------
-def test_window_computes_on_start_without_an_edit(program, qtbot):
-    w = program.start()
-    qtbot.waitUntil(lambda: shown_yield(w) is not None, timeout=WAIT_MS)
+def test_window_computes_on_start_without_an_edit(starter, qtbot):
+    w = starter.launch()
+    qtbot.waitUntil(lambda: yield_shown(w) is not None, timeout=WAIT_MS)
     # the figure is the library's own for the demo (tolspread.evaluate + tolspread.stats)
     assert library_yield_text(load_demo()) in w.results.yield_label.text()
     assert not w.session.dirty
 
 
-def test_window_computes_a_design_given_on_the_command_line(program, qtbot):
-    w = program.start(str(EXAMPLE))
-    qtbot.waitUntil(lambda: shown_yield(w) is not None, timeout=WAIT_MS)
+def test_window_computes_a_design_given_on_the_command_line(starter, qtbot):
+    w = starter.launch(str(EXAMPLE))
+    qtbot.waitUntil(lambda: yield_shown(w) is not None, timeout=WAIT_MS)
     assert library_yield_text(load(EXAMPLE)) in w.results.yield_label.text()
 
 
-def test_open_new_and_new_from_response_compute_without_an_edit(program, qtbot, tmp_path):
-    w = program.start()
+def test_open_new_and_new_from_response_compute_without_an_edit(starter, qtbot, tmp_path):
+    w = starter.launch()
     wait_for_figures(qtbot, w)
-    program.open_paths.append(str(EXAMPLE))
+    starter.answers.open_paths.append(str(EXAMPLE))
     action(w, "file_open").trigger()
     wait_for_figures(qtbot, w, load(EXAMPLE))
     assert library_yield_text(load(EXAMPLE)) in w.results.yield_label.text()
@@ -199,21 +111,21 @@ def test_open_new_and_new_from_response_compute_without_an_edit(program, qtbot, 
     wait_for_figures(qtbot, w)
 
 
-def test_restored_recovery_file_is_computed(program, qtbot):
+def test_restored_recovery_file_is_computed(starter, qtbot):
     from tolspread.app import userfiles
 
     d = load_demo()
     kept = d.with_analysis(seed=d.analysis.seed + 7)
     userfiles.recovery_path().write_text(dumps(kept), encoding="utf-8")
-    program.question_answer = QMessageBox.StandardButton.Yes  # "Restore unsaved work?" -> Yes
-    w = program.start()
-    assert any("Restore" in q for q in program.questions)
+    starter.answers.recovery_answer = QMessageBox.StandardButton.Yes  # "Restore unsaved work?" -> Yes
+    w = starter.launch()
+    assert any("Restore" in title for title, _text in starter.answers.questions)
     wait_for_figures(qtbot, w, kept)
     assert library_yield_text(kept) in w.results.yield_label.text()
     assert w.session.dirty
 
 
-def test_screenshot_starts_the_window_normally_and_waits(program, monkeypatch, tmp_path):
+def test_screenshot_starts_the_window_normally_and_waits(starter, monkeypatch, tmp_path):
     """``tolspread --screenshot`` must show the first real result, not compute it itself."""
     from tolspread.app.cli import main
     from tolspread.app.qt_mainwindow import MainWindow
@@ -238,22 +150,22 @@ FILE_ACTIONS = [("export_csv", "boards.csv"), ("export_png", "plots.png"), ("exp
 
 
 @pytest.mark.parametrize("name, filename", FILE_ACTIONS)
-def test_file_actions_write_the_file_the_dialog_names(program, qtbot, tmp_path, name, filename):
-    w = program.start()
+def test_file_actions_write_the_file_the_dialog_names(starter, qtbot, tmp_path, name, filename):
+    w = starter.launch()
     wait_for_figures(qtbot, w)
     target = tmp_path / filename
-    program.save_paths.append(str(target))
+    starter.answers.save_paths.append(str(target))
     action(w, name).trigger()
     qtbot.waitUntil(target.exists, timeout=WAIT_MS)
     assert target.stat().st_size > 0
     assert "error" not in w.status_text.text().lower()
 
 
-def test_board_metrics_csv_from_the_menu_has_a_row_per_board(program, qtbot, tmp_path):
-    w = program.start()
+def test_board_metrics_csv_from_the_menu_has_a_row_per_board(starter, qtbot, tmp_path):
+    w = starter.launch()
     wait_for_figures(qtbot, w)
     target = tmp_path / "boards.csv"
-    program.save_paths.append(str(target))
+    starter.answers.save_paths.append(str(target))
     action(w, "export_csv").trigger()  # Ctrl+Shift+M: failed with "not bool" (issue 10 #2)
     with target.open(encoding="utf-8-sig", newline="") as f:
         rows = list(csv.reader(f))
@@ -350,8 +262,8 @@ def test_quit_with_unsaved_changes_discard_exits_without_an_error(tmp_path, boar
 
 
 # --- 5: Cancel of a long run ---------------------------------------------------------------
-def test_cancel_says_the_run_was_cancelled_and_whose_figures_are_shown(program, qtbot):
-    w = program.start()
+def test_cancel_says_the_run_was_cancelled_and_whose_figures_are_shown(starter, qtbot):
+    w = starter.launch()
     wait_for_figures(qtbot, w)
     d = w.session.design
     box = w.parts.samples
@@ -384,13 +296,13 @@ def _move_mouse_over_gain_plot(w) -> None:
     QApplication.sendEvent(w.plots.canvas.viewport(), ev)
 
 
-def test_open_fits_the_plots_and_clears_the_old_readout(program, qtbot):
-    w = program.start()
+def test_open_fits_the_plots_and_clears_the_old_readout(starter, qtbot):
+    w = starter.launch()
     wait_for_figures(qtbot, w)
     w.plots.vb_mag.setXRange(1.0, 1.3, padding=0)  # zoomed in on 10-20 Hz, as with the wheel
     _move_mouse_over_gain_plot(w)
     qtbot.waitUntil(lambda: "nominal" in w.plots.readout.text(), timeout=WAIT_MS)
-    program.open_paths.append(str(EXAMPLE))
+    starter.answers.open_paths.append(str(EXAMPLE))
     action(w, "file_open").trigger()
     assert "nominal" not in w.plots.readout.text()  # no value of the old design stays
     wait_for_figures(qtbot, w, load(EXAMPLE))
@@ -402,8 +314,8 @@ def test_open_fits_the_plots_and_clears_the_old_readout(program, qtbot):
     assert "nominal" not in w.plots.readout.text()
 
 
-def test_switching_phase_and_delay_clears_the_readout(program, qtbot):
-    w = program.start()
+def test_switching_phase_and_delay_clears_the_readout(starter, qtbot):
+    w = starter.launch()
     wait_for_figures(qtbot, w)
     _move_mouse_over_gain_plot(w)
     qtbot.waitUntil(lambda: "nominal" in w.plots.readout.text(), timeout=WAIT_MS)
@@ -425,8 +337,8 @@ def _toolbar_geometry(w) -> list[tuple[str, tuple[int, int, int, int]]]:
     return out
 
 
-def test_toolbar_buttons_do_not_move_after_an_edit(program, qtbot):
-    w = program.start()
+def test_toolbar_buttons_do_not_move_after_an_edit(starter, qtbot):
+    w = starter.launch()
     w.resize(1600, 950)
     wait_for_figures(qtbot, w)
     qtbot.wait(50)
@@ -443,8 +355,8 @@ def test_toolbar_buttons_do_not_move_after_an_edit(program, qtbot):
 
 # --- 8: Ctrl+Y redoes -------------------------------------------------------------------------
 @pytest.mark.parametrize("redo_key", ["Ctrl+Y", "Ctrl+Shift+Z"])
-def test_redo_keys(program, qtbot, redo_key):
-    w = program.start()
+def test_redo_keys(starter, qtbot, redo_key):
+    w = starter.launch()
     wait_for_figures(qtbot, w)
     d0 = w.session.design
     new_boards_edit(qtbot, w)
@@ -459,11 +371,11 @@ def test_redo_keys(program, qtbot, redo_key):
 
 
 # --- 12: the Help menu ------------------------------------------------------------------------
-def test_help_menu_guide_shortcuts_and_about(program, qtbot):
+def test_help_menu_guide_shortcuts_and_about(starter, qtbot):
     from tolspread import __version__
     from tolspread.app import userfiles
 
-    w = program.start()
+    w = starter.launch()
     menus = [a.text().replace("&", "") for a in w.menuBar().actions()]
     assert menus[-1] == "Help"
 
@@ -497,8 +409,8 @@ def test_help_menu_guide_shortcuts_and_about(program, qtbot):
     assert str(userfiles.log_path()) in about and str(userfiles.settings_path()) in about
 
 
-def test_every_action_has_an_object_name(program):
-    w = program.start()
+def test_every_action_has_an_object_name(starter):
+    w = starter.launch()
     unnamed = [a.text() for a in w.findChildren(QAction)
                if a.objectName() == "" and not a.isSeparator() and a.menu() is None
                and a.parent() is w and a not in w.recent_menu.actions()]
