@@ -114,6 +114,28 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     ``result`` analyses another (by default the recommendation's own record of the current
     grades, else ``result.design``). Raises ValueError when ``result`` kept no curves or
     no corners.
+
+    Parameters
+    ----------
+    result : AnalysisResult
+        An analysis result that kept curves.
+    recommendation : Recommendation, optional
+        The grade recommendation to report.
+    curve : list of (float, Recommendation), optional
+        The cost-yield curve (:func:`filters.recommend.cost_yield_curve`).
+    parts_rows : sequence of dict, optional
+        Parts-list rows (:func:`filters.parts_list.parts_list_rows`).
+    title : str, optional
+        The report's title (default: from the design's name).
+    generated : datetime, optional
+        The time stamp written (default: now).
+    current : Any, optional
+        The design the recommendation started from, when it differs from ``result``'s.
+
+    Returns
+    -------
+    Report
+        The sections (HTML fragments) and the SVG figures.
     """
     if result.curves is None:
         raise ValueError("the report draws the boards' curves: analyze(design, ..., curves=FIGURE_BOARDS)")

@@ -334,6 +334,40 @@ def svg_spread_plot(freqs_hz: np.ndarray, nominal_db: np.ndarray, bands: Bands |
     ``y_range`` (dB) and ``x_range`` (Hz) zoom in, otherwise the ranges follow the data
     (at most 100 dB below the top unless a mask limit lies lower). Everything is drawn
     inside the plot area (clipped; coordinates are clamped to just beyond it).
+
+    Parameters
+    ----------
+    freqs_hz : np.ndarray
+        (F,) frequencies in Hz.
+    nominal_db : np.ndarray
+        (F,) nominal curve (dB, or the ``ylabel`` quantity).
+    bands : Bands or None
+        The boards' bands, each (F,).
+    mask_spans : sequence of Span
+        Gain spans drawn.
+    reference_db : float
+        Passband reference in dB, for relative spans.
+    width : int
+        Width in px.
+    height : int
+        Height in px.
+    ident : str
+        Prefix of the SVG element ids.
+    title : str
+        Title drawn above.
+    y_range : tuple of float, optional
+        (low, high) of the y axis.
+    x_range : tuple of float, optional
+        (low, high) of the x axis in Hz.
+    boards : int, optional
+        Number of boards, for the legend.
+    ylabel : str
+        The y axis' label.
+
+    Returns
+    -------
+    str
+        SVG text.
     """
     f = np.asarray(freqs_hz, dtype=float)
     nom = np.asarray(nominal_db, dtype=float).ravel()
@@ -415,7 +449,34 @@ def svg_histogram(values: np.ndarray, bins: int | Sequence[float] = 40, fail_mas
     """A histogram of ``values``: ``bins`` is a count or the bin edges (as in numpy).
     With ``fail_mask`` (True = the board fails the mask) failing boards are stacked in
     vermillion on top of passing ones in blue. Non-finite values are left out. ``unit``
-    "Hz" labels the axis with SI prefixes."""
+    "Hz" labels the axis with SI prefixes.
+
+    Parameters
+    ----------
+    values : np.ndarray
+        (S,) values.
+    bins : int or sequence of float
+        Bin count or edges.
+    fail_mask : np.ndarray, optional
+        (S,) bool, True where a board fails.
+    label : str
+        The x axis' label.
+    unit : str
+        Unit of ``values``.
+    width : int
+        Width in px.
+    height : int
+        Height in px.
+    ident : str
+        Prefix of the SVG element ids.
+    title : str, optional
+        Title drawn above.
+
+    Returns
+    -------
+    str
+        SVG text.
+    """
     v = np.asarray(values, dtype=float).ravel()
     fm = np.zeros(v.shape, dtype=bool) if fail_mask is None else np.asarray(fail_mask, dtype=bool).ravel()
     if fm.shape != v.shape:
@@ -472,7 +533,28 @@ def svg_bar_chart(labels: Sequence[str], values_pct: Sequence[float], title: str
                   ident: str = "bars", muted: Sequence[int] = ()) -> str:
     """Horizontal bars on a 0-100 % scale, one per label, value written at the bar's end
     (the spread budget: each part's share of a metric's variance). Bars whose index is in
-    ``muted`` (such as a remainder) are drawn in the lighter blue."""
+    ``muted`` (such as a remainder) are drawn in the lighter blue.
+
+    Parameters
+    ----------
+    labels : sequence of str
+        One label per bar.
+    values_pct : sequence of float
+        One value per bar, in percent.
+    title : str
+        Title drawn above.
+    width : int
+        Width in px.
+    ident : str
+        Prefix of the SVG element ids.
+    muted : sequence of int
+        Indexes of bars drawn lighter.
+
+    Returns
+    -------
+    str
+        SVG text.
+    """
     vals = [float(v) for v in values_pct]
     if len(vals) != len(labels):
         raise ValueError("one value per label")
@@ -506,7 +588,28 @@ def svg_cost_yield(points: Sequence[tuple[float, float | None]], *, current_cost
     """Total cost (relative units) of the cheapest grade choice that meets each yield
     target (a fraction, drawn in %). A target no grade choice meets (cost None) is marked
     with a vermillion cross at the top edge; ``current_cost`` (the design's grades) is
-    drawn as a dashed line."""
+    drawn as a dashed line.
+
+    Parameters
+    ----------
+    points : sequence of (float, float or None)
+        (target yield as a fraction, cost or None).
+    current_cost : float, optional
+        The design's own cost.
+    width : int
+        Width in px.
+    height : int
+        Height in px.
+    ident : str
+        Prefix of the SVG element ids.
+    title : str
+        Title drawn above.
+
+    Returns
+    -------
+    str
+        SVG text.
+    """
     pts = sorted((float(t), c) for t, c in points)
     if not pts:
         raise ValueError("no points")

@@ -120,7 +120,22 @@ li { margin-bottom: 2pt; }
 
 def table(headers: Sequence[str], rows: Sequence[Sequence[str]], numeric: Sequence[int] = ()) -> str:
     """An HTML table; ``headers`` plain text (escaped here, every one named), cells are HTML
-    fragments. The header row is in ``<thead>``, so a printed table repeats it on each page."""
+    fragments. The header row is in ``<thead>``, so a printed table repeats it on each page.
+
+    Parameters
+    ----------
+    headers : sequence of str
+        Column titles (plain text).
+    rows : sequence of sequence of str
+        Cells (HTML fragments).
+    numeric : sequence of int
+        Indexes of right-aligned columns.
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     num = set(numeric)
     out = ["<table>", "<thead><tr>" + "".join(f"<th>{esc(h)}</th>" for h in headers) + "</tr></thead>", "<tbody>"]
     for r in rows:
@@ -132,16 +147,48 @@ def table(headers: Sequence[str], rows: Sequence[Sequence[str]], numeric: Sequen
 
 
 def figure(name: str, caption: str) -> str:
-    """A figure's place in the body (the marker :meth:`Report.html` fills) with its caption (HTML)."""
+    """A figure's place in the body (the marker :meth:`Report.html` fills) with its caption (HTML).
+
+    Parameters
+    ----------
+    name : str
+        The figure's name.
+    caption : str
+        Its caption (HTML).
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     return f'<div class="figure">{_FIGURE_MARK.format(name)}<p class="caption">{caption}</p></div>'
 
 
 def svg_size(svg: str) -> tuple[int, int]:
-    """(width, height) in px that an SVG states, default (760, 340)."""
+    """(width, height) in px that an SVG states, default (760, 340).
+
+    Parameters
+    ----------
+    svg : str
+        SVG text.
+
+    Returns
+    -------
+    tuple[int, int]
+        (width, height) in px.
+    """
     m = re.search(r'<svg[^>]*\swidth="(\d+)"[^>]*\sheight="(\d+)"', svg)
     return (int(m.group(1)), int(m.group(2))) if m else (760, 340)
 
 
 def write_report(report: Report, path: str | Path) -> None:
-    """Write the self-contained HTML report to ``path`` atomically."""
+    """Write the self-contained HTML report to ``path`` atomically.
+
+    Parameters
+    ----------
+    report : Report
+        The report.
+    path : str or Path
+        The HTML file to write.
+    """
     write_text_atomic(Path(path), report.html(), backup=False)

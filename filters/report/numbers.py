@@ -38,7 +38,24 @@ def format_quantity(x: float | None, unit: str, signed: bool = True, digits: int
     """``x`` for people in ``unit``: "Hz", "s" or any other SI unit (ohm, F, H...) in
     engineering notation with ``digits`` significant figures (default 4, seconds 3); "dB"
     with 3 decimals and "deg" with 2, signed unless ``signed`` is False (spreads); "" a
-    plain number (4 significant figures). None, NaN and infinities read "n/a"."""
+    plain number (4 significant figures). None, NaN and infinities read "n/a".
+
+    Parameters
+    ----------
+    x : float or None
+        The value, in ``unit``.
+    unit : str
+        Its unit.
+    signed : bool
+        Write a sign.
+    digits : int, optional
+        Significant figures.
+
+    Returns
+    -------
+    str
+        The text.
+    """
     if x is None or not math.isfinite(x):
         return "n/a"
     sign = "+" if signed else ""
@@ -57,14 +74,44 @@ format_metric = format_quantity
 
 def beyond_floor(name: str, x: float) -> bool:
     """Whether ``x`` is an attenuation beyond :data:`filters.metrics.ATTENUATION_FLOOR_DB`
-    (float64 rounding leaves such figures unresolved)."""
+    (float64 rounding leaves such figures unresolved).
+
+    Parameters
+    ----------
+    name : str
+        Metric name.
+    x : float
+        Its value.
+
+    Returns
+    -------
+    bool
+        True beyond the floor.
+    """
     return parse(name).kind == "attenuation" and math.isfinite(x) and x > ATTENUATION_FLOOR_DB
 
 
 def format_metric_value(name: str, x: float | None, mask: Sequence[Span] | None = None,
                         signed: bool = True) -> str:
     """Metric ``name``'s value ``x`` in the metric's own unit (a margin's is its span's:
-    pass the ``mask``); an attenuation beyond the floor of trust reads "> 200 dB"."""
+    pass the ``mask``); an attenuation beyond the floor of trust reads "> 200 dB".
+
+    Parameters
+    ----------
+    name : str
+        Metric name.
+    x : float or None
+        Its value in its unit.
+    mask : sequence of Span, optional
+        The spec mask (for margins).
+    signed : bool
+        Write a sign.
+
+    Returns
+    -------
+    str
+        The text.
+    """
     if x is not None and beyond_floor(name, x):
         return f"> {ATTENUATION_FLOOR_DB:g} dB"
     return format_quantity(x, metric_unit(name, mask), signed)
@@ -75,6 +122,18 @@ def format_pct(x: float, digits: int = 2) -> str:
 
     A fraction that is not exactly 0 or 1 never prints as "0.00 %" or "100.00 %": more
     decimals are added (up to 6) until it differs.
+
+    Parameters
+    ----------
+    x : float
+        A fraction.
+    digits : int
+        Decimals.
+
+    Returns
+    -------
+    str
+        The text.
     """
     if not math.isfinite(x):
         return "n/a"
@@ -86,32 +145,93 @@ def format_pct(x: float, digits: int = 2) -> str:
 
 
 def format_count(n: int) -> str:
-    """A count with thousands separators: 12000 -> "12,000"."""
+    """A count with thousands separators: 12000 -> "12,000".
+
+    Parameters
+    ----------
+    n : int
+        A count.
+
+    Returns
+    -------
+    str
+        The text.
+    """
     return f"{int(n):,}"
 
 
 def format_cost(x: float | None) -> str:
-    """A relative cost from the catalog, two decimals ("n/a" when unknown)."""
+    """A relative cost from the catalog, two decimals ("n/a" when unknown).
+
+    Parameters
+    ----------
+    x : float or None
+        A relative cost.
+
+    Returns
+    -------
+    str
+        The text.
+    """
     return "n/a" if x is None or not math.isfinite(x) else f"{x:.2f}"
 
 
 def format_sensitivity(value: float, unit: str) -> str:
     """A sensitivity with 3 significant figures and its unit ("ln/ln" is dimensionless);
-    HTML-escaped."""
+    HTML-escaped.
+
+    Parameters
+    ----------
+    value : float
+        The sensitivity.
+    unit : str
+        Its unit.
+
+    Returns
+    -------
+    str
+        HTML text.
+    """
     if not math.isfinite(value):
         return "n/a"
     return f"{value:+.3g}" if unit == "ln/ln" else f"{value:+.3g} {html.escape(unit)}"
 
 
 def summary_beyond_floor(s: MetricSummary) -> bool:
-    """Whether some board has an attenuation ``s`` beyond :data:`filters.metrics.ATTENUATION_FLOOR_DB`."""
+    """Whether some board has an attenuation ``s`` beyond :data:`filters.metrics.ATTENUATION_FLOOR_DB`.
+
+    Parameters
+    ----------
+    s : MetricSummary
+        A metric's summary.
+
+    Returns
+    -------
+    bool
+        True when some board is beyond the floor.
+    """
     return beyond_floor(s.name, s.maximum)
 
 
 def summary_cells(s: MetricSummary, label: str, mask) -> list[str]:
     """One row of the metric table (figures in the metric's unit; a margin's is its span's
     in ``mask``): label, nominal, mean, std, std/mean, 1st and 99th percentile, min, max.
-    Attenuations beyond the floor of trust read "> 200 dB"."""
+    Attenuations beyond the floor of trust read "> 200 dB".
+
+    Parameters
+    ----------
+    s : MetricSummary
+        A metric's summary.
+    label : str
+        The row's label.
+    mask : sequence of Span
+        The spec mask (for margins).
+
+    Returns
+    -------
+    list[str]
+        The row's cells.
+    """
     rel = f"{100 * s.rel_std:.2f} %" if is_log_metric(s.name) and math.isfinite(s.rel_std) else ""
 
     def fig(x: float, signed: bool = True) -> str:

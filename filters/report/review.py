@@ -31,7 +31,18 @@ __all__ = [
 
 
 def recommendation_section(ctx: Context) -> str:
-    """The recommended grades and the cost-yield curve (when given)."""
+    """The recommended grades and the cost-yield curve (when given).
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context (the result, recommendation, parts list, figures).
+
+    Returns
+    -------
+    str
+        HTML ("" when there is nothing to show).
+    """
     d, figures, recommendation = ctx.design, ctx.figures, ctx.recommendation
     curve, current = ctx.curve, ctx.current
     out: list[str] = []  # the section's HTML, one piece a line
@@ -58,7 +69,18 @@ def recommendation_section(ctx: Context) -> str:
 
 
 def parts_section(ctx: Context) -> str:
-    """The parts list (when given)."""
+    """The parts list (when given).
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context (the result, recommendation, parts list, figures).
+
+    Returns
+    -------
+    str
+        HTML ("" when there is nothing to show).
+    """
     parts_rows = ctx.parts_rows
     out: list[str] = []  # the section's HTML, one piece a line
     add = out.append
@@ -79,7 +101,22 @@ def current_grades(d, rec, current) -> tuple[list[str], float]:
     """The grade names per part the search started from, and their total relative cost:
     ``rec.current_grades``/``rec.current_cost`` when the recommendation carries them (the
     costs of the catalog searched, as the command line prints them), else the grades of
-    ``current`` (the design before the recommendation), else of ``d``."""
+    ``current`` (the design before the recommendation), else of ``d``.
+
+    Parameters
+    ----------
+    d : Design
+        The design reported.
+    rec : Recommendation
+        The recommendation.
+    current : Design or None
+        The design the search started from, when known.
+
+    Returns
+    -------
+    tuple[list[str], float]
+        Grade names (one per part) and their total relative cost.
+    """
     names = list(getattr(rec, "current_grades", ()) or ())
     cost = getattr(rec, "current_cost", float("nan"))
     base = current if current is not None else d
@@ -95,7 +132,22 @@ def recommendation_html(d, rec, current=None) -> str:
     """The recommendation's section body (``rec`` has the fields of
     :class:`filters.recommend.Recommendation`; ``search``, ``capped`` and ``note`` optional).
     ``d`` is the analysed design; ``current`` the design the search started from (default:
-    what ``rec`` records, else ``d``)."""
+    what ``rec`` records, else ``d``).
+
+    Parameters
+    ----------
+    d : Design
+        The design reported.
+    rec : Recommendation
+        The recommendation.
+    current : Design, optional
+        The design the search started from.
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     cat = d.catalog
     out: list[str] = []
     conf = f"{rec.confidence * 100:g} %"
@@ -148,7 +200,18 @@ def recommendation_html(d, rec, current=None) -> str:
 
 
 def cell(x: Any) -> str:
-    """A parts-list cell: numbers formatted, None empty, text escaped."""
+    """A parts-list cell: numbers formatted, None empty, text escaped.
+
+    Parameters
+    ----------
+    x : Any
+        A parts-list value.
+
+    Returns
+    -------
+    str
+        HTML text.
+    """
     if x is None:
         return ""
     if isinstance(x, bool):
@@ -163,7 +226,18 @@ def cell(x: Any) -> str:
 
 
 def assumptions(ctx: Context) -> list[str]:
-    """Every assumption behind the numbers, as HTML list items."""
+    """Every assumption behind the numbers, as HTML list items.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context (the result, recommendation, parts list, figures).
+
+    Returns
+    -------
+    list[str]
+        HTML ``<li>`` items.
+    """
     result, sp = ctx.result, ctx.curves
     d = result.design
     a = d.analysis
@@ -229,5 +303,16 @@ def assumptions(ctx: Context) -> list[str]:
 
 
 def assumptions_section(ctx: Context) -> str:
-    """Every assumption behind the numbers, as a list."""
+    """Every assumption behind the numbers, as a list.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context (the result, recommendation, parts list, figures).
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     return '<ul class="assumptions">' + "".join(f"<li>{item}</li>" for item in assumptions(ctx)) + "</ul>"

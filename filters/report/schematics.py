@@ -11,7 +11,18 @@ __all__ = ["schematics_section"]
 
 
 def schematics_section(ctx: Context) -> str:
-    """One figure per stage, in signal order; a circuit stage as labelled node rails."""
+    """One figure per stage, in signal order; a circuit stage as labelled node rails.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context.
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     out = ["<p>Each stage as the analysis sees it, drawn from its netlist: check it against the "
            "board's schematic. A circuit stage is drawn with every node as a labelled horizontal line "
            "(in at the top, ground at the bottom); a dot joins a part to a node line, a line that "

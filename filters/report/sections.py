@@ -34,7 +34,18 @@ __all__ = [
 
 
 def design_section(ctx: Context) -> str:
-    """Every part with its grade, every stage with its topology."""
+    """Every part with its grade, every stage with its topology.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context (the result, recommendation, parts list, figures).
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     d, grades = ctx.design, ctx.ensemble.grades
     out: list[str] = []  # the section's HTML, one piece a line
     add = out.append
@@ -58,7 +69,18 @@ def design_section(ctx: Context) -> str:
 
 
 def mask_section(ctx: Context) -> str:
-    """The spec mask: each span, its limit and the nominal margin."""
+    """The spec mask: each span, its limit and the nominal margin.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context (the result, recommendation, parts list, figures).
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     d, prep, ref_db = ctx.design, ctx.prepared, ctx.reference_db
     out: list[str] = []  # the section's HTML, one piece a line
     add = out.append
@@ -88,7 +110,18 @@ def mask_section(ctx: Context) -> str:
 
 
 def spread_section(ctx: Context) -> str:
-    """The spread figures of the kept curves, the metrics table and a histogram."""
+    """The spread figures of the kept curves, the metrics table and a histogram.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context (the result, recommendation, parts list, figures).
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     result, d, ens = ctx.result, ctx.design, ctx.ensemble
     prep, stage_names, figures = ctx.prepared, ctx.stage_names, ctx.figures
     ref_db = ctx.reference_db
@@ -128,7 +161,18 @@ def spread_section(ctx: Context) -> str:
 
 
 def yield_section(ctx: Context) -> str:
-    """The yield with its interval (and the batches of an adaptive run)."""
+    """The yield with its interval (and the batches of an adaptive run).
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context (the result, recommendation, parts list, figures).
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     result, d, ens = ctx.result, ctx.design, ctx.ensemble
     y, conf_pct = ctx.result.yield_, ctx.conf_pct
     out: list[str] = []  # the section's HTML, one piece a line
@@ -153,7 +197,18 @@ def yield_section(ctx: Context) -> str:
 
 
 def failures_section(ctx: Context) -> str:
-    """Which spans fail, how often, and the margin of the worst one."""
+    """Which spans fail, how often, and the margin of the worst one.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context (the result, recommendation, parts list, figures).
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     result, d, ens = ctx.result, ctx.design, ctx.ensemble
     prep, stage_names, figures = ctx.prepared, ctx.stage_names, ctx.figures
     out: list[str] = []  # the section's HTML, one piece a line
@@ -184,7 +239,18 @@ def failures_section(ctx: Context) -> str:
 
 
 def budget_section(ctx: Context) -> str:
-    """The spread budget of each metric: shares of variance by part, with bar charts."""
+    """The spread budget of each metric: shares of variance by part, with bar charts.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context (the result, recommendation, parts list, figures).
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     result, d, stage_names = ctx.result, ctx.design, ctx.stage_names
     figures = ctx.figures
     out: list[str] = []  # the section's HTML, one piece a line
@@ -225,7 +291,18 @@ def budget_section(ctx: Context) -> str:
 
 
 def corners_section(ctx: Context) -> str:
-    """Corner extremes and root-sum-square estimates; the worst margins over the corners."""
+    """Corner extremes and root-sum-square estimates; the worst margins over the corners.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context (the result, recommendation, parts list, figures).
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     result, d, stage_names = ctx.result, ctx.design, ctx.stage_names
     out: list[str] = []  # the section's HTML, one piece a line
     add = out.append
@@ -268,7 +345,22 @@ def corners_section(ctx: Context) -> str:
 def passband_zoom(design_mask: Sequence[Span], f_start: float, f_stop: float
                    ) -> tuple[tuple[float, float], tuple[float, float]] | None:
     """(dB range relative to the reference, Hz range) of the passband spans: relative gain
-    spans whose limits lie within 6 dB of the reference. None if there are none."""
+    spans whose limits lie within 6 dB of the reference. None if there are none.
+
+    Parameters
+    ----------
+    design_mask : sequence of Span
+        The spec mask.
+    f_start : float
+        Start of the analysed range, Hz.
+    f_stop : float
+        End of the analysed range, Hz.
+
+    Returns
+    -------
+    tuple[tuple[float, float], tuple[float, float]] or None
+        ((low, high) in dB, (low, high) in Hz), or None.
+    """
     near = [s for s in design_mask if s.quantity == "gain" and s.relative
             and abs(s.limit1) <= 6 and abs(s.end_limit) <= 6]
     if not near:
@@ -282,7 +374,20 @@ def passband_zoom(design_mask: Sequence[Span], f_start: float, f_stop: float
 
 
 def metrics_table(result: AnalysisResult, stage_names: list[str]) -> str:
-    """The metrics over all boards (the terminal's rows: :func:`filters.report.numbers.summary_cells`)."""
+    """The metrics over all boards (the terminal's rows: :func:`filters.report.numbers.summary_cells`).
+
+    Parameters
+    ----------
+    result : AnalysisResult
+        The analysis result.
+    stage_names : list of str
+        Stage names in design order.
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     order = [n for n in ("cutoff_hz", "centre_hz", "bandwidth_hz", "lower_hz", "upper_hz", "reference_db",
                          "peaking_db") if n in result.summaries]
     order += [n for n in result.summaries if n not in order and not is_pair_metric(n)]

@@ -19,13 +19,35 @@ __all__ = [
 
 
 def has_temperature(ctx: Context) -> bool:
-    """Whether the design asks for an operating range or a service life."""
+    """Whether the design asks for an operating range or a service life.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context.
+
+    Returns
+    -------
+    bool
+        True when the design asks for either.
+    """
     return ctx.result.temperature is not None or ctx.result.life is not None
 
 
 def temperature_section(ctx: Context) -> str:
     """Yield per judged temperature and overall, failures by span and temperature, stage
-    f0/Q over temperature, and the yield at delivery beside the yield after the service life."""
+    f0/Q over temperature, and the yield at delivery beside the yield after the service life.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context.
+
+    Returns
+    -------
+    str
+        HTML.
+    """
     out: list[str] = []
     over = ctx.result.temperature
     if over is not None:

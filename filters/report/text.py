@@ -35,7 +35,18 @@ def _write(out: TextIO, lines: list[str]) -> None:
 
 def metric_order(result: AnalysisResult) -> list[str]:
     """The metrics the summary lists, in order: cutoff or band (centre, edges, width),
-    gains, attenuations, then each stage's f0 and Q."""
+    gains, attenuations, then each stage's f0 and Q.
+
+    Parameters
+    ----------
+    result : AnalysisResult
+        The analysis result.
+
+    Returns
+    -------
+    list[str]
+        Metric names.
+    """
     order = [n for n in ("cutoff_hz", "centre_hz", "lower_hz", "upper_hz", "bandwidth_hz", "reference_db",
                          "peaking_db") if n in result.summaries]
     kinds = {n: metric_names.parse(n).kind for n in result.summaries}
@@ -59,7 +70,17 @@ def rare_lines(result: AnalysisResult) -> list[str]:
 
 
 def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
-    """The readable summary ``tolspread analyze`` prints."""
+    """The readable summary ``tolspread analyze`` prints.
+
+    Parameters
+    ----------
+    result : AnalysisResult
+        The analysis result.
+    out : TextIO
+        Where to write.
+    top : int
+        Parts listed per spread budget.
+    """
     d = result.design
     ens = result.ensemble
     names = [s.name for s in d.stages]
@@ -176,7 +197,18 @@ def _clean(obj: Any) -> Any:
 
 
 def to_json(result: AnalysisResult) -> dict[str, Any]:
-    """The JSON document of ``tolspread analyze --json``."""
+    """The JSON document of ``tolspread analyze --json``.
+
+    Parameters
+    ----------
+    result : AnalysisResult
+        The analysis result.
+
+    Returns
+    -------
+    dict[str, Any]
+        JSON-ready data (yields as fractions, frequencies in Hz).
+    """
     d = result.design
 
     def with_unit(name: str, fields: dict[str, Any]) -> dict[str, Any]:

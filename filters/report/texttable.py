@@ -15,7 +15,26 @@ def table(headers: Sequence[str], rows: Sequence[Sequence[str]], align: str, ind
     """Lines of a plain-text table (without newlines), every column as wide as its widest
     cell, so long stage or span names never push the figures out of line. ``align`` holds
     one character per column: ``<`` left (names), ``>`` right (numbers). Trailing spaces
-    are stripped."""
+    are stripped.
+
+    Parameters
+    ----------
+    headers : sequence of str
+        Column titles.
+    rows : sequence of sequence of str
+        Cells.
+    align : str
+        One character per column, ``<`` left or ``>`` right.
+    indent : str
+        Text before every line.
+    gap : str
+        Text between columns.
+
+    Returns
+    -------
+    list[str]
+        The lines.
+    """
     if len(align) != len(headers):
         raise ValueError("one alignment character per column")
     widths = [max([len(h)] + [len(r[i]) for r in rows]) for i, h in enumerate(headers)]

@@ -24,7 +24,20 @@ __all__ = [
 
 
 def describe_distribution(g: Grade, short: bool = False) -> str:
-    """How a grade's values are distributed, in words (``short``: for a table cell)."""
+    """How a grade's values are distributed, in words (``short``: for a table cell).
+
+    Parameters
+    ----------
+    g : Grade
+        A grade.
+    short : bool
+        Short form, for a table cell.
+
+    Returns
+    -------
+    str
+        The words.
+    """
     tol = g.tolerance_pct
     if tol == 0:
         return "none (exact)" if short else "no spread (exact value)"
@@ -43,7 +56,18 @@ def describe_distribution(g: Grade, short: bool = False) -> str:
 
 
 def tempco_text(g: Grade) -> str:
-    """A grade's temperature coefficient in words (ppm/K, with its spread)."""
+    """A grade's temperature coefficient in words (ppm/K, with its spread).
+
+    Parameters
+    ----------
+    g : Grade
+        A grade.
+
+    Returns
+    -------
+    str
+        The words.
+    """
     if not g.tempco_ppm and not g.tempco_spread_ppm:
         return "0"
     if not g.tempco_ppm:
@@ -52,7 +76,18 @@ def tempco_text(g: Grade) -> str:
 
 
 def drift_text(g: Grade) -> str:
-    """A grade's drift in words."""
+    """A grade's drift in words.
+
+    Parameters
+    ----------
+    g : Grade
+        A grade.
+
+    Returns
+    -------
+    str
+        The words.
+    """
     return f"\u00b1{g.drift_pct:g} %" if g.drift_pct else "none"
 
 
@@ -66,7 +101,22 @@ def opamp_text(d, stage, topo) -> str:
     """The stage's op-amps in words. An op-amp that a part of the design models is named by
     that part's reference; the op-amp of a library topology that no part models is ideal and
     has no designator of its own (its topology role, such as "U1", is not a part: naming it
-    would point at another stage's op-amp); a circuit stage's op-amps keep their own names."""
+    would point at another stage's op-amp); a circuit stage's op-amps keep their own names.
+
+    Parameters
+    ----------
+    d : Design
+        The design.
+    stage : Stage
+        The stage.
+    topo : Topology
+        Its built topology.
+
+    Returns
+    -------
+    str
+        The words.
+    """
     amps = [o.role for o in topo.netlist.opamps]
     if not amps:
         return "passive"
@@ -95,7 +145,18 @@ MATCH_NOTE = ("match spans have no corners (a corner board is one channel standi
 
 
 def span_words(s: Span) -> str:
-    """One span of the mask in words, from its own limits (gain, phase or delay)."""
+    """One span of the mask in words, from its own limits (gain, phase or delay).
+
+    Parameters
+    ----------
+    s : Span
+        A span.
+
+    Returns
+    -------
+    str
+        The words.
+    """
     where = f"from {format_quantity(s.f1, 'Hz')} to {format_quantity(s.f2, 'Hz')}"
     if s.kind == "match":  # boards of several channels (filters/channels.py)
         lim = format_quantity(s.limit1, 's', digits=4) if s.quantity == "delay" else f"{s.limit1:g} {SPAN_UNIT[s.quantity]}"
@@ -118,7 +179,20 @@ def describe_design(d, grades: Sequence[Grade]) -> list[str]:
     """Sentences (plain text) that describe the design from its own data: the stages, the
     parts grouped by grade (``grades``: the grade in use per part, design order) and every
     span of the mask. Nothing here is a fixed claim: change a grade or a limit and the
-    sentence changes with it."""
+    sentence changes with it.
+
+    Parameters
+    ----------
+    d : Design
+        The design.
+    grades : sequence of Grade
+        (P,) the grade in use per part.
+
+    Returns
+    -------
+    list[str]
+        Sentences.
+    """
     out: list[str] = []
     stages = []
     for k, s in enumerate(d.stages, start=1):
