@@ -358,14 +358,17 @@ def slider_latency(samples: int = 5000, drags: int = 6, moves: int = 30,
 
     session.view_ready.connect(painted)
     slider = window.parts.rows["C2"].slider
-    opt = QStyleOptionSlider()
-    slider.initStyleOption(opt)
-    handle = slider.style().subControlRect(QStyle.ComplexControl.CC_Slider, opt,
-                                           QStyle.SubControl.SC_SliderHandle, slider).center()
+
+    def handle() -> QPoint:
+        opt = QStyleOptionSlider()
+        slider.initStyleOption(opt)
+        return slider.style().subControlRect(QStyle.ComplexControl.CC_Slider, opt,
+                                             QStyle.SubControl.SC_SliderHandle, slider).center()
+
     drag, release, rates = [], [], []
     for k in range(drags):
-        step = 2 if k % 2 == 0 else -2
-        pos = QPoint(handle)
+        step = 1 if k % 2 == 0 else -1  # back and forth: the handle stays inside the groove
+        pos = handle()
         QTest.mousePress(slider, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, pos)
         frames.clear()
         t_start = time.perf_counter()
@@ -381,9 +384,10 @@ def slider_latency(samples: int = 5000, drags: int = 6, moves: int = 30,
         t0 = time.perf_counter()
         QTest.mouseRelease(slider, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, pos)
         while not any(not preview for _t, _a, preview in frames):
+            if time.perf_counter() - t0 > 60:
+                raise RuntimeError("no result after the slider's release")
             QTest.qWait(1)
         release.append(next(t for t, _a, preview in frames if not preview) - t0)
-        handle = pos
         QTest.qWait(50)
     session.undo_stack.setClean()
     window.close()
