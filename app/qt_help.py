@@ -34,6 +34,16 @@ evaluates on its own after every change; nothing needs to be started.</p>
 from the catalog, and a tolerance slider: dragging it redraws the spread live on the first
 1,000 boards ("preview"); letting go evaluates every board and makes one undoable edit.
 Number of boards, seed, sampling (random or Sobol) and New boards sit above the parts.</p>
+<h3>Circuit (above the parts)</h3>
+<p>The schematic of the stage chosen in its box, drawn from the netlist the analysis uses:
+each part with its reference, value and grade; a circuit stage as labelled node lines, each
+part between its two nodes (a line crossing another without a dot is not connected). Click a
+part to select it in the parts panel and see its share in the spread budget.</p>
+<h3>Stages (a tab beside the parts)</h3>
+<p>Add, remove and reorder stages; change a stage's name, topology, options and whether the
+next stage loads it. A circuit stage has tables of elements (ref, node, node) and op-amps
+(ref, +, −, output): double-click a cell and type. A refused edit is marked red with its
+reason and the design keeps its last good state; every change can be undone.</p>
 <h3>Spread plots (middle)</h3>
 <p>Gain and phase or group delay (View menu) over log frequency: the nominal response
 (black), the central 98 % of boards (dark blue), every board (light blue), a few sample
