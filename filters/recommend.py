@@ -189,8 +189,11 @@ def candidate_grades(design: Design, catalog: Catalog | None = None) -> list[lis
     lists = []
     own = design.part_grades()
     signal = signal_path_capacitors(design) if design.purchase.signal_path_forbid else set()
+    members = {m for net in design.networks for m in net.members}  # filters/networks.py
     for i, p in enumerate(design.parts):
-        if p.locked or p.measured is not None:  # constraints (filters/constraints.py): the grade stays
+        # constraints (filters/constraints.py) keep the grade; so does a network member, whose
+        # spread is its network's (another grade would name a different part, not a cheaper one)
+        if p.locked or p.measured is not None or p.ref in members:
             lists.append([own[i]])
             continue
         gs = [g for g in cat.for_kind(p.kind) if g.tolerance_pct > 0]

@@ -180,3 +180,14 @@ def test_network_survives_save_and_load():
     design = design_from_dict(sallen_key(NET))
     again = design_from_dict(json.loads(json.dumps(design_to_dict(design))))
     assert again.networks == design.networks
+
+
+def test_recommend_keeps_a_network_members_grade():
+    from tolspread.recommend import candidate_grades
+
+    design = design_from_dict(sallen_key({**NET, "members": ["RF", "RG"]}))
+    cands = candidate_grades(design)
+    # a member's value spread is the network's: another grade would name a different part
+    # (separate resistors), so it is no candidate (the grade stays, as a locked part's does)
+    assert [g.name for g in cands[2]] == ["R-normal-1"] and [g.name for g in cands[3]] == ["R-normal-1"]
+    assert len(cands[0]) > 1  # R1 is a part of its own and may change grade
