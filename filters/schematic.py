@@ -157,13 +157,16 @@ class _Sheet:
              colour: str = "black") -> None:
         self.d.add(self.elm.Label().at(p).label(text, halign=halign, valign=valign, color=colour))
 
-    def opamp(self, role: str, anchor: str, at: Point, plus_on_top: bool) -> Any:
-        """An op-amp triangle with its ``anchor`` pin (``in1``: the upper input, ``in2``: the
-        lower, ``out``) at ``at``; returns the element (its ``in1``, ``in2``, ``out`` points)."""
+    def opamp(self, role: str, anchor: str, at: Point, plus_on_top: bool, label_at: Point,
+              valign: str = "bottom") -> Any:
+        """An op-amp triangle with its ``anchor`` pin (``in1``: the - input, ``in2``: the +
+        input, ``out``) at ``at``, '+' on top if ``plus_on_top``; its label (reference,
+        gain-bandwidth or "ideal", grade) left-aligned at ``label_at`` beside the triangle
+        (a grade's name does not fit inside). Returns the element (``in1``, ``in2``, ``out``)."""
         colour = self._colour(role)
         e = self.elm.Opamp(flip=plus_on_top, anchor=anchor, color=colour).right().at(at)
-        e.label(self._text(role), loc="center", ofst=(-0.1, 0), color=colour)
         self.d.add(e)
+        self.text(label_at, self._text(role), halign="left", valign=valign, colour=colour)
         if role in self.refs:
             self.parts.append((e, self.refs[role], role))
         return e
@@ -325,7 +328,7 @@ def _sallen_key(s: _Sheet, net: Netlist) -> bool:
     s.ground((2 * LEN, -LEN))
     x_in = 2 * LEN + 2.6
     s.wire((2 * LEN, 0.0), (x_in, 0.0))
-    u = s.opamp(amp.role, "in2", (x_in, 0.0), plus_on_top=True)
+    u = s.opamp(amp.role, "in2", (x_in, 0.0), plus_on_top=True, label_at=(x_in, 0.85))
     out = (u.out[0] + 0.8, u.out[1])
     s.wire(u.out, out)
     s.dot(out)
@@ -355,7 +358,7 @@ def _multiple_feedback(s: _Sheet, net: Netlist) -> bool:
     s.dot((2 * LEN, 0.0))
     x_in = 2 * LEN + 1.6
     s.wire((2 * LEN, 0.0), (x_in, 0.0))
-    u = s.opamp(amp.role, "in1", (x_in, 0.0), plus_on_top=False)
+    u = s.opamp(amp.role, "in1", (x_in, 0.0), plus_on_top=False, label_at=(x_in, 0.85))
     s.wire(u.in2, (u.in2[0] - 0.5, u.in2[1]), (u.in2[0] - 0.5, u.in2[1] - 0.9))
     s.ground((u.in2[0] - 0.5, u.in2[1] - 0.9))
     out = (u.out[0] + 0.8, u.out[1])
@@ -448,7 +451,9 @@ def _rail_opamp(s: _Sheet, o: OpAmp, y: Mapping[str, float], x: float, joins: li
     yc = -(gap + 0.5) * RAIL_GAP
     x_in = x + 1.4
     # '+' is schemdraw's 'in2', '-' its 'in1'; flipping puts '+' on top; inputs 1.25 apart
-    u = s.opamp(o.role, "in1", (x_in, yc + (-0.625 if plus_on_top else 0.625)), plus_on_top)
+    label_x = x_in + 2.165 + 0.8  # right of the output wire, under the output
+    u = s.opamp(o.role, "in1", (x_in, yc + (-0.625 if plus_on_top else 0.625)), plus_on_top,
+                label_at=(label_x, yc - 0.1), valign="top")
     pin_plus, pin_minus = u.in2, u.in1
     for pin, rail, dx, node in ((pin_plus, yp, 0.5, o.plus), (pin_minus, ym, 1.0, o.minus)):
         s.wire(pin, (pin[0] - dx, pin[1]), (pin[0] - dx, rail))
@@ -458,7 +463,7 @@ def _rail_opamp(s: _Sheet, o: OpAmp, y: Mapping[str, float], x: float, joins: li
     s.wire(u.out, (xo, u.out[1]), (xo, yo))
     joins.append((xo, yo))
     s.text((xo + 0.1, u.out[1] + 0.25), o.out, halign="left", valign="bottom")
-    return xo + 1.6
+    return xo + 3.0  # room for the label
 
 
 _LAYOUTS = {"rc_": _ladder, "lc_": _ladder, "sallen_key": _sallen_key, "mfb_": _multiple_feedback}
@@ -654,8 +659,31 @@ def write_library_drawings(folder: str) -> list[str]:
     return out
 
 
+REPORT_WIDTH = 760  # the report's figures are this wide (px); a narrower drawing is centred in it
+
+
+def _widened(svg: str, width: float) -> str:
+    """``svg`` centred in a picture ``width`` wide (unchanged if it is wider): the report
+    scales every figure to the page's width, so each drawing keeps the charts' scale."""
+    import xml.etree.ElementTree as ET
+
+    root = ET.fromstring(svg)
+    w, h = float(root.get("width")), float(root.get("height"))
+    if w >= width:
+        return svg
+    group = ET.Element(f"{{{SVG_NS}}}g", {"transform": f"translate({(width - w) / 2:.2f},0)"})
+    for child in list(root):
+        root.remove(child)
+        group.append(child)
+    root.append(group)
+    root.set("width", str(round(width)))
+    root.set("viewBox", f"0 0 {width:.2f} {h:.2f}")
+    return ET.tostring(root, encoding="unicode")
+
+
 def schematic_figures(design: Any) -> list[tuple[str, str, str]]:
-    """The report's schematics: ``(figure name, SVG text, caption)`` for each stage.
+    """The report's schematics: ``(figure name, SVG text, caption)`` for each stage, each at
+    least :data:`REPORT_WIDTH` wide (the charts' scale).
 
     Parameters
     ----------
@@ -669,7 +697,7 @@ def schematic_figures(design: Any) -> list[tuple[str, str, str]]:
     """
     figures = []
     for i, sch in enumerate(design_schematics(design)):
-        figures.append((f"schematic-{i + 1}", sch.svg,
+        figures.append((f"schematic-{i + 1}", _widened(sch.svg, REPORT_WIDTH),
                         f"{sch.title}: each part with its reference designator (and the topology's "
                         "role for it where they differ), marked value and grade."))
     return figures
