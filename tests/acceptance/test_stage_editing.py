@@ -229,6 +229,17 @@ def test_circuit_opamp_part_response_and_loading(window, qtbot):
     QTest.keyClick(ed.opamps.viewport(), Qt.Key.Key_Space)
     qtbot.waitUntil(lambda: amp not in parts(), timeout=5000)
 
+    # remove an element: select its row with the mouse, press Remove element; its part goes too
+    click(qtbot, ed.add_element)
+    qtbot.waitUntil(lambda: len(stage0(window)["elements"]) == 5, timeout=5000)
+    extra = stage0(window)["elements"][4]["ref"]
+    assert extra in parts()
+    QTest.mouseClick(ed.elements.viewport(), Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier,
+                     ed.elements.visualItemRect(ed.elements.item(4, 0)).center())
+    click(qtbot, ed.remove_element)
+    qtbot.waitUntil(lambda: len(stage0(window)["elements"]) == 4, timeout=5000)
+    assert extra not in parts() and extra not in window.parts.rows
+
     choose(qtbot, ed.response, "lowpass")
     qtbot.waitUntil(lambda: stage0(window).get("response") == "lowpass", timeout=5000)
 
