@@ -66,6 +66,12 @@ class CompiledStage:
         return 1 <= self.tf.den_degree <= 2 and len(self.tf.num_powers) == 1
 
     @property
+    def solo_phase(self) -> bool:
+        """True for a stage of degree 3 or 4 with a monomial numerator (an all-pole circuit
+        or ladder): evaluated like a lean group of its own, its phase unwrapped."""
+        return 3 <= self.tf.den_degree <= 4 and len(self.tf.num_powers) == 1
+
+    @property
     def num_power(self) -> int:
         """k of a monomial numerator c*s^k."""
         return max(self.tf.num_powers)
@@ -328,7 +334,8 @@ class _LeanGroup:
     """One or two lean stages (see :func:`frequency_response`) as H = C (s/w_g)^K / P(s/w_g).
 
     ``den``: P(jx) / (|C| x^K); ``dden``: the same for P' (for the group delay) or None;
-    ``offset`` (S,): the group's constant phase in rad; ``zero`` (S,): rows where C = 0.
+    ``offset`` (S,): the group's constant phase in rad; ``zero`` (S,): rows where C = 0;
+    ``unwrap``: the phase of P needs unwrapping (one stage of degree 3 or 4).
     """
 
     den: _JwPoly
@@ -336,6 +343,7 @@ class _LeanGroup:
     w_g: float
     offset: np.ndarray
     zero: np.ndarray
+    unwrap: bool = False
 
 
 def _lean_groups(circuit: Circuit, coeffs: list[StageCoefficients], w: np.ndarray,
@@ -349,9 +357,9 @@ def _lean_groups(circuit: Circuit, coeffs: list[StageCoefficients], w: np.ndarra
     The pair's frequency scale w_g is the geometric mean of its stages' (rad/s).
     """
     lean = [i for i, st in enumerate(circuit.stages) if st.simple_phase]
+    solo = [[i] for i, st in enumerate(circuit.stages) if st.solo_phase]
     groups = []
-    for g in range(0, len(lean), 2):
-        members = lean[g:g + 2]
+    for members in [lean[g:g + 2] for g in range(0, len(lean), 2)] + solo:
         w_g = math.exp(sum(math.log(coeffs[i].w_ref) for i in members) / len(members))
         p: np.ndarray | None = None
         k_total = 0
@@ -381,7 +389,8 @@ def _lean_groups(circuit: Circuit, coeffs: list[StageCoefficients], w: np.ndarra
         if delay:
             dden = _JwPoly.build(pt[:, 1:] * np.arange(1, pt.shape[1]), x, k_total, negate)
         offset = k_total * (math.pi / 2) + math.pi * (const < 0) - (math.pi if pair else 0.0)
-        groups.append(_LeanGroup(_JwPoly.build(pt, x, k_total, negate), dden, w_g, offset, zero))
+        groups.append(_LeanGroup(_JwPoly.build(pt, x, k_total, negate), dden, w_g, offset, zero,
+                                 circuit.stages[members[0]].solo_phase))
     return groups
 
 
@@ -400,7 +409,7 @@ def _general_stages(circuit: Circuit, coeffs: list[StageCoefficients], w: np.nda
                     delay: bool) -> list[_GeneralStage]:
     out = []
     for st, sc in zip(circuit.stages, coeffs):
-        if st.simple_phase:
+        if st.simple_phase or st.solo_phase:
             continue
         x = w / sc.w_ref
         monomial = np.count_nonzero(np.any(sc.num != 0, axis=0)) <= 1
@@ -569,10 +578,12 @@ def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: 
         if ph is not None:
             if not phase_started:
                 np.arctan2(im, re, out=ph)
+                if grp.unwrap:
+                    _unwrap(ph)
                 phase_started = True
             else:
                 np.arctan2(im, re, out=tmp)
-                ph += tmp
+                ph += _unwrap(tmp) if grp.unwrap else tmp
         target = acc if not lean else bufs[3]
         np.multiply(re, re, out=target)
         np.multiply(im, im, out=tmp)

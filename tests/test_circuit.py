@@ -382,3 +382,40 @@ def test_a_circuit_too_large_to_evaluate_is_refused_in_about_a_second():
         els.append(Element("C", f"C{len(els)}", str(a), str(b)))
     with pytest.raises(InputError, match=f"more than {MAX_TERMS:,} terms"):
         derive_circuit_uncached(Netlist(tuple(els)), seconds=60)
+
+
+@pytest.mark.parametrize("kind", ["lowpass", "highpass"])
+def test_a_fourth_order_circuit_stage_has_the_library_cascades_continuous_phase(kind):
+    # two unity-gain Sallen-Key sections as one circuit stage (one 4th-order network, its
+    # phase unwrapped) and as the library's two stages (a pair, one arctan2): the same
+    # gain and the same phase in degrees, not only modulo 360
+    lp = kind == "lowpass"
+    r, c = ("R", "C") if lp else ("C", "R")
+    parts = [(f"{r}1", r, 10e3 if lp else 10e-9), (f"{r}2", r, 10e3 if lp else 10e-9),
+             (f"{c}1", c, 22e-9 if lp else 22e3), (f"{c}2", c, 10e-9 if lp else 10e3),
+             (f"{r}3", r, 10e3 if lp else 10e-9), (f"{r}4", r, 10e3 if lp else 10e-9),
+             (f"{c}3", c, 100e-9 if lp else 4.7e3), (f"{c}4", c, 4.7e-9 if lp else 100e3)]
+    # Sallen-Key (library layout, REFERENCES.md section 6): first pair in series from the
+    # input, the third part from their junction to the output, the fourth to ground
+    one = [(f"{r}1", "in", "a1"), (f"{r}2", "a1", "b1"), (f"{c}1", "a1", "m"), (f"{c}2", "b1", "0"),
+           (f"{r}3", "m", "a2"), (f"{r}4", "a2", "b2"), (f"{c}3", "a2", "out"), (f"{c}4", "b2", "0")]
+    circuit_stage = {"topology": "circuit", "elements": [{"ref": x, "between": [a, b]} for x, a, b in one],
+                     "opamps": [{"ref": "X1", "plus": "b1", "minus": "m", "output": "m"},
+                                {"ref": "X2", "plus": "b2", "minus": "out", "output": "out"}]}
+    roles = ["R1", "R2", "C1", "C2"] if lp else ["C1", "C2", "R1", "R2"]
+    library = [{"topology": f"sallen_key_{kind}", "parts": dict(zip(roles, [p[0] for p in parts[:4]]))},
+               {"topology": f"sallen_key_{kind}", "parts": dict(zip(roles, [p[0] for p in parts[4:]]))}]
+    d_one, d_lib = loads(design_file(parts, [circuit_stage])), loads(design_file(parts, library))
+    assert compile_design(d_one).stages[0].tf.den_degree == 4 and compile_design(d_one).kind == kind
+    f = np.geomspace(10, 1e6, 300)
+    rows = scattered(d_one, 4, np.random.default_rng(8), 0.2)
+    got = [frequency_response(compile_design(d), stage_coefficients(compile_design(d), rows), f)
+           for d in (d_one, d_lib)]
+    assert np.max(np.abs(got[0].gain_db - got[1].gain_db)) < 1e-8
+    assert np.max(np.abs(got[0].phase_deg - got[1].phase_deg)) < 1e-7
+    # and the phase is H's own (the independent solver's, modulo 360)
+    h = mna_response([(p[1], p[0], a, b) for p, (_x, a, b) in zip(sorted(parts), sorted(one))],
+                     [("b1", "m", "m", None), ("b2", "out", "out", None)],
+                     dict(zip((p.ref for p in d_one.parts), rows[0])), f)
+    wrapped = (got[0].phase_deg[0] - np.degrees(np.angle(h)) + 180) % 360 - 180
+    assert np.max(np.abs(wrapped)) < 1e-7
