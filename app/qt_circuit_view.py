@@ -8,7 +8,7 @@ spread budget. The selected part is drawn in the highlight colour.
 """
 from __future__ import annotations
 
-from PySide6.QtCore import QByteArray, QPointF, QRectF, QSize, Qt, Signal
+from PySide6.QtCore import QByteArray, QPointF, QRectF, QSize, Qt, QTimer, Signal
 from PySide6.QtGui import QPainter
 from PySide6.QtSvg import QSvgRenderer
 from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QScrollArea, QSizePolicy, QVBoxLayout, QWidget
@@ -182,6 +182,14 @@ class CircuitView(QWidget):
         self._shown_key = key
         self.title.setText(sch.title)
         self.canvas.set_schematic(sch)
+        if self.selected in sch.refs():  # a large circuit scrolls to the chosen part
+            QTimer.singleShot(0, self._scroll_to_selected)
+
+    def _scroll_to_selected(self) -> None:
+        sch = self.canvas.schematic
+        if sch is not None and self.selected in sch.refs():
+            p = self.canvas.part_centre(self.selected)
+            self.scroll.ensureVisible(int(p.x()), int(p.y()), 80, 60)
 
     def _on_part_clicked(self, ref: str) -> None:
         self.select_part(ref)
