@@ -18,7 +18,8 @@ channels as extra board rows, channel-major: rows ``[c S, (c + 1) S)`` are chann
 Scores (common random numbers): channel 0 uses the board's own part scores, so channel 0
 of a multi-channel board is the board a single-channel design would draw; channel c > 0
 draws its own value, temperature-coefficient and drift scores from a stream of its own
-(:func:`filters.networks.stream_seed`), and keeps channel 0's lot and board-temperature
+(:func:`filters.networks.stream_seed`; pseudo-random even with Sobol sampling, as two
+scrambled Sobol sequences are not independent), and keeps channel 0's lot and board-temperature
 scores (one board, one reel, one temperature).
 """
 from __future__ import annotations
@@ -165,8 +166,9 @@ def channel_scores(scores: np.ndarray, n_parts: int, seed: int, method: str, sta
     if channel == 0:
         return scores
     p = n_parts
-    own = draw_scores(stream_seed(seed, _CHANNEL_STREAM, channel), p, start, start + scores.shape[0],
-                      method)  # type: ignore[arg-type]
+    # pseudo-random whatever ``method``: a second scrambled Sobol sequence would pair its points
+    # with channel 1's (the same points, scrambled) and correlate the channels
+    own = draw_scores(stream_seed(seed, _CHANNEL_STREAM, channel), p, start, start + scores.shape[0], "random")
     out = np.array(scores, copy=True)
     for lo, hi in ((0, p), (2 * p, 4 * p)):
         out[:, lo:hi] = own[:, lo:hi]

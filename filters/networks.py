@@ -326,6 +326,11 @@ def shared_scores(seed: int, n_networks: int, start: int, stop: int, method: str
     From its own stream (:func:`stream_seed`), in the same blocks as the part scores, so
     boards [start, stop) are the same drawn at once or in chunks.
 
+    Always pseudo-random (PCG64), whatever ``method``: a second scrambled Sobol sequence is
+    not independent of the board's own (both scramble the same points, so the i-th points
+    of the two agree in their leading bits up to a shift), which would correlate the shared
+    errors with the parts' own scores.
+
     Parameters
     ----------
     seed : int
@@ -337,7 +342,7 @@ def shared_scores(seed: int, n_networks: int, start: int, stop: int, method: str
     stop : int
         One past the last board index.
     method : str
-        ``"random"`` or ``"sobol"``.
+        ``"random"`` or ``"sobol"`` (the board's method; these scores are pseudo-random either way).
     channel : int
         Channel number (0: the first).
 
@@ -349,7 +354,7 @@ def shared_scores(seed: int, n_networks: int, start: int, stop: int, method: str
     if n_networks == 0:
         return np.empty((stop - start, 0))
     s = stream_seed(seed, _NETWORK_STREAM, channel)
-    return draw_scores(s, n_networks, start, stop, method)[:, :2 * n_networks]  # type: ignore[arg-type]
+    return draw_scores(s, n_networks, start, stop, "random")[:, :2 * n_networks]
 
 
 def _member_index(design: "Design") -> list[tuple[int, np.ndarray]]:

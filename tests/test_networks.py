@@ -57,9 +57,10 @@ NET = {"name": "RN1", "members": ["R1", "R2", "RF", "RG"], "tolerance_pct": 1.0,
        "tracking_ppm": 5}
 
 
-def test_member_and_ratio_spread_match_the_stated_tolerances():
+@pytest.mark.parametrize("method", ["random", "sobol"])
+def test_member_and_ratio_spread_match_the_stated_tolerances(method):
     design = design_from_dict(sallen_key(NET))
-    ens = evaluate(design, samples=40_000, seed=4, curves=False, metrics=False)
+    ens = evaluate(design, samples=40_000, seed=4, curves=False, metrics=False, method=method)
     rel = ens.values[:, :4] / np.array([10e3, 10e3, 5.9e3, 10e3]) - 1
     # one member: standard deviation = tolerance / k = 1 % / 2 [GUM]; numpy sample std of 40,000
     # boards has a relative standard error of about 1 / sqrt(2 n) = 0.35 %
