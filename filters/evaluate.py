@@ -32,7 +32,7 @@ from .grades import Grade
 from .judge import SpanPlan, margins, needs, plan
 from .mask import edge_frequencies
 from .metric_names import attenuation_name
-from .metrics import attenuation_db, cutoff_metrics, stage_metrics
+from .metrics import GridScan, attenuation_db, cutoff_metrics, lowpass_level_db, scan_block, stage_metrics
 from .channel_match import evaluate_channels, sample_values
 from .sampling import Conditions, draw_scores
 from .workers import POOL, WORKERS
@@ -233,8 +233,8 @@ def _check_finite(m: dict[str, np.ndarray], marg: np.ndarray) -> None:
 
 
 def _metrics_for(circuit: Circuit, coeffs, resp: Response, cutoff_db: float,
-                 attenuation_hz: Sequence[float] = ()) -> dict[str, np.ndarray]:
-    m = cutoff_metrics(circuit, coeffs, resp, cutoff_db)
+                 attenuation_hz: Sequence[float] = (), scan: GridScan | None = None) -> dict[str, np.ndarray]:
+    m = cutoff_metrics(circuit, coeffs, resp, cutoff_db, scan)
     m.update(stage_metrics(circuit, coeffs))
     if attenuation_hz:
         ref2 = 10 ** (m["reference_db"] / 10)
@@ -290,16 +290,24 @@ def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
     # such numbers become inf or 0 and are reported as missing, never as warnings mid-run.
     with np.errstate(divide="ignore", over="ignore", invalid="ignore", under="ignore"):
         coeffs = stage_coefficients(prep.circuit, values, prep.w_refs)
+        a = prep.design.analysis
+        # a low-pass's cutoff reads the grid twice (its peak, the last point above the level):
+        # read each block while it is in the CPU cache, not the whole (S, F) gain afterwards
+        level = lowpass_level_db(coeffs, a.cutoff_db) if metrics and prep.circuit.kind == "lowpass" else None
+        if level is not None:
+            scan = GridScan(np.empty(s, dtype=np.intp), np.empty(s, dtype=np.intp), np.empty(s, dtype=bool))
         for lo, hi, block in response_blocks(prep.circuit, coeffs, prep.freqs_hz, phase=want_phase,
                                              delay=want_delay, out_gain_db=gain, out_phase=ph,
                                              out_delay=tau):
             marg[lo:hi] = margins(prep.plans, block)
+            if level is not None:
+                scan.peak[lo:hi], scan.edge[lo:hi], scan.found[lo:hi] = scan_block(block.gain_db, level[lo:hi])
         resp = None if gain is None else Response(prep.freqs_hz, gain, ph, tau)
         if not metrics:
             return Evaluated(resp, {}, marg)
         assert resp is not None
-        a = prep.design.analysis
-        m = _metrics_for(prep.circuit, coeffs, resp, a.cutoff_db, a.attenuation_hz)
+        m = _metrics_for(prep.circuit, coeffs, resp, a.cutoff_db, a.attenuation_hz,
+                         scan if level is not None else None)
         return Evaluated(resp, m, marg)
 
 

@@ -12,6 +12,7 @@ from __future__ import annotations
 import math
 import threading
 import weakref
+from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
@@ -38,6 +39,9 @@ __all__ = [
     "pole_peaks",
     "BOUND_MARGIN",
     "crossing",
+    "GridScan",
+    "lowpass_level_db",
+    "scan_block",
     "cutoff_metrics",
     "attenuation_db",
     "pole_pairs",
@@ -352,13 +356,38 @@ def _gain2_bound(coeffs: list[StageCoefficients], poles: np.ndarray, board: np.n
     return g2_ref * ratio2
 
 
+@dataclass(frozen=True)
+class GridScan:
+    """What a low-pass's metrics read from its gain on the grid, gathered block by block
+    while each block of the response is in the CPU cache (:func:`scan_block`), each (S,):
+    ``peak`` the grid index of the highest gain, ``edge`` the last grid index at or above
+    the cutoff level (0 where none) and ``found`` whether there is one."""
+
+    peak: np.ndarray
+    edge: np.ndarray
+    found: np.ndarray
+
+
+def lowpass_level_db(coeffs: list[StageCoefficients], cutoff_db: float) -> np.ndarray:
+    """A low-pass's cutoff level (dB, (S,)): ``cutoff_db`` below its DC gain, the level
+    :func:`cutoff_metrics` compares the grid with (known before the response)."""
+    return _db(dc_gain2(coeffs) * 10 ** (-cutoff_db / 10))
+
+
+def scan_block(gain_db: np.ndarray, level_db: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """:class:`GridScan`'s readings for the rows of one block: gain (rows, F) in dB, level
+    (rows,) from :func:`lowpass_level_db`. Returns (peak, edge, found), each (rows,)."""
+    edge, found = _last_true(gain_db >= level_db[:, None])
+    return np.argmax(gain_db, axis=1), edge, found
+
+
 #: A pole whose bound (:func:`_gain2_bound`) is below the level by more than this share
 #: is not searched (a margin for the rounding of poles and of the grid's decibels).
 BOUND_MARGIN = 1e-6
 
 
 def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray,
-             direction: str) -> np.ndarray:
+             direction: str, scan: GridScan | None = None) -> np.ndarray:
     """Frequency (Hz) per sample where |H|^2 crosses ``level2`` (S,).
 
     ``direction="falling"``: the highest frequency above which the gain stays below the
@@ -395,6 +424,9 @@ def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray
         (S,) level as |H|^2 (no unit).
     direction : str
         ``"falling"`` or ``"rising"``.
+    scan : GridScan, optional
+        For ``"falling"``: the last grid point at or above the level, already read block by
+        block (:func:`scan_block`); the same numbers as reading ``resp`` here.
 
     Returns
     -------
@@ -404,14 +436,17 @@ def crossing(resp: Response, coeffs: list[StageCoefficients], level2: np.ndarray
     """
     gdb = resp.gain_db
     f = resp.freqs_hz
-    level_db = _db(level2)
-    above = gdb >= level_db[:, None]
     n = f.size
     s_count = gdb.shape[0]
     rows = np.arange(s_count)
     falling = direction == "falling"
+    if falling and scan is not None:  # read from the grid block by block already (scan_block)
+        edge, grid_ok = scan.edge, scan.found
+    elif falling:
+        edge, grid_ok = _last_true(gdb >= _db(level2)[:, None])  # the last grid index at or above the level
+    else:
+        above = gdb >= _db(level2)[:, None]
     if falling:
-        edge, grid_ok = _last_true(above)  # the last grid index at or above the level
         ref = np.where(grid_ok, np.minimum(edge + 1, n - 1), 0)  # g+ (the first grid point if none)
         open_end = grid_ok & (edge == n - 1)
     else:
@@ -495,7 +530,7 @@ def _db(gain2: np.ndarray) -> np.ndarray:
 
 
 def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Response,
-                   cutoff_db: float) -> dict[str, np.ndarray]:
+                   cutoff_db: float, scan: GridScan | None = None) -> dict[str, np.ndarray]:
     """Reference gain, cutoff(s) and peaking per sample.
 
     Low-pass and high-pass: ``cutoff_hz``. Band-pass: ``lower_hz`` and ``upper_hz``, the
@@ -518,6 +553,9 @@ def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Resp
         Responses on the grid: gain (S, F) in dB.
     cutoff_db : float
         Cutoff level in dB below the reference (e.g. 3.0).
+    scan : GridScan, optional
+        A low-pass's grid readings gathered while its response was computed
+        (:func:`scan_block`); the same numbers as reading ``resp`` here.
 
     Returns
     -------
@@ -536,14 +574,14 @@ def cutoff_metrics(circuit: Circuit, coeffs: list[StageCoefficients], resp: Resp
     if circuit.kind == "bandpass":
         peak_f, peak2 = peak(coeffs, resp)  # the reference: refined off the grid
     else:  # peaking is informational here: the grid's maximum (within ~0.01 dB at Q = 2, 400 points)
-        i = np.argmax(resp.gain_db, axis=1)
+        i = np.argmax(resp.gain_db, axis=1) if scan is None else scan.peak
         peak_f, peak2 = resp.freqs_hz[i], 10 ** (resp.gain_db[np.arange(i.size), i] / 10)
     ref2 = reference_gain2(circuit, coeffs, resp, peak2)
     level2 = ref2 * 10 ** (-cutoff_db / 10)
     out: dict[str, np.ndarray] = {"reference_db": 10 * np.log10(np.maximum(ref2, 1e-300))}
     out["peaking_db"] = 10 * np.log10(np.maximum(peak2, ref2) / np.maximum(ref2, 1e-300))
     if circuit.kind == "lowpass":
-        out["cutoff_hz"] = crossing(resp, coeffs, level2, "falling")
+        out["cutoff_hz"] = crossing(resp, coeffs, level2, "falling", scan)
     elif circuit.kind == "highpass":
         out["cutoff_hz"] = crossing(resp, coeffs, level2, "rising")
     else:

@@ -489,3 +489,32 @@ def test_pole_bound_holds_on_dense_grids():
                 bound = _gain2_bound(coeffs, poles, np.array([k]), np.array([g_ref]), np.array([f_ref]),
                                      np.array([f1]), np.array([f2]))[0]
                 assert bound >= g2.max() * (1 - 1e-9), (design.stages[0].topology, k, f1, f2)
+
+
+
+def test_low_pass_grid_readings_gathered_block_by_block_equal_reading_the_whole_gain():
+    # evaluate() reads a low-pass's peak index and last grid point above the level while
+    # each block of the response is in the CPU cache (metrics.scan_block); its metrics must
+    # be those of cutoff_metrics reading the finished (S, F) gain, bit for bit (the same
+    # comparisons of the same numbers).
+    from tolspread.engine import Response
+    from tolspread.evaluate import prepare
+
+    design = load_demo()
+    prep = prepare(design)
+    ens = evaluate(design, samples=600, curves=True, phase=False, prepared=prep)
+    coeffs = stage_coefficients(prep.circuit, ens.values, prep.w_refs)
+    whole = cutoff_metrics(prep.circuit, coeffs, Response(ens.freqs_hz, ens.gain_db, None, None),
+                           design.analysis.cutoff_db)
+    for name in ("cutoff_hz", "peaking_db", "reference_db"):
+        np.testing.assert_array_equal(ens.metrics[name], whole[name], err_msg=name)
+    # independent check (scipy.signal.freqs on each board's whole H): at the cutoff the gain
+    # is 3 dB below the DC gain (the design's cutoff_db; common practice)
+    for k in range(0, 600, 150):
+        num, den = np.array([1.0]), np.array([1.0])
+        for c in coeffs:
+            n_k, d_k = c.unscaled()
+            num, den = np.polymul(num, n_k[k][::-1]), np.polymul(den, d_k[k][::-1])
+        _, h = scipy.signal.freqs(num, den, worN=[0.0, 2 * math.pi * ens.metrics["cutoff_hz"][k]])
+        drop = 20 * math.log10(abs(h[0]) / abs(h[1]))
+        assert drop == pytest.approx(design.analysis.cutoff_db, abs=1e-8)
