@@ -14,7 +14,8 @@ Networks (:mod:`filters.networks`): a member's log deviation holds the network's
 error ln(1 + e_c); the fit takes that shared error as one regressor of its own, named after
 the network, and each member's own remainder as the member's, so a shared error is
 attributed to the network, not to a member (the network's sensitivity is the sum of its
-members'). Boards of several channels (:mod:`filters.channels`): a match span's signed
+members'). Away from 25 deg C the shared part of the members' temperature coefficient still
+counts as the members' (the ensemble does not keep the temperature it was judged at). Boards of several channels (:mod:`filters.channels`): a match span's signed
 mismatch ``mismatch.<label>`` is fitted on each part's log ratio between channel 2 and
 channel 1 (and each network's shared-error difference), so its budget names the parts
 whose channel-to-channel differences explain the mismatch (no sensitivity is given there);
