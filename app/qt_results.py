@@ -9,6 +9,7 @@ from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QHeaderView, QLabel, QTab
                                QVBoxLayout, QWidget)
 
 from ..liveview import ViewData
+from ..temperature_text import yield_note
 from .. import metric_names
 from ..metric_names import SPAN_UNIT, is_pair_metric, metric_label
 
@@ -113,7 +114,8 @@ class ResultsPanel(QWidget):
             self.yield_label.setText(
                 f"<span style='font-size:16pt'><b>yield {_pct(y.estimate)}</b></span><br>"
                 f"{round(100 * y.confidence)} % interval {_pct(y.low)} to {_pct(y.high)} "
-                f"({'Wilson' if y.method == 'wilson' else 'exact'}), {y.passed:,} of {y.samples:,} boards pass")
+                f"({'Wilson' if y.method == 'wilson' else 'exact'}), {y.passed:,} of {y.samples:,} boards pass"
+                + (f"<br>{note}" if (note := yield_note(view.result)) else ""))  # over a range, after a life
         else:
             self.yield_label.setText("<b>no spec mask yet</b>: draw floor or ceiling spans on the gain plot")
         bands_note = (f"; bands drawn from the first {view.curve_boards:,} boards"

@@ -19,6 +19,7 @@ __all__ = [
     "temperature_json",
     "physics_text",
     "assumption_texts",
+    "yield_note",
     "DEGREE",
 ]
 
@@ -201,3 +202,17 @@ def assumption_texts(analysis: Any) -> list[str]:
                    "class II capacitors lose their ageing rate per decade of hours (assets/sources.md). The "
                    "ratings are at rated power, so the figure is cautious for parts run well below it.")
     return out
+
+
+def yield_note(result: Any) -> str:
+    """One line saying what the stated yield covers (the judged temperatures) and the
+    yield after the service life; "" when the design asks for neither (or no result)."""
+    if result is None:
+        return ""
+    parts = []
+    if result.temperature is not None:
+        temps = ", ".join(f"{t:g}" for t in result.temperature.temperatures_c)
+        parts.append(f"at every judged temperature ({temps} {DEGREE})")
+    if result.life is not None:
+        parts.append(f"after {result.life.years:.3g} years: {_pct(result.life.after.estimate)}")
+    return "; ".join(parts)

@@ -65,6 +65,8 @@ def test_range_set_in_the_dialog_is_judged_and_plotted(qtbot, window):
         assert f"{p.temperature_c:g} °C {100 * p.yield_.estimate:.2f} %" in dlg.summary.text()
     assert f"{100 * over.overall.estimate:.2f} %" in dlg.summary.text()
     assert len(dlg.yield_plot.getPlotItem().listDataItems()) == 1
+    # the main window's yield says what it covers
+    assert "at every judged temperature (-20, 25, 50, 70 °C)" in window.results.yield_label.text()
     # one undoable edit
     window.act_undo.trigger()
     assert window.session.design.analysis.operating_range_c is None
