@@ -279,6 +279,7 @@ def test_analyze_command_on_a_design_with_a_range(tmp_path):
                          capture_output=True, text=True, timeout=300)
     assert run.returncode == 0, run.stderr
     assert "YIELD OVER TEMPERATURE" in run.stdout and "SERVICE LIFE" in run.stdout
+    assert "at every judged temperature (-40, 25, 85 \u00b0C); after 10 years:" in run.stdout
     doc = json.loads(out.read_text(encoding="utf-8"))
     t = doc["temperature"]
     assert t["temperatures_c"] == [-40.0, 25.0, 85.0]

@@ -10,7 +10,7 @@ from .. import __version__, metric_names
 from ..analysis import AnalysisResult
 from ..metric_names import SPAN_UNIT, is_margin, is_pair_metric, metric_label
 from ..metrics import ATTENUATION_FLOOR_DB
-from ..temperature_text import temperature_json, temperature_tables
+from ..temperature_text import temperature_json, temperature_tables, yield_note
 from .texttable import table
 from .numbers import format_metric, format_pct, format_quantity, summary_beyond_floor, summary_cells
 from .words import MATCH_NOTE
@@ -92,6 +92,8 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
     if d.mask:
         out.write(f"YIELD  {format_pct(y.estimate)}  ({100 * y.confidence:g} % interval {format_pct(y.low)} to "
                   f"{format_pct(y.high)}, {y.method}; {y.passed:,} of {y.samples:,} boards pass)\n")
+        if yield_note(result):  # over a range: what the yield covers; after a life: that yield
+            out.write(f"  {yield_note(result)}\n")
         from ..stats import samples_for_half_width
 
         need = [(h, samples_for_half_width(h / 100, y.estimate, y.confidence, y.method)) for h in (1.0, 0.5, 0.1)]
