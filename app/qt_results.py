@@ -10,6 +10,7 @@ from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QHeaderView, QLabel, QTab
 
 from ..liveview import ViewData
 from ..temperature_text import yield_note
+from .qt_high_yield import high_yield_html
 from .. import metric_names
 from ..metric_names import SPAN_UNIT, is_pair_metric, metric_label
 
@@ -44,7 +45,13 @@ class ResultsPanel(QWidget):
         self.detail.setObjectName("yield_detail")
         self.detail.setWordWrap(True)
         self.detail.setStyleSheet("color: #555;")
+        self.high_yield = QLabel("")  # the importance estimate when few boards fail (app/qt_high_yield.py)
+        self.high_yield.setObjectName("high_yield_label")
+        self.high_yield.setTextFormat(Qt.TextFormat.RichText)
+        self.high_yield.setWordWrap(True)
+        self.high_yield.hide()
         lay.addWidget(self.yield_label)
+        lay.addWidget(self.high_yield)
         lay.addWidget(self.detail)
         self.table = QTableWidget(0, 4)
         self.table.setObjectName("failure_table")
@@ -118,6 +125,9 @@ class ResultsPanel(QWidget):
                 + (f"<br>{note}" if (note := yield_note(view.result)) else ""))  # over a range, after a life
         else:
             self.yield_label.setText("<b>no spec mask yet</b>: draw floor or ceiling spans on the gain plot")
+        rare = high_yield_html(view.result) if view.design.mask and not view.preview else ""
+        self.high_yield.setText(rare)
+        self.high_yield.setVisible(bool(rare))
         bands_note = (f"; bands drawn from the first {view.curve_boards:,} boards"
                       if view.curve_boards and view.curve_boards < view.samples else "")
         if view.preview:

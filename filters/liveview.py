@@ -126,7 +126,8 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
                  progress: Callable[[int, int], None] | None = None,
                  should_stop: Callable[[], bool] | None = None) -> ViewData:
     """Analyse ``req`` (:func:`filters.analysis.analyze`, no corners; curves of the first
-    :data:`CURVE_LIMIT` boards) and gather what the window draws (may raise Cancelled).
+    :data:`CURVE_LIMIT` boards; a full run, not a preview, adds the high-yield estimate when few
+    boards fail, ``rare="auto"``) and gather what the window draws (may raise Cancelled).
 
     Raises :class:`~tolspread.errors.InputError` (path ``analysis.samples``) when the boards
     would keep more numbers than the memory rule allows (:func:`filters.memory.check_boards`).
@@ -153,7 +154,8 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
     n = d.analysis.samples if req.boards is None else min(req.boards, d.analysis.samples)
     result = analyze(d, samples=n, grades=req.grades, budget=req.budget, with_corners=False,
                      curves=min(n, CURVE_LIMIT), second=req.second, prepared=prepared,
-                     samples_path="analysis.samples", progress=progress, should_stop=should_stop)
+                     samples_path="analysis.samples", progress=progress, should_stop=should_stop,
+                     rare="auto" if req.boards is None else "off")  # a drag's preview stays quick
     ens, drawn, prep = result.ensemble, result.curves, result.prepared
     assert drawn is not None
     pass_rows = pick_rows(drawn.passed, req.traces, failing=False)

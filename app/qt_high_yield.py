@@ -1,0 +1,27 @@
+"""The yield panel's line about the high-yield estimate (filters/rare_failures.py).
+
+A full evaluation in the window asks :func:`filters.analysis.analyze` for ``rare="auto"``:
+when fewer than :data:`~filters.rare_failures.RARE_TRIGGER` boards fail, the failure rate is
+estimated again by importance sampling. :func:`high_yield_html` says which method gave which
+number (the plain yield is the panel's headline), or why the estimate was not made.
+"""
+from __future__ import annotations
+
+from ..analysis import AnalysisResult
+from ..report.numbers import format_pct
+
+
+def high_yield_html(result: AnalysisResult) -> str:
+    """Rich text for the yield panel: the importance estimate with its interval and the plain
+    boards it would take for that interval, or why it was not made; "" when it was not asked
+    for (enough boards failed for the plain interval, or a preview while dragging)."""
+    r = result.rare
+    if r is None:
+        return f"high-yield estimate not made: {result.rare_note}" if result.rare_note else ""
+    conf = f"{100 * r.confidence:g} %"
+    plain = "more than 10<sup>12</sup>" if not r.plain_equivalent < 1e12 else f"about {r.plain_equivalent:,.0f}"
+    return (f"<b>high-yield estimate {format_pct(1 - r.failure_rate, 4)}</b> (importance sampling), "
+            f"{conf} interval {format_pct(1 - r.high, 4)} to {format_pct(1 - r.low, 4)}; failure rate "
+            f"{r.failure_rate:.3g} from {r.boards:,} boards drawn around {len(r.points)} likeliest failure "
+            f"point(s) ({r.failing:,} failing, weighted). Plain sampling would need {plain} boards for this "
+            f"interval. The yield above is plain sampling's.")
