@@ -16,7 +16,7 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt
 from PySide6.QtWidgets import (QCheckBox, QDialog, QDoubleSpinBox, QFormLayout, QGroupBox, QHBoxLayout, QLabel,
-                               QLineEdit, QPushButton, QVBoxLayout, QWidget)
+                               QLineEdit, QPushButton, QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
 from ..bands import bands
 from ..design import Design
@@ -24,6 +24,7 @@ from ..evaluate import evaluate
 from ..liveview import ViewData
 from ..sampling import Conditions
 from ..temperature_settings import HOURS_PER_YEAR
+from ..temperature_text import temperature_tables
 
 __all__ = ["BAND_BOARDS", "TemperatureDialog", "parse_points"]
 
@@ -118,6 +119,10 @@ class TemperatureDialog(QDialog):
         self.yield_plot.setLabel("left", "yield (%)")
         self.yield_plot.showGrid(x=True, y=True, alpha=0.3)
 
+        self.shift_table = QTableWidget(0, 0)  # stage f0 and Q at each judged temperature
+        self.shift_table.setObjectName("stage_shift_table")
+        self.shift_table.verticalHeader().setVisible(False)
+
         band_row = QHBoxLayout()
         self.band_temp = _spin(-270.0, 999.0, rng[0], " °C", "band_temperature")
         self.band_button = QPushButton("Show bands at this temperature")
@@ -142,6 +147,7 @@ class TemperatureDialog(QDialog):
         lay.addWidget(settings)
         lay.addWidget(self.summary)
         lay.addWidget(self.yield_plot, 1)
+        lay.addWidget(self.shift_table)
         lay.addLayout(band_row)
         lay.addWidget(self.band_plot, 1)
         lay.addWidget(self.band_note)
@@ -205,6 +211,23 @@ class TemperatureDialog(QDialog):
                          f"(at delivery {100 * life.delivery.estimate:.2f} %; life drift is a cautious estimate "
                          "from the grades' load-life ratings)")
         self.summary.setText("\n".join(lines))
+        self._fill_shift_table(res)
+
+    def _fill_shift_table(self, res) -> None:
+        """The stage f0/Q (and cutoff) table over temperature, as the command line prints it."""
+        tables = [] if res is None else [t for t in temperature_tables(res) if t.title.startswith("STAGE")]
+        t = tables[0] if tables else None
+        self.shift_table.clear()
+        self.shift_table.setColumnCount(len(t.headers) if t else 0)
+        self.shift_table.setRowCount(len(t.rows) if t else 0)
+        self.shift_table.setVisible(t is not None)
+        if t is None:
+            return
+        self.shift_table.setHorizontalHeaderLabels(t.headers)
+        for i, row in enumerate(t.rows):
+            for j, cell in enumerate(row):
+                self.shift_table.setItem(i, j, QTableWidgetItem(cell))
+        self.shift_table.resizeColumnsToContents()
 
     def show_bands(self) -> None:
         """The gain bands of the design's first boards at the chosen temperature."""

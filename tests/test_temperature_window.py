@@ -65,6 +65,13 @@ def test_range_set_in_the_dialog_is_judged_and_plotted(qtbot, window):
         assert f"{p.temperature_c:g} °C {100 * p.yield_.estimate:.2f} %" in dlg.summary.text()
     assert f"{100 * over.overall.estimate:.2f} %" in dlg.summary.text()
     assert len(dlg.yield_plot.getPlotItem().listDataItems()) == 1
+    # the stage f0/Q table over temperature: one column per judged temperature, the means
+    # as the analysis summarised them
+    table = dlg.shift_table
+    assert [table.horizontalHeaderItem(j).text() for j in range(table.columnCount())][1:] == [
+        "-20 °C", "25 °C", "50 °C", "70 °C"]
+    labels = [table.item(i, 0).text() for i in range(table.rowCount())]
+    assert any("Q" in lab for lab in labels) and any("f0" in lab for lab in labels)
     # the main window's yield says what it covers
     assert "at every judged temperature (-20, 25, 50, 70 °C)" in window.results.yield_label.text()
     # one undoable edit
