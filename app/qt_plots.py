@@ -184,23 +184,16 @@ class SpreadPlots(QWidget):
             self._frame_second(refit=False)
 
     def _frame_second(self, refit: bool) -> None:
-        """Frame the second plot's y axis on the bands and the nominal curve. Unless
-        ``refit``, the range moves only when the curves leave it or fill less than half
-        of it, so the axis stays put while a slider is dragged."""
+        """Frame the second plot's y axis on the bands and the nominal curve (see
+        :func:`hold_range`: while a slider is dragged the axis stays put)."""
         v = self.view
         if v is None:
             return
         b = v.second_bands
         vals = np.concatenate([b.low, b.high, v.nominal_second])
         vals = vals[np.isfinite(vals)]
-        if not vals.size:
-            return
-        lo, hi = float(vals.min()), float(vals.max())
-        pad = 0.05 * max(hi - lo, 1e-9 * max(abs(lo), abs(hi)), 1e-300)
-        lo, hi = lo - pad, hi + pad
-        (y0, y1) = self.second.vb.viewRange()[1]
-        if refit or lo < y0 or hi > y1 or (hi - lo) < 0.5 * (y1 - y0):
-            self.second.setYRange(lo, hi, padding=0)
+        if vals.size:
+            hold_range(self.second.vb, 1, float(vals.min()), float(vals.max()), 0.05, refit)
 
     def _draw_grids(self, view: ViewData) -> None:
         """Vertical lines at 1-2-3-5 per decade, horizontal lines every 10 dB (gain) and
@@ -365,6 +358,18 @@ class SpreadPlots(QWidget):
 
         return (f"{format_value(f[i], 'Hz', 4)}:  nominal {fmt(nom[i])},  central {round(100 * b.share)} % "
                 f"{fmt(b.inner_low[i])} to {fmt(b.inner_high[i])},  all boards {fmt(b.low[i])} to {fmt(b.high[i])}")
+
+
+def hold_range(vb: pg.ViewBox, axis: int, lo: float, hi: float, padding: float, refit: bool = False) -> None:
+    """Show [lo, hi] on ``vb``'s ``axis`` (0: x, 1: y), widened by ``padding`` of its width
+    on each side; unless ``refit``, only when the data leave the range shown or fill less
+    than half of it. A plot's range then stays put while a slider is dragged, and the view
+    is not moved (which makes pyqtgraph paint it a second time) for every result."""
+    pad = padding * max(hi - lo, 1e-9 * max(abs(lo), abs(hi)), 1e-300)
+    lo, hi = lo - pad, hi + pad
+    y0, y1 = vb.viewRange()[axis]
+    if refit or lo < y0 or hi > y1 or (hi - lo) < 0.5 * (y1 - y0):
+        (vb.setXRange if axis == 0 else vb.setYRange)(lo, hi, padding=0)
 
 
 def _band_item(brush) -> QGraphicsPathItem:

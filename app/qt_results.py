@@ -15,6 +15,7 @@ from .. import metric_names
 from ..metric_names import SPAN_UNIT, is_pair_metric, metric_label
 
 from . import qt_style as st
+from .qt_plots import hold_range
 from .qt_units import eng, prefix_for
 
 MAX_TABLE_ROWS = 8  # the failure table grows to this many rows, then scrolls
@@ -219,9 +220,10 @@ class ResultsPanel(QWidget):
             if nom is not None and np.isfinite(nom):
                 self.hist.addItem(pg.InfiniteLine(nom, angle=90, pen=pg.mkPen(st.INK, width=2, style=st.DASH)))
                 lo, hi = min(lo, nom), max(hi, nom)
-            # ranges set here, not by automatic ranging (which paints the plot twice a result)
-            self.hist.setXRange(lo, hi, padding=0.02)
-            self.hist.setYRange(0, float(all_counts.max()), padding=0.05)
+            # ranges set here, and moved only when the bars leave them or fill less than
+            # half (automatic ranging moved them for every result and painted twice)
+            hold_range(self.hist.getViewBox(), 0, lo, hi, 0.02)
+            hold_range(self.hist.getViewBox(), 1, 0.0, float(all_counts.max()), 0.05)
         self._label_metric_axis(self.hist.getAxis("bottom"), self.metric_name, names, data[ok])
         b = v.budget.get(self.metric_name)
         if b is None and v.preview:
