@@ -15,7 +15,7 @@ from .. import __version__
 from ..errors import InputError, ValidationError
 from ..safeio import check_output_path
 
-from .cli_args import EXIT_BAD_INPUT, Parser, positive_int, seed
+from .cli_args import EXIT_BAD_INPUT, Parser, add_signoff_options, positive_int, seed, signed
 from .cli_centre import add_parser as add_centre_parser, run as run_centre
 from .cli_design import add_parser as add_design_parser, run as run_design
 from .cli_measure import add_parser as add_measure_parser, run as run_measure
@@ -58,6 +58,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="high-yield estimate by importance sampling: auto (when fewer than 10 boards fail), "
                         "always, or off (default auto)")
     a.add_argument("--report", metavar="PATH", help="also write the design-review report (HTML)")
+    add_signoff_options(a)
     add_design_parser(sub)
     add_recommend_parser(sub)
     add_centre_parser(sub)
@@ -83,7 +84,7 @@ def cmd_analyze(args: argparse.Namespace) -> int:
         target = getattr(args, option[2:])
         if target is not None and not (option == "--json" and target == "-"):
             check_output_path(target, option)
-    design = _load(args.design)
+    design = signed(_load(args.design), args)
     if args.attenuation_at:
         from dataclasses import replace
 
@@ -123,8 +124,10 @@ def cmd_analyze(args: argparse.Namespace) -> int:
             write_text_atomic(Path(args.json), text, backup=False)
     if args.report:
         from ..report import build_report, write_report
+        from ..robustness import shapes_for_report
 
-        write_report(build_report(result), args.report)
+        shapes = shapes_for_report(result) if design.mask else []
+        write_report(build_report(result, shapes=shapes), args.report)
         if args.json != "-":
             print(f"wrote the report to {args.report}")
     return 0

@@ -121,3 +121,27 @@ def design_with_mask(path: str | None, output: str | None = None, why: str = "no
     if not design.mask:
         raise InputError(f"the design has no spec mask, so there is {why}; add spans first", "mask")
     return design
+
+
+def one_line(text: str) -> str:
+    """A name for the report's title block: one line of at most 200 characters."""
+    text = text.strip()
+    if "\n" in text or "\r" in text or len(text) > 200:
+        raise argparse.ArgumentTypeError("must be one line of at most 200 characters")
+    return text
+
+
+def add_signoff_options(parser: argparse.ArgumentParser) -> None:
+    """``--author`` and ``--revision``: the report's title block, over the design's own."""
+    parser.add_argument("--author", type=one_line, metavar="NAME",
+                        help="the author named in the report's title block (default: the design's \"author\")")
+    parser.add_argument("--revision", type=one_line, metavar="REV",
+                        help="the design revision in the report's title block (default: the design's \"revision\")")
+
+
+def signed(design, args: argparse.Namespace):
+    """``design`` with the ``--author`` and ``--revision`` given on the command line."""
+    from dataclasses import replace
+
+    changes = {k: getattr(args, k) for k in ("author", "revision") if getattr(args, k, None) is not None}
+    return replace(design, **changes) if changes else design

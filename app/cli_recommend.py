@@ -7,7 +7,7 @@ import sys
 
 from ..errors import InputError
 
-from .cli_args import EXIT_NO_SET, confidence, fraction_or_percent, positive_int, seed
+from .cli_args import EXIT_NO_SET, add_signoff_options, confidence, fraction_or_percent, positive_int, seed, signed
 from .texttable import table
 
 
@@ -43,6 +43,7 @@ def add_parser(sub) -> None:
     r.add_argument("--compare", action="append", default=[], metavar="SET",
                    help="also judge your own set on the same boards, e.g. \"R1=R-thin-0.5,C1=C-C0G-2\" "
                         "(parts not named keep their grade; repeatable)")
+    add_signoff_options(r)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -62,7 +63,7 @@ def run(args: argparse.Namespace) -> int:
     for option in ("--output", "--csv", "--report"):  # issue 11: '' or a device refused before the search
         if getattr(args, option[2:]) is not None:
             check_output_path(getattr(args, option[2:]), option)
-    design = load_demo() if args.design is None else load(args.design)
+    design = signed(load_demo() if args.design is None else load(args.design), args)
     if not design.mask:
         raise InputError("the design has no spec mask, so there is no yield to meet; add spans first", "mask")
     catalog = load_catalog(args.catalog) if args.catalog else None
@@ -91,6 +92,7 @@ def run(args: argparse.Namespace) -> int:
     now_priced = priced([[cat[n]] for n in rec.current_grades if n in cat], boards)
     now_cost = "no prices" if now_priced is None else f"{sum(g[0].cost for g in now_priced):.4g}"
     unit = f"{design.purchase.currency or 'money'} per board at {boards:,} boards" if money else "relative cost"
+    compared: list = []  # the grade sets side by side, for the report
     if rec.chosen is None:
         _explain_nothing(rec, args, out)
     else:
@@ -129,7 +131,7 @@ def run(args: argparse.Namespace) -> int:
                           "comparison below.\n")
                 sets.append(("no class II", tuple(alt.chosen.grades)))
         sets += own_sets
-        _write_comparison(design, sets, args, unit, money, out)
+        compared = _write_comparison(design, sets, args, unit, money, out)
     curve = None
     if args.curve:
         curve = cost_yield_curve(design, confidence=args.confidence, samples=args.samples, seed=args.seed,
@@ -146,13 +148,16 @@ def run(args: argparse.Namespace) -> int:
         from ..report.build import FIGURE_BOARDS
 
         result = analyze(chosen_design, samples=args.samples, seed=args.seed,
-                         curves=FIGURE_BOARDS if args.report else 0)
+                         curves=FIGURE_BOARDS if args.report else 0, rare="auto" if args.report else "off")
         rows = parts_list_rows(design, rec, result.budget, metric=worst_margin_metric(result.ensemble))
         if args.csv:
             write_parts_csv(rows, args.csv)
             out.write(f"wrote the parts list to {args.csv}\n")
         if args.report:
-            write_report(build_report(result, recommendation=rec, curve=curve, parts_rows=rows), args.report)
+            from ..robustness import shapes_for_report
+
+            write_report(build_report(result, recommendation=rec, curve=curve, parts_rows=rows, comparison=compared,
+                                      target=args.target_yield, shapes=shapes_for_report(result)), args.report)
             out.write(f"wrote the report to {args.report}\n")
     out.write(f"\nPrices come from the catalog's price breaks at {boards:,} parts of each. " if money else
               "\nRelative costs come from the catalog (the built-in costs are invented demo figures). ")
@@ -168,8 +173,9 @@ def _pair(text: str) -> tuple[str, str]:
     return ref, word
 
 
-def _write_comparison(design, sets, args: argparse.Namespace, unit: str, money: bool, out) -> None:
-    """The grade sets side by side on the same fresh boards (filters/grade_sets.py)."""
+def _write_comparison(design, sets, args: argparse.Namespace, unit: str, money: bool, out) -> list:
+    """The grade sets side by side on the same fresh boards (filters/grade_sets.py); returns
+    them (:class:`filters.grade_sets.SetResult`) for the report."""
     from ..grade_sets import compare_sets
 
     results = compare_sets(design, sets, samples=args.samples, seed=args.seed, confidence=args.confidence)
@@ -185,6 +191,7 @@ def _write_comparison(design, sets, args: argparse.Namespace, unit: str, money: 
     for r in results[2:]:
         changed = [f"{p.ref} {g}" for p, g, now in zip(design.parts, r.grades, results[0].grades) if g != now]
         out.write(f"  {r.label}: {', '.join(changed) or 'as current'}\n")
+    return results
 
 
 def _explain_nothing(rec, args: argparse.Namespace, out) -> None:

@@ -133,6 +133,8 @@ class Design:
     networks: tuple[Network, ...] = ()  # resistor networks and matched pairs (filters/networks.py)
     channels: Channels = Channels()     # identical channels on one board (filters/channels.py)
     purchase: Purchase = Purchase()     # boards bought, currency, signal-path limits (filters/constraints.py)
+    revision: str = ""                  # the design's revision and author, for the report's title block
+    author: str = ""
 
     @property
     def catalog(self) -> Catalog:
@@ -412,12 +414,15 @@ def design_from_dict(data: Any) -> Design:
     problems: list[InputError] = []
     if not isinstance(data, dict):
         raise ValidationError([InputError("a design must be a JSON object", "")])
-    known = {"format", "version", "name", "description", "parts", "stages", "analysis", "mask", "grades",
-             "networks", "channels", "purchase"}
+    known = {"format", "version", "name", "description", "revision", "author", "parts", "stages", "analysis",
+             "mask", "grades", "networks", "channels", "purchase"}
     problems += [InputError(f"unknown field {k!r}", k) for k in data if k not in known]
-    for k in ("name", "description"):
+    for k in ("name", "description", "revision", "author"):
         if k in data and not isinstance(data[k], str):
             problems.append(InputError("must be a text", k))
+    for k in ("revision", "author"):  # one line each in the report's title block
+        if isinstance(data.get(k), str) and (len(data[k]) > 200 or "\n" in data[k]):
+            problems.append(InputError("must be one line of at most 200 characters", k))
 
     # Grades of the design's own, on top of the built-in catalog.
     grades: list[Grade] = []
@@ -597,4 +602,5 @@ def design_from_dict(data: Any) -> Design:
     if problems:
         raise ValidationError(problems)
     return Design(tuple(parts), tuple(stages), analysis, tuple(mask), data.get("name", ""),
-                  data.get("description", ""), tuple(grades), networks, channels, purchase)
+                  data.get("description", ""), tuple(grades), networks, channels, purchase,
+                  data.get("revision", ""), data.get("author", ""))

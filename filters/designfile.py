@@ -180,6 +180,9 @@ def design_to_dict(design: Design) -> dict[str, Any]:
         out["name"] = design.name
     if design.description:
         out["description"] = design.description
+    for k in ("revision", "author"):
+        if getattr(design, k):
+            out[k] = getattr(design, k)
     out["parts"] = []
     for p in design.parts:
         d_part: dict[str, Any] = {"ref": p.ref, "value": p.text or _exact_text(p.value), "grade": p.grade}

@@ -38,6 +38,7 @@ __all__ = [
     "reshaped",
     "design_under",
     "shape_yields",
+    "shapes_for_report",
     "ShapeChoice",
     "shape_recommendations",
 ]
@@ -157,6 +158,31 @@ def shape_yields(design: Design, *, samples: int | None = None, seed: int | None
         lb = float(lower_bound(int(est.passed), int(est.samples), a.confidence, a.interval))  # type: ignore[arg-type]
         out.append(ShapeYield(shape, est, lb))
     return out
+
+
+def shapes_for_report(result) -> list[ShapeYield]:
+    """The grades of an analysis ``result`` under the other shapes, on its boards (its
+    samples, seed and sampling method), for the report's robustness table. "As graded" is
+    the analysis's own yield and is left out, unless the analysis judged more than the
+    reference temperature (an operating range, a service life) or other grades than the
+    design's: then all five are evaluated here, at the reference temperature.
+
+    Parameters
+    ----------
+    result : AnalysisResult
+        The analysis the report is built from.
+
+    Returns
+    -------
+    list of ShapeYield
+        One per shape evaluated, in :data:`SHAPES` order.
+    """
+    d = result.design
+    if result.ensemble.method != d.analysis.method:
+        d = d.with_analysis(method=result.ensemble.method)
+    own = (result.temperature is None and result.life is None
+           and tuple(result.ensemble.grades) == d.part_grades())
+    return shape_yields(d, samples=result.samples, seed=result.seed, shapes=SHAPES[1:] if own else SHAPES)
 
 
 @dataclass(frozen=True)

@@ -336,7 +336,9 @@ def test_more_boards_than_the_figure_draws_keep_the_same_numbers():
 def test_the_report_path_evaluates_each_board_once(tmp_path, monkeypatch):
     """`tolspread analyze --report` samples every board once: the calls to the evaluation
     entry (tolspread.evaluate.evaluate, wherever it was imported) cover the run's boards
-    without overlap. Before the one pipeline, the report evaluated its figure's boards again."""
+    without overlap. Before the one pipeline, the report evaluated its figure's boards again.
+    The robustness table's other distribution shapes are other designs (reshaped grades), each
+    evaluated once on the same boards; "as graded" is the analysis's own (issue 16 item 6)."""
     import sys
 
     import tolspread.evaluate as ev
@@ -346,7 +348,7 @@ def test_the_report_path_evaluates_each_board_once(tmp_path, monkeypatch):
     original = ev.evaluate
 
     def counting(design, **kw):
-        calls.append((kw.get("start", 0), kw.get("samples"), kw.get("conditions")))
+        calls.append((kw.get("start", 0), kw.get("samples"), kw.get("conditions"), design))
         return original(design, **kw)
 
     for mod in list(sys.modules.values()):
@@ -354,7 +356,12 @@ def test_the_report_path_evaluates_each_board_once(tmp_path, monkeypatch):
             monkeypatch.setattr(mod, "evaluate", counting)
     out = tmp_path / "r.html"
     assert main(["analyze", "--samples", "2500", "--seed", "5", "--report", str(out)]) == 0
-    ranges = sorted((start, start + n) for start, n, cond in calls if cond is None)
+    from tolspread.designfile import load_demo
+    from tolspread.robustness import SHAPES
+
+    demo = load_demo()
+    ranges = sorted((start, start + n) for start, n, cond, d in calls if cond is None and d == demo)
+    assert len([d for *_, d in calls if d != demo]) == len(SHAPES) - 1  # one run per other shape
     assert ranges[0][0] == 0 and ranges[-1][1] == 2500
     assert all(a[1] == b[0] for a, b in zip(ranges, ranges[1:]))  # contiguous, no board twice
     assert "Spread of the response" in out.read_text(encoding="utf-8")

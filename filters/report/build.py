@@ -1,6 +1,7 @@
 """The report's table of contents and its assembly: :data:`SECTIONS` in the order they
-print, and :func:`build_report`, which writes the title and key figures, then each section
-whose ``when`` holds (heading from the table, body from its function), then the caution.
+print, and :func:`build_report`, which writes the title, the title block and key figures,
+then each section whose ``when`` holds (heading from the table, body from its function),
+the caution before the closing sign-off block.
 
 Adding a section: write ``def my_section(ctx: Context) -> str`` (the body's HTML; add
 figures with ``ctx.figures[name] = svg`` and place them with
@@ -15,15 +16,16 @@ from dataclasses import dataclass
 from datetime import datetime
 from typing import Any, Callable, Sequence
 
-from .. import __version__
 from ..analysis import AnalysisResult
 from .context import Context
+from .decision import comparison_section, has_measured, high_yield_section, measured_section, robustness_section
 from .document import Report, esc, svg_size
 from .numbers import format_count, format_pct
 from .review import assumptions_section, parts_section, recommendation_section
 from .sections import (budget_section, corners_section, design_section, failures_section, mask_section,
                        spread_section, yield_section)
 from .schematics import schematics_section
+from .signoff import signoff_section, title_block
 from .temperature import has_temperature, temperature_section
 from .words import describe_design
 
@@ -67,23 +69,28 @@ SECTIONS: list[Section] = [
     Section("mask", "Spec mask", mask_section),
     Section("spread", "Spread of the response", spread_section),
     Section("yield", "Yield", yield_section),
+    Section("high-yield", "High-yield method", high_yield_section, lambda ctx: bool(ctx.design.mask)),
     Section("failures", "Failure breakdown", failures_section),
     Section("temperature", "Over temperature and service life", temperature_section, has_temperature),
     Section("budget", "Spread budget", budget_section),
     Section("corners", "Corners and root-sum-square", corners_section),
     Section("recommendation", "Recommended grades", recommendation_section,
             lambda ctx: ctx.recommendation is not None or bool(ctx.curve)),
+    Section("comparison", "Grade sets side by side", comparison_section, lambda ctx: bool(ctx.comparison)),
+    Section("robustness", "Robustness to the shape of the distributions", robustness_section,
+            lambda ctx: bool(ctx.shapes)),
+    Section("measured", "Measured parts", measured_section, has_measured),
     Section("parts", "Parts list", parts_section, lambda ctx: bool(ctx.parts_rows)),
     Section("assumptions", "Assumptions", assumptions_section),
+    Section("signoff", "Sign-off", signoff_section),  # printed after the caution
 ]
 
 
 def _head(ctx: Context, title: str | None, when: str, head_title: str) -> list[str]:
     """The title, the design in words and the key figure (the yield)."""
     d, y = ctx.design, ctx.result.yield_
-    out = [f"<h1>{esc(head_title)}</h1>",
-           f'<p class="meta">Tolerance analysis report \u00b7 generated {esc(when)} \u00b7 tolspread '
-           f"{esc(__version__)}</p>"]
+    out = [f"<h1>{esc(head_title)}</h1>", '<p class="meta">Tolerance analysis report for design review</p>',
+           title_block(ctx, when)]
     if title and d.name and title != d.name:
         out.append(f"<p>Design: <b>{esc(d.name)}</b></p>")
     out.append('<p class="summary">' + " ".join(esc(t) for t in describe_design(d, ctx.result.ensemble.grades))
@@ -103,7 +110,8 @@ def _head(ctx: Context, title: str | None, when: str, head_title: str) -> list[s
 
 def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: Any = None,
                  parts_rows: Sequence[dict] | None = None, title: str | None = None,
-                 generated: datetime | None = None, current: Any = None) -> Report:
+                 generated: datetime | None = None, current: Any = None, comparison: Sequence[Any] = (),
+                 target: float | None = None, shapes: Sequence[Any] = ()) -> Report:
     """Build the report of ``result``, which must keep curves: ``analyze(design, ...,
     curves=FIGURE_BOARDS)`` (the spread figures draw them; nothing here evaluates a board).
 
@@ -112,8 +120,12 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     the parts list rows (dicts, columns in key order); ``generated``: the time stamp shown
     (default now); ``current``: the design the recommendation started from, when
     ``result`` analyses another (by default the recommendation's own record of the current
-    grades, else ``result.design``). Raises ValueError when ``result`` kept no curves or
-    no corners.
+    grades, else ``result.design``); ``comparison``: grade sets judged on the same boards
+    (:func:`filters.grade_sets.compare_sets`, the current set first) against the yield
+    ``target``; ``shapes``: the reported grades under other distribution shapes
+    (:func:`filters.robustness.shape_yields` on the analysis's boards; "as graded" is taken
+    from ``result`` when left out). The title block reads the design's name, revision and
+    author. Raises ValueError when ``result`` kept no curves or no corners.
 
     Parameters
     ----------
@@ -131,6 +143,12 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
         The time stamp written (default: now).
     current : Any, optional
         The design the recommendation started from, when it differs from ``result``'s.
+    comparison : sequence of SetResult, optional
+        Grade sets side by side (current first).
+    target : float, optional
+        The yield target (fraction) the comparison and the shapes are judged against.
+    shapes : sequence of ShapeYield, optional
+        The reported grades under other distribution shapes.
 
     Returns
     -------
@@ -141,18 +159,23 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
         raise ValueError("the report draws the boards' curves: analyze(design, ..., curves=FIGURE_BOARDS)")
     if result.corners is None:
         raise ValueError("the report lists the corners: analyze(design, ...) with with_corners=True")
-    ctx = Context(result, recommendation, curve, parts_rows, current)
+    ctx = Context(result, recommendation, curve, parts_rows, current, comparison, target, shapes)
     head_title = title or ctx.design.name or "Tolerance analysis"
     out = _head(ctx, title, (generated or datetime.now()).strftime("%Y-%m-%d %H:%M"), head_title)
     shown = [s for s in SECTIONS if s.when(ctx)]
     out.append("<p>Contents: " + " \u00b7 ".join(f'<a href="#{s.key}">{esc(s.title)}</a>' for s in shown)
                + "</p>")
+    caution = ('<table class="caution" border="1" cellpadding="10"><tr><td bgcolor="#fff4e0"><b>Caution.</b> '
+               f"{esc(CAUTION)}</td></tr></table>")
     for s in shown:
+        if s.key == "signoff":  # the signers sign under the caution
+            out.append(caution)
+            caution = ""
         out.append(f'<h2 id="{s.key}">{esc(s.title)}</h2>')
         body = s.body(ctx)
         if body:
             out.append(body)
-    out.append('<table class="caution" border="1" cellpadding="10"><tr><td bgcolor="#fff4e0"><b>Caution.</b> '
-               f"{esc(CAUTION)}</td></tr></table>")
+    if caution:
+        out.append(caution)
     sizes = {name: svg_size(svg) for name, svg in ctx.figures.items()}
     return Report(head_title, "\n".join(out), ctx.figures, sizes)

@@ -18,14 +18,17 @@ __all__ = [
 class Context:
     """The input of one report. ``result`` must keep curves (``analyze(..., curves=N)``);
     ``recommendation``, ``curve`` (its cost-yield curve, a list of (target,
-    Recommendation)), ``parts_rows`` and ``current`` as :func:`filters.report.build_report`
-    takes them. Sections add their SVG figures to ``figures`` (name -> SVG text)."""
+    Recommendation)), ``parts_rows``, ``current``, ``comparison``, ``target`` and
+    ``shapes`` as :func:`filters.report.build_report` takes them. Sections add their SVG figures to ``figures`` (name -> SVG text)."""
 
     result: AnalysisResult
     recommendation: Any = None
     curve: Any = None
     parts_rows: Sequence[dict] | None = None
     current: Any = None
+    comparison: Sequence[Any] = ()   # filters.grade_sets.SetResult, current first
+    target: float | None = None      # the yield target the comparison is judged against
+    shapes: Sequence[Any] = ()       # filters.robustness.ShapeYield of the reported grades
     figures: dict[str, str] = field(default_factory=dict)
 
     @property
