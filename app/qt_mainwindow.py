@@ -464,4 +464,8 @@ class MainWindow(QMainWindow, WindowFiles):
         task = getattr(self.recommend_dialog, "task", None)
         if task is not None:
             task.stop()
+        from .qt_tasks import BackgroundTask
+
+        for task in self.findChildren(BackgroundTask):  # the decision dialogs' jobs (centre, shapes)
+            task.stop()
         self.session.shutdown()

@@ -11,7 +11,7 @@ import threading
 import traceback
 from typing import Any, Callable
 
-from PySide6.QtCore import QObject, QThread, Signal
+from PySide6.QtCore import QObject, Qt, QThread, Signal
 
 from ..errors import Cancelled, InputError
 
@@ -55,8 +55,9 @@ class BackgroundTask(QObject):
         self._runner = _Runner(fn, self._stop)
         self._runner.moveToThread(self._thread)
         self._thread.started.connect(self._runner.run)
-        for sig in ("finished", "failed", "cancelled"):
-            getattr(self._runner, sig).connect(self._thread.quit)
+        for sig in ("finished", "failed", "cancelled"):  # direct: stop() waits on the GUI thread,
+            # so a queued quit would only arrive after its wait ran out (QThread.quit is thread-safe)
+            getattr(self._runner, sig).connect(self._thread.quit, Qt.ConnectionType.DirectConnection)
         self._runner.finished.connect(self.finished)
         self._runner.failed.connect(self.failed)
         self._runner.cancelled.connect(self.cancelled)

@@ -30,7 +30,7 @@ from typing import Callable, Sequence
 import numpy as np
 
 from .design import Design
-from .errors import InputError
+from .errors import Cancelled, InputError
 from .evaluate import evaluate, evaluate_values, prepare, scores_for
 from .grades import Grade
 from .sampling import part_values
@@ -108,6 +108,12 @@ class CentringResult:
                 "movable": list(self.movable)}
 
 
+def stop_if_asked(should_stop: Callable[[], bool] | None) -> None:
+    """Raise :class:`~tolspread.errors.Cancelled` when ``should_stop()`` says so."""
+    if should_stop is not None and should_stop():
+        raise Cancelled()
+
+
 def neighbours(value: float, grade: Grade) -> tuple[str, float, float] | None:
     """The series of ``grade``'s tolerance and the values one step below and above ``value``.
 
@@ -146,7 +152,8 @@ def _score(margins: np.ndarray, scale: np.ndarray) -> tuple[np.ndarray, np.ndarr
 
 def centre_values(design: Design, *, samples: int | None = None, seed: int | None = None,
                   screen_boards: int | None = None,
-                  progress: Callable[[int, int], None] | None = None) -> CentringResult:
+                  progress: Callable[[int, int], None] | None = None,
+                  should_stop: Callable[[], bool] | None = None) -> CentringResult:
     """Search neighbouring preferred values for a higher yield at the same grades.
 
     Parameters
@@ -162,6 +169,9 @@ def centre_values(design: Design, *, samples: int | None = None, seed: int | Non
         :data:`SCREEN_ROWS`, between 128 and 2,000).
     progress : callable, optional
         ``progress(done, total)`` after each block of screened combinations.
+    should_stop : callable, optional
+        Asked after each block and each confirmation; True raises
+        :class:`~tolspread.errors.Cancelled` (nothing is changed).
 
     Returns
     -------
@@ -213,6 +223,7 @@ def centre_values(design: Design, *, samples: int | None = None, seed: int | Non
         passed = np.empty(len(all_choices), dtype=np.int64)
         worst = np.empty(len(all_choices))
         for lo in range(0, len(all_choices), block):  # blocks of combinations, memory bounded
+            stop_if_asked(should_stop)
             passed[lo:lo + block], worst[lo:lo + block] = screen(all_choices[lo:lo + block])
             if progress is not None:
                 progress(min(lo + block, len(all_choices)), len(all_choices))
@@ -226,6 +237,7 @@ def centre_values(design: Design, *, samples: int | None = None, seed: int | Non
         for _ in range(2 * n_mov):  # each round moves one part to its best value
             trial = np.array([np.where(np.arange(n_mov) == m, c, state)
                               for m in range(n_mov) for c in range(3) if c != state[m]])
+            stop_if_asked(should_stop)
             p_, w_ = screen(trial)
             total += len(trial)
             j = int(np.lexsort((-w_, -p_))[0])
@@ -237,10 +249,11 @@ def centre_values(design: Design, *, samples: int | None = None, seed: int | Non
                 progress(total, total)
         finalists = state[None, :]
     # confirmation: full boards, each set with its own nominal design, same seed
-    before_ens = evaluate(design, samples=samples, seed=seed, curves=False, metrics=False)
+    before_ens = evaluate(design, samples=samples, seed=seed, curves=False, metrics=False, should_stop=should_stop)
     before = yield_estimate(before_ens.passed, None, a.confidence, a.interval)  # type: ignore[arg-type]
     best_design, best_est, best_moves, changed = design, before, (), (0, 0)
     for ch in finalists:
+        stop_if_asked(should_stop)
         if not ch.any():
             continue
         moves = tuple(Move(design.parts[i].ref, float(vals[0]), float(vals[c]), series)
@@ -248,7 +261,7 @@ def centre_values(design: Design, *, samples: int | None = None, seed: int | Non
         cand = design
         for mv in moves:
             cand = cand.with_part(mv.ref, value=mv.new, text="")
-        ens = evaluate(cand, samples=samples, seed=seed, curves=False, metrics=False)
+        ens = evaluate(cand, samples=samples, seed=seed, curves=False, metrics=False, should_stop=should_stop)
         est = yield_estimate(ens.passed, None, a.confidence, a.interval)  # type: ignore[arg-type]
         if est.passed > best_est.passed:
             only_after = int(np.sum(ens.passed & ~before_ens.passed))

@@ -120,6 +120,9 @@ COVERAGE = {
     "edit_catalog": "test_grades_and_costs",
     "recommend": "test_find_cheapest_grades",
     "temperature": "../test_temperature_window.py::test_range_set_in_the_dialog_is_judged_and_plotted",
+    "shapes": "test_decisions_window.py::"
+              "test_distribution_shapes_dialog_shows_each_shape_and_flags_a_changed_recommendation",
+    "centre_values": "test_decisions_window.py::test_centre_values_dialog_applies_all_moves_as_one_undoable_edit",
     "report_html": "test_export_report_html",
     "report_pdf": "test_export_report_pdf",
     "show_phase": "test_phase_and_group_delay",

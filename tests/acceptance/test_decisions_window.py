@@ -84,3 +84,111 @@ def test_no_high_yield_line_when_many_boards_fail(window, qtbot):
     wait_idle(qtbot, window)
     assert window.results.yield_label.text()
     assert not window.results.high_yield.isVisible()
+
+
+# --- 2. distribution shapes ----------------------------------------------------------------------
+def band_file(tmp_path, c_lo: float, c_hi: float, samples: int = 3000):
+    """R1 10k exact, C1 10n 5 %; the mask passes C in [c_lo, c_hi] (tests/designs.py)."""
+    from designs import rc_capacitor_band
+
+    path = tmp_path / "band.json"
+    path.write_text(json.dumps(rc_capacitor_band({"name": "C-test-5", "kind": "C", "tolerance_pct": 5.0},
+                                                 c_lo, c_hi, samples=samples, seed=5)), encoding="utf-8")
+    return path
+
+
+def table_rows(table) -> list[list[str]]:
+    return [[table.item(i, j).text() if table.item(i, j) else "" for j in range(table.columnCount())]
+            for i in range(table.rowCount())]
+
+
+def click(widget) -> None:
+    QTest.mouseClick(widget, Qt.MouseButton.LeftButton)
+
+
+def wait_dialog_done(qtbot, dlg, timeout: int = 60_000) -> None:
+    qtbot.waitUntil(lambda: not dlg.running and dlg.run_button.isEnabled(), timeout=timeout)
+
+
+def test_distribution_shapes_dialog_shows_each_shape_and_flags_a_changed_recommendation(starter, qtbot, tmp_path):
+    from test_robustness import _closed_forms  # the closed forms of each shape (scipy.stats.truncnorm)
+
+    w = starter.launch(str(band_file(tmp_path, 10.2e-9, 11.6e-9, samples=20000)))
+    wait_idle(qtbot, w)
+    action(w, "shapes").trigger()
+    dlg = w.shapes_dialog
+    assert dlg.isVisible() and w.isEnabled()  # the work runs in the background
+    wait_dialog_done(qtbot, dlg)
+    rows = table_rows(dlg.yields)
+    truth = _closed_forms()
+    assert [r[0] for r in rows] == list(truth)
+    for shape, _model, y, _interval, _lower in rows:
+        n = 20000
+        passed = round(float(y.rstrip(" %")) / 100 * n)
+        ci = stats.binomtest(passed, n).proportion_ci(0.999, method="wilson")  # five checks at 99.9 %
+        assert ci.low <= truth[shape] <= ci.high, (shape, y, truth[shape])
+    assert not dlg.choices.isVisible()
+
+    # a band of +-4 % and a target of 90 %: uniform 5 % parts pass 80 % (4/5, by length), so the
+    # set chosen under the catalog's normal reading (its 5 % capacitor) misses there and changes
+    w2 = starter.launch(str(band_file(tmp_path, 9.6e-9, 10.4e-9)))
+    wait_idle(qtbot, w2)
+    action(w2, "shapes").trigger()
+    dlg = w2.shapes_dialog
+    wait_dialog_done(qtbot, dlg)
+    click(dlg.with_target)
+    dlg.target.lineEdit().selectAll()
+    QTest.keyClicks(dlg.target.lineEdit(), "90")
+    QTest.keyClick(dlg.target.lineEdit(), Qt.Key.Key_Tab)
+    assert dlg.target.value() == 90.0
+    click(dlg.run_button)
+    wait_dialog_done(qtbot, dlg, timeout=120_000)
+    assert dlg.choices.isVisible()
+    choices = {r[0]: r for r in table_rows(dlg.choices)}
+    assert "C-test-5" in choices["as graded"][1]
+    assert choices["uniform"][3] == "changed" and choices["uniform"][4] == "MISSES"
+    assert "depends on the distribution" in dlg.note.text()
+    assert not log_errors()
+
+
+# --- 4. centre values -------------------------------------------------------------------------------
+def test_centre_values_dialog_applies_all_moves_as_one_undoable_edit(starter, qtbot, tmp_path):
+    # C1 10n 5 % (E24) in a band of +2 % .. +16 %: at 10n a truncated normal passes
+    # truncnorm(-2, 2, scale=2.5 %).sf(2 %) (scipy.stats); the next E24 value 11n puts the
+    # whole +-5 % inside the band (-7.3 % .. +5.5 %): yield 1 (IEC 60063 E24: 10, 11)
+    w = starter.launch(str(band_file(tmp_path, 10.2e-9, 11.6e-9)))
+    wait_idle(qtbot, w)
+    before_edits = w.session.undo_stack.count()
+    action(w, "centre_values").trigger()
+    dlg = w.centre_dialog
+    wait_dialog_done(qtbot, dlg)
+    assert table_rows(dlg.table) == [
+        ["C1", "10 nF", "11 nF", "E24"]]
+    text = dlg.summary.text()
+    now, centred = (float(x) / 100 for x in re.findall(r"yield (?:now|centred) <b>([0-9.]+) %", text))
+    truth = stats.truncnorm(-2, 2, scale=0.025).sf(0.02)
+    n = w.session.design.analysis.samples
+    ci = stats.binomtest(round(now * n), n).proportion_ci(0.999, method="wilson")
+    assert ci.low <= truth <= ci.high
+    assert centred == 1.0 and "gain <b>+" in text and "standard error" in text
+    assert dlg.apply_button.isEnabled()
+    click(dlg.apply_button)
+    d = w.session.design
+    assert d.parts[d.part_index("C1")].value == pytest.approx(11e-9)
+    assert w.session.undo_stack.count() == before_edits + 1
+    assert "centre values" in w.session.undo_stack.undoText()
+    wait_idle(qtbot, w)
+    qtbot.waitUntil(lambda: "100.00 %" in w.results.yield_label.text(), timeout=WAIT_MS)
+    action(w, "undo").trigger()
+    d = w.session.design
+    assert d.parts[d.part_index("C1")].value == pytest.approx(10e-9)
+    assert dlg.apply_button.isEnabled()  # back on the searched design: it can be applied again
+    assert not log_errors()
+
+
+def test_closing_the_window_during_a_centre_search_stops_it(window, qtbot):
+    action(window, "centre_values").trigger()
+    dlg = window.centre_dialog
+    assert dlg.running
+    assert window.close()  # nothing unsaved: closes at once
+    assert not dlg.task.running  # its thread was waited for; nothing reports into a closed window
