@@ -53,7 +53,7 @@ STOPBAND_RESPONSES = ("elliptic", "inverse_chebyshev")  # responses with zeros: 
 RIPPLES_DB = (0.1, 0.5, 1.0, 2.0, 3.0)
 STOPBAND_DB = (20.0, 120.0)                     # dB: the stopband attenuation a design may ask for
 MAX_ORDER = 10
-_WORDS = {"chebyshev": "Chebyshev", "elliptic": "elliptic", "inverse_chebyshev": "inverse Chebyshev"}
+_WORDS = {"chebyshev": "a Chebyshev", "elliptic": "an elliptic", "inverse_chebyshev": "an inverse Chebyshev"}
 
 
 @dataclass(frozen=True)
@@ -113,7 +113,7 @@ def check_family(response: str, order: Any, ripple_db: float | None, stopband_db
         raise InputError(f"a Linkwitz-Riley response has an even order (2, 4, ...), not {order}", "order")
     if response in RIPPLED:
         if ripple_db is None:
-            raise InputError(f"a {_WORDS[response]} response needs the passband ripple in dB: "
+            raise InputError(f"{_WORDS[response]} response needs the passband ripple in dB: "
                              + ", ".join(f"{r:g}" for r in RIPPLES_DB), "ripple_db")
         if not any(abs(ripple_db - r) < 1e-12 for r in RIPPLES_DB):
             raise InputError(f"must be one of {', '.join(f'{r:g}' for r in RIPPLES_DB)} dB, not {ripple_db!r}",
@@ -121,12 +121,12 @@ def check_family(response: str, order: Any, ripple_db: float | None, stopband_db
     elif ripple_db is not None:
         raise InputError(f"a ripple applies to a Chebyshev or elliptic response only, not {response}", "ripple_db")
     if response in STOPBAND_RESPONSES and order < 2:
-        raise InputError(f"an {_WORDS[response]} response has order 2 or more (its zeros need a pole pair), "
+        raise InputError(f"{_WORDS[response]} response has order 2 or more (its zeros need a pole pair), "
                          f"not {order}", "order")
     if response in STOPBAND_RESPONSES:
         lo, hi = STOPBAND_DB
         if stopband_db is None:
-            raise InputError(f"an {_WORDS[response]} response needs the stopband attenuation in dB "
+            raise InputError(f"{_WORDS[response]} response needs the stopband attenuation in dB "
                              f"({lo:g} to {hi:g})", "stopband_db")
         if isinstance(stopband_db, bool) or not isinstance(stopband_db, (int, float, np.floating)) \
                 or not lo <= stopband_db <= hi:
