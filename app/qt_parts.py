@@ -18,6 +18,7 @@ from PySide6.QtWidgets import (QComboBox, QGridLayout, QLabel, QLineEdit, QPushB
 from ..design import MAX_SAMPLES, MAX_SEED, Design, check_part_value, check_seed
 from ..errors import InputError
 from ..values import PART_UNITS, format_value
+from .qt_part_menu import show_constraints, show_measured
 
 SLIDER_STEPS = 1000
 TOL_MIN, TOL_MAX = 0.05, 30.0  # percent, log scale
@@ -83,6 +84,10 @@ class PartRow:
         self.grade.activated.connect(lambda _i: panel._on_grade_chosen(self))
         self.slider.valueChanged.connect(lambda pos: panel._on_slider_moved(self, pos))
         self.slider.sliderReleased.connect(lambda: panel._on_slider_released(self))
+        # right-click on the part's name: lock, forbid, measured values (app/qt_part_menu.py)
+        self.label.setContextMenuPolicy(Qt.ContextMenuPolicy.CustomContextMenu)
+        self.label.customContextMenuRequested.connect(
+            lambda pos: panel.part_menu_requested.emit(ref, self.label.mapToGlobal(pos)))
 
 
 class PartsPanel(QWidget):
@@ -94,6 +99,7 @@ class PartsPanel(QWidget):
     tolerance_released = Signal(str, float)     # ref, tolerance %
     sampling_changed = Signal(int, object, str)  # samples, seed (a Python int: up to 2^63-1), method
     problem_shown = Signal(str)                 # a message for the status bar
+    part_menu_requested = Signal(str, object)   # ref, global QPoint (a right-click on the part's name)
 
     def __init__(self) -> None:
         super().__init__()
@@ -193,7 +199,11 @@ class PartsPanel(QWidget):
             row.grade.blockSignals(False)
             net = members.get(p.ref)
             row.slider.setEnabled(net is None)  # a member's spread is its network's, not its grade's
-            if net is not None:
+            show_constraints(row.label, p)
+            row.slider.setVisible(p.measured is None)  # measured values replace the grade's spread
+            if p.measured is not None:
+                show_measured(row.readout, p.measured)
+            elif net is not None:
                 row.slider.blockSignals(True)
                 row.slider.setValue(pct_to_slider(net.tolerance_pct))
                 row.slider.blockSignals(False)

@@ -15,6 +15,7 @@ from PySide6.QtWidgets import QToolBar
 
 from .qt_centre_dialog import open_centre
 from .qt_help import build_help_menu
+from .qt_part_menu import install_part_menu
 from .qt_shapes_dialog import open_shapes
 
 if TYPE_CHECKING:
@@ -137,3 +138,4 @@ def build_menus(w: "MainWindow") -> None:
         tb.addSeparator() if a is None else tb.addAction(a)
     w.addToolBar(tb)
     w._refresh_recent()
+    install_part_menu(w)  # a part's own menu in the parts panel (lock, forbid, measured values)

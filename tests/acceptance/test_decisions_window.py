@@ -192,3 +192,100 @@ def test_closing_the_window_during_a_centre_search_stops_it(window, qtbot):
     assert dlg.running
     assert window.close()  # nothing unsaved: closes at once
     assert not dlg.task.running  # its thread was waited for; nothing reports into a closed window
+
+
+# --- 3 and 5: a part's own menu in the parts panel (right-click on its name) --------------------------
+def part_action(qtbot, window, ref: str, name: str) -> QAction:
+    """Right-click part ``ref``'s name in the parts panel; the action ``name`` of the menu shown."""
+    from PySide6.QtGui import QContextMenuEvent
+    from PySide6.QtWidgets import QApplication
+
+    label = window.parts.rows[ref].label
+    centre = label.rect().center()
+    QApplication.sendEvent(label, QContextMenuEvent(QContextMenuEvent.Reason.Mouse, centre,
+                                                    label.mapToGlobal(centre)))
+    qtbot.waitUntil(lambda: getattr(window, "part_menu", None) is not None and window.part_menu.isVisible())
+    hits = [a for a in window.part_menu.findChildren(QAction) if a.objectName() == name]
+    hits += [a for m in window.part_menu.findChildren(type(window.part_menu)) for a in m.actions()
+             if a.objectName() == name and a not in hits]
+    assert len(hits) == 1, f"no single {name!r} in {ref}'s menu"
+    return hits[0]
+
+
+def choose(qtbot, window, ref: str, name: str) -> None:
+    a = part_action(qtbot, window, ref, name)
+    assert a.isEnabled()
+    a.trigger()  # a click on the entry
+    window.part_menu.close()
+
+
+def test_measured_values_from_csv_replace_a_parts_tolerance_as_one_undoable_edit(starter, qtbot, answers, shown,
+                                                                                 tmp_path):
+    # R1 fails above 10.1k (rc_file: floor at the gain of R = 10k (1 + 2 x 0.5 %), C exact).
+    # Boards resample the measured values (a bootstrap), so the yield is the share of measured
+    # values below 10.1k: 28 of 40 = 0.7 (counting), within the boards' binomial interval.
+    path, _ = rc_file(tmp_path, 2.0, samples=4000)
+    values = [9805 + 10 * k for k in range(28)] + [10115 + 10 * k for k in range(12)]
+    assert sum(v < 10100 for v in values) == 28
+    good = tmp_path / "reel.csv"
+    good.write_text("value,lot\n" + "".join(f"{v},L1\n" for v in values), encoding="utf-8")
+    bad = tmp_path / "bad reel.csv"
+    bad.write_text("value\n10.01k\n9.99k\nbanana\n", encoding="utf-8")
+    w = starter.launch(str(path))
+    wait_idle(qtbot, w)
+    edits = w.session.undo_stack.count()
+    row = w.parts.rows["R1"]
+    assert row.slider.isVisible()
+
+    answers.open_paths.append(str(bad))
+    choose(qtbot, w, "R1", "part_measured_csv")
+    problem = [s for s in shown.errors() if "Measured values" in s.title]
+    assert problem and "bad reel.csv line 4" in problem[-1].text  # the file and the line named
+    assert w.session.design.parts[0].measured is None and w.session.undo_stack.count() == edits
+    shown.shown.clear()
+
+    answers.open_paths.append(str(good))
+    choose(qtbot, w, "R1", "part_measured_csv")
+    m = w.session.design.parts[0].measured
+    assert m is not None and len(m.values) == 40 and w.session.undo_stack.count() == edits + 1
+    assert not row.slider.isVisible() and "measured: 40 values, 1 lot" in row.readout.text()
+    assert "lot-to-lot" in row.readout.toolTip() and "lot-to-lot" in w.status_text.text()
+    wait_idle(qtbot, w)
+    qtbot.waitUntil(lambda: w.session.last_view is not None and
+                    w.session.last_view.design.parts[0].measured is not None, timeout=WAIT_MS)
+    wait_idle(qtbot, w)
+    y = float(re.search(r"yield ([0-9.]+) %", w.results.yield_label.text()).group(1)) / 100
+    ci = stats.binomtest(round(y * 4000), 4000).proportion_ci(0.999, method="wilson")  # scipy.stats
+    assert ci.low <= 0.7 <= ci.high
+
+    action(w, "undo").trigger()
+    assert w.session.design.parts[0].measured is None and row.slider.isVisible()
+    action(w, "redo").trigger()
+    choose(qtbot, w, "R1", "part_measured_clear")
+    assert w.session.design.parts[0].measured is None and row.slider.isVisible()
+    action(w, "undo").trigger()
+    assert w.session.design.parts[0].measured is not None
+    assert not shown.errors() and not log_errors()
+
+
+def test_lock_and_forbid_from_a_parts_menu_are_undoable_and_saved(window, qtbot, answers, tmp_path):
+    w = window
+    edits = w.session.undo_stack.count()
+    choose(qtbot, w, "C1", "part_lock")
+    c1 = w.session.design.parts[w.session.design.part_index("C1")]
+    assert c1.locked and w.parts.rows["C1"].label.text() == "C1 (locked)"
+    choose(qtbot, w, "C1", "part_forbid:class II")
+    choose(qtbot, w, "C2", "part_forbid:X7R")
+    assert w.session.undo_stack.count() == edits + 3
+    assert "forbidden: class II" in w.parts.rows["C1"].label.toolTip()
+    out = tmp_path / "constrained.json"
+    answers.save_paths.append(str(out))
+    action(w, "file_save_as").trigger()
+    parts = {p["ref"]: p for p in json.loads(out.read_text(encoding="utf-8"))["parts"]}
+    assert parts["C1"]["locked"] is True and parts["C1"]["forbid"] == ["class II"]
+    assert parts["C2"]["forbid"] == ["X7R"] and "locked" not in parts["C2"]
+    for _ in range(3):
+        action(w, "undo").trigger()
+    c1 = w.session.design.parts[w.session.design.part_index("C1")]
+    assert not c1.locked and not c1.forbid and w.parts.rows["C1"].label.text() == "C1"
+    assert not log_errors()
