@@ -188,17 +188,22 @@ def test_snapped_design_stays_within_the_errors_it_reports(response, order, ripp
     assert np.max(np.abs(dev)) <= abs(checks["passband shape"].error) + 0.02
 
 
-def test_starting_mask_holds_the_guaranteed_stopband():
-    # scipy's response: the stopband edge and the level it guarantees (helpers above)
-    fc, stop = 1000.0, 50.0
-    res = synthesize("elliptic", 5, fc, ripple_db=0.5, stopband_db=stop)
+@pytest.mark.parametrize("order", [4, 5])
+def test_starting_mask_holds_the_guaranteed_stopband(order):
+    # scipy's response: the stopband edge and the level it guarantees (helpers above); the
+    # mask is relative to the DC gain, which for an even order is the ripple's bottom
+    fc, stop, ripple = 1000.0, 50.0, 0.5
+    res = synthesize("elliptic", order, fc, ripple_db=ripple, stopband_db=stop, snap=False)
     (span,) = [s for s in res.design.mask if s.name == "stopband ceiling"]
-    z, p, k = scipy_target("elliptic", 5, fc, "lowpass", 0.5, stop)
-    edge = optimize.brentq(lambda x: 20 * math.log10(zpk_h(z, p, k, np.array([x]))[0]) + stop,
+    z, p, k = scipy_target("elliptic", order, fc, "lowpass", ripple, stop)
+    peak = float(np.max(zpk_h(z, p, k, np.geomspace(1, fc, 20001))))  # scipy: 1 (0 dB) for ellip
+    edge = optimize.brentq(lambda x: 20 * math.log10(zpk_h(z, p, k, np.array([x]))[0] / peak) + stop,
                            fc, float(np.min(np.abs(z))) / TWO_PI * (1 - 1e-9), xtol=1e-12)
     assert span.f1 == pytest.approx(edge, rel=1e-6)
     assert span.f2 == pytest.approx(res.design.analysis.f_stop)
-    assert span.limit1 == pytest.approx(-stop)  # odd order: DC is the passband's peak (scipy: gain 0 dB)
+    dc_db = 20 * math.log10(zpk_h(z, p, k, np.array([0.0]))[0] / peak)
+    assert dc_db == pytest.approx(0.0 if order % 2 else -ripple, abs=1e-6)  # scipy ellip's DC gain (peak on a grid)
+    assert span.limit1 == pytest.approx(math.ceil(10 * (-stop - dc_db) - 1e-6) / 10)
     assert span.relative
 
 
