@@ -90,19 +90,37 @@ def window_report(design: Design, rec: Any = None, curve: Any = None, searched: 
     its own grades and, when given, the recommendation ``rec`` found from ``searched`` and
     its cost-yield ``curve``. When ``view`` (the window's last :class:`ViewData`) shows every
     board of ``design``, its analysis is completed (corners; the figure's first boards) and
-    no board is evaluated again; otherwise the design is analysed."""
+    no board is evaluated again; otherwise the design is analysed. The title block reads the
+    design's name, revision and author; the robustness table is the design's grades under
+    the other distribution shapes on the analysis's boards, and with a recommendation the
+    current and recommended sets are compared on the search's boards."""
     from ..analysis import analyze, completed
     from ..recommend import parts_list_rows, worst_margin_metric
     from ..report import FIGURE_BOARDS, build_report
+    from ..robustness import shapes_for_report
 
     shown = shown_result(design, view)
     if shown is not None:
         result = completed(shown, curves=FIGURE_BOARDS)
     else:
-        result = analyze(design, curves=FIGURE_BOARDS, progress=progress, should_stop=should_stop)
+        result = analyze(design, curves=FIGURE_BOARDS, rare="auto", progress=progress, should_stop=should_stop)
     rows = parts_list_rows(design, None, result.budget, metric=worst_margin_metric(result.ensemble))
+    shapes = shapes_for_report(result) if design.mask else []
+    comparison, target = _comparison(rec, searched)
     return build_report(result, recommendation=rec, curve=curve or None, parts_rows=rows,
-                        current=searched)
+                        current=searched, comparison=comparison, target=target, shapes=shapes)
+
+
+def _comparison(rec: Any, searched: Design | None) -> tuple[list, float | None]:
+    """The current and recommended grade sets side by side on the search's boards (its seed
+    and count), and the target; nothing without a chosen set."""
+    if rec is None or rec.chosen is None or searched is None:
+        return [], None
+    from ..grade_sets import compare_sets
+
+    sets = [("current", tuple(rec.current_grades)), ("recommended", tuple(rec.chosen.grades))]
+    found = compare_sets(searched, sets, samples=rec.chosen.samples, seed=rec.seed, confidence=rec.confidence)
+    return found, rec.target_yield
 
 
 # --- PDF -------------------------------------------------------------------------------------------

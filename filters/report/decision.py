@@ -184,7 +184,9 @@ def high_yield_section(ctx: Context) -> str:
             ["Boards drawn", f"{format_count(r.boards)} around {len(r.points)} failure point(s), "
                              f"{format_count(r.failing)} failing (weighted)"],
             ["Plain boards for the same interval", boards]]
-    return (f"<p>Few boards failed, so the failure rate was estimated again by importance sampling: boards drawn "
+    why = ("Few boards failed, so the failure rate was estimated again" if failing < RARE_TRIGGER
+           else "The failure rate was also estimated (as asked)")
+    return (f"<p>{why} by importance sampling: boards drawn "
             f"around the likeliest failure points found from the margins' sensitivities, weighted back to the "
             f"parts' distributions.</p>{table(['Quantity', 'Importance estimate'], rows)}"
             f"<p>{esc(plain)} The headline yield of this report is plain sampling's; the importance estimate "
@@ -214,10 +216,13 @@ def measured_section(ctx: Context) -> str:
     body = [[esc(r["ref"]), esc(r["source"]), format_count(r["n"]), f"{r['mean_pct']:+.3f} %",
              f"{r['sd_pct']:.3f} %", f"{r['min_pct']:+.3f} % to {r['max_pct']:+.3f} %", format_count(r["lots"]),
              "" if r["tempco_ppm"] is None else f"{r['tempco_ppm']:+.0f} ppm/K"] for r in rows]
+    head = ["Part", "File", "Values", "Mean deviation", "Standard deviation", "Range", "Lots",
+            "Measured coefficient"]
+    if all(r["tempco_ppm"] is None for r in rows):  # no temperatures measured: no empty column
+        head, body = head[:-1], [b[:-1] for b in body]
     out = ["<p>These parts are drawn from their measured values (resampled as measured) instead of their "
            "grade's model; deviations are from the marked value.</p>",
-           table(["Part", "File", "Values", "Mean deviation", "Standard deviation", "Range", "Lots",
-                  "Measured coefficient"], body, numeric=[2, 3, 4, 5, 6, 7])]
+           table(head, body, numeric=[2, 3, 4, 5, 6, 7])]
     one_lot = [r["ref"] for r in rows if r["lots"] == 1]
     if one_lot:
         out.append(f'<p class="bad">Caution: {esc(", ".join(one_lot))} '

@@ -93,7 +93,7 @@ table.caution { border: 2px solid #b36b00; background: #fff4e0; margin-top: 24px
 table.caution td { border: none; padding: 10px 14px; }
 ul.assumptions li { margin-bottom: 3px; }
 table.titleblock td { font-size: 15px; }
-table.signoff td { height: 34px; min-width: 170px; border-bottom: 1px solid #1a1a1a; }
+table.signoff td { height: 40px; border-bottom: 1px solid #1a1a1a; }
 @media print { div.figure { page-break-inside: avoid; } thead { display: table-header-group; } }
 """
 
@@ -117,7 +117,7 @@ p.caption { color: #444444; font-size: 8pt; margin-top: 1pt; }
 table.caution { border: 2px solid #b36b00; background: #fff4e0; margin-top: 10pt; font-size: 9pt; }
 table.caution td { border: none; padding: 6px 8px; }
 li { margin-bottom: 2pt; }
-table.signoff td { padding: 12px 3px; }
+table.signoff td { padding: 14px 3px; }
 """
 
 

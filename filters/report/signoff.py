@@ -63,5 +63,6 @@ def signoff_section(ctx: Context) -> str:
         rows.append(f"<tr><th>{esc(role)}</th><td>{name}</td><td>{_BLANK}</td><td>{_BLANK}</td></tr>")
     return ("<p>By signing, each person states that they have read this report, including its assumptions and "
             "caution, and accept its conclusions for the purpose stated.</p>"
-            '<table class="signoff"><thead><tr><th>Role</th><th>Name</th><th>Signature</th><th>Date</th></tr>'
-            "</thead><tbody>" + "".join(rows) + "</tbody></table>")
+            '<table class="signoff" width="100%"><thead><tr><th width="16%">Role</th><th width="32%">Name</th>'
+            '<th width="32%">Signature</th><th width="20%">Date</th></tr></thead><tbody>' + "".join(rows)
+            + "</tbody></table>")
