@@ -96,9 +96,6 @@ def test_pdf_report_has_title_block_numbered_pages_caution_and_sign_off(window, 
         dark = sum(1 for y in range(0, img.height(), 4) for x in range(0, img.width(), 4)
                    if QImage.pixelColor(img, x, y).lightness() < 128)
         assert dark > 20, f
-    keep = Path("/tmp/jrep")  # a copy to look at while working on the report (ignored when absent)
-    if keep.is_dir():
-        shutil.copy(path, keep / "window.pdf")
     assert not log_errors(), log_errors()
 
 
