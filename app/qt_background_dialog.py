@@ -48,9 +48,7 @@ class BackgroundDialog(QDialog):
 
     def add_note(self, name: str) -> QLabel:
         """A word-wrapped label for the result (rich text), added to the layout."""
-        label = QLabel("")
-        label.setObjectName(name)
-        label.setWordWrap(True)
+        label = note_label(name)
         self.lay.addWidget(label)
         return label
 
@@ -157,3 +155,11 @@ def fill_table(table: QTableWidget, rows: list[list[str]]) -> None:
 def pct(x: float) -> str:
     """A fraction as a percentage with two decimals."""
     return f"{100 * x:.2f} %"
+
+
+def note_label(name: str) -> QLabel:
+    """An empty word-wrapped label named ``name`` (its text set when a result arrives)."""
+    label = QLabel("")
+    label.setObjectName(name)
+    label.setWordWrap(True)
+    return label

@@ -8,12 +8,14 @@ from PySide6.QtWidgets import (QCheckBox, QDialog, QDoubleSpinBox, QFileDialog, 
                                QHeaderView, QLabel, QProgressBar, QPushButton, QSpinBox, QTableWidget,
                                QTableWidgetItem, QVBoxLayout)
 
+from ..constraints import unit_price
 from ..design import Design
 from ..errors import InputError
 from ..parts_list import parts_list_rows, worst_margin_metric, write_parts_csv
 from ..recommend import Recommendation, cost_yield_curve, recommend
 
 from . import qt_style as st
+from .qt_grade_sets import Extras, GradeSetsView, decision_extras
 from .qt_tasks import BackgroundTask
 
 
@@ -79,6 +81,8 @@ class RecommendDialog(QDialog):
         self.table.verticalHeader().hide()
         self.table.setEditTriggers(QTableWidget.EditTrigger.NoEditTriggers)
         lay.addWidget(self.table, 2)
+        self.sets_view = GradeSetsView()  # the class II warning and the sets side by side (app/qt_grade_sets.py)
+        lay.addWidget(self.sets_view)
         self.curve_plot = pg.PlotWidget()
         self.curve_plot.setObjectName("cost_yield_plot")
         self.curve_plot.setBackground("w")
@@ -124,7 +128,7 @@ class RecommendDialog(QDialog):
                             should_stop=should_stop)
             curve = cost_yield_curve(design, confidence=confidence, samples=samples,
                                      should_stop=should_stop) if want_curve else None
-            return rec, curve
+            return rec, curve, decision_extras(design, rec, target, confidence, samples, should_stop)
 
         self.task = BackgroundTask(job, self)
         self.task.finished.connect(self._on_finished)
@@ -147,14 +151,14 @@ class RecommendDialog(QDialog):
         self.progress.hide()
 
     def _on_finished(self, out) -> None:
-        rec, curve = out
+        rec, curve, extras = out
         self.recommendation, self.curve = rec, curve
         self.run_button.setEnabled(True)
         self.cancel_button.setEnabled(False)
         self.progress.hide()
-        self.show_recommendation(rec, curve)
+        self.show_recommendation(rec, curve, extras)
 
-    def show_recommendation(self, rec: Recommendation, curve=None) -> None:
+    def show_recommendation(self, rec: Recommendation, curve=None, extras: Extras | None = None) -> None:
         pct = lambda x: f"{100 * x:.2f} %"  # noqa: E731
         d = self.design
         if rec.chosen is None:
@@ -169,13 +173,21 @@ class RecommendDialog(QDialog):
             if rec.verified is not None:
                 check = (f" On {rec.verified.samples:,} fresh boards: yield {pct(rec.verified.estimate)}, lower bound "
                          f"{pct(rec.verified.lower)} — the target {'holds' if rec.meets_on_fresh_seed else 'does NOT hold'}.")
-            self.summary.setText(f"<b>total relative cost {c.cost:.2f}</b> (current grades {rec.current_cost:.2f}); "
+            cost = (f"<b>{c.cost:.4g} {extras.currency or 'money'} per board</b> at {extras.boards:,} boards"
+                    if extras is not None and extras.money else
+                    f"<b>total relative cost {c.cost:.2f}</b> (current grades {rec.current_cost:.2f})")
+            self.summary.setText(f"{cost}; "
                                  f"yield {pct(c.estimate)}, lower bound "
                                  f"{pct(c.lower)} ({c.passed:,} of {c.samples:,} boards; {rec.evaluations} grade "
                                  f"sets tried).{check}")
             self.table.setRowCount(len(d.parts))
+            money = extras is not None and extras.money
+            self.table.setHorizontalHeaderItem(4, QTableWidgetItem(
+                f"unit price ({extras.currency or 'money'})" if money else "relative cost"))
             for i, (p, g) in enumerate(zip(d.parts, c.grades)):
-                cells = [p.ref, p.value_text, p.grade, g, f"{cat[g].cost:.2f}"]
+                price = unit_price(cat[g], extras.boards) if money else None
+                cells = [p.ref + (" (locked)" if p.locked or p.measured is not None else ""), p.value_text,
+                         p.grade, g, f"{cat[g].cost:.2f}" if price is None else f"{price:.4g}"]
                 for j, text in enumerate(cells):
                     item = QTableWidgetItem(text)
                     if j == 3 and g != p.grade:
@@ -186,6 +198,8 @@ class RecommendDialog(QDialog):
                     self.table.setItem(i, j, item)
             self.apply_button.setEnabled(True)
             self.csv_button.setEnabled(True)
+        if extras is not None:
+            self.sets_view.show_extras(d, extras, rec.target_yield)
         if curve:
             self.curve_plot.show()
             self.curve_plot.clear()

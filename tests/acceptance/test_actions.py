@@ -123,6 +123,9 @@ COVERAGE = {
     "shapes": "test_decisions_window.py::"
               "test_distribution_shapes_dialog_shows_each_shape_and_flags_a_changed_recommendation",
     "centre_values": "test_decisions_window.py::test_centre_values_dialog_applies_all_moves_as_one_undoable_edit",
+    "purchase": "test_decisions_window.py::"
+                "test_purchase_dialog_then_recommend_shows_money_class_ii_warning_and_sets_side_by_side",
+    "report_details": "test_report_signoff_window.py::test_report_details_are_one_undoable_edit",
     "report_html": "test_export_report_html",
     "report_pdf": "test_export_report_pdf",
     "show_phase": "test_phase_and_group_delay",

@@ -289,3 +289,66 @@ def test_lock_and_forbid_from_a_parts_menu_are_undoable_and_saved(window, qtbot,
     c1 = w.session.design.parts[w.session.design.part_index("C1")]
     assert not c1.locked and not c1.forbid and w.parts.rows["C1"].label.text() == "C1"
     assert not log_errors()
+
+
+# --- 5. purchase, prices, the class II warning and the grade sets side by side -------------------------
+def priced_file(tmp_path):
+    """A first-order RC low-pass with the priced catalog of tests/test_constraints.py (C1 may
+    take an X7R grade, the cheapest) and no purchase stated."""
+    from test_constraints import CATALOG, _rc
+
+    d = _rc("rc_lowpass", "10k", "10n", 100, 1000, -1.6)  # nominal -1.445 dB at 1 kHz
+    d["parts"][0]["grade"], d["parts"][1]["grade"] = "R-b-1", "C-g-2"
+    d["grades"] = CATALOG["grades"]
+    path = tmp_path / "priced.json"
+    path.write_text(json.dumps(d), encoding="utf-8")
+    return path, CATALOG
+
+
+def test_purchase_dialog_then_recommend_shows_money_class_ii_warning_and_sets_side_by_side(starter, qtbot,
+                                                                                           tmp_path):
+    from PySide6.QtWidgets import QDialogButtonBox
+
+    path, catalog = priced_file(tmp_path)
+    w = starter.launch(str(path))
+    wait_idle(qtbot, w)
+    edits = w.session.undo_stack.count()
+    action(w, "purchase").trigger()
+    dlg = w.purchase_dialog
+    dlg.boards.lineEdit().selectAll()
+    QTest.keyClicks(dlg.boards.lineEdit(), "5000")
+    QTest.keyClicks(dlg.currency, "EUR")
+    click(dlg.findChild(QDialogButtonBox).button(QDialogButtonBox.StandardButton.Ok))
+    p = w.session.design.purchase
+    assert (p.boards, p.currency) == (5000, "EUR") and w.session.undo_stack.count() == edits + 1
+
+    action(w, "recommend").trigger()
+    rec = w.recommend_dialog
+    rec.samples.setValue(2000)
+    rec.target.lineEdit().selectAll()
+    QTest.keyClicks(rec.target.lineEdit(), "50")
+    QTest.keyClick(rec.target.lineEdit(), Qt.Key.Key_Tab)
+    click(rec.run_button)
+    qtbot.waitUntil(rec.apply_button.isEnabled, timeout=120_000)
+    view = rec.sets_view
+    assert view.isVisible() and view.warning.isVisible()
+    assert "C1" in view.warning.text() and "class II" in view.warning.text()  # common practice
+    rows = {r[0]: r for r in table_rows(view.table)}
+    assert list(rows) == ["current", "recommended", "no class II"]
+    assert "EUR per board at 5,000 boards" in view.heading.text() and "EUR per board" in rec.summary.text()
+    # money per board summed independently from the catalog's breaks at 5,000 (the 1,000 break)
+    price = {g["name"]: [q_p[1] for q_p in g["prices"] if q_p[0] <= 5000][-1] for g in catalog["grades"]}
+    chosen = {rec.table.item(i, 0).text(): rec.table.item(i, 3).text() for i in range(rec.table.rowCount())}
+    assert chosen["C1"] == "C-x-10"  # the cheapest, class II
+    total = price[chosen["R1"]] + price[chosen["C1"]]
+    assert float(rows["recommended"][1].split()[0]) == pytest.approx(total, rel=1e-3)
+    assert float(rows["current"][1].split()[0]) == pytest.approx(price["R-b-1"] + price["C-g-2"], rel=1e-3)
+    assert "C1 C-g-" in rows["no class II"][6]  # the alternative gives C1 a C0G grade
+    for r in rows.values():  # yield inside its interval, lower bound below it
+        y, lo_hi, lb = (x for x in (r[2], r[3], r[4]))
+        lo, hi = (float(x) for x in re.findall(r"([0-9.]+) %", lo_hi))
+        assert lo <= float(y.rstrip(" %")) <= hi and float(lb.rstrip(" %")) <= float(y.rstrip(" %"))
+    rec.reject()
+    action(w, "undo").trigger()
+    assert w.session.design.purchase.boards == 0
+    assert not log_errors()
