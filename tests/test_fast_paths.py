@@ -23,7 +23,7 @@ import numpy as np
 import pytest
 
 from tolspread import evaluate as evaluate_module
-from tolspread import recommend as recommend_module
+from tolspread import grade_search as grade_search_module  # where the search evaluates a candidate
 from tolspread.analysis import analyze
 from tolspread.designfile import load, load_demo
 from tolspread.evaluate import evaluate, evaluate_values, prepare
@@ -159,7 +159,7 @@ def test_recommend_on_the_pass_fail_path_matches_the_full_path(monkeypatch):
         kwargs["metrics"] = True
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(recommend_module, "evaluate", full_evaluation)
+    monkeypatch.setattr(grade_search_module, "evaluate", full_evaluation)
     slow = recommend(design, 0.8, samples=600, seed=5)
     assert fast.chosen == slow.chosen and fast.verified == slow.verified
     assert fast.history == slow.history
