@@ -11,7 +11,7 @@ rich-text layout and PDF writer, page by page:
   end a page without its successor starts the next page instead);
 * tables repeat their header row on every page (``<thead>``, which Qt's HTML import turns
   into :meth:`QTextTableFormat.setHeaderRowCount`);
-* every page has a footer with the report's title and "page N of M".
+* every page has a footer with the report's title (and the design's revision) and "page N of M".
 """
 from __future__ import annotations
 
@@ -213,7 +213,7 @@ def write_pdf(report: Report, path: Path) -> None:
             painter.setPen(Qt.GlobalColor.darkGray)
             line = QRectF(0, size.height(), size.width(), FOOTER_PX)
             painter.drawText(line, int(Qt.AlignmentFlag.AlignLeft | Qt.AlignmentFlag.AlignBottom),
-                             report.title[:90])
+                             (report.footer or report.title)[:90])
             painter.drawText(line, int(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignBottom),
                              f"page {i + 1} of {pages}")
     finally:

@@ -178,4 +178,6 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
     if caution:
         out.append(caution)
     sizes = {name: svg_size(svg) for name, svg in ctx.figures.items()}
-    return Report(head_title, "\n".join(out), ctx.figures, sizes)
+    rev = ctx.design.revision
+    footer = f"{head_title} \u00b7 revision {rev}" if rev else head_title  # on every printed page
+    return Report(head_title, "\n".join(out), ctx.figures, sizes, footer)

@@ -40,12 +40,14 @@ _FIGURE_RE = re.compile(r"<!--figure:([A-Za-z0-9_-]+)-->")
 @dataclass(frozen=True)
 class Report:
     """A built report. ``body`` is the HTML body with a marker where each figure goes;
-    ``figures`` maps figure name -> standalone SVG text; ``sizes`` name -> (width, height)."""
+    ``figures`` maps figure name -> standalone SVG text; ``sizes`` name -> (width, height);
+    ``footer`` the line a printed page starts its footer with (default: the title)."""
 
     title: str
     body: str
     figures: dict[str, str]
     sizes: dict[str, tuple[int, int]] = field(default_factory=dict)
+    footer: str = ""
 
     def _document(self, figure: Callable[[str], str], css: str = "") -> str:
         body = _FIGURE_RE.sub(lambda m: figure(m.group(1)), self.body)

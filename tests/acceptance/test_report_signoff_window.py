@@ -74,8 +74,8 @@ def test_pdf_report_has_title_block_numbered_pages_caution_and_sign_off(window, 
     pages = pdf_pages(path)
     n = len(pages)
     assert n >= 3
-    for i, page in enumerate(pages, start=1):  # every page numbered
-        assert f"page {i} of {n}" in page, i
+    for i, page in enumerate(pages, start=1):  # every page numbered, with the revision in its footer
+        assert f"page {i} of {n}" in page and "revision B page" in page, i
     first = pages[0]
     assert "Revision" in first and "Author" in first and "A. Person" in first and "tolspread" in first
     assert window.session.design.name in first
