@@ -5,7 +5,7 @@
     tolspread design --response butterworth --order 4 --cutoff 2k -o lowpass.json
     tolspread design --response chebyshev --ripple 1 --order 5 --cutoff 10k --gbw 1M -o cheb.json
     tolspread design --response bessel --order 2 --kind bandpass --cutoff 1k --bandwidth 200 -o bp.json
-    tolspread design --response elliptic --ripple 0.5 --stopband 50 --order 5 --cutoff 1k -o cauer.json
+    tolspread design --response elliptic --ripple 0.5 --stopband 40 --order 5 --cutoff 1k -o cauer.json
     tolspread design --response inverse_chebyshev --stopband 40 --order 4 --cutoff 1k -o ic.json
     tolspread design --response butterworth --order 2 --kind bandstop --cutoff 50 --bandwidth 20 -o hum.json
 

@@ -122,7 +122,14 @@ def _refine_jointly(stages: list[dict[str, Any]], choices: list[list["SectionCho
         roles = ROLES[st["topology"]]
         _, coeffs = section_coeffs(st["topology"], roles, np.array([[c.values[r] for r in roles] for c in cs]))
         g2 = gain2_at(coeffs, np.broadcast_to(f, (len(cs), f.size)))
-        sec_db.append(10 * np.log10(np.maximum(g2, 1e-300)))
+        # one more column: minus the candidate's designed (exact-value) gain at the reference
+        # frequency, so the cascade's reference is held against the gain its sections were
+        # designed for, as error_checks does (a notch section's is not 0 dB: C3 is a series value)
+        designed = np.zeros((len(cs), 1))
+        if kind != "bandpass":
+            _, exact = section_coeffs(st["topology"], roles, np.array([[c.exact[r] for r in roles] for c in cs]))
+            designed[:, 0] = 10 * np.log10(np.maximum(gain2_at(exact, np.broadcast_to(ref_f, (len(cs), 1))), 1e-300))[:, 0]
+        sec_db.append(np.concatenate([10 * np.log10(np.maximum(g2, 1e-300)), -designed], axis=1))
         f0t, qt, fzt = st["target"]
         sec_err.append(np.array([max(abs(c.f0_hz / f0t - 1) / limits.cutoff,
                                      0.0 if qt is None or c.q is None else abs(c.q / qt - 1) / limits.q,
@@ -132,7 +139,7 @@ def _refine_jointly(stages: list[dict[str, Any]], choices: list[list["SectionCho
     c_ideal, b_ideal = ideal.cutoff()
 
     def objective(total: np.ndarray, sec_worst: np.ndarray) -> np.ndarray:
-        ref = np.max(total[:, ref_f.size:], axis=1) if kind == "bandpass" else total[:, 0]
+        ref = np.max(total[:, ref_f.size:f.size], axis=1) if kind == "bandpass" else total[:, 0]
         rel = total - ref[:, None]
         p = rel[:, sl_pas]
         terms = [np.max(np.abs(p - ideal_db[sl_pas]), axis=1) / limits.gain_db,
@@ -144,9 +151,11 @@ def _refine_jointly(stages: list[dict[str, Any]], choices: list[list["SectionCho
             upper = _cross(rel[:, sl_win[1]], windows[1], level, rising=kind == "bandstop")
             terms += [np.abs(np.sqrt(lower * upper) / c_ideal - 1) / limits.cutoff,
                       np.abs((upper - lower) / b_ideal - 1) / limits.bandwidth]  # type: ignore[operator]
+            if kind == "bandstop":
+                terms.append(np.abs(ref + total[:, f.size]) / limits.gain_db)
         else:
             c = _cross(rel[:, sl_win[0]], windows[0], level, rising=kind == "highpass")
-            terms += [np.abs(c / c_ideal - 1) / limits.cutoff, np.abs(ref) / limits.gain_db]
+            terms += [np.abs(c / c_ideal - 1) / limits.cutoff, np.abs(ref + total[:, f.size]) / limits.gain_db]
         t = np.stack(terms)
         return np.max(t, axis=0) + 1e-3 * np.sum(t * t, axis=0)
 
