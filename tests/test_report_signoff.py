@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import json
 import re
+import shutil
 import subprocess
 import sys
 from datetime import datetime, timezone
@@ -253,3 +254,18 @@ def test_revision_and_author_round_trip_and_bad_values_name_the_field(tmp_path):
     assert run.returncode == 2 and "author" in run.stderr and "Traceback" not in run.stderr
     run = run_cli("recommend", "--target-yield", "0.9", "--author", "x" * 201)
     assert run.returncode == 2 and "--author" in run.stderr and "Traceback" not in run.stderr
+
+
+@pytest.mark.skipif(not (shutil.which("chromium") and shutil.which("pdftotext")), reason="needs chromium and poppler")
+def test_html_printed_by_a_browser_numbers_its_pages(recommended, tmp_path):
+    # the HTML file printed to paper by a browser (headless chromium) carries "page N of M" too
+    d, _, _ = recommended
+    pdf = tmp_path / "printed.pdf"
+    subprocess.run(["chromium", "--headless", "--no-sandbox", "--no-pdf-header-footer", f"--print-to-pdf={pdf}",
+                    (d / "r.html").as_uri()], capture_output=True, timeout=120)
+    text = subprocess.run(["pdftotext", "-layout", str(pdf), "-"], capture_output=True, text=True,
+                          check=True).stdout
+    pages = [p for p in text.split("\f") if p.strip()]
+    assert len(pages) >= 3
+    for i, page in enumerate(pages, start=1):
+        assert f"page {i} of {len(pages)}" in page, i

@@ -96,7 +96,10 @@ table.caution td { border: none; padding: 10px 14px; }
 ul.assumptions li { margin-bottom: 3px; }
 table.titleblock td { font-size: 15px; }
 table.signoff td { height: 40px; border-bottom: 1px solid #1a1a1a; }
-@media print { div.figure { page-break-inside: avoid; } thead { display: table-header-group; } }
+@media print { div.figure { page-break-inside: avoid; } thead { display: table-header-group; }
+               table.signoff { page-break-inside: avoid; } }
+@page { margin: 15mm 15mm 18mm 15mm;
+        @bottom-right { content: "page " counter(page) " of " counter(pages); font: 9px sans-serif; color: #555555; } }
 """
 
 
