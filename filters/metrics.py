@@ -370,13 +370,40 @@ class GridScan:
 
 def lowpass_level_db(coeffs: list[StageCoefficients], cutoff_db: float) -> np.ndarray:
     """A low-pass's cutoff level (dB, (S,)): ``cutoff_db`` below its DC gain, the level
-    :func:`cutoff_metrics` compares the grid with (known before the response)."""
+    :func:`cutoff_metrics` compares the grid with (known before the response).
+
+    Parameters
+    ----------
+    coeffs : list of StageCoefficients
+        Per stage, the coefficients of every board (S, K), ascending powers of s.
+    cutoff_db : float
+        Cutoff level in dB below the DC gain.
+
+    Returns
+    -------
+    np.ndarray
+        (S,) float levels in dB.
+    """
     return _db(dc_gain2(coeffs) * 10 ** (-cutoff_db / 10))
 
 
 def scan_block(gain_db: np.ndarray, level_db: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """:class:`GridScan`'s readings for the rows of one block: gain (rows, F) in dB, level
-    (rows,) from :func:`lowpass_level_db`. Returns (peak, edge, found), each (rows,)."""
+    (rows,) from :func:`lowpass_level_db`. Returns (peak, edge, found), each (rows,).
+
+    Parameters
+    ----------
+    gain_db : np.ndarray
+        (rows, F) gain in dB.
+    level_db : np.ndarray
+        (rows,) cutoff level in dB.
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray, np.ndarray]
+        (peak, edge, found), each (rows,): grid index of the highest gain (int), last grid
+        index at or above the level (int) and whether there is one (bool).
+    """
     edge, found = _last_true(gain_db >= level_db[:, None])
     return np.argmax(gain_db, axis=1), edge, found
 

@@ -206,7 +206,18 @@ def assumption_texts(analysis: Any) -> list[str]:
 
 def yield_note(result: Any) -> str:
     """One line saying what the stated yield covers (the judged temperatures) and the
-    yield after the service life; "" when the design asks for neither (or no result)."""
+    yield after the service life; "" when the design asks for neither (or no result).
+
+    Parameters
+    ----------
+    result : AnalysisResult or None
+        An analysis result.
+
+    Returns
+    -------
+    str
+        The line ("" when there is nothing to say).
+    """
     if result is None:
         return ""
     parts = []

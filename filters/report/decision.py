@@ -195,7 +195,18 @@ def high_yield_section(ctx: Context) -> str:
 
 
 def has_measured(ctx: Context) -> bool:
-    """Whether a part of the design carries measured values."""
+    """Whether a part of the design carries measured values.
+
+    Parameters
+    ----------
+    ctx : Context
+        The report's context.
+
+    Returns
+    -------
+    bool
+        True when some part has measured values.
+    """
     return any(getattr(p, "measured", None) is not None for p in ctx.design.parts)
 
 
