@@ -2,7 +2,9 @@
 
 The shortcuts table is built from the window's own actions (their menus, texts and key
 sequences as Qt reports them), so it cannot drift from what the keys really do. Each help
-window is a non-modal dialog, opened once and raised again on the next request.
+window is a non-modal dialog, opened once and raised again on the next request. The three
+help windows (guide, shortcuts, About) are one plain dialog each around a text or a table,
+built by one function (``_dialog``), so they share this module rather than a file each.
 """
 from __future__ import annotations
 
