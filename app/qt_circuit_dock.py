@@ -48,11 +48,10 @@ def install_circuit_docks(window: "MainWindow") -> None:
     editor = StageEditor(window.apply_edit)
     window.circuit_view, window.stage_editor = view, editor
     window.dock_circuit = _dock(window, view, "Circuit", "dock_circuit")
-    scroll = QScrollArea()  # the editor scrolls rather than squeezing the drawing above the tabs
+    # the editor scrolls rather than squeezing the drawing above the tabs or widening the parts
+    scroll = QScrollArea()
     scroll.setWidgetResizable(True)
     scroll.setWidget(editor)
-    scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
-    scroll.setMinimumWidth(editor.minimumSizeHint().width() + scroll.verticalScrollBar().sizeHint().width())
     window.dock_stages = _dock(window, scroll, "Stages", "dock_stages")
     window.addDockWidget(Qt.DockWidgetArea.LeftDockWidgetArea, window.dock_circuit)
     window.splitDockWidget(window.dock_circuit, window.dock_parts, Qt.Orientation.Vertical)

@@ -49,6 +49,12 @@ def _buffered(stage) -> bool:
     return getattr(stage, "buffered", True)
 
 
+def _note(html: str) -> QLabel:
+    label = QLabel(html)
+    label.setWordWrap(True)
+    return label
+
+
 def _button(text: str, name: str, tip: str) -> QPushButton:
     b = QPushButton(text)
     b.setObjectName(name)
@@ -85,20 +91,19 @@ class StageEditor(QWidget):
         self._select_next: int | None = None
         lay = QVBoxLayout(self)
         lay.setContentsMargins(4, 4, 4, 4)
-        top = QHBoxLayout()
         self.stage_list = QListWidget()
         self.stage_list.setObjectName("stage_list")
         self.stage_list.setMaximumHeight(110)
-        top.addWidget(self.stage_list, 1)
-        side = QVBoxLayout()
+        lay.addWidget(self.stage_list)
+        side = QHBoxLayout()  # under the list: the dock is as narrow as the parts panel
         self.add_stage = _button("Add stage", "stage_add", "add a Sallen-Key low-pass stage with new parts at the end")
         self.remove_stage = _button("Remove", "stage_remove", "remove the chosen stage and the parts only it uses")
         self.up = _button("Up", "stage_up", "move the chosen stage one place towards the input")
         self.down = _button("Down", "stage_down", "move the chosen stage one place towards the output")
         for b in (self.add_stage, self.remove_stage, self.up, self.down):
             side.addWidget(b)
-        top.addLayout(side)
-        lay.addLayout(top)
+        side.addStretch(1)
+        lay.addLayout(side)
         form = QFormLayout()
         self.name = QLineEdit()
         self.name.setObjectName("stage_name")
@@ -109,7 +114,7 @@ class StageEditor(QWidget):
         self.options = QLineEdit()
         self.options.setObjectName("stage_options")
         self.options.setToolTip('the topology\'s options as JSON, e.g. {"gain": "resistors"} or {"sections": 2}')
-        self.buffered = QCheckBox("buffered (the next stage does not load this one)")
+        self.buffered = QCheckBox("buffered (the next stage does not load it)")
         self.buffered.setObjectName("stage_buffered")
         self.opamp_part = QCheckBox("op-amp gain-bandwidth from a part (else ideal)")
         self.opamp_part.setObjectName("stage_opamp_part")
@@ -144,12 +149,14 @@ class StageEditor(QWidget):
         self.remove_element = _button("Remove element", "element_remove", "remove the selected element and its part")
         self.add_opamp = _button("Add op-amp", "opamp_add", "a new ideal op-amp following out")
         self.remove_opamp = _button("Remove op-amp", "opamp_remove", "remove the selected op-amp")
-        grid.addWidget(QLabel("<b>elements</b> (part between two nodes; in = source, 0 = ground, out = output)"), 0, 0, 1, 4)
+        grid.addWidget(_note("<b>elements</b>: a part between two nodes (in = source, 0 = ground, out = output)"),
+                       0, 0, 1, 4)
         grid.addWidget(self.elements, 1, 0, 1, 4)
         grid.addWidget(self.element_kind, 2, 0)
         grid.addWidget(self.add_element, 2, 1)
         grid.addWidget(self.remove_element, 2, 2)
-        grid.addWidget(QLabel("<b>op-amps</b> (a ref that is an op-amp part gets its gain-bandwidth; else ideal)"), 3, 0, 1, 4)
+        grid.addWidget(_note("<b>op-amps</b>: ideal, or with the gain-bandwidth of a part of their name"),
+                       3, 0, 1, 4)
         grid.addWidget(self.opamps, 4, 0, 1, 4)
         grid.addWidget(self.add_opamp, 5, 1)
         grid.addWidget(self.remove_opamp, 5, 2)
