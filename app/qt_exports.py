@@ -76,7 +76,7 @@ class WindowExports:
         recommendation and parts list when Find cheapest grades ran for this design."""
         from ..report import write_report
 
-        from .qt_reportexport import recommendation_for, window_report, write_pdf
+        from .qt_reportexport import compared_sets, recommendation_for, window_report, write_pdf
         from .qt_tasks import BackgroundTask
 
         w = self.window
@@ -87,12 +87,13 @@ class WindowExports:
         w.show_status("building the report…")
 
         rec, curve, searched = recommendation_for(design, w.recommend_dialog)
+        sets = compared_sets(w.recommend_dialog, rec)  # judged by the dialog already: not again
 
         view = w.session.last_view  # the boards already evaluated, if they are this design's
 
         def job(progress, should_stop):
             return window_report(design, rec, curve, searched, view=view, progress=progress,
-                                 should_stop=should_stop)
+                                 should_stop=should_stop, sets=sets)
 
         def done(report) -> None:
             try:

@@ -153,6 +153,7 @@ class RecommendDialog(QDialog):
     def _on_finished(self, out) -> None:
         rec, curve, extras = out
         self.recommendation, self.curve = rec, curve
+        self.extras = extras  # the grade sets side by side, also for the report (app/qt_reportexport.py)
         self.run_button.setEnabled(True)
         self.cancel_button.setEnabled(False)
         self.progress.hide()

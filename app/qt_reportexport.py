@@ -85,15 +85,16 @@ def shown_result(design: Design, view: Any) -> Any:
 def window_report(design: Design, rec: Any = None, curve: Any = None, searched: Design | None = None, *,
                   view: Any = None,
                   progress: Callable[[int, int], None] | None = None,
-                  should_stop: Callable[[], bool] | None = None) -> Report:
+                  should_stop: Callable[[], bool] | None = None, sets: Any = None) -> Report:
     """The report of ``design`` (the numbers the command line gives), with the parts list of
     its own grades and, when given, the recommendation ``rec`` found from ``searched`` and
     its cost-yield ``curve``. When ``view`` (the window's last :class:`ViewData`) shows every
     board of ``design``, its analysis is completed (corners; the figure's first boards) and
     no board is evaluated again; otherwise the design is analysed. The title block reads the
     design's name, revision and author; the robustness table is the design's grades under
-    the other distribution shapes on the analysis's boards, and with a recommendation the
-    current and recommended sets are compared on the search's boards."""
+    the other distribution shapes on the analysis's boards; with a recommendation, ``sets``
+    (the recommend dialog's grade sets side by side, :func:`compared_sets`) or else the
+    current and recommended sets compared here on the search's boards."""
     from ..analysis import analyze, completed
     from ..recommend import parts_list_rows, worst_margin_metric
     from ..report import FIGURE_BOARDS, build_report
@@ -106,9 +107,18 @@ def window_report(design: Design, rec: Any = None, curve: Any = None, searched: 
         result = analyze(design, curves=FIGURE_BOARDS, rare="auto", progress=progress, should_stop=should_stop)
     rows = parts_list_rows(design, None, result.budget, metric=worst_margin_metric(result.ensemble))
     shapes = shapes_for_report(result) if design.mask else []
-    comparison, target = _comparison(rec, searched)
+    comparison, target = (list(sets), rec.target_yield) if sets else _comparison(rec, searched)
     return build_report(result, recommendation=rec, curve=curve or None, parts_rows=rows,
                         current=searched, comparison=comparison, target=target, shapes=shapes)
+
+
+def compared_sets(dialog: Any, rec: Any) -> list:
+    """The grade sets the recommend ``dialog`` judged side by side (current, recommended, no
+    class II; :class:`filters.grade_sets.SetResult`) when they belong to ``rec``, else []."""
+    extras = getattr(dialog, "extras", None)
+    if rec is None or extras is None or getattr(dialog, "recommendation", None) is not rec:
+        return []
+    return list(extras.sets)
 
 
 def _comparison(rec: Any, searched: Design | None) -> tuple[list, float | None]:

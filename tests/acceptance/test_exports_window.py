@@ -240,7 +240,9 @@ def test_report_from_the_window_reuses_its_boards_and_matches_the_command_line(
     """Design > Export report (HTML) after the window has shown every board of the demo:
     no sampled board is evaluated again (the calls to the evaluation entry are counted),
     and the yield, failures, spread figure, budget and corners read as the command line's
-    own report of the same design (``tolspread analyze --report``, a process of its own)."""
+    own report of the same design (``tolspread analyze --report``, a process of its own).
+    The robustness table's other distribution shapes are other designs (reshaped grades),
+    each evaluated once (issue 16 item 6)."""
     import sys
 
     import tolspread.evaluate as ev
@@ -252,7 +254,7 @@ def test_report_from_the_window_reuses_its_boards_and_matches_the_command_line(
     original = ev.evaluate
 
     def counting(design, **kw):
-        calls.append(kw.get("samples"))
+        calls.append((kw.get("samples"), design))
         return original(design, **kw)
 
     for mod in list(sys.modules.values()):
@@ -260,7 +262,11 @@ def test_report_from_the_window_reuses_its_boards_and_matches_the_command_line(
             monkeypatch.setattr(mod, "evaluate", counting)
     doc = export_report_html(window, qtbot, answers, tmp_path / "window.html")
     monkeypatch.undo()
-    assert calls == []
+    from tolspread.robustness import SHAPES
+
+    shown_design = window.session.design
+    assert [n for n, d in calls if d == shown_design] == []  # no board of the window's design again
+    assert len(calls) == len(SHAPES) - 1  # one run per other shape
     no_error_shown(shown)
     cli_out = tmp_path / "cli.html"
     run = run_cli("analyze", "--report", cli_out)

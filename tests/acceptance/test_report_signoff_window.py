@@ -114,10 +114,12 @@ def test_html_report_after_find_cheapest_grades_compares_the_sets(window, qtbot,
     rows = [[" ".join(re.sub(r"<[^>]+>", "", c).split()) for c in re.findall(r"<td[^>]*>(.*?)</td>", r, re.S)]
             for r in re.findall(r"<tr>(.*?)</tr>", section, re.S)]
     rows = [r for r in rows if r]
-    assert [r[0] for r in rows] == ["current", "recommended"]
-    # outside check: the two sets judged here on the search's boards (its seed and count)
-    found = compare_sets(design, [("current", rec.current_grades), ("recommended", rec.chosen.grades)],
-                         samples=rec.chosen.samples, seed=rec.seed, confidence=rec.confidence)
+    # the sets the dialog shows (current, recommended, and no class II when it warned), not judged again
+    shown_sets = dlg.extras.sets
+    assert [r[0] for r in rows] == [r.label for r in shown_sets] and rows[1][0] == "recommended"
+    # outside check: the sets judged here on the search's boards (its seed and count)
+    found = compare_sets(design, [(r.label, r.grades) for r in shown_sets], samples=rec.chosen.samples,
+                         seed=rec.seed, confidence=rec.confidence)
     for row, r in zip(rows, found):
         assert row[3] == f"{100 * r.yield_.estimate:.2f} %" and row[5] == f"{100 * r.lower:.2f} %", row
         assert row[6] == ("meets" if r.lower >= rec.target_yield else "misses"), row
