@@ -269,3 +269,28 @@ def test_html_printed_by_a_browser_numbers_its_pages(recommended, tmp_path):
     assert len(pages) >= 3
     for i, page in enumerate(pages, start=1):
         assert f"page {i} of {len(pages)}" in page, i
+
+
+def test_comparison_costs_are_money_per_board_when_priced(tmp_path):
+    # a priced catalog and a purchase quantity: the report's cost column is money per board,
+    # summed here from the catalog's price breaks (the unit price at the largest break <= 5,000)
+    from test_constraints import CATALOG, _rc
+
+    d = _rc("rc_lowpass", "10k", "10n", 100, 1000, -1.6)
+    d["parts"][0]["grade"], d["parts"][1]["grade"] = "R-b-1", "C-g-2"
+    d["grades"] = CATALOG["grades"]
+    d["purchase"] = {"boards": 5000, "currency": "EUR"}
+    d["author"] = "C. Person"
+    (tmp_path / "design.json").write_text(json.dumps(d))
+    run = run_cli("recommend", "design.json", "--target-yield", "0.5", "--samples", "1000", "--report", "r.html",
+                  cwd=tmp_path)
+    assert run.returncode == 0, run.stderr
+    rep = parse((tmp_path / "r.html").read_text(encoding="utf-8"))
+    assert rep.classes["tb-author"] == "C. Person" and rep.tables["signoff"][0][1][1] == "C. Person"
+    [tab] = rep.tables["comparison"]
+    assert tab[0][2] == "Cost (EUR per board at 5,000 boards)"
+    price = {g["name"]: [p for q, p in g["prices"] if q <= 5000][-1] for g in CATALOG["grades"]}
+    design = load(tmp_path / "design.json")
+    for row in tab[1:]:
+        names = _set_from_cell(design, row[1], ("R-b-1", "C-g-2"))
+        assert row[2] == f"{sum(price[n] for n in names):.4g}", row
