@@ -33,6 +33,8 @@ class ReportDetailsDialog(QDialog):
             e = QLineEdit(getattr(design, key))
             e.setObjectName(f"report_{key}")
             e.setMaxLength(200)
+            e.setCursorPosition(0)  # a long name shows its start
+            e.setMinimumWidth(420)
             form.addRow(label, e)
             self.edits[key] = e
         lay.addLayout(form)
