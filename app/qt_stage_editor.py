@@ -415,7 +415,9 @@ class StageEditor(QWidget):
 
     def _mark_cells(self, problems: list[InputError]) -> None:
         """Each problem's cell (its row's ref cell when the problem names a whole row) red,
-        with the reason as its tooltip."""
+        with the reason and the value the design still uses as its tooltip."""
+        stage = design_to_dict(self.design)["stages"][self.index] if self.design is not None else {}
+        good = {"elements": edits.element_rows(stage), "opamps": edits.opamp_rows(stage)}
         for p in problems:
             m = _ROW_PATH.match(p.path)
             if m is None or int(m.group(1)) != self.index:
@@ -437,7 +439,9 @@ class StageEditor(QWidget):
                 item = table.item(row, c)
                 if item is not None:
                     item.setBackground(BAD_CELL)
-                    item.setToolTip(p.reason)
+                    kept = good[m.group(2)][row][c] if row < len(good[m.group(2)]) else None
+                    item.setToolTip(p.reason + (f"; still using {kept}" if kept is not None else
+                                                "; not in the design yet"))
             table.blockSignals(False)
 
     def _remove_row(self, table: QTableWidget, name: str) -> None:

@@ -115,6 +115,7 @@ def test_build_a_circuit_stage_undo_save_and_reopen(window, qtbot, answers, tmp_
     assert ed.problem.isVisible() and "n9" in ed.problem.text() and "stages[0].elements" in ed.problem.text()
     assert ed.elements.item(4, 1).background().color().name() == "#fde2d6"
     assert ed.elements.item(4, 1).text() == "n9"  # what was typed stays, marked
+    assert ed.elements.item(4, 1).toolTip().endswith("still using out")  # and what the design keeps
 
     # 4. finishing it: C2 now goes from b to n9 (C2 in series with the new resistor) -> applied
     retype_cell(qtbot, ed.elements, 3, 2, "n9")
