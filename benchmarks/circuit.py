@@ -8,7 +8,7 @@ Not run by CI (timings are not tests).
 2. Evaluating a 4th-order low-pass on the same 400-point grid, 10,000 boards, full
    evaluation (metrics and margins): the library cascade of two Sallen-Key stages, the same
    two sections entered as two circuit stages, and as one circuit stage of both (one
-   4th-order network, evaluated in general), timed side by side (``benchmarks/engine.py``'s
+   4th-order network), with ideal and with 10 MHz op-amps, timed side by side (``benchmarks/engine.py``'s
    ``side_by_side``: medians of interleaved repeats, wall and CPU time).
 """
 from __future__ import annotations
