@@ -324,13 +324,21 @@ def slider_latency(samples: int = 5000, drags: int = 6, moves: int = 30,
     import os
 
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-    from PySide6.QtCore import QPoint, Qt
+    from PySide6.QtCore import QEventLoop, QPoint, Qt, QTimer
     from PySide6.QtTest import QTest
     from PySide6.QtWidgets import QApplication, QStyle, QStyleOptionSlider
 
     from tolspread.app.qt_main import make_window
 
     app = QApplication.instance() or QApplication([])
+
+    def wait(ms: int) -> None:
+        """Run the event loop for ``ms`` ms as the window's own loop does (QEventLoop.exec
+        lets other threads take the GIL; QTest.qWait holds it and starves the worker)."""
+        loop = QEventLoop()
+        QTimer.singleShot(ms, loop.quit)
+        loop.exec()
+
     window = make_window(None)
     session = window.session
     d = session.design
@@ -338,7 +346,7 @@ def slider_latency(samples: int = 5000, drags: int = 6, moves: int = 30,
     window.resize(1600, 950)
     window.show()
     while session.busy or session.last_view is None:  # the first result
-        QTest.qWait(10)
+        wait(10)
     asked: dict[int, float] = {}  # generation -> when its evaluation was asked for
     ask = session.request
 
@@ -375,8 +383,8 @@ def slider_latency(samples: int = 5000, drags: int = 6, moves: int = 30,
         for _ in range(moves):
             pos = QPoint(pos.x() + step, pos.y())
             QTest.mouseMove(slider, pos)
-            QTest.qWait(move_ms)  # the event loop runs between mouse moves, as it does for a user
-        QTest.qWait(100)  # the last frames of the drag
+            wait(move_ms)  # the event loop runs between mouse moves, as it does for a user
+        wait(100)  # the last frames of the drag
         shown = [(t, a) for t, a, preview in frames if preview]
         drag += [t - a for t, a in shown]
         rates.append(len(shown) / (shown[-1][0] - t_start) if shown else 0.0)
@@ -386,9 +394,9 @@ def slider_latency(samples: int = 5000, drags: int = 6, moves: int = 30,
         while not any(not preview for _t, _a, preview in frames):
             if time.perf_counter() - t0 > 60:
                 raise RuntimeError("no result after the slider's release")
-            QTest.qWait(1)
+            wait(1)
         release.append(next(t for t, _a, preview in frames if not preview) - t0)
-        QTest.qWait(50)
+        wait(50)
     session.undo_stack.setClean()
     window.close()
     return sorted(drag), sorted(release), float(np.median(rates))
