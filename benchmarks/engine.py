@@ -318,9 +318,10 @@ def slider_latency(samples: int = 5000, drags: int = 6, moves: int = 30,
     Returns, sorted: for each frame drawn while dragging, the time (s) from the newest
     mouse move it shows to the plots and the results panel painted with it (a preview
     of the first boards); for each release, the time to everything painted with every
-    board; and the frames drawn per second while dragging. Each frame is painted at once
-    (``repaint``) in a slot connected after the window's own, so the clock stops when the
-    pixels are there."""
+    board; and the frames painted per second while dragging. The clock stops when the
+    spread plots and the histogram have painted the frame in their own paint events (timed
+    by wrapping pyqtgraph's GraphicsView.paintEvent), as the window paints it.
+    """
     import os
 
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
@@ -338,6 +339,21 @@ def slider_latency(samples: int = 5000, drags: int = 6, moves: int = 30,
         loop = QEventLoop()
         QTimer.singleShot(ms, loop.quit)
         loop.exec()
+
+    # [shown at, asked at, preview, painted at]: the clock stops when the spread plots and
+    # the histogram have painted the frame (their own paint, as the window does it)
+    frames: list[list] = []
+    import pyqtgraph.widgets.GraphicsView as graphics_view
+
+    paint = graphics_view.GraphicsView.paintEvent
+
+    def timed_paint(view, ev):
+        out = paint(view, ev)
+        if frames and view.objectName() in ("spread_plots", "histogram"):
+            frames[-1][3] = time.perf_counter()
+        return out
+
+    graphics_view.GraphicsView.paintEvent = timed_paint  # before the window is made (Qt binds it then)
 
     window = make_window(None)
     session = window.session
@@ -357,14 +373,14 @@ def slider_latency(samples: int = 5000, drags: int = 6, moves: int = 30,
         return g
 
     session.request = timed_request  # type: ignore[method-assign]
-    frames: list[tuple[float, float, bool]] = []  # (painted at, asked at, preview)
+    def shown(view) -> None:
+        frames.append([time.perf_counter(), asked.get(view.generation, math.nan), view.preview, None])
 
-    def painted(view) -> None:
-        window.plots.canvas.viewport().repaint()
-        window.results.repaint()
-        frames.append((time.perf_counter(), asked.get(view.generation, math.nan), view.preview))
+    session.view_ready.connect(shown)
 
-    session.view_ready.connect(painted)
+    def latencies(preview: bool) -> list[float]:
+        return [f[3] - f[1] for f in frames if f[2] == preview and f[3] is not None]
+
     slider = window.parts.rows["C2"].slider
 
     def handle() -> QPoint:
@@ -385,18 +401,20 @@ def slider_latency(samples: int = 5000, drags: int = 6, moves: int = 30,
             QTest.mouseMove(slider, pos)
             wait(move_ms)  # the event loop runs between mouse moves, as it does for a user
         wait(100)  # the last frames of the drag
-        shown = [(t, a) for t, a, preview in frames if preview]
-        drag += [t - a for t, a in shown]
-        rates.append(len(shown) / (shown[-1][0] - t_start) if shown else 0.0)
+        drag += latencies(True)
+        painted = [f[3] for f in frames if f[2] and f[3] is not None]
+        rates.append(len(painted) / (painted[-1] - t_start) if painted else 0.0)
         frames.clear()
         t0 = time.perf_counter()
         QTest.mouseRelease(slider, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, pos)
-        while not any(not preview for _t, _a, preview in frames):
+        while not any(not f[2] for f in frames):
             if time.perf_counter() - t0 > 60:
                 raise RuntimeError("no result after the slider's release")
             wait(1)
-        release.append(next(t for t, _a, preview in frames if not preview) - t0)
-        wait(50)
+        wait(100)  # its paints
+        release.append(max(f[3] or math.inf for f in frames if not f[2]) - t0)
+        frames.clear()
+    graphics_view.GraphicsView.paintEvent = paint
     session.undo_stack.setClean()
     window.close()
     return sorted(drag), sorted(release), float(np.median(rates))
