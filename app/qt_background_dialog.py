@@ -10,7 +10,8 @@ from __future__ import annotations
 
 from typing import Any, Callable
 
-from PySide6.QtWidgets import (QDialog, QDoubleSpinBox, QHBoxLayout, QHeaderView, QLabel, QProgressBar,
+from PySide6.QtCore import QTimer
+from PySide6.QtWidgets import (QDialog, QDoubleSpinBox, QHBoxLayout, QHeaderView, QLabel, QLayout, QProgressBar,
                                QPushButton, QTableWidget, QTableWidgetItem, QVBoxLayout)
 
 from .qt_tasks import BackgroundTask
@@ -28,6 +29,7 @@ class BackgroundDialog(QDialog):
         self.task: BackgroundTask | None = None
         self._wanted = 0  # the run whose result is still wanted (Cancel drops older ones)
         self.lay = QVBoxLayout(self)
+        self.lay.setSizeConstraint(QLayout.SizeConstraint.SetMinimumSize)  # grows with its tables
         self.run_row = QHBoxLayout()
         self.run_button = QPushButton(run_text)
         self.run_button.setObjectName(f"{name}_run")
@@ -63,6 +65,10 @@ class BackgroundDialog(QDialog):
         close.clicked.connect(self.reject)
         row.addWidget(close)
         self.lay.addLayout(row)
+
+    def fit_height(self) -> None:
+        """Grow to show a new result whole (once the layout has taken it in)."""
+        QTimer.singleShot(0, lambda: self.resize(self.width(), max(self.height(), self.sizeHint().height())))
 
     def run(self, job: Callable[..., Any], done: Callable[[Any], None], busy_text: str) -> None:
         """Run ``job(progress, should_stop)`` on a thread; ``done(result)`` on the GUI thread."""
@@ -150,6 +156,10 @@ def fill_table(table: QTableWidget, rows: list[list[str]]) -> None:
     for i, row in enumerate(rows):
         for j, text in enumerate(row):
             table.setItem(i, j, QTableWidgetItem(text))
+    table.resizeColumnsToContents()
+    # every row in sight: a handful of rows never scroll
+    table.setFixedHeight(table.horizontalHeader().sizeHint().height() + 2 * table.frameWidth() +
+                         table.verticalHeader().length())
 
 
 def pct(x: float) -> str:

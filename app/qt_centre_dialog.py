@@ -31,12 +31,13 @@ class CentreDialog(BackgroundDialog):
         self.lay.addLayout(self.run_row)
         self.lay.addWidget(self.status)
         self.table = result_table("centre_moves", ["part", "now", "centred", "series"])
-        self.lay.addWidget(self.table, 1)
+        self.lay.addWidget(self.table)
         self.summary = self.add_note("centre_summary")
         self.summary.setTextFormat(Qt.TextFormat.RichText)
         self.apply_button = QPushButton("Apply all moves")
         self.apply_button.setObjectName("centre_apply")
         self.apply_button.setEnabled(False)
+        self.lay.addStretch(1)
         self.add_bottom(CAUTION, self.apply_button)
         self.run_button.clicked.connect(lambda *_c: self.start())
         self.apply_button.clicked.connect(lambda *_c: self.apply())
@@ -60,7 +61,8 @@ class CentreDialog(BackgroundDialog):
         fill_table(self.table, [[m.ref, format_value(m.old, units[m.ref]), format_value(m.new, units[m.ref]), m.series]
                                 for m in res.moves])
         how = "every combination" if res.exhaustive else "a guided search (one part at a time)"
-        self.status.setText(f"searched {how}: {res.combinations:,} combinations of {len(res.movable)} parts, "
+        self.status.setText(f"searched {how}: {res.combinations:,} combinations of {len(res.movable)} "
+                            f"part{'s' if len(res.movable) != 1 else ''}, "
                             f"{res.screen_boards:,} boards each, the same boards for all")
         b, a = res.before, res.after
         if not res.moves:
@@ -74,6 +76,7 @@ class CentreDialog(BackgroundDialog):
                 f"gain <b>{100 * res.gain:+.2f} points</b>, standard error {100 * res.gain_standard_error:.2f} "
                 f"(boards changed: {res.only_after:,} now pass, {res.only_before:,} now fail)")
         self._on_design_changed(self.window_.session.design)
+        self.fit_height()
 
     def _on_design_changed(self, design: Design) -> None:
         res = self.result_

@@ -100,5 +100,3 @@ class GradeSetsView(QWidget):
                          pct(r.lower), "meets" if r.lower >= target else "misses",
                          ", ".join(changed) if r is not ex.sets[0] else ""])
         fill_table(self.table, rows)
-        self.table.setFixedHeight(self.table.horizontalHeader().height() + 4 +
-                                  sum(self.table.rowHeight(i) for i in range(self.table.rowCount())))

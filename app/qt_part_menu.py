@@ -47,9 +47,9 @@ def show_constraints(label: QLabel, part) -> None:
 
 
 def measured_text(m: Measured) -> str:
-    """``measured: 40 values, 1 lot``."""
+    """``40 measured, 1 lot``."""
     lots = m.lot_count
-    return f"measured: {len(m.values):,} values, {lots} lot{'s' if lots != 1 else ''}"
+    return f"{len(m.values):,} measured, {lots} lot{'s' if lots != 1 else ''}"
 
 
 def show_measured(readout: QLabel, m: Measured) -> None:
@@ -132,7 +132,7 @@ def import_measured(w, ref: str) -> None:
         return
     if _edit(w, ref, f"{ref} measured values ({len(m.values):,})", measured=m) is None:
         caution = f"; caution: {LOT_CAUTION}" if m.lot_count < 2 else ""
-        w.show_status(f"{ref}: {measured_text(m)} from {m.source}{caution}")
+        w.show_status(f"{ref}: {measured_text(m)} values from {m.source}{caution}")
 
 
 def clear_measured(w, ref: str) -> None:

@@ -201,6 +201,7 @@ class PartsPanel(QWidget):
             row.slider.setEnabled(net is None)  # a member's spread is its network's, not its grade's
             show_constraints(row.label, p)
             row.slider.setVisible(p.measured is None)  # measured values replace the grade's spread
+            self._place_readout(row, wide=p.measured is not None)
             if p.measured is not None:
                 show_measured(row.readout, p.measured)
             elif net is not None:
@@ -263,6 +264,12 @@ class PartsPanel(QWidget):
         self.rows[ref] = row
         row.label.setStyleSheet(SELECTED_STYLE if ref == self.selected else "")
         return r + 2
+
+    def _place_readout(self, row: PartRow, wide: bool) -> None:
+        """A measured part's readout takes the hidden slider's column too (its text is longer)."""
+        r, c, _rows, _cols = self.grid.getItemPosition(self.grid.indexOf(row.readout))
+        if (c == 3) != wide:
+            self.grid.addWidget(row.readout, r, 3 if wide else 4, 1, 2 if wide else 1)
 
     def select_part(self, ref: str | None) -> None:
         """Mark part ``ref``'s row as chosen (its name on the highlight colour), scroll to it

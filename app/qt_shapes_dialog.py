@@ -44,12 +44,13 @@ class ShapesDialog(BackgroundDialog):
         self.lay.addWidget(self.status)
         conf = f"{100 * d.analysis.confidence:g} %"
         self.yields = result_table("shapes_yields", ["shape", "model", "yield", f"{conf} interval", "lower bound"])
-        self.lay.addWidget(self.yields, 1)
+        self.lay.addWidget(self.yields)
         self.choices = result_table("shapes_choices", ["shape", "cheapest grades (in parts order)", "relative cost",
                                                  "vs first", "first set here"])
         self.choices.hide()
-        self.lay.addWidget(self.choices, 1)
+        self.lay.addWidget(self.choices)
         self.note = self.add_note("shapes_note")
+        self.lay.addStretch(1)
         self.add_bottom(CAUTION)
         self.run_button.clicked.connect(lambda *_c: self.start())
         self.resize(820, 560)
@@ -84,6 +85,7 @@ class ShapesDialog(BackgroundDialog):
         self.status.setText(f"present grades under each shape, the same {yields[0].yield_.samples:,} boards "
                             f"for each")
         self.choices.setVisible(choices is not None)
+        self.fit_height()
         if choices is None:
             return
         rows = []

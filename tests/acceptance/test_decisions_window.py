@@ -248,7 +248,7 @@ def test_measured_values_from_csv_replace_a_parts_tolerance_as_one_undoable_edit
     choose(qtbot, w, "R1", "part_measured_csv")
     m = w.session.design.parts[0].measured
     assert m is not None and len(m.values) == 40 and w.session.undo_stack.count() == edits + 1
-    assert not row.slider.isVisible() and "measured: 40 values, 1 lot" in row.readout.text()
+    assert not row.slider.isVisible() and "40 measured, 1 lot" in row.readout.text()
     assert "lot-to-lot" in row.readout.toolTip() and "lot-to-lot" in w.status_text.text()
     wait_idle(qtbot, w)
     qtbot.waitUntil(lambda: w.session.last_view is not None and
