@@ -98,8 +98,9 @@ class SpreadPlots(QWidget):
             # each band is one filled polygon built from its two edges in one go (two curves
             # and a fill between them would rebuild the fill once per edge)
             outer, inner = _band_item(st.OUTER_BRUSH), _band_item(st.INNER_BRUSH)
-            passing = pg.PlotDataItem(pen=pg.mkPen(**st.PASS_TRACE_PEN), connect="finite")
-            failing = pg.PlotDataItem(pen=pg.mkPen(**st.FAIL_TRACE_PEN), connect="finite")
+            # the sample traces (thousands of points) are plain Qt path items: Qt paints them
+            # without calling into Python, so the evaluation threads keep the GIL meanwhile
+            passing, failing = _trace_item(st.PASS_TRACE_PEN), _trace_item(st.FAIL_TRACE_PEN)
             nominal = pg.PlotDataItem(pen=pg.mkPen(**st.NOMINAL_PEN), antialias=True)
             # every range is set by this widget (fit, _frame_second): no automatic ranging,
             # which would move an axis, and paint the plot a second time, after every result
@@ -119,8 +120,10 @@ class SpreadPlots(QWidget):
                                 pg.PlotDataItem([], [], pen=pg.mkPen(st.OUTER_BRUSH, width=9))]
         self.legend.addItem(self._legend_proxies[0], "central 98 % of boards")
         self.legend.addItem(self._legend_proxies[1], "all boards")
-        self.legend.addItem(it["passing"], "sample boards")
-        self.legend.addItem(it["failing"], "failing boards")
+        self._legend_proxies += [pg.PlotDataItem([], [], pen=pg.mkPen(**st.PASS_TRACE_PEN)),
+                                 pg.PlotDataItem([], [], pen=pg.mkPen(**st.FAIL_TRACE_PEN))]
+        self.legend.addItem(self._legend_proxies[2], "sample boards")
+        self.legend.addItem(self._legend_proxies[3], "failing boards")
         self.readout = QLabel(" ")
         self.readout.setObjectName("cursor_readout")
         self.readout.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
@@ -159,11 +162,8 @@ class SpreadPlots(QWidget):
             it["nominal"].setData(x, nominal)
             it["outer"].setPath(_band_path(x, b.low, b.high))
             it["inner"].setPath(_band_path(x, b.inner_low, b.inner_high))
-            it["passing"].setData(*_flat(x, tp))
-            if self.show_failing and len(tf):
-                it["failing"].setData(*_flat(x, tf))
-            else:
-                it["failing"].setData([], [])
+            it["passing"].setPath(_trace_path(x, tp))
+            it["failing"].setPath(_trace_path(x, tf) if self.show_failing else QPainterPath())
         axis = self.second.getAxis("left")
         if view.second == "delay":
             finite = np.abs(view.nominal_second[np.isfinite(view.nominal_second)])
@@ -386,6 +386,21 @@ def _band_path(x: np.ndarray, low: np.ndarray, high: np.ndarray) -> QPainterPath
     path = pg.arrayToQPath(np.concatenate([x, x[::-1]]), np.concatenate([low, high[::-1]]), connect="finite")
     path.closeSubpath()
     return path
+
+
+def _trace_item(pen: dict) -> QGraphicsPathItem:
+    """Sample traces drawn as one path (NaN-separated rows), pen ``pen`` (cosmetic: its
+    width in pixels whatever the zoom)."""
+    item = QGraphicsPathItem()
+    item.setPen(pg.mkPen(**pen))
+    return item
+
+
+def _trace_path(x: np.ndarray, rows: np.ndarray) -> QPainterPath:
+    """Rows (K, F) over ``x`` (F,) as one path, a separate polyline per row."""
+    if len(rows) == 0:
+        return QPainterPath()
+    return pg.arrayToQPath(*_flat(x, rows), connect="finite")
 
 
 def _flat(x: np.ndarray, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
