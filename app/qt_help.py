@@ -35,7 +35,9 @@ evaluates on its own after every change; nothing needs to be started.</p>
 <code>2n2</code>…; invalid text is marked and the last good value stays in use), its grade
 from the catalog, and a tolerance slider: dragging it redraws the spread live on the first
 1,000 boards ("preview"); letting go evaluates every board and makes one undoable edit.
-Number of boards, seed, sampling (random or Sobol) and New boards sit above the parts.</p>
+Number of boards, seed, sampling (random or Sobol) and New boards sit above the parts.
+Right-click a part's name to lock its grade, forbid technologies for it, or give it measured
+values from a CSV (shown instead of its slider; one reel says nothing about other lots).</p>
 <h3>Circuit (above the parts)</h3>
 <p>The schematic of the stage chosen in its box, drawn from the netlist the analysis uses:
 each part with its reference, value and grade; a circuit stage as labelled node lines, each
@@ -59,14 +61,18 @@ edits every number and adds phase and group-delay-variation spans.</p>
 <h3>Yield and spread budget (right)</h3>
 <p>The yield with its interval and board count, failures per span, a histogram of any
 metric with the failing boards marked, and the spread budget: which part explains how
-much of that metric's variance.</p>
+much of that metric's variance. When few boards fail, the high-yield estimate by importance
+sampling follows the yield, with its interval and the plain boards it would take.</p>
 <h3>Files</h3>
 <p>New, Open, Open recent, Save, Save As; a prompt before unsaved changes are discarded;
 Undo and Redo for every edit. Window size and layout are remembered.</p>
 <h3>Design menu</h3>
 <p>New design from a response, Grades and costs, Find cheapest grades (target yield,
 confidence, the cost-yield curve, apply the result as one undoable edit, save the parts
-list), and the report as HTML or PDF.</p>
+list; the class II warning and the grade sets side by side), Temperature and service life,
+Purchase and signal path (boards bought and currency: money per board), Distribution shapes
+(the yield under five readings of the tolerances), Centre values (neighbouring series values
+for a higher yield, applied as one edit), and the report as HTML or PDF.</p>
 <h3>Exports</h3>
 <p>File menu: the plots as PNG or SVG, and every board's part values, metrics and
 pass/fail as CSV.</p>
