@@ -63,13 +63,13 @@ class ShapesDialog(BackgroundDialog):
         target = self.target.value() / 100 if self.with_target.isChecked() else None
         confidence = self.confidence.value() / 100
 
-        def job(progress, _should_stop):
-            yields = shape_yields(design, samples=samples)
+        def job(progress, should_stop):
+            yields = shape_yields(design, samples=samples, should_stop=should_stop)
             choices = None
             if target is not None:
                 choices = shape_recommendations(
                     design, target, confidence=confidence, samples=samples,
-                    progress=lambda shape: progress(SHAPES.index(shape), len(SHAPES)))
+                    progress=lambda shape: progress(SHAPES.index(shape), len(SHAPES)), should_stop=should_stop)
             return yields, choices, target
 
         self.note.setText("")

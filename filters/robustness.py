@@ -130,7 +130,8 @@ class ShapeYield:
 
 
 def shape_yields(design: Design, *, samples: int | None = None, seed: int | None = None,
-                 shapes: Sequence[str] = SHAPES) -> list[ShapeYield]:
+                 shapes: Sequence[str] = SHAPES,
+                 should_stop: Callable[[], bool] | None = None) -> list[ShapeYield]:
     """The yield of ``design``'s present grades under each distribution shape, same boards.
 
     Parameters
@@ -141,6 +142,8 @@ def shape_yields(design: Design, *, samples: int | None = None, seed: int | None
         Boards and seed (default: the design's); every shape uses the same standard scores.
     shapes : sequence of str
         Which of :data:`SHAPES`.
+    should_stop : callable, optional
+        ``should_stop()`` returning True stops the run (:class:`~tolspread.errors.Cancelled`).
 
     Returns
     -------
@@ -153,7 +156,7 @@ def shape_yields(design: Design, *, samples: int | None = None, seed: int | None
     for shape in shapes:
         d = design_under(design, shape)
         ens = evaluate(d, samples=samples, seed=seed, curves=False, metrics=False,
-                       prepared=prep if shape != "shared reel" else None)
+                       prepared=prep if shape != "shared reel" else None, should_stop=should_stop)
         est = yield_estimate(ens.passed, None, a.confidence, a.interval)  # type: ignore[arg-type]
         lb = float(lower_bound(int(est.passed), int(est.samples), a.confidence, a.interval))  # type: ignore[arg-type]
         out.append(ShapeYield(shape, est, lb))
@@ -209,7 +212,8 @@ class ShapeChoice:
 def shape_recommendations(design: Design, target_yield: float, *, confidence: float = 0.95,
                           samples: int | None = None, seed: int | None = None,
                           shapes: Sequence[str] = SHAPES,
-                          progress: Callable[[str], None] | None = None) -> list[ShapeChoice]:
+                          progress: Callable[[str], None] | None = None,
+                          should_stop: Callable[[], bool] | None = None) -> list[ShapeChoice]:
     """The cheapest grades meeting ``target_yield`` under each shape; flags where they change.
 
     Parameters
@@ -224,6 +228,8 @@ def shape_recommendations(design: Design, target_yield: float, *, confidence: fl
         Which of :data:`SHAPES`; the first is the reference the others are compared with.
     progress : callable, optional
         Called with each shape's name before its search.
+    should_stop : callable, optional
+        ``should_stop()`` returning True stops the searches (:class:`~tolspread.errors.Cancelled`).
 
     Returns
     -------
@@ -241,7 +247,8 @@ def shape_recommendations(design: Design, target_yield: float, *, confidence: fl
         if progress is not None:
             progress(shape)
         shaped = design_under(design, shape)
-        rec = recommend(shaped, target_yield, confidence=confidence, samples=samples, seed=seed)
+        rec = recommend(shaped, target_yield, confidence=confidence, samples=samples, seed=seed,
+                        should_stop=should_stop)
         c = rec.chosen
         names = None if c is None else tuple(c.grades)
         if k == 0:
@@ -251,7 +258,8 @@ def shape_recommendations(design: Design, target_yield: float, *, confidence: fl
         ref_lower = holds = None
         if ref_design is not None:
             n_boards = c.samples if c is not None else samples
-            [sy] = shape_yields(ref_design, samples=n_boards, seed=rec.seed, shapes=(shape,))
+            [sy] = shape_yields(ref_design, samples=n_boards, seed=rec.seed, shapes=(shape,),
+                                should_stop=should_stop)
             ref_lower = float(lower_bound(int(sy.yield_.passed), int(sy.yield_.samples), confidence,
                                           design.analysis.interval))  # type: ignore[arg-type]
             holds = ref_lower >= target_yield

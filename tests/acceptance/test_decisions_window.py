@@ -186,9 +186,10 @@ def test_centre_values_dialog_applies_all_moves_as_one_undoable_edit(starter, qt
     assert not log_errors()
 
 
-def test_closing_the_window_during_a_centre_search_stops_it(window, qtbot):
-    action(window, "centre_values").trigger()
-    dlg = window.centre_dialog
+@pytest.mark.parametrize("name, dialog", [("centre_values", "centre_dialog"), ("shapes", "shapes_dialog")])
+def test_closing_the_window_during_a_search_stops_it(window, qtbot, name, dialog):
+    action(window, name).trigger()
+    dlg = getattr(window, dialog)
     assert dlg.running
     assert window.close()  # nothing unsaved: closes at once
     assert not dlg.task.running  # its thread was waited for; nothing reports into a closed window
