@@ -19,6 +19,11 @@ from .qt_grade_sets import Extras, GradeSetsView, decision_extras
 from .qt_tasks import BackgroundTask
 
 
+COST_NOTE = "Relative costs come from the catalog (built-in costs are invented demo figures). "
+YIELD_CAUTION = ("The yield is an estimate under the grades' stated distributions; confirm with measured parts and "
+                 "qualified review.")
+
+
 class RecommendDialog(QDialog):
     """Target yield and confidence in; the cheapest grade set (and trade-off curve) out."""
 
@@ -103,12 +108,12 @@ class RecommendDialog(QDialog):
         buttons.addStretch(1)
         buttons.addWidget(close)
         lay.addLayout(buttons)
-        caution = QLabel("Relative costs come from the catalog (built-in costs are invented demo figures). The "
-                         "yield is an estimate under the grades' stated distributions; confirm with measured "
-                         "parts and qualified review.")
+        caution = QLabel(COST_NOTE + YIELD_CAUTION)
+        caution.setObjectName("recommend_caution")
         caution.setWordWrap(True)
         caution.setStyleSheet("color: #555;")
         lay.addWidget(caution)
+        self.caution = caution
         self.run_button.clicked.connect(self.start)
         self.cancel_button.clicked.connect(self.cancel)
         self.apply_button.clicked.connect(self._on_apply)
@@ -201,6 +206,8 @@ class RecommendDialog(QDialog):
             self.csv_button.setEnabled(True)
         if extras is not None:
             self.sets_view.show_extras(d, extras, rec.target_yield)
+            self.caution.setText((f"Prices come from the catalog's price breaks at {extras.boards:,} parts of each. "
+                                  if extras.money else COST_NOTE) + YIELD_CAUTION)
         if curve:
             self.curve_plot.show()
             self.curve_plot.clear()

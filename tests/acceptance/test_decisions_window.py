@@ -345,6 +345,7 @@ def test_purchase_dialog_then_recommend_shows_money_class_ii_warning_and_sets_si
     assert float(rows["recommended"][1].split()[0]) == pytest.approx(total, rel=1e-3)
     assert float(rows["current"][1].split()[0]) == pytest.approx(price["R-b-1"] + price["C-g-2"], rel=1e-3)
     assert "C1 C-g-" in rows["no class II"][6]  # the alternative gives C1 a C0G grade
+    assert "price breaks at 5,000 parts" in rec.caution.text() and "measured parts" in rec.caution.text()
     for r in rows.values():  # yield inside its interval, lower bound below it
         y, lo_hi, lb = (x for x in (r[2], r[3], r[4]))
         lo, hi = (float(x) for x in re.findall(r"([0-9.]+) %", lo_hi))
