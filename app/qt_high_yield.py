@@ -25,3 +25,19 @@ def high_yield_html(result: AnalysisResult) -> str:
             f"{r.failure_rate:.3g} from {r.boards:,} boards drawn around {len(r.points)} likeliest failure "
             f"point(s) ({r.failing:,} failing, weighted). Plain sampling would need {plain} boards for this "
             f"interval. The yield above is plain sampling's.")
+
+
+def measured_html(design) -> str:
+    """For a design with measured parts: which ones (values, lots), that the panel's interval
+    counts only the boards' spread (``tolspread measure`` adds the spread of having measured
+    only n parts), and the lot-to-lot caution; "" without measured parts."""
+    parts = [p for p in design.parts if p.measured is not None]
+    if not parts:
+        return ""
+    names = ", ".join(f"{p.ref} ({len(p.measured.values):,} values, {p.measured.lot_count} "
+                      f"lot{'s' if p.measured.lot_count != 1 else ''})" for p in parts)
+    one_lot = any(p.measured.lot_count < 2 for p in parts)
+    return (f"<b>measured parts</b>: {names}. The interval above counts the boards' spread only; having measured "
+            f"only those parts widens it (<code>tolspread measure</code> gives that interval)."
+            + (" One reel says nothing about lot-to-lot variation: measure several lots before a decision "
+               "that spans them." if one_lot else ""))

@@ -10,7 +10,7 @@ from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QHeaderView, QLabel, QTab
 
 from ..liveview import ViewData
 from ..temperature_text import yield_note
-from .qt_high_yield import high_yield_html
+from .qt_high_yield import high_yield_html, measured_html
 from .. import metric_names
 from ..metric_names import SPAN_UNIT, is_pair_metric, metric_label
 
@@ -126,7 +126,8 @@ class ResultsPanel(QWidget):
                 + (f"<br>{note}" if (note := yield_note(view.result)) else ""))  # over a range, after a life
         else:
             self.yield_label.setText("<b>no spec mask yet</b>: draw floor or ceiling spans on the gain plot")
-        rare = high_yield_html(view.result) if view.design.mask and not view.preview else ""
+        rare = "<br>".join(x for x in (high_yield_html(view.result) if not view.preview else "",
+                                       measured_html(view.design)) if x) if view.design.mask else ""
         self.high_yield.setText(rare)
         self.high_yield.setVisible(bool(rare))
         bands_note = (f"; bands drawn from the first {view.curve_boards:,} boards"

@@ -258,6 +258,8 @@ def test_measured_values_from_csv_replace_a_parts_tolerance_as_one_undoable_edit
     y = float(re.search(r"yield ([0-9.]+) %", w.results.yield_label.text()).group(1)) / 100
     ci = stats.binomtest(round(y * 4000), 4000).proportion_ci(0.999, method="wilson")  # scipy.stats
     assert ci.low <= 0.7 <= ci.high
+    note = w.results.high_yield.text()  # the panel says what its interval leaves out
+    assert "R1 (40 values, 1 lot)" in note and "tolspread measure" in note and "lot-to-lot" in note
 
     action(w, "undo").trigger()
     assert w.session.design.parts[0].measured is None and row.slider.isVisible()
