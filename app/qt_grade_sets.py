@@ -4,7 +4,7 @@ After a recommendation, :func:`decision_extras` (run on the dialog's worker thre
 recommended set for class II dielectrics where the response depends on the capacitor
 (:func:`filters.grade_sets.class_ii_in_signal_path`); when there are some, it searches the
 cheapest set without them. The current, recommended and class-II-free sets are then judged on
-the same boards (:func:`filters.grade_sets.compare_sets`): cost (money per board when the
+the same boards with the user's own set, if given (:func:`filters.grade_sets.compare_sets`): cost (money per board when the
 catalog's prices cover the purchase quantity, else relative cost), yield, interval and lower
 bound. :class:`GradeSetsView` shows the warning and the table.
 """
@@ -37,9 +37,18 @@ class Extras:
     boards: int = 0
 
 
+def own_sets(design: Design, text: str) -> list[tuple[str, tuple[str, ...]]]:
+    """The user's own set from ``C1=C-C0G-2, R1=R-thin-1`` ([] for blank text); raises
+    :class:`~tolspread.errors.InputError` naming the field ("your own set") and the pair."""
+    from ..grade_sets import parse_set
+
+    return [("yours", parse_set(design, text, "your own set"))] if text.strip() else []
+
+
 def decision_extras(design: Design, rec: Recommendation, target: float, confidence: float, samples: int,
-                    should_stop) -> Extras:
-    """The class II check, the class-II-free alternative and the comparison of sets."""
+                    should_stop, own: list | None = None) -> Extras:
+    """The class II check, the class-II-free alternative and the comparison of sets (with the
+    user's ``own`` sets, from :func:`own_sets`, last)."""
     from ..grade_sets import class_ii_in_signal_path, compare_sets
 
     p = design.purchase
@@ -55,7 +64,7 @@ def decision_extras(design: Design, rec: Recommendation, target: float, confiden
         out.alternative_found = alt.chosen is not None
         if alt.chosen is not None:
             sets.append(("no class II", tuple(alt.chosen.grades)))
-    out.sets = compare_sets(design, sets, samples=samples, confidence=confidence)
+    out.sets = compare_sets(design, sets + list(own or []), samples=samples, confidence=confidence)
     return out
 
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pyqtgraph as pg
 from PySide6.QtCore import Signal
 from PySide6.QtWidgets import (QCheckBox, QDialog, QDoubleSpinBox, QFileDialog, QFormLayout, QHBoxLayout,
-                               QHeaderView, QLabel, QProgressBar, QPushButton, QSpinBox, QTableWidget,
+                               QHeaderView, QLabel, QLineEdit, QProgressBar, QPushButton, QSpinBox, QTableWidget,
                                QTableWidgetItem, QVBoxLayout)
 
 from ..constraints import unit_price
@@ -15,7 +15,7 @@ from ..parts_list import parts_list_rows, worst_margin_metric, write_parts_csv
 from ..recommend import Recommendation, cost_yield_curve, recommend
 
 from . import qt_style as st
-from .qt_grade_sets import Extras, GradeSetsView, decision_extras
+from .qt_grade_sets import Extras, GradeSetsView, decision_extras, own_sets
 from .qt_tasks import BackgroundTask
 
 
@@ -61,6 +61,10 @@ class RecommendDialog(QDialog):
         form.addRow("confidence of the bound", self.confidence)
         form.addRow("boards per candidate", self.samples)
         form.addRow("", self.with_curve)
+        self.own_set = QLineEdit()  # compared beside the current and recommended sets (app/qt_grade_sets.py)
+        self.own_set.setObjectName("own_set")
+        self.own_set.setPlaceholderText("optional, e.g. C1=C-C0G-2, R1=R-thin-1 (other parts keep their grade)")
+        form.addRow("your own set to compare", self.own_set)
         lay.addLayout(form)
         row = QHBoxLayout()
         self.run_button = QPushButton("Find cheapest grades")
@@ -127,13 +131,18 @@ class RecommendDialog(QDialog):
         confidence = self.confidence.value() / 100
         samples = self.samples.value()
         want_curve = self.with_curve.isChecked()
+        try:
+            own = own_sets(design, self.own_set.text())
+        except InputError as exc:
+            self.summary.setText(f"<span style='color:#D55E00'>{exc}</span>; nothing was searched")
+            return
 
         def job(progress, should_stop):
             rec = recommend(design, target, confidence=confidence, samples=samples, progress=progress,
                             should_stop=should_stop)
             curve = cost_yield_curve(design, confidence=confidence, samples=samples,
                                      should_stop=should_stop) if want_curve else None
-            return rec, curve, decision_extras(design, rec, target, confidence, samples, should_stop)
+            return rec, curve, decision_extras(design, rec, target, confidence, samples, should_stop, own)
 
         self.task = BackgroundTask(job, self)
         self.task.finished.connect(self._on_finished)

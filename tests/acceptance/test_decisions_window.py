@@ -331,13 +331,19 @@ def test_purchase_dialog_then_recommend_shows_money_class_ii_warning_and_sets_si
     rec.target.lineEdit().selectAll()
     QTest.keyClicks(rec.target.lineEdit(), "50")
     QTest.keyClick(rec.target.lineEdit(), Qt.Key.Key_Tab)
+    QTest.keyClicks(rec.own_set, "C1=R-a-5")  # a resistor grade for a capacitor: refused, nothing searched
+    click(rec.run_button)
+    assert "your own set" in rec.summary.text() and "C1 is a C part" in rec.summary.text()
+    assert rec.run_button.isEnabled() and not rec.apply_button.isEnabled()
+    rec.own_set.selectAll()
+    QTest.keyClicks(rec.own_set, "C1=C-g-5")
     click(rec.run_button)
     qtbot.waitUntil(rec.apply_button.isEnabled, timeout=120_000)
     view = rec.sets_view
     assert view.isVisible() and view.warning.isVisible()
     assert "C1" in view.warning.text() and "class II" in view.warning.text()  # common practice
     rows = {r[0]: r for r in table_rows(view.table)}
-    assert list(rows) == ["current", "recommended", "no class II"]
+    assert list(rows) == ["current", "recommended", "no class II", "yours"]
     assert "EUR per board at 5,000 boards" in view.heading.text() and "EUR per board" in rec.summary.text()
     # money per board summed independently from the catalog's breaks at 5,000 (the 1,000 break)
     price = {g["name"]: [q_p[1] for q_p in g["prices"] if q_p[0] <= 5000][-1] for g in catalog["grades"]}
@@ -347,6 +353,8 @@ def test_purchase_dialog_then_recommend_shows_money_class_ii_warning_and_sets_si
     assert float(rows["recommended"][1].split()[0]) == pytest.approx(total, rel=1e-3)
     assert float(rows["current"][1].split()[0]) == pytest.approx(price["R-b-1"] + price["C-g-2"], rel=1e-3)
     assert "C1 C-g-" in rows["no class II"][6]  # the alternative gives C1 a C0G grade
+    assert float(rows["yours"][1].split()[0]) == pytest.approx(price["R-b-1"] + price["C-g-5"], rel=1e-3)
+    assert rows["yours"][6] == "C1 C-g-5"  # R1 keeps its grade
     assert "price breaks at 5,000 parts" in rec.caution.text() and "measured parts" in rec.caution.text()
     for r in rows.values():  # yield inside its interval, lower bound below it
         y, lo_hi, lb = (x for x in (r[2], r[3], r[4]))
