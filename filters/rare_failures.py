@@ -38,7 +38,7 @@ batches.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Callable, Sequence
 
 import numpy as np
@@ -326,7 +326,7 @@ def importance_estimate(fn: MarginFunction, dims: int, *, seed: int, confidence:
     return RareEstimate(p, low, high, confidence, n, failing, se, plain, pts)
 
 
-def design_margin_function(prepared, grades, conditions) -> MarginFunction:
+def design_margin_function(prepared, grades, conditions, temperatures: Sequence[float] = ()) -> MarginFunction:
     """The margin function of a prepared design with given grades (the pass/fail path).
 
     Parameters
@@ -337,6 +337,10 @@ def design_margin_function(prepared, grades, conditions) -> MarginFunction:
         One grade per part, in the design's order.
     conditions : filters.sampling.Conditions
         Temperature range and lot share.
+    temperatures : sequence of float
+        Judged temperatures (deg C) of an operating range; each board's margin is then its
+        worst over them, as :func:`filters.temperature.judge_over_range` judges it. Empty:
+        at ``conditions`` only.
 
     Returns
     -------
@@ -350,11 +354,17 @@ def design_margin_function(prepared, grades, conditions) -> MarginFunction:
     nominal = prepared.nominal.values
     grade_list = tuple(grades)
 
+    every = [replace(conditions, temp_low_c=t, temp_high_c=t) for t in temperatures] or [conditions]
+
     def fn(z: np.ndarray) -> np.ndarray:
         out = np.empty((z.shape[0], len(prepared.plans)))
         for lo in range(0, z.shape[0], 4096):  # blocks of boards bound the memory
-            vals = part_values(nominal, grade_list, z[lo:lo + 4096], conditions)
-            out[lo:lo + 4096] = evaluate_values(prepared, vals, metrics=False).margins
+            worst = None
+            for cond in every:  # a handful of judged temperatures, each over all the block's boards
+                vals = part_values(nominal, grade_list, z[lo:lo + 4096], cond)
+                m = evaluate_values(prepared, vals, metrics=False).margins
+                worst = m if worst is None else np.minimum(worst, m)
+            out[lo:lo + 4096] = worst
         return out
 
     return fn
@@ -374,14 +384,12 @@ def not_estimable(design) -> str:
     Returns
     -------
     str
-        A plain reason: no mask, an operating range judged at several temperatures, resistor
-        networks or several channels (their shared errors are drawn outside the scores this
-        estimator shifts); empty when the estimate applies.
+        A plain reason: no mask, resistor networks or several channels (their shared errors
+        are drawn outside the scores this estimator shifts); empty when the estimate applies.
+        Over an operating range each board is judged at every judged temperature.
     """
     if not design.mask:
         return "the design has no spec mask"
-    if getattr(design.analysis, "operating_range_c", None) is not None:
-        return "the yield is judged over an operating range (plain sampling only, for now)"
     if getattr(design, "networks", ()):
         return "the design has resistor networks (plain sampling only, for now)"
     channels = getattr(design, "channels", None)
@@ -414,7 +422,9 @@ def estimate_for(design, prepared, grades, *, seed: int, confidence: float,
     RareEstimate
     """
     from .sampling import columns
+    from .temperature_settings import judged_temperatures
 
-    fn = design_margin_function(prepared, grades, design.analysis.conditions)
+    fn = design_margin_function(prepared, grades, design.analysis.conditions,
+                                judged_temperatures(design.analysis))
     return importance_estimate(fn, columns(len(design.parts)), seed=seed, confidence=confidence,
                                should_stop=should_stop)

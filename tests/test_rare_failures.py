@@ -153,8 +153,22 @@ def test_analyze_chooses_importance_sampling_when_few_boards_fail(tmp_path):
     assert "HIGH-YIELD" not in off.stdout
 
 
-def test_analyze_says_why_no_estimate_over_a_range(tmp_path):
-    path, _ = _one_part_file(tmp_path, 3.9, operating_range_c=[-40, 85])
-    r = _analyze(path, "--samples", "2000", "--rare", "always")
+def test_analyze_over_a_range_estimates_the_worst_temperature(tmp_path):
+    # C has a temperature coefficient of -1000 ppm/K and no tolerance; judged at -40, 25 and
+    # 85 deg C the largest capacitance is at -40 deg C: C0 (1 + 65e-3) (linear coefficient, the
+    # definition of ppm/K). The floor fails when R C(-40) > tau_crit: P = Phi(-z_eff) with
+    # z_eff = (tau_crit / (R0 C0 1.065) - 1) / sigma (normal tail, scipy.stats).
+    r0, c0, f2, sigma, z_eff = 10e3, 10e-9, 2e3, 0.005, 3.8
+    tau_crit = r0 * c0 * 1.065 * (1 + z_eff * sigma)
+    limit = -10 * math.log10(1 + (2 * math.pi * f2 * tau_crit) ** 2)
+    data = _rc_design({"name": "R-test", "kind": "R", "tolerance_pct": 1.0, "coverage": 2.0, "truncate": False},
+                      {"name": "C-tc", "kind": "C", "tolerance_pct": 0.0, "tempco_ppm": -1000.0}, limit, f2)
+    data["analysis"]["operating_range_c"] = [-40, 85]
+    path = tmp_path / "rc_range.json"
+    path.write_text(json.dumps(data))
+    r = _analyze(str(path), "--samples", "2000", "--json", "-")
     assert r.returncode == 0, r.stderr
-    assert "high-yield estimate: not made (the yield is judged over an operating range" in r.stdout
+    high = json.loads(r.stdout)["yield"]["high_yield"]
+    assert high["method"] == "importance sampling"
+    truth = float(stats.norm.sf(z_eff))
+    assert 1 - high["high_yield"] <= truth <= 1 - high["low_yield"]
