@@ -82,3 +82,25 @@ def test_analyze_shapes_on_the_command_line(band_design):
                            "5000"], capture_output=True, text=True, timeout=300)
     assert text.returncode == 0 and "uniform inside the tolerance" in text.stdout
     assert "measurement of real parts" in text.stdout
+
+
+def test_report_says_where_the_recommendation_changes(band_design, tmp_path):
+    # The search under each shape, written into the review report: a uniform reading of a 5 %
+    # capacitor passes (5 - 2) / 10 = 30 % of boards (closed form above), so a 50 % target that
+    # a 5 % part meets as graded needs another grade under "uniform": the report must say so.
+    from tolspread.analysis import analyze
+    from tolspread.report import build_report, write_report
+    from tolspread.report.build import FIGURE_BOARDS
+    from tolspread.robustness import shape_recommendations
+
+    design = load(str(band_design))
+    choices = shape_recommendations(design, 0.15, samples=3000, shapes=("as graded", "uniform"))
+    result = analyze(design, samples=3000, curves=FIGURE_BOARDS)
+    out = tmp_path / "r.html"
+    write_report(build_report(result, target=0.15, shape_choices=choices), str(out))
+    html = out.read_text(encoding="utf-8")
+    assert "Cheapest grades found" in html and "the reference set" in html
+    if any(c.changed for c in choices):
+        assert "The recommendation would change under uniform" in html
+    else:
+        assert "The recommendation is the same under every shape" in html

@@ -78,7 +78,7 @@ SECTIONS: list[Section] = [
             lambda ctx: ctx.recommendation is not None or bool(ctx.curve)),
     Section("comparison", "Grade sets side by side", comparison_section, lambda ctx: bool(ctx.comparison)),
     Section("robustness", "Robustness to the shape of the distributions", robustness_section,
-            lambda ctx: bool(ctx.shapes)),
+            lambda ctx: bool(ctx.shapes) or bool(ctx.shape_choices)),
     Section("measured", "Measured parts", measured_section, has_measured),
     Section("parts", "Parts list", parts_section, lambda ctx: bool(ctx.parts_rows)),
     Section("assumptions", "Assumptions", assumptions_section),
@@ -111,7 +111,8 @@ def _head(ctx: Context, title: str | None, when: str, head_title: str) -> list[s
 def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: Any = None,
                  parts_rows: Sequence[dict] | None = None, title: str | None = None,
                  generated: datetime | None = None, current: Any = None, comparison: Sequence[Any] = (),
-                 target: float | None = None, shapes: Sequence[Any] = ()) -> Report:
+                 target: float | None = None, shapes: Sequence[Any] = (),
+                 shape_choices: Sequence[Any] = ()) -> Report:
     """Build the report of ``result``, which must keep curves: ``analyze(design, ...,
     curves=FIGURE_BOARDS)`` (the spread figures draw them; nothing here evaluates a board).
 
@@ -149,6 +150,10 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
         The yield target (fraction) the comparison and the shapes are judged against.
     shapes : sequence of ShapeYield, optional
         The reported grades under other distribution shapes.
+    shape_choices : sequence of ShapeChoice, optional
+        The cheapest grades found under each shape
+        (:func:`filters.robustness.shape_recommendations`), to say where the recommendation
+        would change.
 
     Returns
     -------
@@ -159,7 +164,8 @@ def build_report(result: AnalysisResult, *, recommendation: Any = None, curve: A
         raise ValueError("the report draws the boards' curves: analyze(design, ..., curves=FIGURE_BOARDS)")
     if result.corners is None:
         raise ValueError("the report lists the corners: analyze(design, ...) with with_corners=True")
-    ctx = Context(result, recommendation, curve, parts_rows, current, comparison, target, shapes)
+    ctx = Context(result, recommendation, curve, parts_rows, current, comparison, target, shapes,
+                  shape_choices)
     head_title = title or ctx.design.name or "Tolerance analysis"
     out = _head(ctx, title, (generated or datetime.now()).strftime("%Y-%m-%d %H:%M"), head_title)
     shown = [s for s in SECTIONS if s.when(ctx)]

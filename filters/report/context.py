@@ -29,6 +29,7 @@ class Context:
     comparison: Sequence[Any] = ()   # filters.grade_sets.SetResult, current first
     target: float | None = None      # the yield target the comparison is judged against
     shapes: Sequence[Any] = ()       # filters.robustness.ShapeYield of the reported grades
+    shape_choices: Sequence[Any] = ()  # filters.robustness.ShapeChoice: the search under each shape
     figures: dict[str, str] = field(default_factory=dict)
 
     @property

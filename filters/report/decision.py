@@ -146,6 +146,8 @@ def robustness_section(ctx: Context) -> str:
                        "set that holds under every shape (tolspread shapes --target-yield).</p>")
         else:
             out.append(f"<p>The lower bound meets the target {format_pct(target, 1)} under every shape.</p>")
+    if ctx.shape_choices:
+        out.append(_choices_html(ctx))
     return "\n".join(out)
 
 
@@ -250,3 +252,33 @@ def measured_section(ctx: Context) -> str:
     out.append("<p>The yield interval that includes having measured only these parts is given by "
                "<code>tolspread measure</code>.</p>")
     return "\n".join(out)
+
+
+def _choices_html(ctx: Context) -> str:
+    """The cheapest grades found under each shape, and where they differ from the first
+    shape's (:func:`filters.robustness.shape_recommendations`)."""
+    choices = list(ctx.shape_choices)
+    first = choices[0].grades
+    refs = [p.ref for p in ctx.design.parts]
+    rows = []
+    for c in choices:
+        if c.grades is None:
+            what, cost = "no set meets the target", ""
+        elif first is None or c is choices[0]:
+            what, cost = "the reference set", f"{c.cost:.4g}"
+        else:
+            moved = [f"{r} {g}" for r, g, g0 in zip(refs, c.grades, first) if g != g0]
+            what, cost = (", ".join(moved) or "the same set"), f"{c.cost:.4g}"
+        rows.append([esc(c.shape), esc(what), cost, "" if c.lower is None else format_pct(c.lower),
+                     "changed" if c.changed else ""])
+    out = ["<p>The search for the cheapest grades run again under each shape (its first row is the "
+           "grades as graded; other rows list the parts whose grade would differ):</p>",
+           table(["Shape", "Cheapest grades found", "Cost", "Lower bound", ""], rows, numeric=[2, 3])]
+    changed = [c.shape for c in choices if c.changed]
+    if changed:
+        out.append(f'<p class="bad">The recommendation would change under {esc(", ".join(changed))}: '
+                   "which shape holds, only measurement of the parts can say.</p>")
+    else:
+        out.append("<p>The recommendation is the same under every shape.</p>")
+    return "\n".join(out)
+
