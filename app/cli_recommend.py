@@ -9,10 +9,7 @@ from ..errors import InputError
 
 from .cli_args import EXIT_NO_SET, add_signoff_options, confidence, fraction_or_percent, positive_int, seed, signed
 from .texttable import table
-
-
-def _pct(x: float) -> str:
-    return f"{100 * x:.2f} %"
+from ..report.numbers import format_pct
 
 
 def add_parser(sub) -> None:
@@ -82,7 +79,7 @@ def run(args: argparse.Namespace) -> int:
     if sys.stderr.isatty():
         sys.stderr.write("\n")
     out = sys.stdout
-    pct = _pct
+    pct = format_pct
     out.write(f"{design.name or 'design'}\n")
     out.write(f"target: yield lower bound >= {pct(args.target_yield)} at {100 * args.confidence:g} % "
               f"confidence ({rec.search} search, {rec.evaluations:,} grade sets tried on the same boards)\n\n")
@@ -183,8 +180,9 @@ def _write_comparison(design, sets, args: argparse.Namespace, unit: str, money: 
     rows = []
     for r in results:
         cost = f"{r.money:.4g}" if money and r.money is not None else f"{r.cost:.2f}"
-        rows.append([r.label, cost, _pct(r.yield_.estimate), f"[{_pct(r.yield_.low)}, {_pct(r.yield_.high)}]",
-                     _pct(r.lower), "meets" if r.lower >= args.target_yield else "misses"])
+        rows.append([r.label, cost, format_pct(r.yield_.estimate),
+                     f"[{format_pct(r.yield_.low)}, {format_pct(r.yield_.high)}]", format_pct(r.lower),
+                     "meets" if r.lower >= args.target_yield else "misses"])
     for line in table(["set", "cost", "yield", f"{100 * args.confidence:g} % interval", "lower bound", "target"],
                       rows, "<>>>><"):
         out.write("  " + line + "\n")
@@ -197,7 +195,7 @@ def _write_comparison(design, sets, args: argparse.Namespace, unit: str, money: 
 def _explain_nothing(rec, args: argparse.Namespace, out) -> None:
     """Why no set was found, in words: too few boards (and how many would do), the
     catalog, or the search's limit."""
-    pct = _pct
+    pct = format_pct
     best = rec.best
     if rec.reason == "boards":
         out.write("No set found: too few boards to show the target, not a fault of the catalog.\n")

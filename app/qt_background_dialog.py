@@ -14,6 +14,7 @@ from PySide6.QtCore import QTimer
 from PySide6.QtWidgets import (QDialog, QDoubleSpinBox, QHBoxLayout, QHeaderView, QLabel, QLayout, QProgressBar,
                                QPushButton, QTableWidget, QTableWidgetItem, QVBoxLayout)
 
+from ..report.numbers import format_pct
 from .qt_tasks import BackgroundTask
 
 
@@ -162,9 +163,8 @@ def fill_table(table: QTableWidget, rows: list[list[str]]) -> None:
                          table.verticalHeader().length())
 
 
-def pct(x: float) -> str:
-    """A fraction as a percentage with two decimals."""
-    return f"{100 * x:.2f} %"
+#: A fraction as a percentage for the dialogs: the report's one writer.
+pct = format_pct
 
 
 def note_label(name: str) -> QLabel:

@@ -16,6 +16,7 @@ from ..recommend import Recommendation, cost_yield_curve, recommend
 
 from . import qt_style as st
 from .qt_grade_sets import Extras, GradeSetsView, decision_extras, own_sets
+from ..report.numbers import format_pct
 from .qt_tasks import BackgroundTask
 
 
@@ -174,7 +175,7 @@ class RecommendDialog(QDialog):
         self.show_recommendation(rec, curve, extras)
 
     def show_recommendation(self, rec: Recommendation, curve=None, extras: Extras | None = None) -> None:
-        pct = lambda x: f"{100 * x:.2f} %"  # noqa: E731
+        pct = format_pct
         d = self.design
         if rec.chosen is None:
             self.summary.setText(f"No set of grades in the catalog meets the target. {getattr(rec, 'note', '')}")

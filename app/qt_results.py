@@ -17,16 +17,13 @@ from ..metric_names import SPAN_UNIT, is_pair_metric, metric_label
 from . import qt_style as st
 from .qt_plots import hold_range
 from .qt_units import eng, prefix_for
+from ..report.numbers import format_pct
 
 MAX_TABLE_ROWS = 8  # the failure table grows to this many rows, then scrolls
 #: the metric shown first: a low- or high-pass's cutoff, a band-pass's centre
 FIRST_METRICS = ("cutoff_hz", "centre_hz")
 CAUTION = ("Estimate under the grades' stated distributions; confirm with measured parts "
            "and qualified review.")
-
-
-def _pct(x: float) -> str:
-    return f"{100 * x:.2f} %"
 
 
 class ResultsPanel(QWidget):
@@ -120,8 +117,8 @@ class ResultsPanel(QWidget):
         y = view.yield_
         if view.design.mask:
             self.yield_label.setText(
-                f"<span style='font-size:16pt'><b>yield {_pct(y.estimate)}</b></span><br>"
-                f"{round(100 * y.confidence)} % interval {_pct(y.low)} to {_pct(y.high)} "
+                f"<span style='font-size:16pt'><b>yield {format_pct(y.estimate)}</b></span><br>"
+                f"{round(100 * y.confidence)} % interval {format_pct(y.low)} to {format_pct(y.high)} "
                 f"({'Wilson' if y.method == 'wilson' else 'exact'}), {y.passed:,} of {y.samples:,} boards pass"
                 + (f"<br>{note}" if (note := yield_note(view.result)) else ""))  # over a range, after a life
         else:
@@ -141,7 +138,7 @@ class ResultsPanel(QWidget):
         self.table.setRowCount(len(view.spans))
         for i, s in enumerate(view.spans):
             unit = SPAN_UNIT[view.design.mask[i].quantity]
-            cells = [s.name, f"{s.failed:,} ({_pct(s.fraction)})", _pct(s.share_of_failures),
+            cells = [s.name, f"{s.failed:,} ({format_pct(s.fraction)})", format_pct(s.share_of_failures),
                      eng(s.worst_margin_db, unit, 3, signed=True)]
             for j, text in enumerate(cells):
                 item = QTableWidgetItem(text)

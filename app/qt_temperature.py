@@ -24,6 +24,7 @@ from ..evaluate import evaluate
 from ..liveview import ViewData
 from ..sampling import Conditions
 from ..temperature_settings import HOURS_PER_YEAR
+from ..report.numbers import format_pct
 from ..temperature_text import temperature_tables
 
 __all__ = ["BAND_BOARDS", "TemperatureDialog", "parse_points"]
@@ -201,14 +202,14 @@ class TemperatureDialog(QDialog):
             overall = 100 * over.overall.estimate
             dashed = pg.mkPen("#D55E00", width=2, style=Qt.PenStyle.DashLine)
             self.yield_plot.addItem(pg.InfiniteLine(pos=overall, angle=0, pen=dashed))
-            lines.append("yield at " + ", ".join(f"{p.temperature_c:g} °C {100 * p.yield_.estimate:.2f} %"
+            lines.append("yield at " + ", ".join(f"{p.temperature_c:g} °C {format_pct(p.yield_.estimate)}"
                                                  for p in over.points)
-                         + f"; at every judged temperature {overall:.2f} % (dashed line)")
+                         + f"; at every judged temperature {format_pct(over.overall.estimate)} (dashed line)")
         else:
             lines.append("no operating range: each board is judged at the design's board temperature")
         if life is not None:
-            lines.append(f"after {life.years:.3g} years at {life.temp_c:g} °C: {100 * life.after.estimate:.2f} % "
-                         f"(at delivery {100 * life.delivery.estimate:.2f} %; life drift is a cautious estimate "
+            lines.append(f"after {life.years:.3g} years at {life.temp_c:g} °C: {format_pct(life.after.estimate)} "
+                         f"(at delivery {format_pct(life.delivery.estimate)}; life drift is a cautious estimate "
                          "from the grades' load-life ratings)")
         self.summary.setText("\n".join(lines))
         self._fill_shift_table(res)
