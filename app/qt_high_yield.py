@@ -27,17 +27,33 @@ def high_yield_html(result: AnalysisResult) -> str:
             f"interval. The yield above is plain sampling's.")
 
 
-def measured_html(design) -> str:
-    """For a design with measured parts: which ones (values, lots), that the panel's interval
-    counts only the boards' spread (``tolspread measure`` adds the spread of having measured
-    only n parts), and the lot-to-lot caution; "" without measured parts."""
+FEW_LOTS = 5  # fewer lots say little about the spread between lots (judgement, common practice)
+
+
+def measured_html(design, measured=None, state: str = "") -> str:
+    """For a design with measured parts: which ones (values, lots), that the headline interval
+    counts only the boards' spread, the interval that also counts having measured only those
+    parts (``measured``: a :class:`filters.measured.MeasuredYield`, as ``tolspread measure``
+    gives it) or ``state`` while it is not there ("computing"), and the lot-to-lot caution
+    (one lot, or fewer than FEW_LOTS); "" without measured parts."""
     parts = [p for p in design.parts if p.measured is not None]
     if not parts:
         return ""
     names = ", ".join(f"{p.ref} ({len(p.measured.values):,} values, {p.measured.lot_count} "
                       f"lot{'s' if p.measured.lot_count != 1 else ''})" for p in parts)
-    one_lot = any(p.measured.lot_count < 2 for p in parts)
-    return (f"<b>measured parts</b>: {names}. The interval above counts the boards' spread only; having measured "
-            f"only those parts widens it (<code>tolspread measure</code> gives that interval)."
-            + (" One reel says nothing about lot-to-lot variation: measure several lots before a decision "
-               "that spans them." if one_lot else ""))
+    if measured is not None:
+        m = measured
+        with_m = (f"<b>with the measurement: {round(100 * m.confidence)} % interval {format_pct(m.low)} to "
+                  f"{format_pct(m.high)}</b> (yield {format_pct(m.estimate)}; spread from having measured only "
+                  f"those parts {format_pct(m.measurement_sd)} sd over {m.replicates} resampled sets, "
+                  f"boards {format_pct(m.boards_sd)} sd; as <code>tolspread measure</code>).")
+    else:
+        with_m = (f"The interval that also counts having measured only those parts (as <code>tolspread "
+                  f"measure</code>): {state or 'not computed'}.")
+    lots = min(p.measured.lot_count for p in parts)
+    caution = (" One reel says nothing about lot-to-lot variation: measure several lots before a decision "
+               "that spans them." if lots < 2 else
+               f" Only {lots} lots measured: the spread between lots is known roughly at best; measure more "
+               f"lots before a decision that spans them." if lots < FEW_LOTS else "")
+    return (f"<b>measured parts</b>: {names}. The interval above counts the boards' spread only; "
+            + with_m + caution)

@@ -123,6 +123,7 @@ class MainWindow(QMainWindow, WindowFiles):
         s.view_ready.connect(self._on_view_ready)
         s.evaluation_failed.connect(self._on_evaluation_failed)
         s.busy_changed.connect(self._on_busy_changed)
+        s.busy_changed.connect(lambda busy: busy and self.results.measured_line.cancel())  # a newer evaluation
         s.progress.connect(self._on_progress)
         s.dirty_changed.connect(self._on_dirty_changed)
         s.path_changed.connect(self._on_path_changed)

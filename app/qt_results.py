@@ -10,7 +10,8 @@ from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QHeaderView, QLabel, QTab
 
 from ..liveview import ViewData
 from ..temperature_text import yield_note
-from .qt_high_yield import high_yield_html, measured_html
+from .qt_high_yield import high_yield_html
+from .qt_measured_yield import MeasuredYieldLine
 from .. import metric_names
 from ..metric_names import SPAN_UNIT, is_pair_metric, metric_label
 
@@ -48,8 +49,15 @@ class ResultsPanel(QWidget):
         self.high_yield.setTextFormat(Qt.TextFormat.RichText)
         self.high_yield.setWordWrap(True)
         self.high_yield.hide()
+        self.measured = QLabel("")  # measured parts, the interval with the measurement (app/qt_measured_yield.py)
+        self.measured.setObjectName("measured_yield_label")
+        self.measured.setTextFormat(Qt.TextFormat.RichText)
+        self.measured.setWordWrap(True)
+        self.measured.hide()
+        self.measured_line = MeasuredYieldLine(self.measured, self)
         lay.addWidget(self.yield_label)
         lay.addWidget(self.high_yield)
+        lay.addWidget(self.measured)
         lay.addWidget(self.detail)
         self.table = QTableWidget(0, 4)
         self.table.setObjectName("failure_table")
@@ -123,8 +131,8 @@ class ResultsPanel(QWidget):
                 + (f"<br>{note}" if (note := yield_note(view.result)) else ""))  # over a range, after a life
         else:
             self.yield_label.setText("<b>no spec mask yet</b>: draw floor or ceiling spans on the gain plot")
-        rare = "<br>".join(x for x in (high_yield_html(view.result) if not view.preview else "",
-                                       measured_html(view.design)) if x) if view.design.mask else ""
+        rare = high_yield_html(view.result) if view.design.mask and not view.preview else ""
+        self.measured_line.show_view(view)
         self.high_yield.setText(rare)
         self.high_yield.setVisible(bool(rare))
         bands_note = (f"; bands drawn from the first {view.curve_boards:,} boards"

@@ -29,11 +29,11 @@ import io
 import math
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 import numpy as np
 
-from .errors import InputError, is_finite_number
+from .errors import Cancelled, InputError, is_finite_number
 from .grades import Grade
 from .safeio import read_text
 from .values import parse_value
@@ -324,7 +324,7 @@ def _resampled(m: Measured, rng: np.random.Generator) -> Measured:
 
 
 def measured_yield(design, *, samples: int | None = None, seed: int | None = None,
-                   replicates: int = 40) -> MeasuredYield:
+                   replicates: int = 40, should_stop: Callable[[], bool] | None = None) -> MeasuredYield:
     """Yield of a design with measured parts, with an interval that counts the measurement.
 
     Parameters
@@ -335,6 +335,9 @@ def measured_yield(design, *, samples: int | None = None, seed: int | None = Non
         Boards and seed (default: the design's); every replicate uses the same boards.
     replicates : int
         Resampled measured sets (outer bootstrap).
+    should_stop : callable, optional
+        ``should_stop()`` returning True cancels the run (raises :class:`~filters.errors.Cancelled`);
+        asked between replicates and inside each evaluation.
 
     Returns
     -------
@@ -352,17 +355,20 @@ def measured_yield(design, *, samples: int | None = None, seed: int | None = Non
         raise InputError("no part of the design carries measured values", "parts")
     if replicates < 2:
         raise InputError("at least 2 replicates", "replicates")
-    base = evaluate(design, samples=samples, seed=seed, curves=False, metrics=False)
+    base = evaluate(design, samples=samples, seed=seed, curves=False, metrics=False, should_stop=should_stop)
     p = float(base.passed.mean())
     n = base.samples
     rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence(a.seed if seed is None else seed,
                                                                      spawn_key=(0xB007,))))
     ys = np.empty(replicates)
     for b in range(replicates):  # replicates, not boards: each one evaluates every board at once
+        if should_stop is not None and should_stop():
+            raise Cancelled("measured yield stopped")
         d = design
         for _, part in measured:
             d = d.with_part(part.ref, measured=_resampled(part.measured, rng))
-        ys[b] = evaluate(d, samples=samples, seed=seed, curves=False, metrics=False).passed.mean()
+        ys[b] = evaluate(d, samples=samples, seed=seed, curves=False, metrics=False,
+                         should_stop=should_stop).passed.mean()
     m_sd = float(np.std(ys, ddof=1))
     b_sd = math.sqrt(p * (1 - p) / n)
     z = float(ndtri(0.5 + a.confidence / 2))

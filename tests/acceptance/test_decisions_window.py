@@ -262,8 +262,22 @@ def test_measured_values_from_csv_replace_a_parts_tolerance_as_one_undoable_edit
     y = float(re.search(r"yield ([0-9.]+) %", w.results.yield_label.text()).group(1)) / 100
     ci = stats.binomtest(round(y * 4000), 4000).proportion_ci(0.999, method="wilson")  # scipy.stats
     assert ci.low <= 0.7 <= ci.high
-    note = w.results.high_yield.text()  # the panel says what its interval leaves out
-    assert "R1 (40 values, 1 lot)" in note and "tolspread measure" in note and "lot-to-lot" in note
+    # the panel names the measured parts, says its headline interval leaves the measurement out,
+    # then (computed in the background) gives the interval that counts it, with the lot caution
+    qtbot.waitUntil(lambda: "with the measurement" in w.results.measured.text(), timeout=WAIT_MS)
+    note = w.results.measured.text()
+    assert "R1 (40 values, 1 lot)" in note and "boards' spread only" in note and "lot-to-lot" in note
+    low, high = (float(g) / 100 for g in re.search(rf"interval {PCT} to {PCT}</b>", note).groups())
+    # the same numbers as the library the command line prints (same boards, seed and replicates)
+    from tolspread.app.qt_measured_yield import REPLICATES
+    from tolspread.measured import measured_yield
+
+    my = measured_yield(w.session.last_view.design, samples=4000, seed=1, replicates=REPLICATES)
+    assert low == pytest.approx(my.low, abs=6e-5) and high == pytest.approx(my.high, abs=6e-5)
+    # wider than the boards' interval alone: 40 measured values spread a proportion of 0.7 by
+    # about sqrt(0.7 x 0.3 / 40) = 0.072 (binomial sd of a proportion, textbook)
+    assert high - low > 2 * 1.96 * math.sqrt(0.7 * 0.3 / 40) * 0.5
+    assert low <= 0.7 <= high
 
     action(w, "undo").trigger()
     assert w.session.design.parts[0].measured is None and row.slider.isVisible()
