@@ -93,6 +93,22 @@ def test_measurement_spread_matches_a_proportions_bootstrap(tmp_path):
     assert res.high - res.low > 2 * 1.9 * expected  # the interval holds the measurement's spread
 
 
+def test_measured_yield_stops_when_asked(tmp_path):
+    # the window's background run: should_stop() true after k questions ends it with Cancelled
+    from tolspread.errors import Cancelled
+
+    design = design_from_dict(_band(tmp_path, _values(30)))
+    asked = []
+
+    def stop() -> bool:
+        asked.append(1)
+        return len(asked) > 3
+
+    with pytest.raises(Cancelled):
+        measured_yield(design, samples=2000, replicates=50, should_stop=stop)
+    assert len(asked) < 50  # it did not run the remaining replicates
+
+
 def test_measure_command(tmp_path):
     design = tmp_path / "band.json"
     design.write_text(json.dumps(_band(tmp_path)))

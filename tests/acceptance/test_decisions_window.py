@@ -289,6 +289,38 @@ def test_measured_values_from_csv_replace_a_parts_tolerance_as_one_undoable_edit
     assert not shown.errors() and not log_errors()
 
 
+def test_measured_interval_follows_the_newest_boards_and_stops_on_close(starter, qtbot, tmp_path):
+    # two lots in the file: the panel's caution says few lots; New boards (a newer evaluation)
+    # replaces the interval by the one on the new seed; closing the window ends the run
+    from tolspread.app.qt_measured_yield import REPLICATES
+    from tolspread.measured import measured_yield
+
+    path, _ = rc_file(tmp_path, 2.0, samples=4000)
+    data = json.loads(path.read_text(encoding="utf-8"))
+    values = [9805.0 + 10 * k for k in range(28)] + [10115.0 + 10 * k for k in range(12)]
+    data["parts"][0]["measured"] = {"values": values, "lots": ["A", "B"] * 20}
+    path.write_text(json.dumps(data), encoding="utf-8")
+    w = starter.launch(str(path))
+    wait_idle(qtbot, w)
+    label = w.results.measured
+    qtbot.waitUntil(lambda: "with the measurement" in label.text(), timeout=WAIT_MS)
+    assert "R1 (40 values, 2 lots)" in label.text() and "Only 2 lots" in label.text()
+    first = label.text()
+    QTest.mouseClick(w.parts.redraw, Qt.MouseButton.LeftButton)  # the next seed
+    qtbot.waitUntil(lambda: w.session.last_view.seed != 1 and not w.session.busy, timeout=WAIT_MS)
+    qtbot.waitUntil(lambda: "with the measurement" in label.text() and label.text() != first, timeout=WAIT_MS)
+    seed = w.session.last_view.seed
+    my = measured_yield(w.session.last_view.design, samples=4000, seed=seed, replicates=REPLICATES)
+    low, high = (float(g) / 100 for g in re.search(rf"interval {PCT} to {PCT}</b>", label.text()).groups())
+    assert low == pytest.approx(my.low, abs=6e-5) and high == pytest.approx(my.high, abs=6e-5)
+    QTest.mouseClick(w.parts.redraw, Qt.MouseButton.LeftButton)
+    qtbot.waitUntil(lambda: w.results.measured_line.task is not None, timeout=WAIT_MS)
+    task = w.results.measured_line.task
+    assert w.close()  # nothing unsaved: closes at once
+    assert not task.running  # its thread was stopped and waited for; nothing reports into a closed window
+    assert not log_errors()
+
+
 def test_lock_and_forbid_from_a_parts_menu_are_undoable_and_saved(window, qtbot, answers, tmp_path):
     w = window
     edits = w.session.undo_stack.count()
