@@ -15,6 +15,7 @@ from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QScrollArea, QSize
 
 from ..design import Design
 from ..schematic import Schematic, stage_schematic
+from . import qt_style as st
 
 MAX_ZOOM = 1.5   # never draw the schematic larger than 1.5 x its natural size (points -> px)
 MIN_ZOOM = 0.75  # nor smaller than 0.75 x (9 px text): a larger circuit scrolls instead
@@ -118,11 +119,7 @@ class CircuitView(QWidget):
         self.scroll.setWidget(self.canvas)
         self.scroll.setMinimumHeight(VIEW_HEIGHT)
         lay.addWidget(self.scroll, 1)
-        self.problem = QLabel()
-        self.problem.setObjectName("schematic_problem")
-        self.problem.setStyleSheet("color: #D55E00;")
-        self.problem.setWordWrap(True)
-        self.problem.hide()
+        self.problem = st.problem_label("schematic_problem")
         lay.addWidget(self.problem)
         self.design: Design | None = None
         self.selected: str | None = None

@@ -18,6 +18,7 @@ from PySide6.QtWidgets import (QComboBox, QGridLayout, QLabel, QLineEdit, QPushB
 from ..design import MAX_SAMPLES, MAX_SEED, Design, check_part_value, check_seed
 from ..errors import InputError
 from ..values import PART_UNITS, format_value
+from . import qt_style as st
 from .qt_part_menu import show_constraints, show_measured
 
 SLIDER_STEPS = 1000
@@ -75,11 +76,7 @@ class PartRow:
         self.readout = QLabel()
         self.readout.setObjectName(f"tolerance_readout_{ref}")
         self.readout.setMinimumWidth(70)
-        self.problem = QLabel()
-        self.problem.setObjectName(f"problem_{ref}")
-        self.problem.setStyleSheet("color: #D55E00;")
-        self.problem.setWordWrap(True)
-        self.problem.hide()
+        self.problem = st.problem_label(f"problem_{ref}")
         self.value.editingFinished.connect(lambda: panel._on_value_edited(self))
         self.grade.activated.connect(lambda _i: panel._on_grade_chosen(self))
         self.slider.valueChanged.connect(lambda pos: panel._on_slider_moved(self, pos))
@@ -121,16 +118,8 @@ class PartsPanel(QWidget):
         self.seed.setValidator(QRegularExpressionValidator(QRegularExpression(rf"\d{{0,{len(str(MAX_SEED))}}}")))
         self.seed.setToolTip(f"random seed: a whole number from 0 to {MAX_SEED:,}")
         self.seed.setMinimumWidth(self.seed.fontMetrics().horizontalAdvance("0" * 12))
-        self.seed_problem = QLabel()
-        self.seed_problem.setObjectName("seed_problem")
-        self.seed_problem.setStyleSheet("color: #D55E00;")
-        self.seed_problem.setWordWrap(True)
-        self.seed_problem.hide()
-        self.samples_problem = QLabel()  # a boards count the memory rule refuses
-        self.samples_problem.setObjectName("samples_problem")
-        self.samples_problem.setStyleSheet("color: #D55E00;")
-        self.samples_problem.setWordWrap(True)
-        self.samples_problem.hide()
+        self.seed_problem = st.problem_label("seed_problem")
+        self.samples_problem = st.problem_label("samples_problem")  # a boards count the memory rule refuses
         self.method = _Combo()
         self.method.setObjectName("method")
         self.method.addItem("random", "random")

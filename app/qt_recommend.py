@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pyqtgraph as pg
 from PySide6.QtCore import Signal
-from PySide6.QtWidgets import (QCheckBox, QDialog, QDoubleSpinBox, QFileDialog, QFormLayout, QHBoxLayout,
+from PySide6.QtWidgets import (QCheckBox, QDialog, QFileDialog, QFormLayout, QHBoxLayout,
                                QHeaderView, QLabel, QLineEdit, QProgressBar, QPushButton, QSpinBox, QTableWidget,
                                QTableWidgetItem, QVBoxLayout)
 
@@ -15,6 +15,7 @@ from ..parts_list import parts_list_rows, worst_margin_metric, write_parts_csv
 from ..recommend import Recommendation, cost_yield_curve, recommend
 
 from . import qt_style as st
+from .qt_background_dialog import percent_box
 from .qt_grade_sets import Extras, GradeSetsView, decision_extras, own_sets
 from ..report.numbers import format_pct
 from .qt_tasks import BackgroundTask
@@ -40,18 +41,8 @@ class RecommendDialog(QDialog):
         self.task: BackgroundTask | None = None
         lay = QVBoxLayout(self)
         form = QFormLayout()
-        self.target = QDoubleSpinBox()
-        self.target.setObjectName("target_yield")
-        self.target.setRange(50.0, 99.99)
-        self.target.setDecimals(2)
-        self.target.setSuffix(" %")
-        self.target.setValue(95.0)
-        self.confidence = QDoubleSpinBox()
-        self.confidence.setObjectName("confidence")
-        self.confidence.setRange(50.0, 99.9)
-        self.confidence.setDecimals(1)
-        self.confidence.setSuffix(" %")
-        self.confidence.setValue(95.0)
+        self.target = percent_box("target_yield", 50.0, 99.99, 2, 95.0)
+        self.confidence = percent_box("confidence", 50.0, 99.9, 1, 95.0)
         self.samples = QSpinBox()
         self.samples.setObjectName("recommend_samples")
         self.samples.setRange(200, 200_000)

@@ -28,6 +28,7 @@ from ..designfile import design_to_dict
 from ..errors import InputError, ValidationError
 from ..topologies import TOPOLOGIES
 from . import qt_stage_edits as edits
+from . import qt_style as st
 from .qt_parts import INVALID_STYLE
 
 BAD_CELL = QColor("#fde2d6")   # the value fields' invalid colour (qt_parts.INVALID_STYLE)
@@ -162,11 +163,7 @@ class StageEditor(QWidget):
         grid.addWidget(self.remove_opamp, 5, 2)
         self.pages.addWidget(circuit)
         lay.addWidget(self.pages, 1)
-        self.problem = QLabel()
-        self.problem.setObjectName("stage_problem")
-        self.problem.setStyleSheet("color: #D55E00;")
-        self.problem.setWordWrap(True)
-        self.problem.hide()
+        self.problem = st.problem_label("stage_problem")
         lay.addWidget(self.problem)
         self.stage_list.currentRowChanged.connect(self._on_stage_chosen)
         self.add_stage.clicked.connect(lambda: self._edit(lambda d: edits.new_stage(d, self._catalog(), self._kinds()),

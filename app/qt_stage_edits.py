@@ -144,10 +144,13 @@ def circuit_from_library(stage: Data, taken: set[str]) -> Data:
     out: Data = {"topology": CIRCUIT, "elements": elements}
     if opamps:
         out["opamps"] = opamps
-    for k in ("name", "buffered"):
-        if k in stage:
-            out[k] = stage[k]
-    return out
+    return _keep_stage_fields(stage, out)
+
+
+def _keep_stage_fields(old: Data, new: Data) -> Data:
+    """``new`` (a stage's file form) with ``old``'s name and ``buffered`` flag, where it had them."""
+    new.update({k: old[k] for k in ("name", "buffered") if k in old})
+    return new
 
 
 def set_topology(data: Data, index: int, name: str, catalog: Catalog, kinds: dict[str, str],
@@ -168,10 +171,7 @@ def set_topology(data: Data, index: int, name: str, catalog: Catalog, kinds: dic
     new: Data = {"topology": name, "parts": mapping}
     if options:
         new["options"] = options
-    for k in ("name", "buffered"):
-        if k in stage:
-            new[k] = stage[k]
-    out["stages"][index] = new
+    out["stages"][index] = _keep_stage_fields(stage, new)
     return prune_parts(out)
 
 

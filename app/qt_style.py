@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from PySide6.QtCore import Qt
 from PySide6.QtGui import QColor
+from PySide6.QtWidgets import QLabel
 
 BLUE = "#0072B2"
 SKY = "#56B4E9"
@@ -20,6 +21,18 @@ def rgba(hex_colour: str, alpha: int) -> QColor:
     c = QColor(hex_colour)
     c.setAlpha(alpha)
     return c
+
+
+def problem_label(name: str, hidden: bool = True) -> QLabel:
+    """A wrapping label in :data:`VERMILION` named ``name`` for an input's one-line problem
+    (hidden until there is one, unless ``hidden`` is False)."""
+    label = QLabel()
+    label.setObjectName(name)
+    label.setStyleSheet(f"color: {VERMILION};")
+    label.setWordWrap(True)
+    if hidden:
+        label.hide()
+    return label
 
 
 NOMINAL_PEN = {"color": INK, "width": 2}

@@ -26,6 +26,7 @@ from ..sampling import Conditions
 from ..temperature_settings import HOURS_PER_YEAR
 from ..report.numbers import format_pct
 from ..temperature_text import temperature_tables
+from . import qt_style as st
 
 __all__ = ["BAND_BOARDS", "TemperatureDialog", "parse_points"]
 
@@ -103,10 +104,7 @@ class TemperatureDialog(QDialog):
         self.apply_button = QPushButton("Apply to the design")
         self.apply_button.setObjectName("apply_temperature")
         self.apply_button.clicked.connect(self.apply)
-        self.problem = QLabel()
-        self.problem.setObjectName("temperature_problem")
-        self.problem.setStyleSheet("color: #D55E00;")
-        self.problem.setWordWrap(True)
+        self.problem = st.problem_label("temperature_problem", hidden=False)
         form.addRow(self.apply_button)
         form.addRow(self.problem)
 

@@ -308,19 +308,15 @@ def circuit_from_dict(s: dict[str, Any], path: str, kinds: dict[str, str],
                      if (e := _element(r, f"{path}.elements[{k}]", kinds, problems)) is not None)
     opamps = tuple(o for k, r in enumerate(raw_op)
                    if (o := _opamp(r, f"{path}.opamps[{k}]", kinds, problems)) is not None)
-    names: dict[str, str] = {}
-    for k, e in enumerate(elements):
-        where = f"{path}.elements[{k}]"
-        if e.ref in names:
-            problems.append(InputError(f"element {e.ref}: part {e.ref} is used twice in this circuit "
-                                       f"(also at {names[e.ref]}); one part, one place", where))
-        names.setdefault(e.ref, where)
-    for k, o in enumerate(opamps):
-        where = f"{path}.opamps[{k}]"
-        if o.ref in names:
-            problems.append(InputError(f"op-amp {o.ref}: the name is used twice in this circuit "
-                                       f"(also at {names[o.ref]}); one part, one place", where))
-        names.setdefault(o.ref, where)
+    names: dict[str, str] = {}  # one name space for elements and op-amps: ref -> first field path
+    for items, field, what in ((elements, "elements", "element {0}: part {0}"),
+                               (opamps, "opamps", "op-amp {0}: the name")):
+        for k, item in enumerate(items):
+            where = f"{path}.{field}[{k}]"
+            if item.ref in names:
+                problems.append(InputError(f"{what.format(item.ref)} is used twice in this circuit "
+                                           f"(also at {names[item.ref]}); one part, one place", where))
+            names.setdefault(item.ref, where)
     if len(problems) > before:
         return None
     problems += structure_problems(elements, opamps, path)
