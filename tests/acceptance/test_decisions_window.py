@@ -313,9 +313,29 @@ def test_measured_interval_follows_the_newest_boards_and_stops_on_close(starter,
     my = measured_yield(w.session.last_view.design, samples=4000, seed=seed, replicates=REPLICATES)
     low, high = (float(g) / 100 for g in re.search(rf"interval {PCT} to {PCT}</b>", label.text()).groups())
     assert low == pytest.approx(my.low, abs=6e-5) and high == pytest.approx(my.high, abs=6e-5)
-    QTest.mouseClick(w.parts.redraw, Qt.MouseButton.LeftButton)
-    qtbot.waitUntil(lambda: w.results.measured_line.task is not None, timeout=WAIT_MS)
-    task = w.results.measured_line.task
+    # while C1's tolerance slider is dragged (previews on the first boards) nothing is computed
+    from PySide6.QtCore import QPoint
+    from PySide6.QtWidgets import QStyle, QStyleOptionSlider
+
+    slider = w.parts.rows["C1"].slider
+    opt = QStyleOptionSlider()
+    slider.initStyleOption(opt)
+    pos = slider.style().subControlRect(QStyle.ComplexControl.CC_Slider, opt,
+                                        QStyle.SubControl.SC_SliderHandle, slider).center()
+    previews, fulls = [], []
+    w.session.view_ready.connect(lambda v: (previews if v.preview else fulls).append(
+        (label.text(), w.results.measured_line.task)))
+    QTest.mousePress(slider, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, pos)
+    for dx in range(1, 200):
+        if previews:
+            break
+        QTest.mouseMove(slider, QPoint(pos.x() + dx % 20, pos.y()))
+        QTest.qWait(20)
+    QTest.mouseRelease(slider, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, pos)
+    assert previews and all("after the release" in text and task is None for text, task in previews)
+    qtbot.waitUntil(lambda: bool(fulls), timeout=WAIT_MS)  # the release's full evaluation starts one
+    text, task = fulls[-1]
+    assert "computing" in text and task is not None
     assert w.close()  # nothing unsaved: closes at once
     assert not task.running  # its thread was stopped and waited for; nothing reports into a closed window
     assert not log_errors()
