@@ -133,7 +133,10 @@ def cmd_analyze(args: argparse.Namespace) -> int:
     return 0
 
 
-SUBCOMMANDS = ("analyze", "design", "recommend", "centre", "shapes", "measure")
+#: subcommand -> its runner (args -> exit status)
+RUNNERS = {"analyze": cmd_analyze, "design": run_design, "recommend": run_recommend, "centre": run_centre,
+           "shapes": run_shapes, "measure": run_measure}
+SUBCOMMANDS = tuple(RUNNERS)
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -155,18 +158,8 @@ def main(argv: Sequence[str] | None = None) -> int:
                 args = window.parse_args(argv)
                 args.command = None
         design_path = getattr(args, "design", None)
-        if args.command == "analyze":
-            return cmd_analyze(args)
-        if args.command == "design":
-            return run_design(args)
-        if args.command == "recommend":
-            return run_recommend(args)
-        if args.command == "centre":
-            return run_centre(args)
-        if args.command == "shapes":
-            return run_shapes(args)
-        if args.command == "measure":
-            return run_measure(args)
+        if args.command in RUNNERS:
+            return RUNNERS[args.command](args)
         return open_window(design_path, args.screenshot)
     except ValidationError as exc:
         lines, more = exc.lines(), len(exc.lines()) - 1

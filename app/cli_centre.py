@@ -7,6 +7,7 @@ import sys
 
 from .cli_args import design_with_mask, positive_int, seed
 from .texttable import table
+from ..report.numbers import format_pct
 
 
 def add_parser(sub) -> None:
@@ -49,7 +50,7 @@ def run(args: argparse.Namespace) -> int:
                   f"({', '.join(res.movable)}), {res.screen_boards:,} boards each, the same boards for all\n\n")
         b, a = res.before, res.after
         if not res.moves:
-            out.write(f"No neighbouring values beat the present ones (yield {100 * b.estimate:.2f} % on "
+            out.write(f"No neighbouring values beat the present ones (yield {format_pct(b.estimate)} on "
                       f"{b.samples:,} boards).\n")
         else:
             kinds = {p.ref: p.kind for p in design.parts}
@@ -57,8 +58,8 @@ def run(args: argparse.Namespace) -> int:
                      m.series] for m in res.moves]
             for line in table(["part", "now", "centred", "series"], rows, "<>><"):
                 out.write(line + "\n")
-            out.write(f"\n  yield now     {100 * b.estimate:.2f} % [{100 * b.low:.2f}, {100 * b.high:.2f}]\n")
-            out.write(f"  yield centred {100 * a.estimate:.2f} % [{100 * a.low:.2f}, {100 * a.high:.2f}]"
+            out.write(f"\n  yield now     {format_pct(b.estimate)} [{100 * b.low:.2f}, {100 * b.high:.2f}]\n")
+            out.write(f"  yield centred {format_pct(a.estimate)} [{100 * a.low:.2f}, {100 * a.high:.2f}]"
                       f"  ({a.samples:,} boards, the same for both)\n")
             out.write(f"  gain {100 * res.gain:+.2f} points, standard error {100 * res.gain_standard_error:.2f} "
                       f"(boards changed: {res.only_after:,} now pass, {res.only_before:,} now fail)\n")

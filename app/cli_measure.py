@@ -7,6 +7,7 @@ import sys
 
 from .cli_args import design_with_mask, positive_int, seed
 from .texttable import table
+from ..report.numbers import format_pct
 
 
 def add_parser(sub) -> None:
@@ -68,10 +69,10 @@ def run(args: argparse.Namespace) -> int:
     for line in table(["part", "file", "values", "mean %", "sd %", "range %", "lots", "ppm/K"], body, "<<>>>><>"):
         out.write(line + "\n")
     conf = f"{100 * res.confidence:g} %"
-    out.write(f"\n  yield with the measured parts  {100 * res.estimate:.2f} %, {conf} interval "
+    out.write(f"\n  yield with the measured parts  {format_pct(res.estimate)}, {conf} interval "
               f"[{100 * res.low:.2f}, {100 * res.high:.2f}] (boards sd {100 * res.boards_sd:.2f}, measurement sd "
               f"{100 * res.measurement_sd:.2f} points from {res.replicates} resampled sets)\n")
-    out.write(f"  yield with the grades' model   {100 * graded.estimate:.2f} %, {conf} interval "
+    out.write(f"  yield with the grades' model   {format_pct(graded.estimate)}, {conf} interval "
               f"[{100 * graded.low:.2f}, {100 * graded.high:.2f}] (same boards)\n")
     if args.output:
         out.write(f"\nwrote the design with the measured values to {args.output}\n")

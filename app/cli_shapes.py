@@ -8,6 +8,7 @@ import sys
 
 from .cli_args import confidence, design_with_mask, fraction_or_percent, positive_int, seed
 from .texttable import table
+from ..report.numbers import format_pct
 
 
 def add_parser(sub) -> None:
@@ -49,12 +50,12 @@ def run(args: argparse.Namespace) -> int:
         return 0
     out.write(f"{design.name or 'design'}: present grades under each reading of the tolerances "
               f"(the same {yields[0].yield_.samples:,} boards for each)\n\n")
-    rows = [[y.shape, SHAPE_TEXT[y.shape], f"{100 * y.yield_.estimate:.2f} %",
+    rows = [[y.shape, SHAPE_TEXT[y.shape], format_pct(y.yield_.estimate),
              f"[{100 * y.yield_.low:.2f}, {100 * y.yield_.high:.2f}]"] for y in yields]
     for line in table(["shape", "model", "yield", f"{100 * design.analysis.confidence:g} % interval"], rows, "<<>>"):
         out.write(line + "\n")
     if choices is not None:
-        out.write(f"\ncheapest grades for a yield lower bound of {100 * args.target_yield:.2f} % under each shape\n")
+        out.write(f"\ncheapest grades for a yield lower bound of {format_pct(args.target_yield)} under each shape\n")
         rows = []
         for c in choices:
             chosen = "no set found" if c.grades is None else ", ".join(c.grades)
