@@ -137,13 +137,19 @@ def wait_first_view(qtbot, w) -> None:
     qtbot.waitUntil(lambda: w.session.last_view is not None and not w.session.busy, timeout=WAIT_MS)
 
 
-@pytest.fixture
-def window(qtbot):
-    w = add_window(qtbot, make_window(None))
+def shown_window(qtbot, path: str | None):
+    """The window on ``path`` (None: the demo), 1500 x 900 px, shown with its first view."""
+    w = add_window(qtbot, make_window(path))
     w.resize(1500, 900)
     w.show()
     qtbot.waitExposed(w)
     wait_first_view(qtbot, w)
+    return w
+
+
+@pytest.fixture
+def window(qtbot):
+    w = shown_window(qtbot, None)
     yield w
     close_window(w)
 
@@ -164,11 +170,7 @@ def gain_design_text() -> str:
 def gain_window(qtbot, tmp_path):
     path = tmp_path / "gain.json"
     path.write_text(gain_design_text(), encoding="utf-8")
-    w = add_window(qtbot, make_window(str(path)))
-    w.resize(1500, 900)
-    w.show()
-    qtbot.waitExposed(w)
-    wait_first_view(qtbot, w)
+    w = shown_window(qtbot, str(path))
     yield w
     close_window(w)
 

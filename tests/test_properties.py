@@ -861,21 +861,23 @@ def _round_trip(d: dict, folder: Path) -> None:
     assert load(target) == design
 
 
+def _round_trips(name: str, designs) -> None:
+    """:func:`_round_trip` for every design dict the strategy ``designs`` draws (settings
+    ``name``), in one temporary folder removed afterwards."""
+    with tempfile.TemporaryDirectory(prefix="tolspread-rt-") as tmp:
+        folder = Path(tmp)
+
+        @_settings(name)
+        @given(designs)
+        def run(d):
+            _round_trip(d, folder)
+
+        run()
+
+
 def test_random_designs_save_and_load_identically():
     """[INV] save, load: == original; dumps(load(x)) == dumps(x), text identical."""
-    folder = Path(tempfile.mkdtemp(prefix="tolspread-rt-"))
-
-    @_settings("save_load_random_designs")
-    @given(design_dicts(own_grades=True, max_spans=4))
-    def run(d):
-        _round_trip(d, folder)
-
-    try:
-        run()
-    finally:
-        for p in folder.iterdir():
-            p.unlink()
-        folder.rmdir()
+    _round_trips("save_load_random_designs", design_dicts(own_grades=True, max_spans=4))
 
 
 @st.composite
@@ -903,19 +905,7 @@ def demo_mutations(draw):
 
 def test_demo_mutations_save_and_load_identically():
     """[INV] the same round trip for the demo with changed values, grades and spans."""
-    folder = Path(tempfile.mkdtemp(prefix="tolspread-rt-"))
-
-    @_settings("save_load_demo_mutations")
-    @given(demo_mutations())
-    def run(d):
-        _round_trip(d, folder)
-
-    try:
-        run()
-    finally:
-        for p in folder.iterdir():
-            p.unlink()
-        folder.rmdir()
+    _round_trips("save_load_demo_mutations", demo_mutations())
 
 
 # --- property 7: numerical extremes ----------------------------------------------------------
