@@ -9,6 +9,33 @@ from tolspread.design import design_from_dict
 from tolspread.engine import compile_design
 
 
+def butter_q(n: int) -> list[float]:
+    """The Q of each second-order section of an ``n``-th order Butterworth low-pass (n // 2 values)."""
+    # source: Butterworth poles at angles (2k - 1) pi / (2n) from the imaginary axis (Williams & Taylor,
+    # "Electronic Filter Design Handbook"): Q_k = 1 / (2 sin((2k - 1) pi / (2n))), from memory; agrees
+    # with Carter & Mancini, "Op Amps for Everyone", 5th ed., Table 16.7 to its four decimals
+    return [1 / (2 * math.sin((2 * k - 1) * math.pi / (2 * n))) for k in range(1, n // 2 + 1)]
+
+
+def sk_unity(f0: float, q: float, r: float = 10e3) -> dict[str, float]:
+    """Unity-gain Sallen-Key low-pass parts for ``f0`` (Hz) and ``q``: R1 = R2 = ``r`` (ohm),
+    C1 = 4 Q^2 C2 (F)."""
+    # source: J. Karki, TI SLOA024, with R1 = R2 = R and K = 1 (from memory):
+    # Q = sqrt(C1/C2)/2, w0 = 1/(R sqrt(C1 C2))
+    c2 = 1 / (2 * math.pi * f0 * r * 2 * q)
+    return {"R1": r, "R2": r, "C1": 4 * q * q * c2, "C2": c2}
+
+
+def parts_design(parts, stages, mask=(), analysis=None, grades=()):
+    """A design from ``parts`` [(ref, value, grade)], ``stages`` and ``mask`` (file forms);
+    ``analysis`` defaults to 10 Hz to 1 MHz, 200 points."""
+    data = {"format": "tolspread-design", "version": 1,
+            "parts": [{"ref": r, "value": v, "grade": g} for r, v, g in parts],
+            "stages": stages, "mask": list(mask), "grades": list(grades),
+            "analysis": analysis or {"f_start": 10, "f_stop": 1e6, "points": 200}}
+    return design_from_dict(data)
+
+
 def make(stages, analysis=None):
     """A design of EXACT parts from [(topology, options, {role: value or array})].
 

@@ -49,19 +49,15 @@ import scipy.optimize
 import scipy.signal
 
 from tolspread.budget import sensitivities, spread_budget
-from tolspread.design import design_from_dict
 from tolspread.evaluate import evaluate, prepare
+
+from designs import parts_design  # shared builder: tests/designs.py
 
 TWO_PI = 2 * math.pi
 DB_PER_LN = 10 / math.log(10)  # 4.3429 dB: d(10 log10 x)/d ln x
 
 
-def make_design(parts, stages, mask=(), analysis=None, grades=()):
-    data = {"format": "tolspread-design", "version": 1,
-            "parts": [{"ref": r, "value": v, "grade": g} for r, v, g in parts],
-            "stages": stages, "mask": list(mask), "grades": list(grades),
-            "analysis": analysis or {"f_start": 10, "f_stop": 1e6, "points": 200}}
-    return design_from_dict(data)
+make_design = parts_design  # tests/designs.py: parts [(ref, value, grade)], 10 Hz to 1 MHz
 
 
 def sk_design(r1, r2, c1, c2, rf=None, rg=None):

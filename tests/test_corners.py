@@ -25,19 +25,17 @@ import pytest
 
 from tolspread.budget import metric_columns
 from tolspread.corners import MAX_EXHAUSTIVE, corners
-from tolspread.design import design_from_dict
 from tolspread.designfile import load_demo
 from tolspread.evaluate import evaluate, prepare
+
+from designs import parts_design  # shared builder: tests/designs.py
 
 TWO_PI = 2 * math.pi
 
 
 def make_design(parts, stages, mask=(), analysis=None, grades=()):
-    data = {"format": "tolspread-design", "version": 1,
-            "parts": [{"ref": r, "value": v, "grade": g} for r, v, g in parts],
-            "stages": stages, "mask": list(mask), "grades": list(grades),
-            "analysis": analysis or {"f_start": 10, "f_stop": 1e5, "points": 300}}
-    return design_from_dict(data)
+    """:func:`designs.parts_design` over 10 Hz to 100 kHz, 300 points unless ``analysis`` says."""
+    return parts_design(parts, stages, mask, analysis or {"f_start": 10, "f_stop": 1e5, "points": 300}, grades)
 
 
 def assert_inside(name, corner_low, corner_high, samples):

@@ -42,7 +42,7 @@ from tolspread.engine import (
 )
 from tolspread.metrics import pole_pairs, stage_metrics
 
-from designs import make  # shared builder: tests/designs.py
+from designs import butter_q, make, sk_unity  # shared builders: tests/designs.py
 
 TWO_PI = 2 * math.pi
 SEED = 7311
@@ -67,21 +67,6 @@ def engine_h(resp):
 
 def wrap_deg(x):
     return (np.asarray(x) + 180.0) % 360.0 - 180.0
-
-
-def butter_q(n):
-    # source: [WT] Butterworth poles at angles (2k - 1) pi / (2n) from the imaginary axis:
-    # Q_k = 1 / (2 sin((2k - 1) pi / (2n))), from memory; agrees with [CM] Table 16.7
-    return [1 / (2 * math.sin((2 * k - 1) * math.pi / (2 * n))) for k in range(1, n // 2 + 1)]
-
-
-def sk_unity_values(f0, q, r=10e3):
-    """Unity-gain Sallen-Key low-pass parts for f0 (Hz) and Q: equal R, C1 = 4 Q^2 C2.
-
-    source: [TEXT] Q = sqrt(C1/C2)/2, w0 = 1/(R sqrt(C1 C2)) with R1 = R2 = R.
-    """
-    c2 = 1 / (TWO_PI * f0 * r * 2 * q)
-    return {"R1": r, "R2": r, "C1": 4 * q * q * c2, "C2": c2}
 
 
 # --- a direct complex nodal solution, independent of sympy -----------------------------
@@ -583,7 +568,7 @@ def prototype_design(first, sections, fc=FC):
     if first is not None:  # 1 + a s/wc: R C = a / wc
         stages.append(("rc_lowpass", {"sections": 1}, {"R1": 10e3, "C1": first / (TWO_PI * fc * 10e3)}))
     for a, b, *_ in sections:
-        stages.append(("sallen_key_lowpass", {}, sk_unity_values(fc / math.sqrt(b), math.sqrt(b) / a)))
+        stages.append(("sallen_key_lowpass", {}, sk_unity(fc / math.sqrt(b), math.sqrt(b) / a)))
     return make(stages)
 
 

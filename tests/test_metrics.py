@@ -32,6 +32,8 @@ from tolspread.engine import StageCoefficients, compile_design, frequency_respon
 from tolspread.evaluate import evaluate
 from tolspread.metrics import attenuation_db, cutoff_metrics, pole_pairs, reference_gain2
 
+from designs import butter_q, sk_unity  # shared builders: tests/designs.py
+
 TWO_PI = 2 * math.pi
 HALF_POWER_DB = 10 * math.log10(2)
 
@@ -57,17 +59,6 @@ def make(stages, analysis=None, grade="EXACT"):
 
 def col(ens, ref):
     return ens.values[:, ens.design.part_index(ref)]
-
-
-def butter_q(n):
-    # source: [BW] from memory; agrees with [CM] Table 16.7 to its four decimals
-    return [1 / (2 * math.sin((2 * k - 1) * math.pi / (2 * n))) for k in range(1, n // 2 + 1)]
-
-
-def sk_unity(f0, q, r=10e3):
-    # source: [KARKI] with R1 = R2 = R and K = 1: Q = sqrt(C1/C2)/2, w0 = 1/(R sqrt(C1 C2))
-    c2 = 1 / (TWO_PI * f0 * r * 2 * q)
-    return {"R1": r, "R2": r, "C1": 4 * q * q * c2, "C2": c2}
 
 
 def butter_cascade(n, fc, analysis):
