@@ -25,6 +25,7 @@ from PySide6.QtWidgets import QApplication, QLabel  # noqa: E402
 from tolspread.app.qt_main import make_window  # noqa: E402
 from tolspread.designfile import demo_text, load_demo  # noqa: E402
 from tolspread.liveview import ViewRequest, compute_view  # noqa: E402
+from qt_keys import choose  # noqa: E402
 
 pytestmark = pytest.mark.gui
 
@@ -147,15 +148,7 @@ def test_histogram_of_a_db_margin_is_labelled_in_db(qtbot):
     w = start(qtbot)
     view = w.session.last_view
     name = next(n for n in view.metrics if n.startswith("margin."))  # a gain span's margin, in dB
-    chooser = w.results.chooser
-    chooser.setFocus()
-    # choose it with the keyboard, as a user does: Home, then Down until it is current
-    QTest.keyClick(chooser, Qt.Key.Key_Home)
-    for _ in range(chooser.count()):
-        if chooser.currentData() == name:
-            break
-        QTest.keyClick(chooser, Qt.Key.Key_Down)
-    assert chooser.currentData() == name
+    choose(qtbot, w.results.chooser, name)  # with the keyboard, as a user does
     qtbot.waitUntil(lambda: w.results.metric_name == name, timeout=2000)
     axis = w.results.hist.getAxis("bottom")
     data = view.metrics[name][np.isfinite(view.metrics[name])]

@@ -9,20 +9,10 @@ from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QDialog, QDialogButtonBox
 
 from tolspread.synthesis import synthesize
+from qt_keys import choose  # keyboard, as a person does: tests/qt_keys.py
 
 from .conftest import WAIT_MS, close_later, wait_idle
 from .test_actions import act, no_error_shown
-
-
-def choose(qtbot, combo, data) -> None:
-    """Pick the entry holding ``data`` with the keyboard, as a person does: focus, Home, Down."""
-    combo.setFocus()
-    qtbot.keyClick(combo, Qt.Key.Key_Home)
-    for _ in range(combo.count()):
-        if combo.currentData() == data:
-            return
-        qtbot.keyClick(combo, Qt.Key.Key_Down)
-    assert combo.currentData() == data, data
 
 
 def retype(qtbot, edit, text: str) -> None:
