@@ -9,6 +9,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from .metric_names import metric_label
+from .report.numbers import format_pct
 from .stats import YieldEstimate
 from .temperature_settings import HOURS_PER_YEAR
 from .values import format_value
@@ -38,12 +39,8 @@ class Table:
     notes: list[str]
 
 
-def _pct(x: float) -> str:
-    return f"{100 * x:.2f} %"
-
-
 def _interval(y: YieldEstimate) -> str:
-    return f"{_pct(y.low)} to {_pct(y.high)}"
+    return f"{format_pct(y.low)} to {format_pct(y.high)}"
 
 
 def _figure(x: float, unit: str) -> str:
@@ -74,10 +71,10 @@ def temperature_tables(result: Any) -> list[Table]:
     names = [s.name for s in d.stages]
     if over is not None:
         lo, hi = over.range_c
-        rows = [[_t(p.temperature_c), _pct(p.yield_.estimate), _interval(p.yield_),
+        rows = [[_t(p.temperature_c), format_pct(p.yield_.estimate), _interval(p.yield_),
                  f"{p.yield_.samples - p.yield_.passed:,}"] for p in over.points]
         y = over.overall
-        rows.append(["every judged temperature", _pct(y.estimate), _interval(y), f"{y.samples - y.passed:,}"])
+        rows.append(["every judged temperature", format_pct(y.estimate), _interval(y), f"{y.samples - y.passed:,}"])
         out.append(Table(
             f"YIELD OVER TEMPERATURE (operating range {lo:g} to {hi:g} {DEGREE}; each board keeps its parts and "
             "passes only if it meets the mask at every judged temperature)",
@@ -88,8 +85,8 @@ def temperature_tables(result: Any) -> list[Table]:
             worst = result.ensemble.margins  # the smallest margin over the judged temperatures
             rows = []
             for j, name in enumerate(over.span_names):
-                cells = [_pct(p.span_failed[j] / n) for p in over.points]
-                rows.append([name, *cells, _pct(float((worst[:, j] < 0).sum()) / n)])
+                cells = [format_pct(p.span_failed[j] / n) for p in over.points]
+                rows.append([name, *cells, format_pct(float((worst[:, j] < 0).sum()) / n)])
             out.append(Table(
                 "FAILURES BY SPAN AND TEMPERATURE (share of all boards failing each span there)",
                 ["span", *(_t(p.temperature_c) for p in over.points), "at any"], rows,
@@ -111,7 +108,7 @@ def temperature_tables(result: Any) -> list[Table]:
     if life is not None:
         where = "at every judged temperature" if over is not None else "at the board temperature"
         years = life.hours / HOURS_PER_YEAR
-        rows = [["yield", _pct(life.delivery.estimate), _pct(life.after.estimate)],
+        rows = [["yield", format_pct(life.delivery.estimate), format_pct(life.after.estimate)],
                 [f"{100 * life.delivery.confidence:g} % interval", _interval(life.delivery), _interval(life.after)],
                 ["failing boards", f"{life.delivery.samples - life.delivery.passed:,}",
                  f"{life.after.samples - life.after.passed:,}"]]
@@ -225,5 +222,5 @@ def yield_note(result: Any) -> str:
         temps = ", ".join(f"{t:g}" for t in result.temperature.temperatures_c)
         parts.append(f"at every judged temperature ({temps} {DEGREE})")
     if result.life is not None:
-        parts.append(f"after {result.life.years:.3g} years: {_pct(result.life.after.estimate)}")
+        parts.append(f"after {result.life.years:.3g} years: {format_pct(result.life.after.estimate)}")
     return "; ".join(parts)
