@@ -37,6 +37,9 @@ def add_parser(sub) -> None:
                    help="do not warn about class II dielectrics in the signal path nor search without them")
     r.add_argument("--boards", type=int, metavar="N",
                    help="boards bought: with price tables in the catalog the cost is money per board at N")
+    r.add_argument("--shapes", action="store_true",
+                   help="also search under the other distribution shapes (3 sigma, uniform, binned, shared reel) "
+                        "and say where the recommendation would change (about five searches)")
     r.add_argument("--compare", action="append", default=[], metavar="SET",
                    help="also judge your own set on the same boards, e.g. \"R1=R-thin-0.5,C1=C-C0G-2\" "
                         "(parts not named keep their grade; repeatable)")
@@ -137,6 +140,7 @@ def run(args: argparse.Namespace) -> int:
         for t, r in curve:
             cost = "no set meets it" if r.chosen is None else f"{r.chosen.cost:.2f}"
             out.write(f"    target {pct(t):>9}: {cost}\n")
+    choices = _shape_search(design, args, out) if args.shapes else ()
     chosen_design = rec.design if rec.chosen is not None else design
     if args.output and rec.chosen is not None:
         save(chosen_design, args.output)
@@ -154,13 +158,38 @@ def run(args: argparse.Namespace) -> int:
             from ..robustness import shapes_for_report
 
             write_report(build_report(result, recommendation=rec, curve=curve, parts_rows=rows, comparison=compared,
-                                      target=args.target_yield, shapes=shapes_for_report(result)), args.report)
+                                      target=args.target_yield, shapes=shapes_for_report(result),
+                                      shape_choices=choices), args.report)
             out.write(f"wrote the report to {args.report}\n")
     out.write(f"\nPrices come from the catalog's price breaks at {boards:,} parts of each. " if money else
               "\nRelative costs come from the catalog (the built-in costs are invented demo figures). ")
     out.write("The yield is an estimate under the grades' stated distributions; confirm it with measured "
               "parts and qualified review.\n")
     return 0 if rec.chosen is not None else EXIT_NO_SET
+
+
+def _shape_search(design, args: argparse.Namespace, out) -> list:
+    """The cheapest grades under each distribution shape (filters/robustness.py), printed."""
+    from ..robustness import shape_recommendations
+
+    choices = shape_recommendations(design, args.target_yield, confidence=args.confidence, samples=args.samples,
+                                    seed=args.seed)
+    out.write("\n  the search under each distribution shape\n")
+    first = choices[0].grades
+    for c in choices:
+        if c.grades is None:
+            what = "no set meets the target"
+        elif c is choices[0] or first is None:
+            what = f"cost {c.cost:.4g} (the reference)"
+        else:
+            moved = [f"{p.ref} {g}" for p, g, g0 in zip(design.parts, c.grades, first) if g != g0]
+            what = f"cost {c.cost:.4g}: {', '.join(moved) or 'the same set'}"
+        holds = "" if c.reference_holds is None else ("; first set holds" if c.reference_holds else "; first set MISSES")
+        out.write(f"    {c.shape:<12} {what}{holds}\n")
+    changed = [c.shape for c in choices if c.changed]
+    out.write(f"  the recommendation would change under: {', '.join(changed)}\n" if changed else
+              "  the recommendation is the same under every shape\n")
+    return choices
 
 
 def _pair(text: str) -> tuple[str, str]:

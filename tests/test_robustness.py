@@ -104,3 +104,15 @@ def test_report_says_where_the_recommendation_changes(band_design, tmp_path):
         assert "The recommendation would change under uniform" in html
     else:
         assert "The recommendation is the same under every shape" in html
+
+
+def test_recommend_shapes_on_the_command_line(band_design):
+    # the same search, asked for with 'tolspread recommend --shapes' as a user does
+    r = subprocess.run([sys.executable, "-m", "tolspread.app.cli", "recommend", str(band_design), "--target-yield",
+                        "0.15", "--samples", "3000", "--shapes"], capture_output=True, text=True, timeout=600)
+    assert r.returncode == 0, r.stderr
+    assert "the search under each distribution shape" in r.stdout
+    for shape in SHAPES:
+        assert f"    {shape}" in r.stdout
+    assert ("the recommendation would change under" in r.stdout
+            or "the recommendation is the same under every shape" in r.stdout)
