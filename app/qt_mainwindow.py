@@ -239,7 +239,7 @@ class MainWindow(QMainWindow, WindowFiles):
     # --- view to model -------------------------------------------------------------------
     def apply_edit(self, design: Design, text: str) -> str | None:
         """Make ``design`` the current design as one undoable edit named ``text`` if the
-        loader accepts it (:func:`filters.design.check_design`: the rules a saved file is
+        loader accepts it (:func:`filters.designfile.check_design`: the rules a saved file is
         opened with), so whatever the window accepts saves into a file that opens.
 
         Returns None, or the reason it was refused (one line; the design is unchanged and
