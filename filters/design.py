@@ -146,12 +146,15 @@ class Design:
     def part_grades(self) -> tuple[Grade, ...]:
         """Each part's grade as it applies to the part's value
         (:func:`filters.temperature_physics.for_value`), with a part's what-if tolerance
-        applied where it has one."""
+        applied where it has one. A part that states no bias of its own sits at the bias its
+        stage states (``Stage.bias_v``, V)."""
         cat = self.catalog
+        stage_bias = {ref: st.bias_v for st in reversed(self.stages) if st.bias_v for ref in st.roles.values()}
         out = []
         for p in self.parts:
             g = cat[p.grade]
-            g = for_value(g, p.kind, p.value, p.bias_v)  # pF tolerance below 10 pF, tempco by range, bias
+            bias = p.bias_v or stage_bias.get(p.ref, 0.0)  # the part's own bias wins
+            g = for_value(g, p.kind, p.value, bias)  # pF tolerance below 10 pF, tempco by range, bias
             if p.measured is not None:  # measured values replace the distribution (filters/measured.py)
                 g = measured_grade(g, p.value, p.measured, p.ref)
             out.append(g if p.tolerance_pct is None else scaled(g, p.tolerance_pct))

@@ -4,8 +4,9 @@ File form of a library stage: ``{"topology": "sallen_key_lowpass", "options": {.
 "parts": {"R1": "R3", ...}, "name": "...", "buffered": true}``; of a circuit stage:
 ``{"topology": "circuit", "elements": [...], "opamps": [...], "response": "lowpass",
 "name": "...", "buffered": true}`` (see :mod:`filters.circuit`). ``buffered`` (default
-true) and ``response`` (circuits only; default: from the circuit's shape) are written
-only when they differ from their defaults, so files without them read as before.
+true), ``response`` (circuits only; default: from the circuit's shape) and ``bias_v``
+(default 0: none stated) are written only when they differ from their defaults, so files
+without them read as before.
 """
 from __future__ import annotations
 
@@ -14,7 +15,7 @@ from typing import Any, Callable
 
 from .circuit import (CIRCUIT, CircuitElement, CircuitOpAmp, check_nominal, circuit_from_dict,
                       circuit_topology, response_kinds)
-from .errors import InputError
+from .errors import InputError, is_finite_number
 from .topologies import TOPOLOGIES, Topology, build
 
 __all__ = ["Stage", "circuit_stage", "stage_from_dict", "stage_to_dict", "check_networks"]
@@ -30,7 +31,9 @@ class Stage:
     not in it); build one with :func:`circuit_stage`. ``buffered=False``: the next stage
     loads this one's output, and the two are solved as one network
     (:mod:`filters.circuit_join`). ``response``: a circuit's response kind to judge
-    against ("" = from its shape, :func:`filters.circuit.infer_kind`).
+    against ("" = from its shape, :func:`filters.circuit.infer_kind`). ``bias_v``: the DC
+    bias (V) across the stage's capacitors; a class II capacitor of the stage that states no
+    bias of its own sits at it (:meth:`filters.design.Design.part_grades`).
     """
 
     topology: str
@@ -41,6 +44,7 @@ class Stage:
     opamps: tuple[CircuitOpAmp, ...] = ()
     buffered: bool = True
     response: str = ""
+    bias_v: float = 0.0
 
     @property
     def is_circuit(self) -> bool:
@@ -120,6 +124,8 @@ def stage_to_dict(s: Stage) -> dict[str, Any]:
         d["parts"] = dict(s.roles)
     if not s.buffered:
         d["buffered"] = False
+    if s.bias_v:
+        d["bias_v"] = s.bias_v
     return d
 
 
@@ -156,7 +162,7 @@ def stage_from_dict(s: Any, path: str, kinds: dict[str, str], claim: Claim,
         problems.append(InputError("must be an object with topology and parts", path))
         return None
     circuit = s.get("topology") == CIRCUIT
-    known = ("topology", "name", "buffered") + (("elements", "opamps", "response") if circuit
+    known = ("topology", "name", "buffered", "bias_v") + (("elements", "opamps", "response") if circuit
                                                  else ("options", "parts"))
     problems += [InputError(f"unknown field {k!r}" + ("; a circuit stage names its parts in elements "
                                                       "and opamps" if circuit else ""), f"{path}.{k}")
@@ -169,8 +175,17 @@ def stage_from_dict(s: Any, path: str, kinds: dict[str, str], claim: Claim,
     if not isinstance(buffered, bool):
         problems.append(InputError(f"must be true or false, not {buffered!r}", f"{path}.buffered"))
         buffered = True
-    if circuit:
-        return _circuit_from_dict(s, path, kinds, claim, problems, name, buffered)
+    bias = s.get("bias_v", 0.0)
+    if not is_finite_number(bias) or abs(bias) > 10_000:
+        problems.append(InputError(f"must be a DC bias in V within +-10000, not {bias!r}", f"{path}.bias_v"))
+        bias = 0.0
+    stage = (_circuit_from_dict(s, path, kinds, claim, problems, name, buffered) if circuit
+             else _library_from_dict(s, path, claim, problems, name, buffered))
+    return None if stage is None else replace(stage, bias_v=float(bias))
+
+
+def _library_from_dict(s: dict[str, Any], path: str, claim: Claim, problems: list[InputError],
+                       name: str, buffered: bool) -> Stage | None:
     topo_name = s.get("topology")
     if not isinstance(topo_name, str) or topo_name not in TOPOLOGIES:
         problems.append(InputError(f"unknown topology {topo_name!r}; known: {', '.join(TOPOLOGIES)}, "
