@@ -7,6 +7,11 @@ apart from the number of boards: the libraries, the chunks of boards in flight
 summaries, which are taken in chunks of boards (:mod:`filters.summary`) and evaluate their
 extra designs in bounded batches (:func:`filters.budget.evaluate_rows`).
 
+A board of N channels (``design.channels.count``) is evaluated as N rows, one a channel
+(:mod:`filters.channel_match`), so the rule counts its numbers N times: the rows a chunk
+evaluates, and their curves, grow N-fold even though only channel 1's values and metrics
+and the board's margins are kept.
+
 So a run may keep at most :data:`MAX_NUMBERS` numbers, and one run's boards are limited to
 ``MAX_NUMBERS // numbers_per_board`` (and to :data:`filters.design.MAX_SAMPLES`). With the
 numbers kept at 1.2 GB, the whole process stays under :data:`MEMORY_BOUND_MIB` (measured
@@ -39,7 +44,7 @@ MEMORY_BOUND_MIB = 2048
 
 
 def numbers_per_board(prep: Prepared) -> int:
-    """Numbers kept per board: parts (values) + metrics + spans (margins).
+    """Numbers counted per board: channels x (parts (values) + metrics + spans (margins)).
 
     Parameters
     ----------
@@ -49,9 +54,10 @@ def numbers_per_board(prep: Prepared) -> int:
     Returns
     -------
     int
-        Numbers kept per board.
+        Numbers counted per board.
     """
-    return len(prep.design.parts) + len(prep.nominal.metrics) + len(prep.design.mask)
+    one = len(prep.design.parts) + len(prep.nominal.metrics) + len(prep.design.mask)
+    return prep.design.channels.count * one
 
 
 def max_boards(prep: Prepared) -> int:
@@ -91,8 +97,9 @@ def check_boards(prep: Prepared, boards: int, path: str) -> None:
     """
     most = max_boards(prep)
     if boards > most:
-        per = numbers_per_board(prep)
-        raise InputError(f"at most {most:,} boards for this design ({per} numbers a board: parts, "
+        per, n = numbers_per_board(prep), prep.design.channels.count
+        each = f" for {n} channels" if n > 1 else ""
+        raise InputError(f"at most {most:,} boards for this design ({per} numbers a board{each}: parts, "
                          f"metrics and margins; the memory bound is {MEMORY_BOUND_MIB // 1024} GB), "
                          f"not {boards:,}", path)
 

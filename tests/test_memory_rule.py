@@ -118,3 +118,25 @@ def test_window_boards_box_refuses_a_count_beyond_the_rule(qtbot, monkeypatch):
     w.session.undo_stack.setClean()
     w.close()
     w.session.shutdown()
+
+
+def test_command_line_analyze_counts_every_channel(big, tmp_path):
+    # Issue 15 item 6 with the memory rule: a board of two channels is evaluated as two rows
+    # (filters/channel_match.py), so the rule counts its numbers twice. Counts from the rule's
+    # own published limit (MAX_NUMBERS, memory.py), not hard-coded: a count the one-channel
+    # design may run is refused, in one line naming --samples, for the two-channel one.
+    from tolspread.channels import Channels
+    from tolspread.memory import check_boards
+
+    design, prep, most = big
+    n = most // 2 + 1  # within the rule for one channel, over it for two
+    check_boards(prep, n, "samples")  # one channel: allowed (no error)
+    two = replace(design, channels=Channels(2))
+    path = tmp_path / "two_channels.json"
+    save(two, str(path))
+    proc = subprocess.run([sys.executable, "-m", "tolspread.app.cli", "analyze", str(path), "--samples", str(n)],
+                          capture_output=True, text=True, timeout=120, cwd=ROOT)
+    assert proc.returncode == 2, proc.stderr
+    lines = proc.stderr.strip().splitlines()
+    assert len(lines) == 1 and "samples" in lines[0] and f"at most {most // 2:,} boards" in lines[0], lines
+    assert "2 channels" in lines[0] and "Traceback" not in proc.stderr
