@@ -44,10 +44,8 @@ def run(args: argparse.Namespace) -> int:
         json.dump(res.to_dict(), out, indent=2)
         out.write("\n")
     else:
-        how = "every combination" if res.exhaustive else "a guided search (one part at a time)"
         out.write(f"{design.name or 'design'}\n")
-        out.write(f"searched {how}: {res.combinations:,} combinations of {len(res.movable)} parts "
-                  f"({', '.join(res.movable)}), {res.screen_boards:,} boards each, the same boards for all\n\n")
+        out.write(res.search_text() + "\n\n")
         b, a = res.before, res.after
         if not res.moves:
             out.write(f"No neighbouring values beat the present ones (yield {format_pct(b.estimate)} on "

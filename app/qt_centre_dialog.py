@@ -60,10 +60,7 @@ class CentreDialog(BackgroundDialog):
         units = {m.ref: PART_UNITS.get(kinds[m.ref], "") for m in res.moves}
         fill_table(self.table, [[m.ref, format_value(m.old, units[m.ref]), format_value(m.new, units[m.ref]), m.series]
                                 for m in res.moves])
-        how = "every combination" if res.exhaustive else "a guided search (one part at a time)"
-        self.status.setText(f"searched {how}: {res.combinations:,} combinations of {len(res.movable)} "
-                            f"part{'s' if len(res.movable) != 1 else ''}, "
-                            f"{res.screen_boards:,} boards each, the same boards for all")
+        self.status.setText(res.search_text(refs=False))
         b, a = res.before, res.after
         if not res.moves:
             self.summary.setText(f"No neighbouring values beat the present ones (yield {pct(b.estimate)} on "

@@ -24,17 +24,18 @@ from __future__ import annotations
 
 import itertools
 import math
-from dataclasses import dataclass, replace
-from typing import Callable, Sequence
+from dataclasses import dataclass
+from typing import Callable
 
 import numpy as np
 
 from .design import Design
 from .errors import Cancelled, InputError
-from .evaluate import evaluate, evaluate_values, prepare, scores_for
+from .evaluate import evaluate_values, prepare, scores_for
 from .grades import Grade
 from .sampling import part_values
 from .stats import YieldEstimate, yield_estimate
+from .temperature import judged_boards
 from .values import format_value, series_for_tolerance, series_values
 
 __all__ = [
@@ -98,6 +99,25 @@ class CentringResult:
     def gain(self) -> float:
         """Yield gain, a fraction (after - before on the same boards)."""
         return self.after.estimate - self.before.estimate
+
+    def search_text(self, refs: bool = True) -> str:
+        """One line saying how the search went, for the terminal and the window.
+
+        Parameters
+        ----------
+        refs : bool
+            Also list the movable parts' references.
+
+        Returns
+        -------
+        str
+            ``searched every combination: 6,561 combinations of 8 parts (R1, ...), 228 boards each, ...``.
+        """
+        how = "searched every combination" if self.exhaustive else "guided search (one part at a time)"
+        n = len(self.movable)
+        which = f" ({', '.join(self.movable)})" if refs else ""
+        return (f"{how}: {self.combinations:,} combinations of {n} part{'s' if n != 1 else ''}{which}, "
+                f"{self.screen_boards:,} boards each, the same boards for all")
 
     def to_dict(self) -> dict:
         """Plain numbers for the JSON output."""
@@ -249,7 +269,7 @@ def centre_values(design: Design, *, samples: int | None = None, seed: int | Non
                 progress(total, total)
         finalists = state[None, :]
     # confirmation: full boards, each set with its own nominal design, same seed
-    before_ens = evaluate(design, samples=samples, seed=seed, curves=False, metrics=False, should_stop=should_stop)
+    before_ens = judged_boards(design, samples=samples, seed=seed, should_stop=should_stop)
     before = yield_estimate(before_ens.passed, None, a.confidence, a.interval)  # type: ignore[arg-type]
     best_design, best_est, best_moves, changed = design, before, (), (0, 0)
     for ch in finalists:
@@ -261,7 +281,7 @@ def centre_values(design: Design, *, samples: int | None = None, seed: int | Non
         cand = design
         for mv in moves:
             cand = cand.with_part(mv.ref, value=mv.new, text="")
-        ens = evaluate(cand, samples=samples, seed=seed, curves=False, metrics=False, should_stop=should_stop)
+        ens = judged_boards(cand, samples=samples, seed=seed, should_stop=should_stop)
         est = yield_estimate(ens.passed, None, a.confidence, a.interval)  # type: ignore[arg-type]
         if est.passed > best_est.passed:
             only_after = int(np.sum(ens.passed & ~before_ens.passed))

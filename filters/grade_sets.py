@@ -16,8 +16,9 @@ from typing import Sequence
 from .constraints import is_class_ii, priced, signal_path_capacitors
 from .design import Design
 from .errors import InputError
-from .evaluate import evaluate, prepare
+from .evaluate import prepare
 from .stats import YieldEstimate, lower_bound, yield_estimate
+from .temperature import judged_boards
 
 __all__ = [
     "SetResult",
@@ -111,7 +112,7 @@ def compare_sets(design: Design, sets: Sequence[tuple[str, Sequence[str]]], *, s
     for label, names in sets:
         d = design_with_grades(design, [cat[n] for n in names])
         grades = d.part_grades()
-        ens = evaluate(d, samples=samples, seed=seed, grades=grades, curves=False, metrics=False, prepared=prep)
+        ens = judged_boards(d, samples=samples, seed=seed, grades=grades, prepared=prep)
         est = yield_estimate(ens.passed, None, conf, a.interval)  # type: ignore[arg-type]
         lb = float(lower_bound(int(est.passed), int(est.samples), conf, a.interval))  # type: ignore[arg-type]
         cost = math.fsum(cat[n].cost for n in names)

@@ -27,9 +27,10 @@ from dataclasses import dataclass, replace
 from typing import Callable, Sequence
 
 from .design import Design
-from .evaluate import evaluate, prepare
+from .evaluate import prepare
 from .grades import Grade
 from .stats import YieldEstimate, lower_bound, yield_estimate
+from .temperature import judged_boards
 
 __all__ = [
     "SHAPES",
@@ -155,8 +156,8 @@ def shape_yields(design: Design, *, samples: int | None = None, seed: int | None
     prep = prepare(design)  # the nominal design does not depend on the shape
     for shape in shapes:
         d = design_under(design, shape)
-        ens = evaluate(d, samples=samples, seed=seed, curves=False, metrics=False,
-                       prepared=prep if shape != "shared reel" else None, should_stop=should_stop)
+        ens = judged_boards(d, samples=samples, seed=seed, prepared=prep if shape != "shared reel" else None,
+                            should_stop=should_stop)
         est = yield_estimate(ens.passed, None, a.confidence, a.interval)  # type: ignore[arg-type]
         lb = float(lower_bound(int(est.passed), int(est.samples), a.confidence, a.interval))  # type: ignore[arg-type]
         out.append(ShapeYield(shape, est, lb))
@@ -168,7 +169,8 @@ def shapes_for_report(result) -> list[ShapeYield]:
     samples, seed and sampling method), for the report's robustness table. "As graded" is
     the analysis's own yield and is left out, unless the analysis judged more than the
     reference temperature (an operating range, a service life) or other grades than the
-    design's: then all five are evaluated here, at the reference temperature.
+    design's: then all five are evaluated here, as delivered (over the operating range when
+    the design has one, :func:`filters.temperature.judged_boards`).
 
     Parameters
     ----------

@@ -37,6 +37,7 @@ __all__ = [
     "judge_service_life",
     "nominal_at",
     "passed_over_range",
+    "judged_boards",
     "judged_ensemble",
 ]
 
@@ -309,3 +310,33 @@ def judged_ensemble(design: Any, prep: Any, ens: Any, should_stop: Callable[[], 
         return ens
     _, worst = _points(design, prep, ens, temps, 0.0, REFERENCE_CELSIUS, should_stop, metrics=False)
     return replace(ens, margins=worst)
+
+
+def judged_boards(design: Any, *, prepared: Any = None, should_stop: Callable[[], bool] | None = None,
+                  **evaluate_args: Any) -> Any:
+    """Pass/fail boards of ``design`` judged as a plain analysis judges them: over its
+    operating range when it has one (:func:`judged_ensemble`), else at its conditions.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    prepared : Prepared, optional
+        Its prepared evaluation (default: prepared here).
+    should_stop : callable, optional
+        ``should_stop()`` returning True cancels the run.
+    **evaluate_args
+        Passed to :func:`filters.evaluate.evaluate` (samples, seed, grades, ...); curves and
+        metrics are off.
+
+    Returns
+    -------
+    Ensemble
+        Its ``passed`` (S,) means "meets the mask at every judged temperature".
+    """
+    from .evaluate import evaluate, prepare
+
+    prep = prepared if prepared is not None else prepare(design)
+    ens = evaluate(design, curves=False, metrics=False, prepared=prep, should_stop=should_stop, **evaluate_args)
+    return judged_ensemble(design, prep, ens, should_stop)
+

@@ -134,9 +134,8 @@ def robustness_section(ctx: Context) -> str:
            "under each reading of their tolerances (a grade states its limits, not how values spread inside "
            "them).</p>", table(head, rows, numeric=[2, 3, 4])]
     if ctx.result.temperature is not None or ctx.result.life is not None:
-        out.append("<p>These yields judge each board once, at its sampled board temperature: not over the "
-                   "operating range nor after the service life, so \u201cas graded\u201d can differ from the "
-                   "yield above.</p>")
+        out.append("<p>These yields judge each board over the operating range as delivered, not after the "
+                   "service life, so \u201cas graded\u201d can differ from a yield above that includes it.</p>")
     if target is not None:
         missed = [r.shape for r in rows_in if r.lower < target]
         if missed:
