@@ -27,7 +27,7 @@ def add_parser(sub) -> None:
 def run(args: argparse.Namespace) -> int:
     from ..designfile import save
     from ..errors import InputError
-    from ..evaluate import evaluate
+    from ..temperature import judged_boards
     from ..measured import measured_yield, read_measured_csv, summary_rows
     from ..stats import yield_estimate
 
@@ -51,8 +51,8 @@ def run(args: argparse.Namespace) -> int:
             plain = plain.with_part(p.ref, measured=None)
     res = measured_yield(design, samples=args.samples, seed=args.seed, replicates=args.replicates)
     a = design.analysis
-    graded = yield_estimate(evaluate(plain, samples=args.samples, seed=args.seed, curves=False,
-                                     metrics=False).passed, None, a.confidence, a.interval)  # type: ignore[arg-type]
+    graded = yield_estimate(judged_boards(plain, samples=args.samples, seed=args.seed).passed, None,
+                            a.confidence, a.interval)  # type: ignore[arg-type]
     rows = summary_rows(design)
     if args.output:
         save(design, args.output)

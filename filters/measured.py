@@ -347,7 +347,7 @@ def measured_yield(design, *, samples: int | None = None, seed: int | None = Non
     """
     from scipy.special import ndtri
 
-    from .evaluate import evaluate
+    from .temperature import judged_boards
 
     a = design.analysis
     measured = [(i, p) for i, p in enumerate(design.parts) if getattr(p, "measured", None) is not None]
@@ -355,7 +355,7 @@ def measured_yield(design, *, samples: int | None = None, seed: int | None = Non
         raise InputError("no part of the design carries measured values", "parts")
     if replicates < 2:
         raise InputError("at least 2 replicates", "replicates")
-    base = evaluate(design, samples=samples, seed=seed, curves=False, metrics=False, should_stop=should_stop)
+    base = judged_boards(design, samples=samples, seed=seed, should_stop=should_stop)
     p = float(base.passed.mean())
     n = base.samples
     rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence(a.seed if seed is None else seed,
@@ -367,8 +367,7 @@ def measured_yield(design, *, samples: int | None = None, seed: int | None = Non
         d = design
         for _, part in measured:
             d = d.with_part(part.ref, measured=_resampled(part.measured, rng))
-        ys[b] = evaluate(d, samples=samples, seed=seed, curves=False, metrics=False,
-                         should_stop=should_stop).passed.mean()
+        ys[b] = judged_boards(d, samples=samples, seed=seed, should_stop=should_stop).passed.mean()
     m_sd = float(np.std(ys, ddof=1))
     b_sd = math.sqrt(p * (1 - p) / n)
     z = float(ndtri(0.5 + a.confidence / 2))
