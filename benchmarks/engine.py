@@ -293,13 +293,9 @@ def main() -> int:
     if want("recommend"):
         recommend_times()
     if want("window") and not args.no_gui:
-        drag, release, rate = slider_latency()
-        print(f"window, 5000-board design, a slider dragged with the mouse (a move every 16 ms): "
-              f"move to plots and yield painted, preview on the first 1000 boards: median "
-              f"{drag[len(drag) // 2] * 1e3:.0f} ms, 90th percentile {drag[int(0.9 * len(drag))] * 1e3:.0f} ms, "
-              f"{rate:.0f} frames a second")
-        print(f"  release to everything painted (all 5000 boards, spread budget): median "
-              f"{release[len(release) // 2] * 1e3:.0f} ms, worst {release[-1] * 1e3:.0f} ms")
+        from window import report as window_report  # benchmarks/window.py, beside this file
+
+        window_report()
     if want("million") and not args.quick:
         r = million_in_child()
         print(f"1,000,000 boards of the demo, metrics and margins only, in chunks (own process): "
@@ -307,117 +303,6 @@ def main() -> int:
     if want("scaling"):
         scaling_table([1_000, 10_000, 100_000] + ([] if args.quick else [1_000_000]))
     return 0
-
-
-def slider_latency(samples: int = 5000, drags: int = 6, moves: int = 30,
-                   move_ms: int = 16) -> tuple[list[float], list[float], float]:
-    """What a user sees while dragging a tolerance slider of a ``samples``-board design,
-    driven by mouse events on the slider's handle (press, a move every ``move_ms`` ms as a
-    60 Hz mouse gives, release), ``drags`` times ``moves`` moves.
-
-    Returns, sorted: for each frame drawn while dragging, the time (s) from the newest
-    mouse move it shows to the plots and the results panel painted with it (a preview
-    of the first boards); for each release, the time to everything painted with every
-    board; and the frames painted per second while dragging. The clock stops when the
-    spread plots and the histogram have painted the frame in their own paint events (timed
-    by wrapping pyqtgraph's GraphicsView.paintEvent), as the window paints it.
-    """
-    import os
-
-    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-    from PySide6.QtCore import QEventLoop, QPoint, Qt, QTimer
-    from PySide6.QtTest import QTest
-    from PySide6.QtWidgets import QApplication, QStyle, QStyleOptionSlider
-
-    from tolspread.app.qt_main import make_window
-
-    app = QApplication.instance() or QApplication([])
-
-    def wait(ms: int) -> None:
-        """Run the event loop for ``ms`` ms as the window's own loop does (QEventLoop.exec
-        lets other threads take the GIL; QTest.qWait holds it and starves the worker)."""
-        loop = QEventLoop()
-        QTimer.singleShot(ms, loop.quit)
-        loop.exec()
-
-    # [shown at, asked at, preview, painted at]: the clock stops when the spread plots and
-    # the histogram have painted the frame (their own paint, as the window does it)
-    frames: list[list] = []
-    import pyqtgraph.widgets.GraphicsView as graphics_view
-
-    paint = graphics_view.GraphicsView.paintEvent
-
-    def timed_paint(view, ev):
-        out = paint(view, ev)
-        if frames and view.objectName() in ("spread_plots", "histogram"):
-            frames[-1][3] = time.perf_counter()
-        return out
-
-    graphics_view.GraphicsView.paintEvent = timed_paint  # before the window is made (Qt binds it then)
-
-    window = make_window(None)
-    session = window.session
-    d = session.design
-    session.replace_design(dc_replace(d, analysis=dc_replace(d.analysis, samples=samples)), None)
-    window.resize(1600, 950)
-    window.show()
-    while session.busy or session.last_view is None:  # the first result
-        wait(10)
-    asked: dict[int, float] = {}  # generation -> when its evaluation was asked for
-    ask = session.request
-
-    def timed_request(*args, **kwargs) -> int:
-        t = time.perf_counter()
-        g = ask(*args, **kwargs)
-        asked[g] = t
-        return g
-
-    session.request = timed_request  # type: ignore[method-assign]
-    def shown(view) -> None:
-        frames.append([time.perf_counter(), asked.get(view.generation, math.nan), view.preview, None])
-
-    session.view_ready.connect(shown)
-
-    def latencies(preview: bool) -> list[float]:
-        return [f[3] - f[1] for f in frames if f[2] == preview and f[3] is not None]
-
-    slider = window.parts.rows["C2"].slider
-
-    def handle() -> QPoint:
-        opt = QStyleOptionSlider()
-        slider.initStyleOption(opt)
-        return slider.style().subControlRect(QStyle.ComplexControl.CC_Slider, opt,
-                                             QStyle.SubControl.SC_SliderHandle, slider).center()
-
-    drag, release, rates = [], [], []
-    for k in range(drags):
-        step = 1 if k % 2 == 0 else -1  # back and forth: the handle stays inside the groove
-        pos = handle()
-        QTest.mousePress(slider, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, pos)
-        frames.clear()
-        t_start = time.perf_counter()
-        for _ in range(moves):
-            pos = QPoint(pos.x() + step, pos.y())
-            QTest.mouseMove(slider, pos)
-            wait(move_ms)  # the event loop runs between mouse moves, as it does for a user
-        wait(100)  # the last frames of the drag
-        drag += latencies(True)
-        painted = [f[3] for f in frames if f[2] and f[3] is not None]
-        rates.append(len(painted) / (painted[-1] - t_start) if painted else 0.0)
-        frames.clear()
-        t0 = time.perf_counter()
-        QTest.mouseRelease(slider, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, pos)
-        while not any(not f[2] for f in frames):
-            if time.perf_counter() - t0 > 60:
-                raise RuntimeError("no result after the slider's release")
-            wait(1)
-        wait(100)  # its paints
-        release.append(max(f[3] or math.inf for f in frames if not f[2]) - t0)
-        frames.clear()
-    graphics_view.GraphicsView.paintEvent = paint
-    session.undo_stack.setClean()
-    window.close()
-    return sorted(drag), sorted(release), float(np.median(rates))
 
 
 if __name__ == "__main__":
