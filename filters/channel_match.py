@@ -23,6 +23,7 @@ import numpy as np
 from .channels import channel_values
 from .grades import Grade
 from .judge import SpanPlan
+from .mask import QUANTITIES
 from .metric_names import mismatch_name
 from .networks import board_values
 from .sampling import Conditions
@@ -30,6 +31,7 @@ from .sampling import Conditions
 __all__ = [
     "sample_values",
     "match_plans",
+    "match_quantities",
     "match_margin",
     "evaluate_channels",
     "mismatch_deviations",
@@ -87,6 +89,26 @@ def match_plans(plans: Sequence[SpanPlan]) -> list[int]:
     return [j for j, p in enumerate(plans) if p.span.kind == "match"]
 
 
+def match_quantities(design) -> tuple[str, ...]:
+    """The quantities (``"gain"``, ``"phase"``, ``"delay"``) the design's match spans limit,
+    in :data:`filters.mask.QUANTITIES` order; empty for a design of one channel.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    tuple[str, ...]
+        Each quantity once.
+    """
+    if design.channels.count < 2:
+        return ()
+    used = {s.quantity for s in design.mask if s.kind == "match"}
+    return tuple(q for q in QUANTITIES if q in used)
+
+
 def match_margin(plan: SpanPlan, curves: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """(margin, signed mismatch) of one match span, (S,) each, from ``curves`` (N, S, F) of
     the span's quantity: margin = min over the band of (limit - (max_c - min_c));
@@ -112,7 +134,7 @@ def match_margin(plan: SpanPlan, curves: np.ndarray) -> tuple[np.ndarray, np.nda
 
 
 def evaluate_channels(prep, every: np.ndarray, *, phase: bool = False, delay: bool = False,
-                      out: tuple | None = None, metrics: bool = True):
+                      out: tuple | None = None, metrics: bool = True, spread_out: dict | None = None):
     """:func:`filters.evaluate.evaluate_values` for boards of N channels.
 
     ``every`` (N, S, P). Returns an ``Evaluated`` of the S boards: channel 1's response and
@@ -134,6 +156,11 @@ def evaluate_channels(prep, every: np.ndarray, *, phase: bool = False, delay: bo
         ``(gain_db, phase, delay)`` arrays (S, F) for channel 1's curves.
     metrics : bool
         Compute the metrics.
+    spread_out : dict, optional
+        Quantity (a match span's: ``"gain"``, ``"phase"``, ``"delay"``) -> (S, F) array to
+        fill with the largest difference between any two channels at each frequency
+        (max over channels minus min; dB, deg or s): what the window's channel-match plot
+        draws. Ignored without channels.
 
     Returns
     -------
@@ -163,6 +190,9 @@ def evaluate_channels(prep, every: np.ndarray, *, phase: bool = False, delay: bo
         marg[:, j], signed = match_margin(prep.plans[j], curves[span.quantity].reshape(n, s, f))
         if metrics:
             cols[mismatch_name(span)] = signed
+    for q, dest in (spread_out or {}).items():  # every frequency, not only the spans' bands
+        c = curves[q].reshape(n, s, f)
+        np.subtract(c.max(axis=0), c.min(axis=0), out=dest)
     o = out or (None, None, None)
     for dest, src in zip(o, (gain, ph, tau)):
         if dest is not None and src is not None:

@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import threading
 from concurrent.futures import TimeoutError as FuturesTimeout
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Callable, Sequence
 
 import numpy as np
@@ -33,7 +33,7 @@ from .judge import SpanPlan, margins, needs, plan
 from .mask import edge_frequencies
 from .metric_names import attenuation_name
 from .metrics import GridScan, attenuation_db, cutoff_metrics, lowpass_level_db, scan_block, stage_metrics
-from .channel_match import evaluate_channels, sample_values
+from .channel_match import evaluate_channels, match_quantities, sample_values
 from .sampling import Conditions, draw_scores
 from .workers import POOL, WORKERS
 
@@ -173,6 +173,9 @@ class Ensemble:
     metrics: dict[str, np.ndarray]
     margins: np.ndarray
     nominal: Nominal
+    # boards of several channels, with curves: match quantity -> (S, F) largest difference
+    # between any two channels at each frequency (filters/channel_match.py)
+    channel_spread: dict[str, np.ndarray] = field(default_factory=dict)
 
     @property
     def samples(self) -> int:
@@ -392,6 +395,7 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
     phase_deg = np.empty((n, f)) if curves and phase else None
     delay_s = np.empty((n, f)) if curves and delay else None
     marg = np.empty((n, len(prep.plans)))
+    spread = {q: np.empty((n, f)) for q in match_quantities(design)} if curves else {}
     columns: dict[str, np.ndarray] = {}  # metric name -> (n,)
 
     stopped = threading.Event()  # set when the caller stops: chunks not yet done skip their work
@@ -410,8 +414,9 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
         out = (None if gain_db is None else gain_db[lo:hi],
                None if phase_deg is None else phase_deg[lo:hi],
                None if delay_s is None else delay_s[lo:hi])
+        # evaluate_values without channels
         ev = evaluate_channels(prep, every, phase=curves and phase, delay=curves and delay, out=out,
-                               metrics=metrics)  # evaluate_values without channels
+                               metrics=metrics, spread_out={q: a[lo:hi] for q, a in spread.items()})
         marg[lo:hi] = ev.margins
         return lo, hi, ev.metrics
 
@@ -451,7 +456,7 @@ def evaluate(design: Design, *, samples: int | None = None, seed: int | None = N
         for p in pending:
             p.cancel()
     return Ensemble(design, grade_list, seed, method, start, values, freqs, gain_db, phase_deg,
-                    delay_s, columns, marg, prep.nominal)
+                    delay_s, columns, marg, prep.nominal, spread)
 
 
 def _collect(result: tuple, metrics: dict[str, np.ndarray], n: int, done: int, progress) -> int:

@@ -152,4 +152,4 @@ class BoardStore:
         n, start = self.filled, self.first.start
         return replace(self.first, values=self.values[start:n], margins=self.margins[start:n],
                        metrics={k: v[start:n] for k, v in self.metrics.items()},
-                       gain_db=None, phase_deg=None, delay_s=None)
+                       gain_db=None, phase_deg=None, delay_s=None, channel_spread={})
