@@ -1,4 +1,5 @@
-"""A part's own menu in the parts panel (right-click on its name): constraints and measurements.
+"""A part's own menu in the parts panel (right-click on its name): constraints, measurements
+and networks (the entries of :mod:`app.qt_network_menu`).
 
 * **Lock grade**: a grade search keeps the part's grade (``locked`` in the design file);
 * **Forbid**: technologies a grade search must not give the part (``forbid``): each
@@ -16,6 +17,7 @@ from PySide6.QtWidgets import QFileDialog, QLabel, QMenu
 
 from ..errors import InputError
 from ..measured import Measured, read_measured_csv
+from .qt_network_menu import add_network_entries, install_network_menus
 
 LOT_CAUTION = ("one reel says nothing about lot-to-lot variation: other lots may sit elsewhere within the "
                "grade's tolerance; measure several lots before a decision that spans them")
@@ -42,7 +44,8 @@ def show_constraints(label: QLabel, part) -> None:
     tips = ["grade locked: a grade search keeps it"] if part.locked else []
     if part.forbid:
         tips.append(f"forbidden: {', '.join(part.forbid)}")
-    tips.append("right-click: lock grade, forbid technologies, measured values")
+    tips.append("right-click: lock grade, forbid technologies, measured values, networks; "
+                "click: choose it for a network (Ctrl+click: several)")
     label.setToolTip("; ".join(tips))
 
 
@@ -87,6 +90,7 @@ def part_menu(w, ref: str) -> QMenu:
     clear.setObjectName("part_measured_clear")
     clear.setEnabled(p.measured is not None)
     clear.triggered.connect(lambda *_c: clear_measured(w, ref))
+    add_network_entries(menu, w, ref)  # networks and matched pairs (app/qt_network_menu.py)
     return menu
 
 
@@ -99,6 +103,7 @@ def show_part_menu(w, ref: str, where) -> None:
 def install_part_menu(w) -> None:
     """Right-clicks on a part's name in the parts panel open its menu."""
     w.parts.part_menu_requested.connect(lambda ref, where: show_part_menu(w, ref, where))
+    install_network_menus(w)
 
 
 def _edit(w, ref: str, text: str, **changes) -> str | None:

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import math
 
-from PySide6.QtCore import QRegularExpression, Qt, Signal
+from PySide6.QtCore import QEvent, QRegularExpression, Qt, Signal
 from PySide6.QtGui import QRegularExpressionValidator
 from PySide6.QtWidgets import (QComboBox, QGridLayout, QLabel, QLineEdit, QPushButton,
                                QScrollArea, QSlider, QSpinBox, QVBoxLayout, QWidget, QComboBox as _Combo)
@@ -25,6 +25,7 @@ SLIDER_STEPS = 1000
 TOL_MIN, TOL_MAX = 0.05, 30.0  # percent, log scale
 INVALID_STYLE = "QLineEdit { background: #fde2d6; border: 1px solid #D55E00; }"
 SELECTED_STYLE = "QLabel { background: #D55E00; color: white; font-weight: bold; padding: 1px 3px; }"
+CHOSEN_STYLE = "QLabel { background: #0072B2; color: white; padding: 1px 3px; }"  # chosen for a network
 
 
 def slider_to_pct(pos: int) -> float:
@@ -85,6 +86,7 @@ class PartRow:
         self.label.setContextMenuPolicy(Qt.ContextMenuPolicy.CustomContextMenu)
         self.label.customContextMenuRequested.connect(
             lambda pos: panel.part_menu_requested.emit(ref, self.label.mapToGlobal(pos)))
+        self.label.installEventFilter(panel)  # a click chooses the part, Ctrl+click several (networks)
 
 
 class PartsPanel(QWidget):
@@ -97,6 +99,8 @@ class PartsPanel(QWidget):
     sampling_changed = Signal(int, object, str)  # samples, seed (a Python int: up to 2^63-1), method
     problem_shown = Signal(str)                 # a message for the status bar
     part_menu_requested = Signal(str, object)   # ref, global QPoint (a right-click on the part's name)
+    network_menu_requested = Signal(str, object)  # network name, global QPoint (a right-click on its heading)
+    chosen_changed = Signal(list)               # refs chosen by clicks on their names (for a network)
 
     def __init__(self) -> None:
         super().__init__()
@@ -156,6 +160,7 @@ class PartsPanel(QWidget):
         self.group_labels: dict[str, QLabel] = {}  # network name -> its heading
         self._layout: list = []
         self.selected: str | None = None  # the part chosen in the circuit view
+        self.chosen: list[str] = []  # parts chosen by clicks on their names (for a new network)
 
     def sizeHint(self):  # noqa: N802 - Qt override
         from PySide6.QtCore import QSize
@@ -234,12 +239,18 @@ class PartsPanel(QWidget):
                 head = QLabel(heading)
                 head.setObjectName(f"group_{name}")
                 head.setStyleSheet("QLabel { border-top: 1px solid #888; padding-top: 2px; }")
+                if name != "channels":  # a network's heading: right-click for its menu (app/qt_network_menu.py)
+                    head.setToolTip(f"right-click: edit or dissolve {name}, add the chosen parts")
+                    head.setContextMenuPolicy(Qt.ContextMenuPolicy.CustomContextMenu)
+                    head.customContextMenuRequested.connect(
+                        lambda pos, name=name, head=head: self.network_menu_requested.emit(name, head.mapToGlobal(pos)))
                 self.grid.addWidget(head, r, 0, 1, 5)
                 self.group_labels[name] = head
                 r += 1
             for ref in refs:
                 r = self._add_row(ref, r)
         self.grid.setRowStretch(r, 1)
+        self.chosen = [ref for ref in self.chosen if ref in self.rows]
 
     def _add_row(self, ref: str, r: int) -> int:
         """One part's widgets at grid row ``r`` (and its problem line below); the next free row."""
@@ -251,8 +262,34 @@ class PartsPanel(QWidget):
         self.grid.addWidget(row.readout, r, 4)
         self.grid.addWidget(row.problem, r + 1, 1, 1, 4)
         self.rows[ref] = row
-        row.label.setStyleSheet(SELECTED_STYLE if ref == self.selected else "")
+        self._style_label(ref)
         return r + 2
+
+    def _style_label(self, ref: str) -> None:
+        """The part's name: on the highlight colour when chosen in the circuit view, on blue
+        when chosen for a network, plain otherwise."""
+        style = SELECTED_STYLE if ref == self.selected else CHOSEN_STYLE if ref in self.chosen else ""
+        self.rows[ref].label.setStyleSheet(style)
+
+    def choose(self, refs: list[str]) -> None:
+        """Choose ``refs`` (parts on which a new network is made; [] clears the choice)."""
+        self.chosen = [r for r in refs if r in self.rows]
+        for ref in self.rows:
+            self._style_label(ref)
+        self.chosen_changed.emit(list(self.chosen))
+
+    def eventFilter(self, obj, event) -> bool:  # noqa: N802 - Qt override
+        """A left click on a part's name chooses that part alone (again: none); with Ctrl
+        it adds the part to the choice or takes it out."""
+        if event.type() == QEvent.Type.MouseButtonPress and event.button() == Qt.MouseButton.LeftButton:
+            ref = next((r for r, row in self.rows.items() if row.label is obj), None)
+            if ref is not None:
+                if event.modifiers() & Qt.KeyboardModifier.ControlModifier:
+                    self.choose([r for r in self.chosen if r != ref] + ([] if ref in self.chosen else [ref]))
+                else:
+                    self.choose([] if self.chosen == [ref] else [ref])
+                return True
+        return super().eventFilter(obj, event)
 
     def _place_readout(self, row: PartRow, wide: bool) -> None:
         """A measured part's readout takes the hidden slider's column too (its text is longer)."""
@@ -264,8 +301,8 @@ class PartsPanel(QWidget):
         """Mark part ``ref``'s row as chosen (its name on the highlight colour), scroll to it
         and put the cursor in its value field; None clears the mark."""
         self.selected = ref
-        for r, row in self.rows.items():
-            row.label.setStyleSheet(SELECTED_STYLE if r == ref else "")
+        for r in self.rows:
+            self._style_label(r)
         row = self.rows.get(ref) if ref else None
         if row is not None:
             self.scroll.ensureWidgetVisible(row.value)

@@ -29,6 +29,7 @@ from ..errors import InputError, ValidationError
 from ..topologies import TOPOLOGIES
 from . import qt_stage_edits as edits
 from . import qt_style as st
+from .qt_network_edits import read_figure
 from .qt_parts import INVALID_STYLE
 
 BAD_CELL = QColor("#fde2d6")   # the value fields' invalid colour (qt_parts.INVALID_STYLE)
@@ -44,6 +45,11 @@ def _response_kinds() -> tuple[str, ...]:
     from ..circuit import response_kinds
 
     return response_kinds()
+
+
+def _bias_text(volts: float) -> str:
+    """A stage's DC bias as its field shows it: "12 V"; "" when not stated (0)."""
+    return f"{volts:g} V" if volts else ""
 
 
 def _buffered(stage) -> bool:
@@ -123,6 +129,17 @@ class StageEditor(QWidget):
         self.response.setObjectName("stage_response")
         self.response.setToolTip("the response a circuit stage is judged as (cutoff, band edges...)")
         self.response.addItem("from the circuit's shape", "")
+        self.bias = QLineEdit()
+        self.bias.setObjectName("stage_bias")
+        self.bias.setPlaceholderText("not stated")
+        self.bias.setToolTip("the DC bias across the stage's capacitors (V): every class II capacitor of the stage "
+                             "that states no bias of its own loses value as its grade's bias curve says; empty: not "
+                             "stated (a further spread stands for the bias loss)")
+        bias_box = QWidget()
+        bias_row = QHBoxLayout(bias_box)
+        bias_row.setContentsMargins(0, 0, 0, 0)
+        bias_row.addWidget(self.bias, 1)
+        bias_row.addWidget(QLabel("V"))
         for kind in _response_kinds():
             self.response.addItem(kind, kind)
         form.addRow("name", self.name)
@@ -131,6 +148,7 @@ class StageEditor(QWidget):
         form.addRow("", self.buffered)
         form.addRow("", self.opamp_part)
         form.addRow("response", self.response)
+        form.addRow("DC bias", bias_box)
         self.form = form
         lay.addLayout(form)
         self.pages = QStackedWidget()
@@ -177,6 +195,7 @@ class StageEditor(QWidget):
         self.name.editingFinished.connect(self._on_name)
         self.topology.activated.connect(lambda _i: self._on_topology())
         self.options.editingFinished.connect(self._on_options)
+        self.bias.editingFinished.connect(self._on_bias)
         self.buffered.clicked.connect(lambda on: self._on_buffered(on))
         self.opamp_part.clicked.connect(lambda on: self._edit(
             lambda d: edits.set_opamp_part(d, self.index, on, self._catalog()), "op-amp part"))
@@ -229,6 +248,7 @@ class StageEditor(QWidget):
         self.name.setText(s.name)
         self.topology.setCurrentIndex(max(0, self.topology.findData(s.topology)))
         self.options.setText(json.dumps(s.options) if s.options else "")
+        self.bias.setText(_bias_text(s.bias_v))
         circuit = s.topology == edits.CIRCUIT
         self.options.setEnabled(not circuit)
         self.buffered.setChecked(_buffered(s))
@@ -316,7 +336,7 @@ class StageEditor(QWidget):
 
     def _clear_marks(self) -> None:
         self.problem.hide()
-        for w in (self.name, self.options):
+        for w in (self.name, self.options, self.bias):
             w.setStyleSheet("")
         for t in (self.elements, self.opamps):
             t.blockSignals(True)
@@ -365,6 +385,34 @@ class StageEditor(QWidget):
         self._edit(lambda d: edits.set_topology(d, self.index, stage.topology, self._catalog(), self._kinds(),
                                                 options), "options",
                    mark=lambda _p: self.options.setStyleSheet(INVALID_STYLE))
+
+    def _on_bias(self) -> None:
+        """The stage's DC bias (V; empty: not stated) as one edit; a bad entry is marked and
+        the stage keeps its last good bias."""
+        if self.design is None:
+            return
+        i = self.index
+        path = f"stages[{i}].bias_v"
+        kept = _bias_text(self.design.stages[i].bias_v) or "not stated"
+        try:
+            bias = read_figure(self.bias.text(), ("V",), path, "5 or 5 V") or 0.0
+        except InputError as exc:
+            self.bias.setStyleSheet(INVALID_STYLE)
+            self._show_problem([InputError(f"{exc.reason}; still using {kept}", path)], "DC bias")
+            return
+        if bias == self.design.stages[i].bias_v:
+            self.bias.setStyleSheet("")
+            self.bias.setText(_bias_text(bias))
+            return
+
+        def change(d):
+            if bias:
+                d["stages"][i]["bias_v"] = bias
+            else:
+                d["stages"][i].pop("bias_v", None)
+            return d
+        self._edit(change, f"DC bias {_bias_text(bias) or 'not stated'}",
+                   mark=lambda _p: self.bias.setStyleSheet(INVALID_STYLE))
 
     def _on_buffered(self, on: bool) -> None:
         def change(d):

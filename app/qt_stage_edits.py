@@ -148,8 +148,9 @@ def circuit_from_library(stage: Data, taken: set[str]) -> Data:
 
 
 def _keep_stage_fields(old: Data, new: Data) -> Data:
-    """``new`` (a stage's file form) with ``old``'s name and ``buffered`` flag, where it had them."""
-    new.update({k: old[k] for k in ("name", "buffered") if k in old})
+    """``new`` (a stage's file form) with ``old``'s name, ``buffered`` flag and DC bias
+    (``bias_v``), where it had them."""
+    new.update({k: old[k] for k in ("name", "buffered", "bias_v") if k in old})
     return new
 
 

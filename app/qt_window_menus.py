@@ -15,6 +15,7 @@ from PySide6.QtWidgets import QToolBar
 
 from .qt_centre_dialog import open_centre
 from .qt_help import build_help_menu
+from .qt_network_menu import new_network
 from .qt_part_menu import install_part_menu
 from .qt_purchase_dialog import open_purchase
 from .qt_shapes_dialog import open_shapes
@@ -103,12 +104,14 @@ def build_menus(w: "MainWindow") -> None:
     w.act_shapes = act("Distribution shapes…", lambda: open_shapes(w), None, "shapes")
     w.act_centre = act("Centre values…", lambda: open_centre(w), None, "centre_values")
     w.act_purchase = act("Purchase and signal path…", lambda: open_purchase(w), None, "purchase")
+    w.act_network = act("New network or matched pair…", lambda: new_network(w), None, "design_network_new")
     w.act_report_details = act("Report details…", lambda: open_report_details(w), None, "report_details")
     w.act_report_html = act("Export report (HTML)…", lambda: ex.report("html"),
                             "Ctrl+P", "report_html")
     w.act_report_pdf = act("Export report (PDF)…", lambda: ex.report("pdf"),
                            "Ctrl+Shift+P", "report_pdf")
-    for a in (w.act_synth, w.act_catalog, w.act_recommend, w.act_temperature, w.act_purchase, w.act_shapes,
+    for a in (w.act_synth, w.act_catalog, w.act_recommend, w.act_temperature, w.act_purchase, w.act_network,
+              w.act_shapes,
               w.act_centre,
               None, w.act_report_details, w.act_report_html,
               w.act_report_pdf):
