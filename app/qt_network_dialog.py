@@ -169,7 +169,10 @@ class NetworkDialog(QDialog):
     def _on_ok(self) -> None:
         self._clear_marks()
         try:
-            net = Network(self.name.text().strip(), tuple(self.ticked()),
+            ticked = self.ticked()
+            kept = [m for m in self.editing.members if m in ticked] if self.editing else []
+            members = tuple(kept + [r for r in ticked if r not in kept])  # members keep their order in the file
+            net = Network(self.name.text().strip(), members,
                           self._figure(self.tolerance, "tolerance_pct", ("%",), "0.5 or 0.5 %", None),
                           self._figure(self.ratio, "ratio_pct", ("%",), "0.05 or 0.05 %", None),
                           self._figure(self.tracking, "tracking_ppm", ("ppm/K", "ppm"), "5 or 5 ppm/K", 0.0),

@@ -126,6 +126,7 @@ COVERAGE = {
     "purchase": "test_decisions_window.py::"
                 "test_purchase_dialog_then_recommend_shows_money_class_ii_warning_and_sets_side_by_side",
     "report_details": "test_report_signoff_window.py::test_report_details_are_one_undoable_edit",
+    "design_network_new": "test_network_window.py::test_design_menu_makes_a_network_of_the_chosen_parts",
     "report_html": "test_export_report_html",
     "report_pdf": "test_export_report_pdf",
     "show_phase": "test_phase_and_group_delay",
