@@ -11,7 +11,7 @@ nothing here formats or plots.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from functools import cached_property
 from typing import Callable, Literal, Sequence
 
@@ -28,7 +28,8 @@ from .memory import BoardStore, check_boards
 from .rare_failures import RARE_TRIGGER, RareEstimate, estimate_for, not_estimable
 from .stats import SpanFailures, YieldEstimate, adaptive_yield, failure_breakdown, yield_estimate
 from .summary import MetricSummary, summarize
-from .temperature import OverTemperature, ServiceLife, judge_over_range, judge_service_life, passed_over_range
+from .temperature import (OverTemperature, ServiceLife, judge_over_range, judge_service_life, lived_budgets,
+                          passed_over_range)
 
 __all__ = [
     "SecondQuantity",
@@ -50,6 +51,9 @@ class Curves:
     ``freqs_hz`` (F,); ``gain_db`` and ``second`` (N, F): gain in dB and the ``second``
     quantity (phase in degrees or group delay in s); ``passed`` (N,) whether each of these
     boards meets the mask; ``gain_bands`` and ``second_bands`` per frequency (F,) each.
+    Boards of several channels with match spans: ``channel_spread`` match quantity -> (N, F)
+    the largest difference between any two channels (dB, deg or s) and ``spread_bands``
+    its bands (:mod:`filters.channel_match`); else both empty.
     """
 
     second_kind: SecondQuantity
@@ -60,6 +64,8 @@ class Curves:
     gain_bands: Bands
     second_bands: Bands
     start: int = 0  # the first board's index in the seed's sequence
+    channel_spread: dict[str, np.ndarray] = field(default_factory=dict)
+    spread_bands: dict[str, Bands] = field(default_factory=dict)
 
     @property
     def boards(self) -> int:
@@ -71,7 +77,9 @@ class Curves:
         if n >= self.boards:
             return self
         g, s2 = self.gain_db[:n], self.second[:n]
-        return Curves(self.second_kind, self.freqs_hz, g, s2, self.passed[:n], bands(g), bands(s2), self.start)
+        spread = {q: v[:n] for q, v in self.channel_spread.items()}
+        return Curves(self.second_kind, self.freqs_hz, g, s2, self.passed[:n], bands(g), bands(s2), self.start,
+                      spread, {q: bands(v) for q, v in spread.items()})
 
 
 @dataclass(frozen=True)
@@ -79,7 +87,10 @@ class AnalysisResult:
     """Everything one analysis found. ``budget`` by metric name (empty when not asked);
     ``corners`` None when not asked; ``history`` the yield after each batch of an adaptive
     run (else one entry); ``curves`` the first boards' responses when asked (else None);
-    ``summaries`` by metric name and ``opamps`` (the op-amp check), taken on first use."""
+    ``summaries`` by metric name and ``opamps`` (the op-amp check), taken on first use.
+    Over an operating range the margins' budgets are of each board's worst margin over the
+    judged temperatures (:attr:`Budget.basis` says so); ``life_budget`` the margins' budgets
+    after the service life (empty without one): :func:`filters.temperature.lived_budgets`."""
 
     design: Design
     ensemble: Ensemble
@@ -95,6 +106,7 @@ class AnalysisResult:
     rare: RareEstimate | None = None  # the high-yield estimate by importance sampling (filters/rare_failures.py)
     rare_note: str = ""               # why it was not made, when it was asked for
     life: ServiceLife | None = None
+    life_budget: dict[str, Budget] = field(default_factory=dict)
 
     @property
     def samples(self) -> int:
@@ -186,7 +198,7 @@ class _Runner:
         second = h.delay_s if self.second == "delay" else h.phase_deg
         assert h.gain_db is not None and second is not None
         return Curves(self.second, h.freqs_hz, h.gain_db, second, passed[:h.samples], bands(h.gain_db),
-                      bands(second), h.start)
+                      bands(second), h.start, h.channel_spread, {q: bands(v) for q, v in h.channel_spread.items()})
 
 
 def analyze(design: Design, *, samples: int | None = None, seed: int | None = None,
@@ -308,11 +320,12 @@ def analyze(design: Design, *, samples: int | None = None, seed: int | None = No
         history = history[:-1] + [est]
     life = judge_service_life(design, prep, ens, est, should_stop)
     budget_result = spread_budget(ens, prep) if budget else {}
+    budget_result, life_budget, life = lived_budgets(design, prep, ens, budget_result, over, life)
     corner_result = _corners(design, prep, ens, over) if with_corners else None
     rare_est, rare_note = _rare(design, prep, ens, est, rare, grades, seed, should_stop)
     return AnalysisResult(design, ens, prep, est, spans, budget_result, corner_result, history,
                           curves=runner.curves(ens.passed), temperature=over, life=life, rare=rare_est,
-                          rare_note=rare_note)
+                          rare_note=rare_note, life_budget=life_budget)
 
 
 def _rare(design: Design, prep: Prepared, ens: Ensemble, est: YieldEstimate, rare: str, grades, seed,
@@ -365,7 +378,10 @@ def completed(result: AnalysisResult, *, curves: int | None = None) -> AnalysisR
     if curves is not None and result.curves is None:
         raise ValueError("this result kept no curves: analyze(design, ..., curves=N)")
     ens, prep = result.ensemble, result.prepared
-    return replace(result,
-                   budget=result.budget or spread_budget(ens, prep),
+    budget, life_budget, life = result.budget, result.life_budget, result.life
+    if not budget:  # over a range and after a life as analyze takes them
+        budget, life_budget, life = lived_budgets(result.design, prep, ens, spread_budget(ens, prep),
+                                                  result.temperature, life)
+    return replace(result, budget=budget, life_budget=life_budget, life=life,
                    corners=result.corners or _corners(result.design, prep, ens, result.temperature),
                    curves=result.curves if curves is None else result.curves.first(curves))  # type: ignore[union-attr]
