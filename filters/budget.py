@@ -60,6 +60,7 @@ __all__ = [
     "mismatch_columns",
     "budget_names",
     "spread_budget",
+    "worst_budget",
 ]
 
 STEP = 1e-4
@@ -100,16 +101,22 @@ class BudgetEntry:
 
 @dataclass(frozen=True)
 class Budget:
-    """The spread budget of one metric, largest share first."""
+    """The spread budget of one metric, largest share first. ``basis`` says where the
+    metric was taken when a design is judged at more than one temperature (e.g. "over -40
+    to 85 °C, worst temperature"); "" at the design's one board temperature."""
 
     metric: str
     entries: tuple[BudgetEntry, ...]
     remainder: float
     samples: int
+    basis: str = ""
 
     def to_dict(self) -> dict:
-        return {"metric": self.metric, "samples": self.samples, "remainder": self.remainder,
-                "parts": [e.to_dict() for e in self.entries]}
+        out = {"metric": self.metric, "samples": self.samples, "remainder": self.remainder,
+               "parts": [e.to_dict() for e in self.entries]}
+        if self.basis:
+            out["basis"] = self.basis
+        return out
 
     def rounded_percent(self, top: int | None = None, decimals: int = 1) -> list[tuple[str, float]]:
         """The shares as percentages rounded to ``decimals`` that add to exactly 100:
@@ -420,13 +427,9 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
     cols = metric_columns(ens)
     if names is None:
         names = budget_names(cols)
-    sens = sensitivities(prep, names)
     design = ens.design
+    sens = _with_networks(design, sensitivities(prep, names))
     refs = budget_refs(design)
-    if design.networks:  # a network's shared error moves all its members: the sum of theirs
-        idx = {q.ref: i for i, q in enumerate(design.parts)}
-        sens = {k: np.concatenate([v, [v[[idx[m] for m in net.members]].sum() for net in design.networks]])
-                for k, v in sens.items()}
     nom = prep.nominal.values
     chunk = chunk or board_chunk(len(refs))
     # a match span's margin is budgeted by its signed mismatch (the margin is limit - |mismatch|)
@@ -440,6 +443,91 @@ def spread_budget(ens: Ensemble, prep: Prepared, names: list[str] | None = None,
         if v is not None and v != m and v in out:
             out[m] = replace(out[v], metric=m)
     return {name: out[name] for name in names if name in out}
+
+
+def _with_networks(design, sens: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """Sensitivities (P,) extended by each network's (P + networks,): a network's shared
+    error moves all its members, so its sensitivity is the sum of theirs."""
+    if not design.networks:
+        return sens
+    idx = {q.ref: i for i, q in enumerate(design.parts)}
+    return {k: np.concatenate([v, [v[[idx[m] for m in net.members]].sum() for net in design.networks]])
+            for k, v in sens.items()}
+
+
+def worst_budget(ens: Ensemble, prep: Prepared, margins: np.ndarray, where: np.ndarray, conditions,
+                 basis: str, chunk: int | None = None) -> dict[str, Budget]:
+    """Spread budgets of each span's worst margin over several judged conditions (the
+    temperatures of an operating range, or after a service life).
+
+    Per board and span the margin is its smallest over the conditions, ``margins``
+    (S, spans), found at ``conditions[where[b, j]]``; its regressors are the board's own
+    parts as they are there: :func:`budget_columns` of the part values at that condition
+    (the same scores, so the same tolerance, temperature-coefficient and drift draws),
+    recomputed chunk by chunk from the seed (nothing (S, P) is kept per condition). So a
+    part whose temperature change pushes the boards out at -40 deg C carries its share of
+    the worst margin. Match spans (several channels) are left out: their budget stays
+    that of the signed mismatch at the board temperature. Sensitivities are the nominal
+    design's at the board temperature (:func:`sensitivities`).
+
+    Parameters
+    ----------
+    ens : Ensemble
+        The sampled boards (their seed, method, start and grades).
+    prep : Prepared
+        The prepared design (:func:`filters.evaluate.prepare`).
+    margins : np.ndarray
+        (S, spans) each board's smallest margin over the conditions, in each span's unit.
+    where : np.ndarray
+        (S, spans) int, the index into ``conditions`` of each smallest margin.
+    conditions : sequence of Conditions
+        The judged conditions (temperatures in deg C, service hours).
+    basis : str
+        What the budgets are of, kept in :attr:`Budget.basis` (e.g. "over -40 to 85 °C,
+        worst temperature").
+    chunk : int, optional
+        Boards per chunk.
+
+    Returns
+    -------
+    dict[str, Budget]
+        ``margin.<label>`` -> its budget (fractions, largest first), for every span but match spans.
+    """
+    design = ens.design
+    names = margin_names(design.mask)
+    keep = [j for j, s in enumerate(design.mask) if s.kind != "match"]
+    if not keep:
+        return {}
+    sens = _with_networks(design, sensitivities(prep, [names[j] for j in keep]))
+    refs = budget_refs(design)
+    nom = prep.nominal.values
+    chunk = chunk or board_chunk(len(refs))
+    cols = {names[j]: margins[:, j] for j in keep}
+    fitted = _fit(ens, cols, [names[j] for j in keep],
+                  lambda sl: _worst_columns(ens, nom, conditions, where[sl][:, keep], sl),
+                  refs, sens, chunk, group=list(range(len(keep))))  # each span on its own regressors
+    return {n: replace(b, basis=basis) for n, b in fitted.items()}
+
+
+def _worst_columns(ens: Ensemble, nominal: np.ndarray, conditions, which: np.ndarray,
+                   sl: slice) -> list[np.ndarray]:
+    """For each column k of ``which`` (boards, K): :func:`budget_columns` of the boards in
+    ``sl`` with each board's parts at ``conditions[which[b, k]]``, (boards, P + networks)."""
+    from .channel_match import sample_values
+    from .sampling import draw_scores
+
+    d = ens.design
+    lo, hi = ens.start + sl.start, ens.start + sl.stop
+    scores = draw_scores(ens.seed, len(d.parts), lo, hi, ens.method)  # type: ignore[arg-type]
+    # each board's parts at each condition: a handful of conditions, the boards vectorized
+    logs = np.stack([np.log(sample_values(d, nominal, ens.grades, scores, c, ens.seed, ens.method, lo)[0] / nominal)
+                     for c in conditions])  # (conditions, boards, P)
+    rows = np.arange(hi - lo)
+    xs = [logs[which[:, k].astype(np.intp), rows] for k in range(which.shape[1])]
+    if not d.networks:
+        return xs
+    shared = shared_log_deviation(d, ens.seed, ens.method, lo, hi)
+    return [_split_shared(d, x, shared) for x in xs]
 
 
 def _mismatch_of(name: str, mask) -> str | None:
@@ -456,9 +544,21 @@ def _mismatch_of(name: str, mask) -> str | None:
 
 
 def _fit(ens: Ensemble, cols: dict[str, np.ndarray], names: list[str], x_of: Callable[[slice], np.ndarray],
-         refs: list[str], sens: dict[str, np.ndarray], chunk: int) -> dict[str, Budget]:
-    """Budgets of ``names`` fitted on the regressors ``x_of(boards)`` (boards, len(refs))."""
+         refs: list[str], sens: dict[str, np.ndarray], chunk: int, group: list[int] | None = None) -> dict[str, Budget]:
+    """Budgets of ``names`` fitted on the regressors ``x_of(boards)`` (boards, len(refs)).
+
+    With ``group`` (one index a name) ``x_of(boards)`` returns a list of such arrays and
+    name k is fitted on array ``group[k]`` (each span's own regressors over a range: one
+    pass over the boards for all of them)."""
     n, p = ens.samples, len(refs)
+    own = group is not None
+    grp = group if group is not None else [0] * len(names)
+    groups = sorted(set(grp))
+    at = dict(zip(names, grp))
+
+    def xs_of(sl: slice) -> list[np.ndarray]:
+        got = x_of(sl)
+        return got if own else [got]  # type: ignore[return-value]
 
     def y_of(name: str, sl: slice) -> np.ndarray:
         y = cols[name][sl]
@@ -469,15 +569,17 @@ def _fit(ens: Ensemble, cols: dict[str, np.ndarray], names: list[str], x_of: Cal
 
     # Pass 1: every board's log-deviation sums; each metric's count, sum and the
     # log-deviation sums over the boards where it is finite.
-    sum_x = np.zeros(p)
+    sum_x = {g: np.zeros(p) for g in groups}
     count = dict.fromkeys(names, 0)
     sum_y = dict.fromkeys(names, 0.0)
     sum_x_ok = {name: np.zeros(p) for name in names}
     for sl in chunks(n, chunk):
-        x = x_of(sl)
-        sx = x.sum(axis=0)
-        sum_x += sx
+        xs = xs_of(sl)
+        sxs = {g: xs[g].sum(axis=0) for g in groups}
+        for g in groups:
+            sum_x[g] += sxs[g]
         for name in names:
+            x, sx = xs[at[name]], sxs[at[name]]
             y = y_of(name, sl)
             ok = np.isfinite(y)
             if ok.all():
@@ -488,28 +590,29 @@ def _fit(ens: Ensemble, cols: dict[str, np.ndarray], names: list[str], x_of: Cal
                 count[name] += int(ok.sum())
                 sum_y[name] += float(np.sum(y[ok]))
                 sum_x_ok[name] += x[ok].sum(axis=0)
-        del x  # one chunk's arrays at a time
-    mx = sum_x / n if n else sum_x
+        del xs  # one chunk's arrays at a time
+    mx = {g: sum_x[g] / n if n else sum_x[g] for g in groups}
     my = {name: sum_y[name] / count[name] if count[name] else 0.0 for name in names}
     # Pass 2: cross products centred on every board's mean log deviation (xc) and on each
     # metric's own mean; the shift to the metric's own boards' mean comes after.
-    gram = np.zeros((p, p))
+    gram = {g: np.zeros((p, p)) for g in groups}
     gram_ok = {name: np.zeros((p, p)) for name in names}
     sxy = {name: np.zeros(p) for name in names}
     syy = dict.fromkeys(names, 0.0)
     sy = dict.fromkeys(names, 0.0)
     for sl in chunks(n, chunk):
-        xc = x_of(sl) - mx
-        g = xc.T @ xc
-        gram += g
-        xo = xc
+        xcs = [x - mx[g] if g in mx else x for g, x in enumerate(xs_of(sl))]
+        gs = {g: xcs[g].T @ xcs[g] for g in groups}
+        for g in groups:
+            gram[g] += gs[g]
         for name in names:
+            xc, gm = xcs[at[name]], gs[at[name]]
             y = y_of(name, sl)
             ok = np.isfinite(y)
             if not ok.any():
                 continue
             if ok.all():
-                gram_ok[name] += g
+                gram_ok[name] += gm
                 xo = xc
             else:
                 xo = xc[ok]
@@ -518,18 +621,19 @@ def _fit(ens: Ensemble, cols: dict[str, np.ndarray], names: list[str], x_of: Cal
             sxy[name] += xo.T @ yc
             syy[name] += float(yc @ yc)
             sy[name] += float(np.sum(yc))
-        del xc, xo  # one chunk's arrays at a time
-    varying = np.diag(gram) > 0
+        del xcs  # one chunk's arrays at a time
     out: dict[str, Budget] = {}
-    full = [name for name in names if count[name] == n and syy[name] > 0 and n >= 3]
     betas: dict[str, np.ndarray] = {}
-    if full and varying.any():  # one least-squares solve for every metric found on every board
-        rhs = np.column_stack([sxy[name] for name in full])
-        sol = np.linalg.lstsq(gram[np.ix_(varying, varying)], rhs[varying], rcond=None)[0]
-        for k, name in enumerate(full):
-            b = np.zeros(p)
-            b[varying] = sol[:, k]
-            betas[name] = b
+    for g in groups:  # one least-squares solve for every metric of a group found on every board
+        varying = np.diag(gram[g]) > 0
+        full = [name for name in names if at[name] == g and count[name] == n and syy[name] > 0 and n >= 3]
+        if full and varying.any():
+            rhs = np.column_stack([sxy[name] for name in full])
+            sol = np.linalg.lstsq(gram[g][np.ix_(varying, varying)], rhs[varying], rcond=None)[0]
+            for k, name in enumerate(full):
+                b = np.zeros(p)
+                b[varying] = sol[:, k]
+                betas[name] = b
     for name in names:
         cnt = count[name]
         s_vec = sens.get(name, np.full(p, np.nan))
@@ -539,7 +643,7 @@ def _fit(ens: Ensemble, cols: dict[str, np.ndarray], names: list[str], x_of: Cal
             out[name] = Budget(name, entries, 0.0, int(cnt))
             continue
         # shift the sums to this metric's own boards' means: d = its mean log deviation - mx
-        d = sum_x_ok[name] / cnt - mx
+        d = sum_x_ok[name] / cnt - mx[at[name]]
         sxx = gram_ok[name] - cnt * np.outer(d, d)
         beta = betas.get(name)
         if beta is None:  # some boards lack this metric: fit on the boards that have it

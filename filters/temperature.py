@@ -30,6 +30,7 @@ from .temperature_settings import HOURS_PER_YEAR, judged_temperatures
 
 __all__ = [
     "judged_temperatures",
+    "judged_conditions",
     "TemperaturePoint",
     "OverTemperature",
     "ServiceLife",
@@ -39,6 +40,7 @@ __all__ = [
     "passed_over_range",
     "judged_boards",
     "judged_ensemble",
+    "lived_budgets",
 ]
 
 # per-temperature metric summaries kept for the f0/Q shift table and the cutoff over temperature
@@ -66,13 +68,16 @@ class TemperaturePoint:
 class OverTemperature:
     """Boards judged at every temperature of the range. ``overall`` counts boards that
     pass at every point; ``worst_margins`` (S, spans) is each board's smallest margin over
-    the points (what the overall pass/fail reads)."""
+    the points (what the overall pass/fail reads); ``worst_index`` (S, spans) int8, the
+    index into ``points`` of the temperature each board's margin is smallest at (the first
+    on a tie; what the spread budget over the range reads its part values at)."""
 
     range_c: tuple[float, float]
     points: tuple[TemperaturePoint, ...]
     overall: YieldEstimate
     span_names: tuple[str, ...]
     worst_margins: np.ndarray
+    worst_index: np.ndarray | None = None
 
     @property
     def temperatures_c(self) -> tuple[float, ...]:
@@ -87,13 +92,18 @@ class OverTemperature:
 @dataclass(frozen=True)
 class ServiceLife:
     """The same boards at delivery and after ``hours`` at ``temp_c`` (each judged at the
-    judged temperatures when the design has a range, else at its board temperature)."""
+    judged temperatures when the design has a range, else at its board temperature).
+    ``worst_margins`` (S, spans) and ``worst_index`` (S, spans) are the margins after the
+    life, smallest over the judged temperatures, and where (as in :class:`OverTemperature`);
+    :func:`filters.analysis.analyze` drops them once the after-life spread budget is taken."""
 
     hours: float
     temp_c: float
     delivery: YieldEstimate
     after: YieldEstimate
     after_points: tuple[TemperaturePoint, ...]
+    worst_margins: np.ndarray | None = None
+    worst_index: np.ndarray | None = None
 
     @property
     def years(self) -> float:
@@ -140,20 +150,27 @@ def nominal_at(prep: Any, grades: Any, temp_c: float, hours: float = 0.0, servic
 
 
 def _points(design: Any, prep: Any, ens: Any, temps: tuple[float, ...], hours: float, service_temp_c: float,
-            should_stop: Callable[[], bool] | None, metrics: bool = True) -> tuple[list[TemperaturePoint], np.ndarray]:
-    """Judge the ensemble's boards at each of ``temps``; the points and the worst margins.
+            should_stop: Callable[[], bool] | None, metrics: bool = True
+            ) -> tuple[list[TemperaturePoint], np.ndarray, np.ndarray]:
+    """Judge the ensemble's boards at each of ``temps``; the points, the worst margins
+    (S, spans) and the index (S, spans) int8 of the temperature each is smallest at.
     ``metrics=False``: pass/fail only (the points' summaries are empty)."""
     from .evaluate import evaluate, evaluate_values
 
     a = design.analysis
     worst = None
+    where = np.zeros((ens.samples, len(design.mask)), dtype=np.int8)
     points = []
-    for t in temps:  # a handful of temperatures; the boards are vectorized inside evaluate
-        cond = Conditions(t, t, a.lot_share, hours, service_temp_c)
+    for k, t in enumerate(temps):  # a handful of temperatures; the boards are vectorized inside evaluate
+        cond = judged_conditions(design, t, hours, service_temp_c)
         e = evaluate(design, samples=ens.samples, seed=ens.seed, method=ens.method, start=ens.start,
                      grades=ens.grades, curves=False, metrics=metrics, prepared=prep, conditions=cond,
                      should_stop=should_stop)
-        worst = e.margins.copy() if worst is None else np.minimum(worst, e.margins)
+        if worst is None:
+            worst = e.margins.copy()
+        else:
+            where[e.margins < worst] = k
+            np.minimum(worst, e.margins, out=worst)
         keep = [n for n in e.metrics if n in _SHIFT_METRICS or n.endswith((".f0_hz", ".q"))]
         summaries = {}
         if keep:
@@ -163,7 +180,30 @@ def _points(design: Any, prep: Any, ens: Any, temps: tuple[float, ...], hours: f
         est = yield_estimate(e.passed, None, a.confidence, a.interval)
         points.append(TemperaturePoint(t, est, tuple(int(x) for x in (e.margins < 0).sum(axis=0)), summaries))
     assert worst is not None
-    return points, worst
+    return points, worst, where
+
+
+def judged_conditions(design: Any, temp_c: float, hours: float = 0.0,
+                      service_temp_c: float = REFERENCE_CELSIUS) -> Conditions:
+    """The board conditions one judged temperature is evaluated at.
+
+    Parameters
+    ----------
+    design : Design
+        The design (its lot share).
+    temp_c : float
+        The judged temperature, deg C.
+    hours : float
+        Hours in service (0: at delivery).
+    service_temp_c : float
+        Temperature in service, deg C.
+
+    Returns
+    -------
+    Conditions
+        The board at ``temp_c`` (a fixed temperature), after ``hours`` in service.
+    """
+    return Conditions(temp_c, temp_c, design.analysis.lot_share, hours, service_temp_c)
 
 
 def judge_over_range(design: Any, prep: Any, ens: Any,
@@ -191,9 +231,10 @@ def judge_over_range(design: Any, prep: Any, ens: Any,
     if not temps:
         return None
     a = design.analysis
-    points, worst = _points(design, prep, ens, temps, 0.0, REFERENCE_CELSIUS, should_stop)
+    points, worst, where = _points(design, prep, ens, temps, 0.0, REFERENCE_CELSIUS, should_stop)
     overall = yield_estimate(np.all(worst >= 0, axis=1), None, a.confidence, a.interval)
-    return OverTemperature(a.operating_range_c, tuple(points), overall, tuple(s.label for s in design.mask), worst)
+    return OverTemperature(a.operating_range_c, tuple(points), overall, tuple(s.label for s in design.mask), worst,
+                           where)
 
 
 def judge_service_life(design: Any, prep: Any, ens: Any, delivery: YieldEstimate,
@@ -225,8 +266,8 @@ def judge_service_life(design: Any, prep: Any, ens: Any, delivery: YieldEstimate
         return None
     temps = judged_temperatures(a)
     if temps:
-        points, worst = _points(design, prep, ens, temps, a.service_hours, a.service_temp_c, should_stop,
-                                metrics=False)
+        points, worst, where = _points(design, prep, ens, temps, a.service_hours, a.service_temp_c, should_stop,
+                                       metrics=False)
         passed = np.all(worst >= 0, axis=1)
     else:
         from .evaluate import evaluate
@@ -235,9 +276,10 @@ def judge_service_life(design: Any, prep: Any, ens: Any, delivery: YieldEstimate
         e = evaluate(design, samples=ens.samples, seed=ens.seed, method=ens.method, start=ens.start,
                      grades=ens.grades, curves=False, metrics=False, prepared=prep, conditions=cond,
                      should_stop=should_stop)
-        points, passed = [], e.passed
+        points, passed, worst = [], e.passed, e.margins
+        where = np.zeros(worst.shape, dtype=np.int8)
     after = yield_estimate(passed, None, a.confidence, a.interval)
-    return ServiceLife(a.service_hours, a.service_temp_c, delivery, after, tuple(points))
+    return ServiceLife(a.service_hours, a.service_temp_c, delivery, after, tuple(points), worst, where)
 
 
 def passed_over_range(design: Any, prep: Any, grades: Any, seed: int | None, method: str | None, start: int,
@@ -277,7 +319,7 @@ def passed_over_range(design: Any, prep: Any, grades: Any, seed: int | None, met
         return None
     ok = np.ones(stop - start, dtype=bool)
     for t in temps:
-        cond = Conditions(t, t, design.analysis.lot_share)
+        cond = judged_conditions(design, t)
         e = evaluate(design, samples=stop - start, start=start, seed=seed, method=method, grades=grades,
                      curves=False, metrics=False, prepared=prep, conditions=cond, should_stop=should_stop)
         ok &= e.passed
@@ -308,7 +350,7 @@ def judged_ensemble(design: Any, prep: Any, ens: Any, should_stop: Callable[[], 
     temps = judged_temperatures(design.analysis)
     if not temps:
         return ens
-    _, worst = _points(design, prep, ens, temps, 0.0, REFERENCE_CELSIUS, should_stop, metrics=False)
+    _, worst, _ = _points(design, prep, ens, temps, 0.0, REFERENCE_CELSIUS, should_stop, metrics=False)
     return replace(ens, margins=worst)
 
 
@@ -340,3 +382,63 @@ def judged_boards(design: Any, *, prepared: Any = None, should_stop: Callable[[]
     ens = evaluate(design, curves=False, metrics=False, prepared=prep, should_stop=should_stop, **evaluate_args)
     return judged_ensemble(design, prep, ens, should_stop)
 
+
+
+def lived_budgets(design: Any, prep: Any, ens: Any, budget: dict, over: OverTemperature | None,
+                  life: ServiceLife | None) -> tuple[dict, dict, ServiceLife | None]:
+    """The spread budgets of a design judged as the board lives.
+
+    Over an operating range each span's margin budget is that of the board's worst margin
+    over the judged temperatures, fitted on its parts at the temperature where that margin
+    is smallest (:func:`filters.budget.worst_budget`), in place of the board-temperature
+    one; the metrics' budgets (cutoff, stage f0 and Q) stay at the board temperature and
+    say so. With a service life the same is taken after it. Without either, ``budget`` as it is.
+
+    Parameters
+    ----------
+    design : Design
+        The design (its operating range and service life).
+    prep : Prepared
+        The prepared design.
+    ens : Ensemble
+        The sampled boards (margins (S, spans) the worst over the range, when it has one).
+    budget : dict of str to Budget
+        The budgets at the board temperature (:func:`filters.budget.spread_budget`); empty
+        when none were asked for.
+    over : OverTemperature or None
+        The boards over the operating range.
+    life : ServiceLife or None
+        The boards after the service life.
+
+    Returns
+    -------
+    tuple[dict, dict, ServiceLife or None]
+        The budgets (metric name -> Budget, fractions), the after-life margins' budgets
+        (empty without a service life), and ``life`` without its per-board arrays once
+        they are read (kept when no budget was asked for).
+    """
+    from .budget import worst_budget
+    from .temperature_text import DEGREE
+
+    if not budget or (over is None and life is None):
+        return budget, {}, life
+    a = design.analysis
+    temps = judged_temperatures(a)
+    where = ""
+    if over is not None:
+        lo, hi = over.range_c
+        where = f"{lo:g} to {hi:g} {DEGREE}"
+        ranged = worst_budget(ens, prep, over.worst_margins, over.worst_index,
+                              [judged_conditions(design, t) for t in temps],
+                              f"over {where}, worst judged temperature")
+        board_t = (f"at {a.conditions.temp_low_c:g} {DEGREE}" if a.conditions.temp_low_c == a.conditions.temp_high_c
+                   else "at the board temperature")
+        budget = {n: ranged.get(n) or replace(b, basis=b.basis or board_t) for n, b in budget.items()}
+    after: dict = {}
+    if life is not None and life.worst_margins is not None:
+        conds = ([judged_conditions(design, t, life.hours, life.temp_c) for t in temps] if temps else
+                 [replace(a.conditions, service_hours=life.hours, service_temp_c=life.temp_c)])
+        after = worst_budget(ens, prep, life.worst_margins, life.worst_index, conds,
+                             f"after {life.years:.3g} years" + (f", worst of {where}" if where else ""))
+        life = replace(life, worst_margins=None, worst_index=None)
+    return budget, after, life

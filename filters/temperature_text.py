@@ -22,9 +22,16 @@ __all__ = [
     "assumption_texts",
     "yield_note",
     "DEGREE",
+    "LIVED_BUDGET_NOTE",
 ]
 
 DEGREE = "\u00b0C"
+#: What a spread budget over an operating range or after a service life means (terminal, report, window).
+LIVED_BUDGET_NOTE = ("over a range each span's budget is that of the board's worst margin over the judged "
+                     "temperatures, fitted on the board's own parts as they are where that margin is smallest "
+                     "(tolerance, drawn temperature coefficient and, after the life, drift together); a part with "
+                     "a large share there is what moves boards out at the extremes or with age. The metrics' "
+                     "budgets (cutoff, stage f0 and Q) are at the board temperature")
 
 
 @dataclass(frozen=True)
@@ -115,7 +122,7 @@ def temperature_tables(result: Any) -> list[Table]:
         out.append(Table(
             f"SERVICE LIFE (the same boards at delivery and after {life.hours:,.0f} h = {years:.3g} years at "
             f"{life.temp_c:g} {DEGREE}, judged {where})",
-            ["", "at delivery", f"after {years:.3g} years"], rows, "<>>",
+            ["figure", "at delivery", f"after {years:.3g} years"], rows, "<>>",
             ["life drift: each grade's load-life rating (at rated power) scaled by sqrt(time) and an "
              "Arrhenius factor, class II ageing per decade of hours (README 'What the numbers mean'): a "
              "cautious estimate for parts run well below rated power; confirm with life tests of real parts"]))

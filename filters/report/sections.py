@@ -16,6 +16,7 @@ from ..metric_names import MATCH_WORDS, SPAN_UNIT, is_margin, is_pair_metric, ma
 from .charts import svg_bar_chart, svg_histogram, svg_spread_plot
 from .context import Context
 from .document import esc, figure, table
+from ..temperature_text import LIVED_BUDGET_NOTE
 from .numbers import format_count, format_metric, format_pct, format_quantity, format_sensitivity, summary_cells
 from .words import (INTERVAL_NAMES, MATCH_NOTE, METHOD_NAMES, describe_distribution, drift_text, opamp_text,
                     tempco_text)
@@ -262,9 +263,11 @@ def budget_section(ctx: Context) -> str:
         "per 1 % change of the part).</p>")
     names = [n for n in ("cutoff_hz", "bandwidth_hz") if n in result.budget]
     names += [n for n in result.budget if is_margin(n)]
-    for k, name in enumerate(names):
-        b = result.budget[name]
-        label = metric_label(name, stage_names, d.mask)
+    lived = [(n, result.budget[n]) for n in names] + [(n, b) for n, b in result.life_budget.items() if is_margin(n)]
+    if any(b.basis for _, b in lived):
+        add(f"<p>{esc(LIVED_BUDGET_NOTE[0].upper() + LIVED_BUDGET_NOTE[1:])}.</p>")
+    for k, (name, b) in enumerate(lived):
+        label = metric_label(name, stage_names, d.mask) + (f", {b.basis}" if b.basis else "")
         add(f"<h3>{esc(label)}</h3>")
         top = [e for e in b.entries if e.share > 0][:5]
         if not top and b.remainder == 0:

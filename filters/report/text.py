@@ -10,7 +10,7 @@ from .. import __version__, metric_names
 from ..analysis import AnalysisResult
 from ..metric_names import SPAN_UNIT, is_margin, is_pair_metric, metric_label
 from ..metrics import ATTENUATION_FLOOR_DB
-from ..temperature_text import temperature_json, temperature_tables, yield_note
+from ..temperature_text import LIVED_BUDGET_NOTE, temperature_json, temperature_tables, yield_note
 from .texttable import table
 from .numbers import format_metric, format_pct, format_quantity, summary_beyond_floor, summary_cells
 from .words import MATCH_NOTE
@@ -139,14 +139,19 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
     out.write("\nSPREAD BUDGET (share of variance explained by each part, top entries; one decimal, "
               "rounded so each line adds to 100 %)\n")
     rows = []
-    for name, b in result.budget.items():
+    lived = [*result.budget.items(), *result.life_budget.items()]
+    judged = any(b.basis for _, b in lived)  # over a range or after a life: say where each was taken
+    for name, b in lived:
         if name not in ("cutoff_hz", "centre_hz") and not is_margin(name):
             continue
         shares = b.rounded_percent(top)
-        rows.append([metric_label(name, names, d.mask),
+        rows.append([metric_label(name, names, d.mask), *([b.basis] if judged else []),
                      ", ".join(f"{ref} {v:.1f} %" for ref, v in shares) or "no spread"])
     if rows:
-        _write(out, table(["metric", "shares"], rows, "<<")[1:])
+        _write(out, table(["metric", "judged", "shares"] if judged else ["metric", "shares"], rows,
+                          "<<<" if judged else "<<")[1:])
+    if judged:
+        out.write(f"  note: {LIVED_BUDGET_NOTE}\n")
 
     c = result.corners
     kind = (f"all {c.boards:,} combinations of {c.varying_parts} parts at their limits" if c.exhaustive
@@ -236,6 +241,8 @@ def to_json(result: AnalysisResult) -> dict[str, Any]:
         "attenuation_floor_db": ATTENUATION_FLOOR_DB,
         "yield": y,
         "budget": {n: with_unit(n, b.to_dict()) for n, b in result.budget.items()},
+        **({"budget_after_life": {n: with_unit(n, b.to_dict()) for n, b in result.life_budget.items()}}
+           if result.life_budget else {}),
         "corners": corner_doc,
         "opamps": [dict(vars(r)) for r in result.opamps],
         **temperature_json(result),
