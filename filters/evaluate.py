@@ -299,9 +299,10 @@ def evaluate_values(prep: Prepared, values: np.ndarray, *, phase: bool = False,
         level = lowpass_level_db(coeffs, a.cutoff_db) if metrics and prep.circuit.kind == "lowpass" else None
         if level is not None:
             scan = GridScan(np.empty(s, dtype=np.intp), np.empty(s, dtype=np.intp), np.empty(s, dtype=bool))
+        # without gain curves to keep, the gain is judged as a power ratio (the same margins)
         for lo, hi, block in response_blocks(prep.circuit, coeffs, prep.freqs_hz, phase=want_phase,
                                              delay=want_delay, out_gain_db=gain, out_phase=ph,
-                                             out_delay=tau):
+                                             out_delay=tau, power=gain is None):
             marg[lo:hi] = margins(prep.plans, block)
             if level is not None:
                 scan.peak[lo:hi], scan.edge[lo:hi], scan.found[lo:hi] = scan_block(block.gain_db, level[lo:hi])

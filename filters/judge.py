@@ -10,10 +10,11 @@ Gains are compared in dB: the response's gain in dB (from the engine) minus the 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
-from .engine import Response
+from .engine import PowerResponse, Response
 from .mask import Span
 
 __all__ = [
@@ -33,14 +34,14 @@ class SpanPlan:
     index: np.ndarray      # grid indices inside [f1, f2] (consecutive: the grid is sorted)
     limit: np.ndarray      # limit at those points (dB, deg or s)
 
-    @property
+    @cached_property
     def columns(self) -> slice:
         """The grid columns of ``index`` as a slice (a view of a response, no copy)."""
         if self.index.size == 0:
             return slice(0, 0)
         return slice(int(self.index[0]), int(self.index[-1]) + 1)
 
-    @property
+    @cached_property
     def flat(self) -> float | None:
         """The limit when it is the same at every point of the span, else None."""
         if self.limit.size and np.all(self.limit == self.limit[0]):
@@ -80,7 +81,7 @@ def plan(mask: tuple[Span, ...], freqs_hz: np.ndarray, nominal_reference_db: flo
 JUDGE_ROWS = 256  # rows per block where a sloped limit needs a temporary (stays in cache)
 
 
-def margins(plans: list[SpanPlan], resp: Response) -> np.ndarray:
+def margins(plans: list[SpanPlan], resp: Response | PowerResponse) -> np.ndarray:
     """Margin of every sample on every span, shape (samples, spans).
 
     Gain spans: dB; phase spans: degrees; delay spans: seconds (limit minus the delay's
@@ -93,21 +94,30 @@ def margins(plans: list[SpanPlan], resp: Response) -> np.ndarray:
     rounding is monotonic, so this equals the smallest of the pointwise differences bit for
     bit. A sloped limit is subtracted in blocks of :data:`JUDGE_ROWS` rows.
 
+    A :class:`filters.engine.PowerResponse` (the gain still a power ratio) is judged to the
+    same numbers, bit for bit: a flat gain span takes the extreme power over its columns
+    and converts that one number per board to dB (the conversion is monotonic, so it is
+    the extreme of the converted points); a sloped one converts its own columns only.
+
     Parameters
     ----------
     plans : list of SpanPlan
         From :func:`plan`.
-    resp : Response
-        Responses (S, F): gain in dB, phase in deg, delay in s.
+    resp : Response or PowerResponse
+        Responses (S, F): gain in dB (or as a power ratio), phase in deg, delay in s.
 
     Returns
     -------
     np.ndarray
         (S, spans) float margins in each span's unit; positive passes.
     """
-    s = resp.gain_db.shape[0]
+    power = resp if isinstance(resp, PowerResponse) else None
+    s = (resp.power if power is not None else resp.gain_db).shape[0]
     out = np.empty((s, len(plans)))
+    done = _power_margins(power, plans, out) if power is not None else [False] * len(plans)
     for j, p in enumerate(plans):
+        if done[j]:  # judged from the power ratios already
+            continue
         q = p.span.quantity
         if p.span.kind == "match":  # rows here are one channel copied to all: no difference
             out[:, j] = p.limit.min() if p.limit.size else p.span.limit1
@@ -118,6 +128,7 @@ def margins(plans: list[SpanPlan], resp: Response) -> np.ndarray:
             out[:, j] = p.span.limit1 - (band.max(axis=1) - band.min(axis=1))
             continue
         if q == "gain":
+            assert isinstance(resp, Response)
             curves = resp.gain_db
         else:
             assert resp.phase_deg is not None, "phase spans need the phase"
@@ -148,6 +159,33 @@ def _span_margin(band: np.ndarray, p: SpanPlan, out: np.ndarray) -> None:
         else:
             d.max(axis=1, out=out[lo:hi])
             np.negative(out[lo:hi], out=out[lo:hi])
+
+
+def _power_margins(resp: PowerResponse, plans: list[SpanPlan], out: np.ndarray) -> list[bool]:
+    """:func:`_span_margin` of the gain floors and ceilings from the power ratios of
+    ``resp`` (S, F), into ``out`` (S, spans): the same numbers. A flat limit converts the
+    extreme power over the span (the lowest gain for a floor, the highest for a ceiling;
+    1/|H|^2 turns them over), all such spans in one conversion; a sloped one converts the
+    span's columns and judges them in dB. Returns which spans were judged."""
+    done = [p.span.quantity == "gain" and p.span.kind in ("floor", "ceiling") for p in plans]
+    flat = [j for j, p in enumerate(plans) if done[j] and p.flat is not None]
+    for j, p in enumerate(plans):
+        if done[j] and p.flat is None:
+            _span_margin(resp.gain_db(resp.power[:, p.columns]), p, out[:, j])
+    if not flat:
+        return done
+    extremes = np.empty((out.shape[0], len(flat)))
+    for k, j in enumerate(flat):
+        band = resp.power[:, plans[j].columns]
+        floor = plans[j].span.kind == "floor"
+        (band.max if floor == resp.inverse else band.min)(axis=1, out=extremes[:, k])
+    db = resp.gain_db(extremes)
+    db -= np.array([plans[j].flat for j in flat])
+    ceiling = [k for k, j in enumerate(flat) if plans[j].span.kind == "ceiling"]
+    if ceiling:  # -(max - limit), as _span_margin
+        db[:, ceiling] = -db[:, ceiling]
+    out[:, flat] = db
+    return done
 
 
 def needs(mask: tuple[Span, ...]) -> tuple[bool, bool]:

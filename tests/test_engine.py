@@ -405,6 +405,37 @@ def test_response_blocks_equal_the_whole_response_whatever_the_block(rows):
         np.testing.assert_array_equal(got["t"], whole.delay_s, err_msg=cid)
 
 
+def test_power_blocks_and_interleaved_calls_give_the_engines_numbers():
+    # source: [SCIPY] scipy.signal.freqs for |H|^2 (every case above); and the documented
+    # contract of response_blocks: power=True leaves the gain a power ratio whose
+    # PowerResponse.gain_db is the dB path's number bit for bit, and two calls interleaved
+    # on one thread (each reuses the thread's scratch only when it is free) do not
+    # overwrite each other's blocks
+    for cid, circuit, values in CASES:
+        coeffs = stage_coefficients(circuit, values)
+        whole = frequency_response(circuit, coeffs, FREQS, phase=True, delay=True)
+        outer = response_blocks(circuit, coeffs, FREQS, phase=True, delay=True, power=True, rows=2)
+        lo, hi, first = next(outer)
+        power = first.power.copy()
+        for lo2, hi2, blk in response_blocks(circuit, coeffs, FREQS, phase=True, rows=3):  # nested
+            np.testing.assert_array_equal(blk.gain_db, whole.gain_db[lo2:hi2], err_msg=cid)
+        np.testing.assert_array_equal(first.power, power, err_msg=cid)  # not overwritten
+        check_power_block(cid, coeffs, whole, lo, hi, first)
+        for lo, hi, blk in outer:  # each block checked before the next one takes its scratch
+            check_power_block(cid, coeffs, whole, lo, hi, blk)
+
+
+def check_power_block(cid, coeffs, whole, lo, hi, blk):
+    """A PowerResponse block against the dB path (bit for bit) and scipy.signal.freqs."""
+    np.testing.assert_array_equal(blk.gain_db(blk.power), whole.gain_db[lo:hi], err_msg=cid)
+    np.testing.assert_array_equal(blk.phase_deg, whole.phase_deg[lo:hi], err_msg=cid)
+    for i in range(lo, hi):
+        b, a = scipy_ba(coeffs, i)
+        _, h = scipy.signal.freqs(b, a, worN=TWO_PI * FREQS)
+        got = 1 / blk.power[i - lo] if blk.inverse else blk.power[i - lo]
+        np.testing.assert_allclose(got, np.abs(h) ** 2, rtol=1e-8, err_msg=cid)
+
+
 def test_response_blocks_keep_each_matrix_product_on_the_calling_thread():
     # source: OpenBLAS's default GEMM_MULTITHREAD_THRESHOLD (4): it threads a product of
     # m x n x k >= 2 x 65536 x 4 (interface/gemm.c, from memory); the engine's blocks stay
