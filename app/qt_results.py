@@ -9,7 +9,7 @@ from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QHeaderView, QLabel, QTab
                                QVBoxLayout, QWidget)
 
 from ..liveview import ViewData
-from ..temperature_text import yield_note
+from ..temperature_text import point_yields_note, yield_note
 from .qt_high_yield import high_yield_html
 from .qt_measured_yield import MeasuredYieldLine
 from .. import metric_names
@@ -128,7 +128,8 @@ class ResultsPanel(QWidget):
                 f"<span style='font-size:16pt'><b>yield {format_pct(y.estimate)}</b></span><br>"
                 f"{round(100 * y.confidence)} % interval {format_pct(y.low)} to {format_pct(y.high)} "
                 f"({'Wilson' if y.method == 'wilson' else 'exact'}), {y.passed:,} of {y.samples:,} boards pass"
-                + (f"<br>{note}" if (note := yield_note(view.result)) else ""))  # over a range, after a life
+                + (f"<br>{note}" if (note := yield_note(view.result)) else "")  # over a range, after a life
+                + (f"<br>{alone}" if (alone := point_yields_note(view.result)) else ""))  # over a range
         else:
             self.yield_label.setText("<b>no spec mask yet</b>: draw floor or ceiling spans on the gain plot")
         rare = high_yield_html(view.result) if view.design.mask and not view.preview else ""
