@@ -21,6 +21,7 @@ __all__ = [
     "physics_text",
     "assumption_texts",
     "yield_note",
+    "point_yields_note",
     "DEGREE",
     "LIVED_BUDGET_NOTE",
 ]
@@ -231,3 +232,26 @@ def yield_note(result: Any) -> str:
     if result.life is not None:
         parts.append(f"after {result.life.years:.3g} years: {format_pct(result.life.after.estimate)}")
     return "; ".join(parts)
+
+
+def point_yields_note(result: Any) -> str:
+    """One line with the yield at each judged temperature on its own (the same boards, each
+    temperature alone: e.g. "each temperature alone: -40 °C 90.48 %, 25 °C 90.72 %, 85 °C
+    90.58 %", no-break spaces inside each pair); "" without an operating range (or no result).
+
+    Parameters
+    ----------
+    result : AnalysisResult or None
+        An analysis result.
+
+    Returns
+    -------
+    str
+        The line ("" when there is nothing to say).
+    """
+    over = getattr(result, "temperature", None)
+    if over is None:
+        return ""
+    # no-break spaces inside each "temperature yield" pair: a narrow panel wraps between pairs
+    return "each temperature alone: " + ", ".join(
+        f"{_t(p.temperature_c)} {format_pct(p.yield_.estimate)}".replace(" ", "\u00a0") for p in over.points)

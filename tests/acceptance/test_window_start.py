@@ -1,8 +1,9 @@
 """Starting the window as ``tolspread`` and ``tolspread FILE`` do, and waiting for the
 first figures the way a person waits: nothing is computed for the window by the test.
 
-The yield shown is checked against the library (``tolspread.evaluate.evaluate`` and
-``tolspread.stats.yield_estimate``) on the design the window holds.
+The yield shown is checked against the library (``tolspread.temperature.judged_boards``:
+over the operating range as analyze judges, and ``tolspread.stats.yield_estimate``) on the
+design the window holds.
 """
 from __future__ import annotations
 
@@ -13,7 +14,7 @@ from PySide6.QtCore import QTimer
 from PySide6.QtWidgets import QApplication, QMessageBox
 
 from tolspread.designfile import demo_text, load, load_demo
-from tolspread.evaluate import evaluate
+from tolspread.temperature import judged_boards
 from tolspread.stats import yield_estimate
 
 from .conftest import START_MS, log_errors, main_windows, yield_shown
@@ -22,9 +23,11 @@ pytestmark = pytest.mark.gui
 
 
 def library_yield(design) -> float:
-    """The yield the library computes for ``design`` (the same boards the window samples)."""
+    """The yield the library computes for ``design`` (the same boards the window samples),
+    judged as the analysis judges them: over the operating range when it has one (the demo:
+    -40..85 degC; tests/acceptance/test_demo_over_range_window.py counts that independently)."""
     a = design.analysis
-    return yield_estimate(evaluate(design).passed, None, a.confidence, a.interval).estimate
+    return yield_estimate(judged_boards(design).passed, None, a.confidence, a.interval).estimate
 
 
 def small_design_file(tmp_path, samples: int = 2000, name: str = "small.json"):
