@@ -124,6 +124,7 @@ class MainWindow(QMainWindow, WindowFiles):
         s.evaluation_failed.connect(self._on_evaluation_failed)
         s.busy_changed.connect(self._on_busy_changed)
         s.busy_changed.connect(lambda busy: busy and self.results.measured_line.cancel())  # a newer evaluation
+        self.results.temperature_link.linkActivated.connect(lambda _link: self.open_temperature())
         s.progress.connect(self._on_progress)
         s.dirty_changed.connect(self._on_dirty_changed)
         s.path_changed.connect(self._on_path_changed)

@@ -55,7 +55,15 @@ class ResultsPanel(QWidget):
         self.measured.setWordWrap(True)
         self.measured.hide()
         self.measured_line = MeasuredYieldLine(self.measured, self)
+        # over a range or after a life: the way to the yield against temperature (app/qt_temperature.py)
+        from .qt_temperature import TEMPERATURE_LINK
+
+        self.temperature_link = QLabel(TEMPERATURE_LINK)
+        self.temperature_link.setObjectName("temperature_link")
+        self.temperature_link.setWordWrap(True)
+        self.temperature_link.hide()
         lay.addWidget(self.yield_label)
+        lay.addWidget(self.temperature_link)
         lay.addWidget(self.high_yield)
         lay.addWidget(self.measured)
         lay.addWidget(self.detail)
@@ -100,6 +108,11 @@ class ResultsPanel(QWidget):
         self.budget_heading.setObjectName("budget_heading")
         self.budget_heading.setWordWrap(True)
         lay.addWidget(self.budget_heading)
+        self.lived_budget = QLabel("")  # over a range: what the budget is of; after a life: that budget
+        self.lived_budget.setObjectName("lived_budget")
+        self.lived_budget.setWordWrap(True)
+        self.lived_budget.hide()
+        lay.addWidget(self.lived_budget)
         lay.addWidget(self.budget_plot, 2)
         self.opamp_note = QLabel("")
         self.opamp_note.setObjectName("opamp_note")
@@ -235,6 +248,13 @@ class ResultsPanel(QWidget):
         b = v.budget.get(self.metric_name)
         if b is None and v.preview:
             return  # a drag preview has no budget: keep the last one shown
+        from .qt_temperature import lived_budget_html
+
+        lived = lived_budget_html(v.result, self.metric_name)  # over a range, after a life
+        self.lived_budget.setText(lived)
+        self.lived_budget.setVisible(bool(lived))
+        self.temperature_link.setVisible(v.result is not None and (v.result.temperature is not None
+                                                                   or v.result.life is not None))
         self.budget_plot.clear()
         if b is None:
             self.budget_plot.setTitle("no budget for this metric")

@@ -20,15 +20,33 @@ from PySide6.QtWidgets import (QCheckBox, QDialog, QDoubleSpinBox, QFormLayout, 
 
 from ..bands import bands
 from ..design import Design
-from ..evaluate import evaluate
+from ..evaluate import evaluate, prepare
 from ..liveview import ViewData
-from ..sampling import Conditions
+from ..temperature import judged_conditions
 from ..temperature_settings import HOURS_PER_YEAR
 from ..report.numbers import format_pct
 from ..temperature_text import temperature_tables
 from . import qt_style as st
 
-__all__ = ["BAND_BOARDS", "TemperatureDialog", "parse_points"]
+__all__ = ["BAND_BOARDS", "TemperatureDialog", "parse_points", "lived_budget_html", "TEMPERATURE_LINK"]
+
+#: The results panel's link under the yield (shown over a range or after a life) that opens
+#: this window (Design > Temperature and service life).
+TEMPERATURE_LINK = "<a href='temperature'>yield against temperature, bands at a chosen temperature…</a>"
+
+
+def lived_budget_html(result, metric: str) -> str:
+    """What the budget of ``metric`` shown is of over a range (its basis) and, after the
+    service life, that budget's largest shares; "" at one temperature."""
+    if result is None:
+        return ""
+    b = result.budget.get(metric)
+    lines = [f"<i>{b.basis}</i>"] if b is not None and b.basis else []
+    after = result.life_budget.get(metric)
+    if after is not None:
+        shares = ", ".join(f"{ref} {v:.1f} %" for ref, v in after.rounded_percent(3))
+        lines.append(f"{after.basis}: {shares or 'no spread'}")
+    return "<br>".join(lines)
 
 BAND_BOARDS = 2000  # boards behind the bands at a chosen temperature (the design's first ones)
 
@@ -206,9 +224,17 @@ class TemperatureDialog(QDialog):
         else:
             lines.append("no operating range: each board is judged at the design's board temperature")
         if life is not None:
-            lines.append(f"after {life.years:.3g} years at {life.temp_c:g} °C: {format_pct(life.after.estimate)} "
-                         f"(at delivery {format_pct(life.delivery.estimate)}; life drift is a cautious estimate "
-                         "from the grades' load-life ratings)")
+            each = ""
+            if over is not None and life.after_points:  # the same boards after the life, at each temperature
+                ta = np.array([p.temperature_c for p in life.after_points])
+                ya = np.array([100 * p.yield_.estimate for p in life.after_points])
+                self.yield_plot.plot(ta, ya, pen=pg.mkPen("#009E73", width=2, style=Qt.PenStyle.DotLine),
+                                     symbol="s", symbolBrush="#009E73")
+                each = " (green squares: " + ", ".join(f"{p.temperature_c:g} °C {format_pct(p.yield_.estimate)}"
+                                                       for p in life.after_points) + ")"
+            lines.append(f"after {life.years:.3g} years at {life.temp_c:g} °C: {format_pct(life.after.estimate)}"
+                         f"{each}; at delivery {format_pct(life.delivery.estimate)}; life drift is a cautious "
+                         "estimate from the grades' load-life ratings")
         self.summary.setText("\n".join(lines))
         self._fill_shift_table(res)
 
@@ -233,8 +259,9 @@ class TemperatureDialog(QDialog):
         d = self._design
         t = float(self.band_temp.value())
         n = min(d.analysis.samples, BAND_BOARDS)
-        cond = Conditions(t, t, d.analysis.lot_share)
-        e = evaluate(d, samples=n, curves=True, phase=False, metrics=False, conditions=cond)
+        prep = prepare(d)
+        e = evaluate(d, samples=n, curves=True, phase=False, metrics=False, conditions=judged_conditions(d, t),
+                     prepared=prep)
         b = bands(e.gain_db)
         f = e.freqs_hz
         p = self.band_plot
@@ -244,6 +271,16 @@ class TemperatureDialog(QDialog):
         p.addItem(pg.FillBetweenItem(outer_lo, outer_hi, brush=pg.mkBrush(86, 180, 233, 60)))
         p.plot(f, b.inner_low, pen=pg.mkPen("#0072B2"))
         p.plot(f, b.inner_high, pen=pg.mkPen("#0072B2"))
+        # the mask's gain limits (relative spans at the nominal design's reference, as judged)
+        limits = [pl for pl in prep.plans if pl.span.quantity == "gain" and pl.index.size]
+        for pl in limits:
+            p.plot(f[pl.index], pl.limit, pen=pg.mkPen("#D55E00", width=2))
+        # gain from a little above the highest curve down to the lowest limit (or -60 dB
+        # below the top without a mask): the spread at the mask stays readable
+        top = max([float(np.nanmax(b.high))] + [float(pl.limit.max()) for pl in limits]) + 1.0
+        bottom = min(float(pl.limit.min()) for pl in limits) - 10.0 if limits else top - 60.0
+        p.setYRange(bottom, top, padding=0.02)
         passed = int(np.count_nonzero(e.passed))
-        self.band_note.setText(f"{n:,} boards at {t:g} °C: {100 * b.share:g} % band (dark) and min to max (light); "
+        self.band_note.setText(f"{n:,} boards at {t:g} °C: {100 * b.share:g} % band (dark) and min to max (light), "
+                               "the mask's gain limits in orange; "
                                f"{passed:,} of them meet the mask at this temperature")
