@@ -36,7 +36,9 @@ def _with_unit(edit: QLineEdit, unit: str) -> QWidget:
     lay = QHBoxLayout(box)
     lay.setContentsMargins(0, 0, 0, 0)
     lay.addWidget(edit, 1)
-    lay.addWidget(QLabel(unit))
+    label = QLabel(unit)
+    label.setMinimumWidth(label.fontMetrics().horizontalAdvance("ppm/K"))  # the fields line up
+    lay.addWidget(label)
     return box
 
 
@@ -74,7 +76,8 @@ class NetworkDialog(QDialog):
             item.setFlags(Qt.ItemFlag.ItemIsEnabled | Qt.ItemFlag.ItemIsUserCheckable)
             item.setCheckState(Qt.CheckState.Checked if ref in ticked else Qt.CheckState.Unchecked)
             self.members.addItem(item)
-        self.members.setMaximumHeight(max(60, min(8, self.members.count()) * 22 + 6))
+        rows = max(3, min(8, self.members.count()))
+        self.members.setFixedHeight(rows * (self.members.fontMetrics().height() + 4) + 8)
         self.tolerance = QLineEdit()
         self.tolerance.setObjectName("network_tolerance")
         self.tolerance.setToolTip(f"each member's absolute tolerance, ± % of its marked value, above 0 and at most "
@@ -224,3 +227,4 @@ class NetworkDialog(QDialog):
         more = f" (and {len(problems) - 1} more)" if len(problems) > 1 else ""
         self.problem.setText(f"{first}{more}; nothing is changed until OK is accepted")
         self.problem.show()
+        self.resize(self.width(), max(self.height(), self.sizeHint().height()))  # room for the message

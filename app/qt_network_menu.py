@@ -101,6 +101,10 @@ def new_network(w, refs: list[str] | None = None) -> None:
     from .qt_network_dialog import NetworkDialog
 
     d = w.session.design
+    if not edits.candidates(d):
+        w.show_problem("No part to put in a network", "every resistor, capacitor and inductor is in a network "
+                       "already: take parts out of one, or dissolve it, first")
+        return
     chosen = list(dict.fromkeys([*(refs or []), *w.parts.chosen]))
     dlg = NetworkDialog(d, None, chosen, w)
     w.network_dialog = dlg

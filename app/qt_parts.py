@@ -52,7 +52,8 @@ def part_groups(design: Design) -> list[tuple[str, str, tuple[str, ...]]]:
     out = [("channels" if heading else "", heading, tuple(p.ref for p in design.parts if p.ref not in members))]
     for net in design.networks:
         where = ", one package for all channels" if net.across_channels and design.channels.count > 1 else ""
-        out.append((net.name, f"<b>{net.name}</b> network: ±{net.tolerance_pct:g} %, ratio ±{net.ratio_pct:g} %, "
+        what = "matched pair" if len(net.members) == 2 else "network"
+        out.append((net.name, f"<b>{net.name}</b> {what}: ±{net.tolerance_pct:g} %, ratio ±{net.ratio_pct:g} %, "
                               f"tracking {net.tracking_ppm:g} ppm/K{where}", net.members))
     return out
 

@@ -393,17 +393,25 @@ def test_negative_values_get_the_fields_own_message(args, field, tmp_path):
     assert not (tmp_path / "x.json").exists()
 
 
-def _block(text: str, first: str) -> list[str]:
-    """The lines of the table whose header line starts with ``first`` (up to a blank line
-    or a note)."""
+def _blocks(text: str, first: str) -> list[list[str]]:
+    """The lines of every table whose header line starts with ``first`` (each up to a blank
+    line or a note)."""
     lines = text.splitlines()
-    i = next(k for k, line in enumerate(lines) if line.strip().startswith(first))
     out = []
-    for line in lines[i:]:
-        if not line.strip() or line.strip().startswith("note:"):
-            break
-        out.append(line)
+    for i in (k for k, line in enumerate(lines) if line.strip().startswith(first)):
+        block = []
+        for line in lines[i:]:
+            if not line.strip() or line.strip().startswith("note:"):
+                break
+            block.append(line)
+        out.append(block)
     return out
+
+
+def _block(text: str, first: str, containing: str = "") -> list[str]:
+    """The lines of the first table whose header line starts with ``first`` and holds
+    ``containing`` (up to a blank line or a note)."""
+    return next(b for b in _blocks(text, first) if containing in b[0])
 
 
 def _long_names_design(tmp_path: Path) -> Path:
@@ -427,16 +435,18 @@ def test_analyze_tables_align_with_long_names_and_agree_with_json(tmp_path):
     y = doc["yield"]
     assert f"{y['passed']:,} of {y['samples']:,} boards pass" in out
     for first in ("metric ", "span "):
-        block = _block(out, first)
-        header = block[0]
-        # right-aligned columns: every row ends where the header ends, and each header
-        # word's right edge is a column edge that every row respects (a space or the end)
-        assert all(len(r) == len(header) for r in block), block
-        edges = [m.end() for m in __import__("re").finditer(r"\S+(?= {2}|$)", header)][1:]
-        for r in block[1:]:
-            for e in edges:
-                assert e == len(r) or r[e] == " ", (r, e)
-    metrics = _block(out, "metric ")
+        # every such table: over the demo's operating range the span and metric tables per
+        # temperature too
+        for block in _blocks(out, first):
+            header = block[0]
+            # right-aligned columns: every row ends where the header ends, and each header
+            # word's right edge is a column edge that every row respects (a space or the end)
+            assert all(len(r) == len(header) for r in block), block
+            edges = [m.end() for m in __import__("re").finditer(r"\S+(?= {2}|$)", header)][1:]
+            for r in block[1:]:
+                for e in edges:
+                    assert e == len(r) or r[e] == " ", (r, e)
+    metrics = _block(out, "metric ", " std/mean")
     # standard deviations carry no sign: the std column ends where its header word ends
     h = metrics[0]
     for r in metrics[1:]:

@@ -22,7 +22,9 @@ from tolspread.designfile import load_demo
 from tolspread.evaluate import evaluate
 from tolspread.report import (CAUTION, FIGURE_BOARDS, build_report, format_pct, svg_bar_chart, svg_cost_yield,
                               svg_histogram, svg_spread_plot, write_report)
+from tolspread.sampling import Conditions
 from tolspread.stats import yield_estimate
+from tolspread.temperature_settings import judged_temperatures
 from tolspread.values import format_value
 
 WHEN = datetime(2026, 1, 2, 3, 4)
@@ -314,7 +316,13 @@ def test_spread_figure_draws_the_first_boards_of_the_run(demo):
     curves = evaluate(design, samples=2000, seed=result.seed, curves=True)
     assert result.curves is not None and result.curves.boards == 2000
     np.testing.assert_array_equal(result.curves.gain_db, curves.gain_db)
-    np.testing.assert_array_equal(result.ensemble.margins, curves.margins)
+    np.testing.assert_array_equal(result.ensemble.values, curves.values)
+    # the demo is judged over its operating range: a board's margin is its smallest over the
+    # judged temperatures, each evaluated here alone (25 degC is the curves' own run)
+    alone = [evaluate(design, samples=2000, seed=result.seed, curves=False, conditions=Conditions(t, t)).margins
+             for t in judged_temperatures(design.analysis)]
+    assert len(alone) == 3
+    np.testing.assert_array_equal(result.ensemble.margins, np.minimum.reduce(alone))
     with pytest.raises(ValueError, match="curves"):
         build_report(analyze(design, samples=300), generated=WHEN)  # no curves kept: said, not evaluated again
 
@@ -338,7 +346,8 @@ def test_the_report_path_evaluates_each_board_once(tmp_path, monkeypatch):
     entry (tolspread.evaluate.evaluate, wherever it was imported) cover the run's boards
     without overlap. Before the one pipeline, the report evaluated its figure's boards again.
     The robustness table's other distribution shapes are other designs (reshaped grades), each
-    evaluated once on the same boards; "as graded" is the analysis's own (issue 16 item 6)."""
+    evaluated once on the same boards; "as graded" is the analysis's own (issue 16 item 6),
+    except over an operating range (the demo's), where every shape is judged over the range."""
     import sys
 
     import tolspread.evaluate as ev
@@ -361,7 +370,14 @@ def test_the_report_path_evaluates_each_board_once(tmp_path, monkeypatch):
 
     demo = load_demo()
     ranges = sorted((start, start + n) for start, n, cond, d in calls if cond is None and d == demo)
-    assert len([d for *_, d in calls if d != demo]) == len(SHAPES) - 1  # one run per other shape
+    # one run per other shape; the demo is judged over its operating range, so "as graded"
+    # is judged over it by a run of its own too (without a range it is the analysis's own),
+    # and each shape's boards at each judged temperature (the calls with conditions), once each
+    others = [(cond, d) for *_, cond, d in calls if d != demo]
+    temps = judged_temperatures(demo.analysis)
+    assert len(temps) == 3 and len([d for cond, d in others if cond is None]) == len(SHAPES)
+    judged = [(repr(cond), repr(d)) for cond, d in others if cond is not None]
+    assert len(judged) == len(set(judged)) == len(SHAPES) * len(temps)
     assert ranges[0][0] == 0 and ranges[-1][1] == 2500
     assert all(a[1] == b[0] for a, b in zip(ranges, ranges[1:]))  # contiguous, no board twice
     assert "Spread of the response" in out.read_text(encoding="utf-8")
@@ -615,9 +631,10 @@ def test_description_is_generated_from_the_design():
     assert "at least 37 dB of rejection" in summary  # the demo's -37 dB ceiling
     assert "40 dB" not in doc  # no fixed claim that disagrees with the mask
     assert "thick film, capacitors 5 % C0G" not in doc
-    # the designer's own words, when shown, are marked as such
-    notes = tables_of(doc).paragraphs.get("note", [])
-    assert all(n.startswith("Note from the design file") for n in notes)
+    # the designer's own words, when shown, are marked as such (the other notes are the
+    # temperature and life tables' own: the demo is judged over a range and a life)
+    notes = [n for n in tables_of(doc).paragraphs.get("note", []) if design.description[:40] in n]
+    assert notes and all(n.startswith("Note from the design file") for n in notes)
 
 
 def test_opamp_of_a_stage_is_not_named_by_the_topology_role(demo_html):
