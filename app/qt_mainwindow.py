@@ -24,6 +24,7 @@ from ..liveview import ViewData
 from ..mask import Span
 
 from . import userfiles
+from .qt_channel_dock import install_channel_views
 from .qt_circuit_dock import install_circuit_docks
 from .qt_exports import WindowExports
 from .qt_masktable import SpanTable
@@ -72,6 +73,7 @@ class MainWindow(QMainWindow, WindowFiles):
         self.dock_results = self._dock(self.results, "Yield and spread budget", "dock_results",
                                        Qt.DockWidgetArea.RightDockWidgetArea)
         install_circuit_docks(self)  # the stage's schematic above the parts, the stage editor beside them
+        install_channel_views(self)  # the Channels tab beside the parts, Channel match beside the plots
         self.exports = WindowExports(self)
         self.recommend_dialog = None  # the Find cheapest grades dialog, once opened (its result goes in the report)
         build_menus(self)

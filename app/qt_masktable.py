@@ -1,5 +1,7 @@
 """The span table: every mask span with its numbers, editable, for what the mouse does
-roughly (sloped limits, exact edges, phase and delay spans).
+roughly (sloped limits, exact edges, phase and delay spans, and the match spans of a
+design of several channels: gain, phase or group-delay difference between channels, added
+by the Add match span menu, which is enabled from two channels on).
 
 Each limit cell carries its unit: dB (gain), deg (phase) or seconds with an SI prefix
 (delay, e.g. "100 µs"). A number typed without a unit is in the unit the cell shows; an SI
@@ -13,7 +15,7 @@ from __future__ import annotations
 
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QBrush, QColor
-from PySide6.QtWidgets import (QHBoxLayout, QHeaderView, QLabel, QPushButton, QTableWidget,
+from PySide6.QtWidgets import (QHBoxLayout, QHeaderView, QLabel, QMenu, QPushButton, QTableWidget,
                                QTableWidgetItem, QVBoxLayout, QWidget)
 
 from ..design import check_span_limits
@@ -28,6 +30,9 @@ from .qt_units import eng, parse_in_unit, prefix_for
 COLUMNS = ["name", "quantity", "kind", "f1 (Hz)", "f2 (Hz)", "limit at f1", "limit at f2", "relative"]
 NAME_COLUMN, F1_COLUMN, F2_COLUMN, LIMIT1_COLUMN, LIMIT2_COLUMN, RELATIVE_COLUMN = 0, 3, 4, 5, 6, 7
 INVALID_BRUSH = QBrush(QColor("#fde2d6"))  # the parts panel's colour for a refused entry
+#: A new match span's limit by quantity (dB, deg, s) and its menu entry
+MATCH_DEFAULTS = {"gain": (0.1, "gain difference (dB)"), "phase": (1.0, "phase difference (deg)"),
+                  "delay": (1e-6, "group-delay difference (s)")}
 FIELD_WORDS = {F1_COLUMN: "f1", F2_COLUMN: "f2", LIMIT1_COLUMN: "the limit at f1", LIMIT2_COLUMN: "the limit at f2"}
 
 
@@ -67,6 +72,17 @@ class SpanTable(QWidget):
         row = QHBoxLayout()
         self.add_phase = QPushButton("Add phase span")
         self.add_delay = QPushButton("Add delay-variation span")
+        self.add_match = QPushButton("Add match span")
+        self.add_match.setObjectName("add_match_span")
+        self.match_menu = QMenu(self.add_match)
+        self.match_actions = {}
+        for q, (_, words) in MATCH_DEFAULTS.items():
+            a = self.match_menu.addAction(words)
+            a.setObjectName(f"add_match_{q}")
+            a.triggered.connect(lambda _checked=False, q=q: self._add_match(q))
+            self.match_actions[q] = a
+        self.add_match.setMenu(self.match_menu)
+        self.set_channel_count(1)
         self.delete = QPushButton("Delete span")
         self.delete.setObjectName("delete_span")
         self.hint = QLabel("Draw gain spans on the gain plot; edit any number here (Enter applies). "
@@ -74,7 +90,7 @@ class SpanTable(QWidget):
         self.hint.setObjectName("span_hint")
         self.hint.setWordWrap(True)
         self.hint.setStyleSheet("color: #555;")
-        for w in (self.add_phase, self.add_delay, self.delete):
+        for w in (self.add_phase, self.add_delay, self.add_match, self.delete):
             row.addWidget(w)
         row.addStretch(1)
         lay.addLayout(row)
@@ -114,12 +130,14 @@ class SpanTable(QWidget):
         for i, s in enumerate(spans):
             unit = SPAN_UNIT[s.quantity]
             gain = s.quantity == "gain"
-            limit2 = "" if s.limit2 is None or s.quantity == "delay" else eng(s.limit2, unit, 6)
+            match = s.kind == "match"
+            gain = gain and not match  # a match span is a difference: never relative
+            limit2 = "" if s.limit2 is None or (s.quantity == "delay" and not match) else eng(s.limit2, unit, 6)
             cells = [s.label, s.quantity, s.kind, format_value(s.f1, digits=5), format_value(s.f2, digits=5),
                      eng(s.limit1, unit, 6), limit2, ("yes" if s.relative else "no") if gain else ""]
             for j, text in enumerate(cells):
                 item = QTableWidgetItem(text)
-                fixed = j in (1, 2) or (j == LIMIT2_COLUMN and s.quantity == "delay") or (
+                fixed = j in (1, 2) or (j == LIMIT2_COLUMN and s.quantity == "delay" and not match) or (
                     j == RELATIVE_COLUMN and not gain)
                 if fixed:
                     item.setFlags(item.flags() & ~Qt.ItemFlag.ItemIsEditable)
@@ -192,8 +210,9 @@ class SpanTable(QWidget):
             else:
                 shown = old.limit1 if j == LIMIT1_COLUMN or old.limit2 is None else old.limit2
                 v = parse_in_unit(text, unit, prefix_for(shown)[1], field)
-                if old.quantity == "delay" and not v > 0:
-                    raise InputError(f"{field} must be above 0 s", field)
+                if (old.quantity == "delay" or old.kind == "match") and not v > 0:
+                    raise InputError(f"{field} must be above 0 {unit}"
+                                     + (" (a difference between channels)" if old.kind == "match" else ""), field)
                 d["limit1" if j == LIMIT1_COLUMN else "limit2"] = v
         elif j == RELATIVE_COLUMN:
             d["relative"] = text.lower() in ("yes", "y", "true", "1", "relative")
@@ -237,6 +256,19 @@ class SpanTable(QWidget):
         i = self.selected()
         if i >= 0:
             self.span_deleted.emit(i)
+
+    def set_channel_count(self, n: int) -> None:
+        """Match spans need two channels or more: the Add match span menu follows ``n``."""
+        self.add_match.setEnabled(n > 1)
+        self.add_match.setToolTip("a limit on the difference between channels (gain, phase or group delay)"
+                                  if n > 1 else "needs two channels or more (the Channels tab)")
+
+    def _add_match(self, quantity: str) -> None:
+        lo, hi = self._f_range
+        limit, _ = MATCH_DEFAULTS[quantity]
+        span = Span(kind="match", f1=lo, f2=lo * (hi / lo) ** 0.4, limit1=limit, quantity=quantity,  # type: ignore[arg-type]
+                    name=unique_span_name(f"{quantity} match", self._spans))
+        self.span_added.emit(span)
 
     def _add(self, quantity: str) -> None:
         lo, hi = self._f_range

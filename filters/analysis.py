@@ -51,6 +51,9 @@ class Curves:
     ``freqs_hz`` (F,); ``gain_db`` and ``second`` (N, F): gain in dB and the ``second``
     quantity (phase in degrees or group delay in s); ``passed`` (N,) whether each of these
     boards meets the mask; ``gain_bands`` and ``second_bands`` per frequency (F,) each.
+    Boards of several channels with match spans: ``channel_spread`` match quantity -> (N, F)
+    the largest difference between any two channels (dB, deg or s) and ``spread_bands``
+    its bands (:mod:`filters.channel_match`); else both empty.
     """
 
     second_kind: SecondQuantity
@@ -61,6 +64,8 @@ class Curves:
     gain_bands: Bands
     second_bands: Bands
     start: int = 0  # the first board's index in the seed's sequence
+    channel_spread: dict[str, np.ndarray] = field(default_factory=dict)
+    spread_bands: dict[str, Bands] = field(default_factory=dict)
 
     @property
     def boards(self) -> int:
@@ -72,7 +77,9 @@ class Curves:
         if n >= self.boards:
             return self
         g, s2 = self.gain_db[:n], self.second[:n]
-        return Curves(self.second_kind, self.freqs_hz, g, s2, self.passed[:n], bands(g), bands(s2), self.start)
+        spread = {q: v[:n] for q, v in self.channel_spread.items()}
+        return Curves(self.second_kind, self.freqs_hz, g, s2, self.passed[:n], bands(g), bands(s2), self.start,
+                      spread, {q: bands(v) for q, v in spread.items()})
 
 
 @dataclass(frozen=True)
@@ -191,7 +198,7 @@ class _Runner:
         second = h.delay_s if self.second == "delay" else h.phase_deg
         assert h.gain_db is not None and second is not None
         return Curves(self.second, h.freqs_hz, h.gain_db, second, passed[:h.samples], bands(h.gain_db),
-                      bands(second), h.start)
+                      bands(second), h.start, h.channel_spread, {q: bands(v) for q, v in h.channel_spread.items()})
 
 
 def analyze(design: Design, *, samples: int | None = None, seed: int | None = None,
