@@ -42,6 +42,9 @@ __all__ = [
     "PowerResponse",
     "BLOCK_ROWS",
     "BLAS_SOLO_SIZE",
+    "SCRATCH_KEPT",
+    "take_scratch",
+    "give_scratch",
     "frequency_response",
     "response_blocks",
     "gain2_at",
@@ -323,32 +326,58 @@ BLOCK_ROWS = 256  # samples per block at most: 128-256 measured 5-15 % faster th
 #: Threaded or not, every element comes from the same kernel: the numbers do not change.
 BLAS_SOLO_SIZE = 400_000
 
-#: Per thread, scratch memory for :func:`response_blocks` kept from one call to the next:
+#: Per thread and use, scratch memory kept from one call to the next (:func:`take_scratch`):
 #: fresh arrays of a block's size cost a page fault per 4 kB page on every call (about
 #: 750 faults, 1.3 ms of CPU for 5,000 boards x 404 frequencies here), reused ones none.
 _SCRATCH = threading.local()
-SCRATCH_KEPT = 4_000_000  # floats kept per thread at most (32 MB)
+SCRATCH_KEPT = 4_000_000  # floats kept per thread and use at most (32 MB)
 
 
-def _take_scratch(count: int, rows: int, cols: int) -> tuple[np.ndarray, list[np.ndarray]]:
-    """``count`` scratch arrays (rows, cols), views of one buffer that is this thread's
-    kept buffer when it is large enough (taken: a nested call gets its own), else new.
-    Returns the buffer (for :func:`_give_scratch`) and the arrays."""
+def take_scratch(count: int, rows: int, cols: int, use: str = "blocks") -> tuple[np.ndarray, list[np.ndarray]]:
+    """``count`` scratch float arrays (rows, cols), views of one buffer: this thread's kept
+    buffer for ``use`` when it is large enough (taken, so a nested call gets its own),
+    else a new one. Give the buffer back with :func:`give_scratch` when done.
+
+    Parameters
+    ----------
+    count : int
+        Number of arrays.
+    rows : int
+        Rows of each array.
+    cols : int
+        Columns of each array.
+    use : str
+        What the memory is for (one kept buffer per use and thread).
+
+    Returns
+    -------
+    tuple[np.ndarray, list[np.ndarray]]
+        The buffer (flat) and the ``count`` arrays (rows, cols), contents undefined.
+    """
     each = -(-rows * cols // 8) * 8  # whole 64-byte lines apart
-    kept = getattr(_SCRATCH, "buffer", None)
+    kept = getattr(_SCRATCH, use, None)
     if kept is not None and kept.size >= count * each:
-        _SCRATCH.buffer = None
+        setattr(_SCRATCH, use, None)
         buf = kept
     else:
         buf = np.empty(count * each)
     return buf, [buf[k * each:k * each + rows * cols].reshape(rows, cols) for k in range(count)]
 
 
-def _give_scratch(buf: np.ndarray) -> None:
-    """Keep ``buf`` for this thread's next :func:`_take_scratch` (the larger of two)."""
-    kept = getattr(_SCRATCH, "buffer", None)
+def give_scratch(buf: np.ndarray, use: str = "blocks") -> None:
+    """Keep ``buf`` (from :func:`take_scratch`) for this thread's next call for ``use``
+    (the larger of two; none above :data:`SCRATCH_KEPT` floats).
+
+    Parameters
+    ----------
+    buf : np.ndarray
+        The buffer :func:`take_scratch` returned; nothing may read its arrays any more.
+    use : str
+        What the memory is for.
+    """
+    kept = getattr(_SCRATCH, use, None)
     if buf.size <= SCRATCH_KEPT and (kept is None or kept.size < buf.size):
-        _SCRATCH.buffer = buf
+        setattr(_SCRATCH, use, buf)
 
 
 @dataclass(frozen=True)
@@ -617,7 +646,7 @@ def response_blocks(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz:
     uniform = bool(np.all(offset == offset[0]))
     n_bufs = 8 if general else 4 if len(groups) > 1 else 3
     owned = [out_gain_db is None, phase and out_phase is None, delay and out_delay is None]
-    scratch, arrays = _take_scratch(n_bufs + sum(owned), n_rows, f.size)
+    scratch, arrays = take_scratch(n_bufs + sum(owned), n_rows, f.size)
     bufs = arrays[:n_bufs]
     own = iter(arrays[n_bufs:])
     own_gain, own_ph, own_tau = (next(own) if o else None for o in owned)
@@ -641,7 +670,7 @@ def response_blocks(circuit: Circuit, coeffs: list[StageCoefficients], freqs_hz:
                 g_b[z] = (math.inf if inverse else 0.0) if power else -GAIN_DB_LIMIT
             yield lo, hi, PowerResponse(f, g_b, inverse, ph_b, tau_b) if power else Response(f, g_b, ph_b, tau_b)
     finally:  # the scratch arrays serve this thread's next call (and the blocks they held)
-        _give_scratch(scratch)
+        give_scratch(scratch)
 
 
 def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: int, hi: int,
