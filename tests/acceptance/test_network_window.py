@@ -161,6 +161,7 @@ def networks_held(window) -> list[dict]:
 
 
 # --- 1. making networks on parts bought separately ---------------------------------------------------
+@pytest.mark.slow  # about 5 s on a loaded machine (two 'tolspread analyze' processes); run by default
 def test_design_menu_makes_a_network_of_the_chosen_parts(starter, qtbot, answers, shown, tmp_path):
     """RN1 from four chosen resistors (Design menu), CP1 from a part's menu: the same file as
     the example's; each is one undoable edit; the yield is analyze's for the saved file."""
@@ -242,6 +243,7 @@ def test_design_menu_makes_a_network_of_the_chosen_parts(starter, qtbot, answers
 
 
 # --- 2. changing networks ------------------------------------------------------------------------------
+@pytest.mark.slow  # about 5 s on a loaded machine (two 'tolspread analyze' processes); run by default
 def test_add_take_out_edit_and_dissolve_are_each_one_undoable_edit(starter, qtbot, answers, shown, tmp_path):
     path = design_file(tmp_path, networks=True)
     w = starter.launch(str(path))
@@ -405,4 +407,30 @@ def test_stage_dc_bias_field_is_checked_undoable_and_saved(starter, qtbot, answe
     assert json.loads(w.session.text())["stages"][0]["bias_v"] == 3.0 and ed.bias.text() == "3 V"
     undo_key(qtbot, w)
     assert w.session.text() == original and ed.bias.text() == ""
+    assert not shown.errors()
+
+
+def test_one_package_for_every_channel_is_edited_in_the_dialog(starter, qtbot, answers, shown, tmp_path):
+    """The I/Q example (two channels, RN1 one package for both): untick "one package serves
+    every channel" in RN1's dialog; the file says so, the yield is analyze's, Ctrl+Z restores."""
+    data = json.loads((EXAMPLE.parent / "matched_iq_channels.json").read_text(encoding="utf-8"))
+    data["analysis"]["samples"] = 1000
+    path = tmp_path / "iq.json"
+    path.write_text(json.dumps(data), encoding="utf-8")
+    w = starter.launch(str(path))
+    wait_idle(qtbot, w)
+    original = w.session.text()
+
+    def untick(dlg, seen):
+        seen["shown"], seen["ticked"] = dlg.across.isVisible(), dlg.across.isChecked()
+        QTest.mouseClick(dlg.across, Qt.MouseButton.LeftButton)
+        click_ok(dlg)
+    state, seen = fill_dialog(untick)
+    heading_entry(qtbot, w, "RN1", "network_edit")
+    assert not state["stuck"] and seen == {"title": "Network RN1", "shown": True, "ticked": True}
+    assert "across_channels" not in networks_held(w)[0]
+    saved = assert_window_yield_is_analyzes(qtbot, w, answers, tmp_path, "iq_two_packages.json")
+    assert "across_channels" not in saved["networks"][0] and saved["networks"][0]["members"] == ["R1", "R2"]
+    undo_key(qtbot, w)
+    assert w.session.text() == original
     assert not shown.errors()
