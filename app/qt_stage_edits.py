@@ -60,9 +60,30 @@ def add_part(data: Data, kind: str, catalog: Catalog, ref: str | None = None) ->
 
 def prune_parts(data: Data) -> Data:
     """``data`` without the parts no stage uses any more (the loader refuses a part that
-    fills no role): a part goes with the element, role or stage that used it."""
+    fills no role): a part goes with the element, role or stage that used it, and out of
+    its network (a network left with fewer than two members goes) and the channels' shared
+    parts."""
     used = used_refs(data)
     data["parts"] = [p for p in data["parts"] if p["ref"] in used]
+    kept = {p["ref"] for p in data["parts"]}
+    return _follow_refs(data, lambda ref: ref if ref in kept else None)
+
+
+def _follow_refs(data: Data, new_ref) -> Data:
+    """Networks' members and the channels' shared parts renamed by ``new_ref(ref)`` (None:
+    the part is gone); a network left with fewer than two members goes."""
+    nets = []
+    for net in data.get("networks", []):
+        members = [m2 for m in net.get("members", []) if (m2 := new_ref(m)) is not None]
+        if len(members) >= 2:
+            nets.append({**net, "members": members})
+    if nets:
+        data["networks"] = nets
+    else:
+        data.pop("networks", None)
+    ch = data.get("channels")
+    if isinstance(ch, dict) and "shared" in ch:
+        ch["shared"] = [r2 for r in ch["shared"] if (r2 := new_ref(r)) is not None]
     return data
 
 
@@ -235,6 +256,7 @@ def set_circuit(data: Data, index: int, elements: list[list[str]], opamps: list[
                 if p["ref"] == was:
                     p["ref"] = now
             refs = (refs - {was}) | {now}
+            _follow_refs(out, lambda ref, was=was, now=now: now if ref == was else ref)  # its network keeps it
     stage["elements"] = [{"ref": r[0], "between": [r[1], r[2]]} for r in elements]
     if opamps:
         stage["opamps"] = [{"ref": r[0], "plus": r[1], "minus": r[2], "output": r[3]} for r in opamps]

@@ -25,7 +25,7 @@ from PySide6.QtTest import QTest
 from PySide6.QtWidgets import QApplication, QDialog, QMenu
 
 from .conftest import close_later, run_cli, wait_idle, yield_shown
-from .test_stage_editing import bring_tab_forward, choose
+from .test_stage_editing import bring_tab_forward, choose, retype_cell
 
 pytestmark = pytest.mark.gui
 
@@ -433,4 +433,31 @@ def test_one_package_for_every_channel_is_edited_in_the_dialog(starter, qtbot, a
     assert "across_channels" not in saved["networks"][0] and saved["networks"][0]["members"] == ["R1", "R2"]
     undo_key(qtbot, w)
     assert w.session.text() == original
+    assert not shown.errors()
+
+
+def test_stage_edits_carry_network_members_along(starter, qtbot, answers, shown, tmp_path):
+    """A network's members follow the Stages tab's edits: a topology that drops RG takes it
+    out of RN1, a part renamed in a circuit's table stays in its network under its new name
+    (both were refused before: the network named a part no longer there)."""
+    w = starter.launch(str(design_file(tmp_path, networks=True)))
+    wait_idle(qtbot, w)
+    original = w.session.text()
+    ed = w.stage_editor
+    bring_tab_forward(qtbot, w, "Stages")
+    choose(qtbot, ed.topology, "mfb_lowpass")   # a multiple-feedback low-pass: three resistors, two capacitors
+    qtbot.waitUntil(lambda: json.loads(w.session.text())["stages"][0]["topology"] == "mfb_lowpass", timeout=5000)
+    parts = {p["ref"] for p in json.loads(w.session.text())["parts"]}
+    assert "RG" not in parts
+    assert networks_held(w)[0]["members"] == [m for m in RN1["members"] if m in parts]
+    undo_key(qtbot, w)
+    assert w.session.text() == original
+
+    choose(qtbot, ed.topology, "circuit")
+    qtbot.waitUntil(lambda: json.loads(w.session.text())["stages"][0]["topology"] == "circuit", timeout=5000)
+    row = next(r for r in range(ed.elements.rowCount()) if ed.elements.item(r, 0).text() == "C2")
+    retype_cell(qtbot, ed.elements, row, 0, "CX")
+    qtbot.waitUntil(lambda: "CX" in {p["ref"] for p in json.loads(w.session.text())["parts"]}, timeout=5000)
+    assert networks_held(w)[1]["members"] == ["C1", "CX"] and not ed.problem.isVisible()
+    assert "CX" in w.parts.rows and "CP1" in w.parts.group_labels
     assert not shown.errors()
