@@ -16,6 +16,8 @@ Nothing here computes: the differences and their bands come with the view
 """
 from __future__ import annotations
 
+import html
+
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QPointF, Qt
@@ -34,6 +36,7 @@ from .qt_plots import _FrequencyAxis
 from .qt_units import eng, prefix_for
 
 AXIS_WORDS = {"gain": "gain difference", "phase": "phase difference", "delay": "group-delay difference"}
+AXIS_LABELS = {"gain": "Δ gain", "phase": "Δ phase", "delay": "Δ group delay"}  # short: three plots may share the height
 HEADROOM = 1.25  # the y range reaches this far above the highest band or limit
 
 
@@ -95,15 +98,15 @@ class MismatchPlots(QWidget):
             self._draw_limits(q, view.freqs_hz, limits, factor)
             plot = self.plots[q]
             unit = SPAN_UNIT[q]
-            plot.setLabel("left", f"{AXIS_WORDS[q]} ({prefix_for(top)[0] if q == 'delay' else ''}{unit})")
+            plot.setLabel("left", f"{AXIS_LABELS[q]} ({prefix_for(top)[0] if q == 'delay' else ''}{unit})")
             plot.setXRange(float(x[0]), float(x[-1]), padding=0)
             plot.setYRange(0.0, HEADROOM * top / factor, padding=0)
         self._show_summary(view)
         boards = 0 if curves is None else curves.boards
         self.caption.setText(
             f"Largest difference between any two channels of a board at each frequency, over the first "
-            f"{boards:,} boards: central 98 % dark, every board light; each match span's limit is the line "
-            "over its band (hatched: not allowed). Estimates under the grades' stated distributions: "
+            f"{boards:,} boards: the central 98 % of boards dark blue, every board light blue; each match "
+            "span's limit is the purple line over its band (hatched above: not allowed). Estimates under the grades' stated distributions: "
             "confirm by measuring real boards.")
 
     def _build(self, quantities: tuple[str, ...]) -> None:
@@ -117,7 +120,10 @@ class MismatchPlots(QWidget):
             plot.showGrid(x=True, y=True, alpha=st.GRID_ALPHA)
             for side in ("left", "bottom"):
                 plot.getAxis(side).enableAutoSIPrefix(False)
-            plot.setLabel("bottom", "frequency (Hz)")
+            if row == len(quantities) - 1:  # one frequency label, under the lowest plot
+                plot.setLabel("bottom", "frequency (Hz)")
+            if row:
+                plot.setXLink(self.plots[quantities[0]])
             edges = {name: pg.PlotCurveItem(pen=pg.mkPen(None)) for name in ("low", "high", "inner_low", "inner_high")}
             outer = pg.FillBetweenItem(edges["low"], edges["high"], brush=st.OUTER_BRUSH)
             inner = pg.FillBetweenItem(edges["inner_low"], edges["inner_high"], brush=st.INNER_BRUSH)
@@ -125,12 +131,6 @@ class MismatchPlots(QWidget):
             inner.setZValue(2)
             for item in (*edges.values(), outer, inner):
                 plot.addItem(item)
-            if row == 0:
-                legend = plot.addLegend(offset=(10, 10), labelTextSize="8pt")
-                legend.addItem(pg.PlotDataItem([], [], pen=pg.mkPen(st.INNER_BRUSH, width=9)), "central 98 % of boards")
-                legend.addItem(pg.PlotDataItem([], [], pen=pg.mkPen(st.OUTER_BRUSH, width=9)), "all boards")
-                legend.addItem(pg.PlotDataItem([], [], pen=pg.mkPen(st.CEILING_COLOUR, width=st.SPAN_WIDTH)),
-                               "match limit")
             self.plots[q] = plot
             self.items[q] = dict(edges, outer=outer, inner=inner, limits=[])
 
@@ -158,9 +158,8 @@ class MismatchPlots(QWidget):
             hatch.setPen(pg.mkPen(None))
             hatch.setZValue(5)
             unit = SPAN_UNIT[q]
-            label = pg.TextItem(f"{span.label}: ≤ {eng(span.limit1, unit, 4)}", color=st.CEILING_COLOUR,
-                                anchor=(0, 1))
-            label.setPos(float(x[0]), float(y[0] + reach))
+            label = pg.TextItem(f"{span.label}: ≤ {_limit_text(span)}", color=st.CEILING_COLOUR, anchor=(0, 0))
+            label.setPos(float(x[0]), float(y[0]))  # under the line's left end (the hatch is above)
             label.setZValue(21)
             for item in (line, hatch, label):
                 plot.addItem(item, ignoreBounds=True)
@@ -192,14 +191,20 @@ class MismatchPlots(QWidget):
             budget = view.budget.get(mismatch_name(span)) or view.budget.get(margin_name(span))
             parts = "" if budget is None else ", ".join(
                 f"{ref} {pct:.1f} %" for ref, pct in budget.rounded_percent(top=3))
-            limit = f"≤ {eng(span.limit1, SPAN_UNIT[span.quantity], 4)}"
+            limit = f"≤ {_limit_text(span)}"
             band = f"{format_value(span.f1, 'Hz', 4)} to {format_value(span.f2, 'Hz', 4)}"
             lines.append(f"<b>{_html(span.label)}</b> ({AXIS_WORDS[span.quantity]} {limit}, {band}): {failed}"
                          + (f"; mismatch budget: {parts}" if parts else ""))
         self.summary.setText("<br>".join(lines))
 
 
-def _html(text: str) -> str:
-    import html
+def _limit_text(span: Span) -> str:
+    """"0.1 dB", or "2.5 µs to 4 µs" for a sloped limit."""
+    unit = SPAN_UNIT[span.quantity]
+    if span.limit2 is None or span.limit2 == span.limit1:
+        return eng(span.limit1, unit, 4)
+    return f"{eng(span.limit1, unit, 4)} to {eng(span.limit2, unit, 4)}"
 
+
+def _html(text: str) -> str:
     return html.escape(text)
