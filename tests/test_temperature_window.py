@@ -44,6 +44,7 @@ def test_points_are_read_as_numbers_and_a_bad_one_is_named():
 
 
 def test_range_set_in_the_dialog_is_judged_and_plotted(qtbot, window):
+    opened = window.session.design.analysis.operating_range_c  # the demo's own range (or none)
     window.act_temperature.trigger()
     dlg = window.temperature_dialog
     qtbot.waitExposed(dlg)
@@ -64,7 +65,10 @@ def test_range_set_in_the_dialog_is_judged_and_plotted(qtbot, window):
     for p in over.points:
         assert f"{p.temperature_c:g} °C {100 * p.yield_.estimate:.2f} %" in dlg.summary.text()
     assert f"{100 * over.overall.estimate:.2f} %" in dlg.summary.text()
-    assert len(dlg.yield_plot.getPlotItem().listDataItems()) == 1
+    # the yield at each temperature, and after a service life (when the design states one) the
+    # aged boards' yield at each temperature
+    life = window.session.last_view.result.life
+    assert len(dlg.yield_plot.getPlotItem().listDataItems()) == (2 if life is not None else 1)
     # the stage f0/Q table over temperature: one column per judged temperature, the means
     # as the analysis summarised them
     table = dlg.shift_table
@@ -76,10 +80,11 @@ def test_range_set_in_the_dialog_is_judged_and_plotted(qtbot, window):
     assert "at every judged temperature (-20, 25, 50, 70 °C)" in window.results.yield_label.text()
     # one undoable edit
     window.act_undo.trigger()
-    assert window.session.design.analysis.operating_range_c is None
+    assert window.session.design.analysis.operating_range_c == opened
 
 
 def test_a_range_the_loader_refuses_is_shown_and_not_applied(qtbot, window):
+    opened = window.session.design.analysis.operating_range_c
     window.act_temperature.trigger()
     dlg = window.temperature_dialog
     dlg.use_range.setChecked(True)
@@ -87,7 +92,7 @@ def test_a_range_the_loader_refuses_is_shown_and_not_applied(qtbot, window):
     dlg.high.setValue(10.0)
     QTest.mouseClick(dlg.apply_button, Qt.MouseButton.LeftButton)
     assert "operating_range_c" in dlg.problem.text()
-    assert window.session.design.analysis.operating_range_c is None
+    assert window.session.design.analysis.operating_range_c == opened
     dlg.low.setValue(0.0)
     dlg.high.setValue(50.0)
     dlg.points.setText("0, warm")
@@ -105,4 +110,6 @@ def test_bands_at_a_chosen_temperature(qtbot, window):
     # the same boards at 85 deg C, evaluated by the library directly
     e = evaluate(d, samples=n, curves=False, metrics=False, conditions=Conditions(85.0, 85.0))
     assert f"{int(e.passed.sum()):,} of them meet the mask" in dlg.band_note.text()
-    assert len(dlg.band_plot.getPlotItem().listDataItems()) == 4
+    # four band edges, and each gain span's limit (the mask the boards are judged against)
+    gain_spans = [s for s in d.mask if s.quantity == "gain"]
+    assert len(dlg.band_plot.getPlotItem().listDataItems()) == 4 + len(gain_spans)
