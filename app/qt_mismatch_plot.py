@@ -157,7 +157,6 @@ class MismatchPlots(QWidget):
             hatch.setBrush(brush)
             hatch.setPen(pg.mkPen(None))
             hatch.setZValue(5)
-            unit = SPAN_UNIT[q]
             label = pg.TextItem(f"{span.label}: ≤ {_limit_text(span)}", color=st.CEILING_COLOUR, anchor=(0, 0))
             label.setPos(float(x[0]), float(y[0]))  # under the line's left end (the hatch is above)
             label.setZValue(21)
