@@ -183,6 +183,7 @@ def test_the_terminal_json_and_report_show_the_budget_over_the_range(tmp_path):
     assert over_row.split("temperature", 1)[1].split()[0] == "R1"  # the first part named is R1
     assert any("after 10 years" in ln for ln in rows)
     assert "note: over a range each span's budget is that of the board's worst margin" in proc.stdout
+    assert "note: these metric statistics are at the board temperature" in proc.stdout
     page = html.read_text()
     assert "margin of &#x27;edge&#x27; (dB), over -40 to 85 \u00b0C, worst judged temperature" in page or \
         "margin of 'edge' (dB), over -40 to 85 \u00b0C, worst judged temperature" in page
@@ -195,3 +196,4 @@ def test_the_terminal_json_and_report_show_the_budget_over_the_range(tmp_path):
     doc2 = json.loads(js2.read_text())
     assert "budget_after_life" not in doc2 and all("basis" not in b for b in doc2["budget"].values())
     assert "worst judged temperature" not in proc2.stdout and "note: over a range" not in proc2.stdout
+    assert "these metric statistics are at the board temperature" not in proc2.stdout

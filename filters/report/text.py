@@ -131,6 +131,9 @@ def print_summary(result: AnalysisResult, out: TextIO, top: int = 3) -> None:
         if s.valid < result.samples:
             out.write(f"  note: {metric_label(n, names)} is outside the analysed range for "
                       f"{result.samples - s.valid:,} board(s); they are left out of its statistics\n")
+    if result.temperature is not None:  # over a range the table above is of the board temperature
+        out.write("  note: these metric statistics are at the board temperature; over the range see STAGE f0 AND Q "
+                  "OVER TEMPERATURE (the yield and the spans' worst margins are over every judged temperature)\n")
     if any(summary_beyond_floor(result.summaries[n]) for n in order):
         out.write(f"  note: attenuations beyond {ATTENUATION_FLOOR_DB:g} dB are not figures to trust: float64 "
                   "rounding in the response leaves them unresolved, and a real board's leakage stops far "
