@@ -28,6 +28,17 @@ if TYPE_CHECKING:
 MATCH_TAB = "Channel match"
 
 
+def show_channel_match(window: "MainWindow") -> None:
+    """View > Channel match: bring the Channel match tab forward, or say why there is none."""
+    tabs = window.centre_tabs
+    i = tabs.indexOf(window.mismatch)
+    if i >= 0:
+        tabs.setCurrentIndex(i)
+    else:
+        window.show_status("the design has one channel: set the channels on each board in the Channels tab "
+                           "(beside the parts) to compare channels")
+
+
 def install_channel_views(window: "MainWindow") -> None:
     """Add the channel views to ``window``; sets ``window.centre_tabs``, ``window.mismatch``,
     ``window.channel_editor`` and ``window.dock_channels``."""

@@ -14,6 +14,7 @@ from PySide6.QtGui import QAction, QActionGroup, QKeySequence
 from PySide6.QtWidgets import QToolBar
 
 from .qt_centre_dialog import open_centre
+from .qt_channel_dock import show_channel_match
 from .qt_help import build_help_menu
 from .qt_network_menu import new_network
 from .qt_part_menu import install_part_menu
@@ -131,10 +132,12 @@ def build_menus(w: "MainWindow") -> None:
                         "highlight_failing", True)
     w.act_failing.setChecked(True)
     w.act_fit = act("Fit plots", w.plots.fit, "Ctrl+0", "fit_plots")
+    w.act_channel_match = act("Channel match", lambda: show_channel_match(w), "Ctrl+3", "show_channel_match")
     w.act_evaluate = act("Evaluate again", w.session.request, "F5", "evaluate")
     w.act_evaluate.setToolTip("Evaluate the current design again (after a cancelled run)")
     vm.addAction(w.act_failing)
     vm.addAction(w.act_fit)
+    vm.addAction(w.act_channel_match)
     vm.addSeparator()
     vm.addAction(w.act_evaluate)
     w.help_menu = build_help_menu(w)

@@ -138,6 +138,7 @@ COVERAGE = {
     "help_shortcuts": "test_help_dialogs",
     "help_about": "test_help_dialogs",
     "<recent file>": "test_file_open_and_open_recent",
+    "show_channel_match": "test_channels_window.py::test_one_channel_to_two_brings_the_channel_match_tab",
 }
 
 

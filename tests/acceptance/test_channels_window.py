@@ -279,3 +279,42 @@ def test_channels_and_match_spans_edited_undone_saved_and_reopened(iq_window, qt
     qtbot.waitUntil(lambda: len(design_json(window)["mask"]) == 4, timeout=5000)
     action(window, "undo").trigger()
     assert design_json(window) == edited
+
+
+def test_one_channel_to_two_brings_the_channel_match_tab(window, qtbot, shown):
+    """The demo has one channel: no Channel match tab (View > Channel match says why) and
+    no match span to add; two channels bring the tab (Ctrl+3 brings it forward), a gain
+    match span added from the span table is drawn there; Undo takes both back."""
+    tabs, table = window.centre_tabs, window.span_table
+    assert [tabs.tabText(i) for i in range(tabs.count())] == ["Spread"] and not tabs.tabBar().isVisible()
+    assert not table.add_match.isEnabled()
+    action(window, "show_channel_match").trigger()
+    assert "one channel" in window.status_text.text() and tabs.currentWidget() is window.plots
+
+    bring_tab_forward(qtbot, window, "Channels")
+    set_spin(qtbot, window.channel_editor.count, "2")
+    qtbot.waitUntil(lambda: tabs.count() == 2, timeout=5000)
+    assert design_json(window)["channels"] == {"count": 2}
+    assert tabs.tabText(1) == "Channel match" and table.add_match.isEnabled()
+    window.activateWindow()
+    QTest.keyClick(window, Qt.Key.Key_3, Qt.KeyboardModifier.ControlModifier)
+    qtbot.waitUntil(window.mismatch.isVisible, timeout=2000)
+    wait_idle(qtbot, window)
+    qtbot.waitUntil(lambda: "No match span yet" in window.mismatch.summary.text(), timeout=5000)
+
+    action(table, "add_match_gain").trigger()
+    qtbot.waitUntil(lambda: design_json(window)["mask"][-1].get("kind") == "match", timeout=5000)
+    span = design_json(window)["mask"][-1]
+    assert (span["quantity"], span["limit1"], span["name"]) == ("gain", 0.1, "gain match")
+    wait_idle(qtbot, window)
+    qtbot.waitUntil(lambda: "gain" in window.mismatch.plots, timeout=5000)
+    (lim,) = window.mismatch.items["gain"]["limits"]
+    x, y = lim["line"].getData()
+    assert 10 ** x[0] == pytest.approx(span["f1"]) and np.allclose(y, 0.1)
+    assert "gain match</b>" in window.mismatch.summary.text()
+
+    action(window, "undo").trigger()
+    action(window, "undo").trigger()
+    qtbot.waitUntil(lambda: tabs.count() == 1, timeout=5000)
+    assert "channels" not in design_json(window) and not table.add_match.isEnabled()
+    assert not [s for s in shown.errors()]
