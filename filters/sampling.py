@@ -212,14 +212,14 @@ def part_values(nominal: Sequence[float], grades: Sequence[Grade], scores: np.nd
     hours = conditions.service_hours
     life = [life_fraction(g, hours, conditions.service_temp_c) for g in grades]
     # columns only drawn into values when some grade or the temperature range uses them
-    uses_tc = any(has_temperature(g) for g in grades)
+    t_span = conditions.temp_high_c - conditions.temp_low_c
+    fixed_at_reference = t_span == 0 and conditions.temp_low_c == REFERENCE_CELSIUS
+    uses_tc = any(has_temperature(g) for g in grades) and not fixed_at_reference
     uses_drift = any(g.drift_pct for g in grades) or any(life)
     u_tc = 2 * special.ndtr(scores[:, 2 * p:3 * p]) - 1 if uses_tc else None
     u_drift = 2 * special.ndtr(scores[:, 3 * p:4 * p]) - 1 if uses_drift else None
-    t_span = conditions.temp_high_c - conditions.temp_low_c
     temp = conditions.temp_low_c + t_span * special.ndtr(scores[:, 4 * p]) if t_span else \
         np.full(scores.shape[0], conditions.temp_low_c)
-    fixed_at_reference = t_span == 0 and conditions.temp_low_c == REFERENCE_CELSIUS
     out = np.empty((scores.shape[0], p))
     for i, g in enumerate(grades):  # parts, not samples
         factor = 1 + relative_deviation(g, z_value[:, i])
