@@ -48,6 +48,13 @@ part to select it in the parts panel and see its share in the spread budget.</p>
 next stage loads it. A circuit stage has tables of elements (ref, node, node) and op-amps
 (ref, +, −, output): double-click a cell and type. A refused edit is marked red with its
 reason and the design keeps its last good state; every change can be undone.</p>
+<h3>Channels (a tab beside the parts)</h3>
+<p>How many identical channels each board carries, which parts one physical part serves in
+every channel, and whether one network package serves every channel. From two channels on,
+the span table's Add match span limits the gain, phase or group-delay difference between
+channels, and the Channel match tab beside the spread plots (View &gt; Channel match)
+shows the boards' largest difference between channels with each match span's limit, the
+yield of the matched set and the mismatch budget.</p>
 <h3>Spread plots (middle)</h3>
 <p>Gain and phase or group delay (View menu) over log frequency: the nominal response
 (black), the central 98 % of boards (dark blue), every board (light blue), a few sample
