@@ -5,6 +5,7 @@ a :class:`Table` of text cells (no layout here). See :mod:`filters.temperature` 
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Any
 
@@ -56,6 +57,14 @@ def _figure(x: float, unit: str) -> str:
     return format_value(x, unit, digits=4) if unit else f"{x:.4g}"
 
 
+def _spread_cell(s: Any, unit: str) -> str:
+    """'mean ± std' of a metric summary; 'not found' when no board has the metric there
+    (e.g. a notch's cutoff)."""
+    if not (math.isfinite(s.mean) and math.isfinite(s.std)):
+        return "not found"
+    return f"{_figure(s.mean, unit)} \u00b1 {_figure(s.std, unit)}"
+
+
 def _t(t: float) -> str:
     return f"{t:g} {DEGREE}"
 
@@ -104,9 +113,7 @@ def temperature_tables(result: Any) -> list[Table]:
             rows = []
             for m in shift:
                 unit = "Hz" if m.endswith("_hz") else ""
-                rows.append([metric_label(m, names),
-                             *(f"{_figure(p.summaries[m].mean, unit)} \u00b1 {_figure(p.summaries[m].std, unit)}"
-                               for p in over.points)])
+                rows.append([metric_label(m, names), *(_spread_cell(p.summaries[m], unit) for p in over.points)])
             out.append(Table(
                 "STAGE f0 AND Q OVER TEMPERATURE (mean \u00b1 standard deviation of the boards)",
                 ["metric", *(_t(p.temperature_c) for p in over.points)], rows,

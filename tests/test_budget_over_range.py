@@ -197,3 +197,22 @@ def test_the_terminal_json_and_report_show_the_budget_over_the_range(tmp_path):
     assert "budget_after_life" not in doc2 and all("basis" not in b for b in doc2["budget"].values())
     assert "worst judged temperature" not in proc2.stdout and "note: over a range" not in proc2.stdout
     assert "these metric statistics are at the board temperature" not in proc2.stdout
+
+
+def test_a_metric_no_board_has_reads_not_found_over_the_range(tmp_path):
+    # the notch example's second pole pair of its low-pass stage is not found on any board
+    # (its 'pair 2' metrics are NaN): over a range the table of f0 and Q over temperature
+    # said "nan is not a finite value" and 'tolspread analyze' stopped with exit 2 (defect
+    # seen while checking the budget over a range on every example)
+    from pathlib import Path
+
+    data = json.loads((Path(__file__).resolve().parent.parent / "assets" / "examples" /
+                       "weigh_scale_notch.json").read_text(encoding="utf-8"))
+    data["analysis"].update(operating_range_c=[-40, 85], samples=300)
+    path = tmp_path / "notch_range.json"
+    path.write_text(json.dumps(data))
+    proc = run_cli("analyze", str(path))
+    assert proc.returncode == 0, proc.stderr
+    table = proc.stdout.split("STAGE f0 AND Q OVER TEMPERATURE", 1)[1].split("\n\n", 1)[0]
+    rows = [ln for ln in table.splitlines() if "pair 2" in ln]
+    assert rows and all(ln.count("not found") == 3 for ln in rows)  # one cell per judged temperature
