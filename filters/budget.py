@@ -22,6 +22,13 @@ whose channel-to-channel differences explain the mismatch (no sensitivity is giv
 a match span's margin (its limit minus the largest difference, not linear in the parts) is
 given the budget of its signed mismatch.
 
+Over an operating range or after a service life (:func:`worst_budget`, chosen by
+:func:`filters.temperature.lived_budgets`) a span's margin is each board's smallest over the
+judged temperatures, and its regressors are that board's parts where it is smallest: the
+part values at that temperature (and age), recomputed chunk by chunk from the board's
+scores, so a temperature coefficient or a drift that moves boards out at an extreme carries
+its share. Every span is fitted on its own regressors in one pass over the boards.
+
 Beside it, each part's normalized sensitivity at the nominal design,
 S = d ln(metric) / d ln(value) (for linear metrics: the metric's unit per unit ln(value),
 reported per 1 %: :func:`filters.metric_names.sensitivity_unit`),

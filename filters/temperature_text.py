@@ -59,7 +59,7 @@ def _figure(x: float, unit: str) -> str:
 
 def _spread_cell(s: Any, unit: str) -> str:
     """'mean ± std' of a metric summary; 'not found' when no board has the metric there
-    (e.g. a notch's cutoff)."""
+    (e.g. a stage's second pole pair that no board has)."""
     if not (math.isfinite(s.mean) and math.isfinite(s.std)):
         return "not found"
     return f"{_figure(s.mean, unit)} \u00b1 {_figure(s.std, unit)}"
