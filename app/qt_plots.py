@@ -88,6 +88,7 @@ class SpreadPlots(QWidget):
         for plot in (self.mag, self.second):
             for side in ("left", "bottom"):
                 plot.getAxis(side).enableAutoSIPrefix(False)
+            steady_width(plot.getAxis("left"))
         self.mag.setLabel("left", "gain (dB)")
         self.mag.setLabel("bottom", "frequency (Hz)")
         self.second.setLabel("bottom", "frequency (Hz)")
@@ -146,6 +147,7 @@ class SpreadPlots(QWidget):
         self.show_failing = True
         self._ranged = False
         self._reference_db = 0.0
+        self._nominal_shown: dict[str, tuple[np.ndarray, np.ndarray]] = {}  # plot -> (x, y) drawn
 
     # --- data ----------------------------------------------------------------------------
     def show_view(self, view: ViewData) -> None:
@@ -159,7 +161,9 @@ class SpreadPlots(QWidget):
                 ("second", view.nominal_second, view.second_bands, view.pass_traces_second,
                  view.fail_traces_second)):
             it = self._items[name]
-            it["nominal"].setData(x, nominal)
+            if not _same(self._nominal_shown.get(name), (x, nominal)):  # a drag leaves the nominal as it is
+                it["nominal"].setData(x, nominal)
+                self._nominal_shown[name] = (x, nominal)
             it["outer"].setPath(_band_path(x, b.low, b.high))
             it["inner"].setPath(_band_path(x, b.inner_low, b.inner_high))
             it["passing"].setPath(_trace_path(x, tp))
@@ -170,10 +174,10 @@ class SpreadPlots(QWidget):
             self.delay_prefix = prefix_for(float(np.max(finite)) if finite.size else 0.0)
             prefix, factor = self.delay_prefix
             axis.setScale(1.0 / factor)
-            self.second.setLabel("left", f"group delay ({prefix}s)")
+            set_axis_label(axis, f"group delay ({prefix}s)")
         else:
             axis.setScale(1.0)
-            self.second.setLabel("left", "phase (deg)")
+            set_axis_label(axis, "phase (deg)")
         self._reference_db = view.nominal_metrics.get("reference_db", 0.0)
         self._draw_grids(view)
         self.set_mask(view.design.mask, self._reference_db)
@@ -370,6 +374,27 @@ def hold_range(vb: pg.ViewBox, axis: int, lo: float, hi: float, padding: float, 
     y0, y1 = vb.viewRange()[axis]
     if refit or lo < y0 or hi > y1 or (hi - lo) < 0.5 * (y1 - y0):
         (vb.setXRange if axis == 0 else vb.setYRange)(lo, hi, padding=0)
+
+
+def _same(shown: tuple[np.ndarray, ...] | None, new: tuple[np.ndarray, ...]) -> bool:
+    """True when the arrays ``new`` equal those ``shown`` (None: nothing shown yet)."""
+    return shown is not None and all(a.shape == b.shape and np.array_equal(a, b, equal_nan=True)
+                                     for a, b in zip(shown, new))
+
+
+def steady_width(axis: pg.AxisItem) -> None:
+    """Let ``axis`` (a vertical one) widen for longer tick labels but never narrow again:
+    otherwise ticks such as "50" and "100" taking turns while a slider is dragged resize
+    the plot, which is laid out and painted a second time for that result."""
+    axis.setStyle(autoReduceTextSpace=False)
+
+
+def set_axis_label(axis: pg.AxisItem, text: str) -> None:
+    """Label ``axis`` with ``text`` unless it already reads so: pyqtgraph sets the label's
+    HTML, resizes the axis and draws its ticks again on every call, which for each result
+    of a drag cost a repaint of the plot."""
+    if axis.labelText != text or not axis.label.isVisible():
+        axis.setLabel(text)
 
 
 def _band_item(brush) -> QGraphicsPathItem:

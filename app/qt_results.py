@@ -8,7 +8,7 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QHeaderView, QLabel, QTableWidget, QTableWidgetItem,
                                QVBoxLayout, QWidget)
 
-from ..liveview import ViewData
+from ..liveview import ViewData, board_temperature_text
 from ..temperature_text import point_yields_note, yield_note
 from .qt_high_yield import high_yield_html
 from .qt_measured_yield import MeasuredYieldLine
@@ -16,7 +16,7 @@ from .. import metric_names
 from ..metric_names import SPAN_UNIT, is_pair_metric, metric_label
 
 from . import qt_style as st
-from .qt_plots import hold_range
+from .qt_plots import hold_range, set_axis_label, steady_width
 from .qt_units import eng, prefix_for
 from ..report.numbers import format_pct
 
@@ -25,6 +25,14 @@ MAX_TABLE_ROWS = 8  # the failure table grows to this many rows, then scrolls
 FIRST_METRICS = ("cutoff_hz", "centre_hz")
 CAUTION = ("Estimate under the grades' stated distributions; confirm with measured parts "
            "and qualified review.")
+
+
+def _judged_how(design) -> str:
+    """How a full run judges ``design``'s boards beyond the board temperature."""
+    a = design.analysis
+    ways = (["over the operating range"] if a.operating_range_c is not None else []) + (
+        ["after the service life"] if a.service_hours else [])
+    return " and ".join(ways)
 
 
 class ResultsPanel(QWidget):
@@ -93,8 +101,19 @@ class ResultsPanel(QWidget):
         self.hist.setMouseEnabled(x=False, y=False)
         self.hist.setLabel("left", "boards")
         self.hist.disableAutoRange()  # _draw_metric sets the ranges
+        # the bars and the nominal line are made once and given new data for each result
+        # (new items for each result of a drag cost a scene update and a paint each)
+        self._bars_all = pg.BarGraphItem(x=[0.0], height=[0.0], width=1.0, brush=st.rgba(st.BLUE, 160), pen=None,
+                                         name="all boards")
+        self._bars_fail = pg.BarGraphItem(x=[0.0], height=[0.0], width=1.0, brush=st.rgba(st.VERMILION, 200),
+                                          pen=None)
+        self._nominal_line = pg.InfiniteLine(0.0, angle=90, pen=pg.mkPen(st.INK, width=2, style=st.DASH))
+        for it in (self._bars_all, self._bars_fail, self._nominal_line):
+            it.hide()
+            self.hist.addItem(it)
         for side in ("left", "bottom"):
             self.hist.getAxis(side).enableAutoSIPrefix(False)  # never "(x0.001)" on dB
+        steady_width(self.hist.getAxis("left"))
 
         lay.addWidget(self.hist, 2)
         self.budget_plot = pg.PlotWidget()
@@ -137,11 +156,15 @@ class ResultsPanel(QWidget):
         self.view = view
         y = view.yield_
         if view.design.mask:
+            # what the yield covers: over a range, after a life; a drag's preview of such a
+            # design judges its boards at the board temperature only, and says so
+            note = (f"preview, {view.samples:,} boards at {board_temperature_text(view.design)}"
+                    if view.reference_only else yield_note(view.result))
             self.yield_label.setText(
                 f"<span style='font-size:16pt'><b>yield {format_pct(y.estimate)}</b></span><br>"
                 f"{round(100 * y.confidence)} % interval {format_pct(y.low)} to {format_pct(y.high)} "
                 f"({'Wilson' if y.method == 'wilson' else 'exact'}), {y.passed:,} of {y.samples:,} boards pass"
-                + (f"<br>{note}" if (note := yield_note(view.result)) else "")  # over a range, after a life
+                + (f"<br>{note}" if note else "")
                 + (f"<br>{alone}" if (alone := point_yields_note(view.result)) else ""))  # over a range
         else:
             self.yield_label.setText("<b>no spec mask yet</b>: draw floor or ceiling spans on the gain plot")
@@ -153,7 +176,10 @@ class ResultsPanel(QWidget):
                       if view.curve_boards and view.curve_boards < view.samples else "")
         if view.preview:
             self.detail.setText(f"preview while dragging: the first {view.samples:,} of "
-                                f"{view.design.analysis.samples:,} boards (release to evaluate all)")
+                                f"{view.design.analysis.samples:,} boards"
+                                + (f" at {board_temperature_text(view.design)} only (release to judge all "
+                                   f"{_judged_how(view.design)})" if view.reference_only
+                                   else " (release to evaluate all)"))
         else:
             self.detail.setText(f"{view.samples:,} boards, seed {view.seed}, {view.method} sampling; "
                                 f"computed in {1000 * view.elapsed_s:.0f} ms{bands_note}")
@@ -220,8 +246,13 @@ class ResultsPanel(QWidget):
         names = [s.name for s in v.design.stages]
         data = v.metrics[self.metric_name]
         ok = np.isfinite(data)
-        self.hist.clear()
-        if ok.sum() >= 2:
+        drawn = bool(ok.sum() >= 2)
+        nom = v.nominal_metrics.get(self.metric_name)
+        with_nominal = drawn and nom is not None and bool(np.isfinite(nom))
+        self._bars_all.setVisible(drawn)
+        self._nominal_line.setVisible(with_nominal)
+        self._bars_fail.hide()
+        if drawn:
             lo, hi = float(np.min(data[ok])), float(np.max(data[ok]))
             if hi <= lo:
                 hi = lo + 1e-12 * max(1.0, abs(lo))
@@ -231,14 +262,12 @@ class ResultsPanel(QWidget):
             fail_counts, _ = np.histogram(data[ok & ~passed], edges)
             width = edges[1] - edges[0]
             centres = 0.5 * (edges[1:] + edges[:-1])
-            self.hist.addItem(pg.BarGraphItem(x=centres, height=all_counts, width=width * 0.95,
-                                              brush=st.rgba(st.BLUE, 160), pen=None, name="all boards"))
+            self._bars_all.setOpts(x=centres, height=all_counts, width=width * 0.95)
             if fail_counts.any():
-                self.hist.addItem(pg.BarGraphItem(x=centres, height=fail_counts, width=width * 0.95,
-                                                  brush=st.rgba(st.VERMILION, 200), pen=None))
-            nom = v.nominal_metrics.get(self.metric_name)
-            if nom is not None and np.isfinite(nom):
-                self.hist.addItem(pg.InfiniteLine(nom, angle=90, pen=pg.mkPen(st.INK, width=2, style=st.DASH)))
+                self._bars_fail.setOpts(x=centres, height=fail_counts, width=width * 0.95)
+                self._bars_fail.show()
+            if with_nominal:
+                self._nominal_line.setValue(nom)
                 lo, hi = min(lo, nom), max(hi, nom)
             # ranges set here, and moved only when the bars leave them or fill less than
             # half (automatic ranging moved them for every result and painted twice)
@@ -286,10 +315,10 @@ class ResultsPanel(QWidget):
         if unit in ("Hz", "s") and values.size:
             prefix, factor = prefix_for(float(np.max(np.abs(values))))
             axis.setScale(1.0 / factor)
-            axis.setLabel(f"{base} ({prefix}{unit})")
+            set_axis_label(axis, f"{base} ({prefix}{unit})")
         else:
             axis.setScale(1.0)
-            axis.setLabel(f"{base} ({unit})" if unit else base)
+            set_axis_label(axis, f"{base} ({unit})" if unit else base)
 
     def highlight_part(self, ref: str | None) -> None:
         """Draw part ``ref``'s bar of the spread budget in the highlight colour, its share in

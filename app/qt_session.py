@@ -33,7 +33,7 @@ from ..memory import check_boards
 
 
 PREVIEW_BOARDS = 1000  # boards evaluated while a slider is being dragged
-FRAME_S = 1 / 30  # previews are shown at most once per frame (30 a second); a full result at once
+FRAME_S = 1 / 60  # previews are shown at most once per frame of a 60 Hz screen; a full result at once
 
 
 class _Worker(QObject):
@@ -158,6 +158,7 @@ class Session(QObject):
         self._worker.finished.connect(self._on_view_finished)
         self._worker.failed.connect(self._on_view_failed)
         self._worker.progress.connect(self._on_progress)
+        self._worker.stopped.connect(self._preview_done)
         self._worker.stopped.connect(self.evaluation_stopped)
         self._thread.start()
         self._running_design: Design | None = None
@@ -168,6 +169,9 @@ class Session(QObject):
         self._shown_at = -1.0
         self._held: ViewData | None = None
         self._previewing = False  # the newest request is a preview: older previews may still be shown
+        # one preview at a time: the next starts when this one has been shown (see request)
+        self._preview_running = 0  # generation of the preview being computed (0: none)
+        self._next_preview: ViewRequest | None = None  # the newest preview asked for meanwhile
         self._frame = QTimer(self)
         self._frame.setSingleShot(True)
         self._frame.timeout.connect(self._show_held)
@@ -241,8 +245,9 @@ class Session(QObject):
     def _set_design(self, design: Design) -> None:
         self._design = design
         self._end_what_if()
-        self.design_changed.emit(design)
+        # the evaluation starts before the widgets show the new design, not after them
         self.request()
+        self.design_changed.emit(design)
 
     # --- what-if tolerances (a slider being dragged) ------------------------------------
     def tolerance_design(self, tolerances: Mapping[str, float]) -> Design:
@@ -330,7 +335,11 @@ class Session(QObject):
     def request(self, boards: int | None = None) -> int:
         """Ask for an evaluation of the current state; returns its generation number.
 
-        ``boards`` limits it to the first that many boards (a preview)."""
+        ``boards`` limits it to the first that many boards (a preview). One preview is
+        computed at a time: one asked for while another is being computed waits until
+        that one has been shown, and then only the newest waiting one starts (a drag's
+        newest position), so the worker never computes frames nobody sees while the
+        window draws the last one."""
         if self._closed:
             return self._generation
         self._generation += 1
@@ -338,10 +347,28 @@ class Session(QObject):
         self._running_design = self._design
         req = ViewRequest(self._generation, self._design, self._what_if, self._second,
                           budget=boards is None, boards=boards)
-        self._worker.submit(req)
+        if boards is not None and self._preview_running:
+            self._next_preview = req
+        else:
+            self._next_preview = None
+            self._preview_running = req.generation if boards is not None else 0
+            self._submit(req)
         self.busy_changed.emit(True)
-        self._wake.emit()
         return self._generation
+
+    def _submit(self, req: ViewRequest) -> None:
+        self._worker.submit(req)
+        self._wake.emit()
+
+    def _preview_done(self, generation: int) -> None:
+        """The preview ``generation`` was shown, failed or stopped: start the newest one
+        asked for meanwhile, if any."""
+        if generation != self._preview_running:
+            return
+        req, self._next_preview = self._next_preview, None
+        self._preview_running = req.generation if req is not None else 0
+        if req is not None and not self._closed:
+            self._submit(req)
 
     def cancel(self) -> None:
         """Stop the running evaluation; the last shown result stays.
@@ -351,6 +378,7 @@ class Session(QObject):
         if not self.busy:
             return
         self._worker.cancel_through(self._generation)
+        self._next_preview, self._preview_running = None, 0
         self._held = None  # a preview waiting for its frame is not shown either
         self._frame.stop()
         self._shown_generation = self._generation
@@ -362,6 +390,7 @@ class Session(QObject):
         if self._closed:
             return
         if view.generation < self._generation and not (view.preview and self._previewing):
+            self._preview_done(view.generation)
             return  # a newer request is on its way
         self._held = None
         wait = self._shown_at + FRAME_S - time.perf_counter()
@@ -378,6 +407,8 @@ class Session(QObject):
         view, self._held = self._held, None
         if view is not None and not self._closed and (view.generation >= self._generation or self._previewing):
             self._show(view)
+        elif view is not None:
+            self._preview_done(view.generation)
 
     def _show(self, view: ViewData) -> None:
         self._shown_at = time.perf_counter()
@@ -385,11 +416,14 @@ class Session(QObject):
         self.last_view = view
         self.busy_changed.emit(False)
         self.view_ready.emit(view)
+        if view.preview:
+            self._preview_done(view.generation)
 
     @Slot(int, str, str)
     def _on_view_failed(self, generation: int, message: str, details: str) -> None:
         if self._closed:
             return
+        self._preview_done(generation)
         if generation < self._generation:
             return
         self._shown_generation = generation
@@ -408,6 +442,7 @@ class Session(QObject):
         window, ``--screenshot`` and the acceptance tests wait for the worker instead)."""
         self._generation += 1
         self._previewing = False
+        self._next_preview, self._preview_running = None, 0
         req = ViewRequest(self._generation, self._design, self._what_if, self._second)
         self._worker.cancel_through(self._generation - 1)
         view = compute_view(req)

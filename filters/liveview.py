@@ -9,7 +9,7 @@ spread budget. Plain numpy; the window only draws it.
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Callable
 
 import numpy as np
@@ -22,6 +22,7 @@ from .evaluate import Ensemble, Prepared
 from .grades import Grade
 from .metric_names import margin_name
 from .stats import SpanFailures, YieldEstimate
+from .temperature_text import DEGREE
 
 __all__ = [
     "SecondQuantity",
@@ -29,6 +30,7 @@ __all__ = [
     "ViewRequest",
     "ViewData",
     "compute_view",
+    "board_temperature_text",
 ]
 
 CURVE_LIMIT = 20_000  # boards whose curves are kept for the bands: bounded memory for big runs
@@ -70,6 +72,9 @@ class ViewData:
     elapsed_s: float
     result: AnalysisResult = field(repr=False, compare=False)
     preview: bool = False  # only the first ViewRequest.boards boards (while a slider is dragged)
+    # a preview of a design with an operating range or a service life, judged at the board
+    # temperature only (the one the curves show); the release judges over the range
+    reference_only: bool = False
 
     @property
     def ensemble(self) -> Ensemble:
@@ -129,6 +134,12 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
     :data:`CURVE_LIMIT` boards; a full run, not a preview, adds the high-yield estimate when few
     boards fail, ``rare="auto"``) and gather what the window draws (may raise Cancelled).
 
+    A preview (``req.boards``) of a design judged over an operating range or after a
+    service life is judged at its board temperature only (:func:`at_board_temperature`:
+    one evaluation per board, not one per judged temperature and again after the life);
+    :attr:`ViewData.reference_only` says so. Its boards, curves and figures are those of
+    the full run's evaluation at that temperature; the full run judges over the range.
+
     Raises :class:`~tolspread.errors.InputError` (path ``analysis.samples``) when the boards
     would keep more numbers than the memory rule allows (:func:`filters.memory.check_boards`).
 
@@ -152,7 +163,12 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
     t0 = time.perf_counter()
     d = req.design
     n = d.analysis.samples if req.boards is None else min(req.boards, d.analysis.samples)
-    result = analyze(d, samples=n, grades=req.grades, budget=req.budget, with_corners=False,
+    judged, reference_only = d, False
+    if req.boards is not None and over_range_or_life(d):  # a drag's preview: the board temperature only
+        judged, reference_only = at_board_temperature(d), True
+        if prepared is not None and prepared.design is d:  # nothing prepared depends on the range
+            prepared = replace(prepared, design=judged)
+    result = analyze(judged, samples=n, grades=req.grades, budget=req.budget, with_corners=False,
                      curves=min(n, CURVE_LIMIT), second=req.second, prepared=prepared,
                      samples_path="analysis.samples", progress=progress, should_stop=should_stop,
                      rare="auto" if req.boards is None else "off")  # a drag's preview stays quick
@@ -168,4 +184,35 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
     return ViewData(
         req.generation, d, req.second, nom.gain_db[0], np.asarray(nominal_second),
         drawn.gain_db[pass_rows], drawn.second[pass_rows], drawn.gain_db[fail_rows], drawn.second[fail_rows],
-        metric_columns(ens), nominal_metrics, time.perf_counter() - t0, result, n < d.analysis.samples)
+        metric_columns(ens), nominal_metrics, time.perf_counter() - t0, result, n < d.analysis.samples,
+        reference_only)
+
+
+def over_range_or_life(design: Design) -> bool:
+    """True when ``design`` is judged over an operating range or after a service life
+    (:mod:`filters.temperature`): more than one evaluation per board."""
+    a = design.analysis
+    return a.operating_range_c is not None or bool(a.service_hours)
+
+
+def at_board_temperature(design: Design) -> Design:
+    """``design`` judged at its board temperature only (``temperature_c``, the curves'),
+    without its operating range, extra judged temperatures and service life."""
+    return design.with_analysis(operating_range_c=None, judge_at_c=(), service_hours=0.0)
+
+
+def board_temperature_text(design: Design) -> str:
+    """The board temperature of ``design`` as a reader sees it.
+
+    Parameters
+    ----------
+    design : Design
+        The design (its ``temperature_c``, deg C).
+
+    Returns
+    -------
+    str
+        "25 °C", or "0 to 50 °C" for boards spread uniformly over a range.
+    """
+    lo, hi = design.analysis.temp_low_c, design.analysis.temp_high_c
+    return f"{lo:g} {DEGREE}" if lo == hi else f"{lo:g} to {hi:g} {DEGREE}"

@@ -37,15 +37,20 @@ def window(qtbot, tmp_path):
     yield open_window(qtbot, path)
 
 
+def demo_window(qtbot, tmp_path, **analysis):
+    """A window on the demo with ``analysis`` settings changed (opened from a file)."""
+    d = json.loads(demo_text())
+    d["analysis"].update(analysis)
+    path = tmp_path / "demo_changed.json"
+    path.write_text(json.dumps(d), encoding="utf-8")
+    return open_window(qtbot, path)
+
+
 @pytest.fixture
 def fine_window(qtbot, tmp_path):
     """The demo on a fine grid (2,000 frequencies) with 1,200 boards: a preview of 1,000
     boards then takes far longer than the gap between two mouse moves, on any machine."""
-    d = json.loads(demo_text())
-    d["analysis"].update(points=2000, samples=1200)
-    path = tmp_path / "fine.json"
-    path.write_text(json.dumps(d), encoding="utf-8")
-    yield open_window(qtbot, path)
+    yield demo_window(qtbot, tmp_path, points=2000, samples=1200)
 
 
 def test_previews_are_shown_while_the_mouse_moves_faster_than_an_evaluation(fine_window, qtbot):
