@@ -53,6 +53,7 @@ from .summary import board_chunk, chunks
 
 __all__ = [
     "STEP",
+    "WORST_KEEP",
     "metric_columns",
     "BudgetEntry",
     "Budget",
@@ -71,6 +72,9 @@ __all__ = [
 ]
 
 STEP = 1e-4
+#: Numbers of regressors :func:`worst_budget` keeps between its two passes (16 MB of float64);
+#: beyond it each chunk's are made again for the second pass.
+WORST_KEEP = 1 << 21
 
 
 def metric_columns(ens: Ensemble) -> dict[str, np.ndarray]:
@@ -510,9 +514,20 @@ def worst_budget(ens: Ensemble, prep: Prepared, margins: np.ndarray, where: np.n
     nom = prep.nominal.values
     chunk = chunk or board_chunk(len(refs))
     cols = {names[j]: margins[:, j] for j in keep}
-    fitted = _fit(ens, cols, [names[j] for j in keep],
-                  lambda sl: _worst_columns(ens, nom, conditions, where[sl][:, keep], sl),
-                  refs, sens, chunk, group=list(range(len(keep))))  # each span on its own regressors
+    # the fit reads each chunk's regressors twice (means, then cross products); when every
+    # span's regressors of every board fit in WORST_KEEP numbers they are made once
+    memo: dict[int, list[np.ndarray]] | None = {} if len(keep) * ens.samples * len(refs) <= WORST_KEEP else None
+
+    def x_of(sl: slice) -> list[np.ndarray]:
+        xs = memo.pop(sl.start, None) if memo is not None else None  # the second pass takes them back
+        if xs is None:
+            xs = _worst_columns(ens, nom, conditions, where[sl][:, keep], sl)
+            if memo is not None:
+                memo[sl.start] = xs
+        return xs
+
+    fitted = _fit(ens, cols, [names[j] for j in keep], x_of, refs, sens, chunk,
+                  group=list(range(len(keep))))  # each span on its own regressors
     return {n: replace(b, basis=basis) for n, b in fitted.items()}
 
 
