@@ -216,3 +216,21 @@ def test_a_metric_no_board_has_reads_not_found_over_the_range(tmp_path):
     table = proc.stdout.split("STAGE f0 AND Q OVER TEMPERATURE", 1)[1].split("\n\n", 1)[0]
     rows = [ln for ln in table.splitlines() if "pair 2" in ln]
     assert rows and all(ln.count("not found") == 3 for ln in rows)  # one cell per judged temperature
+
+
+def test_the_budget_over_the_range_does_not_depend_on_chunks_or_on_keeping_the_regressors(monkeypatch):
+    import tolspread.budget as budget
+    from tolspread.temperature import judged_conditions
+
+    d = design_from_dict(rc_data(R_TC, C_TOL, {"operating_range_c": [-40, 85], "samples": 1500}))
+    res = analyze(d, with_corners=False, budget=False)
+    over = res.temperature
+    conds = [judged_conditions(d, t) for t in over.temperatures_c]
+    whole = budget.worst_budget(res.ensemble, res.prepared, over.worst_margins, over.worst_index, conds, "x")
+    monkeypatch.setattr(budget, "WORST_KEEP", 0)  # made again for the second pass, in chunks of 400 boards
+    pieces = budget.worst_budget(res.ensemble, res.prepared, over.worst_margins, over.worst_index, conds, "x",
+                                 chunk=400)
+    for name, b in whole.items():
+        got = shares(pieces[name])
+        for ref, share in shares(b).items():
+            assert got[ref] == pytest.approx(share, rel=1e-9, abs=1e-12)
