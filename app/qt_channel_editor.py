@@ -36,6 +36,8 @@ class ChannelEditor(QWidget):
         self._apply = apply_edit
         self._design: Design | None = None
         self._loading = False
+        self._marked: QWidget | None = None  # the box a refusal marked red, and its own tooltip
+        self._marked_tip = ""
         lay = QVBoxLayout(self)
         form = QFormLayout()
         self.count = QSpinBox()
@@ -69,6 +71,11 @@ class ChannelEditor(QWidget):
     def show_design(self, design: Design) -> None:
         """Show ``design``'s channels (rebuilding the check boxes when parts or networks change)."""
         self._design = design
+        if self._marked is not None:  # an earlier refusal's mark goes
+            self._marked.setStyleSheet("")
+            self._marked.setToolTip(self._marked_tip)
+            self._marked = None
+        self.problem.hide()
         self._loading = True
         self.count.setValue(design.channels.count)
         refs = [p.ref for p in design.parts]
@@ -104,12 +111,11 @@ class ChannelEditor(QWidget):
         return boxes
 
     def _edit(self, design: Design, text: str, widget: QWidget) -> None:
-        reason = self._apply(design, text)
+        reason = self._apply(design, text)  # applied: the session shows the new design (show_design)
         if reason is None:
-            self.problem.hide()
-            widget.setStyleSheet("")
             return
         self.show_design(self._design if self._design is not None else design)  # back to the last good state
+        self._marked, self._marked_tip = widget, widget.toolTip()
         widget.setStyleSheet(INVALID_STYLE)
         widget.setToolTip(reason)
         self.problem.setText(f"{reason} (kept the previous value)")
@@ -120,7 +126,8 @@ class ChannelEditor(QWidget):
         d = self._design
         if self._loading or d is None or n == d.channels.count:
             return
-        self._edit(replace(d, channels=Channels(n, d.channels.shared)), f"{n} channels", self.count)
+        self._edit(replace(d, channels=Channels(n, d.channels.shared)), f"{n} channel{'s' if n > 1 else ''}",
+                   self.count)
 
     def _on_toggled(self, name: str, on: bool, shared: bool) -> None:
         d = self._design

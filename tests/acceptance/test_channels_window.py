@@ -211,6 +211,7 @@ def test_channels_and_match_spans_edited_undone_saved_and_reopened(iq_window, qt
     QTest.mouseClick(box, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier,
                      QPoint(8, box.height() // 2))  # on its check mark
     qtbot.waitUntil(lambda: design_json(window)["channels"].get("shared") == ["C2"], timeout=5000)
+    assert INVALID not in ed.count.styleSheet() and not ed.problem.isVisible()  # the refusal's mark went
     assert ed.across["RN1"].isChecked()
 
     # a group-delay match span from the span table's Add match span menu
