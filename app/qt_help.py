@@ -38,14 +38,22 @@ from the catalog, and a tolerance slider: dragging it redraws the spread live on
 Number of boards, seed, sampling (random or Sobol) and New boards sit above the parts.
 Right-click a part's name to lock its grade, forbid technologies for it, or give it measured
 values from a CSV (shown instead of its slider; one reel says nothing about other lots).</p>
+<h3>Networks and matched pairs (in the parts panel)</h3>
+<p>A network's members sit together under its heading. Click a part's name to choose it,
+Ctrl+click more, then right-click one of them &gt; New network or matched pair… (or Design
+&gt; New network or matched pair…): name, members of one kind (two make a matched pair),
+tolerance (±%), ratio tolerance (±%) and tracking (ppm/K), checked as the design file is. A
+part's menu also adds it to a network, takes it out, edits or dissolves its network; so does
+a right-click on the heading. Each change is one undoable edit.</p>
 <h3>Circuit (above the parts)</h3>
 <p>The schematic of the stage chosen in its box, drawn from the netlist the analysis uses:
 each part with its reference, value and grade; a circuit stage as labelled node lines, each
 part between its two nodes (a line crossing another without a dot is not connected). Click a
 part to select it in the parts panel and see its share in the spread budget.</p>
 <h3>Stages (a tab beside the parts)</h3>
-<p>Add, remove and reorder stages; change a stage's name, topology, options and whether the
-next stage loads it. A circuit stage has tables of elements (ref, node, node) and op-amps
+<p>Add, remove and reorder stages; change a stage's name, topology, options, whether the
+next stage loads it and its DC bias (V: the class II capacitors of the stage that state none
+of their own sit at it; empty: not stated). A circuit stage has tables of elements (ref, node, node) and op-amps
 (ref, +, −, output): double-click a cell and type. A refused edit is marked red with its
 reason and the design keeps its last good state; every change can be undone.</p>
 <h3>Channels (a tab beside the parts)</h3>
