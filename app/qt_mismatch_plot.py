@@ -66,13 +66,26 @@ class MismatchPlots(QWidget):
         self.items: dict[str, dict] = {}
         self.scale: dict[str, float] = {}  # quantity -> factor the plot divides by (1e-6 for µs)
         self.selected = -1
-        self._view: ViewData | None = None
+        self._pending: ViewData | None = None  # the newest view, drawn when the tab is shown
+        self._limits_key: dict[str, tuple] = {}  # what each plot's limit items were drawn for
 
     # --- drawing -------------------------------------------------------------------------
     def show_view(self, view: ViewData) -> None:
         """Draw ``view``'s channel differences, limits and summary (nothing when the
-        design has one channel or no match span)."""
-        self._view = view
+        design has one channel or no match span). While the tab is hidden the view is kept
+        and drawn when it is shown: a slider's previews cost nothing here meanwhile."""
+        self._pending = view
+        if self.isVisible():
+            self._draw()
+
+    def showEvent(self, event) -> None:  # noqa: N802 - Qt override
+        super().showEvent(event)
+        self._draw()
+
+    def _draw(self) -> None:
+        view, self._pending = self._pending, None
+        if view is None:
+            return
         curves = view.result.curves
         bands = {} if curves is None else curves.spread_bands
         quantities = tuple(bands)
@@ -111,7 +124,7 @@ class MismatchPlots(QWidget):
 
     def _build(self, quantities: tuple[str, ...]) -> None:
         self.canvas.clear()
-        self.plots, self.items = {}, {}
+        self.plots, self.items, self._limits_key = {}, {}, {}
         for row, q in enumerate(quantities):
             plot = self.canvas.addPlot(row=row, col=0, axisItems={"bottom": _FrequencyAxis("bottom")})
             plot.setMenuEnabled(False)
@@ -135,6 +148,10 @@ class MismatchPlots(QWidget):
             self.items[q] = dict(edges, outer=outer, inner=inner, limits=[])
 
     def _draw_limits(self, q: str, freqs: np.ndarray, limits: list[tuple[int, Span]], factor: float) -> None:
+        key = (tuple(limits), factor, freqs.size, float(freqs[0]), float(freqs[-1]))
+        if self._limits_key.get(q) == key:  # the same limits on the same grid: the items stay
+            return
+        self._limits_key[q] = key
         plot, it = self.plots[q], self.items[q]
         for old in it["limits"]:
             for item in (old["line"], old["hatch"], old["label"]):

@@ -139,6 +139,7 @@ def test_channel_match_plot_shows_the_boards_differences_and_limits(iq_window, q
     wait_idle(qtbot, window)
     tabs = window.centre_tabs
     assert [tabs.tabText(i) for i in range(tabs.count())] == ["Spread", "Channel match"]
+    assert not window.mismatch.plots  # nothing drawn while the tab is hidden: drawn when shown
     bar = tabs.tabBar()
     QTest.mouseClick(bar, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, bar.tabRect(1).center())
     qtbot.waitUntil(window.mismatch.isVisible, timeout=2000)
@@ -244,8 +245,10 @@ def test_channels_and_match_spans_edited_undone_saved_and_reopened(iq_window, qt
         action(window, "redo").trigger()
     assert design_json(window) == edited
 
-    # the channel-match tab draws a third plot with the new limit, sloped as typed
+    # the channel-match tab (View > Channel match) draws a third plot with the new limit, sloped as typed
     wait_idle(qtbot, window)
+    action(window, "show_channel_match").trigger()
+    qtbot.waitUntil(window.mismatch.isVisible, timeout=2000)
     assert set(window.mismatch.plots) == {"gain", "phase", "delay"}
     (lim,) = window.mismatch.items["delay"]["limits"]
     _, y = lim["line"].getData()
