@@ -47,6 +47,7 @@ __all__ = [
     "give_scratch",
     "frequency_response",
     "response_blocks",
+    "ExactGain",
     "gain2_at",
     "dc_gain2",
     "hf_gain2",
@@ -235,9 +236,14 @@ def poly_jw(c: np.ndarray, x: np.ndarray, xx: np.ndarray) -> tuple[np.ndarray, n
     tuple[np.ndarray, np.ndarray]
         Real and imaginary parts, (S, F) or (S, k).
     """
-    even, odd = _signed_parts(c)
-    re = _horner(even, xx) if even.shape[1] else np.zeros((c.shape[0], 1))
-    im = _horner(odd, xx) * x if odd.shape[1] else np.zeros((c.shape[0], 1))
+    return _jw(_signed_parts(c), x, xx)
+
+
+def _jw(parts: tuple[np.ndarray, np.ndarray], x: np.ndarray, xx: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`poly_jw` from the signed even and odd coefficients of :func:`_signed_parts`."""
+    even, odd = parts
+    re = _horner(even, xx) if even.shape[1] else np.zeros((even.shape[0], 1))
+    im = _horner(odd, xx) * x if odd.shape[1] else np.zeros((odd.shape[0], 1))
     return re, im
 
 
@@ -761,6 +767,59 @@ def _response_block(groups: list[_LeanGroup], general: list[_GeneralStage], lo: 
     return inverse
 
 
+class ExactGain:
+    """|H|^2 of a batch of boards at per-board frequencies, exact (no grid): the numbers of
+    :func:`gain2_at`, with each stage's even and odd coefficients (the signs of j^k folded
+    in) taken once, for searches that evaluate the same boards many times (a refinement's
+    or a golden-section search's steps).
+
+    Parameters
+    ----------
+    coeffs : list of StageCoefficients
+        Per stage, the numerator and denominator coefficients of every board (S, K),
+        ascending powers of s (from :func:`stage_coefficients`).
+    """
+
+    def __init__(self, coeffs: list[StageCoefficients]) -> None:
+        self._stages = [(sc.w_ref, _signed_parts(sc.num), _signed_parts(sc.den)) for sc in coeffs]
+
+    def rows(self, keep: np.ndarray) -> ExactGain:
+        """The boards ``keep`` (an index or boolean array) alone.
+
+        Parameters
+        ----------
+        keep : np.ndarray
+            Boards to keep: indices, or a boolean mask (S,).
+
+        Returns
+        -------
+        ExactGain
+            The same evaluation for those boards.
+        """
+        out = ExactGain([])
+        out._stages = [(w_ref, (ne[keep], no[keep]), (de[keep], do[keep]))
+                       for w_ref, (ne, no), (de, do) in self._stages]
+        return out
+
+    def __call__(self, f_hz: np.ndarray) -> np.ndarray:
+        """|H|^2 at frequencies ``f_hz`` (Hz) shaped (S,) or (S, k); no unit, the shape of
+        ``f_hz``."""
+        f = np.asarray(f_hz, dtype=float)
+        col = f.ndim == 1
+        w = TWO_PI * (f[:, None] if col else f)
+        g = None
+        for w_ref, num, den in self._stages:
+            x = w / w_ref
+            xx = x * x
+            nr, ni = _jw(num, x, xx)
+            dr, di = _jw(den, x, xx)
+            gs = (nr * nr + ni * ni) / (dr * dr + di * di)
+            g = gs if g is None else g * gs
+        assert g is not None
+        g = np.broadcast_to(g, w.shape)
+        return g[:, 0] if col else g
+
+
 def gain2_at(coeffs: list[StageCoefficients], f_hz: np.ndarray) -> np.ndarray:
     """|H|^2 at per-sample frequencies ``f_hz`` shaped (S,) or (S, k) (exact, no grid).
 
@@ -777,20 +836,7 @@ def gain2_at(coeffs: list[StageCoefficients], f_hz: np.ndarray) -> np.ndarray:
     np.ndarray
         |H|^2 (no unit), the shape of ``f_hz``.
     """
-    f = np.asarray(f_hz, dtype=float)
-    col = f.ndim == 1
-    w = TWO_PI * (f[:, None] if col else f)
-    g = None
-    for sc in coeffs:
-        x = w / sc.w_ref
-        xx = x * x
-        nr, ni = poly_jw(sc.num, x, xx)
-        dr, di = poly_jw(sc.den, x, xx)
-        gs = (nr * nr + ni * ni) / (dr * dr + di * di)
-        g = gs if g is None else g * gs
-    assert g is not None
-    g = np.broadcast_to(g, w.shape)
-    return g[:, 0] if col else g
+    return ExactGain(coeffs)(f_hz)
 
 
 def dc_gain2(coeffs: list[StageCoefficients]) -> np.ndarray:

@@ -20,6 +20,7 @@ import numpy as np
 from .engine import (
     GAIN_DB_LIMIT,
     Circuit,
+    ExactGain,
     Response,
     StageCoefficients,
     dc_gain2,
@@ -66,20 +67,21 @@ def _golden_max(coeffs: list[StageCoefficients], a: np.ndarray, b: np.ndarray, i
     or (S, k)); ``to_hz`` maps the search variable to Hz (e.g. ``np.exp`` to search in log
     frequency; default: a and b are in Hz). Returns (x, |H|^2 at x); assumes one maximum."""
     hz = (lambda x: x) if to_hz is None else to_hz
+    gain2 = ExactGain(coeffs)  # the boards' coefficients prepared once for every step
     ratio = (math.sqrt(5) - 1) / 2
     c, d = b - ratio * (b - a), a + ratio * (b - a)
-    gc, gd = gain2_at(coeffs, hz(c)), gain2_at(coeffs, hz(d))
+    gc, gd = gain2(hz(c)), gain2(hz(d))
     for _ in range(iterations):
         left = gc > gd  # the maximum lies in [a, d], else in [c, b]
         b = np.where(left, d, b)
         a = np.where(left, a, c)
         new_c = np.where(left, b - ratio * (b - a), d)
         new_d = np.where(left, c, a + ratio * (b - a))
-        g_new = gain2_at(coeffs, hz(np.where(left, new_c, new_d)))
+        g_new = gain2(hz(np.where(left, new_c, new_d)))
         gc, gd = np.where(left, g_new, gd), np.where(left, gc, g_new)
         c, d = new_c, new_d
     x = 0.5 * (a + b)
-    return x, gain2_at(coeffs, hz(x))
+    return x, gain2(hz(x))
 
 
 def peak(coeffs: list[StageCoefficients], resp: Response) -> tuple[np.ndarray, np.ndarray]:
@@ -190,12 +192,12 @@ def _refine(coeffs: list[StageCoefficients], f_lo: np.ndarray, f_hi: np.ndarray,
     """
     a, b = np.log(f_lo), np.log(f_hi)
     t = 10 * np.log10(target2)
-    fa = (_gain_db_at(coeffs, f_lo) if lo_db is None else lo_db) - t
-    fb = (_gain_db_at(coeffs, f_hi) if hi_db is None else hi_db) - t
+    sub = ExactGain(coeffs)  # the unfinished boards' coefficients, prepared once
+    fa = (_gain_db_at(sub, f_lo) if lo_db is None else lo_db) - t
+    fb = (_gain_db_at(sub, f_hi) if hi_db is None else hi_db) - t
     side = np.zeros(a.shape)
     result = np.full(a.shape, np.nan)
     live = np.arange(a.size)  # the samples still being refined
-    sub = coeffs
     for step in range(iterations):
         denom = fb - fa
         c = np.where(denom != 0, b - fb * (b - a) / np.where(denom != 0, denom, 1), 0.5 * (a + b))
@@ -219,13 +221,13 @@ def _refine(coeffs: list[StageCoefficients], f_lo: np.ndarray, f_hi: np.ndarray,
             if not go.any():
                 break
             live, a, b, fa, fb, side, t = live[go], a[go], b[go], fa[go], fb[go], side[go], t[go]
-            sub = _rows(sub, go)
+            sub = sub.rows(go)
     return np.exp(result)
 
 
-def _gain_db_at(coeffs: list[StageCoefficients], f_hz: np.ndarray) -> np.ndarray:
+def _gain_db_at(gain2: ExactGain, f_hz: np.ndarray) -> np.ndarray:
     """10 log10 |H|^2 (dB) at per-sample frequencies (S,) Hz, exact; -3000 dB for 0."""
-    return 10 * np.log10(np.maximum(gain2_at(coeffs, f_hz), 1e-300))
+    return 10 * np.log10(np.maximum(gain2(f_hz), 1e-300))
 
 
 def _stage_poles(sc: StageCoefficients) -> np.ndarray:
