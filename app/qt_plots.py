@@ -368,12 +368,15 @@ def hold_range(vb: pg.ViewBox, axis: int, lo: float, hi: float, padding: float, 
     """Show [lo, hi] on ``vb``'s ``axis`` (0: x, 1: y), widened by ``padding`` of its width
     on each side; unless ``refit``, only when the data leave the range shown or fill less
     than half of it. A plot's range then stays put while a slider is dragged, and the view
-    is not moved (which makes pyqtgraph paint it a second time) for every result."""
+    is not moved (which makes pyqtgraph paint it a second time) for every result. A new
+    range is applied to the items at once: pyqtgraph would move them while painting, and
+    paint the plot again."""
     pad = padding * max(hi - lo, 1e-9 * max(abs(lo), abs(hi)), 1e-300)
     lo, hi = lo - pad, hi + pad
     y0, y1 = vb.viewRange()[axis]
     if refit or lo < y0 or hi > y1 or (hi - lo) < 0.5 * (y1 - y0):
         (vb.setXRange if axis == 0 else vb.setYRange)(lo, hi, padding=0)
+        vb.updateMatrix()  # now, not lazily while painting (which has the view painted twice)
 
 
 def _same(shown: tuple[np.ndarray, ...] | None, new: tuple[np.ndarray, ...]) -> bool:

@@ -144,6 +144,7 @@ class ResultsPanel(QWidget):
         lay.addWidget(self.caution)
         self.chooser.activated.connect(lambda _i: self._on_metric_chosen())
         self.view: ViewData | None = None
+        self._budget_titled = False  # the budget chart's title row shown (setTitle called once)
         self.metric_name = "cutoff_hz"
         self.highlighted: str | None = None  # the part chosen in the circuit view
 
@@ -286,13 +287,12 @@ class ResultsPanel(QWidget):
                                                                    or v.result.life is not None))
         self.budget_plot.clear()
         if b is None:
-            self.budget_plot.setTitle("no budget for this metric")
-            self.budget_plot.getAxis("left").setTicks([])  # no part names left from another metric
+            self._budget_frame("no budget for this metric", [])  # no part names left from another metric
             self.budget_plot.setXRange(0, 100, padding=0)
             return
         chosen = next((e for e in b.entries if e.ref == self.highlighted), None)
-        self.budget_plot.setTitle("" if chosen is None else
-                                  f"<span style='color:{st.VERMILION}'>{chosen.ref}: {100 * chosen.share:.3g} %</span>")
+        title = ("" if chosen is None else
+                 f"<span style='color:{st.VERMILION}'>{chosen.ref}: {100 * chosen.share:.3g} %</span>")
         entries = [e for e in b.entries if e.share > 0][:10]
         labels = [e.ref for e in entries] + (["unexplained"] if b.remainder > 0.005 else [])
         shares = [100 * e.share for e in entries] + ([100 * b.remainder] if b.remainder > 0.005 else [])
@@ -302,10 +302,22 @@ class ResultsPanel(QWidget):
                        + [st.rgba("#888888", 160)] * (len(shares) - len(entries)))
             self.budget_plot.addItem(pg.BarGraphItem(x0=0, y=ys, height=0.7, width=shares, brushes=brushes,
                                                      pen=None))
-            ax = self.budget_plot.getAxis("left")
-            ax.setTicks([[(float(y), lab) for y, lab in zip(ys, labels)]])
+            self._budget_frame(title, [[(float(y), lab) for y, lab in zip(ys, labels)]])
             self.budget_plot.setXRange(0, max(shares) * 1.1, padding=0)
             self.budget_plot.setYRange(-0.6, len(shares) - 0.4, padding=0)
+            self.budget_plot.getViewBox().updateMatrix()  # now, not while painting (a second paint)
+        else:
+            self._budget_frame(title, None)
+
+    def _budget_frame(self, title: str, ticks: list | None) -> None:
+        """The budget chart's title and part-name ticks (None: as they are), each set only
+        when it changes: pyqtgraph lays the chart out again for each, and paints it again."""
+        if self.budget_plot.getPlotItem().titleLabel.text != title or not self._budget_titled:
+            self.budget_plot.setTitle(title)
+            self._budget_titled = True
+        axis = self.budget_plot.getAxis("left")
+        if ticks is not None and ticks != axis._tickLevels:
+            axis.setTicks(ticks)
 
     def _label_metric_axis(self, axis, name: str, stage_names: list[str], values: np.ndarray) -> None:
         """Label ``axis`` with the metric and its unit. dB, degrees, Q and % are never
