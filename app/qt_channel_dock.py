@@ -39,6 +39,17 @@ def show_channel_match(window: "MainWindow") -> None:
                            "(beside the parts) to compare channels")
 
 
+def show_budget(window: "MainWindow", metric: str) -> None:
+    """Show ``metric``'s spread budget in the results panel, as choosing it in the metric
+    box does (a link in the Channel match summary)."""
+    chooser = window.results.chooser
+    i = chooser.findData(metric)
+    if i >= 0:
+        window.dock_results.raise_()
+        chooser.setCurrentIndex(i)
+        chooser.activated.emit(i)  # what a choice made in the box sends
+
+
 def install_channel_views(window: "MainWindow") -> None:
     """Add the channel views to ``window``; sets ``window.centre_tabs``, ``window.mismatch``,
     ``window.channel_editor`` and ``window.dock_channels``."""
@@ -81,6 +92,7 @@ def install_channel_views(window: "MainWindow") -> None:
     session.design_changed.connect(design_changed)
     session.view_ready.connect(view_ready)
     editor.problem_shown.connect(window.show_status)
+    mismatch.budget_requested.connect(lambda metric: show_budget(window, metric))
     window.span_table.span_selected.connect(mismatch.select)
     design_changed(session.design)
     if session.last_view is not None:

@@ -20,7 +20,7 @@ import html
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6.QtCore import QPointF, Qt
+from PySide6.QtCore import QPointF, Qt, Signal
 from PySide6.QtGui import QPolygonF
 from PySide6.QtWidgets import QGraphicsPolygonItem, QLabel, QVBoxLayout, QWidget
 
@@ -43,7 +43,11 @@ HEADROOM = 1.25  # the y range reaches this far above the highest band or limit
 class MismatchPlots(QWidget):
     """One plot per matched quantity: bands of the boards' largest channel difference and
     the match spans' limits. ``items[quantity]`` holds the drawn items by name ("low",
-    "high", "inner_low", "inner_high": band edges; "limits": one line per match span)."""
+    "high", "inner_low", "inner_high": band edges; "limits": one line per match span).
+    ``budget_requested`` carries the metric whose spread budget a link in the summary asks
+    the window to show (a match span's margin, budgeted on its mismatch)."""
+
+    budget_requested = Signal(str)
 
     def __init__(self) -> None:
         super().__init__()
@@ -51,6 +55,10 @@ class MismatchPlots(QWidget):
         self.summary.setObjectName("match_summary")
         self.summary.setWordWrap(True)
         self.summary.setTextFormat(Qt.TextFormat.RichText)
+        self.summary.setTextInteractionFlags(Qt.TextInteractionFlag.LinksAccessibleByMouse
+                                             | Qt.TextInteractionFlag.LinksAccessibleByKeyboard)
+        self.summary.linkActivated.connect(lambda link: self._on_link(link))
+        self._mask: tuple[Span, ...] = ()
         self.canvas = pg.GraphicsLayoutWidget()
         self.canvas.setObjectName("mismatch_plots")
         self.caption = QLabel("")
@@ -190,15 +198,21 @@ class MismatchPlots(QWidget):
                 lim["line"].setPen(pg.mkPen(st.SELECTED_COLOUR if on else st.CEILING_COLOUR,
                                             width=st.SELECTED_WIDTH if on else st.SPAN_WIDTH))
 
+    def _on_link(self, link: str) -> None:
+        j = int(link.removeprefix("budget:"))
+        if 0 <= j < len(self._mask):
+            self.budget_requested.emit(margin_name(self._mask[j]))
+
     def _show_summary(self, view: ViewData) -> None:
         y = view.yield_
         d = view.design
+        self._mask = d.mask
         lines = [f"<b>Yield of the matched set: {format_pct(y.estimate)}</b> "
                  f"({format_pct(y.confidence, 0)} interval {format_pct(y.low)} to {format_pct(y.high)}; "
                  f"{y.passed:,} of {y.samples:,} boards of {d.channels.count} channels meet the mask in "
                  "every channel and match)" + (" <i>preview</i>" if view.preview else "")]
         failures = {s.name: s for s in view.spans}
-        for span in d.mask:
+        for j, span in enumerate(d.mask):
             if span.kind != "match":
                 continue
             fails = failures.get(span.label)
@@ -210,7 +224,7 @@ class MismatchPlots(QWidget):
             limit = f"≤ {_limit_text(span)}"
             band = f"{format_value(span.f1, 'Hz', 4)} to {format_value(span.f2, 'Hz', 4)}"
             lines.append(f"<b>{_html(span.label)}</b> ({AXIS_WORDS[span.quantity]} {limit}, {band}): {failed}"
-                         + (f"; mismatch budget: {parts}" if parts else ""))
+                         + (f"; mismatch budget: {parts} (<a href='budget:{j}'>bars</a>)" if parts else ""))
         self.summary.setText("<br>".join(lines))
 
 

@@ -188,6 +188,18 @@ def test_channel_match_plot_shows_the_boards_differences_and_limits(iq_window, q
     assert f"{report['yield']['passed']:,} of 5,000 boards of 2 channels" in summary
     assert "mismatch budget: C2" in summary  # the capacitors are the parts that differ (README)
 
+    # the summary's first "bars" link (a click on the text, Tab to the link, Enter) shows that
+    # match span's budget in the spread budget on the right: the budget analyze --json gives
+    label = window.mismatch.summary
+    QTest.mouseClick(label, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, QPoint(10, 8))
+    QTest.keyClick(label, Qt.Key.Key_Tab)
+    QTest.keyClick(label, Qt.Key.Key_Return)
+    chooser = window.results.chooser
+    qtbot.waitUntil(lambda: chooser.currentData() == "margin.I/Q gain match", timeout=2000)
+    budget = report["budget"]["margin.I/Q gain match"]
+    top = max(budget["parts"], key=lambda p: p["share"])
+    assert top["ref"] == "C2" and f"C2 {100 * top['share']:.1f} %" in summary
+
 
 def test_channels_and_match_spans_edited_undone_saved_and_reopened(iq_window, qtbot, answers, tmp_path):
     window = iq_window
