@@ -8,6 +8,8 @@ spread budget. The selected part is drawn in the highlight colour.
 """
 from __future__ import annotations
 
+from dataclasses import replace
+
 from PySide6.QtCore import QByteArray, QPointF, QRectF, QSize, Qt, QTimer, Signal
 from PySide6.QtGui import QPainter
 from PySide6.QtSvg import QSvgRenderer
@@ -165,7 +167,9 @@ class CircuitView(QWidget):
             return
         i = min(self.stage_index, len(d.stages) - 1)
         stage = d.stages[i]
-        used = tuple(p for p in d.parts if p.ref in stage.roles.values())
+        # the drawing names each part's value and grade, not a tolerance set on the part:
+        # releasing a tolerance slider does not draw the stage again
+        used = tuple(replace(p, tolerance_pct=None) for p in d.parts if p.ref in stage.roles.values())
         key = (i, stage, used, self.selected)
         if key == self._shown_key:
             return
