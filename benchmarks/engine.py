@@ -14,13 +14,17 @@ life removed (as the demo was when the issue was filed). The demo over its range
 at -40, 25 and 85 °C) has rows of its own.
 
 ``--quick`` skips the runs of 1,000,000 boards, ``--no-gui`` the window, ``--only GROUP``
-prints one group of figures.
+prints one group of figures. ``--compare REV`` times git revision ``REV``'s engine against
+the work tree's (``REV`` exported with ``git archive``, never checked out), alternating
+child processes old, new, old, new ... (``--rounds``), so both share the machine's load
+alike and each has its own memory settings: medians of wall and CPU time per workload.
 """
 from __future__ import annotations
 
 import argparse
 import json
 import math
+import os
 import resource
 import subprocess
 import sys
@@ -70,9 +74,11 @@ class Timing:
         return f"median {self.wall * 1e3:.1f} ms wall (best {self.best * 1e3:.1f}), {self.cpu * 1e3:.1f} ms CPU"
 
 
-def side_by_side(fns: list, repeats: int = 15, warmup: int = 2, settle: tuple[int, ...] = ()) -> list[Timing]:
+def side_by_side(fns: list, repeats: int = 15, warmup: int = 2, settle: tuple[int, ...] = (),
+                 raw: bool = False) -> list:
     """Time each of ``fns`` ``repeats`` times, interleaved (one of each per round); the
-    ``settle`` ones (indexes) are called once, untimed, right before each timed call."""
+    ``settle`` ones (indexes) are called once, untimed, right before each timed call.
+    Returns a :class:`Timing` each, or with ``raw`` {"wall": [...], "cpu": [...]} (s)."""
     for fn in fns:
         for _ in range(warmup):
             fn()
@@ -86,6 +92,8 @@ def side_by_side(fns: list, repeats: int = 15, warmup: int = 2, settle: tuple[in
             fn()
             walls[k].append(time.perf_counter() - t)
             cpus[k].append(time.process_time() - c)
+    if raw:
+        return [{"wall": w, "cpu": c} for w, c in zip(walls, cpus)]
     return [Timing(min(w), float(np.median(w)), float(np.median(c))) for w, c in zip(walls, cpus)]
 
 
@@ -322,6 +330,76 @@ def scaling_table(sizes: list[int]) -> None:
         print(f"  {name:40s} {poles:5d} {f:5d} " + " ".join(f"{c:>15s}" for c in cells) + tail)
 
 
+def engine_workloads(n: int = 10_000, repeats: int = 9) -> dict:
+    """Run in a child process (``--compare``): each engine workload ``repeats`` times,
+    interleaved, after a warm-up; name -> {"wall": [...], "cpu": [...]} (s) and the
+    package's path."""
+    import tolspread
+
+    design, over = demo_at_25c(), demo_over_range()
+    prep, prep_over, bare = prepare(design), prepare(over), dc_replace(design, mask=())
+    prep_bare = prepare(bare)
+
+    def over_full() -> None:
+        from tolspread.temperature import judge_over_range
+
+        judge_over_range(over, prep_over, evaluate(over, samples=n, curves=True, phase=True, prepared=prep_over))
+
+    def over_pass_fail() -> None:
+        from tolspread.temperature import judged_ensemble
+
+        judged_ensemble(over, prep_over, evaluate(over, samples=n, curves=False, metrics=False, prepared=prep_over))
+
+    work = {
+        "full evaluation (curves, phase, every metric, margins)":
+            lambda: evaluate(design, samples=n, curves=True, phase=True, prepared=prep),
+        "the loop's work (full evaluation, no mask)":
+            lambda: evaluate(bare, samples=n, curves=True, phase=True, prepared=prep_bare),
+        "metrics and margins, no curves": lambda: evaluate(design, samples=n, curves=False, prepared=prep),
+        "pass/fail and margins only": lambda: evaluate(design, samples=n, curves=False, metrics=False, prepared=prep),
+        "over the range: full, judged at each temperature": over_full,
+        "over the range: pass/fail": over_pass_fail,
+    }
+    times = side_by_side(list(work.values()), repeats=repeats, warmup=2, raw=True)
+    return {"package": tolspread.__file__, "times": dict(zip(work, times))}
+
+
+def compare(rev: str, rounds: int) -> None:
+    """Revision ``rev``'s engine against the work tree's, alternating child processes."""
+    import statistics
+    import tempfile
+
+    from window import _export  # benchmarks/window.py: a revision as an importable package
+
+    got: dict = {"old": {}, "new": {}}
+    with tempfile.TemporaryDirectory(prefix="tolspread-old-") as tmp:
+        old_path = str(_export(rev, Path(tmp)))
+        for _ in range(rounds):
+            for which, path in (("old", old_path), ("new", None)):
+                env = dict(os.environ, PYTHONPATH=path) if path else None
+                out = subprocess.run([sys.executable, __file__, "--child-engine"], env=env, check=True,
+                                     capture_output=True, text=True, cwd=str(ROOT))
+                res = json.loads(out.stdout.strip().splitlines()[-1])
+                if (which == "old") != res["package"].startswith(old_path):
+                    raise RuntimeError(f"the {which} child imported {res['package']}")
+                for name, t in res["times"].items():
+                    for key in ("wall", "cpu"):
+                        got[which].setdefault(name, {}).setdefault(key, []).extend(t[key])
+    print(f"{AT_25C} and {OVER_RANGE}, 10,000 boards, {rev} against the work tree, {rounds} alternating "
+          f"child processes each: medians of wall / CPU time (ms)")
+    med = {w: {name: {k: statistics.median(v) * 1e3 for k, v in t.items()} for name, t in got[w].items()}
+           for w in got}
+    for name in med["new"]:
+        o, n = med["old"][name], med["new"][name]
+        print(f"  {name:50s} {rev}: {o['wall']:7.1f} / {o['cpu']:7.1f}   work tree: {n['wall']:7.1f} / "
+              f"{n['cpu']:7.1f}   ({o['wall'] / n['wall']:.2f} x wall, {o['cpu'] / n['cpu']:.2f} x CPU)")
+    for w, label in (("old", rev), ("new", "work tree")):
+        full, fast = med[w]["full evaluation (curves, phase, every metric, margins)"], \
+            med[w]["pass/fail and margins only"]
+        print(f"  {label}: pass/fail {full['wall'] / fast['wall']:.2f} x wall, {full['cpu'] / fast['cpu']:.2f} x CPU "
+              f"faster than the full evaluation")
+
+
 def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__)
     ap.add_argument("--quick", action="store_true", help="skip the 1,000,000-board runs")
@@ -329,9 +407,18 @@ def main() -> int:
     ap.add_argument("--only", choices=("loop", "passfail", "range", "recommend", "window", "million", "scaling"),
                     help="print only this group of figures")
     ap.add_argument("--child-million", type=int, help=argparse.SUPPRESS)
+    ap.add_argument("--child-engine", action="store_true", help=argparse.SUPPRESS)
+    ap.add_argument("--compare", metavar="REV", help="time git revision REV's engine against the work tree")
+    ap.add_argument("--rounds", type=int, default=4, help="alternations old/new with --compare")
     args = ap.parse_args()
     if args.child_million:
         million("demo", args.child_million)
+        return 0
+    if args.child_engine:
+        print(json.dumps(engine_workloads()))
+        return 0
+    if args.compare:
+        compare(args.compare, args.rounds)
         return 0
     design = demo_at_25c()
     n = 10_000
