@@ -1,7 +1,8 @@
 """The window, driven the way a person drives it (offscreen Qt, pytest-qt).
 
 Every readout is checked against the library: the yield against
-``tolspread.evaluate.evaluate`` + ``tolspread.stats.yield_estimate`` on the design the window
+``tolspread.temperature.judged_boards`` (over the operating range; a preview:
+``tolspread.evaluate.evaluate``) + ``tolspread.stats.yield_estimate`` on the design the window
 should now hold, curves and cursor values against ``tolspread.liveview.compute_view``.
 """
 from __future__ import annotations
@@ -31,6 +32,7 @@ from tolspread.designfile import demo_text, load, load_demo  # noqa: E402
 from tolspread.evaluate import evaluate  # noqa: E402
 from tolspread.liveview import ViewRequest, compute_view  # noqa: E402
 from tolspread.stats import yield_estimate  # noqa: E402
+from tolspread.temperature import judged_boards  # noqa: E402
 from qt_wait import settle_plot  # noqa: E402
 
 pytestmark = pytest.mark.gui
@@ -43,9 +45,15 @@ MOVE_GAP_MS = 12  # pyqtgraph drops move events closer than 10 ms apart (its mou
 # --- helpers -------------------------------------------------------------------------------
 def library_yield(design, grades=None, samples=None):
     """The yield the library computes for ``design`` (optionally with what-if grades, and
-    on the first ``samples`` boards only)."""
+    on the first ``samples`` boards only: a drag's preview). A full evaluation judges the
+    boards as the analysis does, over the operating range (the demo's -40..85 degC,
+    tests/test_demo_over_range.py checks that path independently); a preview judges them at
+    the board temperature only, as the window's preview does."""
     a = design.analysis
-    ens = evaluate(design, grades=grades, samples=samples)
+    if samples is not None:
+        ens = evaluate(design, grades=grades, samples=samples)
+    else:
+        ens = judged_boards(design, grades=grades)
     return yield_estimate(ens.passed, None, a.confidence, a.interval)
 
 
@@ -551,7 +559,7 @@ def test_export_csv_matches_the_library(window, tmp_path):
     assert header[0] == "board"
     assert header[1:1 + len(refs)] == [f"{r} (SI units)" for r in refs]
     assert header[-1] == "passes mask"
-    ens = evaluate(design)
+    ens = judged_boards(design)  # the boards judged as the yield shown (the demo: over its range)
     values = np.array([[float(x) for x in r[1:1 + len(refs)]] for r in rows[1:]])
     np.testing.assert_allclose(values, ens.values, rtol=1e-8)
     passes = np.array([int(r[-1]) for r in rows[1:]], dtype=bool)

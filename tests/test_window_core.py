@@ -33,8 +33,8 @@ from PySide6.QtWidgets import (QApplication, QDialog, QMenu, QMessageBox, QToolB
                                QToolButton)
 
 from tolspread.designfile import dumps, load, load_demo  # noqa: E402
-from tolspread.evaluate import evaluate  # noqa: E402
 from tolspread.stats import yield_estimate  # noqa: E402
+from tolspread.temperature import judged_boards  # noqa: E402
 from program_start import answers, shown, starter, wait_for_figures, yield_shown  # noqa: E402,F401 - fixtures
 
 pytestmark = pytest.mark.gui
@@ -48,9 +48,10 @@ WAIT_MS = 60_000  # a person's patience on a loaded machine; the tests do not me
 
 
 def library_yield_text(design) -> str:
-    """The yield the library computes for ``design``, as the window prints it."""
+    """The yield the library computes for ``design``, as the window prints it (judged as the
+    analysis judges: over the operating range when the design has one, as the demo does)."""
     a = design.analysis
-    y = yield_estimate(evaluate(design).passed, None, a.confidence, a.interval)
+    y = yield_estimate(judged_boards(design).passed, None, a.confidence, a.interval)
     return f"yield {100 * y.estimate:.2f} %"
 
 

@@ -29,8 +29,8 @@ from PySide6.QtSvg import QSvgRenderer
 from PySide6.QtWidgets import QApplication, QDialog, QLineEdit, QMenu, QMessageBox, QToolBar, QToolButton
 
 from tolspread.designfile import load, load_demo
-from tolspread.evaluate import evaluate
 from tolspread.stats import yield_estimate
+from tolspread.temperature import judged_boards
 
 from .conftest import WAIT_MS, close_later, export_report_html, log_errors, wait_idle, yield_shown
 from .test_window_start import small_design_file
@@ -89,8 +89,10 @@ def no_error_shown(shown) -> None:
 
 
 def library_yield(design) -> float:
+    """The yield the library computes for ``design``, judged as the analysis judges: over the
+    operating range when the design has one (the demo: -40..85 degC)."""
     a = design.analysis
-    return yield_estimate(evaluate(design).passed, None, a.confidence, a.interval).estimate
+    return yield_estimate(judged_boards(design).passed, None, a.confidence, a.interval).estimate
 
 
 def make_an_edit(qtbot, window) -> None:
