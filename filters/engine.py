@@ -50,6 +50,7 @@ __all__ = [
     "ExactGain",
     "gain2_at",
     "dc_gain2",
+    "fold_columns",
     "hf_gain2",
 ]
 
@@ -193,9 +194,37 @@ def stage_coefficients(circuit: Circuit, values: np.ndarray,
                 w_ref = float(np.median(ratio) ** (1.0 / n))
         num = num * w_ref ** np.arange(num.shape[1])
         den = den * w_ref ** np.arange(den.shape[1])
-        norm = np.max(np.abs(den), axis=1, keepdims=True)
+        norm = fold_columns(np.maximum, np.abs(den), 0.0)[:, None]  # max(|den|) along each row
         norm[norm == 0] = 1.0
         out.append(StageCoefficients(num / norm, den / norm, w_ref))
+    return out
+
+
+def fold_columns(op: np.ufunc, a: np.ndarray, empty: float | bool) -> np.ndarray:
+    """``op`` folded over the few columns of ``a`` (S, R), one column at a time: the numbers
+    of ``op.reduce(a, axis=1)`` (the same order: the first column, then each next one),
+    without numpy's cost per row for a reduction along a row (about 40-100 ns a row of 4
+    here, 5-30 x the work itself).
+
+    Parameters
+    ----------
+    op : np.ufunc
+        A binary ufunc (``np.maximum``, ``np.multiply``, ``np.logical_and``...).
+    a : np.ndarray
+        (S, R) values.
+    empty : float or bool
+        The result where R = 0.
+
+    Returns
+    -------
+    np.ndarray
+        (S,) the fold of each row.
+    """
+    if a.shape[1] == 0:
+        return np.full(a.shape[0], empty)
+    out = a[:, 0].copy()
+    for j in range(1, a.shape[1]):
+        op(out, a[:, j], out=out)
     return out
 
 

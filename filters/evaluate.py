@@ -23,6 +23,7 @@ from .engine import (
     Circuit,
     Response,
     compile_design,
+    fold_columns,
     frequency_response,
     give_scratch,
     response_blocks,
@@ -227,7 +228,7 @@ class Ensemble:
     @property
     def passed(self) -> np.ndarray:
         """True for every board that meets every span (S,)."""
-        return np.all(self.margins >= 0, axis=1)
+        return fold_columns(np.logical_and, self.margins >= 0, True)  # np.all along each row
 
 
 @dataclass(frozen=True)
