@@ -8,7 +8,8 @@ one channel looks as before); adds the "Channels" dock
 (:class:`~tolspread.app.qt_channel_editor.ChannelEditor`) tabified with the parts; and
 wires both to the session: each new view is drawn, each design shown, and the span
 table's Add match span menu follows the channel count. Selecting a match span in the
-span table draws its limit selected in the channel-match plot.
+span table draws its limit selected in the channel-match plot, and a click on a limit line
+selects its span's row.
 """
 from __future__ import annotations
 
@@ -94,6 +95,7 @@ def install_channel_views(window: "MainWindow") -> None:
     editor.problem_shown.connect(window.show_status)
     mismatch.budget_requested.connect(lambda metric: show_budget(window, metric))
     window.span_table.span_selected.connect(mismatch.select)
+    mismatch.span_selected.connect(window.span_table.select)  # a click on a limit line selects its row
     design_changed(session.design)
     if session.last_view is not None:
         view_ready(session.last_view)

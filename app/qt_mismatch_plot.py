@@ -48,6 +48,7 @@ class MismatchPlots(QWidget):
     the window to show (a match span's margin, budgeted on its mismatch)."""
 
     budget_requested = Signal(str)
+    span_selected = Signal(int)  # a click on a match span's limit line: its index in the mask
 
     def __init__(self) -> None:
         super().__init__()
@@ -173,6 +174,8 @@ class MismatchPlots(QWidget):
             line = pg.PlotCurveItem(x, y, pen=pg.mkPen(st.SELECTED_COLOUR if selected else st.CEILING_COLOUR,
                                                        width=st.SELECTED_WIDTH if selected else st.SPAN_WIDTH))
             line.setZValue(20)
+            line.setClickable(True, width=8)  # a click near the line selects its span
+            line.sigClicked.connect(lambda _item, _ev, j=j: self._on_clicked(j))
             reach = 0.5 * float(np.max(y))
             hatch = QGraphicsPolygonItem(QPolygonF([QPointF(float(a), float(b)) for a, b in zip(x, y)]
                                                    + [QPointF(float(x[-1]), float(y[-1] + reach)),
@@ -188,6 +191,10 @@ class MismatchPlots(QWidget):
             for item in (line, hatch, label):
                 plot.addItem(item, ignoreBounds=True)
             it["limits"].append(dict(index=j, span=span, line=line, hatch=hatch, label=label))
+
+    def _on_clicked(self, index: int) -> None:
+        self.select(index)
+        self.span_selected.emit(index)
 
     def select(self, index: int) -> None:
         """Draw match span ``index`` (of the mask) selected; -1 for none."""

@@ -27,7 +27,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from PySide6.QtCore import QPoint, Qt
+from PySide6.QtCore import QPoint, QPointF, Qt
 from PySide6.QtGui import QAction
 from PySide6.QtTest import QTest
 from PySide6.QtWidgets import QLineEdit
@@ -171,6 +171,20 @@ def test_channel_match_plot_shows_the_boards_differences_and_limits(iq_window, q
         x, y = lim["line"].getData()
         assert 10 ** x[0] == pytest.approx(span["f1"]) and 10 ** x[-1] == pytest.approx(span["f2"])
         np.testing.assert_allclose(np.asarray(y) * window.mismatch.scale[q], span["limit1"])
+
+    # a click on the phase limit line (a mouse press and release on the plot) selects its span's row
+    (lim,) = window.mismatch.items["phase"]["limits"]
+    x, y = lim["line"].getData()
+    plot = window.mismatch.plots["phase"]
+    qtbot.wait(100)  # the layout settles after the first paint
+    at = window.mismatch.canvas.mapFromScene(plot.vb.mapViewToScene(QPointF(float(np.mean(x)), float(y[0]))))
+    vp = window.mismatch.canvas.viewport()
+    QTest.mouseMove(vp, at)
+    qtbot.wait(20)
+    QTest.mousePress(vp, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, at)
+    QTest.mouseRelease(vp, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, at)
+    qtbot.waitUntil(lambda: window.span_table.selected() == lim["index"], timeout=2000)
+    assert window.mismatch.selected == lim["index"]
 
     # boards failing each match span, from the solution here, against analyze --json in its own process
     run = run_cli("analyze", str(EXAMPLE), "--json", str(tmp_path / "a.json"), cwd=tmp_path)
