@@ -22,7 +22,7 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QPointF, Qt, Signal
 from PySide6.QtGui import QPolygonF
-from PySide6.QtWidgets import QGraphicsPolygonItem, QLabel, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QGraphicsPolygonItem, QLabel, QSizePolicy, QVBoxLayout, QWidget
 
 from ..liveview import ViewData
 from ..mask import Span
@@ -62,6 +62,11 @@ class MismatchPlots(QWidget):
         self._mask: tuple[Span, ...] = ()
         self.canvas = pg.GraphicsLayoutWidget()
         self.canvas.setObjectName("mismatch_plots")
+        self.readout = QLabel(" ")
+        self.readout.setObjectName("match_readout")
+        self.readout.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)  # never widens the window
+        self.readout.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.canvas.scene().sigMouseMoved.connect(lambda pos: self._on_mouse_moved(pos))
         self.caption = QLabel("")
         self.caption.setObjectName("match_caption")
         self.caption.setWordWrap(True)
@@ -70,6 +75,7 @@ class MismatchPlots(QWidget):
         lay.setContentsMargins(4, 4, 4, 4)
         lay.addWidget(self.summary)
         lay.addWidget(self.canvas, 1)
+        lay.addWidget(self.readout)
         lay.addWidget(self.caption)
         self.plots: dict[str, pg.PlotItem] = {}
         self.items: dict[str, dict] = {}
@@ -77,6 +83,7 @@ class MismatchPlots(QWidget):
         self.selected = -1
         self._pending: ViewData | None = None  # the newest view, drawn when the tab is shown
         self._limits_key: dict[str, tuple] = {}  # what each plot's limit items were drawn for
+        self._shown: tuple[np.ndarray, dict, tuple[Span, ...]] | None = None  # freqs, bands, mask drawn
 
     # --- drawing -------------------------------------------------------------------------
     def show_view(self, view: ViewData) -> None:
@@ -108,6 +115,7 @@ class MismatchPlots(QWidget):
             return
         x = to_view_x(view.freqs_hz)
         mask = view.design.mask
+        self._shown = (view.freqs_hz, bands, mask)
         for q in quantities:
             b = bands[q]
             limits = [(j, s) for j, s in enumerate(mask) if s.kind == "match" and s.quantity == q]
@@ -191,6 +199,31 @@ class MismatchPlots(QWidget):
             for item in (line, hatch, label):
                 plot.addItem(item, ignoreBounds=True)
             it["limits"].append(dict(index=j, span=span, line=line, hatch=hatch, label=label))
+
+    def _on_mouse_moved(self, pos) -> None:
+        """The readout: at the frequency under the mouse, the band values of the plot under
+        it and the limit of each match span there."""
+        if self._shown is None:
+            return
+        for q, plot in self.plots.items():
+            if plot.sceneBoundingRect().contains(pos):
+                f = float(10 ** plot.vb.mapSceneToView(pos).x())
+                self.readout.setText(self.readout_text(q, f))
+                return
+
+    def readout_text(self, quantity: str, f_hz: float) -> str:
+        """What the readout says for ``quantity`` at the grid frequency nearest ``f_hz``."""
+        assert self._shown is not None
+        freqs, bands, mask = self._shown
+        k = int(np.argmin(np.abs(np.log(freqs / f_hz))))
+        b, unit = bands[quantity], SPAN_UNIT[quantity]
+        text = (f"{format_value(float(freqs[k]), 'Hz', 4)}: {AXIS_WORDS[quantity]} of the central 98 % of "
+                f"boards {eng(float(b.inner_low[k]), unit, 3)} to {eng(float(b.inner_high[k]), unit, 3)}, "
+                f"of every board up to {eng(float(b.high[k]), unit, 3)}")
+        for s in mask:
+            if s.kind == "match" and s.quantity == quantity and s.f1 * (1 - 1e-9) <= freqs[k] <= s.f2 * (1 + 1e-9):
+                text += f"; {s.label} allows {eng(float(s.limit_at(freqs[k])), unit, 3)}"
+        return text
 
     def _on_clicked(self, index: int) -> None:
         self.select(index)

@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import json
 import math
+import re
 from pathlib import Path
 
 import numpy as np
@@ -185,6 +186,17 @@ def test_channel_match_plot_shows_the_boards_differences_and_limits(iq_window, q
     QTest.mouseRelease(vp, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, at)
     qtbot.waitUntil(lambda: window.span_table.selected() == lim["index"], timeout=2000)
     assert window.mismatch.selected == lim["index"]
+
+    # the readout under the plots: the band values at the frequency under the mouse (3 digits)
+    k = int(np.argmin(np.abs(np.log(f_hz / 10 ** np.mean(x)))))
+    readout = window.mismatch.readout.text()
+    m = re.search(r"central 98 % of boards (\S+) deg to (\S+) deg, of every board up to (\S+) deg; "
+                  r"I/Q phase match allows 1 deg", readout)
+    assert m, readout
+    got = [float(v) for v in m.groups()]
+    want = [np.percentile(ours["phase"][:, k], 1, method="lower"),
+            np.percentile(ours["phase"][:, k], 99, method="higher"), ours["phase"][:, k].max()]
+    assert got == pytest.approx(want, rel=5e-3, abs=1e-6)
 
     # boards failing each match span, from the solution here, against analyze --json in its own process
     run = run_cli("analyze", str(EXAMPLE), "--json", str(tmp_path / "a.json"), cwd=tmp_path)
