@@ -65,6 +65,8 @@ class MismatchPlots(QWidget):
         self.readout = QLabel(" ")
         self.readout.setObjectName("match_readout")
         self.readout.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)  # never widens the window
+        self.readout.setWordWrap(True)  # two lines of a fixed height: the plots never move under the mouse
+        self.readout.setFixedHeight(2 * self.readout.fontMetrics().lineSpacing() + 4)
         self.readout.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         self.canvas.scene().sigMouseMoved.connect(lambda pos: self._on_mouse_moved(pos))
         self.caption = QLabel("")
@@ -146,6 +148,7 @@ class MismatchPlots(QWidget):
             plot = self.canvas.addPlot(row=row, col=0, axisItems={"bottom": _FrequencyAxis("bottom")})
             plot.setMenuEnabled(False)
             plot.setMouseEnabled(x=False, y=False)
+            plot.hideButtons()  # no auto-range button: the ranges are set here
             plot.disableAutoRange()
             plot.showGrid(x=True, y=True, alpha=st.GRID_ALPHA)
             for side in ("left", "bottom"):
