@@ -112,7 +112,7 @@ def margins(plans: list[SpanPlan], resp: Response | PowerResponse) -> np.ndarray
         (S, spans) float margins in each span's unit; positive passes.
     """
     power = resp if isinstance(resp, PowerResponse) else None
-    s = (resp.power if power is not None else resp.gain_db).shape[0]
+    s = power.boards if power is not None else resp.gain_db.shape[0]
     out = np.empty((s, len(plans)))
     done = _power_margins(power, plans, out) if power is not None else [False] * len(plans)
     for j, p in enumerate(plans):
@@ -163,28 +163,41 @@ def _span_margin(band: np.ndarray, p: SpanPlan, out: np.ndarray) -> None:
 
 def _power_margins(resp: PowerResponse, plans: list[SpanPlan], out: np.ndarray) -> list[bool]:
     """:func:`_span_margin` of the gain floors and ceilings from the power ratios of
-    ``resp`` (S, F), into ``out`` (S, spans): the same numbers. A flat limit converts the
-    extreme power over the span (the lowest gain for a floor, the highest for a ceiling;
-    1/|H|^2 turns them over), all such spans in one conversion; a sloped one converts the
-    span's columns and judges them in dB. Returns which spans were judged."""
+    ``resp`` (S, F) or, by frequency, (F, S), into ``out`` (S, spans): the same numbers. A
+    flat limit converts the extreme power over the span (the lowest gain for a floor, the
+    highest for a ceiling; 1/|H|^2 turns them over), all such spans in one conversion; a
+    sloped one converts the span's columns and judges them in dB. Returns which spans
+    were judged."""
     done = [p.span.quantity == "gain" and p.span.kind in ("floor", "ceiling") for p in plans]
     flat = [j for j, p in enumerate(plans) if done[j] and p.flat is not None]
+    along = 0 if resp.by_frequency else 1  # the frequency axis of resp.power
+
+    def band(p: SpanPlan) -> np.ndarray:
+        return resp.power[p.columns] if resp.by_frequency else resp.power[:, p.columns]
+
     for j, p in enumerate(plans):
         if done[j] and p.flat is None:
-            _span_margin(resp.gain_db(resp.power[:, p.columns]), p, out[:, j])
+            if not resp.by_frequency:
+                _span_margin(resp.gain_db(band(p)), p, out[:, j])
+                continue
+            d = np.subtract(resp.gain_db(band(p)), p.limit[:, None])  # as _span_margin, by frequency
+            if p.span.kind == "floor":
+                d.min(axis=0, out=out[:, j])
+            else:
+                np.negative(d.max(axis=0), out=out[:, j])
     if not flat:
         return done
-    extremes = np.empty((out.shape[0], len(flat)))
+    extremes = np.empty((len(flat), resp.boards))  # (spans, S): each span's a contiguous row
     for k, j in enumerate(flat):
-        band = resp.power[:, plans[j].columns]
+        b = band(plans[j])
         floor = plans[j].span.kind == "floor"
-        (band.max if floor == resp.inverse else band.min)(axis=1, out=extremes[:, k])
+        (b.max if floor == resp.inverse else b.min)(axis=along, out=extremes[k])
     db = resp.gain_db(extremes)
-    db -= np.array([plans[j].flat for j in flat])
+    db -= np.array([plans[j].flat for j in flat])[:, None]
     ceiling = [k for k, j in enumerate(flat) if plans[j].span.kind == "ceiling"]
     if ceiling:  # -(max - limit), as _span_margin
-        db[:, ceiling] = -db[:, ceiling]
-    out[:, flat] = db
+        db[ceiling] = -db[ceiling]
+    out[:, flat] = db.T
     return done
 
 

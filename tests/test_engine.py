@@ -423,16 +423,22 @@ def test_power_blocks_and_interleaved_calls_give_the_engines_numbers():
         check_power_block(cid, coeffs, whole, lo, hi, first)
         for lo, hi, blk in outer:  # each block checked before the next one takes its scratch
             check_power_block(cid, coeffs, whole, lo, hi, blk)
+        # the gain alone: blocks laid out by frequency (F, boards), the same numbers
+        for lo, hi, blk in response_blocks(circuit, coeffs, FREQS, phase=False, power=True, rows=3):
+            assert blk.by_frequency and blk.power.shape == (FREQS.size, hi - lo) and blk.phase_deg is None
+            check_power_block(cid, coeffs, whole, lo, hi, blk)
 
 
 def check_power_block(cid, coeffs, whole, lo, hi, blk):
     """A PowerResponse block against the dB path (bit for bit) and scipy.signal.freqs."""
-    np.testing.assert_array_equal(blk.gain_db(blk.power), whole.gain_db[lo:hi], err_msg=cid)
-    np.testing.assert_array_equal(blk.phase_deg, whole.phase_deg[lo:hi], err_msg=cid)
+    power = blk.power.T if blk.by_frequency else blk.power  # (boards, F)
+    np.testing.assert_array_equal(blk.gain_db(power), whole.gain_db[lo:hi], err_msg=cid)
+    if blk.phase_deg is not None:
+        np.testing.assert_array_equal(blk.phase_deg, whole.phase_deg[lo:hi], err_msg=cid)
     for i in range(lo, hi):
         b, a = scipy_ba(coeffs, i)
         _, h = scipy.signal.freqs(b, a, worN=TWO_PI * FREQS)
-        got = 1 / blk.power[i - lo] if blk.inverse else blk.power[i - lo]
+        got = 1 / power[i - lo] if blk.inverse else power[i - lo]
         np.testing.assert_allclose(got, np.abs(h) ** 2, rtol=1e-8, err_msg=cid)
 
 
