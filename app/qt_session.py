@@ -28,7 +28,7 @@ from ..designfile import check_design, dumps, load, save
 from ..errors import Cancelled, InputError, ValidationError
 from ..evaluate import Prepared, prepare
 from ..grades import Grade
-from ..liveview import SecondQuantity, ViewData, ViewRequest, compute_view
+from ..liveview import SecondQuantity, ViewData, ViewRequest, compute_view, prepared_for
 from ..memory import check_boards
 
 
@@ -87,8 +87,7 @@ class _Worker(QObject):
             if req is None:
                 return
             try:
-                if self._prepared is None or self._prepared.design is not req.design:
-                    self._prepared = prepare(req.design)
+                self._prepared = prepared_for(req.design, self._prepared)
                 big = req.design.analysis.samples >= 50_000
                 view = compute_view(
                     req, self._prepared,

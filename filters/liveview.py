@@ -18,7 +18,7 @@ from .analysis import AnalysisResult, Curves, SecondQuantity, analyze
 from .bands import Bands, pick_rows
 from .budget import Budget, metric_columns
 from .design import Design
-from .evaluate import Ensemble, Prepared
+from .evaluate import Ensemble, Prepared, prepare
 from .grades import Grade
 from .metric_names import margin_name
 from .stats import SpanFailures, YieldEstimate
@@ -31,6 +31,7 @@ __all__ = [
     "ViewData",
     "compute_view",
     "board_temperature_text",
+    "prepared_for",
 ]
 
 CURVE_LIMIT = 20_000  # boards whose curves are kept for the bands: bounded memory for big runs
@@ -186,6 +187,33 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
         drawn.gain_db[pass_rows], drawn.second[pass_rows], drawn.gain_db[fail_rows], drawn.second[fail_rows],
         metric_columns(ens), nominal_metrics, time.perf_counter() - t0, result, n < d.analysis.samples,
         reference_only)
+
+
+def prepared_for(design: Design, last: Prepared | None = None) -> Prepared:
+    """:func:`filters.evaluate.prepare` of ``design``, or ``last`` made over for it when the
+    two designs differ only in their parts' tolerances (a tolerance slider released):
+    nothing prepared (circuit, grid, nominal response, the mask's plan) depends on them.
+
+    Parameters
+    ----------
+    design : Design
+        The design to evaluate.
+    last : Prepared, optional
+        The design prepared last.
+
+    Returns
+    -------
+    Prepared
+        ``design`` prepared (its ``design`` is ``design``).
+    """
+    if last is not None and last.design is not design and _untoleranced(last.design) == _untoleranced(design):
+        return replace(last, design=design)
+    return last if last is not None and last.design is design else prepare(design)
+
+
+def _untoleranced(design: Design) -> Design:
+    """``design`` with no tolerance set on any part (each part as its grade has it)."""
+    return replace(design, parts=tuple(replace(p, tolerance_pct=None) for p in design.parts))
 
 
 def over_range_or_life(design: Design) -> bool:

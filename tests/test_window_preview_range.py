@@ -9,6 +9,7 @@ on the design with it), computed in the test.
 """
 from __future__ import annotations
 
+import numpy as np
 import pytest
 
 pytest.importorskip("PySide6")
@@ -77,3 +78,32 @@ def test_a_drag_previews_at_the_board_temperature_and_the_release_judges_over_th
     text = label.text()
     assert yield_text(ref.yield_.estimate) in text and "preview" not in text
     assert "at every judged temperature (-40, 25, 85 °C)" in text and "after 20 years" in text
+
+
+def test_a_released_tolerance_reuses_what_was_prepared_and_it_equals_a_fresh_preparation():
+    """The window's worker prepares a design once (circuit, grid, nominal response, mask
+    plan); a design that differs only in a part's tolerance reuses it. Checked against a
+    fresh :func:`prepare` of the new design, field by field, and a changed value is
+    prepared afresh."""
+    from tolspread.designfile import load_demo
+    from tolspread.evaluate import prepare
+    from tolspread.liveview import prepared_for
+
+    before = load_demo()
+    old = prepare(before)
+    after = before.with_part("C2", tolerance_pct=1.5)
+    reused, fresh = prepared_for(after, old), prepare(after)
+    assert reused.design is after and reused.nominal is old.nominal  # reused, not prepared again
+    np.testing.assert_array_equal(reused.freqs_hz, fresh.freqs_hz)
+    for name in ("gain_db", "phase_deg", "delay_s"):
+        np.testing.assert_array_equal(getattr(reused.nominal.response, name), getattr(fresh.nominal.response, name))
+    assert reused.nominal.metrics == fresh.nominal.metrics
+    np.testing.assert_array_equal(reused.nominal.margins, fresh.nominal.margins)
+    assert reused.w_refs == fresh.w_refs
+    for a, b in zip(reused.plans, fresh.plans, strict=True):
+        assert a.span == b.span
+        np.testing.assert_array_equal(a.index, b.index)
+        np.testing.assert_array_equal(a.limit, b.limit)
+    moved = before.with_part("C2", value=16e-9)  # a value: everything prepared changes
+    again = prepared_for(moved, old)
+    assert again.design is moved and again.nominal.metrics["cutoff_hz"] != old.nominal.metrics["cutoff_hz"]
