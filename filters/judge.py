@@ -181,10 +181,8 @@ def _power_margins(resp: PowerResponse, plans: list[SpanPlan], out: np.ndarray) 
                 _span_margin(resp.gain_db(band(p)), p, out[:, j])
                 continue
             d = np.subtract(resp.gain_db(band(p)), p.limit[:, None])  # as _span_margin, by frequency
-            if p.span.kind == "floor":
-                d.min(axis=0, out=out[:, j])
-            else:
-                np.negative(d.max(axis=0), out=out[:, j])
+            # (reduced into a new array: numpy reduces into a strided column of out ~5 x slower)
+            out[:, j] = d.min(axis=0) if p.span.kind == "floor" else np.negative(d.max(axis=0))
     if not flat:
         return done
     extremes = np.empty((len(flat), resp.boards))  # (spans, S): each span's a contiguous row
