@@ -27,6 +27,7 @@ if TYPE_CHECKING:
     from .qt_mainwindow import MainWindow
 
 MATCH_TAB = "Channel match"
+SPREAD_TAB = "Spread"
 
 
 def show_channel_match(window: "MainWindow") -> None:
@@ -59,7 +60,7 @@ def install_channel_views(window: "MainWindow") -> None:
     tabs.setDocumentMode(True)  # no frame: with one tab the plots look as they did
     tabs.setTabBarAutoHide(True)
     window.centre.replaceWidget(window.centre.indexOf(window.plots), tabs)
-    tabs.addTab(window.plots, "Spread")
+    tabs.addTab(window.plots, SPREAD_TAB)
     mismatch = MismatchPlots()
     editor = ChannelEditor(window.apply_edit)
     window.centre_tabs, window.mismatch, window.channel_editor = tabs, mismatch, editor
@@ -82,6 +83,7 @@ def install_channel_views(window: "MainWindow") -> None:
             tabs.addTab(mismatch, MATCH_TAB)
         elif shown and not several:
             tabs.removeTab(tabs.indexOf(mismatch))
+        tabs.setTabText(0, SPREAD_TAB + (" (channel 1)" if several else ""))  # the spread plots show channel 1
         editor.show_design(design)
         window.span_table.set_channel_count(design.channels.count)
 

@@ -139,7 +139,7 @@ def test_channel_match_plot_shows_the_boards_differences_and_limits(iq_window, q
     window = iq_window
     wait_idle(qtbot, window)
     tabs = window.centre_tabs
-    assert [tabs.tabText(i) for i in range(tabs.count())] == ["Spread", "Channel match"]
+    assert [tabs.tabText(i) for i in range(tabs.count())] == ["Spread (channel 1)", "Channel match"]
     assert not window.mismatch.plots  # nothing drawn while the tab is hidden: drawn when shown
     bar = tabs.tabBar()
     QTest.mouseClick(bar, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier, bar.tabRect(1).center())
@@ -337,7 +337,8 @@ def test_one_channel_to_two_brings_the_channel_match_tab(window, qtbot, shown):
     set_spin(qtbot, window.channel_editor.count, "2")
     qtbot.waitUntil(lambda: tabs.count() == 2, timeout=5000)
     assert design_json(window)["channels"] == {"count": 2}
-    assert tabs.tabText(1) == "Channel match" and table.add_match.isEnabled()
+    assert [tabs.tabText(i) for i in range(2)] == ["Spread (channel 1)", "Channel match"]
+    assert table.add_match.isEnabled()
     window.activateWindow()
     QTest.keyClick(window, Qt.Key.Key_3, Qt.KeyboardModifier.ControlModifier)
     qtbot.waitUntil(window.mismatch.isVisible, timeout=2000)
