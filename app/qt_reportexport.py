@@ -146,8 +146,9 @@ def _keeps_with_next(block) -> bool:
 
 def keep_with_next(doc: QTextDocument) -> int:
     """Move every heading or figure that would end a page apart from its next block (the
-    text under a heading, a figure's caption; a short table under a heading as a whole) to
-    the next page; returns how many moved.
+    text under a heading, a figure's caption; a short table under a heading, or under a
+    heading and one paragraph, as a whole: the sign-off table) to the next page; returns
+    how many moved.
     Blocks are visited in order, so a break only moves what follows it."""
     layout = doc.documentLayout()
     page_h = doc.pageSize().height()
@@ -160,6 +161,8 @@ def keep_with_next(doc: QTextDocument) -> int:
             top = layout.blockBoundingRect(block).top()
             end = layout.blockBoundingRect(nxt).bottom()
             table = QTextCursor(nxt).currentTable()
+            if table is None and block.blockFormat().headingLevel() > 0 and nxt.next().isValid():
+                table = QTextCursor(nxt.next()).currentTable()  # a heading, one paragraph, a table
             if table is not None and block.blockFormat().headingLevel() > 0:
                 whole = layout.frameBoundingRect(table)
                 if whole.height() <= SMALL_TABLE * page_h:  # a short table stays whole under its heading
@@ -217,7 +220,10 @@ def write_pdf(report: Report, path: Path) -> None:
                 writer.newPage()
             painter.save()
             painter.translate(0, -i * size.height())
-            doc.drawContents(painter, QRectF(0, i * size.height(), size.width(), size.height()))
+            # half a pixel short of the page's end: a block that starts the next page (a heading
+            # moved there) touches this page's rectangle and would be drawn here too, clipped
+            # but still in the PDF's text (found by search and by text extraction in the footer)
+            doc.drawContents(painter, QRectF(0, i * size.height(), size.width(), size.height() - 0.5))
             painter.restore()
             painter.setFont(foot)
             painter.setPen(Qt.GlobalColor.darkGray)
