@@ -612,7 +612,7 @@ def _fit(ens: Ensemble, cols: dict[str, np.ndarray], names: list[str], x_of: Cal
                 count[name] += int(ok.sum())
                 sum_y[name] += float(np.sum(y[ok]))
                 sum_x_ok[name] += x[ok].sum(axis=0)
-        del xs  # one chunk's arrays at a time
+        xs = x = None  # one chunk's arrays at a time: none held while the next is made
     mx = {g: sum_x[g] / n if n else sum_x[g] for g in groups}
     my = {name: sum_y[name] / count[name] if count[name] else 0.0 for name in names}
     # Pass 2: cross products centred on every board's mean log deviation (xc) and on each
@@ -643,7 +643,7 @@ def _fit(ens: Ensemble, cols: dict[str, np.ndarray], names: list[str], x_of: Cal
             sxy[name] += xo.T @ yc
             syy[name] += float(yc @ yc)
             sy[name] += float(np.sum(yc))
-        del xcs  # one chunk's arrays at a time
+        xcs = gs = xc = xo = None  # one chunk's arrays at a time: none held while the next is made
     out: dict[str, Budget] = {}
     betas: dict[str, np.ndarray] = {}
     for g in groups:  # one least-squares solve for every metric of a group found on every board
