@@ -171,6 +171,10 @@ class Session(QObject):
         # one preview at a time: the next starts when this one has been shown (see request)
         self._preview_running = 0  # generation of the preview being computed (0: none)
         self._next_preview: ViewRequest | None = None  # the newest preview asked for meanwhile
+        self._preview_s = 0.0  # how long the last preview took to compute (s)
+        self._preview_start = QTimer(self)  # starts the next preview when it would arrive a frame on
+        self._preview_start.setSingleShot(True)
+        self._preview_start.timeout.connect(self._start_preview)
         self._frame = QTimer(self)
         self._frame.setSingleShot(True)
         self._frame.timeout.connect(self._show_held)
@@ -338,7 +342,8 @@ class Session(QObject):
         computed at a time: one asked for while another is being computed waits until
         that one has been shown, and then only the newest waiting one starts (a drag's
         newest position), so the worker never computes frames nobody sees while the
-        window draws the last one."""
+        window draws the last one; it starts late enough to arrive a frame
+        (:data:`FRAME_S`) after the last shown, not early to wait for its frame."""
         if self._closed:
             return self._generation
         self._generation += 1
@@ -346,12 +351,13 @@ class Session(QObject):
         self._running_design = self._design
         req = ViewRequest(self._generation, self._design, self._what_if, self._second,
                           budget=boards is None, boards=boards)
-        if boards is not None and self._preview_running:
-            self._next_preview = req
-        else:
-            self._next_preview = None
-            self._preview_running = req.generation if boards is not None else 0
+        self._next_preview = req if boards is not None else None
+        if boards is None:
+            self._preview_running = 0
+            self._preview_start.stop()
             self._submit(req)
+        elif not self._preview_running and not self._preview_start.isActive():
+            self._start_preview()
         self.busy_changed.emit(True)
         return self._generation
 
@@ -359,15 +365,28 @@ class Session(QObject):
         self._worker.submit(req)
         self._wake.emit()
 
+    @Slot()
+    def _start_preview(self) -> None:
+        """Start the newest preview asked for, if any: at once, or (frames at most every
+        :data:`FRAME_S`) when, computed as long as the last, it arrives one frame after the
+        last one shown. It then shows the hand's newest position, not one that waited."""
+        req = self._next_preview
+        if req is None or self._closed or self._preview_running:
+            return
+        early = self._shown_at + FRAME_S - self._preview_s - time.perf_counter()
+        if early > 0.001:
+            self._preview_start.start(max(1, round(1000 * early)))
+            return
+        self._next_preview, self._preview_running = None, req.generation
+        self._submit(req)
+
     def _preview_done(self, generation: int) -> None:
         """The preview ``generation`` was shown, failed or stopped: start the newest one
         asked for meanwhile, if any."""
         if generation != self._preview_running:
             return
-        req, self._next_preview = self._next_preview, None
-        self._preview_running = req.generation if req is not None else 0
-        if req is not None and not self._closed:
-            self._submit(req)
+        self._preview_running = 0
+        self._start_preview()
 
     def cancel(self) -> None:
         """Stop the running evaluation; the last shown result stays.
@@ -378,6 +397,7 @@ class Session(QObject):
             return
         self._worker.cancel_through(self._generation)
         self._next_preview, self._preview_running = None, 0
+        self._preview_start.stop()
         self._held = None  # a preview waiting for its frame is not shown either
         self._frame.stop()
         self._shown_generation = self._generation
@@ -416,6 +436,7 @@ class Session(QObject):
         self.busy_changed.emit(False)
         self.view_ready.emit(view)
         if view.preview:
+            self._preview_s = min(view.elapsed_s, FRAME_S)
             self._preview_done(view.generation)
 
     @Slot(int, str, str)
@@ -442,6 +463,7 @@ class Session(QObject):
         self._generation += 1
         self._previewing = False
         self._next_preview, self._preview_running = None, 0
+        self._preview_start.stop()
         req = ViewRequest(self._generation, self._design, self._what_if, self._second)
         self._worker.cancel_through(self._generation - 1)
         view = compute_view(req)

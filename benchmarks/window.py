@@ -196,9 +196,9 @@ def slider_latency(design, drags: int = 6, moves: int = 30, move_ms: int = 16) -
     return out
 
 
-def report(drags: int = 6) -> None:
-    """Print both workloads' figures (what ``benchmarks/engine.py --only window`` prints)."""
-    for name in WORKLOADS:
+def report(drags: int = 6, names: tuple[str, ...] = WORKLOADS) -> None:
+    """Print the workloads' figures (what ``benchmarks/engine.py --only window`` prints)."""
+    for name in names:
         print(f"window, {LABELS[name]}, {SAMPLES} boards, slider C2 dragged with the mouse "
               f"(a move every 16 ms, previews on the first 1000 boards):")
         print("  " + slider_latency(workload(name), drags=drags).text())
@@ -228,11 +228,11 @@ def _child(name: str, drags: int, pythonpath: str | None) -> Latency:
     return Latency.from_dict(json.loads(res.stdout.strip().splitlines()[-1]))
 
 
-def compare(rev: str, rounds: int, drags: int) -> None:
+def compare(rev: str, rounds: int, drags: int, names: tuple[str, ...] = WORKLOADS) -> None:
     """Revision ``rev`` against the work tree, alternating child processes (see the module notes)."""
     with tempfile.TemporaryDirectory(prefix="tolspread-old-") as tmp:
         old_path = str(_export(rev, Path(tmp)))
-        for name in WORKLOADS:
+        for name in names:
             got = {"old": Latency(), "new": Latency()}
             for _ in range(rounds):
                 for which, path in (("old", old_path), ("new", None)):
@@ -248,8 +248,10 @@ def main() -> int:
     ap.add_argument("--compare", metavar="REV", help="time git revision REV against the work tree")
     ap.add_argument("--rounds", type=int, default=4, help="alternations old/new with --compare")
     ap.add_argument("--drags", type=int, default=6, help="drags per workload (per child with --compare)")
+    ap.add_argument("--workload", choices=WORKLOADS, help="only this workload (25C or range)")
     ap.add_argument("--child", choices=WORKLOADS, help=argparse.SUPPRESS)
     args = ap.parse_args()
+    names = (args.workload,) if args.workload else WORKLOADS
     if args.child:
         import tolspread
 
@@ -257,9 +259,9 @@ def main() -> int:
         print(json.dumps(slider_latency(workload(args.child), drags=args.drags).to_dict()))
         return 0
     if args.compare:
-        compare(args.compare, args.rounds, args.drags)
+        compare(args.compare, args.rounds, args.drags, names)
         return 0
-    report(args.drags)
+    report(args.drags, names)
     return 0
 
 
