@@ -30,9 +30,9 @@ CAUTION = ("Estimate under the grades' stated distributions; confirm with measur
 def _judged_how(design) -> str:
     """How a full run judges ``design``'s boards beyond the board temperature."""
     a = design.analysis
-    ways = (["over the operating range"] if a.operating_range_c is not None else []) + (
-        ["after the service life"] if a.service_hours else [])
-    return " and ".join(ways)
+    if a.operating_range_c is not None:
+        return "over the range and after the life" if a.service_hours else "over the operating range"
+    return "after the service life"
 
 
 class ResultsPanel(QWidget):
@@ -178,8 +178,8 @@ class ResultsPanel(QWidget):
         if view.preview:
             self.detail.setText(f"preview while dragging: the first {view.samples:,} of "
                                 f"{view.design.analysis.samples:,} boards"
-                                + (f" at {board_temperature_text(view.design)} only (release to judge all "
-                                   f"{_judged_how(view.design)})" if view.reference_only
+                                + (f" at {board_temperature_text(view.design)} only (release to judge "
+                                   f"all {_judged_how(view.design)})" if view.reference_only
                                    else " (release to evaluate all)"))
         else:
             self.detail.setText(f"{view.samples:,} boards, seed {view.seed}, {view.method} sampling; "
