@@ -113,3 +113,24 @@ def test_recommend_on_the_demo_judges_its_choice_over_the_range():
             d = d.with_part(part.ref, grade=grade)
         ok &= evaluate(d, samples=1000, seed=11, curves=False, metrics=False).passed
     assert r.chosen.passed == int(ok.sum())
+
+
+def test_the_25c_point_reads_the_base_run_instead_of_evaluating_its_boards_again(monkeypatch):
+    # the base run of an analysis is the boards at the design's own conditions (25 degC, at
+    # delivery): the judged point at 25 degC is those numbers (checked above against a run of
+    # its own), so only -40 and 85 degC are evaluated at delivery; after the life all three
+    import tolspread.evaluate as ev
+
+    calls = []
+    real = ev.evaluate
+
+    def counting(design, **kw):
+        calls.append(kw.get("conditions"))
+        return real(design, **kw)
+
+    monkeypatch.setattr(ev, "evaluate", counting)
+    r = analyze(load_demo(), samples=500, seed=SEED)
+    at_delivery = sorted(c.temp_low_c for c in calls if c is not None and not c.service_hours)
+    aged = sorted(c.temp_low_c for c in calls if c is not None and c.service_hours)
+    assert at_delivery == [-40.0, 85.0] and aged == [-40.0, 25.0, 85.0]
+    assert [p.temperature_c for p in r.temperature.points] == [-40.0, 25.0, 85.0]
