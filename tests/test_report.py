@@ -372,10 +372,12 @@ def test_the_report_path_evaluates_each_board_once(tmp_path, monkeypatch):
     ranges = sorted((start, start + n) for start, n, cond, d in calls if cond is None and d == demo)
     # one run per other shape; the demo is judged over its operating range, so "as graded"
     # is judged over it by a run of its own too (without a range it is the analysis's own),
-    # and each shape's boards at each judged temperature (the calls with conditions), once each
+    # and each shape's boards at each judged temperature (the calls with conditions) once,
+    # but for the board temperature's own (25 degC), which is that run
     others = [(cond, d) for *_, cond, d in calls if d != demo]
-    temps = judged_temperatures(demo.analysis)
-    assert len(temps) == 3 and len([d for cond, d in others if cond is None]) == len(SHAPES)
+    a = demo.analysis
+    temps = [t for t in judged_temperatures(a) if (t, t) != (a.temp_low_c, a.temp_high_c)]
+    assert temps == [-40.0, 85.0] and len([d for cond, d in others if cond is None]) == len(SHAPES)
     judged = [(repr(cond), repr(d)) for cond, d in others if cond is not None]
     assert len(judged) == len(set(judged)) == len(SHAPES) * len(temps)
     assert ranges[0][0] == 0 and ranges[-1][1] == 2500
