@@ -134,3 +134,35 @@ def test_the_25c_point_reads_the_base_run_instead_of_evaluating_its_boards_again
     aged = sorted(c.temp_low_c for c in calls if c is not None and c.service_hours)
     assert at_delivery == [-40.0, 85.0] and aged == [-40.0, 25.0, 85.0]
     assert [p.temperature_c for p in r.temperature.points] == [-40.0, 25.0, 85.0]
+
+
+def test_the_readme_figures_of_the_demo_are_a_run_of_tolspread_analyze():
+    # README "The demo design" table, against the command a reader runs (5,000 boards, seed
+    # 20261201: the demo's own settings)
+    import json
+    import re
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    section = readme[readme.index("## The demo design"):readme.index("## The window")]
+    rows = {m.group(1): (m.group(2), m.group(3), m.group(4), m.group(5).replace(",", ""))
+            for m in re.finditer(r"^\| (.+?) \| ([\d.]+) % \| ([\d.]+) to ([\d.]+) % \| ([\d,]+) \|$", section, re.M)}
+    run = subprocess.run([sys.executable, "-m", "tolspread.app.cli", "analyze", "--json", "-"],
+                         capture_output=True, text=True, timeout=300)
+    assert run.returncode == 0, run.stderr
+    doc = json.loads(run.stdout)
+
+    def cells(y: dict) -> tuple[str, str, str, str]:
+        return (f"{100 * y['estimate']:.2f}", f"{100 * y['ci95'][0]:.2f}", f"{100 * y['ci95'][1]:.2f}",
+                str(y["samples"] - y["passed"]))
+
+    by_t = {p["temperature_c"]: p["yield"] for p in doc["temperature"]["points"]}
+    assert rows["at 25 deg C"] == cells(by_t[25.0])
+    assert rows["at -40 deg C"] == cells(by_t[-40.0])
+    assert rows["at 85 deg C"] == cells(by_t[85.0])
+    assert rows["over the range (all three; the headline yield)"] == cells(doc["yield"]) == cells(
+        doc["temperature"]["overall"])
+    assert rows["after 20 years at 40 deg C (all three)"] == cells(doc["service_life"]["after"])
+    assert "estimate under stated" in section and "life tests of real parts" in section
