@@ -53,7 +53,8 @@ class Curves:
     boards meets the mask; ``gain_bands`` and ``second_bands`` per frequency (F,) each.
     Boards of several channels with match spans: ``channel_spread`` match quantity -> (N, F)
     the largest difference between any two channels (dB, deg or s) and ``spread_bands``
-    its bands (:mod:`filters.channel_match`); else both empty.
+    its bands, taken on first use (only the window's Channel match tab reads them:
+    :mod:`filters.channel_match`); else both empty.
     """
 
     second_kind: SecondQuantity
@@ -65,7 +66,11 @@ class Curves:
     second_bands: Bands
     start: int = 0  # the first board's index in the seed's sequence
     channel_spread: dict[str, np.ndarray] = field(default_factory=dict)
-    spread_bands: dict[str, Bands] = field(default_factory=dict)
+
+    @cached_property
+    def spread_bands(self) -> dict[str, Bands]:
+        """Bands of :attr:`channel_spread`, match quantity -> (F,) each."""
+        return {q: bands(v) for q, v in self.channel_spread.items()}
 
     @property
     def boards(self) -> int:
@@ -79,7 +84,7 @@ class Curves:
         g, s2 = self.gain_db[:n], self.second[:n]
         spread = {q: v[:n] for q, v in self.channel_spread.items()}
         return Curves(self.second_kind, self.freqs_hz, g, s2, self.passed[:n], bands(g), bands(s2), self.start,
-                      spread, {q: bands(v) for q, v in spread.items()})
+                      spread)
 
 
 @dataclass(frozen=True)
@@ -198,7 +203,7 @@ class _Runner:
         second = h.delay_s if self.second == "delay" else h.phase_deg
         assert h.gain_db is not None and second is not None
         return Curves(self.second, h.freqs_hz, h.gain_db, second, passed[:h.samples], bands(h.gain_db),
-                      bands(second), h.start, h.channel_spread, {q: bands(v) for q, v in h.channel_spread.items()})
+                      bands(second), h.start, h.channel_spread)
 
 
 def analyze(design: Design, *, samples: int | None = None, seed: int | None = None,
