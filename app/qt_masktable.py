@@ -90,10 +90,14 @@ class SpanTable(QWidget):
         self.hint.setObjectName("span_hint")
         self.hint.setWordWrap(True)
         self.hint.setStyleSheet("color: #555;")
-        for w in (self.add_phase, self.add_delay, self.add_match, self.delete):
+        for w in (self.add_phase, self.add_delay, self.delete):
             row.addWidget(w)
         row.addStretch(1)
         lay.addLayout(row)
+        match_row = QHBoxLayout()  # a row of its own: beside the others it set the window's minimum width
+        match_row.addWidget(self.add_match)
+        match_row.addStretch(1)
+        lay.addLayout(match_row)
         lay.addWidget(self.hint)  # a line of its own: beside the buttons it set the window's minimum width
         self._spans: tuple[Span, ...] = ()
         self._f_range = (1.0, 1e6)
@@ -260,6 +264,7 @@ class SpanTable(QWidget):
     def set_channel_count(self, n: int) -> None:
         """Match spans need two channels or more: the Add match span menu follows ``n``."""
         self.add_match.setEnabled(n > 1)
+        self.add_match.setVisible(n > 1)  # one channel: nothing to match, and no room taken
         self.add_match.setToolTip("a limit on the difference between channels (gain, phase or group delay)"
                                   if n > 1 else "needs two channels or more (the Channels tab)")
 

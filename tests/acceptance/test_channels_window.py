@@ -329,7 +329,7 @@ def test_one_channel_to_two_brings_the_channel_match_tab(window, qtbot, shown):
     match span added from the span table is drawn there; Undo takes both back."""
     tabs, table = window.centre_tabs, window.span_table
     assert [tabs.tabText(i) for i in range(tabs.count())] == ["Spread"] and not tabs.tabBar().isVisible()
-    assert not table.add_match.isEnabled()
+    assert not table.add_match.isEnabled() and not table.add_match.isVisible()  # one channel: hidden, no width taken
     action(window, "show_channel_match").trigger()
     assert "one channel" in window.status_text.text() and tabs.currentWidget() is window.plots
 
@@ -338,7 +338,7 @@ def test_one_channel_to_two_brings_the_channel_match_tab(window, qtbot, shown):
     qtbot.waitUntil(lambda: tabs.count() == 2, timeout=5000)
     assert design_json(window)["channels"] == {"count": 2}
     assert [tabs.tabText(i) for i in range(2)] == ["Spread (channel 1)", "Channel match"]
-    assert table.add_match.isEnabled()
+    assert table.add_match.isEnabled() and table.add_match.isVisible()
     window.activateWindow()
     QTest.keyClick(window, Qt.Key.Key_3, Qt.KeyboardModifier.ControlModifier)
     qtbot.waitUntil(window.mismatch.isVisible, timeout=2000)
