@@ -17,6 +17,7 @@ from datetime import datetime
 from typing import Any, Callable, Sequence
 
 from ..analysis import AnalysisResult
+from .channels import has_channel_match, match_section
 from .context import Context
 from .decision import comparison_section, has_measured, high_yield_section, measured_section, robustness_section
 from .document import Report, esc, svg_size
@@ -72,6 +73,7 @@ SECTIONS: list[Section] = [
     Section("high-yield", "High-yield method", high_yield_section, lambda ctx: bool(ctx.design.mask)),
     Section("failures", "Failure breakdown", failures_section),
     Section("temperature", "Over temperature and service life", temperature_section, has_temperature),
+    Section("channel-match", "Channel match", match_section, has_channel_match),
     Section("budget", "Spread budget", budget_section),
     Section("corners", "Corners and root-sum-square", corners_section),
     Section("recommendation", "Recommended grades", recommendation_section,

@@ -439,6 +439,10 @@ def svg_spread_plot(freqs_hz: np.ndarray, nominal_db: np.ndarray, bands: Bands |
         items.append((_hatch(0, 10, 18, 10, -10, PURPLE, 0, 10) +
                       f'<line x1="0" y1="10" x2="18" y2="10" stroke="{PURPLE}" stroke-width="2"/>',
                       "ceiling span"))
+    if any(s.kind == "match" for s, _ in segs):  # a limit on a difference between channels, drawn as a ceiling
+        items.append((_hatch(0, 10, 18, 10, -10, PURPLE, 0, 10) +
+                      f'<line x1="0" y1="10" x2="18" y2="10" stroke="{PURPLE}" stroke-width="2"/>',
+                      "match span limit"))
     _legend(svg, fr.x0, 18, items, width - 4)
     return svg.text()
 
