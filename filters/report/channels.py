@@ -22,7 +22,7 @@ import numpy as np
 
 from ..bands import Bands
 from ..mask import Span
-from ..metric_names import MATCH_WORDS, SPAN_UNIT, margin_name, mismatch_name
+from ..metric_names import SPAN_UNIT, margin_name, mismatch_name
 from .charts import svg_spread_plot
 from .context import Context
 from .document import esc, figure, table
@@ -177,16 +177,16 @@ def match_section(ctx: Context) -> str:
         budget = result.budget.get(mismatch_name(span)) or result.budget.get(margin_name(span))
         parts = "" if budget is None else ", ".join(
             f"{ref} {pct:.1f} %" for ref, pct in budget.rounded_percent(top=3))
-        rows.append([esc(span.label), esc(f"{MATCH_WORDS[span.quantity]} {_limit_text(span)}"),
+        rows.append([esc(span.label), esc(_limit_text(span)),
                      f"{format_quantity(span.f1, 'Hz')} to {format_quantity(span.f2, 'Hz')}",
                      format_quantity(inner, unit, signed=False), format_quantity(every, unit, signed=False),
                      "n/a" if fails is None else f"{format_count(fails.failed)} ({format_pct(fails.fraction)})",
                      "n/a" if fails is None else format_metric(fails.worst_margin_db, unit), esc(parts)])
-    add(table(["Match span", "Limit", "Band", f"Largest difference, central {b.share * 100:g} % of drawn boards",
-               "Largest difference, every drawn board", "Failing boards (all analysed)",
-               "Worst margin (all analysed)", "Mismatch budget (top parts)"], rows, numeric=[3, 4, 5, 6]))
-    add("<p>The largest differences are read in each span's band from the chart's boards; the failing boards "
-        "and the worst margin are over every analysed board (for a flat limit, the largest difference of all "
+    add(table(["Match span", "Limit", "Band", f"Largest, central {b.share * 100:g} %", "Largest, every board",
+               "Failing boards", "Worst margin", "Mismatch budget"], rows, numeric=[3, 4, 5, 6]))
+    add("<p>Limit: the largest difference allowed between any two channels. Largest: the largest difference "
+        "in the span's band over the chart's boards (the central share of them, and every one); the failing "
+        "boards and the worst margin are over every analysed board (for a flat limit, the largest difference of all "
         "boards is the limit minus the worst margin). The mismatch budget is the share of the span's margin "
         "variance explained by each part's channel-to-channel difference (see the spread budget). Estimates "
         "under the grades' stated distributions: confirm the match by measuring real boards.</p>")
