@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 import pyqtgraph.exporters
+from PySide6.QtGui import QImage, QPainter
 from PySide6.QtWidgets import QFileDialog
 
 from ..designfile import write_text_atomic
@@ -21,6 +22,23 @@ from ..errors import InputError
 if TYPE_CHECKING:
     from .qt_mainwindow import MainWindow
     from .qt_tasks import BackgroundTask
+
+
+def stacked_image(top: QImage, svgs: list[str]) -> QImage:
+    """``top`` (the spread plots as an image) with each SVG chart of ``svgs`` rendered at
+    its width below it (the PNG export's Channel match charts)."""
+    from .qt_reportexport import render_svg
+
+    images = [top] + [render_svg(svg, top.width()) for svg in svgs]
+    out = QImage(top.width(), sum(i.height() for i in images), QImage.Format.Format_ARGB32)
+    out.fill(0xFFFFFFFF)
+    painter = QPainter(out)
+    y = 0
+    for image in images:
+        painter.drawImage(0, y, image)
+        y += image.height()
+    painter.end()
+    return out
 
 
 class WindowExports:
@@ -36,8 +54,9 @@ class WindowExports:
 
     def plots(self, kind: str, path: str | None = None) -> Path | None:
         """Save the plots as PNG (both plots, as shown) or SVG (every plot shown: gain,
-        phase or delay, and the histogram, over the shown ranges); asks for a file unless
-        ``path`` is given."""
+        phase or delay, and the histogram, over the shown ranges); a design of several
+        channels with match spans adds its Channel match charts below (drawn as the
+        report draws them). Asks for a file unless ``path`` is given."""
         w = self.window
         path = path or self._ask(f"Export plots as {kind.upper()}", f"spread.{kind}", f"*.{kind}")
         if path is None:
@@ -50,7 +69,15 @@ class WindowExports:
         else:
             exporter = pyqtgraph.exporters.ImageExporter(w.plots.canvas.scene())
             exporter.parameters()["width"] = max(1200, int(w.plots.canvas.width()))
-            exporter.export(str(path))
+            from .qt_svgexport import match_svgs
+
+            view = w.session.last_view
+            below = [] if view is None else match_svgs(view)
+            if not below:
+                exporter.export(str(path))
+            elif not stacked_image(exporter.export(toBytes=True), below).save(str(path)):
+                w.show_problem("Could not write the plots", f"{path}: not written")
+                return None
         w.show_status(f"plots written to {path}")
         return Path(path)
 

@@ -3,7 +3,8 @@
 The gain plot (bands, nominal curve, mask spans), the phase or group-delay plot and, when
 the results panel shows one, the histogram of the chosen metric are drawn by the report's
 own SVG writer (:mod:`filters.report.charts`) over the ranges the window shows, and
-stacked top to bottom. The file uses only what browsers and common image converters draw
+stacked top to bottom; a design of several channels with match spans adds the Channel
+match charts below them (:func:`match_svgs`, the report's own), whether or not that tab is shown. The file uses only what browsers and common image converters draw
 alike: plain shapes, text, one clip path per plot, no nested ``<svg>``, no scripts, no
 external resources.
 """
@@ -19,6 +20,7 @@ import numpy as np
 from ..bands import Bands
 from ..designfile import write_text_atomic
 from ..liveview import ViewData
+from ..report.channels import AXIS_TITLES, svg_match_plot
 from ..report.charts import SVG_NS, svg_histogram, svg_spread_plot
 from .. import metric_names
 from ..metric_names import metric_label
@@ -27,6 +29,7 @@ WIDTH = 1100
 GAIN_HEIGHT = 480
 SECOND_HEIGHT = 360
 HIST_HEIGHT = 300
+MATCH_HEIGHT = 300  # each Channel match chart (a design of several channels with match spans)
 GAP = 12
 _PREFIX = {-15: "f", -12: "p", -9: "n", -6: "\u00b5", -3: "m", 0: ""}
 _SVG_HEAD = re.compile(r'^<svg[^>]*\swidth="(\d+)"[^>]*\sheight="(\d+)"[^>]*>', re.S)
@@ -102,12 +105,28 @@ def plots_svg(view: ViewData, gain_range: tuple[tuple[float, float], tuple[float
                                   unit=metric_names.unit(histogram_metric, view.design.mask),
                                   width=WIDTH, height=HIST_HEIGHT, ident="histogram",
                                   title=f"{name}: histogram of {label}"))
-    return stack_svgs(figs)
+    return stack_svgs(figs + match_svgs(view))
+
+
+def match_svgs(view: ViewData) -> list[str]:
+    """The Channel match charts of ``view`` (one per match quantity: the boards' largest
+    difference between channels with each match span's limit, as the report draws them;
+    :func:`filters.report.channels.svg_match_plot`), empty for a design of one channel or
+    without match spans."""
+    curves = view.result.curves
+    if curves is None or not curves.channel_spread:
+        return []
+    name = view.design.name or "design"
+    return [svg_match_plot(curves.freqs_hz, b, list(view.design.mask), q, width=WIDTH, height=MATCH_HEIGHT,
+                           ident=f"match-{q}", boards=curves.boards,
+                           title=f"{name}: {AXIS_TITLES[q]} between channels")
+            for q, b in curves.spread_bands.items()]
 
 
 def export_window_plots(window, path: str | Path) -> bool:
     """Write the plots ``window`` shows (gain; phase or delay if visible; the histogram if
-    visible) to ``path`` as SVG; False when there is nothing drawn yet."""
+    visible; the Channel match charts for a design of several channels with match spans)
+    to ``path`` as SVG; False when there is nothing drawn yet."""
     view = window.session.last_view
     if view is None:
         return False
