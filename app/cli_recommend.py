@@ -43,6 +43,11 @@ def add_parser(sub) -> None:
     r.add_argument("--compare", action="append", default=[], metavar="SET",
                    help="also judge your own set on the same boards, e.g. \"R1=R-thin-0.5,C1=C-C0G-2\" "
                         "(parts not named keep their grade; repeatable)")
+    r.add_argument("--target-after-life", action="store_true",
+                   help="when the design states a service life, require the target at delivery and after the "
+                        "life (a board passes only if it meets the mask at every judged temperature both times)")
+    r.add_argument("--json", metavar="PATH", help="also write the recommendation as JSON to PATH ('-' for stdout; "
+                                                  "the text then goes to stderr)")
     add_signoff_options(r)
 
 
@@ -60,8 +65,8 @@ def run(args: argparse.Namespace) -> int:
     from ..report import build_report, write_report
     from ..safeio import check_output_path
 
-    for option in ("--output", "--csv", "--report"):  # issue 11: '' or a device refused before the search
-        if getattr(args, option[2:]) is not None:
+    for option in ("--output", "--csv", "--report", "--json"):  # issue 11: '' or a device refused before the search
+        if getattr(args, option[2:]) is not None and not (option == "--json" and args.json == "-"):
             check_output_path(getattr(args, option[2:]), option)
     design = signed(load_demo() if args.design is None else load(args.design), args)
     if not design.mask:
@@ -77,15 +82,22 @@ def run(args: argparse.Namespace) -> int:
         sys.stderr.write(f"\r  {done:,} grade sets tried")
         sys.stderr.flush()
 
+    life_on = args.target_after_life
     rec = recommend(design, args.target_yield, confidence=args.confidence, samples=args.samples,
-                    seed=args.seed, catalog=catalog, progress=progress if sys.stderr.isatty() else None)
+                    seed=args.seed, catalog=catalog, progress=progress if sys.stderr.isatty() else None,
+                    target_after_life=life_on)
     if sys.stderr.isatty():
         sys.stderr.write("\n")
-    out = sys.stdout
+    out = sys.stderr if args.json == "-" else sys.stdout
     pct = format_pct
+    life = life_words(design)
     out.write(f"{design.name or 'design'}\n")
-    out.write(f"target: yield lower bound >= {pct(args.target_yield)} at {100 * args.confidence:g} % "
-              f"confidence ({rec.search} search, {rec.evaluations:,} grade sets tried on the same boards)\n\n")
+    when = f" at delivery and {life}" if rec.target_after_life else (" at delivery" if life else "")
+    out.write(f"target: yield lower bound >= {pct(args.target_yield)}{when} at {100 * args.confidence:g} % "
+              f"confidence ({rec.search} search, {rec.evaluations:,} grade sets tried on the same boards)\n")
+    if life_on and not life:
+        out.write("  (--target-after-life: the design states no service life, so the target applies at delivery)\n")
+    out.write("\n")
     cat = design.catalog
     boards = design.purchase.boards
     money = priced(candidate_grades(design), boards) is not None  # as the search counted
@@ -109,13 +121,8 @@ def run(args: argparse.Namespace) -> int:
             out.write(f"\n  total {unit}: {c.cost:.4g} (current grades {now_cost})\n")
         else:
             out.write(f"\n  total relative cost {c.cost:.2f} (current grades {rec.current_cost:.2f})\n")
-        out.write(f"  yield on the search boards {pct(c.estimate)}, lower bound {pct(c.lower)} "
-                  f"({c.passed:,} of {c.samples:,})\n")
-        if rec.verified is not None:
-            v = rec.verified
-            verdict = "holds" if rec.meets_on_fresh_seed else "does NOT hold"
-            out.write(f"  check on fresh boards: yield {pct(v.estimate)}, lower bound {pct(v.lower)} "
-                      f"({v.passed:,} of {v.samples:,}): the target {verdict}\n")
+        for line in chosen_lines(rec, life):
+            out.write(line + "\n")
         sets = [("current", tuple(rec.current_grades)), ("recommended", tuple(c.grades))]
         suspects = [] if args.allow_class_ii else class_ii_in_signal_path(design, c.grades)
         if suspects:
@@ -131,11 +138,11 @@ def run(args: argparse.Namespace) -> int:
                           "comparison below.\n")
                 sets.append(("no class II", tuple(alt.chosen.grades)))
         sets += own_sets
-        compared = _write_comparison(design, sets, args, unit, money, out)
+        compared = _write_comparison(design, sets, args, unit, money, out, life, rec.target_after_life)
     curve = None
     if args.curve:
         curve = cost_yield_curve(design, confidence=args.confidence, samples=args.samples, seed=args.seed,
-                                 catalog=catalog)
+                                 catalog=catalog, target_after_life=life_on)
         out.write("\n  cost-yield trade-off (cheapest set found per target)\n")
         for t, r in curve:
             cost = "no set meets it" if r.chosen is None else f"{r.chosen.cost:.2f}"
@@ -165,7 +172,24 @@ def run(args: argparse.Namespace) -> int:
               "\nRelative costs come from the catalog (the built-in costs are invented demo figures). ")
     out.write("The yield is an estimate under the grades' stated distributions; confirm it with measured "
               "parts and qualified review.\n")
+    if args.json:
+        _write_json(args.json, rec, compared, curve)
     return 0 if rec.chosen is not None else EXIT_NO_SET
+
+
+def _write_json(path: str, rec, compared: list, curve) -> None:
+    """The recommendation, the sets compared and the trade-off curve as JSON (stdout for '-')."""
+    import json
+
+    data = {"recommendation": rec.to_dict(), "compared": [r.to_dict() for r in compared],
+            "curve": None if curve is None else [{"target": t, "recommendation": r.to_dict()} for t, r in curve]}
+    text = json.dumps(data, indent=2) + "\n"
+    if path == "-":
+        sys.stdout.write(text)
+    else:
+        from ..safeio import write_text_atomic
+
+        write_text_atomic(path, text, backup=False, option="--json")
 
 
 def _shape_search(design, args: argparse.Namespace, out) -> list:
@@ -199,9 +223,11 @@ def _pair(text: str) -> tuple[str, str]:
     return ref, word
 
 
-def _write_comparison(design, sets, args: argparse.Namespace, unit: str, money: bool, out) -> list:
-    """The grade sets side by side on the same fresh boards (filters/grade_sets.py); returns
-    them (:class:`filters.grade_sets.SetResult`) for the report."""
+def _write_comparison(design, sets, args: argparse.Namespace, unit: str, money: bool, out, life: str = "",
+                      after_life: bool = False) -> list:
+    """The grade sets side by side on the same fresh boards (filters/grade_sets.py), with
+    their yield after the service life when the design states one; returns them
+    (:class:`filters.grade_sets.SetResult`) for the report."""
     from ..grade_sets import compare_sets
 
     results = compare_sets(design, sets, samples=args.samples, seed=args.seed, confidence=args.confidence)
@@ -209,16 +235,59 @@ def _write_comparison(design, sets, args: argparse.Namespace, unit: str, money: 
     rows = []
     for r in results:
         cost = f"{r.money:.4g}" if money and r.money is not None else f"{r.cost:.2f}"
-        rows.append([r.label, cost, format_pct(r.yield_.estimate),
-                     f"[{format_pct(r.yield_.low)}, {format_pct(r.yield_.high)}]", format_pct(r.lower),
-                     "meets" if r.lower >= args.target_yield else "misses"])
-    for line in table(["set", "cost", "yield", f"{100 * args.confidence:g} % interval", "lower bound", "target"],
-                      rows, "<>>>><"):
+        row = [r.label, cost, format_pct(r.yield_.estimate),
+               f"[{format_pct(r.yield_.low)}, {format_pct(r.yield_.high)}]", format_pct(r.lower)]
+        if life:
+            row += [format_pct(r.after.estimate), format_pct(r.after_lower)] if r.after is not None else ["", ""]
+        rows.append(row + ["meets" if r.meets(args.target_yield, after_life) else "misses"])
+    heads = ["set", "cost", "yield", f"{100 * args.confidence:g} % interval", "lower bound"]
+    if life:
+        heads += [f"yield {life}", "its lower bound"]
+    for line in table(heads + ["target" + (" (both)" if after_life else "")], rows, "<>>>>" + ">>" * bool(life) + "<"):
         out.write("  " + line + "\n")
+    if life:
+        out.write(f"  (yield = at delivery; {life}: the same boards after the service life, each judged at every "
+                  "judged temperature)\n")
     for r in results[2:]:
         changed = [f"{p.ref} {g}" for p, g, now in zip(design.parts, r.grades, results[0].grades) if g != now]
         out.write(f"  {r.label}: {', '.join(changed) or 'as current'}\n")
     return results
+
+
+def life_words(design) -> str:
+    """The design's service life in words ("after 20 years at 40 °C"), "" without one."""
+    from ..temperature_settings import HOURS_PER_YEAR
+
+    a = design.analysis
+    if not a.service_hours:
+        return ""
+    return f"after {a.service_hours / HOURS_PER_YEAR:.3g} years at {a.service_temp_c:g} \u00b0C"
+
+
+def chosen_lines(rec, life: str) -> list[str]:
+    """The chosen set's yield on the search boards and on fresh boards, each with its yield
+    after the service life beside it, and the caution when that falls below the target."""
+    pct = format_pct
+    c, v = rec.chosen, rec.verified
+    lines = []
+    for what, x in (("yield on the search boards", c), ("check on fresh boards: yield", v)):
+        if x is None:
+            continue
+        line = f"  {what} {pct(x.estimate)}, lower bound {pct(x.lower)} ({x.passed:,} of {x.samples:,})"
+        if x.after_passed is not None:
+            both = " (at delivery and after the life, the same boards)" if rec.target_after_life else ""
+            line = (f"  {what}{both} {pct(x.estimate)}, lower bound {pct(x.lower)} ({x.passed:,} of {x.samples:,}); "
+                    f"at delivery {pct(x.delivery_estimate)}, {life} {pct(x.after_estimate)} "
+                    f"(lower bound {pct(x.after_lower)}, {x.after_passed:,} of {x.samples:,})")
+        if x is v:
+            line += f": the target {'holds' if rec.meets_on_fresh_seed else 'does NOT hold'}"
+        lines.append(line)
+    if rec.after_life_short:
+        lines.append(f"  CAUTION: {life} this set's yield lower bound is {pct(c.after_lower)}, below the target "
+                     f"{pct(rec.target_yield)}: the target was searched at delivery only. Search with "
+                     "--target-after-life to meet it after the service life too (an estimate under the grades' "
+                     "stated drift models; confirm with life-tested parts).")
+    return lines
 
 
 def _explain_nothing(rec, args: argparse.Namespace, out) -> None:

@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import itertools
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any, Callable, Sequence
 
 import numpy as np
@@ -25,7 +25,7 @@ from .evaluate import Ensemble, Prepared, evaluate
 from .grades import Grade
 from .metric_names import margin_names
 from .stats import lower_bound
-from .temperature import judged_ensemble
+from .temperature import judge_service_life, judged_ensemble
 
 __all__ = [
     "FRESH_SEED_OFFSET",
@@ -52,7 +52,13 @@ class Candidate:
     ``grades``: grade name per part, in design order; ``cost``: sum of the grades'
     relative costs; ``passed`` of ``samples`` boards met the mask; ``lower``: one-sided
     lower confidence bound of the yield (fraction) at the search's confidence;
-    ``estimate`` = passed / samples.
+    ``estimate`` = passed / samples. These are what the search judged by: at delivery, or
+    at delivery and after the service life when the target applies after it too.
+
+    When the design states a service life and the figures were taken, ``delivery_passed`` /
+    ``delivery_lower`` count the boards meeting the mask at every judged temperature at
+    delivery and ``after_passed`` / ``after_lower`` those meeting it at every judged
+    temperature after the life (the same boards); None otherwise.
     """
 
     grades: tuple[str, ...]
@@ -61,11 +67,31 @@ class Candidate:
     samples: int
     lower: float
     estimate: float
+    delivery_passed: int | None = None
+    delivery_lower: float | None = None
+    after_passed: int | None = None
+    after_lower: float | None = None
+
+    @property
+    def delivery_estimate(self) -> float | None:
+        """Yield at delivery (fraction), None when the life figures were not taken."""
+        return None if self.delivery_passed is None else self.delivery_passed / self.samples
+
+    @property
+    def after_estimate(self) -> float | None:
+        """Yield after the service life (fraction), None when not taken."""
+        return None if self.after_passed is None else self.after_passed / self.samples
 
     def to_dict(self) -> dict[str, Any]:
-        return {"grades": list(self.grades), "cost": float(self.cost), "passed": int(self.passed),
-                "samples": int(self.samples), "lower": float(self.lower),
-                "estimate": float(self.estimate)}
+        out: dict[str, Any] = {"grades": list(self.grades), "cost": float(self.cost), "passed": int(self.passed),
+                               "samples": int(self.samples), "lower": float(self.lower),
+                               "estimate": float(self.estimate)}
+        if self.after_passed is not None:
+            out["at_delivery"] = {"passed": self.delivery_passed, "estimate": self.delivery_estimate,
+                                  "lower": self.delivery_lower}
+            out["after_life"] = {"passed": self.after_passed, "estimate": self.after_estimate,
+                                 "lower": self.after_lower}
+        return out
 
 
 
@@ -96,6 +122,8 @@ class Evaluator:
         self.cache = cache
         self.max_evaluations, self.total = max_evaluations, total
         self.progress, self.should_stop = progress, should_stop
+        #: the target applies after the service life too: every candidate is judged both ways
+        self.after_life = False
         self.evaluations = 0
         self.history: list[Candidate] = []
         self._ens: dict[tuple[str, ...], Ensemble] = {}  # feasible sets of the current round
@@ -113,19 +141,43 @@ class Evaluator:
         if self.should_stop is not None and self.should_stop():
             raise Cancelled("recommendation cancelled")
 
-    def _run(self, grades: tuple[Grade, ...], samples: int, seed: int) -> Ensemble:
+    def _run(self, grades: tuple[Grade, ...], samples: int, seed: int,
+             life: bool | None = None) -> tuple[Ensemble, np.ndarray | None, np.ndarray | None]:
+        """The boards judged; with ``life`` (default: the search judges after the life) also
+        after the design's service life. Returns the ensemble whose margins (S, spans) are
+        what the search judges by (the smallest over the judged temperatures, and over
+        delivery and after the life when the target applies after it), and the pass arrays
+        (S,) at delivery and after the life (None when not taken)."""
         self._check_stop()
         # pass/fail and margins are all a candidate needs (the shares read span margins); the
         # metrics only without a mask (the shares then fall back to the cutoff)
-        ens = evaluate(self.design, samples=samples, seed=seed, grades=grades, curves=False,
-                       metrics=not self.design.mask, prepared=self.prep, should_stop=self.should_stop)
+        base = evaluate(self.design, samples=samples, seed=seed, grades=grades, curves=False,
+                        metrics=not self.design.mask, prepared=self.prep, should_stop=self.should_stop)
         # with an operating range a board passes only at every judged temperature, as in analyze
-        return judged_ensemble(self.design, self.prep, ens, self.should_stop)
+        ens = judged_ensemble(self.design, self.prep, base, self.should_stop)
+        want = self.after_life if life is None else life
+        if not want or not self.design.analysis.service_hours:
+            return ens, None, None
+        delivery = ens.passed
+        lived = judge_service_life(self.design, self.prep, base, None, self.should_stop)  # type: ignore[arg-type]
+        after_m = lived.worst_margins  # type: ignore[union-attr]
+        after = np.all(after_m >= 0, axis=1)
+        if self.after_life:
+            ens = replace(ens, margins=np.minimum(ens.margins, after_m))
+        return ens, delivery, after
 
-    def _candidate(self, grades: tuple[Grade, ...], ens: Ensemble) -> Candidate:
+    def _candidate(self, grades: tuple[Grade, ...], ens: Ensemble, delivery: np.ndarray | None = None,
+                   after: np.ndarray | None = None) -> Candidate:
         k, n = int(np.count_nonzero(ens.passed)), ens.samples
+        life: tuple = ()
+        if delivery is not None and after is not None:
+            kd, ka = int(np.count_nonzero(delivery)), int(np.count_nonzero(after))
+            life = (kd, self._lower(kd, n), ka, self._lower(ka, n))
         return Candidate(tuple(g.name for g in grades), math.fsum(g.cost for g in grades), k, n,
-                         lower_bound(k, n, self.confidence, self.method), k / n)  # type: ignore[arg-type]
+                         self._lower(k, n), k / n, *life)
+
+    def _lower(self, k: int, n: int) -> float:
+        return lower_bound(k, n, self.confidence, self.method)  # type: ignore[arg-type]
 
     def look(self, idx: Sequence[int], target: float) -> Candidate:
         """The candidate for grade indices ``idx`` (from the cache, or evaluated now)."""
@@ -135,8 +187,8 @@ class Evaluator:
             if self.evaluations >= self.max_evaluations:
                 raise Capped
             grades = self.grades(idx)
-            ens = self._run(grades, self.samples, self.seed)
-            hit = self._candidate(grades, ens)
+            ens, delivery, after = self._run(grades, self.samples, self.seed)
+            hit = self._candidate(grades, ens, delivery, after)
             self.cache.found[key] = hit
             self.evaluations += 1
             if hit.lower >= target:
@@ -156,7 +208,7 @@ class Evaluator:
         if got is not None:
             return got
         if ens is None:  # taken from the cache of another search: evaluate again (same boards)
-            ens = self._run(self.grades(idx), self.samples, self.seed)
+            ens = self._run(self.grades(idx), self.samples, self.seed)[0]
         names = margin_names(ens.design.mask)
         if names:
             failing = [n for j, n in enumerate(names) if np.any(ens.margins[:, j] < 0)]
@@ -174,13 +226,24 @@ class Evaluator:
         self.cache.shares[key] = total
         return total
 
+    def with_life(self, idx: Sequence[int]) -> Candidate:
+        """The candidate ``idx`` on the search's boards with its after-life figures (the
+        cached one when the search took them; else evaluated again, the same boards)."""
+        hit = self.cache.found[self.names(idx)]
+        if hit.after_passed is not None or not self.design.analysis.service_hours:
+            return hit
+        grades = self.grades(idx)
+        return self._candidate(grades, *self._run(grades, self.samples, self.seed, life=True))
+
     def verify(self, idx: Sequence[int], factor: int) -> Candidate:
+        """The candidate ``idx`` on ``factor`` times the boards from a fresh seed, with its
+        after-life figures when the design states a service life."""
         key = self.names(idx)
         hit = self.cache.verified.get(key)
         if hit is None:
             grades = self.grades(idx)
-            ens = self._run(grades, factor * self.samples, self.seed + FRESH_SEED_OFFSET)
-            hit = self.cache.verified[key] = self._candidate(grades, ens)
+            hit = self.cache.verified[key] = self._candidate(
+                grades, *self._run(grades, factor * self.samples, self.seed + FRESH_SEED_OFFSET, life=True))
         return hit
 
 

@@ -13,12 +13,14 @@ import math
 from dataclasses import dataclass
 from typing import Sequence
 
+import numpy as np
+
 from .constraints import is_class_ii, priced, signal_path_capacitors
 from .design import Design
 from .errors import InputError
 from .evaluate import prepare
 from .stats import YieldEstimate, lower_bound, yield_estimate
-from .temperature import judged_boards
+from .temperature import judge_service_life, judged_boards
 
 __all__ = [
     "SetResult",
@@ -31,7 +33,11 @@ __all__ = [
 @dataclass(frozen=True)
 class SetResult:
     """One grade set judged: ``label``, grade names in parts order, relative ``cost``, money
-    per board (``money``, None without prices), the yield and its one-sided ``lower`` bound."""
+    per board (``money``, None without prices), the yield and its one-sided ``lower`` bound.
+
+    When the design states a service life: ``after`` the yield of the same boards after it
+    (each judged at every judged temperature), its ``after_lower`` bound, and ``both_lower``
+    the bound of the boards that pass at delivery and after the life; None otherwise."""
 
     label: str
     grades: tuple[str, ...]
@@ -39,11 +45,24 @@ class SetResult:
     money: float | None
     yield_: YieldEstimate
     lower: float
+    after: YieldEstimate | None = None
+    after_lower: float | None = None
+    both_lower: float | None = None
+
+    def meets(self, target: float, after_life: bool = False) -> bool:
+        """Whether the lower bound meets ``target`` (fraction): at delivery, or with
+        ``after_life`` at delivery and after the service life on the same boards."""
+        lb = self.both_lower if after_life and self.both_lower is not None else self.lower
+        return lb >= target
 
     def to_dict(self) -> dict:
         """Plain values for the JSON output."""
-        return {"label": self.label, "grades": list(self.grades), "relative_cost": self.cost,
-                "money_per_board": self.money, "yield": self.yield_.to_dict(), "lower_bound": self.lower}
+        out = {"label": self.label, "grades": list(self.grades), "relative_cost": self.cost,
+               "money_per_board": self.money, "yield": self.yield_.to_dict(), "lower_bound": self.lower}
+        if self.after is not None:
+            out.update({"after_life_yield": self.after.to_dict(), "after_life_lower_bound": self.after_lower,
+                        "delivery_and_after_life_lower_bound": self.both_lower})
+        return out
 
 
 def parse_set(design: Design, text: str, path: str = "--compare") -> tuple[str, ...]:
@@ -115,10 +134,18 @@ def compare_sets(design: Design, sets: Sequence[tuple[str, Sequence[str]]], *, s
         ens = judged_boards(d, samples=samples, seed=seed, grades=grades, prepared=prep)
         est = yield_estimate(ens.passed, None, conf, a.interval)  # type: ignore[arg-type]
         lb = float(lower_bound(int(est.passed), int(est.samples), conf, a.interval))  # type: ignore[arg-type]
+        life: tuple = ()
+        if a.service_hours:  # the same boards after the service life, at every judged temperature
+            after_m = judge_service_life(d, prep, ens, est).worst_margins  # type: ignore[union-attr]
+            after_ok = np.all(after_m >= 0, axis=1)
+            after = yield_estimate(after_ok, None, conf, a.interval)  # type: ignore[arg-type]
+            both = int(np.count_nonzero(after_ok & ens.passed))
+            life = (after, float(lower_bound(int(after.passed), int(after.samples), conf, a.interval)),  # type: ignore[arg-type]
+                    float(lower_bound(both, int(est.samples), conf, a.interval)))  # type: ignore[arg-type]
         cost = math.fsum(cat[n].cost for n in names)
         money_rows = priced([[cat[n]] for n in names], design.purchase.boards)
         money = None if money_rows is None else math.fsum(r[0].cost for r in money_rows)
-        out.append(SetResult(label, tuple(names), cost, money, est, lb))
+        out.append(SetResult(label, tuple(names), cost, money, est, lb, *life))
     return out
 
 

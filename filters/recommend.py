@@ -118,10 +118,24 @@ class Recommendation:
     reason: str = ""
     boards_needed: int | None = None
     best: Candidate | None = None
+    target_after_life: bool = False
+    service_hours: float = 0.0
+    service_temp_c: float = 25.0
+
+    @property
+    def after_life_short(self) -> bool:
+        """True when the design states a service life and the chosen set's after-life yield
+        lower bound (on the search's boards) is below the target: the caution to show."""
+        c = self.chosen
+        return c is not None and c.after_lower is not None and c.after_lower < self.target_yield
 
     def to_dict(self) -> dict[str, Any]:
         refs = [p.ref for p in self.design.parts]
         return {
+            "target_after_life": bool(self.target_after_life),
+            "service_life": ({"hours": self.service_hours, "temperature_c": self.service_temp_c}
+                             if self.service_hours else None),
+            "after_life_below_target": self.after_life_short,
             "current_grades": dict(zip(refs, self.current_grades)),
             "current_cost": float(self.current_cost),
             "reason": self.reason,
@@ -216,6 +230,15 @@ def _temperature_extent(g: Grade, t_low: float, t_high: float) -> float:
     return (abs(g.tempco_ppm) + g.tempco_spread_ppm) * 1e-6 * dt
 
 
+def _life_extent(g: Grade) -> tuple[float, float]:
+    """What a grade states of its life: load-life drift at its rating (%, with the rating's
+    hours and temperature folded in through a 1,000 h, 70 deg C reference) and class II ageing
+    per decade (%). A grade with more of either is not dominated by one with less."""
+    from .temperature_physics import life_fraction
+
+    return (life_fraction(g, 1000.0, 70.0), g.ageing_pct_per_decade)
+
+
 def _dominates(h: Grade, g: Grade, t_low: float, t_high: float) -> bool:
     """True when grade ``h`` is never worse than ``g`` and strictly better somewhere: no
     dearer, the same distribution shape, no wider tolerance, temperature effect or drift.
@@ -226,8 +249,8 @@ def _dominates(h: Grade, g: Grade, t_low: float, t_high: float) -> bool:
         (g.distribution, g.coverage, g.truncate, g.bin_inner_pct)
     if not same_shape or h.tempco_ppm != g.tempco_ppm and _temperature_extent(g, t_low, t_high) > 0:
         return False
-    keys_h = (h.cost, h.tolerance_pct, _temperature_extent(h, t_low, t_high), h.drift_pct)
-    keys_g = (g.cost, g.tolerance_pct, _temperature_extent(g, t_low, t_high), g.drift_pct)
+    keys_h = (h.cost, h.tolerance_pct, _temperature_extent(h, t_low, t_high), h.drift_pct, _life_extent(h))
+    keys_g = (g.cost, g.tolerance_pct, _temperature_extent(g, t_low, t_high), g.drift_pct, _life_extent(g))
     return all(x <= y for x, y in zip(keys_h, keys_g)) and keys_h != keys_g
 
 
@@ -279,15 +302,15 @@ def current_cost(design: Design, catalog: Catalog | None = None) -> float:
 # --- public entry points -------------------------------------------------------------------
 
 def _cache_key(design: Design, cands: list[list[Grade]], samples: int, seed: int,
-               confidence: float, method: str) -> tuple:
-    return (id(design), tuple(tuple(cs) for cs in cands), samples, seed, confidence, method)
+               confidence: float, method: str, after_life: bool = False) -> tuple:
+    return (id(design), tuple(tuple(cs) for cs in cands), samples, seed, confidence, method, after_life)
 
 
 def recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
               samples: int | None = None, seed: int | None = None, catalog: Catalog | None = None,
               method: str = "wilson", verify_factor: int = 4, max_evaluations: int = 400,
               exhaustive_limit: int = 256, progress: Callable[[int, int], None] | None = None,
-              should_stop: Callable[[], bool] | None = None) -> Recommendation:
+              should_stop: Callable[[], bool] | None = None, target_after_life: bool = False) -> Recommendation:
     """The cheapest set of catalog grades whose yield lower bound meets ``target_yield``.
 
     ``target_yield`` is a fraction in (0, 1); ``confidence`` a fraction in [0.5, 1): the
@@ -367,6 +390,11 @@ def recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
         ``progress(done, total)`` after each evaluated set (counts of sets).
     should_stop : callable, optional
         ``should_stop()`` returning True cancels the search.
+    target_after_life : bool
+        When the design states a service life, a board passes only if it meets the mask at
+        every judged temperature at delivery and after the life (the target then applies
+        after the life too). Default False: the target applies at delivery; the after-life
+        yield of the chosen set is shown beside it either way (``after_life_short``).
 
     Returns
     -------
@@ -384,14 +412,14 @@ def recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
     return _recommend(design, target_yield, confidence=confidence, samples=samples, seed=seed,
                       catalog=catalog, method=method, verify_factor=verify_factor,
                       max_evaluations=max_evaluations, exhaustive_limit=exhaustive_limit,
-                      progress=progress, should_stop=should_stop)
+                      progress=progress, should_stop=should_stop, target_after_life=target_after_life)
 
 
 def _recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
                samples: int | None = None, seed: int | None = None, catalog: Catalog | None = None,
                method: str = "wilson", verify_factor: int = 4, max_evaluations: int = 400,
                exhaustive_limit: int = 256, progress: Callable[[int, int], None] | None = None,
-               should_stop: Callable[[], bool] | None = None,
+               should_stop: Callable[[], bool] | None = None, target_after_life: bool = False,
                _caches: dict[tuple, SearchCache] | None = None,
                _prep: Prepared | None = None) -> Recommendation:
     target = _fraction(target_yield, "target_yield", 0.0, lo_closed=False)
@@ -406,18 +434,23 @@ def _recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
     cap = _whole(max_evaluations, "max_evaluations", 1)
     limit = _whole(exhaustive_limit, "exhaustive_limit", 0)
     cands = candidate_grades(design, catalog)
-    key = _cache_key(design, cands, n, seed_, conf, method)
+    if not isinstance(target_after_life, (bool, np.bool_)):
+        raise InputError(f"must be true or false, not {target_after_life!r}", "target_after_life")
+    a = design.analysis
+    life_on = bool(target_after_life) and bool(a.service_hours)
+    key = _cache_key(design, cands, n, seed_, conf, method, life_on)
     cache = (_caches if _caches is not None else {}).setdefault(key, SearchCache(key))
     combos = math.prod(len(c) for c in cands)
     exhaustive = combos <= limit
     search = "exhaustive" if exhaustive else "guided"
 
     now = (tuple(p.grade for p in design.parts), current_cost(design, catalog))
+    life = (life_on, a.service_hours, a.service_temp_c)
 
     def empty(note: str, reason: str, evaluations: int = 0, history: list[Candidate] | None = None,
               capped: bool = False, need: int | None = None, best: Candidate | None = None) -> Recommendation:
         return Recommendation(target, conf, None, None, False, design, evaluations, history or [],
-                              search, capped, note, method, seed_, *now, reason, need, best)
+                              search, capped, note, method, seed_, *now, reason, need, best, *life)
 
     if lower_bound(n, n, conf, method) < target:  # type: ignore[arg-type]
         need = boards_needed(target, conf, method)
@@ -434,6 +467,7 @@ def _recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
                          "seed)", "samples") from None
     ev = Evaluator(design, prep, cands, n, seed_, conf, method, cache, cap,
                     min(combos, cap) if exhaustive else cap, progress, should_stop)
+    ev.after_life = life_on
     capped = False
     try:
         idx, note = (exhaustive_search if exhaustive else guided_search)(ev, target)
@@ -445,11 +479,12 @@ def _recommend(design: Design, target_yield: float, *, confidence: float = 0.95,
                    if idx is not None else "no set seen so far meets the target"))
     if idx is None:
         return _nothing_chosen(empty, note, ev, target, conf, method, capped)
-    chosen = cache.found[ev.names(idx)]
+    chosen = ev.with_life(idx)  # with its after-life figures when the design states a life
     verified = ev.verify(idx, factor)
     return Recommendation(target, conf, chosen, verified, verified.lower >= target,
                           design_with_grades(design, ev.grades(idx)), ev.evaluations, ev.history,
-                          search, capped, note, method, seed_, *now)
+                          search, capped, note, method, seed_, *now, target_after_life=life_on,
+                          service_hours=a.service_hours, service_temp_c=a.service_temp_c)
 
 
 def _nothing_chosen(empty: Callable[..., Recommendation], note: str, ev: Evaluator, target: float,
