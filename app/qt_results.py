@@ -321,8 +321,15 @@ class ResultsPanel(QWidget):
 
     def _label_metric_axis(self, axis, name: str, stage_names: list[str], values: np.ndarray) -> None:
         """Label ``axis`` with the metric and its unit. dB, degrees, Q and % are never
-        SI-scaled; Hz and seconds get one fixed prefix chosen from the data (kHz, µs)."""
+        SI-scaled; Hz and seconds get one fixed prefix chosen from the data (kHz, µs).
+        Over an operating range the label says where the boards' numbers are from: a metric
+        at the board temperature ("at 25 °C"), a margin the worst over the judged temperatures."""
         base = metric_names.metric_words(name, stage_names)
+        v = self.view
+        if v is not None and v.design.analysis.operating_range_c is not None:
+            judged = v.result is not None and v.result.temperature is not None  # a preview is not
+            base += (" (worst over the range)" if judged and metric_names.is_margin(name)
+                     else f" at {board_temperature_text(v.design)}")
         unit = metric_names.unit(name, self.view.design.mask if self.view is not None else None)
         if unit in ("Hz", "s") and values.size:
             prefix, factor = prefix_for(float(np.max(np.abs(values))))

@@ -104,7 +104,9 @@ def parts_list_rows(design: Design, recommendation: "Recommendation | None",
     ``share of spread budget (%)`` is the part's share of ``metric``'s variance in
     ``budget`` (from :func:`filters.budget.spread_budget`), by default ``cutoff_hz`` (else
     the first span margin); pass ``metric=worst_margin_metric(ens)`` for the worst span.
-    ``budget metric`` names that metric in words (``margin of 'corner floor' (dB)``).
+    ``budget metric`` names that metric in words (``margin of 'corner floor' (dB)``), and
+    over an operating range which budget it is (the budget's ``basis``: ``margin of 'corner
+    floor' (dB), over -40 to 85 °C, worst judged temperature``; a metric's ``at 25 °C``).
     Blank without a budget.
 
     Parameters
@@ -141,6 +143,8 @@ def parts_list_rows(design: Design, recommendation: "Recommendation | None",
         shares = {e.ref: e.share for e in budget[metric].entries}
     metric_words = (metric_label(metric, [s.name for s in shown.stages], shown.mask)
                     if shares and metric else "")
+    if shares and metric and budget[metric].basis:  # over a range or after a life: which budget it is
+        metric_words += f", {budget[metric].basis}"
     rows = []
     for p, g in zip(shown.parts, grades):
         unit = PART_UNITS.get(p.kind, "")
