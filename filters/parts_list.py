@@ -37,7 +37,7 @@ __all__ = [
 
 PARTS_COLUMNS: tuple[str, ...] = (
     "ref", "nominal value", "series", "nearest preferred value", "grade", "tolerance (\u00b1 %)",
-    "IEC 60062 letter", "tempco (ppm/K)", "technology", "relative cost",
+    "IEC 60062 letter", "tempco (ppm/K)", "drift", "technology", "relative cost",
     "share of spread budget (%)", "budget metric")
 #: First characters that make a spreadsheet program read a cell as a formula.
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
@@ -100,7 +100,9 @@ def parts_list_rows(design: Design, recommendation: "Recommendation | None",
     preferred value``: the nearest value of the series usual for the grade's tolerance,
     named with that series (a different value changes the design and needs a new
     analysis). ``tolerance (± %)`` with its IEC 60062 letter (blank if it has none);
-    ``tempco (ppm/K)`` as ``nominal ± spread``; ``relative cost`` the catalog's.
+    ``tempco (ppm/K)`` as ``nominal ± spread``; ``drift`` as the grade states it (a fixed
+    drift, its load-life rating, class II ageing per decade-hour; "none");
+    ``relative cost`` the catalog's.
     ``share of spread budget (%)`` is the part's share of ``metric``'s variance in
     ``budget`` (from :func:`filters.budget.spread_budget`), by default ``cutoff_hz`` (else
     the first span margin); pass ``metric=worst_margin_metric(ens)`` for the worst span.
@@ -145,6 +147,8 @@ def parts_list_rows(design: Design, recommendation: "Recommendation | None",
                     if shares and metric else "")
     if shares and metric and budget[metric].basis:  # over a range or after a life: which budget it is
         metric_words += f", {budget[metric].basis}"
+    from .report.words import drift_text
+
     rows = []
     for p, g in zip(shown.parts, grades):
         unit = PART_UNITS.get(p.kind, "")
@@ -165,6 +169,7 @@ def parts_list_rows(design: Design, recommendation: "Recommendation | None",
             "tolerance (\u00b1 %)": g.tolerance_pct,
             "IEC 60062 letter": tolerance_letter(g.tolerance_pct) or "",
             "tempco (ppm/K)": f"{g.tempco_ppm:g} \u00b1 {g.tempco_spread_ppm:g}",
+            "drift": drift_text(g),
             "technology": g.technology,
             "relative cost": g.cost,
             "share of spread budget (%)": "" if share is None else round(100.0 * share, 1),

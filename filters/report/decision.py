@@ -55,6 +55,7 @@ def comparison_section(ctx: Context) -> str:
     """
     sets, target, d = ctx.comparison, ctx.target, ctx.design
     money, unit = _cost_unit(ctx)
+    both_ways = bool(getattr(ctx.recommendation, "target_after_life", False))  # the target applied after the life too
     first = sets[0]
     conf = f"{first.yield_.confidence * 100:g} %"
     rows = []
@@ -63,11 +64,18 @@ def comparison_section(ctx: Context) -> str:
         what = ("the grades the search started from" if r is first
                 else (", ".join(changed) or f"the same as {esc(first.label)}"))
         cost = f"{r.money:.4g}" if money else format_cost(r.cost)
-        rows.append([esc(r.label), what, cost, format_pct(r.yield_.estimate),
-                     f"{format_pct(r.yield_.low)} to {format_pct(r.yield_.high)}", format_pct(r.lower),
-                     _verdict(r.lower, target)])
+        life = getattr(r, "after", None) is not None
+        row = [esc(r.label), what, cost, format_pct(r.yield_.estimate),
+               f"{format_pct(r.yield_.low)} to {format_pct(r.yield_.high)}", format_pct(r.lower)]
+        if any(getattr(x, "after", None) is not None for x in sets):  # the design states a service life
+            row += [format_pct(r.after.estimate), format_pct(r.after_lower)] if life else ["", ""]
+        both = both_ways and getattr(r, "both_lower", None) is not None
+        rows.append(row + [_verdict(r.both_lower if both else r.lower, target)])
     head = ["Set", "Grades (changes from the first set)", f"Cost ({unit})", "Yield", f"{conf} interval",
-            "Lower bound", "Target"]
+            "Lower bound"]
+    if any(getattr(x, "after", None) is not None for x in sets):
+        head += ["Yield after the service life", "Its lower bound"]
+    head += ["Target" + ("" if len(head) == 6 else " (delivery and life)" if both_ways else " (at delivery)")]
     out = [f"<p>Each set judged on the same {format_count(first.yield_.samples)} boards (the same seed); the "
            f"lower bound is one-sided at {conf}"
            + (f" and must reach the target <b>{format_pct(target, 1)}</b>." if target is not None else ".")

@@ -187,6 +187,7 @@ def recommendation_html(d, rec, current=None) -> str:
     out.append(f"<p>On the {format_count(ch.samples)} boards the search used ({on}): yield {format_pct(ch.estimate)}, "
                f"lower bound <b>{format_pct(ch.lower)}</b> ({format_count(ch.passed)} of "
                f"{format_count(ch.samples)} boards pass).</p>")
+    out.extend(_life_html(rec))
     v = rec.verified
     if v is None:
         out.append("<p>Not checked on fresh boards.</p>")
@@ -197,6 +198,33 @@ def recommendation_html(d, rec, current=None) -> str:
                    f"{format_pct(v.lower)} ({format_count(v.passed)} of {format_count(v.samples)} boards pass); "
                    f"the choice {verdict}.</p>")
     return "\n".join(out)
+
+
+def _life_html(rec) -> list[str]:
+    """The chosen set's yield after the design's service life (the search's and the fresh
+    boards), what the target applied to, and the caution when after-life falls short."""
+    ch, v = rec.chosen, rec.verified
+    if getattr(ch, "after_passed", None) is None:
+        return []
+    from ..temperature_settings import HOURS_PER_YEAR
+
+    years = rec.service_hours / HOURS_PER_YEAR
+    life = f"after {years:.3g} years at {rec.service_temp_c:g} \u00b0C"
+    fresh = ("" if v is None or v.after_passed is None else
+             f"; on the fresh boards {format_pct(v.after_estimate)}, lower bound {format_pct(v.after_lower)}")
+    target = ("at delivery and after the service life (a board passes only if it meets the mask at every judged "
+              "temperature both times)" if rec.target_after_life else "at delivery only")
+    out = [f"<p>Service life: {life}, the same boards each judged at every judged temperature. Yield at delivery "
+           f"{format_pct(ch.delivery_estimate)}, <b>{life} {format_pct(ch.after_estimate)}</b>, lower bound "
+           f"{format_pct(ch.after_lower)} ({format_count(ch.after_passed)} of {format_count(ch.samples)} boards)"
+           f"{fresh}. The target applied {target}.</p>"]
+    if rec.after_life_short:
+        out.append(f'<p class="bad">Caution: {life} the recommended set\u2019s yield lower bound is '
+                   f"{format_pct(ch.after_lower)}, below the target {format_pct(rec.target_yield, 1)}. Search with "
+                   "the target after the life (tolspread recommend --target-after-life, or the window's check box) "
+                   "before choosing these grades; the after-life yield is an estimate under the grades' stated drift "
+                   "models, to be confirmed with life-tested parts.</p>")
+    return out
 
 
 def cell(x: Any) -> str:

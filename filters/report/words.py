@@ -76,7 +76,10 @@ def tempco_text(g: Grade) -> str:
 
 
 def drift_text(g: Grade) -> str:
-    """A grade's drift in words.
+    """A grade's drift in words, as the grade states it: a fixed drift (plus/minus %), its
+    load-life rating ("load life ±1 % after 1,000 h at 70 °C", with the activation energy
+    that scales it to other temperatures) and class II ageing (% per decade of hours);
+    "none" when it states none of them.
 
     Parameters
     ----------
@@ -88,7 +91,16 @@ def drift_text(g: Grade) -> str:
     str
         The words.
     """
-    return f"\u00b1{g.drift_pct:g} %" if g.drift_pct else "none"
+    parts = []
+    if g.drift_pct:
+        parts.append(f"\u00b1{g.drift_pct:g} %")
+    if g.life_drift_pct:
+        scale = f", scaled by {g.activation_ev:g} eV" if g.activation_ev else ""
+        parts.append(f"load life \u00b1{g.life_drift_pct:g} % after {g.life_hours:,.0f} h at "
+                     f"{g.life_temp_c:g} \u00b0C{scale}")
+    if g.ageing_pct_per_decade:
+        parts.append(f"ageing {g.ageing_pct_per_decade:g} % per decade-hour")
+    return "; ".join(parts) or "none"
 
 
 INTERVAL_NAMES = {"wilson": "Wilson score interval (without continuity correction)",
