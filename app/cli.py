@@ -141,6 +141,9 @@ SUBCOMMANDS = tuple(RUNNERS)
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``tolspread`` command; returns the exit status."""
+    from ..freed_memory import reuse_freed_memory
+
+    reuse_freed_memory()  # the program's own process: freed curves reused, not mapped afresh
     argv = list(sys.argv[1:] if argv is None else argv)
     parser = build_parser()
     design_path: str | None = None

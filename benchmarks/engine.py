@@ -45,6 +45,10 @@ from tolspread.designfile import load, load_demo  # noqa: E402
 from tolspread.engine import compile_design, stage_coefficients  # noqa: E402
 from tolspread.evaluate import evaluate, frequency_grid, prepare  # noqa: E402
 
+# the tolspread program's own memory setting, made at its start (an older revision under
+# --compare may not have it)
+getattr(__import__("tolspread.evaluate", fromlist=["x"]), "reuse_freed_memory", lambda: False)()
+
 EXAMPLE = ROOT / "assets" / "examples" / "ultrasonic_bandpass.json"
 AT_25C = "the demo at 25 °C"  # issue 13's workload: see demo_at_25c()
 OVER_RANGE = "the demo over its range"

@@ -102,6 +102,8 @@ def slider_latency(design, drags: int = 6, moves: int = 30, move_ms: int = 16) -
 
     from tolspread.app.qt_main import make_window
 
+    getattr(__import__("tolspread.evaluate", fromlist=["x"]), "reuse_freed_memory", lambda: False)()  # as the tolspread program does at start
+
     app = QApplication.instance() or QApplication([])
 
     def wait(ms: int) -> None:

@@ -39,6 +39,7 @@ from .metrics import GridScan, attenuation_db, cutoff_metrics, lowpass_level_db,
 from .channel_match import evaluate_channels, match_quantities, sample_values
 from .sampling import Conditions, draw_scores
 from .workers import POOL, WORKERS
+from .freed_memory import reuse_freed_memory  # re-exported: the program's memory setting
 
 __all__ = [
     "CHUNK_MAX",
@@ -62,46 +63,6 @@ __all__ = [
 CHUNK_MAX = 8192  # boards per chunk at most: bounds the per-chunk arrays (a few x 8192 x F floats)
 STOP_POLL_S = 0.01  # how often a waiting evaluation asks should_stop (s)
 _SCORES: dict[tuple, np.ndarray] = {}
-#: glibc's malloc settings (bytes) set by :func:`reuse_freed_memory`: arrays up to the first
-#: from the heap, and up to the second kept there when freed
-MALLOC_MMAP_THRESHOLD, MALLOC_TRIM_THRESHOLD = 32 * 2 ** 20, 128 * 2 ** 20
-
-
-def reuse_freed_memory() -> bool:
-    """Let glibc's malloc hand freed arrays of up to 32 MiB to the next evaluation instead
-    of giving the pages back to the system at once (Linux with glibc; elsewhere nothing).
-
-    By default glibc maps an array of the size of a 10,000-board curve (32 MB) afresh on
-    every evaluation and unmaps it when freed, so each evaluation page-faults on every page
-    of its curves and the kernel zeroes them: about 1,200 page faults and 6-25 ms of system
-    time for the demo's full evaluation at 10,000 boards, against 4 page faults with these
-    settings. The price: up to :data:`MALLOC_TRIM_THRESHOLD` of freed memory stays in the
-    process for reuse. Set ``MALLOC_MMAP_THRESHOLD_`` or ``MALLOC_TRIM_THRESHOLD_`` in the
-    environment to keep glibc's own choice.
-
-    Returns
-    -------
-    bool
-        True when the settings were applied.
-    """
-    import ctypes
-    import os
-    import sys
-
-    if not sys.platform.startswith("linux") or {"MALLOC_MMAP_THRESHOLD_", "MALLOC_TRIM_THRESHOLD_"} & set(os.environ):
-        return False
-    try:
-        mallopt = ctypes.CDLL("libc.so.6").mallopt
-    except (OSError, AttributeError):  # not glibc
-        return False
-    m_trim_threshold, m_mmap_threshold = -1, -3  # glibc's malloc.h
-    return bool(mallopt(m_mmap_threshold, MALLOC_MMAP_THRESHOLD)) and bool(mallopt(m_trim_threshold,
-                                                                                    MALLOC_TRIM_THRESHOLD))
-
-
-reuse_freed_memory()
-
-
 def chunk_size(samples: int) -> int:
     """Boards per chunk: the fewest rounds of equal chunks, one per thread in each round,
     with no chunk above :data:`CHUNK_MAX` (an unequal last round leaves a thread idle).

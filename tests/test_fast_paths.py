@@ -17,6 +17,9 @@ References used below:
 from __future__ import annotations
 
 import math
+import os
+import subprocess
+import sys
 from dataclasses import replace
 
 import numpy as np
@@ -223,3 +226,36 @@ def test_repeated_full_evaluations_reuse_freed_memory():
     for _ in range(3):
         evaluate(design, samples=10_000, curves=True, phase=True, prepared=prep)
     assert (resource.getrusage(resource.RUSAGE_SELF).ru_minflt - before) / 3 < 300
+
+
+def test_the_memory_setting_is_the_programs_not_the_librarys():
+    # glibc's mallopt(3) changes the whole process: importing the library must not make it,
+    # the tolspread program makes it at start. ctypes.CDLL is wrapped to record the calls
+    code = """
+import ctypes, sys
+calls = []
+class Recording(ctypes.CDLL):
+    def __getattr__(self, name):
+        f = super().__getattr__(name)
+        if name != "mallopt":
+            return f
+        def record(*a):
+            calls.append(a)
+            return f(*a)
+        return record
+ctypes.CDLL = Recording
+import tolspread.evaluate, tolspread.analysis, tolspread.recommend
+print(len(calls))
+from tolspread.app.cli import main
+try:
+    main(["--version"])
+except SystemExit:
+    pass
+print(len(calls))
+"""
+    env = {k: v for k, v in os.environ.items() if not k.startswith("MALLOC_")}
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, check=True)
+    counts = [int(line) for line in out.stdout.split() if line.isdigit()]
+    assert counts[0] == 0, "importing the library set malloc"
+    if sys.platform.startswith("linux"):
+        assert counts[-1] == 2, "the program did not set malloc's two thresholds at start"
