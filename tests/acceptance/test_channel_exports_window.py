@@ -8,6 +8,9 @@ example's Sallen-Key channels (tests/acceptance/test_channels_window.py)."""
 from __future__ import annotations
 
 import re
+import shutil
+import subprocess
+import unicodedata
 import xml.etree.ElementTree as ET
 
 import numpy as np
@@ -97,3 +100,30 @@ def test_png_export_adds_the_channel_match_charts_below_the_spread_plots(iq_wind
                for y in range(0, bottom.height(), 3)}
     assert "#CC79A7" in colours or any(c.startswith("#CC7") for c in colours)  # a match span's limit
     assert "#0072B2" in colours  # the central band
+
+
+@pytest.mark.skipif(not (shutil.which("pdftotext") and shutil.which("pdfimages")), reason="poppler-utils not installed")
+def test_pdf_report_from_the_window_holds_the_channel_match_section(iq_window, qtbot, answers, tmp_path):
+    """Design > Export report (PDF) on the I/Q example: the Channel match section with its
+    two charts (images on its pages) and its table, whose failing boards are the window's
+    (read back with poppler's pdftotext and pdfimages)."""
+    path = tmp_path / "report.pdf"
+    answers.save_paths.append(str(path))
+    action(iq_window, "report_pdf").trigger()
+    qtbot.waitUntil(lambda: path.exists() and "report written" in iq_window.status_text.text(), timeout=120_000)
+    text = subprocess.run(["pdftotext", "-layout", str(path), "-"], capture_output=True, text=True,
+                          check=True).stdout
+    pages = unicodedata.normalize("NFKC", text).split("\f")  # the PDF's ligatures (ff, fl) as letters
+    where = [i for i, p in enumerate(pages, start=1) if re.search(r"^\s*Channel match\s*$", p, re.M)]
+    assert where, "no Channel match heading"
+    listing = subprocess.run(["pdfimages", "-list", str(path)], capture_output=True, text=True, check=True).stdout
+    image_pages = {int(r.split()[0]) for r in listing.splitlines()[2:] if r.split()[2:3] == ["image"]}
+    body = " ".join(" ".join(pages[where[0] - 1:where[0] + 1]).split())
+    body = body[body.index("Each board carries 2 identical channels"):]  # the section on
+    for q in ("gain", "phase"):
+        assert f"Largest {q} difference between any two channels" in body
+    assert {where[0], where[0] + 1} & image_pages  # the charts are drawn there
+    spans = {s.name: s for s in iq_window.session.last_view.spans}
+    table = body[body.index("Mismatch"):]
+    for name in ("I/Q gain match", "I/Q phase match"):  # failing boards (share of all boards, 2 decimals)
+        assert f"{spans[name].failed:,} ({100 * spans[name].fraction:.2f} %)" in table, name
