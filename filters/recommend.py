@@ -221,7 +221,8 @@ def candidate_grades(design: Design, catalog: Catalog | None = None) -> list[lis
         lists.append(ok)
     # with a purchase quantity and prices, costs are unit prices (before the dominance rule)
     lists = priced(lists, design.purchase.boards) or lists
-    return [[g for g in gs if not any(_dominates(h, g, a.temp_low_c, a.temp_high_c) for h in gs)] for gs in lists]
+    return [[g for g in gs if not any(_dominates(h, g, a.temp_low_c, a.temp_high_c, a.service_hours,
+                                                 a.service_temp_c) for h in gs)] for gs in lists]
 
 
 def _temperature_extent(g: Grade, t_low: float, t_high: float) -> float:
@@ -230,18 +231,18 @@ def _temperature_extent(g: Grade, t_low: float, t_high: float) -> float:
     return (abs(g.tempco_ppm) + g.tempco_spread_ppm) * 1e-6 * dt
 
 
-def _life_extent(g: Grade) -> tuple[float, float]:
-    """What a grade states of its life: load-life drift at its rating (%, with the rating's
-    hours and temperature folded in through a 1,000 h, 70 deg C reference) and class II ageing
-    per decade (%). A grade with more of either is not dominated by one with less."""
-    from .temperature_physics import life_fraction
+def _life_extent(g: Grade, hours: float, temp_c: float) -> float:
+    """Largest relative value change the grade's life drift and ageing cause after ``hours``
+    in service at ``temp_c`` (deg C); 0 when the design states no service life."""
+    from .temperature_physics import ageing_factor, life_fraction
 
-    return (life_fraction(g, 1000.0, 70.0), g.ageing_pct_per_decade)
+    return life_fraction(g, hours, temp_c) + abs(1.0 - ageing_factor(g, hours))
 
 
-def _dominates(h: Grade, g: Grade, t_low: float, t_high: float) -> bool:
+def _dominates(h: Grade, g: Grade, t_low: float, t_high: float, hours: float = 0.0, temp_c: float = 25.0) -> bool:
     """True when grade ``h`` is never worse than ``g`` and strictly better somewhere: no
-    dearer, the same distribution shape, no wider tolerance, temperature effect or drift.
+    dearer, the same distribution shape, no wider tolerance, temperature effect or drift
+    (with a service life of ``hours`` at ``temp_c``: nor life drift and ageing).
     Such a ``g`` can never be the cheapest choice, so the search leaves it out."""
     if h is g or h.name == g.name:
         return False
@@ -249,8 +250,10 @@ def _dominates(h: Grade, g: Grade, t_low: float, t_high: float) -> bool:
         (g.distribution, g.coverage, g.truncate, g.bin_inner_pct)
     if not same_shape or h.tempco_ppm != g.tempco_ppm and _temperature_extent(g, t_low, t_high) > 0:
         return False
-    keys_h = (h.cost, h.tolerance_pct, _temperature_extent(h, t_low, t_high), h.drift_pct, _life_extent(h))
-    keys_g = (g.cost, g.tolerance_pct, _temperature_extent(g, t_low, t_high), g.drift_pct, _life_extent(g))
+    keys_h = (h.cost, h.tolerance_pct, _temperature_extent(h, t_low, t_high), h.drift_pct,
+              _life_extent(h, hours, temp_c))
+    keys_g = (g.cost, g.tolerance_pct, _temperature_extent(g, t_low, t_high), g.drift_pct,
+              _life_extent(g, hours, temp_c))
     return all(x <= y for x, y in zip(keys_h, keys_g)) and keys_h != keys_g
 
 
