@@ -23,6 +23,10 @@ CLASS_II_WARNING = ("common practice keeps class II ceramics (X7R, X5R …) out 
                     "value moves with temperature, DC bias and age")
 
 
+HEADS = ["set", "cost", "yield", "interval", "lower bound", "yield after the service life", "its lower bound",
+         "target", "grades changed from current"]
+
+
 @dataclass
 class Extras:
     """What :func:`decision_extras` found: the capacitors given class II grades where the
@@ -46,7 +50,7 @@ def own_sets(design: Design, text: str) -> list[tuple[str, tuple[str, ...]]]:
 
 
 def decision_extras(design: Design, rec: Recommendation, target: float, confidence: float, samples: int,
-                    should_stop, own: list | None = None) -> Extras:
+                    should_stop, own: list | None = None, after_life: bool = False) -> Extras:
     """The class II check, the class-II-free alternative and the comparison of sets (with the
     user's ``own`` sets, from :func:`own_sets`, last)."""
     from ..grade_sets import class_ii_in_signal_path, compare_sets
@@ -60,7 +64,7 @@ def decision_extras(design: Design, rec: Recommendation, target: float, confiden
     out.suspects = class_ii_in_signal_path(design, rec.chosen.grades)
     if out.suspects:
         alt = recommend(with_constraints(design, signal_path_forbid=["class II"]), target, confidence=confidence,
-                        samples=samples, should_stop=should_stop)
+                        samples=samples, should_stop=should_stop, target_after_life=after_life)
         out.alternative_found = alt.chosen is not None
         if alt.chosen is not None:
             sets.append(("no class II", tuple(alt.chosen.grades)))
@@ -78,14 +82,13 @@ class GradeSetsView(QWidget):
         self.warning = note_label("class_ii_warning")
         self.warning.hide()
         self.heading = note_label("grade_sets_heading")
-        self.table: QTableWidget = result_table("grade_sets", ["set", "cost", "yield", "interval", "lower bound",
-                                                               "target", "grades changed from current"])
+        self.table: QTableWidget = result_table("grade_sets", HEADS)
         lay.addWidget(self.warning)
         lay.addWidget(self.heading)
         lay.addWidget(self.table)
         self.hide()
 
-    def show_extras(self, design: Design, ex: Extras, target: float) -> None:
+    def show_extras(self, design: Design, ex: Extras, target: float, after_life: bool = False) -> None:
         if not ex.sets:
             self.hide()
             return
@@ -105,7 +108,13 @@ class GradeSetsView(QWidget):
         for r in ex.sets:
             cost = money_text(r.money, ex.currency) if ex.money and r.money is not None else f"{r.cost:.2f}"
             changed = [f"{p.ref} {g}" for p, g, now in zip(design.parts, r.grades, current) if g != now]
+            life = [pct(r.after.estimate), pct(r.after_lower)] if r.after is not None else ["", ""]
             rows.append([r.label, cost, pct(r.yield_.estimate), f"{pct(r.yield_.low)} to {pct(r.yield_.high)}",
-                         pct(r.lower), "meets" if r.lower >= target else "misses",
+                         pct(r.lower), *life, "meets" if r.meets(target, after_life) else "misses",
                          ", ".join(changed) if r is not ex.sets[0] else ""])
+        has_life = any(r.after is not None for r in ex.sets)
+        self.table.setHorizontalHeaderLabels(HEADS[:7] + ["target (delivery and life)" if after_life else
+                                                          "target (at delivery)" if has_life else "target", HEADS[8]])
+        for col in (5, 6):  # the after-life columns only when the design states a service life
+            self.table.setColumnHidden(col, not has_life)
         fill_table(self.table, rows)

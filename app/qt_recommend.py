@@ -16,6 +16,7 @@ from ..recommend import Recommendation, cost_yield_curve, recommend
 
 from . import qt_style as st
 from .qt_background_dialog import percent_box
+from .cli_recommend import life_words
 from .qt_grade_sets import Extras, GradeSetsView, decision_extras, own_sets
 from ..report.numbers import format_pct
 from .qt_tasks import BackgroundTask
@@ -53,6 +54,13 @@ class RecommendDialog(QDialog):
         form.addRow("confidence of the bound", self.confidence)
         form.addRow("boards per candidate", self.samples)
         form.addRow("", self.with_curve)
+        self.after_life = QCheckBox("the target applies after the service life too")
+        self.after_life.setObjectName("target_after_life")
+        life = life_words(design)
+        self.after_life.setEnabled(bool(life))
+        self.after_life.setToolTip(f"a board passes only if it meets the mask at every judged temperature at delivery "
+                                   f"and {life}" if life else "the design states no service life (Settings)")
+        form.addRow("", self.after_life)
         self.own_set = QLineEdit()  # compared beside the current and recommended sets (app/qt_grade_sets.py)
         self.own_set.setObjectName("own_set")
         self.own_set.setPlaceholderText("optional, e.g. C1=C-C0G-2, R1=R-thin-1 (other parts keep their grade)")
@@ -123,6 +131,7 @@ class RecommendDialog(QDialog):
         confidence = self.confidence.value() / 100
         samples = self.samples.value()
         want_curve = self.with_curve.isChecked()
+        after_life = self.after_life.isChecked()
         try:
             own = own_sets(design, self.own_set.text())
         except InputError as exc:
@@ -131,10 +140,11 @@ class RecommendDialog(QDialog):
 
         def job(progress, should_stop):
             rec = recommend(design, target, confidence=confidence, samples=samples, progress=progress,
-                            should_stop=should_stop)
-            curve = cost_yield_curve(design, confidence=confidence, samples=samples,
-                                     should_stop=should_stop) if want_curve else None
-            return rec, curve, decision_extras(design, rec, target, confidence, samples, should_stop, own)
+                            should_stop=should_stop, target_after_life=after_life)
+            curve = cost_yield_curve(design, confidence=confidence, samples=samples, should_stop=should_stop,
+                                     target_after_life=after_life) if want_curve else None
+            return rec, curve, decision_extras(design, rec, target, confidence, samples, should_stop, own,
+                                               after_life=after_life)
 
         self.task = BackgroundTask(job, self)
         self.task.finished.connect(self._on_finished)
@@ -183,10 +193,22 @@ class RecommendDialog(QDialog):
             cost = (f"<b>{c.cost:.4g} {extras.currency or 'money'} per board</b> at {extras.boards:,} boards"
                     if extras is not None and extras.money else
                     f"<b>total relative cost {c.cost:.2f}</b> (current grades {rec.current_cost:.2f})")
+            life = life_words(d)
+            both = " at delivery and after the service life" if rec.target_after_life else ""
+            after = ""
+            if c.after_passed is not None:
+                after = (f"<br>At delivery {pct(c.delivery_estimate)}; <b>{life}: yield {pct(c.after_estimate)}</b>, "
+                         f"lower bound {pct(c.after_lower)} ({c.after_passed:,} of {c.samples:,}, the same boards, "
+                         "every judged temperature).")
+                if rec.after_life_short:
+                    after += (f"<br><span style='color:#D55E00'><b>Caution:</b> {life} this set's yield lower bound "
+                              f"{pct(c.after_lower)} is below the target {pct(rec.target_yield)}: it was searched at "
+                              "delivery only. Tick \u201cthe target applies after the service life too\u201d and search "
+                              "again before choosing these grades.</span>")
             self.summary.setText(f"{cost}; "
-                                 f"yield {pct(c.estimate)}, lower bound "
+                                 f"yield{both} {pct(c.estimate)}, lower bound "
                                  f"{pct(c.lower)} ({c.passed:,} of {c.samples:,} boards; {rec.evaluations} grade "
-                                 f"sets tried).{check}")
+                                 f"sets tried).{check}{after}")
             self.table.setRowCount(len(d.parts))
             money = extras is not None and extras.money
             self.table.setHorizontalHeaderItem(4, QTableWidgetItem(
@@ -206,7 +228,7 @@ class RecommendDialog(QDialog):
             self.apply_button.setEnabled(True)
             self.csv_button.setEnabled(True)
         if extras is not None:
-            self.sets_view.show_extras(d, extras, rec.target_yield)
+            self.sets_view.show_extras(d, extras, rec.target_yield, rec.target_after_life)
             self.caution.setText((f"Prices come from the catalog's price breaks at {extras.boards:,} parts of each. "
                                   if extras.money else COST_NOTE) + YIELD_CAUTION)
         if curve:
