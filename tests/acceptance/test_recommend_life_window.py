@@ -70,8 +70,8 @@ def test_recommend_dialog_after_life_figures_caution_and_check_box(starter, qtbo
     assert m and int(m.group(3).replace(",", "")) == after["passed"]
     assert want["after_life_below_target"] and "Caution:" in text and "after the service life too" in text
     rows = {dlg.sets_view.table.item(i, 0).text(): i for i in range(dlg.sets_view.table.rowCount())}
-    assert not dlg.sets_view.table.isColumnHidden(5)
-    shown = dlg.sets_view.table.item(rows["recommended"], 5).text()
+    assert not dlg.sets_view.table.isColumnHidden(7)
+    shown = dlg.sets_view.table.item(rows["recommended"], 7).text()
     assert shown and shown != dlg.sets_view.table.item(rows["recommended"], 2).text()  # differs from delivery
 
     # the check box: the target at delivery and after the life
@@ -92,6 +92,6 @@ def test_recommend_dialog_after_life_figures_caution_and_check_box(starter, qtbo
     assert run.returncode == 0, run.stderr
     got = json.loads(run_cli("analyze", str(design), "--samples", str(BOARDS), "--json", "-").stdout)
     assert got["service_life"]["after"]["passed"] == int(m.group(3).replace(",", ""))
-    assert "delivery and life" in dlg.sets_view.table.horizontalHeaderItem(7).text()
+    assert "delivery and life" in dlg.sets_view.table.horizontalHeaderItem(5).text()
     dlg.reject()
     assert not log_errors()
