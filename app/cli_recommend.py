@@ -130,7 +130,8 @@ def run(args: argparse.Namespace) -> int:
                       "on them; common practice keeps class II ceramics (X7R, X5R ...) out of filter signal paths, "
                       "as their value moves with temperature, DC bias and age. Searching without them ...\n")
             alt = recommend(with_constraints(design, signal_path_forbid=["class II"]), args.target_yield,
-                            confidence=args.confidence, samples=args.samples, seed=args.seed)
+                            confidence=args.confidence, samples=args.samples, seed=args.seed,
+                            target_after_life=life_on)
             if alt.chosen is None:
                 out.write("  No set without class II dielectrics in the signal path meets the target.\n")
             else:
@@ -143,7 +144,8 @@ def run(args: argparse.Namespace) -> int:
     if args.curve:
         curve = cost_yield_curve(design, confidence=args.confidence, samples=args.samples, seed=args.seed,
                                  catalog=catalog, target_after_life=life_on)
-        out.write("\n  cost-yield trade-off (cheapest set found per target)\n")
+        out.write("\n  cost-yield trade-off (cheapest set found per target"
+                  + (f", met at delivery and {life})\n" if rec.target_after_life else ")\n"))
         for t, r in curve:
             cost = "no set meets it" if r.chosen is None else f"{r.chosen.cost:.2f}"
             out.write(f"    target {pct(t):>9}: {cost}\n")

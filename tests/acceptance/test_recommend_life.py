@@ -9,6 +9,8 @@ RC, against a closed form computed here with scipy.
 """
 from __future__ import annotations
 
+import csv
+import io
 import json
 import math
 import re
@@ -82,7 +84,9 @@ def analyze_json(path, samples: int, tmp_path) -> dict:
 def test_rc_default_search_shows_the_after_life_yield_and_cautions(tmp_path):
     design = rc_life_file(tmp_path)
     out = tmp_path / "chosen.json"
-    run = run_cli("recommend", str(design), "--target-yield", "95%", "-o", str(out), "--json", "-")
+    csv_path, report = tmp_path / "parts.csv", tmp_path / "review.html"
+    run = run_cli("recommend", str(design), "--target-yield", "95%", "-o", str(out), "--json", "-",
+                  "--csv", str(csv_path), "--report", str(report))
     assert run.returncode == 0, run.stderr
     rec = json.loads(run.stdout)["recommendation"]
     text = run.stderr  # with --json - the text goes to stderr
@@ -101,6 +105,33 @@ def test_rc_default_search_shows_the_after_life_yield_and_cautions(tmp_path):
     sets = {c["label"]: c for c in json.loads(run.stdout)["compared"]}
     assert sets["recommended"]["after_life_yield"]["passed"] == after["passed"]
     assert re.search(r"yield after 0\.456 years at 70 °C", text)
+    # the parts list and the report's design table give the grade's life rating as the design file
+    # states it (R-drifty: 2 % after 1,000 h at 70 °C, no activation energy), not "none"
+    rows = {r["ref"]: r for r in csv.DictReader(io.StringIO(csv_path.read_text("utf-8-sig")))}
+    assert rows["R1"]["drift"] == "load life \u00b12 % after 1,000 h at 70 \u00b0C"
+    assert rows["C1"]["drift"] == "none"
+    html = report.read_text("utf-8")
+    assert "load life \u00b12 % after 1,000 h at 70 \u00b0C" in html
+    assert "Caution: after 0.456 years at 70 \u00b0C" in html
+    assert f"after 0.456 years at 70 \u00b0C {100 * after['estimate']:.2f} %" in html
+
+
+@pytest.mark.parametrize("name, words", [
+    # the built-in catalog's own figures (filters/data/catalog.json, read here)
+    ("R-thick-1", "load life \u00b1{life_drift_pct:g} % after {life_hours:,.0f} h at {life_temp_c:g} \u00b0C, "
+                  "scaled by {activation_ev:g} eV"),
+    ("C-X7R-10", "\u00b1{drift_pct:g} %; ageing {ageing_pct_per_decade:g} % per decade-hour"),
+    ("C-C0G-5", "none"),
+])
+def test_drift_words_follow_the_catalog(name, words):
+    from importlib import resources
+
+    from tolspread.grades import builtin_catalog
+    from tolspread.report.words import drift_text
+
+    shipped = {g["name"]: g for g in json.loads(
+        resources.files("tolspread").joinpath("data/catalog.json").read_text("utf-8"))["grades"]}
+    assert drift_text(builtin_catalog()[name]) == words.format(**shipped[name])
 
 
 def test_rc_target_after_life_chooses_the_steady_grade(tmp_path):
