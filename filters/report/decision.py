@@ -57,6 +57,7 @@ def comparison_section(ctx: Context) -> str:
     money, unit = _cost_unit(ctx)
     both_ways = bool(getattr(ctx.recommendation, "target_after_life", False))  # the target applied after the life too
     first = sets[0]
+    has_life = any(getattr(x, "after", None) is not None for x in sets)
     conf = f"{first.yield_.confidence * 100:g} %"
     rows = []
     for r in sets:
@@ -65,22 +66,22 @@ def comparison_section(ctx: Context) -> str:
                 else (", ".join(changed) or f"the same as {esc(first.label)}"))
         cost = f"{r.money:.4g}" if money else format_cost(r.cost)
         life = getattr(r, "after", None) is not None
-        row = [esc(r.label), what, cost, format_pct(r.yield_.estimate),
-               f"{format_pct(r.yield_.low)} to {format_pct(r.yield_.high)}", format_pct(r.lower)]
-        if any(getattr(x, "after", None) is not None for x in sets):  # the design states a service life
-            row += [format_pct(r.after.estimate), format_pct(r.after_lower)] if life else ["", ""]
         both = both_ways and getattr(r, "both_lower", None) is not None
-        rows.append(row + [_verdict(r.both_lower if both else r.lower, target)])
+        row = [esc(r.label), what, cost, format_pct(r.yield_.estimate),
+               f"{format_pct(r.yield_.low)} to {format_pct(r.yield_.high)}", format_pct(r.lower),
+               _verdict(r.both_lower if both else r.lower, target)]
+        if has_life:  # the design states a service life: the same boards after it
+            row += [format_pct(r.after.estimate), format_pct(r.after_lower)] if life else ["", ""]
+        rows.append(row)
     head = ["Set", "Grades (changes from the first set)", f"Cost ({unit})", "Yield", f"{conf} interval",
-            "Lower bound"]
-    if any(getattr(x, "after", None) is not None for x in sets):
+            "Lower bound", "Target" + ("" if not has_life else " (delivery and life)" if both_ways else " (at delivery)")]
+    if has_life:
         head += ["Yield after the service life", "Its lower bound"]
-    head += ["Target" + ("" if len(head) == 6 else " (delivery and life)" if both_ways else " (at delivery)")]
     out = [f"<p>Each set judged on the same {format_count(first.yield_.samples)} boards (the same seed); the "
            f"lower bound is one-sided at {conf}"
            + (f" and must reach the target <b>{format_pct(target, 1)}</b>." if target is not None else ".")
            + "</p>",
-           table(head, rows, numeric=[2, 3, 4, 5])]
+           table(head, rows, numeric=[2, 3, 4, 5] + ([7, 8] if has_life else []))]
     if any(r.label == "no class II" for r in sets):
         out.append("<p>The recommended set puts class II dielectrics (X7R, X5R ...) in the signal path, where "
                    "the response depends on them; common practice keeps them out, as their value moves with "
