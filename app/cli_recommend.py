@@ -92,9 +92,9 @@ def run(args: argparse.Namespace) -> int:
     pct = format_pct
     life = life_words(design)
     out.write(f"{design.name or 'design'}\n")
-    when = f" at delivery and {life}" if rec.target_after_life else (" at delivery" if life else "")
-    out.write(f"target: yield lower bound >= {pct(args.target_yield)}{when} at {100 * args.confidence:g} % "
-              f"confidence ({rec.search} search, {rec.evaluations:,} grade sets tried on the same boards)\n")
+    when = f", at delivery and {life}" if rec.target_after_life else (", at delivery" if life else "")
+    out.write(f"target: yield lower bound >= {pct(args.target_yield)} at {100 * args.confidence:g} % "
+              f"confidence{when} ({rec.search} search, {rec.evaluations:,} grade sets tried on the same boards)\n")
     if life_on and not life:
         out.write("  (--target-after-life: the design states no service life, so the target applies at delivery)\n")
     out.write("\n")
