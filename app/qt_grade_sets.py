@@ -23,8 +23,8 @@ CLASS_II_WARNING = ("common practice keeps class II ceramics (X7R, X5R …) out 
                     "value moves with temperature, DC bias and age")
 
 
-HEADS = ["set", "cost", "yield", "interval", "lower bound", "target", "grades changed from current",
-         "yield after the service life", "its lower bound"]
+HEADS = ["set", "cost", "yield", "interval", "lower bound", "yield after the service life", "its lower bound",
+         "target", "grades changed from current"]
 
 
 @dataclass
@@ -110,11 +110,11 @@ class GradeSetsView(QWidget):
             changed = [f"{p.ref} {g}" for p, g, now in zip(design.parts, r.grades, current) if g != now]
             life = [pct(r.after.estimate), pct(r.after_lower)] if r.after is not None else ["", ""]
             rows.append([r.label, cost, pct(r.yield_.estimate), f"{pct(r.yield_.low)} to {pct(r.yield_.high)}",
-                         pct(r.lower), "meets" if r.meets(target, after_life) else "misses",
-                         ", ".join(changed) if r is not ex.sets[0] else "", *life])
+                         pct(r.lower), *life, "meets" if r.meets(target, after_life) else "misses",
+                         ", ".join(changed) if r is not ex.sets[0] else ""])
         has_life = any(r.after is not None for r in ex.sets)
-        self.table.setHorizontalHeaderLabels(HEADS[:5] + ["target (delivery and life)" if after_life else
-                                                          "target (at delivery)" if has_life else "target"] + HEADS[6:])
-        for col in (7, 8):  # the after-life columns only when the design states a service life
+        self.table.setHorizontalHeaderLabels(HEADS[:7] + ["target (delivery and life)" if after_life else
+                                                          "target (at delivery)" if has_life else "target", HEADS[8]])
+        for col in (5, 6):  # the after-life columns beside the yield, only when the design states a service life
             self.table.setColumnHidden(col, not has_life)
         fill_table(self.table, rows)

@@ -42,7 +42,7 @@ def cli_recommend(tmp_path, *extra: str) -> dict:
     run = run_cli("recommend", "--target-yield", "97%", "--samples", str(BOARDS), "--json", str(out), *extra,
                   timeout=300)
     assert run.returncode == 0, run.stderr
-    return json.loads(out.read_text("utf-8"))["recommendation"]
+    return json.loads(out.read_text("utf-8"))
 
 
 def search(qtbot, dlg) -> str:
@@ -64,21 +64,24 @@ def test_recommend_dialog_after_life_figures_caution_and_check_box(starter, qtbo
 
     # searched at delivery: the after-life yield is shown beside it, with the caution
     text = search(qtbot, dlg)
-    want = cli_recommend(tmp_path)  # the same boards by the command line
+    data = cli_recommend(tmp_path)  # the same boards by the command line
+    want = data["recommendation"]
     after = want["chosen"]["after_life"]
     m = re.search(rf"after 20 years at 40 °C: yield {PCT}</b>, lower bound {PCT} \(([0-9,]+) of", text)
     assert m and int(m.group(3).replace(",", "")) == after["passed"]
     assert want["after_life_below_target"] and "Caution:" in text and "after the service life too" in text
     rows = {dlg.sets_view.table.item(i, 0).text(): i for i in range(dlg.sets_view.table.rowCount())}
-    assert not dlg.sets_view.table.isColumnHidden(7)
-    shown = dlg.sets_view.table.item(rows["recommended"], 7).text()
-    assert shown and shown != dlg.sets_view.table.item(rows["recommended"], 2).text()  # differs from delivery
+    assert not dlg.sets_view.table.isColumnHidden(5)
+    for c in data["compared"]:  # each set's after-life yield beside its yield: the command line's figures
+        assert dlg.sets_view.table.item(rows[c["label"]], 5).text() == f"{100 * c['after_life_yield']['estimate']:.2f} %"
+    shown = dlg.sets_view.table.item(rows["recommended"], 5).text()
+    assert shown != dlg.sets_view.table.item(rows["recommended"], 2).text()  # differs from delivery
 
     # the check box: the target at delivery and after the life
     click(dlg.after_life)
     assert dlg.after_life.isChecked()
     text = search(qtbot, dlg)
-    want = cli_recommend(tmp_path, "--target-after-life")
+    want = cli_recommend(tmp_path, "--target-after-life")["recommendation"]
     assert "Caution:" not in text and "at delivery and after the service life" in text
     chosen = [dlg.table.item(i, 3).text() for i in range(dlg.table.rowCount())]
     assert chosen == [want["grades"][dlg.table.item(i, 0).text().split()[0]] for i in range(dlg.table.rowCount())]
@@ -92,6 +95,6 @@ def test_recommend_dialog_after_life_figures_caution_and_check_box(starter, qtbo
     assert run.returncode == 0, run.stderr
     got = json.loads(run_cli("analyze", str(design), "--samples", str(BOARDS), "--json", "-").stdout)
     assert got["service_life"]["after"]["passed"] == int(m.group(3).replace(",", ""))
-    assert "delivery and life" in dlg.sets_view.table.horizontalHeaderItem(5).text()
+    assert "delivery and life" in dlg.sets_view.table.horizontalHeaderItem(7).text()
     dlg.reject()
     assert not log_errors()
