@@ -17,6 +17,7 @@ from PySide6.QtWidgets import QTableWidget, QVBoxLayout, QWidget
 from ..constraints import money_text, priced, with_constraints
 from ..design import Design
 from ..recommend import Recommendation, candidate_grades, recommend
+from .cli_recommend import life_words
 from .qt_background_dialog import fill_table, note_label, pct, result_table
 
 CLASS_II_WARNING = ("common practice keeps class II ceramics (X7R, X5R …) out of filter signal paths, as their "
@@ -113,8 +114,11 @@ class GradeSetsView(QWidget):
                          pct(r.lower), *life, "meets" if r.meets(target, after_life) else "misses",
                          ", ".join(changed) if r is not ex.sets[0] else ""])
         has_life = any(r.after is not None for r in ex.sets)
-        self.table.setHorizontalHeaderLabels(HEADS[:7] + ["target (delivery and life)" if after_life else
-                                                          "target (at delivery)" if has_life else "target", HEADS[8]])
+        life = life_words(design)  # "after 20 years at 40 °C"
+        target_head = ("target (delivery and life)" if after_life else "target (at delivery)" if has_life
+                       else "target")
+        self.table.setHorizontalHeaderLabels(HEADS[:5] + [f"yield {life}" if life else HEADS[5], HEADS[6],
+                                                          target_head, HEADS[8]])
         for col in (5, 6):  # the after-life columns beside the yield, only when the design states a service life
             self.table.setColumnHidden(col, not has_life)
         fill_table(self.table, rows)
