@@ -44,8 +44,6 @@ from .freed_memory import reuse_freed_memory  # re-exported: the program's memor
 __all__ = [
     "CHUNK_MAX",
     "WORKERS",
-    "MALLOC_MMAP_THRESHOLD",
-    "MALLOC_TRIM_THRESHOLD",
     "reuse_freed_memory",
     "STOP_POLL_S",
     "chunk_size",
