@@ -10,7 +10,9 @@ extra designs in bounded batches (:func:`filters.budget.evaluate_rows`).
 A board of N channels (``design.channels.count``) is evaluated as N rows, one a channel
 (:mod:`filters.channel_match`), so the rule counts its numbers N times: the rows a chunk
 evaluates, and their curves, grow N-fold even though only channel 1's values and metrics
-and the board's margins are kept.
+and the board's margins are kept. A design judged over an operating range or after a
+service life counts them twice (:func:`judged_copies`): the boards judged at the other
+temperatures and after the life live beside the base run's.
 
 So a run may keep at most :data:`MAX_NUMBERS` numbers, and one run's boards are limited to
 ``MAX_NUMBERS // numbers_per_board`` (and to :data:`filters.design.MAX_SAMPLES`). With the
@@ -26,11 +28,13 @@ import numpy as np
 from .design import MAX_SAMPLES
 from .errors import InputError
 from .evaluate import Ensemble, Prepared
+from .temperature_settings import judged_temperatures
 
 __all__ = [
     "MAX_NUMBERS",
     "MEMORY_BOUND_MIB",
     "numbers_per_board",
+    "judged_copies",
     "max_boards",
     "check_boards",
     "PIECE_NUMBERS",
@@ -57,7 +61,27 @@ def numbers_per_board(prep: Prepared) -> int:
         Numbers counted per board.
     """
     one = len(prep.design.parts) + len(prep.nominal.metrics) + len(prep.design.mask)
-    return prep.design.channels.count * one
+    return prep.design.channels.count * one * judged_copies(prep)
+
+
+def judged_copies(prep: Prepared) -> int:
+    """2 when the boards are judged again away from the base run (over an operating range or
+    after a service life), else 1: the boards judged at another temperature or after the life
+    are a second set of values, metrics and margins alive beside the base run's (measured:
+    the demo over its range at the old limit, 7,894,736 boards, peaked at 3,063 MiB).
+
+    Parameters
+    ----------
+    prep : Prepared
+        The prepared design.
+
+    Returns
+    -------
+    int
+        1 or 2.
+    """
+    a = prep.design.analysis
+    return 2 if judged_temperatures(a) or a.service_hours > 0 else 1
 
 
 def max_boards(prep: Prepared) -> int:
@@ -99,8 +123,10 @@ def check_boards(prep: Prepared, boards: int, path: str) -> None:
     if boards > most:
         per, n = numbers_per_board(prep), prep.design.channels.count
         each = f" for {n} channels" if n > 1 else ""
+        twice = (", counted twice: it is judged over its operating range or after its service life"
+                 if judged_copies(prep) > 1 else "")
         raise InputError(f"at most {most:,} boards for this design ({per} numbers a board{each}: parts, "
-                         f"metrics and margins; the memory bound is {MEMORY_BOUND_MIB // 1024} GB), "
+                         f"metrics and margins{twice}; the memory bound is {MEMORY_BOUND_MIB // 1024} GB), "
                          f"not {boards:,}", path)
 
 

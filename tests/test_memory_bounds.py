@@ -218,3 +218,21 @@ def test_samples_beyond_the_memory_rule_are_refused_before_any_work(tmp_path):
     assert proc.returncode == 2, proc.stderr
     lines = proc.stderr.strip().splitlines()
     assert len(lines) == 1 and "analysis.samples" in lines[0] and f"{most:,}" in lines[0], lines
+
+
+def test_a_design_judged_over_its_range_counts_its_numbers_twice(tmp_path):
+    """The demo over its range judges every board again at -40 and 85 degC and after its
+    life; those boards' values, metrics and margins live beside the base run's. At the
+    single-temperature limit (7,894,736 boards) it peaked at 3,063 MiB (benchmarks/memory.py),
+    over the 2 GB bound; the rule now counts its numbers twice. Refused through the program."""
+    from tests.demo_texts import demo_at_25c
+
+    over, at_25 = prepare(load_demo()), prepare(demo_at_25c())
+    assert numbers_per_board(over) == 2 * numbers_per_board(at_25)
+    most = max_boards(over)
+    assert most == MAX_NUMBERS // numbers_per_board(over) and max_boards(at_25) > 1.9 * most
+    proc = subprocess.run([sys.executable, "-m", "tolspread.app.cli", "analyze", "--samples", str(most + 1)],
+                          capture_output=True, text=True, timeout=120, cwd=ROOT)
+    assert proc.returncode == 2, proc.stderr
+    lines = proc.stderr.strip().splitlines()
+    assert len(lines) == 1 and f"{most:,}" in lines[0] and "operating range" in lines[0], lines
