@@ -22,6 +22,7 @@ from .evaluate import Ensemble, Prepared, prepare
 from .grades import Grade
 from .metric_names import margin_name
 from .stats import SpanFailures, YieldEstimate
+from .temperature_settings import over_range_or_life
 from .temperature_text import DEGREE
 
 __all__ = [
@@ -165,7 +166,7 @@ def compute_view(req: ViewRequest, prepared: Prepared | None = None,
     d = req.design
     n = d.analysis.samples if req.boards is None else min(req.boards, d.analysis.samples)
     judged, reference_only = d, False
-    if req.boards is not None and over_range_or_life(d):  # a drag's preview: the board temperature only
+    if req.boards is not None and over_range_or_life(d.analysis):  # a drag's preview: the board temperature only
         judged, reference_only = at_board_temperature(d), True
         if prepared is not None and prepared.design is d:  # nothing prepared depends on the range
             prepared = replace(prepared, design=judged)
@@ -214,13 +215,6 @@ def prepared_for(design: Design, last: Prepared | None = None) -> Prepared:
 def _untoleranced(design: Design) -> Design:
     """``design`` with no tolerance set on any part (each part as its grade has it)."""
     return replace(design, parts=tuple(replace(p, tolerance_pct=None) for p in design.parts))
-
-
-def over_range_or_life(design: Design) -> bool:
-    """True when ``design`` is judged over an operating range or after a service life
-    (:mod:`filters.temperature`): more than one evaluation per board."""
-    a = design.analysis
-    return a.operating_range_c is not None or bool(a.service_hours)
 
 
 def at_board_temperature(design: Design) -> Design:

@@ -28,7 +28,7 @@ import numpy as np
 from .design import MAX_SAMPLES
 from .errors import InputError
 from .evaluate import Ensemble, Prepared
-from .temperature_settings import judged_temperatures
+from .temperature_settings import over_range_or_life
 
 __all__ = [
     "MAX_NUMBERS",
@@ -80,8 +80,7 @@ def judged_copies(prep: Prepared) -> int:
     int
         1 or 2.
     """
-    a = prep.design.analysis
-    return 2 if judged_temperatures(a) or a.service_hours > 0 else 1
+    return 2 if over_range_or_life(prep.design.analysis) else 1
 
 
 def max_boards(prep: Prepared) -> int:

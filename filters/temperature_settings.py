@@ -16,6 +16,7 @@ __all__ = [
     "HOURS_PER_YEAR",
     "MAX_JUDGED",
     "judged_temperatures",
+    "over_range_or_life",
     "settings_from_dict",
     "settings_to_dict",
 ]
@@ -45,6 +46,23 @@ def judged_temperatures(analysis: Any) -> tuple[float, ...]:
     if lo <= REFERENCE_CELSIUS <= hi:
         pts.add(REFERENCE_CELSIUS)
     return tuple(sorted(pts))
+
+
+def over_range_or_life(analysis: Any) -> bool:
+    """True when the boards are judged again beyond the base run: over an operating range or
+    after a service life (:mod:`filters.temperature`).
+
+    Parameters
+    ----------
+    analysis : Analysis
+        The design's analysis settings.
+
+    Returns
+    -------
+    bool
+        True with a range or a life.
+    """
+    return analysis.operating_range_c is not None or bool(analysis.service_hours)
 
 
 def settings_from_dict(data: dict, problems: list[InputError], path: str) -> dict[str, Any]:
